@@ -1,0 +1,87 @@
+//! Circuit costs: depth, gate counts, critical-path duration and estimated success probability.
+//!
+//! In: a [`Circuit`] and, for the calibrated figures, per-gate durations and error rates (the
+//! device layer supplies them as closures so this module knows nothing of devices). Out: plain
+//! numbers. Depth is the ASAP layer count where every gate, measurements included, occupies one
+//! layer on each of its qubits; duration is the same longest path weighted by gate time.
+
+use super::{Circuit, Gate};
+use serde::Serialize;
+
+/// Structural costs of one circuit.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
+pub struct Counts {
+    pub depth: usize,
+    pub two_qubit: usize,
+    pub one_qubit: usize,
+    pub measurements: usize,
+    pub swaps: usize,
+}
+
+/// Counts gates and computes the depth.
+pub fn counts(c: &Circuit) -> Counts {
+    let mut out = Counts::default();
+    for g in &c.gates {
+        match g {
+            Gate::Measure(..) => out.measurements += 1,
+            Gate::Swap(..) => {
+                out.two_qubit += 1;
+                out.swaps += 1
+            }
+            g if g.is_two_qubit() => out.two_qubit += 1,
+            _ => out.one_qubit += 1,
+        }
+    }
+    out.depth = critical_path(c, |_| 1.0).round() as usize;
+    out
+}
+
+/// Length of the longest dependency chain with each gate weighted by `duration(gate)`.
+pub fn critical_path(c: &Circuit, duration: impl Fn(&Gate) -> f64) -> f64 {
+    let mut ready = vec![0.0f64; c.num_qubits];
+    let mut longest = 0.0f64;
+    for g in &c.gates {
+        let qs = g.qubits();
+        let start = qs.iter().map(|&q| ready[q as usize]).fold(0.0, f64::max);
+        let end = start + duration(g);
+        for &q in &qs {
+            ready[q as usize] = end;
+        }
+        longest = longest.max(end);
+    }
+    longest
+}
+
+/// `Π (1 − error(gate))` over every gate, measurements included: the usual first-order estimate
+/// of the probability that no error occurs (common practice; it ignores crosstalk and idling).
+pub fn success_probability(c: &Circuit, error: impl Fn(&Gate) -> f64) -> f64 {
+    c.gates.iter().map(|g| 1.0 - error(g)).product()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn depth_counts_parallel_gates_once() {
+        let mut c = Circuit::new(3, 1);
+        c.extend([
+            Gate::H(0),
+            Gate::H(1),
+            Gate::H(2),
+            Gate::Cx(0, 1),
+            Gate::X(2),
+            Gate::Cx(1, 2),
+            Gate::Measure(2, 0),
+        ]);
+        let k = counts(&c);
+        assert_eq!(k.depth, 4);
+        assert_eq!(k.two_qubit, 2);
+        assert_eq!(k.one_qubit, 4);
+        assert_eq!(k.measurements, 1);
+        let t = critical_path(&c, |g| if g.is_two_qubit() { 300.0 } else { 35.0 });
+        assert_eq!(t, 35.0 + 300.0 + 300.0 + 35.0);
+        let p = success_probability(&c, |g| if g.is_two_qubit() { 0.01 } else { 0.0 });
+        assert!((p - 0.99f64 * 0.99).abs() < 1e-15);
+    }
+}

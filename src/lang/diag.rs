@@ -1,0 +1,131 @@
+//! Diagnostics for bad input: file, line, column, the source line with a caret, and a hint.
+//!
+//! In: a byte offset (and length) into a source text, a message and a hint. Out: a
+//! [`Diagnostic`] that owns the excerpt it needs, so it can be rendered once, at the top of the
+//! program, after the source is gone. Line and column are computed only here, from the offset
+//! (columns count characters, 1-based).
+
+use std::fmt;
+
+/// One problem in one input file.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Diagnostic {
+    pub file: String,
+    /// 1-based line.
+    pub line: usize,
+    /// 1-based column in characters.
+    pub column: usize,
+    /// The offending source line, without its newline.
+    pub excerpt: String,
+    /// Caret width in characters (at least 1).
+    pub width: usize,
+    pub message: String,
+    pub hint: Option<String>,
+}
+
+impl Diagnostic {
+    /// A diagnostic at byte `offset` spanning `len` bytes of `src`.
+    pub fn at(
+        file: &str,
+        src: &str,
+        offset: usize,
+        len: usize,
+        message: impl Into<String>,
+        hint: Option<String>,
+    ) -> Diagnostic {
+        let offset = floor_char_boundary(src, offset.min(src.len()));
+        let line_start = src[..offset].rfind('\n').map_or(0, |i| i + 1);
+        let line_end = src[offset..].find('\n').map_or(src.len(), |i| offset + i);
+        let line = src[..offset].matches('\n').count() + 1;
+        let column = src[line_start..offset].chars().count() + 1;
+        let excerpt = src[line_start..line_end].trim_end_matches('\r').to_string();
+        let end = floor_char_boundary(src, (offset + len).min(line_end));
+        let width = src[offset..end].chars().count().max(1);
+        Diagnostic {
+            file: file.to_string(),
+            line,
+            column,
+            excerpt,
+            width,
+            message: message.into(),
+            hint,
+        }
+    }
+
+    /// A diagnostic about a whole file (no position inside it).
+    pub fn whole_file(file: &str, message: impl Into<String>, hint: Option<String>) -> Diagnostic {
+        Diagnostic {
+            file: file.to_string(),
+            line: 0,
+            column: 0,
+            excerpt: String::new(),
+            width: 0,
+            message: message.into(),
+            hint,
+        }
+    }
+}
+
+fn floor_char_boundary(s: &str, mut i: usize) -> usize {
+    while i > 0 && !s.is_char_boundary(i) {
+        i -= 1;
+    }
+    i
+}
+
+impl fmt::Display for Diagnostic {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.line == 0 {
+            writeln!(f, "error: {}: {}", self.file, self.message)?;
+        } else {
+            writeln!(
+                f,
+                "error: {}:{}:{}: {}",
+                self.file, self.line, self.column, self.message
+            )?;
+            let gutter = self.line.to_string().len();
+            writeln!(f, "{:gutter$} |", "")?;
+            writeln!(f, "{} | {}", self.line, self.excerpt)?;
+            writeln!(
+                f,
+                "{:gutter$} | {}{}",
+                "",
+                " ".repeat(self.column - 1),
+                "^".repeat(self.width)
+            )?;
+        }
+        if let Some(h) = &self.hint {
+            writeln!(f, "hint: {h}")?;
+        }
+        Ok(())
+    }
+}
+
+/// Renders a list of diagnostics, one after another.
+pub fn render_all(ds: &[Diagnostic]) -> String {
+    ds.iter()
+        .map(|d| d.to_string())
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn caret_sits_under_the_offending_text() {
+        let src = "qubits 4\nZ0 Q1\n";
+        let d = Diagnostic::at(
+            "a.ham",
+            src,
+            12,
+            2,
+            "unknown factor `Q1`",
+            Some("use X, Y or Z".into()),
+        );
+        assert_eq!((d.line, d.column), (2, 4));
+        let text = d.to_string();
+        assert_eq!(text, "error: a.ham:2:4: unknown factor `Q1`\n  |\n2 | Z0 Q1\n  |    ^^\nhint: use X, Y or Z\n");
+    }
+}

@@ -1,0 +1,326 @@
+//! Pauli strings as bit masks and real-coefficient Pauli sums.
+//!
+//! In: qubit indices and Pauli letters (from the parsers or from code). Out: [`PauliString`]
+//! values (two `u64` masks, so at most [`MAX_QUBITS`] qubits) and [`PauliSum`], a Hermitian
+//! operator `c·I + Σ_j c_j P_j` with real `c_j`, kept in a `BTreeMap` so every iteration order
+//! is deterministic.
+//!
+//! Convention: a string with masks `(x, z)` denotes `i^{|x∧z|} X^x Z^z`, so a qubit with both
+//! bits set carries `Y = i·X·Z`. With that convention every string is Hermitian and two strings
+//! commute exactly when `|x₁∧z₂| + |z₁∧x₂|` is even (one popcount).
+
+pub mod group;
+
+use num_complex::Complex64;
+use std::collections::BTreeMap;
+use std::fmt;
+
+/// Largest number of qubits a [`PauliString`] can address (bits of a `u64`).
+pub const MAX_QUBITS: usize = 64;
+
+/// One tensor factor of a Pauli string.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Pauli {
+    I,
+    X,
+    Y,
+    Z,
+}
+
+impl Pauli {
+    /// The letter used in text (`I X Y Z`).
+    pub fn letter(self) -> char {
+        match self {
+            Pauli::I => 'I',
+            Pauli::X => 'X',
+            Pauli::Y => 'Y',
+            Pauli::Z => 'Z',
+        }
+    }
+}
+
+/// A Hermitian Pauli string `i^{|x∧z|} X^x Z^z` on up to 64 qubits (qubit k is bit k).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
+pub struct PauliString {
+    pub x: u64,
+    pub z: u64,
+}
+
+impl PauliString {
+    /// The identity string.
+    pub const IDENTITY: PauliString = PauliString { x: 0, z: 0 };
+
+    /// A single-qubit factor on qubit `q` (`q < 64`).
+    pub fn single(q: usize, p: Pauli) -> PauliString {
+        assert!(q < MAX_QUBITS, "qubit index {q} exceeds the 64-qubit limit");
+        let bit = 1u64 << q;
+        match p {
+            Pauli::I => PauliString::IDENTITY,
+            Pauli::X => PauliString { x: bit, z: 0 },
+            Pauli::Y => PauliString { x: bit, z: bit },
+            Pauli::Z => PauliString { x: 0, z: bit },
+        }
+    }
+
+    /// Builds a string from `(qubit, letter)` pairs; repeated qubits are multiplied out and the
+    /// resulting phase is returned beside the string: `Π factors = phase · string`.
+    pub fn from_factors(factors: &[(usize, Pauli)]) -> (Complex64, PauliString) {
+        let mut phase = Complex64::new(1.0, 0.0);
+        let mut acc = PauliString::IDENTITY;
+        for &(q, p) in factors {
+            let (ph, s) = acc.mul(&PauliString::single(q, p));
+            phase *= ph;
+            acc = s;
+        }
+        (phase, acc)
+    }
+
+    /// The factor on qubit `q`.
+    pub fn get(&self, q: usize) -> Pauli {
+        let xb = (self.x >> q) & 1 == 1;
+        let zb = (self.z >> q) & 1 == 1;
+        match (xb, zb) {
+            (false, false) => Pauli::I,
+            (true, false) => Pauli::X,
+            (true, true) => Pauli::Y,
+            (false, true) => Pauli::Z,
+        }
+    }
+
+    /// Mask of the qubits on which the string acts non-trivially.
+    pub fn support(&self) -> u64 {
+        self.x | self.z
+    }
+
+    /// Number of non-identity factors.
+    pub fn weight(&self) -> u32 {
+        self.support().count_ones()
+    }
+
+    pub fn is_identity(&self) -> bool {
+        self.x == 0 && self.z == 0
+    }
+
+    /// Number of `Y` factors, `|x∧z|`.
+    pub fn y_count(&self) -> u32 {
+        (self.x & self.z).count_ones()
+    }
+
+    /// True when the two strings commute (symplectic product is even).
+    pub fn commutes_with(&self, other: &PauliString) -> bool {
+        ((self.x & other.z).count_ones() + (self.z & other.x).count_ones()) % 2 == 0
+    }
+
+    /// True when the two strings commute qubit by qubit (on every shared qubit the letters agree).
+    pub fn qubitwise_commutes_with(&self, other: &PauliString) -> bool {
+        let both = self.support() & other.support();
+        (self.x ^ other.x) & both == 0 && (self.z ^ other.z) & both == 0
+    }
+
+    /// Product `self · other = phase · result`, `phase ∈ {±1, ±i}`.
+    ///
+    /// With `P = i^{a} X^{x1} Z^{z1}` and `Q = i^{b} X^{x2} Z^{z2}`, moving `Z^{z1}` past `X^{x2}`
+    /// gives `(-1)^{|z1∧x2|}`, and the result's own `i^{|x∧z|}` is divided out.
+    pub fn mul(&self, other: &PauliString) -> (Complex64, PauliString) {
+        let x = self.x ^ other.x;
+        let z = self.z ^ other.z;
+        let power = self.y_count() as i64
+            + other.y_count() as i64
+            + 2 * (self.z & other.x).count_ones() as i64
+            - (x & z).count_ones() as i64;
+        (i_pow(power), PauliString { x, z })
+    }
+
+    /// Highest qubit index touched plus one (0 for the identity).
+    pub fn span(&self) -> usize {
+        let s = self.support();
+        if s == 0 {
+            0
+        } else {
+            64 - s.leading_zeros() as usize
+        }
+    }
+
+    /// Text form over `n` qubits, qubit 0 first, e.g. `XIZY`.
+    pub fn to_letters(&self, n: usize) -> String {
+        (0..n).map(|q| self.get(q).letter()).collect()
+    }
+
+    /// Sparse text form in the `.ham` language, e.g. `X0 Y1 Z3` (`I` for the identity).
+    pub fn to_factor_text(&self) -> String {
+        if self.is_identity() {
+            return "I".to_string();
+        }
+        let mut parts = Vec::new();
+        for q in 0..self.span() {
+            let p = self.get(q);
+            if p != Pauli::I {
+                parts.push(format!("{}{}", p.letter(), q));
+            }
+        }
+        parts.join(" ")
+    }
+
+    /// Applies the string to a computational basis state: `P|b⟩ = phase · |b'⟩`.
+    #[inline]
+    pub fn apply_to_basis(&self, b: u64) -> (Complex64, u64) {
+        let sign_flips = (b & self.z).count_ones() as i64 * 2;
+        (i_pow(self.y_count() as i64 + sign_flips), b ^ self.x)
+    }
+}
+
+impl fmt::Display for PauliString {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.to_factor_text())
+    }
+}
+
+/// `i^k` for any integer `k`.
+#[inline]
+pub fn i_pow(k: i64) -> Complex64 {
+    match k.rem_euclid(4) {
+        0 => Complex64::new(1.0, 0.0),
+        1 => Complex64::new(0.0, 1.0),
+        2 => Complex64::new(-1.0, 0.0),
+        _ => Complex64::new(0.0, -1.0),
+    }
+}
+
+/// A Hermitian operator `constant·I + Σ coeff·P` on `num_qubits` qubits.
+///
+/// Invariant: no identity key in `terms`, no zero coefficient, every key fits in `num_qubits`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PauliSum {
+    pub num_qubits: usize,
+    pub constant: f64,
+    pub terms: BTreeMap<PauliString, f64>,
+}
+
+impl PauliSum {
+    pub fn new(num_qubits: usize) -> PauliSum {
+        PauliSum {
+            num_qubits,
+            constant: 0.0,
+            terms: BTreeMap::new(),
+        }
+    }
+
+    /// Adds `coeff · P`, merging with an existing equal string and dropping exact zeros.
+    pub fn add(&mut self, p: PauliString, coeff: f64) {
+        if p.is_identity() {
+            self.constant += coeff;
+            return;
+        }
+        let e = self.terms.entry(p).or_insert(0.0);
+        *e += coeff;
+        if *e == 0.0 {
+            self.terms.remove(&p);
+        }
+    }
+
+    /// Terms as a vector in key order (deterministic).
+    pub fn term_list(&self) -> Vec<(PauliString, f64)> {
+        self.terms.iter().map(|(p, c)| (*p, *c)).collect()
+    }
+
+    /// `Σ |c_j|` over the non-identity terms (the usual product-formula cost scale).
+    pub fn one_norm(&self) -> f64 {
+        self.terms.values().map(|c| c.abs()).sum()
+    }
+
+    /// Drops terms with `|c| ≤ tol`; returns how many were dropped.
+    pub fn chop(&mut self, tol: f64) -> usize {
+        let before = self.terms.len();
+        self.terms.retain(|_, c| c.abs() > tol);
+        before - self.terms.len()
+    }
+
+    /// `H|v⟩` for a statevector over `num_qubits` qubits (qubit k = bit k of the index).
+    pub fn apply(&self, v: &[Complex64]) -> Vec<Complex64> {
+        let mut out: Vec<Complex64> = v.iter().map(|a| a * self.constant).collect();
+        for (p, c) in &self.terms {
+            for (b, amp) in v.iter().enumerate() {
+                let (ph, b2) = p.apply_to_basis(b as u64);
+                out[b2 as usize] += ph * amp * *c;
+            }
+        }
+        out
+    }
+
+    /// Dense matrix in the computational basis (row = output index). For small `n` only.
+    pub fn to_dense(&self) -> nalgebra::DMatrix<Complex64> {
+        let dim = 1usize << self.num_qubits;
+        let mut m = nalgebra::DMatrix::<Complex64>::zeros(dim, dim);
+        for b in 0..dim {
+            m[(b, b)] += Complex64::new(self.constant, 0.0);
+            for (p, c) in &self.terms {
+                let (ph, b2) = p.apply_to_basis(b as u64);
+                m[(b2 as usize, b)] += ph * *c;
+            }
+        }
+        m
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn dense1(p: Pauli) -> [[Complex64; 2]; 2] {
+        let o = Complex64::new(0.0, 0.0);
+        let l = Complex64::new(1.0, 0.0);
+        let i = Complex64::new(0.0, 1.0);
+        match p {
+            Pauli::I => [[l, o], [o, l]],
+            Pauli::X => [[o, l], [l, o]],
+            Pauli::Y => [[o, -i], [i, o]],
+            Pauli::Z => [[l, o], [o, -l]],
+        }
+    }
+
+    #[test]
+    fn single_qubit_products_match_the_pauli_algebra() {
+        // XY = iZ, YZ = iX, ZX = iY (Nielsen & Chuang 2010, eq. 2.40 and the relations below it).
+        let x = PauliString::single(0, Pauli::X);
+        let y = PauliString::single(0, Pauli::Y);
+        let z = PauliString::single(0, Pauli::Z);
+        assert_eq!(x.mul(&y), (Complex64::new(0.0, 1.0), z));
+        assert_eq!(y.mul(&z), (Complex64::new(0.0, 1.0), x));
+        assert_eq!(z.mul(&x), (Complex64::new(0.0, 1.0), y));
+        assert_eq!(y.mul(&x), (Complex64::new(0.0, -1.0), z));
+        assert_eq!(y.mul(&y), (Complex64::new(1.0, 0.0), PauliString::IDENTITY));
+    }
+
+    #[test]
+    fn apply_to_basis_matches_dense_matrices() {
+        for p in [Pauli::I, Pauli::X, Pauli::Y, Pauli::Z] {
+            let s = PauliString::single(0, p);
+            let m = dense1(p);
+            for b in 0..2u64 {
+                let (ph, b2) = s.apply_to_basis(b);
+                assert_eq!(m[b2 as usize][b as usize], ph, "{p:?} on |{b}⟩");
+            }
+        }
+    }
+
+    #[test]
+    fn commutation_is_the_symplectic_product() {
+        let xx = PauliString::from_factors(&[(0, Pauli::X), (1, Pauli::X)]).1;
+        let zz = PauliString::from_factors(&[(0, Pauli::Z), (1, Pauli::Z)]).1;
+        let zi = PauliString::single(0, Pauli::Z);
+        assert!(xx.commutes_with(&zz));
+        assert!(!xx.qubitwise_commutes_with(&zz));
+        assert!(!xx.commutes_with(&zi));
+    }
+
+    #[test]
+    fn sums_merge_and_drop_exact_zeros() {
+        let mut h = PauliSum::new(2);
+        let z0 = PauliString::single(0, Pauli::Z);
+        h.add(z0, 1.5);
+        h.add(z0, -1.5);
+        h.add(PauliString::IDENTITY, 2.0);
+        assert!(h.terms.is_empty());
+        assert_eq!(h.constant, 2.0);
+    }
+}
