@@ -1,1 +1,27 @@
-//! (to be written)
+//! The command layer: clap definitions (validated values only) and one function per command
+//! that builds the real objects, runs the library, and does the file I/O.
+//!
+//! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
+//! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
+
+pub mod io;
+
+use crate::error::Result;
+use clap::{Parser, Subcommand};
+
+/// Compile qubit Hamiltonians into real-time-evolution circuit campaigns, check them by
+/// simulation, and turn measured counts into energies.
+#[derive(Parser, Debug)]
+#[command(name = "phasewright", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {}
+
+/// Runs one command.
+pub fn run(cli: Cli) -> Result<()> {
+    match cli.command {}
+}

@@ -1,0 +1,54 @@
+//! File I/O helpers for the commands: read text with a clear error, write atomically.
+//!
+//! Invariant: an output file is either absent or complete. Every file is written to a temporary
+//! name in the target folder and renamed into place.
+
+use crate::error::{Error, Result};
+use crate::lang::diag::Diagnostic;
+use std::path::Path;
+
+/// Reads a UTF-8 text file; a file that is not text is a diagnostic (exit status 2).
+pub fn read_text(path: &Path) -> Result<String> {
+    let bytes = std::fs::read(path).map_err(|source| Error::Io {
+        path: path.display().to_string(),
+        source,
+        reading: true,
+    })?;
+    String::from_utf8(bytes).map_err(|e| {
+        Error::input(Diagnostic::whole_file(
+            &path.display().to_string(),
+            format!(
+                "not a text file (invalid UTF-8 at byte {})",
+                e.utf8_error().valid_up_to()
+            ),
+            Some("pass a plain-text input file".into()),
+        ))
+    })
+}
+
+/// Writes `contents` to `path` through a temporary file in the same folder.
+pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<()> {
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let werr = |source| Error::Io {
+        path: path.display().to_string(),
+        source,
+        reading: false,
+    };
+    std::fs::write(&tmp, contents).map_err(werr)?;
+    std::fs::rename(&tmp, path).map_err(|source| {
+        let _ = std::fs::remove_file(&tmp);
+        Error::Io {
+            path: path.display().to_string(),
+            source,
+            reading: false,
+        }
+    })
+}
