@@ -1,1 +1,3 @@
-//! (to be written)
+//! Circuit families: Hadamard-test overlaps, Krylov matrix elements, stochastic traces.
+
+pub mod plan;
