@@ -10,6 +10,7 @@
 //! `e^{-iπ/4}`), and the built-in `U(θ,φ,λ) = [[cos θ/2, −e^{iλ} sin θ/2], [e^{iφ} sin θ/2,
 //! e^{i(φ+λ)} cos θ/2]]`. `cx` has its control first.
 
+pub mod cancel;
 pub mod metrics;
 pub mod verify;
 
