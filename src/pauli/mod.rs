@@ -108,7 +108,7 @@ impl PauliString {
 
     /// True when the two strings commute (symplectic product is even).
     pub fn commutes_with(&self, other: &PauliString) -> bool {
-        ((self.x & other.z).count_ones() + (self.z & other.x).count_ones()) % 2 == 0
+        ((self.x & other.z).count_ones() + (self.z & other.x).count_ones()).is_multiple_of(2)
     }
 
     /// True when the two strings commute qubit by qubit (on every shared qubit the letters agree).

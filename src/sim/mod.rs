@@ -154,7 +154,7 @@ impl State {
         let yph = crate::pauli::i_pow(p.y_count() as i64);
         let z = p.z as usize;
         let sign = move |b: usize| {
-            if (b & z).count_ones() % 2 == 0 {
+            if (b & z).count_ones().is_multiple_of(2) {
                 1.0
             } else {
                 -1.0
@@ -218,7 +218,7 @@ impl State {
     pub fn expect_z_mask(&self, mask: u64) -> f64 {
         let f = |(b, a): (usize, &Complex64)| {
             let p = a.norm_sqr();
-            if (b as u64 & mask).count_ones() % 2 == 0 {
+            if (b as u64 & mask).count_ones().is_multiple_of(2) {
                 p
             } else {
                 -p

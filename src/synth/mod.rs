@@ -103,7 +103,7 @@ mod tests {
             s.amps[b] = Complex64::new(1.0, 0.0);
             let got = run(&c, s.clone());
             let mut want = s;
-            let on = control.map_or(true, |a| (b >> a) & 1 == 1);
+            let on = control.is_none_or(|a| (b >> a) & 1 == 1);
             if on {
                 want.apply_pauli_rotation(&r.pauli, r.theta);
             }
