@@ -21,6 +21,7 @@
 //! is a set of functions from values to values.
 
 pub mod app;
+pub mod check;
 pub mod circuit;
 pub mod device;
 pub mod error;
@@ -31,6 +32,7 @@ pub mod formula;
 pub mod lang;
 pub mod lower;
 pub mod pauli;
+pub mod pipeline;
 pub mod qasm;
 pub mod report;
 pub mod route;

@@ -231,6 +231,41 @@ impl Circuit {
     }
 }
 
+impl Circuit {
+    /// The same circuit on only the qubits it touches, relabelled `0..m` in ascending order, and
+    /// the map `new index → old index`. Untouched qubits stay in |0⟩ and never affect the result,
+    /// so simulating the compact circuit is exact; it keeps device-sized circuits small.
+    pub fn compacted(&self) -> (Circuit, Vec<Qubit>) {
+        let mut used = vec![false; self.num_qubits];
+        for g in &self.gates {
+            for q in g.qubits() {
+                used[q as usize] = true;
+            }
+        }
+        let old: Vec<Qubit> = (0..self.num_qubits as Qubit)
+            .filter(|&q| used[q as usize])
+            .collect();
+        let mut new_of = vec![0; self.num_qubits];
+        for (i, &q) in old.iter().enumerate() {
+            new_of[q as usize] = i as Qubit;
+        }
+        let gates = self
+            .gates
+            .iter()
+            .map(|g| g.map_qubits(|q| new_of[q as usize]))
+            .collect();
+        (
+            Circuit {
+                num_qubits: old.len(),
+                num_clbits: self.num_clbits,
+                gates,
+                global_phase: self.global_phase,
+            },
+            old,
+        )
+    }
+}
+
 /// Multiplies two 2×2 matrices: `a · b`.
 pub fn mat2_mul(a: &Mat2, b: &Mat2) -> Mat2 {
     let mut m = [[Complex64::new(0.0, 0.0); 2]; 2];

@@ -1,3 +1,260 @@
 //! Circuit families: Hadamard-test overlaps, Krylov matrix elements, stochastic traces.
+//!
+//! In: a Pauli sum, a [`Spec`] (family, formula, time grid, states) and a ladder planner for the
+//! CNOT chains. Out: [`Job`]s, one per circuit, each a *logical* circuit (system qubits `0..n`,
+//! ancilla `n`) with the [`plan::Read`]s that say what its counts estimate.
+//!
+//! The Hadamard test (Kitaev 1995; Cleve, Ekert, Macchiavello & Mosca, Proc. R. Soc. A 454, 339
+//! (1998)): the ancilla in |+⟩ controls `U`, giving `(|0⟩|ψ⟩ + |1⟩U|ψ⟩)/√2`, on which
+//! `⟨X_anc⟩ = Re⟨ψ|U|ψ⟩` and `⟨Y_anc⟩ = Im⟨ψ|U|ψ⟩`, and more generally
+//! `⟨X_anc ⊗ P⟩ = Re⟨ψ|P U|ψ⟩`, `⟨Y_anc ⊗ P⟩ = Im⟨ψ|P U|ψ⟩`. X is read with `h`, Y with `sdg`
+//! then `h` before measuring Z. Only the `rz` of each rotation is controlled (see `synth`).
+//!
+//! Invariant: every job's reads refer to classical bits the circuit measures, and the ancilla
+//! is always measured into bit 0.
 
 pub mod plan;
+
+use crate::circuit::cancel::cancel_inverses;
+use crate::circuit::{Circuit, Gate, Qubit};
+use crate::formula::{evolution, Order, Rotation};
+use crate::pauli::group::{colour_groups, Compat};
+use crate::pauli::{Pauli, PauliString, PauliSum};
+use plan::{Family, Part, Read, Target};
+use rand::Rng;
+use rand::SeedableRng;
+
+/// What to build.
+#[derive(Clone, Debug)]
+pub struct Spec {
+    pub family: Family,
+    pub order: Order,
+    /// Time between points.
+    pub dt: f64,
+    /// Number of time points K (k = 0..K).
+    pub points: usize,
+    /// Trotter steps per `dt`.
+    pub steps_per_dt: usize,
+    /// Reference states (`0 1 + - r l`, qubit 0 first): one for overlap/krylov, N for trace.
+    pub states: Vec<String>,
+}
+
+/// One circuit to emit.
+#[derive(Clone, Debug)]
+pub struct Job {
+    pub id: String,
+    pub k: usize,
+    pub time: f64,
+    pub part: Part,
+    pub state: usize,
+    pub group: Option<usize>,
+    pub reads: Vec<Read>,
+    /// Logical circuit: qubits `0..n` system, `n` ancilla; bit 0 = ancilla.
+    pub circuit: Circuit,
+}
+
+/// A reference-state letter that is not one of `0 1 + - r l`, at this character index.
+#[derive(Clone, Debug, PartialEq)]
+pub struct BadStateLetter {
+    pub index: usize,
+    pub letter: char,
+}
+
+/// Gates preparing a product of Pauli eigenstates from |0…0⟩:
+/// `0` → |0⟩, `1` → X, `+` → H, `-` → X·H, `r` → S·H (|+i⟩), `l` → S†·H (|−i⟩).
+pub fn state_prep(state: &str) -> Result<Vec<Gate>, BadStateLetter> {
+    let mut out = Vec::new();
+    for (i, ch) in state.chars().enumerate() {
+        let q = i as Qubit;
+        match ch {
+            '0' => {}
+            '1' => out.push(Gate::X(q)),
+            '+' => out.push(Gate::H(q)),
+            '-' => out.extend([Gate::X(q), Gate::H(q)]),
+            'r' => out.extend([Gate::H(q), Gate::S(q)]),
+            'l' => out.extend([Gate::H(q), Gate::Sdg(q)]),
+            letter => return Err(BadStateLetter { index: i, letter }),
+        }
+    }
+    Ok(out)
+}
+
+/// Draws `count` random product states, each qubit one of the six Pauli eigenstates, from `seed`.
+///
+/// Averaging `⟨φ|U|φ⟩` over such states is an unbiased estimator of `tr U / 2ⁿ`: the six
+/// eigenstates form a state 2-design on one qubit, so `E[|φ⟩⟨φ|] = I/2ⁿ` (Hutchinson, "A
+/// stochastic estimator of the trace of the influence matrix for Laplacian smoothing splines",
+/// Commun. Stat. Simul. Comput. 19, 1990, for the estimator; any distribution with that mean works).
+pub fn random_states(n: usize, count: usize, seed: u64) -> Vec<String> {
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let letters = ['0', '1', '+', '-', 'r', 'l'];
+    (0..count)
+        .map(|_| (0..n).map(|_| letters[rng.gen_range(0..6)]).collect())
+        .collect()
+}
+
+/// Measurement-basis groups for the Krylov family: qubit-wise commuting groups of the terms
+/// (indices into `h.term_list()`), by largest-first colouring.
+pub fn krylov_groups(h: &PauliSum) -> Vec<Vec<usize>> {
+    let strings: Vec<PauliString> = h.terms.keys().copied().collect();
+    colour_groups(&strings, Compat::QubitWise)
+}
+
+/// A Hadamard-test circuit: prepare, controlled program, ancilla basis for `part`, and the
+/// measurement of the ancilla (bit 0) and, if `basis` is given, of its support qubits after
+/// rotating each to Z (system qubit q into bit q+1).
+pub fn hadamard_test(
+    n: usize,
+    prep: &[Gate],
+    program: &[Rotation],
+    part: Part,
+    basis: Option<&PauliString>,
+    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+) -> Circuit {
+    let anc = n as Qubit;
+    let nbits = if basis.is_some() { n + 1 } else { 1 };
+    let mut c = Circuit::new(n + 1, nbits);
+    c.extend(prep.iter().copied());
+    c.push(Gate::H(anc));
+    for r in program {
+        c.extend(crate::synth::pauli_rotation_along(r, Some(anc), &ladder(r)));
+    }
+    match part {
+        Part::Re => c.push(Gate::H(anc)),
+        Part::Im => c.extend([Gate::Sdg(anc), Gate::H(anc)]),
+    }
+    c.push(Gate::Measure(anc, 0));
+    if let Some(b) = basis {
+        for q in 0..n {
+            match b.get(q) {
+                Pauli::I => continue,
+                Pauli::X => c.push(Gate::H(q as Qubit)),
+                Pauli::Y => c.extend([Gate::Sdg(q as Qubit), Gate::H(q as Qubit)]),
+                Pauli::Z => {}
+            }
+        }
+        for q in 0..n {
+            if b.get(q) != Pauli::I {
+                c.push(Gate::Measure(q as Qubit, q as u32 + 1));
+            }
+        }
+    }
+    cancel_inverses(&mut c);
+    c
+}
+
+/// The bits whose parity reads term `p` in a circuit measuring with [`hadamard_test`]'s layout.
+pub fn term_bits(p: &PauliString) -> Vec<u32> {
+    let s = p.support();
+    std::iter::once(0)
+        .chain((0..64u32).filter(|q| (s >> q) & 1 == 1).map(|q| q + 1))
+        .collect()
+}
+
+/// Every job of the campaign, in a fixed order (k, then state, then group, then part).
+pub fn build_jobs(
+    h: &PauliSum,
+    spec: &Spec,
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+) -> Vec<Job> {
+    use rayon::prelude::*;
+    let n = h.num_qubits;
+    let terms = crate::formula::order_terms(h);
+    let term_index: std::collections::BTreeMap<PauliString, usize> =
+        h.terms.keys().enumerate().map(|(i, p)| (*p, i)).collect();
+    let strings: Vec<PauliString> = h.terms.keys().copied().collect();
+    let groups = if spec.family == Family::Krylov {
+        krylov_groups(h)
+    } else {
+        Vec::new()
+    };
+    // Describe every circuit first (cheap), then synthesise them in parallel, keeping order.
+    struct Desc {
+        id: String,
+        k: usize,
+        part: Part,
+        state: usize,
+        group: Option<usize>,
+    }
+    let mut descs = Vec::new();
+    for k in 0..spec.points {
+        for s in 0..spec.states.len() {
+            for part in [Part::Re, Part::Im] {
+                let state_tag = if spec.family == Family::Trace {
+                    format!("s{s:03}-")
+                } else {
+                    String::new()
+                };
+                let ptag = if part == Part::Re { "re" } else { "im" };
+                if k > 0 {
+                    descs.push(Desc {
+                        id: format!("{state_tag}k{k:02}-{ptag}"),
+                        k,
+                        part,
+                        state: s,
+                        group: None,
+                    });
+                }
+                if spec.family == Family::Krylov && (k > 0 || part == Part::Re) {
+                    for g in 0..groups.len() {
+                        descs.push(Desc {
+                            id: format!("k{k:02}-{ptag}-g{g:02}"),
+                            k,
+                            part,
+                            state: s,
+                            group: Some(g),
+                        });
+                    }
+                }
+            }
+        }
+    }
+    let _ = &term_index;
+    descs
+        .into_par_iter()
+        .map(|d| {
+            let prep =
+                state_prep(&spec.states[d.state]).expect("states are validated before building");
+            let time = d.k as f64 * spec.dt;
+            let program = evolution(&terms, spec.order, time, d.k * spec.steps_per_dt);
+            let (basis, reads) = match d.group {
+                None => (
+                    None,
+                    vec![Read {
+                        target: Target::Overlap,
+                        bits: vec![0],
+                    }],
+                ),
+                Some(g) => {
+                    let members = &groups[g];
+                    let mut basis = PauliString::IDENTITY;
+                    for &i in members {
+                        basis = PauliString {
+                            x: basis.x | strings[i].x,
+                            z: basis.z | strings[i].z,
+                        };
+                    }
+                    let reads = members
+                        .iter()
+                        .map(|&i| Read {
+                            target: Target::Term { term: i },
+                            bits: term_bits(&strings[i]),
+                        })
+                        .collect();
+                    (Some(basis), reads)
+                }
+            };
+            let circuit = hadamard_test(n, &prep, &program, d.part, basis.as_ref(), ladder);
+            Job {
+                id: d.id,
+                k: d.k,
+                time,
+                part: d.part,
+                state: d.state,
+                group: d.group,
+                reads,
+                circuit,
+            }
+        })
+        .collect()
+}

@@ -169,6 +169,37 @@ impl PauliString {
     }
 }
 
+impl PauliString {
+    /// Parses the sparse text form written by [`PauliString::to_factor_text`] (`X0 Y1 Z3`, or
+    /// `I`). Repeated qubits are rejected (the writer never produces them).
+    pub fn parse_factor_text(text: &str) -> Option<PauliString> {
+        let text = text.trim();
+        if text == "I" {
+            return Some(PauliString::IDENTITY);
+        }
+        let mut out = PauliString::IDENTITY;
+        for tok in text.split_whitespace() {
+            let mut chars = tok.chars();
+            let p = match chars.next()? {
+                'X' => Pauli::X,
+                'Y' => Pauli::Y,
+                'Z' => Pauli::Z,
+                _ => return None,
+            };
+            let q: usize = chars.as_str().parse().ok()?;
+            if q >= MAX_QUBITS || out.get(q) != Pauli::I {
+                return None;
+            }
+            let f = PauliString::single(q, p);
+            out = PauliString {
+                x: out.x | f.x,
+                z: out.z | f.z,
+            };
+        }
+        Some(out)
+    }
+}
+
 impl fmt::Display for PauliString {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         f.write_str(&self.to_factor_text())

@@ -38,17 +38,45 @@ pub struct Propagator<'a> {
     psi: &'a State,
     /// For the dense route: `|⟨e_j|ψ⟩|²` and `E_j`.
     weights: Option<(Vec<f64>, Vec<f64>)>,
+    dense: Option<Spectrum>,
 }
 
 impl<'a> Propagator<'a> {
     pub fn new(h: &'a PauliSum, psi: &'a State) -> Propagator<'a> {
-        let weights = (h.num_qubits <= DENSE_MAX_QUBITS).then(|| {
-            let sp = spectrum(h);
+        let dense = (h.num_qubits <= DENSE_MAX_QUBITS).then(|| spectrum(h));
+        let weights = dense.as_ref().map(|sp| {
             let v = DVector::from_column_slice(&psi.amps);
             let c = sp.vectors.adjoint() * v;
-            (c.iter().map(|a| a.norm_sqr()).collect(), sp.values)
+            (c.iter().map(|a| a.norm_sqr()).collect(), sp.values.clone())
         });
-        Propagator { h, psi, weights }
+        Propagator {
+            h,
+            psi,
+            weights,
+            dense,
+        }
+    }
+
+    /// `e^{-iHt}|ψ⟩`.
+    pub fn evolve(&self, t: f64) -> State {
+        match &self.dense {
+            Some(sp) => {
+                let v = DVector::from_column_slice(&self.psi.amps);
+                let c = sp.vectors.adjoint() * v;
+                let phased = DVector::from_iterator(
+                    c.len(),
+                    c.iter()
+                        .zip(&sp.values)
+                        .map(|(a, e)| a * Complex64::from_polar(1.0, -e * t)),
+                );
+                let out = &sp.vectors * phased;
+                State {
+                    n: self.psi.n,
+                    amps: out.iter().copied().collect(),
+                }
+            }
+            None => evolve_taylor(self.h, self.psi, t),
+        }
     }
 
     /// `⟨ψ|e^{-iHt}|ψ⟩`.

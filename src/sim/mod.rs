@@ -201,6 +201,19 @@ impl State {
         }
     }
 
+    /// `P|self⟩` as a new state.
+    pub fn pauli_applied(&self, p: &PauliString) -> State {
+        let mut out = vec![Complex64::new(0.0, 0.0); self.amps.len()];
+        for (b, a) in self.amps.iter().enumerate() {
+            let (ph, b2) = p.apply_to_basis(b as u64);
+            out[b2 as usize] = ph * a;
+        }
+        State {
+            n: self.n,
+            amps: out,
+        }
+    }
+
     /// `⟨P⟩` for a Pauli string.
     pub fn expect_pauli(&self, p: &PauliString) -> Complex64 {
         let f = |(b, a): (usize, &Complex64)| {
