@@ -1,1 +1,316 @@
-//! (to be written)
+//! The device model: coupling graph, native gates and calibration.
+//!
+//! In: a name, a qubit count, undirected couplings, a [`NativeSet`] and a [`Calibration`] (from
+//! the `.dev` parser in `lang::dev`, or from code). Out: a [`Device`] that answers what routing,
+//! lowering and costing ask: is a pair coupled, how far apart are two qubits, what does a gate
+//! cost in error and time. Invariants: physical qubit `k` is node `k` of the petgraph graph;
+//! couplings are undirected, without self-loops or duplicates; the all-pairs hop distances are
+//! computed once, at construction ([`UNREACHABLE`] between components).
+//!
+//! Calibration defaults: a gate without an error rate has error 0 and a gate without a time
+//! takes 0 ns (the usual treatment of virtual `rz`); a measurement uses the readout error and
+//! the time given for `measure`.
+
+pub mod lattice;
+pub mod native;
+
+use crate::circuit::metrics::{counts, critical_path, success_probability};
+use crate::circuit::{Circuit, Gate};
+use crate::family::plan::Costs;
+use petgraph::graph::{NodeIndex, UnGraph};
+use std::collections::{BTreeMap, VecDeque};
+
+pub use lattice::Link;
+pub use native::{Entangler, NativeSet, OneQubitBasis};
+
+/// Distance between qubits in different components.
+pub const UNREACHABLE: u32 = u32::MAX;
+
+/// Error rates and gate times. Keys are gate names as in [`NativeSet::names`].
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Calibration {
+    /// Default error rate per gate name.
+    pub error_rate: BTreeMap<String, f64>,
+    /// Error rate of a one-qubit gate on one qubit, overriding the default.
+    pub qubit_error_rate: BTreeMap<(String, u32), f64>,
+    /// Error rate of a two-qubit gate on one link `(a, b)`, `a < b`, overriding the default.
+    pub link_error_rate: BTreeMap<(String, u32, u32), f64>,
+    /// Readout (measurement) error rate, default and per qubit.
+    pub readout_error_rate: f64,
+    pub qubit_readout_error_rate: BTreeMap<u32, f64>,
+    /// Duration per gate name in ns; `measure` for readout.
+    pub time_ns: BTreeMap<String, f64>,
+}
+
+/// A device: what the compiler needs to know to place, route, lower and cost a circuit.
+#[derive(Clone, Debug)]
+pub struct Device {
+    pub name: String,
+    pub num_qubits: usize,
+    /// Undirected coupling graph; node `k` is physical qubit `k`.
+    pub graph: UnGraph<(), ()>,
+    pub native: NativeSet,
+    pub calibration: Calibration,
+    /// Row-major all-pairs hop distances.
+    dist: Vec<u32>,
+}
+
+impl Device {
+    /// Builds a device; `links` may come in any order and may repeat (self-links are dropped).
+    pub fn new(
+        name: &str,
+        num_qubits: usize,
+        links: &[Link],
+        native: NativeSet,
+        calibration: Calibration,
+    ) -> Device {
+        let mut graph = UnGraph::<(), ()>::with_capacity(num_qubits, links.len());
+        for _ in 0..num_qubits {
+            graph.add_node(());
+        }
+        let mut sorted: Vec<Link> = links
+            .iter()
+            .filter(|(a, b)| a != b)
+            .map(|&(a, b)| (a.min(b), a.max(b)))
+            .collect();
+        sorted.sort_unstable();
+        sorted.dedup();
+        for (a, b) in sorted {
+            graph.add_edge(NodeIndex::new(a as usize), NodeIndex::new(b as usize), ());
+        }
+        let dist = all_pairs_hops(&graph);
+        Device {
+            name: name.to_string(),
+            num_qubits,
+            graph,
+            native,
+            calibration,
+            dist,
+        }
+    }
+
+    /// An ideal all-to-all device with `{rz, sx, x, cx}`, no errors and no gate times.
+    pub fn all_to_all(n: usize) -> Device {
+        Device::new(
+            &format!("all-to-all-{n}"),
+            n,
+            &lattice::full(n as u32),
+            NativeSet::rz_sx_x_cx(),
+            Calibration::default(),
+        )
+    }
+
+    /// True when a two-qubit gate may act on `a` and `b`.
+    pub fn coupled(&self, a: u32, b: u32) -> bool {
+        self.distance(a, b) == 1
+    }
+
+    /// Hop distance in the coupling graph ([`UNREACHABLE`] across components, 0 on the diagonal).
+    pub fn distance(&self, a: u32, b: u32) -> u32 {
+        let n = self.num_qubits;
+        let (a, b) = (a as usize, b as usize);
+        if a >= n || b >= n {
+            return UNREACHABLE;
+        }
+        self.dist[a * n + b]
+    }
+
+    /// Neighbours of physical qubit `q`, ascending.
+    pub fn neighbours(&self, q: u32) -> Vec<u32> {
+        let mut v: Vec<u32> = self
+            .graph
+            .neighbors(NodeIndex::new(q as usize))
+            .map(|n| n.index() as u32)
+            .collect();
+        v.sort_unstable();
+        v
+    }
+
+    /// The couplings `(a, b)`, `a < b`, ascending.
+    pub fn links(&self) -> Vec<Link> {
+        let mut v: Vec<Link> = self
+            .graph
+            .edge_indices()
+            .filter_map(|e| self.graph.edge_endpoints(e))
+            .map(|(a, b)| {
+                let (a, b) = (a.index() as u32, b.index() as u32);
+                (a.min(b), a.max(b))
+            })
+            .collect();
+        v.sort_unstable();
+        v
+    }
+
+    /// Connected components, each ascending, ordered by size (largest first), then by first qubit.
+    pub fn components(&self) -> Vec<Vec<u32>> {
+        let n = self.num_qubits;
+        let mut seen = vec![false; n];
+        let mut out = Vec::new();
+        for s in 0..n {
+            if seen[s] {
+                continue;
+            }
+            let mut comp: Vec<u32> = (0..n as u32)
+                .filter(|&q| self.dist[s * n + q as usize] != UNREACHABLE)
+                .collect();
+            comp.sort_unstable();
+            for &q in &comp {
+                seen[q as usize] = true;
+            }
+            out.push(comp);
+        }
+        out.sort_by(|a, b| b.len().cmp(&a.len()).then(a[0].cmp(&b[0])));
+        out
+    }
+
+    /// Native gate names in the spelling [`crate::circuit::verify::Rules::native`] expects.
+    pub fn native_names(&self) -> Vec<String> {
+        self.native.names.clone()
+    }
+
+    /// Error rate of one gate occurrence (readout error for a measurement; 0 when not given).
+    pub fn gate_error(&self, g: &Gate) -> f64 {
+        let cal = &self.calibration;
+        let name = g.name().to_string();
+        match *g {
+            Gate::Measure(q, _) => cal
+                .qubit_readout_error_rate
+                .get(&q)
+                .copied()
+                .unwrap_or(cal.readout_error_rate),
+            _ if g.is_two_qubit() => {
+                let qs = g.qubits();
+                let (a, b) = (qs[0].min(qs[1]), qs[0].max(qs[1]));
+                cal.link_error_rate
+                    .get(&(name.clone(), a, b))
+                    .or_else(|| cal.error_rate.get(&name))
+                    .copied()
+                    .unwrap_or(0.0)
+            }
+            _ => {
+                let q = g.qubits()[0];
+                cal.qubit_error_rate
+                    .get(&(name.clone(), q))
+                    .or_else(|| cal.error_rate.get(&name))
+                    .copied()
+                    .unwrap_or(0.0)
+            }
+        }
+    }
+
+    /// Duration of one gate occurrence in ns (`measure` time for a measurement; 0 when not given).
+    pub fn gate_time_ns(&self, g: &Gate) -> f64 {
+        self.calibration
+            .time_ns
+            .get(g.name())
+            .copied()
+            .unwrap_or(0.0)
+    }
+}
+
+/// Breadth-first search from every node: O(V·(V+E)).
+fn all_pairs_hops(g: &UnGraph<(), ()>) -> Vec<u32> {
+    let n = g.node_count();
+    let mut dist = vec![UNREACHABLE; n * n];
+    let mut queue = VecDeque::new();
+    for s in 0..n {
+        let row = &mut dist[s * n..(s + 1) * n];
+        row[s] = 0;
+        queue.clear();
+        queue.push_back(s);
+        while let Some(u) = queue.pop_front() {
+            let du = row[u];
+            for v in g.neighbors(NodeIndex::new(u)) {
+                let v = v.index();
+                if row[v] == UNREACHABLE {
+                    row[v] = du + 1;
+                    queue.push_back(v);
+                }
+            }
+        }
+    }
+    dist
+}
+
+/// Costs of a routed, lowered circuit on `dev`, as recorded in plan.json: depth, gate counts,
+/// `swaps` (inserted by routing; pass the number from [`crate::route::Routed`]), critical-path
+/// duration from the gate times, and `Π (1 − error)` over gates and readouts.
+pub fn costs(c: &Circuit, dev: &Device, swaps: usize) -> Costs {
+    let k = counts(c);
+    Costs {
+        depth: k.depth,
+        two_qubit: k.two_qubit,
+        one_qubit: k.one_qubit,
+        swaps,
+        duration_ns: Some(critical_path(c, |g| dev.gate_time_ns(g))),
+        success_probability: Some(success_probability(c, |g| dev.gate_error(g))),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn grid_device() -> Device {
+        let mut cal = Calibration::default();
+        cal.error_rate.insert("cx".into(), 0.01);
+        cal.error_rate.insert("sx".into(), 0.001);
+        cal.link_error_rate.insert(("cx".into(), 0, 1), 0.05);
+        cal.readout_error_rate = 0.02;
+        cal.time_ns.insert("cx".into(), 300.0);
+        cal.time_ns.insert("sx".into(), 35.0);
+        cal.time_ns.insert("measure".into(), 1000.0);
+        Device::new(
+            "g",
+            6,
+            &lattice::grid(2, 3),
+            NativeSet::rz_sx_x_cx(),
+            cal,
+        )
+    }
+
+    #[test]
+    fn distances_on_a_grid_are_manhattan() {
+        let d = grid_device();
+        for a in 0..6u32 {
+            for b in 0..6u32 {
+                let (ra, ca) = (a / 3, a % 3);
+                let (rb, cb) = (b / 3, b % 3);
+                assert_eq!(d.distance(a, b), ra.abs_diff(rb) + ca.abs_diff(cb));
+            }
+        }
+        assert!(d.coupled(1, 4) && d.coupled(4, 1) && !d.coupled(0, 4));
+        assert_eq!(d.neighbours(4), vec![1, 3, 5]);
+    }
+
+    #[test]
+    fn components_are_found_and_ordered() {
+        let d = Device::new(
+            "x",
+            6,
+            &[(0, 1), (3, 4), (4, 5)],
+            NativeSet::rz_sx_x_cx(),
+            Calibration::default(),
+        );
+        assert_eq!(d.components(), vec![vec![3, 4, 5], vec![0, 1], vec![2]]);
+        assert_eq!(d.distance(0, 3), UNREACHABLE);
+    }
+
+    #[test]
+    fn costs_use_link_overrides_and_readout() {
+        let d = grid_device();
+        let mut c = Circuit::new(6, 1);
+        c.extend([
+            Gate::Sx(0),
+            Gate::Cx(0, 1),
+            Gate::Cx(1, 2),
+            Gate::Rz(2, 0.1),
+            Gate::Measure(2, 0),
+        ]);
+        let k = costs(&c, &d, 0);
+        assert_eq!(k.two_qubit, 2);
+        assert_eq!(k.duration_ns, Some(35.0 + 300.0 + 300.0 + 0.0 + 1000.0));
+        let p = (1.0 - 0.001) * (1.0 - 0.05) * (1.0 - 0.01) * (1.0 - 0.02);
+        assert!((k.success_probability.unwrap() - p).abs() < 1e-15);
+    }
+}
