@@ -1,0 +1,654 @@
+//! The `.dev` device language (grammar: `grammar/device.ebnf`, examples: `grammar/device.md`).
+//!
+//! In: a file name and its text. Out: a [`Device`], or every problem found, each a
+//! [`Diagnostic`] with a caret under the offending text. Two stages: nom productions turn each
+//! line into a statement holding source slices (so every value keeps its position); a second
+//! pass checks meaning (gate names, universality, qubit ranges, links, rates, units) and builds
+//! the device. A line with a syntax error is reported and skipped, so one run lists the
+//! problems of every line. Never panics on any input.
+//!
+//! Statements (one per line, `#` starts a comment): `name`, `qubits`, `native`, `lattice`,
+//! `link`, `cut`, `error`, `time`. Lattices and links add couplings and cuts remove them, in
+//! file order; error rates and times are checked against the final coupling graph.
+
+use crate::device::native::{gate_arity, is_standard_gate};
+use crate::device::{lattice, Calibration, Device, Link, NativeSet};
+use crate::lang::diag::Diagnostic;
+use nom::branch::alt;
+use nom::bytes::complete::{tag, take_while1};
+use nom::character::complete::{alpha1, alphanumeric1, char, digit1, space0, space1};
+use nom::combinator::{cut, eof, map, not, opt, peek, recognize};
+use nom::error::{context, ContextError, ErrorKind, ParseError};
+use nom::multi::{many0_count, many1};
+use nom::number::complete::recognize_float;
+use nom::sequence::{pair, preceded, terminated, tuple};
+use nom::IResult;
+use std::collections::{BTreeMap, BTreeSet};
+
+/// Largest device the language accepts (the all-pairs distance table grows as the square).
+pub const MAX_DEVICE_QUBITS: u64 = 4096;
+
+/// A syntax error: where, and what was expected there (the innermost `context`).
+#[derive(Debug)]
+struct PErr<'a> {
+    at: &'a str,
+    expected: Option<&'static str>,
+}
+
+impl<'a> ParseError<&'a str> for PErr<'a> {
+    fn from_error_kind(input: &'a str, _kind: ErrorKind) -> Self {
+        PErr {
+            at: input,
+            expected: None,
+        }
+    }
+    fn append(_input: &'a str, _kind: ErrorKind, other: Self) -> Self {
+        other
+    }
+}
+
+impl<'a> ContextError<&'a str> for PErr<'a> {
+    fn add_context(_input: &'a str, ctx: &'static str, mut other: Self) -> Self {
+        other.expected.get_or_insert(ctx);
+        other
+    }
+}
+
+type Res<'a, T> = IResult<&'a str, T, PErr<'a>>;
+
+/// An error-rate target: a qubit or a link `a-b`.
+#[derive(Debug)]
+enum Target<'a> {
+    Qubit(&'a str),
+    Link(&'a str, &'a str, &'a str),
+}
+
+#[derive(Debug)]
+enum Stmt<'a> {
+    Name(&'a str),
+    Qubits(&'a str),
+    Native(Vec<&'a str>),
+    Lattice(&'a str, Vec<&'a str>),
+    Link(&'a str, &'a str),
+    Cut(&'a str, &'a str),
+    Error(&'a str, Option<Target<'a>>, &'a str),
+    Time(&'a str, &'a str, &'a str),
+}
+
+// ---- productions, bottom-up -------------------------------------------------------------
+
+fn ident(i: &str) -> Res<'_, &str> {
+    recognize(pair(
+        alt((alpha1, tag("_"))),
+        many0_count(alt((alphanumeric1, tag("_")))),
+    ))(i)
+}
+
+fn keyword<'a>(word: &'static str) -> impl FnMut(&'a str) -> Res<'a, &'a str> {
+    terminated(tag(word), not(peek(alt((alphanumeric1, tag("_"))))))
+}
+
+fn arg<'a, O>(
+    what: &'static str,
+    p: impl FnMut(&'a str) -> Res<'a, O>,
+) -> impl FnMut(&'a str) -> Res<'a, O> {
+    context(what, preceded(space1, p))
+}
+
+fn name_value(i: &str) -> Res<'_, &str> {
+    take_while1(|c: char| !c.is_whitespace() && c != '#')(i)
+}
+
+fn target(i: &str) -> Res<'_, Target<'_>> {
+    preceded(
+        space1,
+        alt((
+            map(
+                recognize(tuple((digit1, char('-'), digit1))),
+                |s: &str| {
+                    let k = s.find('-').expect("dash");
+                    Target::Link(s, &s[..k], &s[k + 1..])
+                },
+            ),
+            map(terminated(digit1, peek(space1)), Target::Qubit),
+        )),
+    )(i)
+}
+
+fn statement(i: &str) -> Res<'_, Stmt<'_>> {
+    alt((
+        map(
+            preceded(keyword("name"), cut(arg("a device name", name_value))),
+            Stmt::Name,
+        ),
+        map(
+            preceded(keyword("qubits"), cut(arg("a qubit count", digit1))),
+            Stmt::Qubits,
+        ),
+        map(
+            preceded(
+                keyword("native"),
+                cut(context("gate names", many1(preceded(space1, ident)))),
+            ),
+            Stmt::Native,
+        ),
+        map(
+            preceded(
+                keyword("lattice"),
+                cut(pair(
+                    arg("a lattice kind (line, ring, grid, brickwall, full)", ident),
+                    context("a lattice size", many1(preceded(space1, digit1))),
+                )),
+            ),
+            |(k, s)| Stmt::Lattice(k, s),
+        ),
+        map(
+            preceded(
+                keyword("link"),
+                cut(pair(arg("a qubit number", digit1), arg("a qubit number", digit1))),
+            ),
+            |(a, b)| Stmt::Link(a, b),
+        ),
+        map(
+            preceded(
+                keyword("cut"),
+                cut(pair(arg("a qubit number", digit1), arg("a qubit number", digit1))),
+            ),
+            |(a, b)| Stmt::Cut(a, b),
+        ),
+        map(
+            preceded(
+                keyword("error"),
+                cut(tuple((
+                    arg("a gate name or `readout`", ident),
+                    opt(target),
+                    arg("an error rate", recognize_float),
+                ))),
+            ),
+            |(g, t, r)| Stmt::Error(g, t, r),
+        ),
+        map(
+            preceded(
+                keyword("time"),
+                cut(tuple((
+                    arg("a gate name or `measure`", ident),
+                    arg("a duration such as `300ns`", recognize_float),
+                    context("a time unit (`ns` or `us`)", preceded(space0, alpha1)),
+                ))),
+            ),
+            |(g, v, u)| Stmt::Time(g, v, u),
+        ),
+    ))(i)
+}
+
+/// One line: optional statement, optional comment, end.
+fn line(i: &str) -> Res<'_, Option<Stmt<'_>>> {
+    let (i, _) = space0(i)?;
+    let (i, s) = opt(statement)(i)?;
+    let (i, _) = space0(i)?;
+    let (i, _) = opt(preceded(char('#'), nom::combinator::rest))(i)?;
+    let (i, _) = context("the end of the line", eof)(i)?;
+    Ok((i, s))
+}
+
+// ---- meaning ------------------------------------------------------------------------------
+
+struct Ctx<'s> {
+    file: &'s str,
+    src: &'s str,
+    diags: Vec<Diagnostic>,
+}
+
+impl<'s> Ctx<'s> {
+    fn offset(&self, s: &str) -> usize {
+        (s.as_ptr() as usize).saturating_sub(self.src.as_ptr() as usize)
+    }
+
+    fn err(&mut self, at: &str, msg: impl Into<String>, hint: Option<&str>) {
+        let d = Diagnostic::at(
+            self.file,
+            self.src,
+            self.offset(at),
+            at.len(),
+            msg,
+            hint.map(str::to_string),
+        );
+        self.diags.push(d);
+    }
+
+    fn uint(&mut self, s: &str, what: &str) -> Option<u32> {
+        match s.parse::<u64>() {
+            Ok(v) if v <= u32::MAX as u64 => Some(v as u32),
+            _ => {
+                self.err(s, format!("{what} `{s}` is too large"), None);
+                None
+            }
+        }
+    }
+}
+
+const GATE_HINT: &str = "use gate names from the OpenQASM 3 standard library (e.g. rz sx x rx ry \
+                         h cx cz) or `U` for the built-in general rotation";
+const SETS_HINT: &str = "supported sets contain cx or cz, and one of: U; rz with sx, rx, ry or h; \
+                         rx with ry (e.g. `native rz sx x cx`)";
+
+/// Canonical spelling of a gate name: `u` is accepted for the built-in `U`.
+fn canonical(name: &str) -> &str {
+    if name == "u" {
+        "U"
+    } else {
+        name
+    }
+}
+
+/// Parses a `.dev` file. `file` names the source in diagnostics and, without a `name`
+/// statement, gives the device its name (the file stem).
+pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
+    let mut cx = Ctx {
+        file,
+        src,
+        diags: Vec::new(),
+    };
+    let mut stmts: Vec<(&str, Stmt)> = Vec::new();
+    for raw in src.split('\n') {
+        let text = raw.strip_suffix('\r').unwrap_or(raw);
+        match line(text) {
+            Ok((_, Some(s))) => stmts.push((text, s)),
+            Ok((_, None)) => {}
+            Err(nom::Err::Error(e)) | Err(nom::Err::Failure(e)) => {
+                let at_word = ident(text.trim_start()).map(|(_, w)| w).ok();
+                match (e.expected, at_word) {
+                    (_, Some(w)) if e.at.as_ptr() == text.trim_start().as_ptr() => cx.err(
+                        w,
+                        format!("unknown statement `{w}`"),
+                        Some("statements are: name qubits native lattice link cut error time"),
+                    ),
+                    (expected, _) => {
+                        let found: String = e.at.split_whitespace().next().unwrap_or("").into();
+                        let what = expected.unwrap_or("a statement");
+                        let msg = if found.is_empty() {
+                            format!("expected {what}")
+                        } else {
+                            format!("expected {what}, found `{found}`")
+                        };
+                        let width = e.at.find(char::is_whitespace).unwrap_or(e.at.len());
+                        cx.err(&e.at[..width], msg, None);
+                    }
+                }
+            }
+            Err(nom::Err::Incomplete(_)) => unreachable!("complete parsers"),
+        }
+    }
+    build(&mut cx, &stmts)
+        .filter(|_| cx.diags.is_empty())
+        .ok_or(cx.diags)
+}
+
+fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
+    // A line that failed to parse may be the missing statement: do not also report it missing.
+    let syntax_errors = !cx.diags.is_empty();
+    let mut name: Option<String> = None;
+    let mut declared: Option<(u32, &str)> = None;
+    let mut native: Option<(&str, Vec<String>)> = None;
+    for (text, s) in stmts {
+        match s {
+            Stmt::Name(n) => {
+                if name.is_some() {
+                    cx.err(text.trim(), "the device name is given twice", None);
+                }
+                name = Some(n.to_string());
+            }
+            Stmt::Qubits(n) => {
+                if declared.is_some() {
+                    cx.err(text.trim(), "`qubits` is given twice", None);
+                }
+                if let Some(v) = cx.uint(n, "qubit count") {
+                    if v as u64 > MAX_DEVICE_QUBITS {
+                        cx.err(
+                            n,
+                            format!("{v} qubits is more than phasewright handles"),
+                            Some(&format!("at most {MAX_DEVICE_QUBITS} qubits")),
+                        );
+                    } else {
+                        declared = Some((v, n));
+                    }
+                }
+            }
+            Stmt::Native(gates) => {
+                if native.is_some() {
+                    cx.err(text.trim(), "`native` is given twice", Some("list every native gate on one line"));
+                }
+                let mut names = Vec::new();
+                for g in gates {
+                    let c = canonical(g);
+                    if is_standard_gate(c) {
+                        names.push(c.to_string());
+                    } else {
+                        cx.err(g, format!("unknown gate name `{g}`"), Some(GATE_HINT));
+                    }
+                }
+                native = Some((text.trim(), names));
+            }
+            _ => {}
+        }
+    }
+    // Couplings, in file order.
+    let mut size: u64 = declared.map_or(0, |(v, _)| v as u64);
+    let mut couplings: BTreeSet<Link> = BTreeSet::new();
+    let mut ops: Vec<(bool, &str, &str)> = Vec::new();
+    for (_, s) in stmts {
+        match s {
+            Stmt::Lattice(kind, sizes) => {
+                let nums: Vec<u32> = sizes.iter().filter_map(|t| cx.uint(t, "size")).collect();
+                if nums.len() != sizes.len() {
+                    continue;
+                }
+                let arity = match *kind {
+                    "line" | "ring" | "full" => 1,
+                    "grid" | "brickwall" => 2,
+                    _ => {
+                        cx.err(
+                            kind,
+                            format!("unknown lattice `{kind}`"),
+                            Some("lattices are: line N, ring N, grid R C, brickwall R C, full N"),
+                        );
+                        continue;
+                    }
+                };
+                if nums.len() != arity {
+                    let at = sizes.last().copied().unwrap_or(kind);
+                    cx.err(
+                        at,
+                        format!("`{kind}` takes {arity} size{}", if arity == 1 { "" } else { "s" }),
+                        Some("lattices are: line N, ring N, grid R C, brickwall R C, full N"),
+                    );
+                    continue;
+                }
+                let total: u64 = nums.iter().map(|&v| v as u64).product();
+                if total > MAX_DEVICE_QUBITS {
+                    cx.err(
+                        kind,
+                        format!("a {total}-qubit lattice is more than phasewright handles"),
+                        Some(&format!("at most {MAX_DEVICE_QUBITS} qubits")),
+                    );
+                    continue;
+                }
+                if let Some((v, at)) = declared {
+                    if total > v as u64 {
+                        cx.err(
+                            kind,
+                            format!("this lattice has {total} qubits but the device declares {v}"),
+                            Some(&format!("raise `qubits` (line of `{at}`) or shrink the lattice")),
+                        );
+                        continue;
+                    }
+                }
+                size = size.max(total);
+                let links = match (*kind, nums.as_slice()) {
+                    ("line", [n]) => lattice::line(*n),
+                    ("ring", [n]) => lattice::ring(*n),
+                    ("full", [n]) => lattice::full(*n),
+                    ("grid", [r, c]) => lattice::grid(*r, *c),
+                    ("brickwall", [r, c]) => lattice::brickwall(*r, *c),
+                    _ => unreachable!("arity checked"),
+                };
+                couplings.extend(links);
+            }
+            Stmt::Link(a, b) => ops.push((true, a, b)),
+            Stmt::Cut(a, b) => ops.push((false, a, b)),
+            _ => {}
+        }
+        // Links and cuts apply after the lattices that precede them; collect them in order.
+        for (add, a, b) in ops.drain(..) {
+            let (Some(qa), Some(qb)) = (cx.uint(a, "qubit"), cx.uint(b, "qubit")) else {
+                continue;
+            };
+            let mut ok = true;
+            for (q, t) in [(qa, a), (qb, b)] {
+                if q as u64 >= size {
+                    cx.err(
+                        t,
+                        format!("qubit {q} does not exist (the device has {size} qubits)"),
+                        Some("qubits are numbered from 0; declare more with `qubits N`"),
+                    );
+                    ok = false;
+                }
+            }
+            if !ok {
+                continue;
+            }
+            if qa == qb {
+                let whole = &cx.src[cx.offset(a)..cx.offset(b) + b.len()];
+                cx.err(whole, format!("qubit {qa} is linked to itself"), None);
+                continue;
+            }
+            let l = (qa.min(qb), qa.max(qb));
+            if add {
+                couplings.insert(l);
+            } else if !couplings.remove(&l) {
+                let whole = &cx.src[cx.offset(a)..cx.offset(b) + b.len()];
+                cx.err(
+                    whole,
+                    format!("there is no coupling {}-{} to cut", l.0, l.1),
+                    None,
+                );
+            }
+        }
+    }
+    let any_lattice = stmts.iter().any(|(_, s)| matches!(s, Stmt::Lattice(..)));
+    if size == 0 && declared.is_none() && !syntax_errors && !any_lattice {
+        cx.diags.push(Diagnostic::whole_file(
+            cx.file,
+            "the device declares no qubits",
+            Some("add `qubits N` or a `lattice` line".into()),
+        ));
+    }
+    let native_set = match &native {
+        None => {
+            if !syntax_errors {
+                cx.diags.push(Diagnostic::whole_file(
+                    cx.file,
+                    "the device lists no native gates",
+                    Some("add a line such as `native rz sx x cx`".into()),
+                ));
+            }
+            None
+        }
+        Some((at, names)) => {
+            let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+            match NativeSet::from_names(&refs) {
+                Ok(s) => Some(s),
+                Err(reason) => {
+                    if names.len() == refs.len() && cx.diags.iter().all(|d| !d.message.starts_with("unknown gate")) {
+                        cx.err(at, format!("{reason}"), Some(SETS_HINT));
+                    }
+                    None
+                }
+            }
+        }
+    };
+    let native_names: Vec<String> = native.as_ref().map(|(_, n)| n.clone()).unwrap_or_default();
+    let cal = calibration(cx, stmts, &native_names, size as u32, &couplings);
+    let native_set = native_set?;
+    if !cx.diags.is_empty() {
+        return None;
+    }
+    let name = name.unwrap_or_else(|| {
+        std::path::Path::new(cx.file)
+            .file_stem()
+            .map_or_else(|| "device".to_string(), |s| s.to_string_lossy().into_owned())
+    });
+    let links: Vec<Link> = couplings.into_iter().collect();
+    Some(Device::new(&name, size as usize, &links, native_set, cal))
+}
+
+fn calibration(
+    cx: &mut Ctx,
+    stmts: &[(&str, Stmt)],
+    native: &[String],
+    size: u32,
+    couplings: &BTreeSet<Link>,
+) -> Calibration {
+    let mut cal = Calibration::default();
+    let mut seen: BTreeMap<String, ()> = BTreeMap::new();
+    let is_native = |g: &str| native.iter().any(|n| n == g);
+    for (text, s) in stmts {
+        match s {
+            Stmt::Error(gate, target, rate_text) => {
+                let readout = matches!(*gate, "readout" | "measure");
+                let g = canonical(gate);
+                if !readout {
+                    if !is_standard_gate(g) {
+                        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
+                        continue;
+                    }
+                    if !is_native(g) {
+                        cx.err(
+                            gate,
+                            format!("`{gate}` is not a native gate of this device"),
+                            Some("give error rates for the gates on the `native` line, or `readout`"),
+                        );
+                        continue;
+                    }
+                }
+                let rate = match rate_text.parse::<f64>() {
+                    Ok(r) if (0.0..=1.0).contains(&r) => r,
+                    _ => {
+                        cx.err(
+                            rate_text,
+                            format!("error rate {rate_text} is outside [0, 1]"),
+                            Some("an error rate is a probability, e.g. 0.008"),
+                        );
+                        continue;
+                    }
+                };
+                let two = !readout && gate_arity(g) == 2;
+                let key = match target {
+                    None => format!("{g}"),
+                    Some(Target::Qubit(q)) => format!("{g} {q}"),
+                    Some(Target::Link(_, a, b)) => format!("{g} {a}-{b}"),
+                };
+                if seen.insert(key, ()).is_some() {
+                    cx.err(text.trim(), "this error rate is given twice", None);
+                    continue;
+                }
+                match target {
+                    None if readout => cal.readout_error_rate = rate,
+                    None => {
+                        cal.error_rate.insert(g.to_string(), rate);
+                    }
+                    Some(Target::Qubit(t)) => {
+                        if two {
+                            cx.err(
+                                t,
+                                format!("`{gate}` acts on two qubits: name a link such as `3-9`"),
+                                None,
+                            );
+                            continue;
+                        }
+                        let Some(q) = cx.uint(t, "qubit") else { continue };
+                        if q >= size {
+                            cx.err(t, format!("qubit {q} does not exist (the device has {size} qubits)"), None);
+                            continue;
+                        }
+                        if readout {
+                            cal.qubit_readout_error_rate.insert(q, rate);
+                        } else {
+                            cal.qubit_error_rate.insert((g.to_string(), q), rate);
+                        }
+                    }
+                    Some(Target::Link(whole, a, b)) => {
+                        if !two {
+                            cx.err(
+                                whole,
+                                format!("`{gate}` acts on one qubit: name a qubit, not a link"),
+                                None,
+                            );
+                            continue;
+                        }
+                        let (Some(qa), Some(qb)) = (cx.uint(a, "qubit"), cx.uint(b, "qubit")) else {
+                            continue;
+                        };
+                        let l = (qa.min(qb), qa.max(qb));
+                        if !couplings.contains(&l) {
+                            cx.err(
+                                whole,
+                                format!("qubits {qa} and {qb} are not coupled"),
+                                Some("error overrides apply to existing couplings (see `lattice`, `link`, `cut`)"),
+                            );
+                            continue;
+                        }
+                        cal.link_error_rate.insert((g.to_string(), l.0, l.1), rate);
+                    }
+                }
+            }
+            Stmt::Time(gate, value, unit) => {
+                let measure = matches!(*gate, "measure" | "readout");
+                let g = if measure { "measure" } else { canonical(gate) };
+                if !measure {
+                    if !is_standard_gate(g) {
+                        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
+                        continue;
+                    }
+                    if !is_native(g) {
+                        cx.err(
+                            gate,
+                            format!("`{gate}` is not a native gate of this device"),
+                            Some("give times for the gates on the `native` line, or `measure`"),
+                        );
+                        continue;
+                    }
+                }
+                let scale = match *unit {
+                    "ns" => 1.0,
+                    "us" => 1000.0,
+                    _ => {
+                        cx.err(unit, format!("unknown time unit `{unit}`"), Some("use ns or us"));
+                        continue;
+                    }
+                };
+                let v = match value.parse::<f64>() {
+                    Ok(v) if v >= 0.0 && v.is_finite() => v,
+                    _ => {
+                        cx.err(value, format!("duration {value} must be a non-negative number"), None);
+                        continue;
+                    }
+                };
+                if cal.time_ns.insert(g.to_string(), v * scale).is_some() {
+                    cx.err(text.trim(), format!("the time of `{g}` is given twice"), None);
+                }
+            }
+            _ => {}
+        }
+    }
+    cal
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_sketch_parses() {
+        let src = "# demo\nqubits 12\nnative rz sx x cx\nlattice grid 3 4\nlink 3 9\ncut 5 6\n\
+                   error cx 0.008\nerror cx 3-9 0.02\nerror sx 0.0003\nerror readout 0.015\n\
+                   time cx 300ns\ntime sx 35ns\ntime measure 1.2us\n";
+        let d = parse_device("demo/chip.dev", src).unwrap();
+        assert_eq!(d.name, "chip");
+        assert_eq!(d.num_qubits, 12);
+        assert!(d.coupled(3, 9) && !d.coupled(5, 6) && d.coupled(0, 4));
+        // grid 3×4 has 17 links; +1 link, −1 cut.
+        assert_eq!(d.links().len(), 17);
+        assert_eq!(d.calibration.time_ns["measure"], 1200.0);
+        assert_eq!(d.gate_error(&crate::circuit::Gate::Cx(9, 3)), 0.02);
+        assert_eq!(d.gate_error(&crate::circuit::Gate::Cx(0, 1)), 0.008);
+    }
+
+    #[test]
+    fn a_syntax_error_points_at_the_argument() {
+        let e = parse_device("a.dev", "qubits x4\nnative rz sx cx\n").unwrap_err();
+        assert_eq!(e.len(), 1);
+        assert_eq!((e[0].line, e[0].column), (1, 8));
+        assert!(e[0].message.contains("qubit count"), "{}", e[0].message);
+    }
+}

@@ -1,0 +1,133 @@
+//! Checking a routed circuit against its logical original by simulation.
+//!
+//! In: the logical circuit and the [`Routed`] result. Out: the largest amplitude error between
+//! "run logically, then place by the final layout" and "place by the initial layout, then run
+//! the routed circuit", over a set of input states; global phase included. The routed circuit is
+//! first [`compact`]ed to the physical qubits it touches, so a 12-qubit circuit on a 100-qubit
+//! device simulates on at most the touched qubits.
+//!
+//! Inputs: every computational basis state when the logical circuit has at most 5 qubits (so the
+//! check is an exact unitary equality on the logical subspace), otherwise 8 seeded random states.
+
+use super::Routed;
+use crate::circuit::{Circuit, Qubit};
+use crate::sim::{run, State};
+use num_complex::Complex64;
+use rand::{Rng, SeedableRng};
+use std::collections::BTreeSet;
+
+/// Relabels a physical circuit onto the qubits it touches, ascending: returns the circuit on
+/// `0..k` and `new → physical`.
+pub fn compact(c: &Circuit) -> (Circuit, Vec<u32>) {
+    compact_keeping(c, &[])
+}
+
+/// As [`compact`], also keeping the qubits in `keep` (touched or not).
+pub fn compact_keeping(c: &Circuit, keep: &[u32]) -> (Circuit, Vec<u32>) {
+    let set: BTreeSet<Qubit> = c
+        .gates
+        .iter()
+        .flat_map(|g| g.qubits())
+        .chain(keep.iter().copied())
+        .collect();
+    let new_to_phys: Vec<u32> = set.into_iter().collect();
+    let mut phys_to_new = vec![u32::MAX; c.num_qubits.max(1 + *new_to_phys.last().unwrap_or(&0) as usize)];
+    for (i, &p) in new_to_phys.iter().enumerate() {
+        phys_to_new[p as usize] = i as u32;
+    }
+    let out = Circuit {
+        num_qubits: new_to_phys.len(),
+        num_clbits: c.num_clbits,
+        gates: c
+            .gates
+            .iter()
+            .map(|g| g.map_qubits(|q| phys_to_new[q as usize]))
+            .collect(),
+        global_phase: c.global_phase,
+    };
+    (out, new_to_phys)
+}
+
+/// Largest simulated qubit count this check accepts.
+pub const MAX_CHECK_QUBITS: usize = 20;
+
+/// Places a logical state on compacted qubits: logical qubit `l` goes to `pos[l]`, others |0⟩.
+fn embed(s: &State, pos: &[u32], k: usize) -> State {
+    let mut out = State::zero(k);
+    out.amps[0] = Complex64::new(0.0, 0.0);
+    for (b, a) in s.amps.iter().enumerate() {
+        let mut idx = 0usize;
+        for (l, &p) in pos.iter().enumerate() {
+            if (b >> l) & 1 == 1 {
+                idx |= 1 << p;
+            }
+        }
+        out.amps[idx] = *a;
+    }
+    out
+}
+
+/// Simulation error of a routing result (see the module header), or why it cannot be checked.
+pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> {
+    let n = logical.num_qubits;
+    let mut want_meas: Vec<(u32, u32)> = logical
+        .measurements()
+        .into_iter()
+        .map(|(q, b)| (routed.final_layout[q as usize], b))
+        .collect();
+    let mut got_meas = routed.circuit.measurements();
+    want_meas.sort_unstable();
+    got_meas.sort_unstable();
+    if want_meas != got_meas {
+        return Err(format!(
+            "measurements differ: expected (physical, bit) {want_meas:?}, found {got_meas:?}"
+        ));
+    }
+    let keep: Vec<u32> = routed
+        .initial_layout
+        .iter()
+        .chain(&routed.final_layout)
+        .copied()
+        .collect();
+    let (cc, new_to_phys) = compact_keeping(&routed.circuit, &keep);
+    if cc.num_qubits > MAX_CHECK_QUBITS {
+        return Err(format!(
+            "the routed circuit touches {} qubits; the check simulates at most {MAX_CHECK_QUBITS}",
+            cc.num_qubits
+        ));
+    }
+    let new_of = |p: u32| new_to_phys.iter().position(|&x| x == p).expect("kept") as u32;
+    let init: Vec<u32> = routed.initial_layout.iter().map(|&p| new_of(p)).collect();
+    let fin: Vec<u32> = routed.final_layout.iter().map(|&p| new_of(p)).collect();
+    let inputs: Vec<State> = if n <= 5 {
+        (0..1usize << n)
+            .map(|b| {
+                let mut s = State::zero(n);
+                s.amps[0] = Complex64::new(0.0, 0.0);
+                s.amps[b] = Complex64::new(1.0, 0.0);
+                s
+            })
+            .collect()
+    } else {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x5eed);
+        (0..8)
+            .map(|_| {
+                let mut amps: Vec<Complex64> = (0..1usize << n)
+                    .map(|_| Complex64::new(rng.gen::<f64>() - 0.5, rng.gen::<f64>() - 0.5))
+                    .collect();
+                let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
+                amps.iter_mut().for_each(|a| *a /= norm);
+                State { n, amps }
+            })
+            .collect()
+    };
+    let mut err: f64 = 0.0;
+    for s in inputs {
+        let want = embed(&run(logical, s.clone()), &fin, cc.num_qubits);
+        let got = run(&cc, embed(&s, &init, cc.num_qubits));
+        for (a, b) in want.amps.iter().zip(&got.amps) {
+            err = err.max((a - b).norm());
+        }
+    }
+    Ok(err)
+}

@@ -1,0 +1,195 @@
+//! The `.dev` language: the example devices parse into the couplings they describe, and every
+//! kind of bad input becomes a diagnostic at the right place (never a panic).
+
+use phasewright::device::{Entangler, OneQubitBasis};
+use phasewright::lang::dev::parse_device;
+use phasewright::lang::diag::Diagnostic;
+
+fn errors(src: &str) -> Vec<Diagnostic> {
+    parse_device("t.dev", src).expect_err("the input is bad")
+}
+
+/// The single diagnostic for `src`, with its (line, column) and message.
+fn one_error(src: &str) -> Diagnostic {
+    let e = errors(src);
+    assert_eq!(e.len(), 1, "{e:#?}");
+    e.into_iter().next().unwrap()
+}
+
+const GOOD_HEAD: &str = "qubits 6\nnative rz sx x cx\nlattice line 6\n";
+
+#[test]
+fn the_examples_parse_into_what_they_describe() {
+    let grid = parse_device(
+        "chip_grid12.dev",
+        include_str!("../examples/chip_grid12.dev"),
+    )
+    .unwrap();
+    assert_eq!(grid.name, "chip-grid12");
+    assert_eq!(grid.num_qubits, 12);
+    // 3 × 4 grid: 3·3 + 2·4 = 17 links, plus `link 3 9`, minus `cut 5 6`.
+    assert_eq!(grid.links().len(), 17);
+    assert!(grid.coupled(3, 9) && !grid.coupled(5, 6));
+    assert_eq!(grid.native.one_qubit, OneQubitBasis::RzSx { x: true });
+
+    let line = parse_device("line8.dev", include_str!("../examples/line8.dev")).unwrap();
+    assert_eq!(line.links().len(), 7);
+    assert_eq!(line.native.two_qubit, Entangler::Cz);
+    assert_eq!(
+        line.gate_error(&phasewright::circuit::Gate::Measure(7, 0)),
+        0.05
+    );
+    assert_eq!(
+        line.gate_error(&phasewright::circuit::Gate::Measure(6, 0)),
+        0.02
+    );
+
+    let brick = parse_device("brick16.dev", include_str!("../examples/brick16.dev")).unwrap();
+    assert_eq!(brick.num_qubits, 16);
+    // 4 rows × 3 horizontal links + 3 row gaps × 2 rungs.
+    assert_eq!(brick.links().len(), 12 + 6);
+    assert_eq!(brick.native.one_qubit, OneQubitBasis::RzRx);
+
+    let ring = parse_device("ring10_u.dev", include_str!("../examples/ring10_u.dev")).unwrap();
+    assert_eq!(ring.native.one_qubit, OneQubitBasis::U);
+    assert_eq!(ring.calibration.time_ns["cx"], 400.0);
+    assert_eq!(ring.calibration.time_ns["measure"], 2000.0);
+    for d in [&grid, &line, &brick, &ring] {
+        assert_eq!(d.components().len(), 1, "{} is connected", d.name);
+    }
+}
+
+#[test]
+fn unknown_gate_name() {
+    let d = one_error("qubits 2\nnative rz sx foo cx\nlattice line 2\n");
+    assert_eq!((d.line, d.column, d.width), (2, 14, 3));
+    assert!(d.message.contains("unknown gate name `foo`"));
+    assert!(d.hint.unwrap().contains("OpenQASM 3"));
+    // Also in `error` and `time` lines.
+    let d = one_error(&format!("{GOOD_HEAD}error cnot 0.01\n"));
+    assert_eq!((d.line, d.column), (4, 7));
+    let d = one_error(&format!("{GOOD_HEAD}time cnot 300ns\n"));
+    assert_eq!((d.line, d.column), (4, 6));
+}
+
+#[test]
+fn a_gate_that_is_not_native_cannot_carry_calibration() {
+    let d = one_error(&format!("{GOOD_HEAD}error h 0.001\n"));
+    assert!(d.message.contains("not a native gate"), "{}", d.message);
+}
+
+#[test]
+fn native_set_that_is_not_universal() {
+    // {rz, x} only reaches diagonal gates and bit flips.
+    let d = one_error("qubits 2\nnative rz x cx\nlattice line 2\n");
+    assert_eq!(d.line, 2);
+    assert!(d.message.contains("universal"), "{}", d.message);
+    // No entangling gate.
+    let d = one_error("qubits 2\nnative rz sx\nlattice line 2\n");
+    assert!(d.message.contains("entangling"), "{}", d.message);
+}
+
+#[test]
+fn link_to_a_qubit_that_does_not_exist() {
+    let d = one_error(&format!("{GOOD_HEAD}link 2 6\n"));
+    assert_eq!((d.line, d.column), (4, 8));
+    assert!(d.message.contains("qubit 6 does not exist"), "{}", d.message);
+}
+
+#[test]
+fn self_link() {
+    let d = one_error(&format!("{GOOD_HEAD}link 3 3\n"));
+    assert_eq!((d.line, d.column, d.width), (4, 6, 3));
+    assert!(d.message.contains("linked to itself"));
+}
+
+#[test]
+fn cut_of_a_missing_coupling() {
+    let d = one_error(&format!("{GOOD_HEAD}cut 0 2\n"));
+    assert!(d.message.contains("no coupling 0-2"), "{}", d.message);
+}
+
+#[test]
+fn error_rates_outside_zero_one() {
+    let d = one_error(&format!("{GOOD_HEAD}error cx -0.1\n"));
+    assert_eq!((d.line, d.column), (4, 10));
+    assert!(d.message.contains("outside [0, 1]"));
+    let d = one_error(&format!("{GOOD_HEAD}error readout 1.5\n"));
+    assert_eq!((d.line, d.column), (4, 15));
+    let d = one_error(&format!("{GOOD_HEAD}error cx 1-2 2\n"));
+    assert!(d.message.contains("outside [0, 1]"));
+}
+
+#[test]
+fn error_override_on_a_link_that_does_not_exist() {
+    let d = one_error(&format!("{GOOD_HEAD}error cx 0-3 0.02\n"));
+    assert_eq!((d.line, d.column, d.width), (4, 10, 3));
+    assert!(d.message.contains("not coupled"));
+}
+
+#[test]
+fn unknown_time_unit() {
+    let d = one_error(&format!("{GOOD_HEAD}time cx 3ms\n"));
+    assert_eq!((d.line, d.column, d.width), (4, 10, 2));
+    assert!(d.message.contains("unknown time unit `ms`"));
+    assert_eq!(d.hint.as_deref(), Some("use ns or us"));
+    let d = one_error(&format!("{GOOD_HEAD}time cx 300\n"));
+    assert!(d.message.contains("time unit"), "{}", d.message);
+}
+
+#[test]
+fn unknown_statement_and_trailing_text() {
+    let d = one_error(&format!("{GOOD_HEAD}coupler 1 2\n"));
+    assert!(d.message.contains("unknown statement `coupler`"));
+    let d = one_error(&format!("{GOOD_HEAD}link 1 2 3\n"));
+    assert!(d.message.contains("end of the line"), "{}", d.message);
+    assert_eq!((d.line, d.column), (4, 10));
+}
+
+#[test]
+fn every_bad_line_is_reported_in_one_run() {
+    let e = errors("qubits 4\nnative rz sx x cx\nlattice line 4\nlink 0 9\nerror sx 7\ntime cx 1 parsec\n");
+    let lines: Vec<usize> = e.iter().map(|d| d.line).collect();
+    assert_eq!(lines, vec![4, 5, 6], "{e:#?}");
+}
+
+#[test]
+fn missing_pieces_are_reported_for_the_whole_file() {
+    let e = errors("# nothing here\n");
+    assert_eq!(e.len(), 2);
+    assert!(e.iter().all(|d| d.line == 0));
+    let d = one_error("qubits 3\nlattice grid 2 2\nnative rz sx cx\n");
+    assert!(d.message.contains("4 qubits but the device declares 3"), "{}", d.message);
+}
+
+#[test]
+fn lattice_sizes_and_names() {
+    let d = one_error("native rz sx cx\nlattice hex 4\n");
+    assert!(d.message.contains("unknown lattice `hex`"));
+    let d = one_error("native rz sx cx\nlattice grid 4\n");
+    assert!(d.message.contains("takes 2 sizes"));
+    // Without `qubits`, the lattice sets the size; `u` is the built-in `U`.
+    let dev = parse_device("x.dev", "native u cz\nlattice ring 5\n").unwrap();
+    assert_eq!(dev.num_qubits, 5);
+    assert_eq!(dev.native.names, vec!["U".to_string(), "cz".to_string()]);
+}
+
+#[test]
+fn arbitrary_bytes_never_panic() {
+    // Not a proof, but a sweep over awkward inputs: empty, unicode, huge numbers, CRLF.
+    for src in [
+        "",
+        "qubits 99999999999999999999\n",
+        "qubits 5000\nnative rz sx cx\n",
+        "lattice full 100000\nnative rz sx cx\n",
+        "native rz sx cx\r\nlattice line 3\r\n",
+        "nätive rz\n",
+        "error\n",
+        "time cx 1e400ns\n",
+        "link 1-2\n",
+        "#\n#\n  \t \n",
+    ] {
+        let _ = parse_device("fuzz.dev", src);
+    }
+    assert!(parse_device("crlf.dev", "native rz sx cx\r\nlattice line 3\r\n").is_ok());
+}
