@@ -93,7 +93,11 @@ fn native_set_that_is_not_universal() {
 fn link_to_a_qubit_that_does_not_exist() {
     let d = one_error(&format!("{GOOD_HEAD}link 2 6\n"));
     assert_eq!((d.line, d.column), (4, 8));
-    assert!(d.message.contains("qubit 6 does not exist"), "{}", d.message);
+    assert!(
+        d.message.contains("qubit 6 does not exist"),
+        "{}",
+        d.message
+    );
 }
 
 #[test]
@@ -148,7 +152,9 @@ fn unknown_statement_and_trailing_text() {
 
 #[test]
 fn every_bad_line_is_reported_in_one_run() {
-    let e = errors("qubits 4\nnative rz sx x cx\nlattice line 4\nlink 0 9\nerror sx 7\ntime cx 1 parsec\n");
+    let e = errors(
+        "qubits 4\nnative rz sx x cx\nlattice line 4\nlink 0 9\nerror sx 7\ntime cx 1 parsec\n",
+    );
     let lines: Vec<usize> = e.iter().map(|d| d.line).collect();
     assert_eq!(lines, vec![4, 5, 6], "{e:#?}");
 }
@@ -159,7 +165,11 @@ fn missing_pieces_are_reported_for_the_whole_file() {
     assert_eq!(e.len(), 2);
     assert!(e.iter().all(|d| d.line == 0));
     let d = one_error("qubits 3\nlattice grid 2 2\nnative rz sx cx\n");
-    assert!(d.message.contains("4 qubits but the device declares 3"), "{}", d.message);
+    assert!(
+        d.message.contains("4 qubits but the device declares 3"),
+        "{}",
+        d.message
+    );
 }
 
 #[test]

@@ -76,7 +76,12 @@ fn random_hamiltonian(n: usize, terms: usize, rng: &mut ChaCha8Rng) -> PauliSum 
 /// The shape of the family's circuits: random product-state preparation, ancilla in |+⟩,
 /// controlled rotations along the plan's ladders, ancilla basis change, measurements of the
 /// ancilla (bit 0) and, when `measure_system`, of every system qubit after an `h`.
-fn hadamard_test(h: &PauliSum, plan: &TargetPlan, measure_system: bool, rng: &mut ChaCha8Rng) -> Circuit {
+fn hadamard_test(
+    h: &PauliSum,
+    plan: &TargetPlan,
+    measure_system: bool,
+    rng: &mut ChaCha8Rng,
+) -> Circuit {
     let n = h.num_qubits;
     let anc = n as Qubit;
     let mut c = Circuit::new(n + 1, if measure_system { n + 1 } else { 1 });
@@ -120,8 +125,14 @@ fn check_routed(logical: &Circuit, routed: &Routed, dev: &Device) {
     let err = routing_error(logical, routed).unwrap();
     assert!(err <= 1e-9, "routing error {err}");
     // Written file, read back: the same circuit to the last bit of every angle.
-    let text = phasewright::qasm::write(&routed.circuit, phasewright::qasm::Addressing::Physical, &[]);
-    let back = phasewright::qasm::read("routed.qasm", &text).unwrap().circuit;
+    let text = phasewright::qasm::write(
+        &routed.circuit,
+        phasewright::qasm::Addressing::Physical,
+        &[],
+    );
+    let back = phasewright::qasm::read("routed.qasm", &text)
+        .unwrap()
+        .circuit;
     let reread = Routed {
         circuit: Circuit {
             num_qubits: routed.circuit.num_qubits,

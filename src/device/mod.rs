@@ -260,13 +260,7 @@ mod tests {
         cal.time_ns.insert("cx".into(), 300.0);
         cal.time_ns.insert("sx".into(), 35.0);
         cal.time_ns.insert("measure".into(), 1000.0);
-        Device::new(
-            "g",
-            6,
-            &lattice::grid(2, 3),
-            NativeSet::rz_sx_x_cx(),
-            cal,
-        )
+        Device::new("g", 6, &lattice::grid(2, 3), NativeSet::rz_sx_x_cx(), cal)
     }
 
     #[test]

@@ -15,9 +15,9 @@
 /// Every gate name of the OpenQASM 3 standard library (`stdgates.inc`, v3.0), plus the built-in
 /// `U`. Source: OpenQASM 3 specification, "Standard library" section.
 pub const STDGATES: &[&str] = &[
-    "p", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "rx", "ry", "rz", "cx", "cy", "cz", "cp",
-    "crx", "cry", "crz", "ch", "cu", "swap", "ccx", "cswap", "CX", "phase", "cphase", "id", "u1",
-    "u2", "u3", "U",
+    "p", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "rx", "ry", "rz", "cx", "cy", "cz",
+    "cp", "crx", "cry", "crz", "ch", "cu", "swap", "ccx", "cswap", "CX", "phase", "cphase", "id",
+    "u1", "u2", "u3", "U",
 ];
 
 /// How an arbitrary one-qubit unitary is written with the native gates.

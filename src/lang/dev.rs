@@ -103,13 +103,10 @@ fn target(i: &str) -> Res<'_, Target<'_>> {
     preceded(
         space1,
         alt((
-            map(
-                recognize(tuple((digit1, char('-'), digit1))),
-                |s: &str| {
-                    let k = s.find('-').expect("dash");
-                    Target::Link(s, &s[..k], &s[k + 1..])
-                },
-            ),
+            map(recognize(tuple((digit1, char('-'), digit1))), |s: &str| {
+                let k = s.find('-').expect("dash");
+                Target::Link(s, &s[..k], &s[k + 1..])
+            }),
             map(terminated(digit1, peek(space1)), Target::Qubit),
         )),
     )(i)
@@ -145,14 +142,20 @@ fn statement(i: &str) -> Res<'_, Stmt<'_>> {
         map(
             preceded(
                 keyword("link"),
-                cut(pair(arg("a qubit number", digit1), arg("a qubit number", digit1))),
+                cut(pair(
+                    arg("a qubit number", digit1),
+                    arg("a qubit number", digit1),
+                )),
             ),
             |(a, b)| Stmt::Link(a, b),
         ),
         map(
             preceded(
                 keyword("cut"),
-                cut(pair(arg("a qubit number", digit1), arg("a qubit number", digit1))),
+                cut(pair(
+                    arg("a qubit number", digit1),
+                    arg("a qubit number", digit1),
+                )),
             ),
             |(a, b)| Stmt::Cut(a, b),
         ),
@@ -290,6 +293,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
     let mut name: Option<String> = None;
     let mut declared: Option<(u32, &str)> = None;
     let mut native: Option<(&str, Vec<String>)> = None;
+    let mut native_listed = 0usize;
     for (text, s) in stmts {
         match s {
             Stmt::Name(n) => {
@@ -316,7 +320,11 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             }
             Stmt::Native(gates) => {
                 if native.is_some() {
-                    cx.err(text.trim(), "`native` is given twice", Some("list every native gate on one line"));
+                    cx.err(
+                        text.trim(),
+                        "`native` is given twice",
+                        Some("list every native gate on one line"),
+                    );
                 }
                 let mut names = Vec::new();
                 for g in gates {
@@ -327,6 +335,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                         cx.err(g, format!("unknown gate name `{g}`"), Some(GATE_HINT));
                     }
                 }
+                native_listed = gates.len();
                 native = Some((text.trim(), names));
             }
             _ => {}
@@ -359,7 +368,10 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     let at = sizes.last().copied().unwrap_or(kind);
                     cx.err(
                         at,
-                        format!("`{kind}` takes {arity} size{}", if arity == 1 { "" } else { "s" }),
+                        format!(
+                            "`{kind}` takes {arity} size{}",
+                            if arity == 1 { "" } else { "s" }
+                        ),
                         Some("lattices are: line N, ring N, grid R C, brickwall R C, full N"),
                     );
                     continue;
@@ -378,7 +390,9 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                         cx.err(
                             kind,
                             format!("this lattice has {total} qubits but the device declares {v}"),
-                            Some(&format!("raise `qubits` (line of `{at}`) or shrink the lattice")),
+                            Some(&format!(
+                                "raise `qubits` (line of `{at}`) or shrink the lattice"
+                            )),
                         );
                         continue;
                     }
@@ -459,8 +473,9 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             match NativeSet::from_names(&refs) {
                 Ok(s) => Some(s),
                 Err(reason) => {
-                    if names.len() == refs.len() && cx.diags.iter().all(|d| !d.message.starts_with("unknown gate")) {
-                        cx.err(at, format!("{reason}"), Some(SETS_HINT));
+                    // With a misspelt name the set is judged once the name is fixed.
+                    if names.len() == native_listed {
+                        cx.err(at, reason, Some(SETS_HINT));
                     }
                     None
                 }
@@ -474,9 +489,10 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
         return None;
     }
     let name = name.unwrap_or_else(|| {
-        std::path::Path::new(cx.file)
-            .file_stem()
-            .map_or_else(|| "device".to_string(), |s| s.to_string_lossy().into_owned())
+        std::path::Path::new(cx.file).file_stem().map_or_else(
+            || "device".to_string(),
+            |s| s.to_string_lossy().into_owned(),
+        )
     });
     let links: Vec<Link> = couplings.into_iter().collect();
     Some(Device::new(&name, size as usize, &links, native_set, cal))
@@ -506,7 +522,9 @@ fn calibration(
                         cx.err(
                             gate,
                             format!("`{gate}` is not a native gate of this device"),
-                            Some("give error rates for the gates on the `native` line, or `readout`"),
+                            Some(
+                                "give error rates for the gates on the `native` line, or `readout`",
+                            ),
                         );
                         continue;
                     }
@@ -524,7 +542,7 @@ fn calibration(
                 };
                 let two = !readout && gate_arity(g) == 2;
                 let key = match target {
-                    None => format!("{g}"),
+                    None => g.to_string(),
                     Some(Target::Qubit(q)) => format!("{g} {q}"),
                     Some(Target::Link(_, a, b)) => format!("{g} {a}-{b}"),
                 };
@@ -546,9 +564,15 @@ fn calibration(
                             );
                             continue;
                         }
-                        let Some(q) = cx.uint(t, "qubit") else { continue };
+                        let Some(q) = cx.uint(t, "qubit") else {
+                            continue;
+                        };
                         if q >= size {
-                            cx.err(t, format!("qubit {q} does not exist (the device has {size} qubits)"), None);
+                            cx.err(
+                                t,
+                                format!("qubit {q} does not exist (the device has {size} qubits)"),
+                                None,
+                            );
                             continue;
                         }
                         if readout {
@@ -566,7 +590,8 @@ fn calibration(
                             );
                             continue;
                         }
-                        let (Some(qa), Some(qb)) = (cx.uint(a, "qubit"), cx.uint(b, "qubit")) else {
+                        let (Some(qa), Some(qb)) = (cx.uint(a, "qubit"), cx.uint(b, "qubit"))
+                        else {
                             continue;
                         };
                         let l = (qa.min(qb), qa.max(qb));
@@ -603,19 +628,31 @@ fn calibration(
                     "ns" => 1.0,
                     "us" => 1000.0,
                     _ => {
-                        cx.err(unit, format!("unknown time unit `{unit}`"), Some("use ns or us"));
+                        cx.err(
+                            unit,
+                            format!("unknown time unit `{unit}`"),
+                            Some("use ns or us"),
+                        );
                         continue;
                     }
                 };
                 let v = match value.parse::<f64>() {
                     Ok(v) if v >= 0.0 && v.is_finite() => v,
                     _ => {
-                        cx.err(value, format!("duration {value} must be a non-negative number"), None);
+                        cx.err(
+                            value,
+                            format!("duration {value} must be a non-negative number"),
+                            None,
+                        );
                         continue;
                     }
                 };
                 if cal.time_ns.insert(g.to_string(), v * scale).is_some() {
-                    cx.err(text.trim(), format!("the time of `{g}` is given twice"), None);
+                    cx.err(
+                        text.trim(),
+                        format!("the time of `{g}` is given twice"),
+                        None,
+                    );
                 }
             }
             _ => {}

@@ -106,13 +106,14 @@ pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
     let mut pending: Vec<Option<Mat2>> = vec![None; c.num_qubits];
     let mut out = Vec::with_capacity(c.gates.len());
     let mut phase = 0.0;
-    let flush = |q: Qubit, pending: &mut Vec<Option<Mat2>>, out: &mut Vec<Gate>, phase: &mut f64| {
-        if let Some(m) = pending[q as usize].take() {
-            let (gs, a) = euler::decompose(&m, q, basis);
-            out.extend(gs);
-            *phase += a;
-        }
-    };
+    let flush =
+        |q: Qubit, pending: &mut Vec<Option<Mat2>>, out: &mut Vec<Gate>, phase: &mut f64| {
+            if let Some(m) = pending[q as usize].take() {
+                let (gs, a) = euler::decompose(&m, q, basis);
+                out.extend(gs);
+                *phase += a;
+            }
+        };
     for g in c.gates.drain(..) {
         match g.matrix1() {
             Some(m) => {

@@ -31,7 +31,11 @@ pub fn compact_keeping(c: &Circuit, keep: &[u32]) -> (Circuit, Vec<u32>) {
         .chain(keep.iter().copied())
         .collect();
     let new_to_phys: Vec<u32> = set.into_iter().collect();
-    let mut phys_to_new = vec![u32::MAX; c.num_qubits.max(1 + *new_to_phys.last().unwrap_or(&0) as usize)];
+    let mut phys_to_new = vec![
+        u32::MAX;
+        c.num_qubits
+            .max(1 + *new_to_phys.last().unwrap_or(&0) as usize)
+    ];
     for (i, &p) in new_to_phys.iter().enumerate() {
         phys_to_new[p as usize] = i as u32;
     }

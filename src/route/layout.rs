@@ -11,8 +11,8 @@
 //! `Σ_{i<j} W[i][j] · d(layout[i], layout[j])` (hop distance `d`), the quadratic-assignment form
 //! of the placement problem. Candidates come from a greedy placement grown around the
 //! component's centre (the ancilla, or the most interacting qubit, goes there first) and from
-//! seeded random placements, each improved by first-improvement local search (move a qubit to
-//! a free site, or exchange two qubits). `route::plan_target` then picks among them by routing.
+//! seeded random placements, each improved by simulated annealing and then first-improvement
+//! local search (moves: a qubit to a free site, or an exchange of two qubits). `route::plan_target` then picks among them by routing.
 
 use crate::device::Device;
 use crate::pauli::PauliSum;
@@ -180,6 +180,85 @@ pub fn improve(w: &[f64], layout: &mut [u32], comp: &[u32], dev: &Device) {
     }
 }
 
+/// Simulated annealing over the same moves as [`improve`] (Kirkpatrick, Gelatt & Vecchi,
+/// "Optimization by simulated annealing", Science 220, 671 (1983)), seeded, then a final
+/// [`improve`]. Geometric cooling from the mean uphill step of a random sample down to 1% of
+/// it; about `200 · n · |comp|` moves, capped at 200 000. Keeps the best layout seen.
+pub fn anneal(w: &[f64], layout: &mut [u32], comp: &[u32], dev: &Device, seed: u64) {
+    use rand::Rng;
+    let n = layout.len();
+    if n < 2 || comp.len() < 2 {
+        return;
+    }
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let partial = |layout: &[u32], i: usize, p: u32, skip: usize| -> f64 {
+        (0..n)
+            .filter(|&j| j != i && j != skip)
+            .map(|j| w[i * n + j] * dev.distance(p, layout[j]) as f64)
+            .sum()
+    };
+    // Delta of moving logical i to site p (exchanging with its holder, if any).
+    let delta = |layout: &[u32], i: usize, p: u32| -> (f64, Option<usize>) {
+        let from = layout[i];
+        match layout.iter().position(|&x| x == p) {
+            None => (
+                partial(layout, i, p, usize::MAX) - partial(layout, i, from, usize::MAX),
+                None,
+            ),
+            Some(j) => (
+                partial(layout, i, p, j) - partial(layout, i, from, j)
+                    + partial(layout, j, from, i)
+                    - partial(layout, j, p, i),
+                Some(j),
+            ),
+        }
+    };
+    let mut uphill = 0.0;
+    let mut count = 0usize;
+    for _ in 0..100 {
+        let i = rng.gen_range(0..n);
+        let p = comp[rng.gen_range(0..comp.len())];
+        if p != layout[i] {
+            let (d, _) = delta(layout, i, p);
+            if d > 0.0 {
+                uphill += d;
+                count += 1;
+            }
+        }
+    }
+    if count == 0 {
+        improve(w, layout, comp, dev);
+        return;
+    }
+    let t0 = uphill / count as f64;
+    let steps = (200 * n * comp.len()).min(200_000);
+    let cooling = (0.01f64).powf(1.0 / steps as f64);
+    let mut t = t0;
+    let mut cost = layout_cost(w, layout, dev);
+    let mut best = (cost, layout.to_vec());
+    for _ in 0..steps {
+        let i = rng.gen_range(0..n);
+        let p = comp[rng.gen_range(0..comp.len())];
+        let from = layout[i];
+        if p != from {
+            let (d, j) = delta(layout, i, p);
+            if d <= 0.0 || rng.gen::<f64>() < (-d / t).exp() {
+                layout[i] = p;
+                if let Some(j) = j {
+                    layout[j] = from;
+                }
+                cost += d;
+                if cost < best.0 - 1e-9 {
+                    best = (cost, layout.to_vec());
+                }
+            }
+        }
+        t *= cooling;
+    }
+    layout.copy_from_slice(&best.1);
+    improve(w, layout, comp, dev);
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -210,7 +289,7 @@ mod tests {
         let w = interaction_weights(&h, false);
         let comp: Vec<u32> = (0..8).collect();
         let mut l = greedy_layout(&w, 6, &comp, &dev, false);
-        improve(&w, &mut l, &comp, &dev);
+        anneal(&w, &mut l, &comp, &dev, 1);
         // Optimal cost: five unit-weight pairs at distance 1.
         assert_eq!(layout_cost(&w, &l, &dev), 5.0);
         for q in 0..5 {

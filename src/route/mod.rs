@@ -10,7 +10,7 @@
 //!    rotation's ladder runs ([`TargetPlan::ladder`]): the root is the support qubit nearest the
 //!    ancilla, so the controlled `rz` meets the ancilla without SWAPs where the layout allows, and
 //!    the rest of the ladder follows nearest neighbours back from the root. Layout candidates
-//!    (greedy around the centre, seeded random, each locally improved; see [`layout`]) are scored
+//!    (greedy around the centre, seeded random, each annealed; see [`layout`]) are scored
 //!    by routing a one-Strang-step skeleton of the campaign, refined by bidirectional passes
 //!    (route forward, route the reversed circuit from the final layout, start again from where
 //!    it ends), and the one with the fewest SWAPs wins. All circuits of a campaign then share
@@ -41,7 +41,7 @@ use swap::{insert_swaps, reversed, SwapParams};
 #[derive(Clone, Debug)]
 pub struct RouteConfig {
     pub seed: u64,
-    /// Layout candidates: one greedy, the rest seeded random, each locally improved.
+    /// Layout candidates: one greedy, the rest seeded random, each annealed.
     pub layout_trials: usize,
     /// Bidirectional refinement rounds per candidate.
     pub refine_rounds: usize,
@@ -83,6 +83,7 @@ impl RouteConfig {
             decay_step: self.decay_step,
             decay_reset: self.decay_reset,
             seed: self.seed,
+            stall_limit: None,
         }
     }
 }
@@ -267,12 +268,13 @@ pub fn plan_target(
     let w = layout::interaction_weights(h, ancilla);
     let mut candidates: Vec<Vec<u32>> = Vec::new();
     for t in 0..cfg.layout_trials.max(1) {
+        let trial_seed = cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64);
         let mut l = if t == 0 {
             layout::greedy_layout(&w, n, &comp, dev, ancilla)
         } else {
-            layout::random_layout(n, &comp, cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64))
+            layout::random_layout(n, &comp, trial_seed)
         };
-        layout::improve(&w, &mut l, &comp, dev);
+        layout::anneal(&w, &mut l, &comp, dev, trial_seed);
         if !candidates.contains(&l) {
             candidates.push(l);
         }
@@ -286,7 +288,10 @@ pub fn plan_target(
             let sk = skeleton(h, &plan);
             let fwd = insert_swaps(&sk, &l, dev, &params);
             let key = (fwd.swaps, layout::layout_cost(&w, &l, dev));
-            if best.as_ref().is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12)) {
+            if best
+                .as_ref()
+                .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12))
+            {
                 best = Some((key, plan));
             }
             if round == cfg.refine_rounds {

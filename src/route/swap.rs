@@ -47,6 +47,9 @@ pub struct SwapParams {
     pub decay_step: f64,
     pub decay_reset: usize,
     pub seed: u64,
+    /// SWAPs without a two-qubit gate running before the shortest-path guard steps in
+    /// (`None`: the device size, at least 8).
+    pub stall_limit: Option<usize>,
 }
 
 /// The routed circuit (still with `swap` gates), the final layout and the SWAP count.
@@ -114,7 +117,10 @@ impl Router<'_> {
 
     fn pair(&self, g: usize) -> (u32, u32) {
         let qs = self.gates[g].qubits();
-        (self.layout.l2p[qs[0] as usize], self.layout.l2p[qs[1] as usize])
+        (
+            self.layout.l2p[qs[0] as usize],
+            self.layout.l2p[qs[1] as usize],
+        )
     }
 
     /// Runs every gate that can run; returns true if a two-qubit gate ran.
@@ -315,12 +321,12 @@ pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) 
         swaps: 0,
         rng: ChaCha8Rng::seed_from_u64(p.seed),
     };
-    let guard = n_phys.max(8);
+    let guard = p.stall_limit.unwrap_or(n_phys.max(8));
     let mut since_progress = 0usize;
     let mut since_reset = 0usize;
     r.drain();
     while !r.front.is_empty() {
-        if since_progress > guard {
+        if since_progress >= guard {
             r.force_progress();
             since_progress = 0;
         } else {
@@ -364,7 +370,13 @@ pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) 
 /// pass of layout refinement (only the order of the two-qubit gates matters there).
 pub fn reversed(c: &Circuit) -> Circuit {
     Circuit {
-        gates: c.gates.iter().rev().filter(|g| !g.is_measure()).copied().collect(),
+        gates: c
+            .gates
+            .iter()
+            .rev()
+            .filter(|g| !g.is_measure())
+            .copied()
+            .collect(),
         num_clbits: 0,
         ..c.clone()
     }
@@ -374,4 +386,76 @@ pub fn reversed(c: &Circuit) -> Circuit {
 pub fn touched(gates: &[Gate]) -> Vec<Qubit> {
     let set: BTreeSet<Qubit> = gates.iter().flat_map(|g| g.qubits()).collect();
     set.into_iter().collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::device::{lattice, Calibration, NativeSet};
+    use crate::route::{routing_error, Routed};
+
+    fn params(stall_limit: Option<usize>) -> SwapParams {
+        SwapParams {
+            extended_size: 20,
+            extended_weight: 0.5,
+            decay_step: 0.001,
+            decay_reset: 5,
+            seed: 3,
+            stall_limit,
+        }
+    }
+
+    fn random_circuit(n: u32, gates: usize, seed: u64) -> Circuit {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let mut c = Circuit::new(n as usize, n as usize);
+        for _ in 0..gates {
+            let a = rng.gen_range(0..n);
+            let b = (a + rng.gen_range(1..n)) % n;
+            match rng.gen_range(0..4) {
+                0 => c.push(Gate::H(a)),
+                1 => c.push(Gate::Rz(a, rng.gen_range(-3.0..3.0))),
+                2 => c.push(Gate::Cz(a, b)),
+                _ => c.push(Gate::Cx(a, b)),
+            }
+        }
+        for q in 0..n {
+            c.push(Gate::Measure(q, q));
+        }
+        c
+    }
+
+    #[test]
+    fn the_shortest_path_guard_alone_also_routes_correctly() {
+        // With a stall limit of 0 every blocked front is resolved by the guard.
+        let dev = Device::new(
+            "grid",
+            9,
+            &lattice::grid(3, 3),
+            NativeSet::rz_sx_x_cx(),
+            Calibration::default(),
+        );
+        for seed in 0..10 {
+            let c = random_circuit(5, 40, seed);
+            let initial = [4, 0, 8, 2, 6];
+            for limit in [Some(0), None] {
+                let out = insert_swaps(&c, &initial, &dev, &params(limit));
+                let coupled = |a: u32, b: u32| dev.coupled(a, b);
+                crate::circuit::verify::verify_ir(
+                    &out.circuit,
+                    &crate::circuit::verify::Rules {
+                        coupled: Some(&coupled),
+                        native: None,
+                    },
+                )
+                .unwrap();
+                let routed = Routed {
+                    circuit: out.circuit,
+                    initial_layout: initial.to_vec(),
+                    final_layout: out.final_layout,
+                    swaps: out.swaps,
+                };
+                assert!(routing_error(&c, &routed).unwrap() < 1e-12);
+            }
+        }
+    }
 }
