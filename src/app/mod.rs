@@ -5,6 +5,7 @@
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
 pub mod io;
+pub mod verify;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -19,9 +20,13 @@ pub struct Cli {
 }
 
 #[derive(Subcommand, Debug)]
-pub enum Command {}
+pub enum Command {
+    Verify(verify::VerifyArgs),
+}
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
-    match cli.command {}
+    match cli.command {
+        Command::Verify(a) => verify::run(&a),
+    }
 }
