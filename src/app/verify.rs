@@ -2,8 +2,9 @@
 //! ideal product formula and the exact evolution.
 
 use super::io::{read_plan, read_plan_circuits};
-use crate::check::{check_plan, COMPILE_TOLERANCE};
+use crate::check::{check_plan, trace_summary, COMPILE_TOLERANCE};
 use crate::error::{Error, Result};
+use crate::family::plan::Family;
 use crate::report::table::{sci, Table};
 use clap::Args;
 use std::path::PathBuf;
@@ -46,8 +47,13 @@ pub fn run(args: &VerifyArgs) -> Result<()> {
     let worst = checks.iter().map(|c| c.compile_error).fold(0.0, f64::max);
     let worst_trotter = checks.iter().map(|c| c.trotter_error).fold(0.0, f64::max);
     let ok = worst <= args.tolerance;
+    let trace = if plan.family == Family::Trace {
+        trace_summary(&plan, &checks).map_err(|m| Error::usage(m, None))?
+    } else {
+        None
+    };
     if args.json {
-        let v = serde_json::json!({ "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks });
+        let v = serde_json::json!({ "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
         println!(
             "{}",
             serde_json::to_string_pretty(&v).expect("serialisable")
@@ -83,6 +89,37 @@ pub fn run(args: &VerifyArgs) -> Result<()> {
             sci(worst_trotter)
         );
         println!("(for circuits with several reads the first is shown; errors are the largest over all reads)");
+        if let Some(rows) = &trace {
+            println!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace", plan.states.len());
+            let mut t = Table::new([
+                "k",
+                "time",
+                "mean re",
+                "mean im",
+                "std err",
+                "ideal re",
+                "ideal im",
+                "exact re",
+                "exact im",
+                "|dev|/err",
+            ]);
+            for r in rows {
+                t.row([
+                    r.k.to_string(),
+                    format!("{:.4}", r.time),
+                    format!("{:.6}", r.mean_re),
+                    format!("{:.6}", r.mean_im),
+                    format!("{:.6}", r.std_error),
+                    format!("{:.6}", r.ideal_re),
+                    format!("{:.6}", r.ideal_im),
+                    format!("{:.6}", r.exact_re),
+                    format!("{:.6}", r.exact_im),
+                    format!("{:.2}", r.z_score),
+                ]);
+            }
+            print!("{}", t.render());
+            println!("(ideal = the product formula the circuits implement; deviations of a few standard errors are sampling spread, not compile errors)");
+        }
     }
     if ok {
         Ok(())
