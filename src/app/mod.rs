@@ -5,6 +5,7 @@
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
 pub mod io;
+pub mod sample;
 pub mod verify;
 
 use crate::error::Result;
@@ -21,12 +22,14 @@ pub struct Cli {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
+    Sample(sample::SampleArgs),
     Verify(verify::VerifyArgs),
 }
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
+        Command::Sample(a) => sample::run(&a),
         Command::Verify(a) => verify::run(&a),
     }
 }

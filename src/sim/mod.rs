@@ -10,6 +10,7 @@
 //! linearly with the gate count), far below the 1e-9 compile-error budget.
 
 pub mod exact;
+pub mod shots;
 
 use crate::circuit::{Circuit, Gate, Mat2};
 use crate::pauli::PauliString;
