@@ -11,6 +11,8 @@ use phasewright::pauli::PauliString;
 use phasewright::sim::State;
 use std::time::Instant;
 
+type Kernel = Box<dyn Fn(&mut State)>;
+
 fn best_of<F: FnMut()>(reps: usize, mut f: F) -> f64 {
     (0..reps)
         .map(|_| {
@@ -39,7 +41,7 @@ fn main() {
         copy * 1e3,
         copy_bw / 1e9
     );
-    let cases: Vec<(&str, Box<dyn Fn(&mut State)>)> = vec![
+    let cases: Vec<(&str, Kernel)> = vec![
         (
             "rotation exp(-i0.3 X0 Y7 Z23)",
             Box::new(|s: &mut State| {

@@ -188,8 +188,8 @@ fn random_state_trace_estimator_is_unbiased_with_the_predicted_spread() {
         v.amps[0] = Complex64::new(0.0, 0.0);
         v.amps[col] = Complex64::new(1.0, 0.0);
         apply_program(&mut v, &program);
-        for row in 0..dim {
-            u[row][col] = v.amps[row];
+        for (row, amp) in u.iter_mut().zip(&v.amps) {
+            row[col] = *amp;
         }
     }
     let mean_exact: Complex64 = (0..dim).map(|i| u[i][i]).sum::<Complex64>() / dim as f64;
@@ -199,10 +199,10 @@ fn random_state_trace_estimator_is_unbiased_with_the_predicted_spread() {
         // tr over the complement of `subset`: entries indexed by the subset's bits.
         let comp = !subset & (dim - 1);
         let mut m = std::collections::HashMap::<(usize, usize), Complex64>::new();
-        for row in 0..dim {
-            for col in 0..dim {
+        for (row, u_row) in u.iter().enumerate() {
+            for (col, entry) in u_row.iter().enumerate() {
                 if row & comp == col & comp {
-                    *m.entry((row & subset, col & subset)).or_default() += u[row][col];
+                    *m.entry((row & subset, col & subset)).or_default() += *entry;
                 }
             }
         }
