@@ -26,6 +26,12 @@ pub fn read_text(path: &Path) -> Result<String> {
     })
 }
 
+/// Reads and parses a `.ham` file: not text, or not valid `.ham`, is a diagnostic (exit 2).
+pub fn read_hamiltonian(path: &Path) -> Result<crate::lang::ham::HamFile> {
+    let src = read_text(path)?;
+    crate::lang::ham::parse_hamiltonian(&path.display().to_string(), &src).map_err(Error::Input)
+}
+
 /// Writes `contents` to `path` through a temporary file in the same folder.
 pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<()> {
     let dir = path

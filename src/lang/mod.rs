@@ -5,3 +5,4 @@
 //! [`diag::Diagnostic`]s; parsers never panic and never print.
 
 pub mod diag;
+pub mod ham;
