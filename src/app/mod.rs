@@ -4,6 +4,7 @@
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
+pub mod compile;
 pub mod io;
 pub mod sample;
 pub mod verify;
@@ -22,6 +23,7 @@ pub struct Cli {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
+    Compile(compile::CompileArgs),
     Sample(sample::SampleArgs),
     Verify(verify::VerifyArgs),
 }
@@ -29,6 +31,7 @@ pub enum Command {
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
+        Command::Compile(a) => compile::run(&a),
         Command::Sample(a) => sample::run(&a),
         Command::Verify(a) => verify::run(&a),
     }
