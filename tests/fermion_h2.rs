@@ -27,7 +27,10 @@ fn h2_ground_and_hartree_fock_energies_match_the_book() {
         let e_ground = spectrum(&h).values[0];
         let basis = sector_basis(enc, 4, 2, None);
         let e_sector = lowest_in_sector(&h, &basis).unwrap();
-        println!("{enc}: ground {e_ground:.10}, 2-electron sector {e_sector:.10}, HF {:.10}, state {}", info.hf_energy_ha, info.hf_state);
+        println!(
+            "{enc}: ground {e_ground:.10}, 2-electron sector {e_sector:.10}, HF {:.10}, state {}",
+            info.hf_energy_ha, info.hf_state
+        );
         // Full CI, -1.1373 hartree (Szabo & Ostlund 1989, Sec. 4.1 with Sec. 3.5.2).
         assert_eq!(r4(e_sector), -1.1373);
         // The 2-electron ground state is the ground state of the whole Fock space here.

@@ -4,6 +4,7 @@
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
+pub mod convert;
 pub mod io;
 
 use crate::error::Result;
@@ -19,9 +20,15 @@ pub struct Cli {
 }
 
 #[derive(Subcommand, Debug)]
-pub enum Command {}
+pub enum Command {
+    /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
+    #[command(after_help = convert::EXAMPLES)]
+    Convert(convert::ConvertArgs),
+}
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
-    match cli.command {}
+    match cli.command {
+        Command::Convert(args) => convert::run(args),
+    }
 }

@@ -136,8 +136,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     }
     // The header ends at `&END`, `$END` or a `/` on its own.
     let head_from = lead + 4;
-    let Some((head_to, end_len)) = header_end(src, head_from)
-    else {
+    let Some((head_to, end_len)) = header_end(src, head_from) else {
         return Err(vec![diag(
             src.len(),
             0,
@@ -167,11 +166,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
             k += 1;
         }
     }
-    let field = |name: &str| {
-        fields
-            .iter()
-            .find(|(n, _, _)| n.eq_ignore_ascii_case(name))
-    };
+    let field = |name: &str| fields.iter().find(|(n, _, _)| n.eq_ignore_ascii_case(name));
     let int_field = |name: &str, required: bool, errors: &mut Vec<Diagnostic>| -> Option<i64> {
         match field(name) {
             None => {

@@ -242,7 +242,10 @@ impl FermionOp {
             return;
         }
         for (w, c) in normal_order(coeff, ops) {
-            let e = self.terms.entry(w.clone()).or_insert(Complex64::new(0.0, 0.0));
+            let e = self
+                .terms
+                .entry(w.clone())
+                .or_insert(Complex64::new(0.0, 0.0));
             *e += c;
             if *e == Complex64::new(0.0, 0.0) {
                 self.terms.remove(&w);
@@ -312,6 +315,9 @@ mod tests {
         let mut op = FermionOp::new(2);
         op.add_product(Complex64::new(1.0, 2.0), &[(1, CR), (0, AN)]);
         let adj = op.adjoint();
-        assert_eq!(adj.terms[&vec![(0, CR), (1, AN)]], Complex64::new(1.0, -2.0));
+        assert_eq!(
+            adj.terms[&vec![(0, CR), (1, AN)]],
+            Complex64::new(1.0, -2.0)
+        );
     }
 }

@@ -93,7 +93,10 @@ mod tests {
     fn sector_sizes_are_binomial() {
         assert_eq!(sector_basis(Encoding::JordanWigner, 6, 3, None).len(), 20);
         assert_eq!(sector_basis(Encoding::BravyiKitaev, 6, 0, None), vec![0]);
-        assert_eq!(sector_basis(Encoding::JordanWigner, 8, 4, Some(0)).len(), 36);
+        assert_eq!(
+            sector_basis(Encoding::JordanWigner, 8, 4, Some(0)).len(),
+            36
+        );
         assert_eq!(sector_basis(Encoding::JordanWigner, 4, 5, None).len(), 0);
     }
 }
