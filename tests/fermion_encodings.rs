@@ -46,7 +46,11 @@ fn images_satisfy_the_canonical_anticommutation_relations() {
                     let aj = image(enc, n, j, Ladder::Annihilate);
                     let cj = image(enc, n, j, Ladder::Create);
                     let acomm = &ai * &cj + &cj * &ai;
-                    let want = if i == j { id.clone() } else { id.clone() * Complex64::new(0.0, 0.0) };
+                    let want = if i == j {
+                        id.clone()
+                    } else {
+                        id.clone() * Complex64::new(0.0, 0.0)
+                    };
                     assert!((acomm - want).norm() < 1e-12, "{enc} n={n} i={i} j={j}");
                     assert!((&ai * &aj + &aj * &ai).norm() < 1e-12);
                     // a† is the adjoint of a.
@@ -59,7 +63,10 @@ fn images_satisfy_the_canonical_anticommutation_relations() {
 
 /// A random particle-conserving Hermitian operator on `n` modes: Σ h_pq a†_p a_q plus
 /// Σ (c a†_p a†_q a_r a_s + h.c.).
-fn random_hamiltonian(n: usize, seed_terms: &[(usize, usize, usize, usize, f64, f64)]) -> FermionOp {
+fn random_hamiltonian(
+    n: usize,
+    seed_terms: &[(usize, usize, usize, usize, f64, f64)],
+) -> FermionOp {
     let mut op = FermionOp::new(n);
     for &(p, q, r, s, re, im) in seed_terms {
         let (p, q, r, s) = (p % n, q % n, r % n, s % n);
@@ -91,14 +98,24 @@ fn random_hamiltonian(n: usize, seed_terms: &[(usize, usize, usize, usize, f64, 
 fn number_operator(n: usize) -> FermionOp {
     let mut op = FermionOp::new(n);
     for k in 0..n {
-        op.add_product(Complex64::new(1.0, 0.0), &[(k, Ladder::Create), (k, Ladder::Annihilate)]);
+        op.add_product(
+            Complex64::new(1.0, 0.0),
+            &[(k, Ladder::Create), (k, Ladder::Annihilate)],
+        );
     }
     op
 }
 
 fn term_strategy() -> impl Strategy<Value = Vec<(usize, usize, usize, usize, f64, f64)>> {
     proptest::collection::vec(
-        (0usize..8, 0usize..8, 0usize..8, 0usize..8, -1.0f64..1.0, -1.0f64..1.0),
+        (
+            0usize..8,
+            0usize..8,
+            0usize..8,
+            0usize..8,
+            -1.0f64..1.0,
+            -1.0f64..1.0,
+        ),
         1..12,
     )
 }

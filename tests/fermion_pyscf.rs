@@ -56,7 +56,10 @@ fn lih_full_ci_and_frozen_core_casci_match_pyscf() {
         assert_eq!((h.num_qubits, info.nelec, info.ms2), (12, 4, 0));
         let basis = sector_basis(enc, 12, info.nelec, None);
         let e = lowest_in_sector(&h, &basis).unwrap();
-        println!("{enc}: full CI {e:.10} (PySCF {e_fci:.10}), HF {:.10} (PySCF {e_hf:.10})", info.hf_energy_ha);
+        println!(
+            "{enc}: full CI {e:.10} (PySCF {e_fci:.10}), HF {:.10} (PySCF {e_hf:.10})",
+            info.hf_energy_ha
+        );
         assert!((e - e_fci).abs() < 1e-8, "{enc}: {e} vs {e_fci}");
         assert!((info.hf_energy_ha - e_hf).abs() < 1e-8);
         // The HF string is a basis state of the sector with the same energy.
