@@ -81,7 +81,7 @@ fn hubbard_dimer_matches_the_two_site_formula() {
     // (the standard dimer result, e.g. Essler et al., The One-Dimensional Hubbard Model (2005),
     // recalled from memory; common practice).
     for enc in [Encoding::JordanWigner, Encoding::BravyiKitaev] {
-        for (t, u) in [(1.0, 4.0), (0.5, 1.0), (1.0, 0.0)] {
+        for (t, u) in [(1.0f64, 4.0f64), (0.5, 1.0), (1.0, 0.0)] {
             let src = format!(
                 "qubits 4\nlet t = {t}\nlet U = {u}\nsum spin in 0..2 {{ -t * cr{{spin}} an{{2 + spin}} + h.c. }}\nsum s in 0..2 {{ U * n{{2*s}} n{{2*s + 1}} }}\n"
             );
