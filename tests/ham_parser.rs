@@ -38,7 +38,7 @@ fn unknown_factor_renders_with_caret_and_hint() {
     assert_eq!(
         d[0].to_string(),
         "error: t.ham:2:9: unknown factor `Q1`\n  |\n2 | 0.25 X0 Q1\n  |         ^^\n\
-         hint: Pauli factors are X, Y or Z followed by a qubit index, e.g. `X3` or `Z{i+1}`\n"
+         hint: factors are X, Y, Z (Pauli) or cr, an, n (fermionic) glued to an index, e.g. `X3`, `Z{i+1}`, `cr{k}`\n"
     );
 }
 
@@ -310,7 +310,7 @@ fn let_name_is_spelled_like_a_factor() {
         e(
             2,
             5,
-            "`X1` is spelled like a Pauli factor and cannot be used as a name"
+            "`X1` is spelled like a factor and cannot be used as a name"
         )
     );
 }

@@ -37,9 +37,16 @@ pub enum MeasureKind {
 pub struct CompileArgs {
     /// Hamiltonian file (.ham).
     pub hamiltonian: PathBuf,
-    /// Reference state, one letter per qubit from `0 1 + - r l`, qubit 0 first.
+    /// Reference state, one letter per qubit from `0 1 + - r l`, qubit 0 first; or `hf` for the
+    /// Hartree–Fock determinant of an integral file under the chosen encoding.
     #[arg(long)]
     pub state: Option<String>,
+    /// Fermion-to-qubit encoding for integral files and fermionic .ham files: jw or bk.
+    #[arg(long, value_parser = |s: &str| s.parse::<crate::fermion::Encoding>())]
+    pub encoding: Option<crate::fermion::Encoding>,
+    /// Active orbitals FIRST-LAST of an integral file (numbered from 1 as in the file).
+    #[arg(long, value_parser = crate::fermion::fcidump::ActiveSpace::parse)]
+    pub active: Option<crate::fermion::fcidump::ActiveSpace>,
     /// Time step between points.
     #[arg(long)]
     pub dt: f64,
@@ -117,8 +124,11 @@ pub fn run(args: &CompileArgs) -> Result<()> {
     if args.steps == 0 {
         return Err(Error::usage("--steps must be at least 1", None));
     }
-    let ham = super::io::read_hamiltonian(&args.hamiltonian)?;
-    let h = ham.sum;
+    let opts = super::convert::LoadOptions {
+        encoding: args.encoding,
+        active: args.active,
+    };
+    let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
@@ -137,12 +147,20 @@ pub fn run(args: &CompileArgs) -> Result<()> {
             (Family::Trace, random_states(n, args.samples, args.seed))
         }
         kind => {
-            let state = args.state.clone().ok_or_else(|| {
+            let mut state = args.state.clone().ok_or_else(|| {
                 Error::usage(
                     "--state is required for this campaign",
                     Some("e.g. --state 0101 (one letter per qubit, qubit 0 first)"),
                 )
             })?;
+            if state == "hf" {
+                state = chem.as_ref().map(|c| c.hf_state.clone()).ok_or_else(|| {
+                    Error::usage(
+                        "--state hf needs an integral (FCIDUMP) input, which says how many electrons there are",
+                        Some("give the determinant explicitly, e.g. --state 1100"),
+                    )
+                })?;
+            }
             check_state(&state, n)?;
             (
                 if kind == MeasureKind::Krylov {
@@ -186,6 +204,12 @@ pub fn run(args: &CompileArgs) -> Result<()> {
             n,
             h.constant
         );
+        if let Some(c) = &chem {
+            println!(
+                "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.",
+                c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
+            );
+        }
         if let Some(g) = &grouping {
             println!(
                 "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.",

@@ -5,6 +5,7 @@
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
 pub mod compile;
+pub mod convert;
 pub mod io;
 pub mod sample;
 pub mod verify;
@@ -24,6 +25,9 @@ pub struct Cli {
 #[derive(Subcommand, Debug)]
 pub enum Command {
     Compile(compile::CompileArgs),
+    /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
+    #[command(after_help = convert::EXAMPLES)]
+    Convert(convert::ConvertArgs),
     Sample(sample::SampleArgs),
     Verify(verify::VerifyArgs),
 }
@@ -32,6 +36,7 @@ pub enum Command {
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Compile(a) => compile::run(&a),
+        Command::Convert(a) => convert::run(a),
         Command::Sample(a) => sample::run(&a),
         Command::Verify(a) => verify::run(&a),
     }

@@ -18,6 +18,8 @@
 //! * [`write_hamiltonian`] prints coefficients in shortest round-trip form, so writing and
 //!   reading back gives the identical [`PauliSum`].
 
+use crate::fermion::encode::{map_product, Encoding};
+use crate::fermion::{adjoint_ops, Ladder, LadderOp, ROUNDOFF_REL_TOL};
 use crate::lang::diag::Diagnostic;
 use crate::pauli::{Pauli, PauliString, PauliSum};
 use nom::character::complete::{char, digit1};
@@ -52,9 +54,33 @@ pub struct HamFile {
 }
 
 /// Reads a `.ham` source. `file` is only used in diagnostics.
+/// Fermionic terms need an encoding: from an `encoding` line or from the caller; without
+/// either, they are an error.
 pub fn parse_hamiltonian(file: &str, src: &str) -> Result<HamFile, Vec<Diagnostic>> {
+    parse_hamiltonian_with(file, src, None).map(|r| r.ham)
+}
+
+/// A parsed file together with what the reader learned about its fermionic part.
+#[derive(Clone, Debug, PartialEq)]
+pub struct HamRead {
+    pub ham: HamFile,
+    /// The encoding applied to fermionic terms (`None` when the file has none).
+    pub encoding: Option<Encoding>,
+    /// Fermionic terms read (after expanding sums).
+    pub fermionic_terms: usize,
+}
+
+/// Reads a `.ham` source; `encoding` (e.g. from `--encoding`) applies to fermionic terms when
+/// the file has no `encoding` line. A file line and a different `encoding` argument conflict;
+/// a file that mixes Pauli and fermionic terms must carry its own `encoding` line.
+pub fn parse_hamiltonian_with(
+    file: &str,
+    src: &str,
+    encoding: Option<Encoding>,
+) -> Result<HamRead, Vec<Diagnostic>> {
     let stmts = parse_statements(file, src)?;
     let mut ev = Evaluator::new(file, src);
+    ev.flag_encoding = encoding;
     ev.run(&stmts);
     ev.finish()
 }
@@ -183,9 +209,21 @@ impl Expr {
     }
 }
 
+/// What a factor is: a Pauli letter on a qubit, or a fermionic operator on a mode.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum FactorKind {
+    Pauli(Pauli),
+    /// `cr{k}`: creation `a†_k`.
+    Create,
+    /// `an{k}`: annihilation `a_k`.
+    Annihilate,
+    /// `n{k}`: number operator `a†_k a_k`.
+    Number,
+}
+
 #[derive(Clone, Debug)]
 struct Factor {
-    pauli: Pauli,
+    kind: FactorKind,
     index: Expr,
     span: Span,
 }
@@ -219,13 +257,19 @@ enum Stmt {
         body: Vec<Stmt>,
         header: Span,
     },
+    Encoding {
+        encoding: Encoding,
+        span: Span,
+    },
     Term(Term),
 }
 
 impl Stmt {
     fn span(&self) -> Span {
         match self {
-            Stmt::Qubits { span, .. } | Stmt::Let { span, .. } => *span,
+            Stmt::Qubits { span, .. } | Stmt::Let { span, .. } | Stmt::Encoding { span, .. } => {
+                *span
+            }
             Stmt::Sum { header, .. } => *header,
             Stmt::Term(t) => t.span,
         }
@@ -308,6 +352,7 @@ const L_CLOSE_PAREN: &str = "`)`";
 const L_INDEX: &str = "a qubit index";
 const L_CLOSE_INDEX: &str = "`}` closing the qubit index";
 const L_STATEMENT: &str = "a term, `let` or `sum`";
+const L_ENCODING: &str = "`jw` or `bk` after `encoding`";
 
 fn hint_for(label: &str) -> &'static str {
     match label {
@@ -320,6 +365,7 @@ fn hint_for(label: &str) -> &'static str {
             "coefficients are arithmetic over numbers and `let` names: + - * / and parentheses"
         }
         L_CLOSE_PAREN => "every `(` needs a matching `)`",
+        L_ENCODING => "`encoding jw` (Jordan–Wigner) or `encoding bk` (Bravyi–Kitaev)",
         L_INDEX | L_CLOSE_INDEX => {
             "a factor's qubit is a number (`X3`) or an index expression in braces (`Z{(i+1) % 8}`)"
         }
@@ -361,27 +407,34 @@ fn ident(i: &str) -> PResult<'_, &str> {
     }
 }
 
-const KEYWORDS: [&str; 4] = ["qubits", "let", "sum", "in"];
+const KEYWORDS: [&str; 5] = ["qubits", "let", "sum", "in", "encoding"];
 
-/// If `i` starts with a Pauli factor (`X3`, `Y{...}`), its letter and the letter's length.
-/// A factor is a letter followed by `{`, or by digits that end the identifier.
-fn factor_head(i: &str) -> Option<(Pauli, usize)> {
-    let pauli = match i.chars().next()? {
-        'X' => Pauli::X,
-        'Y' => Pauli::Y,
-        'Z' => Pauli::Z,
+/// If `i` starts with a factor (`X3`, `Y{...}`, `cr{k}`, `an2`, `n{k}`), its kind and the
+/// length of its letters. A factor is its letters followed by `{`, or by digits that end the
+/// identifier.
+fn factor_head(i: &str) -> Option<(FactorKind, usize)> {
+    let letters = i
+        .find(|c: char| !c.is_ascii_alphabetic())
+        .unwrap_or(i.len());
+    let kind = match &i[..letters] {
+        "X" => FactorKind::Pauli(Pauli::X),
+        "Y" => FactorKind::Pauli(Pauli::Y),
+        "Z" => FactorKind::Pauli(Pauli::Z),
+        "cr" => FactorKind::Create,
+        "an" => FactorKind::Annihilate,
+        "n" => FactorKind::Number,
         _ => return None,
     };
-    let rest = &i[1..];
+    let rest = &i[letters..];
     if rest.starts_with('{') {
-        return Some((pauli, 1));
+        return Some((kind, letters));
     }
     let digits = rest
         .find(|c: char| !c.is_ascii_digit())
         .unwrap_or(rest.len());
     let after = rest[digits..].chars().next();
     if digits > 0 && !after.is_some_and(is_ident_char) {
-        Some((pauli, 1))
+        Some((kind, letters))
     } else {
         None
     }
@@ -642,9 +695,9 @@ impl<'a> Parser<'a> {
         ))
     }
 
-    // factor  = ("X" | "Y" | "Z") (digits | "{" expr "}")
+    // factor  = ("X" | "Y" | "Z" | "cr" | "an" | "n") (digits | "{" expr "}")
     fn factor(&self, i: &'a str) -> PResult<'a, Factor> {
-        let Some((pauli, n)) = factor_head(i) else {
+        let Some((kind, n)) = factor_head(i) else {
             return backtrack(i);
         };
         let after = &i[n..];
@@ -669,7 +722,7 @@ impl<'a> Parser<'a> {
         Ok((
             rest,
             Factor {
-                pauli,
+                kind,
                 index,
                 span: self.span(i, rest),
             },
@@ -739,8 +792,8 @@ impl<'a> Parser<'a> {
             return fail(
                 i,
                 name.len(),
-                format!("`{name}` is spelled like a Pauli factor and cannot be used as a name"),
-                "names may not be X, Y or Z followed by digits; pick e.g. `x1`",
+                format!("`{name}` is spelled like a factor and cannot be used as a name"),
+                "names may not be X, Y, Z, cr, an or n followed by digits; pick e.g. `x1`",
             );
         }
         Ok((r, (name.to_string(), self.span(i, r))))
@@ -756,6 +809,30 @@ impl<'a> Parser<'a> {
             Stmt::Qubits {
                 count,
                 count_span: self.span(at, r),
+                span: self.span(kw, r),
+            },
+        ))
+    }
+
+    // encoding = "encoding" ("jw" | "bk")
+    fn encoding(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
+        let at = sp(r);
+        let (r, word) = context(L_ENCODING, cut(ident))(at)?;
+        let encoding = match word.parse::<Encoding>() {
+            Ok(e) => e,
+            Err(_) => {
+                return fail(
+                    at,
+                    word.len(),
+                    format!("unknown encoding `{word}`"),
+                    hint_for(L_ENCODING),
+                )
+            }
+        };
+        Ok((
+            r,
+            Stmt::Encoding {
+                encoding,
                 span: self.span(kw, r),
             },
         ))
@@ -864,6 +941,15 @@ impl<'a> Parser<'a> {
                         "declare `qubits N` once, on the first line of the file",
                     )
                 }
+                "encoding" if top => return self.encoding(i, r),
+                "encoding" => {
+                    return fail(
+                        i,
+                        word.len(),
+                        "`encoding` cannot appear inside a sum",
+                        "declare the encoding once, at the top level, e.g. `encoding jw`",
+                    )
+                }
                 "let" => return self.let_stmt(i, r),
                 "sum" => return self.sum(i, r),
                 _ => {}
@@ -920,7 +1006,7 @@ impl<'a> Parser<'a> {
                 j,
                 len,
                 format!("unknown factor {found}"),
-                "Pauli factors are X, Y or Z followed by a qubit index, e.g. `X3` or `Z{i+1}`",
+                "factors are X, Y, Z (Pauli) or cr, an, n (fermionic) glued to an index, e.g. `X3`, `Z{i+1}`, `cr{k}`",
             )
         } else {
             fail(
@@ -1069,6 +1155,16 @@ struct Acc {
     sum: Complex64,
     magnitude: f64,
     first: Span,
+    /// Some contribution came from a Pauli term (not from a mapped fermionic term).
+    from_pauli: bool,
+}
+
+/// A fermionic term waiting for the encoding: coefficient, ladder operators, `+ h.c.`, span.
+struct FermionTerm {
+    coeff: Complex64,
+    ops: Vec<LadderOp>,
+    hc: bool,
+    span: Span,
 }
 
 struct Evaluator<'s> {
@@ -1082,6 +1178,11 @@ struct Evaluator<'s> {
     terms_read: usize,
     steps: usize,
     aborted: bool,
+    flag_encoding: Option<Encoding>,
+    file_encoding: Option<(Encoding, Span)>,
+    fermion_terms: Vec<FermionTerm>,
+    fermion_terms_read: usize,
+    first_pauli_term: Option<Span>,
 }
 
 fn fmt_complex(c: Complex64) -> String {
@@ -1109,6 +1210,11 @@ impl<'s> Evaluator<'s> {
             terms_read: 0,
             steps: 0,
             aborted: false,
+            flag_encoding: None,
+            file_encoding: None,
+            fermion_terms: Vec::new(),
+            fermion_terms_read: 0,
+            first_pauli_term: None,
         }
     }
 
@@ -1400,6 +1506,18 @@ impl<'s> Evaluator<'s> {
         }
         match s {
             Stmt::Qubits { .. } => {}
+            Stmt::Encoding { encoding, span } => {
+                if let Some((_, prev)) = self.file_encoding {
+                    let line = self.line_of(prev);
+                    self.report(EvalErr::new(
+                        *span,
+                        "`encoding` is declared twice",
+                        format!("the encoding is declared once, at line {line}"),
+                    ));
+                } else {
+                    self.file_encoding = Some((*encoding, *span));
+                }
+            }
             Stmt::Let {
                 name,
                 name_span,
@@ -1498,49 +1616,145 @@ impl<'s> Evaluator<'s> {
             }
             None => Complex64::new(1.0, 0.0),
         };
-        let mut factors = Vec::with_capacity(t.factors.len());
+        let mut paulis = Vec::new();
+        let mut ladders = Vec::new();
         for f in &t.factors {
             let q = self.index(&f.index)?;
             if q < 0 || q >= self.num_qubits as i64 {
                 let n = self.num_qubits;
                 let what = if q < 0 { "negative" } else { "out of range" };
+                let unit = if matches!(f.kind, FactorKind::Pauli(_)) {
+                    "qubit"
+                } else {
+                    "mode"
+                };
                 return Err(EvalErr::new(
                     f.index.span(),
                     format!(
-                        "qubit index {q} in `{}` is {what}: the file declares `qubits {n}`",
+                        "{unit} index {q} in `{}` is {what}: the file declares `qubits {n}`",
                         self.text(f.span)
                     ),
                     format!(
-                        "qubits are numbered 0 to {}; use `% {n}` to wrap around a ring",
+                        "{unit}s are numbered 0 to {}; use `% {n}` to wrap around a ring",
                         n - 1
                     ),
                 ));
             }
-            factors.push((q as usize, f.pauli));
+            let q = q as usize;
+            match f.kind {
+                FactorKind::Pauli(p) => paulis.push((q, p)),
+                FactorKind::Create => ladders.push((q, Ladder::Create)),
+                FactorKind::Annihilate => ladders.push((q, Ladder::Annihilate)),
+                FactorKind::Number => {
+                    ladders.push((q, Ladder::Create));
+                    ladders.push((q, Ladder::Annihilate));
+                }
+            }
+        }
+        if !paulis.is_empty() && !ladders.is_empty() {
+            return Err(EvalErr::new(
+                t.span,
+                "a term mixes Pauli and fermionic factors",
+                "write the Pauli part and the fermionic part as separate terms",
+            ));
         }
         self.terms_read += 1;
-        let (phase, p) = PauliString::from_factors(&factors);
+        if !ladders.is_empty() {
+            self.fermion_terms_read += 1;
+            if c != Complex64::new(0.0, 0.0) {
+                self.fermion_terms.push(FermionTerm {
+                    coeff: c,
+                    ops: ladders,
+                    hc: t.hc,
+                    span: t.span,
+                });
+            }
+            return Ok(());
+        }
+        if !paulis.is_empty() && self.first_pauli_term.is_none() {
+            self.first_pauli_term = Some(t.span);
+        }
+        let (phase, p) = PauliString::from_factors(&paulis);
         let c = c * phase;
-        self.add(p, c, t.span);
+        self.add(p, c, t.span, true);
         if t.hc {
-            self.add(p, c.conj(), t.span);
+            self.add(p, c.conj(), t.span, true);
         }
         Ok(())
     }
 
-    fn add(&mut self, p: PauliString, c: Complex64, span: Span) {
+    /// Maps the queued fermionic terms with the encoding the file or the caller chose.
+    fn map_fermion_terms(&mut self) -> Option<Encoding> {
+        let first = self.fermion_terms.first().map(|f| f.span)?;
+        let enc = match (self.file_encoding, self.flag_encoding) {
+            (Some((a, span)), Some(b)) if a != b => {
+                self.report(EvalErr::new(
+                    span,
+                    format!(
+                        "the file says `encoding {}` but the command asks for `{}`",
+                        a.short_name(),
+                        b.short_name()
+                    ),
+                    "drop the command-line encoding or change the `encoding` line",
+                ));
+                return None;
+            }
+            (Some((a, _)), _) => a,
+            (None, _) if self.first_pauli_term.is_some() => {
+                self.report(EvalErr::new(
+                    first,
+                    "this file mixes Pauli and fermionic terms but does not say which encoding applies",
+                    "the Pauli terms are written for one encoding: add `encoding jw` or `encoding bk` after `qubits`",
+                ));
+                return None;
+            }
+            (None, Some(b)) => b,
+            (None, None) => {
+                self.report(EvalErr::new(
+                    first,
+                    "fermionic terms need an encoding",
+                    "add a line `encoding jw` (Jordan–Wigner) or `encoding bk` (Bravyi–Kitaev), or pass `--encoding jw|bk`",
+                ));
+                return None;
+            }
+        };
+        let n = self.num_qubits;
+        let terms = std::mem::take(&mut self.fermion_terms);
+        for t in &terms {
+            let mut out = Vec::new();
+            map_product(enc, n, t.coeff, &t.ops, &mut |p, c| out.push((p, c)));
+            if t.hc {
+                map_product(enc, n, t.coeff.conj(), &adjoint_ops(&t.ops), &mut |p, c| {
+                    out.push((p, c))
+                });
+            }
+            for (p, c) in out {
+                self.add(p, c, t.span, false);
+            }
+        }
+        Some(enc)
+    }
+
+    fn add(&mut self, p: PauliString, c: Complex64, span: Span, from_pauli: bool) {
         let e = self.acc.entry(p).or_insert(Acc {
             sum: Complex64::new(0.0, 0.0),
             magnitude: 0.0,
             first: span,
+            from_pauli,
         });
         e.sum += c;
         e.magnitude += c.norm();
+        e.from_pauli |= from_pauli;
     }
 
-    fn finish(mut self) -> Result<HamFile, Vec<Diagnostic>> {
+    fn finish(mut self) -> Result<HamRead, Vec<Diagnostic>> {
         let mut sum = PauliSum::new(self.num_qubits);
         let mut dropped_zero = 0;
+        let encoding = if self.diags.is_empty() {
+            self.map_fermion_terms()
+        } else {
+            None
+        };
         if self.diags.is_empty() {
             let acc = std::mem::take(&mut self.acc);
             for (p, a) in &acc {
@@ -1561,6 +1775,10 @@ impl<'s> Evaluator<'s> {
                     continue;
                 }
                 let re = a.sum.re;
+                if !a.from_pauli && re.abs() <= ROUNDOFF_REL_TOL * a.magnitude {
+                    // Cancellation noise of mapped fermionic terms.
+                    continue;
+                }
                 if re == 0.0 {
                     if !p.is_identity() {
                         dropped_zero += 1;
@@ -1576,10 +1794,14 @@ impl<'s> Evaluator<'s> {
             self.diags.sort_by_key(|(o, _)| *o);
             return Err(self.diags.into_iter().map(|(_, d)| d).collect());
         }
-        Ok(HamFile {
-            sum,
-            dropped_zero,
-            terms_read: self.terms_read,
+        Ok(HamRead {
+            ham: HamFile {
+                sum,
+                dropped_zero,
+                terms_read: self.terms_read,
+            },
+            encoding,
+            fermionic_terms: self.fermion_terms_read,
         })
     }
 }
@@ -1625,9 +1847,15 @@ mod tests {
 
     #[test]
     fn factor_spelling() {
-        assert_eq!(factor_head("X3 "), Some((Pauli::X, 1)));
-        assert_eq!(factor_head("Y{i}"), Some((Pauli::Y, 1)));
-        assert_eq!(factor_head("Z12"), Some((Pauli::Z, 1)));
+        assert_eq!(factor_head("X3 "), Some((FactorKind::Pauli(Pauli::X), 1)));
+        assert_eq!(factor_head("Y{i}"), Some((FactorKind::Pauli(Pauli::Y), 1)));
+        assert_eq!(factor_head("Z12"), Some((FactorKind::Pauli(Pauli::Z), 1)));
+        assert_eq!(factor_head("cr{k}"), Some((FactorKind::Create, 2)));
+        assert_eq!(factor_head("an3"), Some((FactorKind::Annihilate, 2)));
+        assert_eq!(factor_head("n{2*s}"), Some((FactorKind::Number, 1)));
+        assert_eq!(factor_head("n"), None);
+        assert_eq!(factor_head("cr"), None);
+        assert_eq!(factor_head("an1x"), None);
         assert_eq!(factor_head("Z"), None);
         assert_eq!(factor_head("X1a"), None);
         assert_eq!(factor_head("Q1"), None);
