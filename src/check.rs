@@ -187,3 +187,101 @@ fn check_circuit(
         trotter_error,
     })
 }
+
+/// Trace-campaign summary at one time point: the average of the listed states' simulated values
+/// (`Re` and `Im` parts), its standard error over the states, and the exact normalised traces
+/// of the ideal product formula and of `e^{-iHt}`.
+#[derive(Clone, Debug, Serialize)]
+pub struct TraceRow {
+    pub k: usize,
+    pub time: f64,
+    pub mean_re: f64,
+    pub mean_im: f64,
+    /// Standard error of the mean, `|·|` of the complex spread over the states.
+    pub std_error: f64,
+    pub ideal_re: f64,
+    pub ideal_im: f64,
+    pub exact_re: f64,
+    pub exact_im: f64,
+    /// `|mean − ideal| / std_error` (0 when the spread is 0).
+    pub z_score: f64,
+}
+
+/// Largest qubit count for which the exact trace is summed over all basis states.
+pub const TRACE_EXACT_MAX_QUBITS: usize = 10;
+
+/// For a trace plan: compares the average over the listed states with the exact normalised trace
+/// (`None` when the system is too large to sum over every basis state).
+pub fn trace_summary(
+    plan: &Plan,
+    checks: &[CircuitCheck],
+) -> Result<Option<Vec<TraceRow>>, String> {
+    let h = plan_hamiltonian(plan)?;
+    let n = h.num_qubits;
+    if n > TRACE_EXACT_MAX_QUBITS {
+        return Ok(None);
+    }
+    let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
+    let terms = order_terms(&h);
+    let spectrum = crate::sim::exact::spectrum(&h);
+    let dim = 1usize << n;
+    let mut rows = Vec::new();
+    for k in 1..plan.points {
+        let t = k as f64 * plan.formula.dt;
+        let program = evolution(&terms, order, t, k * plan.formula.steps_per_dt);
+        let ideal: Complex64 = (0..dim)
+            .into_par_iter()
+            .map(|b| {
+                let mut v = State::zero(n);
+                v.amps[0] = Complex64::new(0.0, 0.0);
+                v.amps[b] = Complex64::new(1.0, 0.0);
+                apply_program(&mut v, &program);
+                v.amps[b]
+            })
+            .sum::<Complex64>()
+            / dim as f64;
+        let exact: Complex64 = spectrum
+            .values
+            .iter()
+            .map(|e| Complex64::from_polar(1.0, -e * t))
+            .sum::<Complex64>()
+            / dim as f64;
+        let mut per_state = vec![Complex64::new(0.0, 0.0); plan.states.len()];
+        for (e, c) in plan.circuits.iter().zip(checks) {
+            if e.k == k {
+                let v = c.reads[0].simulated;
+                per_state[e.state] += if e.part == Part::Re {
+                    Complex64::new(v, 0.0)
+                } else {
+                    Complex64::new(0.0, v)
+                };
+            }
+        }
+        let m = per_state.len() as f64;
+        let mean = per_state.iter().sum::<Complex64>() / m;
+        let var = if m > 1.0 {
+            per_state.iter().map(|z| (z - mean).norm_sqr()).sum::<f64>() / (m - 1.0)
+        } else {
+            0.0
+        };
+        let std_error = (var / m).sqrt();
+        let z_score = if std_error > 0.0 {
+            (mean - ideal).norm() / std_error
+        } else {
+            0.0
+        };
+        rows.push(TraceRow {
+            k,
+            time: t,
+            mean_re: mean.re,
+            mean_im: mean.im,
+            std_error,
+            ideal_re: ideal.re,
+            ideal_im: ideal.im,
+            exact_re: exact.re,
+            exact_im: exact.im,
+            z_score,
+        });
+    }
+    Ok(Some(rows))
+}

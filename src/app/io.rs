@@ -26,6 +26,12 @@ pub fn read_text(path: &Path) -> Result<String> {
     })
 }
 
+/// Reads and parses a `.ham` file: not text, or not valid `.ham`, is a diagnostic (exit 2).
+pub fn read_hamiltonian(path: &Path) -> Result<crate::lang::ham::HamFile> {
+    let src = read_text(path)?;
+    crate::lang::ham::parse_hamiltonian(&path.display().to_string(), &src).map_err(Error::Input)
+}
+
 /// Writes `contents` to `path` through a temporary file in the same folder.
 pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<()> {
     let dir = path
@@ -51,4 +57,60 @@ pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<()> {
             reading: false,
         }
     })
+}
+
+/// Reads `DIR/plan.json`; a malformed plan is bad input (exit 2) with line and column.
+pub fn read_plan(dir: &Path) -> Result<crate::family::plan::Plan> {
+    let path = dir.join("plan.json");
+    let text = read_text(&path)?;
+    let name = path.display().to_string();
+    let plan = crate::family::plan::Plan::from_json(&text).map_err(|e| {
+        let offset = offset_of(&text, e.line(), e.column());
+        Error::input(Diagnostic::at(
+            &name,
+            &text,
+            offset,
+            1,
+            format!("not a phasewright plan: {e}"),
+            Some("pass a folder written by `phasewright compile`".into()),
+        ))
+    })?;
+    if plan.format != crate::family::plan::PLAN_FORMAT {
+        return Err(Error::input(Diagnostic::whole_file(
+            &name,
+            format!("unsupported plan format `{}`", plan.format),
+            Some(format!(
+                "this phasewright reads `{}`",
+                crate::family::plan::PLAN_FORMAT
+            )),
+        )));
+    }
+    Ok(plan)
+}
+
+/// Byte offset of a 1-based (line, column) position, as serde_json reports them.
+pub fn offset_of(text: &str, line: usize, column: usize) -> usize {
+    let start: usize = text
+        .split_inclusive('\n')
+        .take(line.saturating_sub(1))
+        .map(str::len)
+        .sum();
+    (start + column.saturating_sub(1)).min(text.len())
+}
+
+/// Reads every circuit file of a plan back with phasewright's OpenQASM 3 reader.
+pub fn read_plan_circuits(
+    dir: &Path,
+    plan: &crate::family::plan::Plan,
+) -> Result<Vec<crate::circuit::Circuit>> {
+    plan.circuits
+        .iter()
+        .map(|e| {
+            let path = dir.join(&e.file);
+            let text = read_text(&path)?;
+            let prog =
+                crate::qasm::read(&path.display().to_string(), &text).map_err(Error::input)?;
+            Ok(prog.circuit)
+        })
+        .collect()
 }

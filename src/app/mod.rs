@@ -4,7 +4,11 @@
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
+pub mod compile;
+pub mod convert;
 pub mod io;
+pub mod sample;
+pub mod verify;
 
 use crate::error::Result;
 use clap::{Parser, Subcommand};
@@ -19,9 +23,21 @@ pub struct Cli {
 }
 
 #[derive(Subcommand, Debug)]
-pub enum Command {}
+pub enum Command {
+    Compile(compile::CompileArgs),
+    /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
+    #[command(after_help = convert::EXAMPLES)]
+    Convert(convert::ConvertArgs),
+    Sample(sample::SampleArgs),
+    Verify(verify::VerifyArgs),
+}
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
-    match cli.command {}
+    match cli.command {
+        Command::Compile(a) => compile::run(&a),
+        Command::Convert(a) => convert::run(a),
+        Command::Sample(a) => sample::run(&a),
+        Command::Verify(a) => verify::run(&a),
+    }
 }

@@ -6,3 +6,4 @@
 
 pub mod dev;
 pub mod diag;
+pub mod ham;

@@ -1,1 +1,3 @@
-//! (to be written)
+//! Reports for people and machines: plain tables, JSON, SVG plots.
+
+pub mod table;

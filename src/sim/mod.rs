@@ -10,6 +10,7 @@
 //! linearly with the gate count), far below the 1e-9 compile-error budget.
 
 pub mod exact;
+pub mod shots;
 
 use crate::circuit::{Circuit, Gate, Mat2};
 use crate::pauli::PauliString;
@@ -148,23 +149,22 @@ impl State {
     }
 
     /// Applies `exp(-i θ P)` in one pass: `cos θ·v − i sin θ·P v`, pairing `b` with `b ⊕ x`.
+    ///
+    /// With `P|b⟩ = i^{|x∧z|} (−1)^{|b∧z|} |b ⊕ x⟩`, the factor in front of the partner amplitude
+    /// is `m·(−1)^{|b∧z|}` with `m = −i sin θ · i^{|x∧z|}`, so each amplitude costs one parity,
+    /// one select and two complex multiply-adds.
     pub fn apply_pauli_rotation(&mut self, p: &PauliString, theta: f64) {
         let (s, c) = theta.sin_cos();
-        let mis = Complex64::new(0.0, -s);
-        let yph = crate::pauli::i_pow(p.y_count() as i64);
         let z = p.z as usize;
-        let sign = move |b: usize| {
-            if (b & z).count_ones().is_multiple_of(2) {
-                1.0
-            } else {
-                -1.0
-            }
-        };
+        let odd = move |b: usize| (b & z).count_ones() & 1 == 1;
         if p.x == 0 {
-            // Diagonal: P|b⟩ = ±|b⟩.
-            self.for_each_indexed(|b, a| *a *= Complex64::new(c, 0.0) + mis * sign(b));
+            // Diagonal: P|b⟩ = ±|b⟩, so the amplitude is multiplied by e^{∓iθ}.
+            let f = [Complex64::new(c, -s), Complex64::new(c, s)];
+            self.for_each_indexed(|b, a| *a *= f[odd(b) as usize]);
             return;
         }
+        let m = Complex64::new(0.0, -s) * crate::pauli::i_pow(p.y_count() as i64);
+        let mm = [m, -m];
         let h = 63 - p.x.leading_zeros();
         let half = 1usize << h;
         let xlow = (p.x as usize) & (half - 1);
@@ -176,15 +176,14 @@ impl State {
                 if i > j {
                     continue;
                 }
-                // Indices b0 = base+i (bit h clear), b1 = b0 ⊕ x = base+half+j; and the pair
-                // (base+j, base+half+i) when j ≠ i.
+                // Pairs (base+i, base+half+j) and, when j ≠ i, (base+j, base+half+i): each
+                // low index b0 (bit h clear) with its partner b1 = b0 ⊕ x.
                 for (li, hj) in [(i, j), (j, i)] {
-                    let b0 = base + li;
-                    let b1 = base + half + hj;
+                    let (b0, b1) = (base + li, base + half + hj);
                     let (v0, v1) = (lo[li], hi[hj]);
-                    // (P v)[b1] = phase(b0) v[b0], (P v)[b0] = phase(b1) v[b1].
-                    lo[li] = c * v0 + mis * yph * sign(b1) * v1;
-                    hi[hj] = c * v1 + mis * yph * sign(b0) * v0;
+                    // (P v)[b0] = phase(b1)·v[b1], (P v)[b1] = phase(b0)·v[b0].
+                    lo[li] = c * v0 + mm[odd(b1) as usize] * v1;
+                    hi[hj] = c * v1 + mm[odd(b0) as usize] * v0;
                     if li == hj {
                         break;
                     }

@@ -1,0 +1,331 @@
+//! `phasewright compile`: Hamiltonian (+ device) → folder of OpenQASM 3 files and plan.json,
+//! with a cost table on stdout.
+
+use super::io::write_atomic;
+use crate::error::{Error, Result};
+use crate::family::plan::{Family, Plan};
+use crate::family::{random_states, state_prep, Spec};
+use crate::formula::Order;
+use crate::lang::diag::Diagnostic;
+use crate::pipeline::{compile, Compiled};
+use crate::report::table::Table;
+use clap::{Args, ValueEnum};
+use std::path::{Path, PathBuf};
+
+/// Which quantities the campaign measures.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum MeasureKind {
+    /// Re and Im of S_k = ⟨ψ|U(k·dt)|ψ⟩ for k = 1..K-1.
+    Overlap,
+    /// S_k and H_k = ⟨ψ|H U(k·dt)|ψ⟩, one circuit per (k, part, qubit-wise commuting group).
+    Krylov,
+    /// tr U(k·dt)/2^n from random product states (stochastic trace estimation).
+    Trace,
+}
+
+/// Compile a Hamiltonian into Hadamard-test circuits for real-time evolution, one OpenQASM 3
+/// file per circuit plus plan.json, and print what each circuit costs.
+///
+/// The reference state is a string over `0 1 + - r l` (Pauli eigenstates |0⟩ |1⟩ |+⟩ |−⟩
+/// |+i⟩ |−i⟩), qubit 0 first. Time point k (k = 0..K-1) evolves for k·dt with k·R Trotter steps
+/// of the chosen order. The identity term of H is not compiled; it is recorded in plan.json and
+/// added back by `estimate`.
+#[derive(Args, Debug)]
+#[command(
+    after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 --order 2 -o out/ising\n\nCosts are estimates: they depend on the device calibration; validate results against trusted methods."
+)]
+pub struct CompileArgs {
+    /// Hamiltonian file (.ham).
+    pub hamiltonian: PathBuf,
+    /// Reference state, one letter per qubit from `0 1 + - r l`, qubit 0 first; or `hf` for the
+    /// Hartree–Fock determinant of an integral file under the chosen encoding.
+    #[arg(long)]
+    pub state: Option<String>,
+    /// Fermion-to-qubit encoding for integral files and fermionic .ham files: jw or bk.
+    #[arg(long, value_parser = |s: &str| s.parse::<crate::fermion::Encoding>())]
+    pub encoding: Option<crate::fermion::Encoding>,
+    /// Active orbitals FIRST-LAST of an integral file (numbered from 1 as in the file).
+    #[arg(long, value_parser = crate::fermion::fcidump::ActiveSpace::parse)]
+    pub active: Option<crate::fermion::fcidump::ActiveSpace>,
+    /// Time step between points.
+    #[arg(long)]
+    pub dt: f64,
+    /// Number of time points K (k = 0..K-1).
+    #[arg(long)]
+    pub points: usize,
+    /// Product-formula order: 1 (Lie–Trotter), 2 (Strang), 4 (Suzuki).
+    #[arg(long, default_value_t = 2)]
+    pub order: u32,
+    /// Trotter steps per dt.
+    #[arg(long, default_value_t = 1)]
+    pub steps: usize,
+    /// Which campaign to emit.
+    #[arg(long, value_enum, default_value_t = MeasureKind::Overlap)]
+    pub measure: MeasureKind,
+    /// Number of random product states for `--measure trace`.
+    #[arg(long, default_value_t = 8)]
+    pub samples: usize,
+    /// Seed for random states (and layout trials on devices).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Output folder (created if missing).
+    #[arg(short = 'o', long = "out")]
+    pub out: PathBuf,
+    /// Print the cost table as JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+fn check_state(state: &str, n: usize) -> Result<()> {
+    if let Err(b) = state_prep(state) {
+        let offset = state.char_indices().nth(b.index).map_or(0, |(i, _)| i);
+        return Err(Error::input(Diagnostic::at(
+            "--state",
+            state,
+            offset,
+            b.letter.len_utf8(),
+            format!("`{}` is not a reference-state letter", b.letter),
+            Some("use 0 1 + - r l (|0⟩ |1⟩ |+⟩ |−⟩ |+i⟩ |−i⟩), qubit 0 first".into()),
+        )));
+    }
+    let len = state.chars().count();
+    if len != n {
+        return Err(Error::input(Diagnostic::at(
+            "--state",
+            state,
+            0,
+            state.len(),
+            format!("the state has {len} letters but the Hamiltonian has {n} qubits"),
+            Some(format!("give exactly {n} letters, qubit 0 first")),
+        )));
+    }
+    Ok(())
+}
+
+pub fn run(args: &CompileArgs) -> Result<()> {
+    let order = Order::from_number(args.order).ok_or_else(|| {
+        Error::usage(
+            format!("--order {} is not supported", args.order),
+            Some("use 1 (Lie–Trotter), 2 (Strang) or 4 (Suzuki)"),
+        )
+    })?;
+    if !(args.dt.is_finite() && args.dt > 0.0) {
+        return Err(Error::usage(
+            format!("--dt {} must be a positive number", args.dt),
+            None,
+        ));
+    }
+    if args.points < 2 {
+        return Err(Error::usage(
+            "--points must be at least 2 (k = 0 and at least one evolved point)",
+            None,
+        ));
+    }
+    if args.steps == 0 {
+        return Err(Error::usage("--steps must be at least 1", None));
+    }
+    let opts = super::convert::LoadOptions {
+        encoding: args.encoding,
+        active: args.active,
+    };
+    let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
+    let n = h.num_qubits;
+    if h.terms.is_empty() {
+        return Err(Error::usage(
+            format!(
+                "{} has no non-identity term: there is nothing to evolve",
+                args.hamiltonian.display()
+            ),
+            Some("the identity term alone only adds a phase"),
+        ));
+    }
+    let (family, states) = match args.measure {
+        MeasureKind::Trace => {
+            if args.samples == 0 {
+                return Err(Error::usage("--samples must be at least 1", None));
+            }
+            (Family::Trace, random_states(n, args.samples, args.seed))
+        }
+        kind => {
+            let mut state = args.state.clone().ok_or_else(|| {
+                Error::usage(
+                    "--state is required for this campaign",
+                    Some("e.g. --state 0101 (one letter per qubit, qubit 0 first)"),
+                )
+            })?;
+            if state == "hf" {
+                state = chem.as_ref().map(|c| c.hf_state.clone()).ok_or_else(|| {
+                    Error::usage(
+                        "--state hf needs an integral (FCIDUMP) input, which says how many electrons there are",
+                        Some("give the determinant explicitly, e.g. --state 1100"),
+                    )
+                })?;
+            }
+            check_state(&state, n)?;
+            (
+                if kind == MeasureKind::Krylov {
+                    Family::Krylov
+                } else {
+                    Family::Overlap
+                },
+                vec![state],
+            )
+        }
+    };
+    let spec = Spec {
+        family,
+        order,
+        dt: args.dt,
+        points: args.points,
+        steps_per_dt: args.steps,
+        states,
+    };
+    let mut compiled = compile(&h, &args.hamiltonian.display().to_string(), &spec)?;
+    if family == Family::Trace {
+        compiled.plan.seed = Some(args.seed);
+    }
+    write_campaign(&args.out, &compiled)?;
+    let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
+    if args.json {
+        let mut v = cost_json(&compiled.plan);
+        if let Some(g) = &grouping {
+            v["grouping"] = serde_json::to_value(g).expect("serialisable");
+        }
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&v).expect("serialisable")
+        );
+    } else {
+        print!("{}", cost_table(&compiled.plan));
+        println!(
+            "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).",
+            compiled.plan.circuits.len(),
+            args.out.display(),
+            n,
+            h.constant
+        );
+        if let Some(c) = &chem {
+            println!(
+                "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.",
+                c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
+            );
+        }
+        if let Some(g) = &grouping {
+            println!(
+                "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.",
+                g.terms, g.groups, g.circuits, g.circuits_one_term_each
+            );
+        }
+        println!("Costs are estimates: they depend on the device calibration; validate results against trusted methods.");
+    }
+    Ok(())
+}
+
+/// How much the grouped readout of the Krylov family saves.
+#[derive(Clone, Debug, serde::Serialize)]
+pub struct GroupingSummary {
+    pub terms: usize,
+    pub groups: usize,
+    pub circuits: usize,
+    pub circuits_one_term_each: usize,
+}
+
+/// Counts groups and circuits, and what one term per circuit would have needed: the overlap
+/// circuits (2 per k ≥ 1) plus, per term, one real circuit at k = 0 and two per k ≥ 1.
+pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
+    let groups = plan
+        .circuits
+        .iter()
+        .filter_map(|e| e.group)
+        .max()
+        .map_or(0, |g| g + 1);
+    let terms = plan.hamiltonian.terms.len();
+    let per_read = 1 + 2 * (plan.points - 1);
+    GroupingSummary {
+        terms,
+        groups,
+        circuits: plan.circuits.len(),
+        circuits_one_term_each: 2 * (plan.points - 1) + terms * per_read,
+    }
+}
+
+/// Writes every program and then plan.json, each atomically.
+pub fn write_campaign(dir: &Path, c: &Compiled) -> Result<()> {
+    std::fs::create_dir_all(dir).map_err(|source| Error::Io {
+        path: dir.display().to_string(),
+        source,
+        reading: false,
+    })?;
+    for (e, text) in c.plan.circuits.iter().zip(&c.programs) {
+        write_atomic(&dir.join(&e.file), text.as_bytes())?;
+    }
+    write_atomic(&dir.join("plan.json"), c.plan.to_json().as_bytes())
+}
+
+/// The per-circuit and total cost table.
+pub fn cost_table(plan: &Plan) -> String {
+    let dev = plan.device.is_some();
+    let mut head = vec![
+        "circuit", "k", "time", "part", "depth", "2q gates", "1q gates",
+    ];
+    if dev {
+        head.extend(["swaps", "duration us", "success"]);
+    }
+    let mut t = Table::new(head);
+    let mut tot = crate::family::plan::Costs::default();
+    let (mut dur, mut worst) = (0.0f64, 1.0f64);
+    for e in &plan.circuits {
+        let c = &e.costs;
+        let mut row = vec![
+            e.id.clone(),
+            e.k.to_string(),
+            format!("{:.4}", e.time),
+            format!("{:?}", e.part).to_lowercase(),
+            c.depth.to_string(),
+            c.two_qubit.to_string(),
+            c.one_qubit.to_string(),
+        ];
+        if dev {
+            row.push(c.swaps.to_string());
+            row.push(format!("{:.2}", c.duration_ns.unwrap_or(0.0) / 1000.0));
+            row.push(format!("{:.4}", c.success_probability.unwrap_or(1.0)));
+        }
+        t.row(row);
+        tot.depth += c.depth;
+        tot.two_qubit += c.two_qubit;
+        tot.one_qubit += c.one_qubit;
+        tot.swaps += c.swaps;
+        dur += c.duration_ns.unwrap_or(0.0);
+        worst = worst.min(c.success_probability.unwrap_or(1.0));
+    }
+    t.rule();
+    let mut row = vec![
+        "total".to_string(),
+        String::new(),
+        String::new(),
+        String::new(),
+        tot.depth.to_string(),
+        tot.two_qubit.to_string(),
+        tot.one_qubit.to_string(),
+    ];
+    if dev {
+        row.push(tot.swaps.to_string());
+        row.push(format!("{:.2}", dur / 1000.0));
+        row.push(format!("min {worst:.4}"));
+    }
+    t.row(row);
+    t.render()
+}
+
+/// The cost table as JSON: every circuit's costs and the totals.
+pub fn cost_json(plan: &Plan) -> serde_json::Value {
+    let circuits: Vec<serde_json::Value> = plan.circuits.iter().map(|e| serde_json::json!({"id": e.id, "k": e.k, "time": e.time, "part": e.part, "costs": e.costs})).collect();
+    let sum = |f: fn(&crate::family::plan::Costs) -> usize| {
+        plan.circuits.iter().map(|e| f(&e.costs)).sum::<usize>()
+    };
+    serde_json::json!({
+        "circuits": circuits,
+        "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
+        "caution": "estimates depend on the device calibration; validate against trusted methods",
+    })
+}

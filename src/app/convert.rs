@@ -1,0 +1,193 @@
+//! `phasewright convert`: a `.ham` file with fermionic terms, or an FCIDUMP integral file, to
+//! the mapped qubit Hamiltonian written in the `.ham` language.
+//!
+//! In: the input path, the encoding, an optional active space. Out: the output file (written
+//! atomically) and a one-paragraph summary on stdout. Also the entry point the other commands
+//! use to read any Hamiltonian input: [`load_qubit_hamiltonian`].
+
+use crate::app::io::{read_text, write_atomic};
+use crate::error::{Error, Result};
+use crate::fermion::fcidump::{self, ActiveSpace};
+use crate::fermion::{qubit_hamiltonian_from_integrals, ChemInfo, Encoding};
+use crate::lang::ham::{parse_hamiltonian_with, write_hamiltonian};
+use crate::pauli::PauliSum;
+use clap::Args;
+use std::path::{Path, PathBuf};
+
+/// Help text shown after the options of `phasewright convert`.
+pub const EXAMPLES: &str = "\
+The input is a .ham file (Pauli terms and/or fermionic terms cr{k}, an{k}, n{k}) or an FCIDUMP
+integral file (recognised by its &FCI header). Mode k is qubit k. Spin orbitals of an integral
+file are interleaved: orbital p (counted from 0 in the active space) is mode 2p (alpha) and
+mode 2p+1 (beta). The Hartree-Fock state is printed as a bitstring, qubit 0 first (leftmost).
+
+Examples:
+  phasewright convert h2.fcidump --encoding jw -o h2.ham
+  phasewright convert hubbard_ring4.ham --encoding bk -o hubbard_qubits.ham
+  phasewright convert molecule.fcidump --encoding jw --active 2-5 -o active.ham";
+
+/// Arguments of `phasewright convert`.
+#[derive(Args, Debug)]
+pub struct ConvertArgs {
+    /// Input: a .ham file or an FCIDUMP integral file.
+    pub input: PathBuf,
+    /// Output .ham file (written whole or not at all).
+    #[arg(short = 'o', long = "output")]
+    pub output: PathBuf,
+    /// Fermion-to-qubit encoding: jw (Jordan–Wigner) or bk (Bravyi–Kitaev). Required for
+    /// integral files and for .ham files with fermionic terms but no `encoding` line.
+    #[arg(long, value_parser = parse_encoding)]
+    pub encoding: Option<Encoding>,
+    /// Active orbitals FIRST-LAST of an integral file, numbered from 1 as in the file; lower
+    /// orbitals are frozen doubly occupied, higher ones dropped. Example: --active 2-5
+    #[arg(long, value_parser = parse_active)]
+    pub active: Option<ActiveSpace>,
+}
+
+fn parse_encoding(s: &str) -> std::result::Result<Encoding, String> {
+    s.parse()
+}
+
+fn parse_active(s: &str) -> std::result::Result<ActiveSpace, String> {
+    ActiveSpace::parse(s)
+}
+
+/// Options for [`load_qubit_hamiltonian_with`].
+#[derive(Clone, Copy, Debug, Default)]
+pub struct LoadOptions {
+    pub encoding: Option<Encoding>,
+    pub active: Option<ActiveSpace>,
+}
+
+/// Reads any Hamiltonian input and returns the qubit Hamiltonian; for an FCIDUMP file (text
+/// starting with `&FCI`) also the electron facts (HF state, energies).
+pub fn load_qubit_hamiltonian(
+    path: &Path,
+    encoding: Option<Encoding>,
+) -> Result<(PauliSum, Option<ChemInfo>)> {
+    load_qubit_hamiltonian_with(
+        path,
+        LoadOptions {
+            encoding,
+            active: None,
+        },
+    )
+}
+
+/// [`load_qubit_hamiltonian`] with an active space for integral files.
+pub fn load_qubit_hamiltonian_with(
+    path: &Path,
+    opts: LoadOptions,
+) -> Result<(PauliSum, Option<ChemInfo>)> {
+    let (h, info, _) = load(path, opts)?;
+    Ok((h, info))
+}
+
+/// What was read, for the summary line.
+struct Loaded {
+    encoding: Option<Encoding>,
+    terms_read: usize,
+    dropped_zero: usize,
+}
+
+fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, Loaded)> {
+    let name = path.display().to_string();
+    let src = read_text(path)?;
+    if fcidump::looks_like_fcidump(&src) {
+        let Some(enc) = opts.encoding else {
+            return Err(Error::usage(
+                format!("{name} is an integral file: choose the encoding"),
+                Some("pass --encoding jw (Jordan–Wigner) or --encoding bk (Bravyi–Kitaev)"),
+            ));
+        };
+        let ints = fcidump::parse_fcidump(&name, &src).map_err(Error::Input)?;
+        let (ints, frozen) = match opts.active {
+            Some(space) => (
+                fcidump::restrict(&ints, space).map_err(|m| {
+                    Error::usage(m, Some("--active FIRST-LAST counts orbitals from 1"))
+                })?,
+                space.frozen,
+            ),
+            None => (ints, 0),
+        };
+        let (h, info) = qubit_hamiltonian_from_integrals(&ints, enc, frozen)
+            .map_err(|m| Error::usage(format!("{name}: {m}"), None))?;
+        let loaded = Loaded {
+            encoding: Some(enc),
+            terms_read: 0,
+            dropped_zero: info.dropped_roundoff,
+        };
+        return Ok((h, Some(info), loaded));
+    }
+    if opts.active.is_some() {
+        return Err(Error::usage(
+            "--active applies to integral files only",
+            Some("select orbitals in an FCIDUMP input"),
+        ));
+    }
+    let read = parse_hamiltonian_with(&name, &src, opts.encoding).map_err(Error::Input)?;
+    let loaded = Loaded {
+        encoding: read.encoding,
+        terms_read: read.ham.terms_read,
+        dropped_zero: read.ham.dropped_zero,
+    };
+    Ok((read.ham.sum, None, loaded))
+}
+
+/// Runs `phasewright convert`.
+pub fn run(args: ConvertArgs) -> Result<()> {
+    let (h, info, loaded) = load(
+        &args.input,
+        LoadOptions {
+            encoding: args.encoding,
+            active: args.active,
+        },
+    )?;
+    let input = args
+        .input
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let mut header = format!("converted by phasewright from {input}\n");
+    if let Some(enc) = loaded.encoding {
+        header.push_str(&format!(
+            "encoding: {enc} ({}); mode k is qubit k\n",
+            enc.short_name()
+        ));
+    }
+    if let Some(i) = &info {
+        header.push_str(&format!(
+            "spin orbitals: orbital p (from 0 in the active space) is mode 2p (alpha) and 2p+1 (beta)\n\
+             active space: {} orbitals, {} electrons, MS2 = {}, {} frozen orbitals\n\
+             core energy (hartree, frozen orbitals included): {}\n\
+             Hartree-Fock state, qubit 0 first: {}\n\
+             Hartree-Fock energy (hartree): {}\n",
+            i.norb, i.nelec, i.ms2, i.frozen_orbitals, i.core_energy_ha, i.hf_state, i.hf_energy_ha
+        ));
+    }
+    let text = write_hamiltonian(&h, &header);
+    write_atomic(&args.output, text.as_bytes())?;
+    let mut summary = format!(
+        "wrote {}: {} Pauli strings on {} qubits",
+        args.output.display(),
+        h.terms.len(),
+        h.num_qubits
+    );
+    if let Some(enc) = loaded.encoding {
+        summary.push_str(&format!(" ({enc})"));
+    }
+    if info.is_none() {
+        summary.push_str(&format!(
+            "; {} terms read, {} exactly zero dropped",
+            loaded.terms_read, loaded.dropped_zero
+        ));
+    }
+    println!("{summary}");
+    if let Some(i) = info {
+        println!(
+            "Hartree-Fock state (qubit 0 first): {}  energy {:.10} hartree",
+            i.hf_state, i.hf_energy_ha
+        );
+    }
+    Ok(())
+}
