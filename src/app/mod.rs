@@ -4,6 +4,7 @@
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
 
+pub mod estimate;
 pub mod io;
 
 use crate::error::Result;
@@ -19,9 +20,14 @@ pub struct Cli {
 }
 
 #[derive(Subcommand, Debug)]
-pub enum Command {}
+pub enum Command {
+    /// Turn measured counts into energies or a density of states.
+    Estimate(estimate::EstimateArgs),
+}
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
-    match cli.command {}
+    match cli.command {
+        Command::Estimate(args) => estimate::run(&args),
+    }
 }

@@ -30,7 +30,7 @@ use num_complex::Complex64;
 /// state at least this much).
 pub const MIN_WEIGHT: f64 = 0.02;
 
-/// Singular values below `NOISE_FACTOR · σ̄ · √(rows·cols)`... are dropped (see [`rank_cut`]).
+/// Multiplier of the noise norm in the singular-value cut (see [`rank_cut`]).
 pub const NOISE_FACTOR: f64 = 3.0;
 
 /// One mode of the signal.
@@ -44,7 +44,7 @@ pub struct Mode {
     pub weight: Complex64,
 }
 
-/// Singular-value cut `τ = 3·σ̄·√(max(rows, cols))·2`, with `σ̄` the noise of one sample
+/// Singular-value cut `τ = 3·σ̄·2√max(rows, cols)`, with `σ̄` the noise of one sample
 /// (complex, both parts), and a floor of `1e-10·σ_max` for exact data.
 ///
 /// Why: a random `m×n` matrix with iid entries of size `σ̄` has spectral norm
