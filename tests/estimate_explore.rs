@@ -1,40 +1,34 @@
 mod estimate_support;
 use estimate_support::*;
-use phasewright::estimate::*;
+use phasewright::estimate::expect::ReadTable;
 
 #[test]
 fn explore() {
-    let models: Vec<(&str, phasewright::pauli::PauliSum, &str)> = vec![
-        ("tfim8+", tfim(8, 1.0, 1.0, 0.0), "++++++++"),
-        ("heis6", heisenberg(6, 1.0, 0.0), "010101"),
-    ];
-    for (name, h, st) in &models {
-        let e0 = ground_energy(h);
-        println!("{name}");
-        for dt in [0.2, 0.25, 0.3] {
-            let kpts = 10;
-            let camp = campaign(h, &[st], Kind::Krylov, dt, kpts);
-            for shots in [1_000_000u64, 10_000_000, 100_000_000] {
-                let counts: Vec<_> = (0..6).map(|seed| camp.sample(shots, seed)).collect();
-                for alpha in [0.1, 0.3, 1.0, 3.0] {
-                    let mut errs = Vec::new();
-                    for c in &counts {
-                        let cfg = Config { bootstrap: 0, ..Config::default() };
-                        let table = phasewright::estimate::expect::ReadTable::new(&camp.plan, &c.circuits);
-                        let q = table.evaluate(&phasewright::estimate::expect::ReadTable::weights_of(&c.circuits));
-                        let s = expect::overlap_series(&q, 0, kpts).unwrap();
-                        let coeffs: Vec<f64> = camp.plan.hamiltonian.terms.iter().map(|t| t.coeff).collect();
-                        let hs = expect::energy_series(&q, &coeffs, 0, kpts).unwrap();
-                        let sig = sample_noise(&s);
-                        let eps: Vec<f64> = (1..=kpts).map(|d| alpha * sig * d as f64).collect();
-                        let p = point_estimates(&s, Some(&hs), dt, &eps, sig);
-                        let _ = cfg;
-                        let best = p.last().unwrap().0.unwrap();
-                        errs.push(format!("{:+.1e}/{}", best.energy - e0, best.kept));
-                    }
-                    println!("  dt={dt} shots={shots:.0e} alpha={alpha}: {}", errs.join(" "));
-                }
-            }
+    let h = tfim(3, 1.0, 0.7, 0.2);
+    let camp = campaign(&h, &["+++"], Kind::Krylov, 0.35, 4);
+    let nc = camp.plan.circuits.len();
+    let mut cov = vec![0usize; nc];
+    let mut zs = vec![Vec::new(); nc];
+    for seed in 0..400u64 {
+        let counts = camp.sample(4000, 1000 + seed);
+        let table = ReadTable::new(&camp.plan, &counts.circuits[..]);
+        let _ = table;
+        for (ci, c) in camp.plan.circuits.iter().enumerate() {
+            let read = &c.reads[0];
+            let mask = read.bits.iter().fold(0u128, |m, &b| m | 1 << b);
+            let exact = camp.exact_read(ci, mask);
+            let o: Vec<u128> = counts.circuits[ci].outcomes.iter().map(|x| x.0).collect();
+            let w: Vec<u64> = counts.circuits[ci].outcomes.iter().map(|x| x.1).collect();
+            let (m, n) = phasewright::estimate::expect::parity_expectation(&o, &w, mask);
+            let se = phasewright::estimate::expect::parity_std_error(m, n);
+            if (m - exact).abs() <= 2.0 * se { cov[ci] += 1; }
+            zs[ci].push((m-exact)/ (1.0-exact*exact).max(1e-12).sqrt()*(4000f64).sqrt());
         }
+    }
+    for ci in 0..nc {
+        let z = &zs[ci];
+        let mean = z.iter().sum::<f64>()/z.len() as f64;
+        let var = z.iter().map(|x| (x-mean).powi(2)).sum::<f64>()/z.len() as f64;
+        println!("{} read0 {:?} cov {:.3} zmean {mean:.3} zvar {var:.3} probs {:?}", camp.plan.circuits[ci].id, camp.plan.circuits[ci].reads[0].target, cov[ci] as f64/400.0, camp.circuits[ci].probs.iter().map(|p| format!("{p:.3}")).collect::<Vec<_>>());
     }
 }
