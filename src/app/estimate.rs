@@ -28,7 +28,8 @@ pub enum BitOrderArg {
     Last,
 }
 
-const ESTIMATE_HELP: &str = "\
+/// Long help of `phasewright estimate`.
+pub const ESTIMATE_HELP: &str = "\
 Turn measured counts into energies (overlap and krylov plans) or a density of states (trace \
 plans).
 
@@ -50,7 +51,6 @@ trusted methods.";
 
 /// Arguments of `phasewright estimate`.
 #[derive(Args, Debug, Clone)]
-#[command(long_about = ESTIMATE_HELP)]
 pub struct EstimateArgs {
     /// Campaign folder holding plan.json.
     pub dir: PathBuf,

@@ -22,6 +22,7 @@ pub struct Cli {
 #[derive(Subcommand, Debug)]
 pub enum Command {
     /// Turn measured counts into energies or a density of states.
+    #[command(long_about = estimate::ESTIMATE_HELP)]
     Estimate(estimate::EstimateArgs),
 }
 

@@ -229,11 +229,11 @@ pub fn dos_svg(r: &DosReport) -> Result<String, String> {
                     (0..n).map(|i| (r.energies[i], ex[i])),
                     6,
                     4,
-                    EXACT_COLOR.stroke_width(1),
+                    PENCIL_COLOR.stroke_width(2),
                 ))
                 .map_err(err)?
                 .label("exact (diagonalised)")
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], EXACT_COLOR));
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PENCIL_COLOR));
         }
         chart
             .configure_series_labels()
