@@ -67,9 +67,15 @@ fn fixtures_are_current() {
             std::fs::write(dir.join("counts.json"), &counts).unwrap();
         }
         let on_disk = std::fs::read_to_string(dir.join("plan.json")).unwrap();
-        assert_eq!(on_disk, plan, "{name}/plan.json is stale: rerun with BLESS=1");
+        assert_eq!(
+            on_disk, plan,
+            "{name}/plan.json is stale: rerun with BLESS=1"
+        );
         let on_disk = std::fs::read_to_string(dir.join("counts.json")).unwrap();
-        assert_eq!(on_disk, counts, "{name}/counts.json is stale: rerun with BLESS=1");
+        assert_eq!(
+            on_disk, counts,
+            "{name}/counts.json is stale: rerun with BLESS=1"
+        );
     }
 }
 
@@ -99,7 +105,8 @@ fn krylov_table_lists_every_dimension_beside_the_pencil_and_the_exact_value() {
     assert!(text.contains("krylov plan: K = 5 time points"), "{text}");
     for d in 1..=5 {
         assert!(
-            text.lines().any(|l| l.trim_start().starts_with(&format!("{d}  "))),
+            text.lines()
+                .any(|l| l.trim_start().starts_with(&format!("{d}  "))),
             "row {d} missing:\n{text}"
         );
     }
@@ -229,7 +236,11 @@ fn trace_plan_prints_the_dos_with_resolution_and_quadrature() {
             (r - ex).abs() <= 2.0 * se + b
         })
         .count();
-    assert!(inside as f64 >= 0.8 * dos.len() as f64, "{inside}/{}", dos.len());
+    assert!(
+        inside as f64 >= 0.8 * dos.len() as f64,
+        "{inside}/{}",
+        dos.len()
+    );
 }
 
 fn run_with_counts(dir: &str, counts_text: &str) -> (i32, String) {

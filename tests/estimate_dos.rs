@@ -77,7 +77,10 @@ fn six_qubit_dos_matches_the_broadened_spectrum_within_the_quadrature_bound() {
     let sigma = 0.25;
     let (err, bound, peak) = worst(&h, dt, k, sigma);
     eprintln!("σ = {sigma}: worst error {err:.3e}, bound {bound:.3e}, peak {peak:.2}");
-    assert!(err > 1e-3 * peak, "the truncation error should be visible at small σ");
+    assert!(
+        err > 1e-3 * peak,
+        "the truncation error should be visible at small σ"
+    );
 }
 
 #[test]
@@ -97,7 +100,11 @@ fn trace_plan_from_exact_counts_recovers_the_dos_and_integrates_to_2n() {
     // 10¹² pseudo-shots make the reads exact to ≈1e-12.
     let h = tfim(3, 1.0, 0.6, 0.25);
     let states: Vec<String> = (0..8)
-        .map(|b| (0..3).map(|q| if b >> q & 1 == 1 { '1' } else { '0' }).collect())
+        .map(|b| {
+            (0..3)
+                .map(|q| if b >> q & 1 == 1 { '1' } else { '0' })
+                .collect()
+        })
         .collect();
     let refs: Vec<&str> = states.iter().map(|s| s.as_str()).collect();
     let (dt, k) = (0.3, 30);
@@ -123,14 +130,14 @@ fn trace_plan_from_exact_counts_recovers_the_dos_and_integrates_to_2n() {
         panic!("trace plan gives a DOS")
     };
     let exact = r.exact.as_ref().expect("3 qubits are diagonalised");
-    for i in 0..r.energies.len() {
+    for (i, want) in exact.iter().enumerate() {
+        // Reads are exact to ≈1e-12 (10¹² pseudo-shots), so the quadrature bound is the budget.
         let tol = r.quadrature_bound[i] + 1e-6;
+        let got = r.density[i];
         assert!(
-            (r.density[i] - exact[i]).abs() <= tol,
-            "E = {}: {} vs {}",
-            r.energies[i],
-            r.density[i],
-            exact[i]
+            (got - want).abs() <= tol,
+            "E = {}: {got} vs {want}",
+            r.energies[i]
         );
     }
     // ∫ρ dE = 2ⁿ = 8 (trapezoid over the grid, which covers every level ± 3σ).

@@ -35,7 +35,9 @@ fn dense_regularised(
     let kept: Vec<usize> = (0..d).filter(|&i| eig.eigenvalues[i] > eps).collect();
     let mut q = DMatrix::<Complex64>::zeros(dim, kept.len());
     for (c, &i) in kept.iter().enumerate() {
-        let v = &phi * eig.eigenvectors.column(i) * Complex64::new(1.0 / eig.eigenvalues[i].sqrt(), 0.0);
+        let v = &phi
+            * eig.eigenvectors.column(i)
+            * Complex64::new(1.0 / eig.eigenvalues[i].sqrt(), 0.0);
         q.set_column(c, &v);
     }
     let a = q.adjoint() * &ex.h_prime * &q;
@@ -219,9 +221,16 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
     );
     for (d, c) in covered.iter().enumerate() {
         let rate = *c as f64 / trials as f64;
-        assert!((0.90..=0.99).contains(&rate), "d={}: coverage {rate}", d + 1);
+        assert!(
+            (0.90..=0.99).contains(&rate),
+            "d={}: coverage {rate}",
+            d + 1
+        );
     }
-    assert!((0.92..=0.98).contains(&read_rate), "read coverage {read_rate}");
+    assert!(
+        (0.92..=0.98).contains(&read_rate),
+        "read coverage {read_rate}"
+    );
 }
 
 #[test]

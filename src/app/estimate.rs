@@ -282,11 +282,7 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         "quadrature: rectangle rule on t_k = k·dt, |k| ≤ K−1 (trapezoid on the infinite grid), \
          truncation + aliasing bound in column `bound`"
     );
-    let _ = writeln!(
-        s,
-        "band: ±2σ, σ from the {}",
-        r.band_source
-    );
+    let _ = writeln!(s, "band: ±2σ, σ from the {}", r.band_source);
     let _ = writeln!(
         s,
         "ρ in states per unit energy (integrates to 2^{} = {})",

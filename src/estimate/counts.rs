@@ -369,7 +369,9 @@ pub fn bitstring_mask(bits: &str, nbits: usize, order: BitOrder) -> Result<u128,
         ));
     }
     if len > MAX_BITS {
-        return Err(format!("bitstrings longer than {MAX_BITS} bits are not supported"));
+        return Err(format!(
+            "bitstrings longer than {MAX_BITS} bits are not supported"
+        ));
     }
     let mut mask = 0u128;
     for (i, c) in bits.bytes().enumerate() {
@@ -664,12 +666,25 @@ pub(crate) mod tests {
             "k1_re": {"000": 0, "001": -3, "010": 1.5, "010": 2}}}"#;
         let d = parse_str(src).unwrap_err();
         let text: Vec<&str> = d.iter().map(|d| d.message.as_str()).collect();
-        assert!(text.iter().any(|m| m.contains("unknown circuit `k9_re`")), "{text:?}");
+        assert!(
+            text.iter().any(|m| m.contains("unknown circuit `k9_re`")),
+            "{text:?}"
+        );
         assert!(text.iter().any(|m| m.contains("a zero count")), "{text:?}");
-        assert!(text.iter().any(|m| m.contains("negative count -3")), "{text:?}");
-        assert!(text.iter().any(|m| m.contains("not a positive integer (1.5)")));
-        assert!(text.iter().any(|m| m.contains("`010` appears more than once")));
-        assert!(text.iter().any(|m| m.contains("has no counts: `k1_im`")), "{text:?}");
+        assert!(
+            text.iter().any(|m| m.contains("negative count -3")),
+            "{text:?}"
+        );
+        assert!(text
+            .iter()
+            .any(|m| m.contains("not a positive integer (1.5)")));
+        assert!(text
+            .iter()
+            .any(|m| m.contains("`010` appears more than once")));
+        assert!(
+            text.iter().any(|m| m.contains("has no counts: `k1_im`")),
+            "{text:?}"
+        );
         assert!(d.iter().all(|d| d.line > 0), "every problem has a position");
     }
 
@@ -680,7 +695,11 @@ pub(crate) mod tests {
         assert_eq!(d[0].line, 2);
         let d = parse_str(r#"{"k1_re": {"000": 1}}"#).unwrap_err();
         assert!(d[0].message.contains("no `format` key"));
-        assert!(d[0].hint.as_deref().unwrap().contains("phasewright-counts/1"));
+        assert!(d[0]
+            .hint
+            .as_deref()
+            .unwrap()
+            .contains("phasewright-counts/1"));
         let d = parse_str("[1, 2]").unwrap_err();
         assert!(d[0].message.contains("JSON object"));
     }
@@ -701,7 +720,11 @@ pub(crate) mod tests {
         assert!(d[0].message.contains("contains `a`"));
         let src = r#"{"format": "phasewright-counts/1", "extra": 1, "counts": {}}"#;
         let d = parse_str(src).unwrap_err();
-        assert!(d[0].message.contains("unknown field `extra`"), "{}", d[0].message);
+        assert!(
+            d[0].message.contains("unknown field `extra`"),
+            "{}",
+            d[0].message
+        );
     }
 
     #[test]

@@ -58,7 +58,7 @@ pub fn parity_expectation(outcomes: &[u128], weights: &[u64], mask: u128) -> (f6
     let mut sum: i128 = 0;
     let mut n: u64 = 0;
     for (&o, &w) in outcomes.iter().zip(weights) {
-        let sign = if (o & mask).count_ones() % 2 == 0 {
+        let sign = if (o & mask).count_ones().is_multiple_of(2) {
             1
         } else {
             -1

@@ -188,9 +188,16 @@ mod tests {
             })
             .collect();
         let r = krylov_energies(&s, &h, 1e-10);
-        assert!((r[0].unwrap().energy - 0.5).abs() < 1e-12, "d=1 is ⟨ψ|H|ψ⟩ = 0.5");
+        assert!(
+            (r[0].unwrap().energy - 0.5).abs() < 1e-12,
+            "d=1 is ⟨ψ|H|ψ⟩ = 0.5"
+        );
         assert!((r[1].unwrap().energy - e0).abs() < 1e-10);
-        assert_eq!(r[2].unwrap().kept, 2, "the third vector is dependent and dropped");
+        assert_eq!(
+            r[2].unwrap().kept,
+            2,
+            "the third vector is dependent and dropped"
+        );
         let sine = sine_energies(&s, dt, 1e-10);
         assert!((sine[1].unwrap().energy - e0).abs() < 1e-10);
     }

@@ -152,13 +152,18 @@ pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysi
     if plan.points < 1 {
         return Err("the plan has no time points".into());
     }
-    if !(plan.formula.dt > 0.0) {
-        return Err(format!("the plan's dt must be positive, found {}", plan.formula.dt));
+    if plan.formula.dt.is_nan() || plan.formula.dt <= 0.0 {
+        return Err(format!(
+            "the plan's dt must be positive, found {}",
+            plan.formula.dt
+        ));
     }
     let table = ReadTable::new(plan, &counts.circuits);
     let weights = ReadTable::weights_of(&counts.circuits);
     match plan.family {
-        Family::Overlap | Family::Krylov => energies(plan, &table, &weights, cfg).map(Analysis::Energies),
+        Family::Overlap | Family::Krylov => {
+            energies(plan, &table, &weights, cfg).map(Analysis::Energies)
+        }
         Family::Trace => density(plan, &table, &weights, cfg).map(Analysis::Dos),
     }
 }
@@ -267,7 +272,7 @@ fn energies(
     }
 
     // Bootstrap replicates: each a vector over dimensions of (krylov, pencil).
-    let reps: Vec<Vec<(Option<f64>, Option<f64>)>> = (0..cfg.bootstrap)
+    let reps: Vec<Vec<Replicate>> = (0..cfg.bootstrap)
         .into_par_iter()
         .map(|b| {
             let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -289,8 +294,11 @@ fn energies(
             }
         })
         .collect();
-    let spread = |pick: &dyn Fn(&(Option<f64>, Option<f64>)) -> Option<f64>, d: usize| {
-        let xs: Vec<f64> = reps.iter().filter_map(|r| r.get(d).and_then(pick)).collect();
+    let spread = |pick: &dyn Fn(&Replicate) -> Option<f64>, d: usize| {
+        let xs: Vec<f64> = reps
+            .iter()
+            .filter_map(|r| r.get(d).and_then(pick))
+            .collect();
         std_dev(&xs)
     };
     let rows = point
@@ -332,6 +340,9 @@ fn energies(
     })
 }
 
+/// One bootstrap replicate at one dimension: (Krylov energy, pencil energy).
+type Replicate = (Option<f64>, Option<f64>);
+
 /// Sample standard deviation; `None` with fewer than 2 values.
 pub fn std_dev(xs: &[f64]) -> Option<f64> {
     if xs.len() < 2 {
@@ -359,7 +370,7 @@ fn density(
     let sigma = cfg
         .sigma
         .unwrap_or_else(|| dos::default_sigma(plan.points, dt));
-    if !(sigma > 0.0) {
+    if sigma.is_nan() || sigma <= 0.0 {
         return Err(format!("the broadening must be positive, found {sigma}"));
     }
     let grid = dos::DosGrid {
@@ -371,12 +382,18 @@ fn density(
     let norm = plan.hamiltonian.one_norm;
     let energies = dos::energy_grid(grid.constant, norm, sigma, dt, cfg.dos_points);
     let trace = mean_series(&per_state);
-    let density: Vec<f64> = energies.iter().map(|&e| grid.density(&trace.values, e)).collect();
+    let density: Vec<f64> = energies
+        .iter()
+        .map(|&e| grid.density(&trace.values, e))
+        .collect();
     let (std_error, band_source) = if n_states >= 2 {
         let se = energies
             .iter()
             .map(|&e| {
-                let xs: Vec<f64> = per_state.iter().map(|s| grid.density(&s.values, e)).collect();
+                let xs: Vec<f64> = per_state
+                    .iter()
+                    .map(|s| grid.density(&s.values, e))
+                    .collect();
                 std_dev(&xs).unwrap_or(0.0) / (n_states as f64).sqrt()
             })
             .collect();
@@ -386,7 +403,10 @@ fn density(
             .iter()
             .map(|&e| grid.density_std_error(&trace.std_errors, e))
             .collect();
-        (se, "shot noise only (one state: trace-estimation error unknown)")
+        (
+            se,
+            "shot noise only (one state: trace-estimation error unknown)",
+        )
     };
     let quadrature_bound = energies
         .iter()

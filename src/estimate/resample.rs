@@ -23,7 +23,8 @@ pub fn ln_factorial(k: u64) -> f64 {
     let x = k as f64;
     let inv = 1.0 / x;
     let inv2 = inv * inv;
-    x * x.ln() - x + 0.5 * (2.0 * std::f64::consts::PI * x).ln()
+    x * x.ln() - x
+        + 0.5 * (2.0 * std::f64::consts::PI * x).ln()
         + inv * (1.0 / 12.0 - inv2 * (1.0 / 360.0 - inv2 / 1260.0))
 }
 
@@ -136,8 +137,14 @@ mod tests {
             let (m0, v0) = (n as f64 * p, n as f64 * p * (1.0 - p));
             // Mean within 5 standard errors; variance within 5% (its relative standard error
             // is ≈ √(2/20000) = 1%).
-            assert!((mean - m0).abs() < 5.0 * (v0 / draws as f64).sqrt(), "n={n} p={p}");
-            assert!((var / v0 - 1.0).abs() < 0.05, "n={n} p={p}: var {var} vs {v0}");
+            assert!(
+                (mean - m0).abs() < 5.0 * (v0 / draws as f64).sqrt(),
+                "n={n} p={p}"
+            );
+            assert!(
+                (var / v0 - 1.0).abs() < 0.05,
+                "n={n} p={p}: var {var} vs {v0}"
+            );
         }
     }
 

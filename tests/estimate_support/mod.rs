@@ -332,7 +332,7 @@ impl Campaign {
             .iter()
             .enumerate()
             .map(|(i, p)| {
-                if ((i as u128) & mask).count_ones() % 2 == 0 {
+                if ((i as u128) & mask).count_ones().is_multiple_of(2) {
                     *p
                 } else {
                     -*p
