@@ -239,7 +239,7 @@ fn overlap_plans_use_the_sine_pencil_and_reach_the_ground_energy_without_noise()
     // dt = 0.2): the sine pencil is variational for sin(H'dt)/dt and converges to E0.
     let h = heisenberg(4, 1.0, -0.4);
     let (s, _) = exact_series(&h, "0101", 0.2, 10);
-    let r = krylov::sine_energies(&s, 0.2, 1e-9);
+    let r = krylov::sine_energies(&s, 0.2, 1e-9, 0.0);
     let e0 = ground_energy(&h) - h.constant;
     let last = r.last().unwrap().unwrap().energy;
     assert!((last - e0).abs() < 1e-6, "{last} vs {e0}");

@@ -30,6 +30,8 @@
 //! `B_{jk} = (i/2dt)(S_{k−j+1} − S_{k−j−1})`, which need only overlaps. Its eigenvalues are
 //! `sin(E'dt)/dt`, increasing in `E'` while `‖H'‖dt ≤ π/2`, so the lowest Ritz value `β` of `B`
 //! gives the energy `arcsin(β dt)/dt`. Dimension `d` needs `S_d`, so `K` points give `d < K`.
+//! Shifting `H'` by the reference state's mean energy `μ` first (see [`sine_ritz`]) relaxes the
+//! condition to `‖H' − μ‖dt ≤ π/2`.
 //! (Our own derivation from `sin x = (e^{ix} − e^{−ix})/2i`.)
 //!
 //! Tolerance: with exact inputs the result equals a dense computation of the same regularised
@@ -113,16 +115,31 @@ pub fn sine_matrix(s: &[Complex64], dt: f64, d: usize) -> DMatrix<Complex64> {
     })
 }
 
-/// Lowest energies of `H'` from overlaps alone, for `d = 1..K` (via `sin(H'dt)/dt`).
-/// Valid when `‖H'‖·dt ≤ π/2`.
-pub fn sine_energies(s: &[Complex64], dt: f64, threshold: f64) -> Vec<Option<Ritz>> {
+/// Lowest energy of `H'` in dimension `d` from overlaps alone, via the pencil
+/// `(sin((H' − μ)dt)/dt, S)` with the shift `μ`: the series is first multiplied by
+/// `e^{iμk·dt}` (which leaves the eigenvalues of `S` unchanged, a diagonal unitary
+/// similarity), so the condition is `‖H' − μ‖·dt ≤ π/2`; the energy is `μ + arcsin(β dt)/dt`.
+pub fn sine_ritz(s: &[Complex64], dt: f64, d: usize, threshold: f64, shift: f64) -> Option<Ritz> {
+    let shifted: Vec<Complex64> = s
+        .iter()
+        .enumerate()
+        .map(|(k, x)| x * Complex64::from_polar(1.0, shift * k as f64 * dt))
+        .collect();
+    lowest_ritz(
+        &sine_matrix(&shifted, dt, d),
+        &toeplitz(&shifted, d),
+        threshold,
+    )
+    .map(|r| Ritz {
+        energy: shift + (r.energy * dt).clamp(-1.0, 1.0).asin() / dt,
+        kept: r.kept,
+    })
+}
+
+/// Lowest energies of `H'` from overlaps alone, for `d = 1..K` (see [`sine_ritz`]).
+pub fn sine_energies(s: &[Complex64], dt: f64, threshold: f64, shift: f64) -> Vec<Option<Ritz>> {
     (1..s.len())
-        .map(|d| {
-            lowest_ritz(&sine_matrix(s, dt, d), &toeplitz(s, d), threshold).map(|r| Ritz {
-                energy: (r.energy * dt).clamp(-1.0, 1.0).asin() / dt,
-                kept: r.kept,
-            })
-        })
+        .map(|d| sine_ritz(s, dt, d, threshold, shift))
         .collect()
 }
 
@@ -198,7 +215,9 @@ mod tests {
             2,
             "the third vector is dependent and dropped"
         );
-        let sine = sine_energies(&s, dt, 1e-10);
+        let sine = sine_energies(&s, dt, 1e-10, 0.0);
+        assert!((sine[1].unwrap().energy - e0).abs() < 1e-10);
+        let sine = sine_energies(&s, dt, 1e-10, 0.7);
         assert!((sine[1].unwrap().energy - e0).abs() < 1e-10);
     }
 

@@ -212,6 +212,12 @@ pub fn point_estimates(
     pencil_noise: f64,
 ) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
     let k = s.len();
+    // Mean energy of the reference state: centre of the pencil's window and shift of the sine
+    // pencil.
+    let center = match h {
+        Some(h) => h.values[0].re,
+        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
+    };
     let kry: Vec<Option<krylov::Ritz>> = (1..=k)
         .map(|d| {
             let eps = thresholds[d - 1];
@@ -221,20 +227,12 @@ pub fn point_estimates(
                     &krylov::toeplitz(&s.values, d),
                     eps,
                 ),
-                None if d < k => krylov::lowest_ritz(
-                    &krylov::sine_matrix(&s.values, dt, d),
-                    &krylov::toeplitz(&s.values, d),
-                    eps,
-                )
-                .map(|r| krylov::Ritz {
-                    energy: (r.energy * dt).clamp(-1.0, 1.0).asin() / dt,
-                    kept: r.kept,
-                }),
+                None if d < k => krylov::sine_ritz(&s.values, dt, d, eps, center),
                 None => None,
             }
         })
         .collect();
-    let pencil = overlap_only::pencil_energies(&s.values, dt, pencil_noise);
+    let pencil = overlap_only::pencil_energies(&s.values, dt, pencil_noise, center);
     kry.into_iter().zip(pencil).collect()
 }
 
@@ -258,15 +256,16 @@ fn energies(
     let mut warnings = Vec::new();
     if kind == KrylovKind::Sine && plan.hamiltonian.one_norm * dt > std::f64::consts::FRAC_PI_2 {
         warnings.push(format!(
-            "the overlap-only Krylov estimate assumes ‖H − c‖·dt ≤ π/2; here only the bound \
-             Σ|c_j|·dt = {:.3} is known, so check the spectral width",
+            "the overlap-only Krylov estimate assumes ‖H − c − μ‖·dt ≤ π/2 (μ: mean energy of \
+             the reference state); only the bound Σ|c_j|·dt = {:.3} is known, so check the \
+             spectral width",
             plan.hamiltonian.one_norm * dt
         ));
     }
     if plan.hamiltonian.one_norm * dt > std::f64::consts::PI {
         warnings.push(format!(
-            "Σ|c_j|·dt = {:.3} exceeds π: energies further than π/dt from c alias in the \
-             matrix-pencil estimate",
+            "Σ|c_j|·dt = {:.3} exceeds π: the matrix pencil resolves energies only within \
+             ±π/dt of the reference state's mean energy",
             plan.hamiltonian.one_norm * dt
         ));
     }

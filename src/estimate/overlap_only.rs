@@ -19,6 +19,12 @@
 //!
 //! The ground-state estimate is the lowest `E'_l` among modes with `Re b_l` above
 //! [`MIN_WEIGHT`] (a noise-spawned mode carries weight of the order of the noise).
+//!
+//! A pole only fixes `E'` modulo `2π/dt`. We place every energy in the window
+//! `center ± π/dt`, with `center` the mean energy of the reference state (`h_0` when the plan
+//! measures it, else `−arg(S_1)/dt`, the first cumulant of the overlap): the modes that carry
+//! weight sit around the mean energy, so this window holds them whenever their spread is below
+//! `2π/dt`, even when the whole spectrum is wider.
 //! Tolerance: exact for a noiseless signal with at most `L` modes (tested to 1e-9).
 
 use super::krylov::at;
@@ -55,8 +61,8 @@ pub fn rank_cut(sigma_sample: f64, rows: usize, cols: usize, sigma_max: f64) -> 
 }
 
 /// Modes of the overlap series `s` (`s[0] = S_0`) sampled every `dt`, `σ̄` the noise of one
-/// sample. Empty when fewer than 2 samples are given.
-pub fn matrix_pencil(s: &[Complex64], dt: f64, sigma_sample: f64) -> Vec<Mode> {
+/// sample, energies placed in `center ± π/dt`. Empty when fewer than 2 samples are given.
+pub fn matrix_pencil(s: &[Complex64], dt: f64, sigma_sample: f64, center: f64) -> Vec<Mode> {
     let k = s.len();
     if k < 2 {
         return Vec::new();
@@ -99,7 +105,7 @@ pub fn matrix_pencil(s: &[Complex64], dt: f64, sigma_sample: f64) -> Vec<Mode> {
     };
     (0..r)
         .map(|c| Mode {
-            energy: -z[c].arg() / dt,
+            energy: center - (z[c] * Complex64::from_polar(1.0, center * dt)).arg() / dt,
             modulus: z[c].norm(),
             weight: b[(c, 0)],
         })
@@ -116,10 +122,24 @@ pub fn ground_energy(modes: &[Mode]) -> Option<f64> {
 }
 
 /// Ground-energy estimates using the first `d` samples, for `d = 1..=K` (`None` for `d = 1`).
-pub fn pencil_energies(s: &[Complex64], dt: f64, sigma_sample: f64) -> Vec<Option<f64>> {
+pub fn pencil_energies(
+    s: &[Complex64],
+    dt: f64,
+    sigma_sample: f64,
+    center: f64,
+) -> Vec<Option<f64>> {
     (1..=s.len())
-        .map(|d| ground_energy(&matrix_pencil(&s[..d], dt, sigma_sample)))
+        .map(|d| ground_energy(&matrix_pencil(&s[..d], dt, sigma_sample, center)))
         .collect()
+}
+
+/// `−arg(S_1)/dt`: the mean energy of the reference state to first order in `dt` (0 without
+/// `S_1`).
+pub fn mean_energy_from_overlap(s: &[Complex64], dt: f64) -> f64 {
+    match s.get(1) {
+        Some(z) if z.norm() > 0.0 => -z.arg() / dt,
+        _ => 0.0,
+    }
 }
 
 #[cfg(test)]
@@ -138,7 +158,7 @@ mod tests {
                     .sum()
             })
             .collect();
-        let found = matrix_pencil(&s, dt, 0.0);
+        let found = matrix_pencil(&s, dt, 0.0, 0.0);
         assert_eq!(found.len(), 3);
         for &(e, w) in &modes {
             let f = found
@@ -149,6 +169,37 @@ mod tests {
             assert!((f.modulus - 1.0).abs() < 1e-9);
         }
         assert!((ground_energy(&found).unwrap() + 1.3).abs() < 1e-9);
+    }
+
+    #[test]
+    fn energies_outside_the_nyquist_window_are_placed_around_the_center() {
+        // Levels −11 and −8 (equal weights) with dt = 0.3: π/dt = 10.47, so a window centred at
+        // 0 aliases −11 to +9.94; centred at the mean energy −9.5 (recovered exactly from
+        // arg S_1 for equal weights) both levels are found.
+        let dt = 0.3;
+        let modes = [(-11.0, 0.5), (-8.0, 0.5)];
+        let s: Vec<Complex64> = (0..5)
+            .map(|k| {
+                modes
+                    .iter()
+                    .map(|&(e, w)| Complex64::from_polar(w, -e * k as f64 * dt))
+                    .sum()
+            })
+            .collect();
+        let center = mean_energy_from_overlap(&s, dt);
+        assert!((center + 9.5).abs() < 1e-12, "center {center}");
+        let found = matrix_pencil(&s, dt, 0.0, center);
+        assert!((ground_energy(&found).unwrap() + 11.0).abs() < 1e-9);
+        let aliased = matrix_pencil(&s, dt, 0.0, 0.0);
+        assert!((ground_energy(&aliased).unwrap() + 8.0).abs() < 1e-9);
+        // With h_0 known (krylov plans) the centre may lie outside (−π/dt, π/dt].
+        let far: Vec<Complex64> = s
+            .iter()
+            .enumerate()
+            .map(|(k, x)| x * Complex64::from_polar(1.0, 6.0 * k as f64 * dt))
+            .collect();
+        let found = matrix_pencil(&far, dt, 0.0, -15.5);
+        assert!((ground_energy(&found).unwrap() + 17.0).abs() < 1e-9);
     }
 
     #[test]
