@@ -82,8 +82,12 @@ struct References {
 }
 
 fn prepared(n: usize, state: &str) -> Result<State, String> {
-    let prep =
-        state_prep(state).map_err(|b| format!("bad state letter `{}` at {}", b.letter, b.index))?;
+    let prep = state_prep(state).map_err(|b| {
+        format!(
+            "bad state letter `{}` at {}: {}",
+            b.letter, b.index, b.reason
+        )
+    })?;
     let mut s = State::zero(n);
     for g in &prep {
         s.apply(g);

@@ -27,7 +27,7 @@ pub enum MeasureKind {
 /// file per circuit plus plan.json, and print what each circuit costs.
 ///
 /// The reference state is a string over `0 1 + - r l` (Pauli eigenstates |0⟩ |1⟩ |+⟩ |−⟩
-/// |+i⟩ |−i⟩), qubit 0 first. Time point k (k = 0..K-1) evolves for k·dt with k·R Trotter steps
+/// |+i⟩ |−i⟩), qubit 0 first, where `ss` puts two neighbouring qubits in a singlet. Time point k (k = 0..K-1) evolves for k·dt with k·R Trotter steps
 /// of the chosen order. The identity term of H is not compiled; it is recorded in plan.json and
 /// added back by `estimate`.
 #[derive(Args, Debug)]
@@ -37,7 +37,8 @@ pub enum MeasureKind {
 pub struct CompileArgs {
     /// Hamiltonian file (.ham).
     pub hamiltonian: PathBuf,
-    /// Reference state, one letter per qubit from `0 1 + - r l`, qubit 0 first; or `hf` for the
+    /// Reference state, one letter per qubit from `0 1 + - r l` (`ss`: a singlet on two
+    /// neighbouring qubits), qubit 0 first; or `hf` for the
     /// Hartree–Fock determinant of an integral file under the chosen encoding.
     #[arg(long)]
     pub state: Option<String>,
@@ -87,8 +88,8 @@ fn check_state(state: &str, n: usize) -> Result<()> {
             state,
             offset,
             b.letter.len_utf8(),
-            format!("`{}` is not a reference-state letter", b.letter),
-            Some("use 0 1 + - r l (|0⟩ |1⟩ |+⟩ |−⟩ |+i⟩ |−i⟩), qubit 0 first".into()),
+            format!("`{}`: {}", b.letter, b.reason),
+            Some("use 0 1 + - r l (|0⟩ |1⟩ |+⟩ |−⟩ |+i⟩ |−i⟩) per qubit, or ss for a singlet on two neighbouring qubits; qubit 0 first".into()),
         )));
     }
     let len = state.chars().count();

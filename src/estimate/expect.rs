@@ -15,6 +15,17 @@
 //! error combines the term errors as if independent (terms measured on the same shots are in
 //! fact correlated); the bootstrap, which resamples whole outcomes, is what the energy error
 //! bars use.
+//!
+//! Shifted energy series (Krylov family). A Hadamard-test read of `Re⟨ψ|P_j U|ψ⟩` multiplies
+//! the ancilla's random ±1 by the group's value `Σ_j c_j p_j`, so its per-shot spread is about
+//! the group's energy `|E_g|`, not its fluctuation: `h_k` inherits noise `≈ |E|/√N`. Each group
+//! circuit also measures its ancilla alone (its `ancilla_bit`), an unbiased estimate of `S_k` from the *same
+//! shots*. Subtracting `μ_g` times it, with `μ_g = Σ_{j∈g} c_j ⟨ψ|P_j|ψ⟩` the group's energy in
+//! the reference state, estimates `⟨ψ|(H − μ)U|ψ⟩ = h_k − μ S_k` (`μ = Σ_g μ_g`) with per-shot
+//! spread set by the group's *fluctuation* around `μ_g` (a control variate; e.g. Glasserman,
+//! "Monte Carlo Methods in Financial Engineering", 2003, §4.1). The pencil `(h − μS, S)` has the
+//! eigenvalues of `(h, S)` shifted by `−μ`, and the noise of `S` enters only multiplied by
+//! `E − μ`, which is small when the reference state's energy is near the answer.
 
 use super::counts::CircuitCounts;
 use crate::family::plan::{Part, Plan, Target};
@@ -80,6 +91,18 @@ pub fn parity_std_error(m: f64, n: u64) -> f64 {
 struct CircuitReads {
     outcomes: Vec<u128>,
     reads: Vec<(Quantity, u128)>,
+    /// For a measurement-group circuit: `(state, k, part, group)` of its ancilla-alone read,
+    /// and the mask of the ancilla's classical bit.
+    ancilla: Option<(GroupAncilla, u128)>,
+}
+
+/// Identifies the ancilla-alone parity of one measurement-group circuit.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord)]
+pub struct GroupAncilla {
+    pub state: usize,
+    pub k: usize,
+    pub part: Part,
+    pub group: usize,
 }
 
 /// Which quantity each circuit's reads estimate, ready to be evaluated on any histogram
@@ -96,6 +119,15 @@ impl ReadTable {
             .zip(counts)
             .map(|(c, cc)| CircuitReads {
                 outcomes: cc.outcomes.iter().map(|(o, _)| *o).collect(),
+                ancilla: c.group.filter(|_| c.ancilla_bit < 128).map(|group| {
+                    let a = GroupAncilla {
+                        state: c.state,
+                        k: c.k,
+                        part: c.part,
+                        group,
+                    };
+                    (a, 1u128 << c.ancilla_bit)
+                }),
                 reads: c
                     .reads
                     .iter()
@@ -150,6 +182,18 @@ impl ReadTable {
                         std_error: sv.sqrt() / sn,
                     },
                 )
+            })
+            .collect()
+    }
+
+    /// The ancilla-alone parity mean of every measurement-group circuit.
+    pub fn evaluate_group_ancillas(&self, weights: &[Vec<u64>]) -> BTreeMap<GroupAncilla, f64> {
+        self.circuits
+            .iter()
+            .zip(weights)
+            .filter_map(|(c, w)| {
+                c.ancilla
+                    .map(|(a, mask)| (a, parity_expectation(&c.outcomes, w, mask).0))
             })
             .collect()
     }
@@ -253,6 +297,86 @@ pub fn energy_series(
         std_errors.push((vre.sqrt(), vim.sqrt()));
     }
     Ok(Series { values, std_errors })
+}
+
+/// Terms read by each measurement group, from the plan's group circuits.
+pub fn group_terms(plan: &Plan) -> BTreeMap<usize, Vec<usize>> {
+    let mut out: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
+    for c in plan
+        .circuits
+        .iter()
+        .filter(|c| c.k == 0 && c.part == Part::Re)
+    {
+        if let Some(g) = c.group {
+            let terms = out.entry(g).or_default();
+            for r in &c.reads {
+                if let Target::Term { term } = r.target {
+                    if !terms.contains(&term) {
+                        terms.push(term);
+                    }
+                }
+            }
+        }
+    }
+    out
+}
+
+/// The control-variate series `h_k − μ S_k` (see the module header) and the shift `μ`.
+pub fn shifted_energy_series(
+    q: &BTreeMap<Quantity, Estimate>,
+    ancillas: &BTreeMap<GroupAncilla, f64>,
+    coeffs: &[f64],
+    groups: &BTreeMap<usize, Vec<usize>>,
+    state: usize,
+    points: usize,
+) -> Result<(Series, f64), String> {
+    let h = energy_series(q, coeffs, state, points)?;
+    let term = |k, j, part| {
+        need(
+            q,
+            Quantity {
+                state,
+                k,
+                term: Some(j),
+                part,
+            },
+        )
+    };
+    let mut mu_g = BTreeMap::new();
+    for (&g, terms) in groups {
+        let mut m = 0.0;
+        for &j in terms {
+            m += coeffs[j] * term(0, j, Part::Re)?.value;
+        }
+        mu_g.insert(g, m);
+    }
+    let mu: f64 = mu_g.values().sum();
+    let anc = |k, part, group| {
+        ancillas
+            .get(&GroupAncilla {
+                state,
+                k,
+                part,
+                group,
+            })
+            .copied()
+            .ok_or_else(|| format!("the plan has no group-{group} circuit at k = {k}"))
+    };
+    let mut values = h.values.clone();
+    for (k, v) in values.iter_mut().enumerate() {
+        for (&g, &m) in &mu_g {
+            let re = anc(k, Part::Re, g)?;
+            let im = if k > 0 { anc(k, Part::Im, g)? } else { 0.0 };
+            *v -= Complex64::new(re, im) * m;
+        }
+    }
+    Ok((
+        Series {
+            values,
+            std_errors: h.std_errors,
+        },
+        mu,
+    ))
 }
 
 #[cfg(test)]

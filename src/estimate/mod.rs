@@ -168,18 +168,28 @@ pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysi
     }
 }
 
-/// The series an energy analysis needs, from one set of histograms.
+/// The series an energy analysis needs, from one set of histograms: `S_k`, and for Krylov
+/// plans the shifted `h_k − μ S_k` with its shift `μ` (see `expect`'s module header).
 fn energy_inputs(
     plan: &Plan,
     table: &ReadTable,
     weights: &[Vec<u64>],
-) -> Result<(Series, Option<Series>), String> {
+) -> Result<(Series, Option<(Series, f64)>), String> {
     let q = table.evaluate(weights);
     let s = expect::overlap_series(&q, 0, plan.points)?;
     let h = match plan.family {
         Family::Krylov => {
             let coeffs: Vec<f64> = plan.hamiltonian.terms.iter().map(|t| t.coeff).collect();
-            Some(expect::energy_series(&q, &coeffs, 0, plan.points)?)
+            let anc = table.evaluate_group_ancillas(weights);
+            let groups = expect::group_terms(plan);
+            Some(expect::shifted_energy_series(
+                &q,
+                &anc,
+                &coeffs,
+                &groups,
+                0,
+                plan.points,
+            )?)
         }
         _ => None,
     };
@@ -211,22 +221,38 @@ pub fn point_estimates(
     thresholds: &[f64],
     pencil_noise: f64,
 ) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
+    point_estimates_shifted(s, h.map(|h| (h, 0.0)), dt, thresholds, pencil_noise)
+}
+
+/// As [`point_estimates`], with `h` given as `h_k − μ S_k` and its shift `μ`: the pencil is
+/// solved for `H' − μ` and `μ` is added back to every Krylov energy.
+pub fn point_estimates_shifted(
+    s: &Series,
+    h: Option<(&Series, f64)>,
+    dt: f64,
+    thresholds: &[f64],
+    pencil_noise: f64,
+) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
     let k = s.len();
     // Mean energy of the reference state: centre of the pencil's window and shift of the sine
-    // pencil.
+    // pencil (h'_0 = h_0 − μ, so h'_0 + μ is the mean energy either way).
     let center = match h {
-        Some(h) => h.values[0].re,
+        Some((h, mu)) => h.values[0].re + mu,
         None => overlap_only::mean_energy_from_overlap(&s.values, dt),
     };
     let kry: Vec<Option<krylov::Ritz>> = (1..=k)
         .map(|d| {
             let eps = thresholds[d - 1];
             match h {
-                Some(h) => krylov::lowest_ritz(
+                Some((h, mu)) => krylov::lowest_ritz(
                     &krylov::toeplitz(&h.values, d),
                     &krylov::toeplitz(&s.values, d),
                     eps,
-                ),
+                )
+                .map(|r| krylov::Ritz {
+                    energy: r.energy + mu,
+                    ..r
+                }),
                 None if d < k => krylov::sine_ritz(&s.values, dt, d, eps, center),
                 None => None,
             }
@@ -247,7 +273,7 @@ fn energies(
     let (s, h) = energy_inputs(plan, table, weights)?;
     let eps = thresholds(&s, cfg.threshold);
     let noise = sample_noise(&s);
-    let point = point_estimates(&s, h.as_ref(), dt, &eps, noise);
+    let point = point_estimates_shifted(&s, h.as_ref().map(|(h, mu)| (h, *mu)), dt, &eps, noise);
     let kind = if h.is_some() {
         KrylovKind::Hamiltonian
     } else {
@@ -285,10 +311,16 @@ fn energies(
                 })
                 .collect();
             match energy_inputs(plan, table, &w) {
-                Ok((s2, h2)) => point_estimates(&s2, h2.as_ref(), dt, &eps, noise)
-                    .into_iter()
-                    .map(|(k, p)| (k.map(|r| r.energy), p))
-                    .collect(),
+                Ok((s2, h2)) => point_estimates_shifted(
+                    &s2,
+                    h2.as_ref().map(|(h, mu)| (h, *mu)),
+                    dt,
+                    &eps,
+                    noise,
+                )
+                .into_iter()
+                .map(|(k, p)| (k.map(|r| r.energy), p))
+                .collect(),
                 Err(_) => Vec::new(),
             }
         })
@@ -298,7 +330,7 @@ fn energies(
             .iter()
             .filter_map(|r| r.get(d).and_then(pick))
             .collect();
-        std_dev(&xs)
+        robust_spread(&xs)
     };
     let rows = point
         .iter()
@@ -323,6 +355,16 @@ fn energies(
             None => (None, None),
         },
     };
+    // Reported as an estimate of h_k itself: (h_k − μS_k) + μS_k.
+    let h_reported = h.map(|(h, mu)| Series {
+        values: h
+            .values
+            .iter()
+            .zip(&s.values)
+            .map(|(a, b)| a + b * mu)
+            .collect(),
+        std_errors: h.std_errors,
+    });
     Ok(EnergyReport {
         family: plan.family,
         kind,
@@ -330,7 +372,7 @@ fn energies(
         constant: c,
         rows,
         overlaps: s,
-        hamiltonian: h,
+        hamiltonian: h_reported,
         exact,
         exact_source,
         bootstrap: cfg.bootstrap,
@@ -341,6 +383,26 @@ fn energies(
 
 /// One bootstrap replicate at one dimension: (Krylov energy, pencil energy).
 type Replicate = (Option<f64>, Option<f64>);
+
+/// Bootstrap standard error that a few wild replicates cannot inflate: half the distance
+/// between the 15.87th and 84.13th percentiles, which equals σ for a normal distribution
+/// (the percentile bootstrap; Efron & Tibshirani, "An Introduction to the Bootstrap", 1993,
+/// ch. 13). Near an ill-conditioned dimension a handful of replicates keep a different number
+/// of directions and land far away; the plain standard deviation would report them as noise of
+/// the whole estimate. `None` with fewer than 2 values.
+pub fn robust_spread(xs: &[f64]) -> Option<f64> {
+    if xs.len() < 2 {
+        return None;
+    }
+    let mut v = xs.to_vec();
+    v.sort_by(|a, b| a.total_cmp(b));
+    let q = |p: f64| {
+        let x = p * (v.len() - 1) as f64;
+        let (i, f) = (x.floor() as usize, x - x.floor());
+        v[i] + f * (v[(i + 1).min(v.len() - 1)] - v[i])
+    };
+    Some(0.5 * (q(0.841_344_746) - q(0.158_655_254)))
+}
 
 /// Sample standard deviation; `None` with fewer than 2 values.
 pub fn std_dev(xs: &[f64]) -> Option<f64> {

@@ -53,28 +53,53 @@ pub struct Job {
     pub circuit: Circuit,
 }
 
-/// A reference-state letter that is not one of `0 1 + - r l`, at this character index.
+/// A reference-state letter that is not one of `0 1 + - r l s`, or an unpaired `s`, at this
+/// character index.
 #[derive(Clone, Debug, PartialEq)]
 pub struct BadStateLetter {
     pub index: usize,
     pub letter: char,
+    pub reason: &'static str,
 }
 
-/// Gates preparing a product of Pauli eigenstates from |0…0⟩:
-/// `0` → |0⟩, `1` → X, `+` → H, `-` → X·H, `r` → S·H (|+i⟩), `l` → S†·H (|−i⟩).
+/// Gates preparing a reference state from |0…0⟩. Per qubit, a Pauli eigenstate:
+/// `0` → |0⟩, `1` → X, `+` → H, `-` → X·H, `r` → S·H (|+i⟩), `l` → S†·H (|−i⟩); and `ss` on
+/// qubits (i, i+1) → the singlet `(|01⟩ − |10⟩)/√2`, by H, Z on i, CNOT i→i+1, X on i+1
+/// (H|0⟩ = |+⟩, Z|+⟩ = |−⟩, the CNOT gives `(|00⟩ − |11⟩)/√2`, X on the second qubit the
+/// singlet). Singlet pairs (dimers) are the usual low-energy references for antiferromagnets.
 pub fn state_prep(state: &str) -> Result<Vec<Gate>, BadStateLetter> {
     let mut out = Vec::new();
-    for (i, ch) in state.chars().enumerate() {
+    let letters: Vec<char> = state.chars().collect();
+    let mut i = 0;
+    while i < letters.len() {
         let q = i as Qubit;
-        match ch {
+        match letters[i] {
             '0' => {}
             '1' => out.push(Gate::X(q)),
             '+' => out.push(Gate::H(q)),
             '-' => out.extend([Gate::X(q), Gate::H(q)]),
             'r' => out.extend([Gate::H(q), Gate::S(q)]),
             'l' => out.extend([Gate::H(q), Gate::Sdg(q)]),
-            letter => return Err(BadStateLetter { index: i, letter }),
+            's' if letters.get(i + 1) == Some(&'s') => {
+                out.extend([Gate::H(q), Gate::Z(q), Gate::Cx(q, q + 1), Gate::X(q + 1)]);
+                i += 1;
+            }
+            's' => {
+                return Err(BadStateLetter {
+                    index: i,
+                    letter: 's',
+                    reason: "a singlet `ss` needs two neighbouring letters",
+                })
+            }
+            letter => {
+                return Err(BadStateLetter {
+                    index: i,
+                    letter,
+                    reason: "not a reference-state letter",
+                })
+            }
         }
+        i += 1;
     }
     Ok(out)
 }
