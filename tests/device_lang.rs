@@ -203,3 +203,12 @@ fn arbitrary_bytes_never_panic() {
     }
     assert!(parse_device("crlf.dev", "native rz sx cx\r\nlattice line 3\r\n").is_ok());
 }
+
+#[test]
+fn the_rendered_diagnostic_matches_grammar_device_md() {
+    let e = parse_device("chip.dev", &format!("{GOOD_HEAD}link 2 6\n")).unwrap_err();
+    assert_eq!(
+        e[0].to_string(),
+        "error: chip.dev:4:8: qubit 6 does not exist (the device has 6 qubits)\n  |\n4 | link 2 6\n  |        ^\nhint: qubits are numbered from 0; declare more with `qubits N`\n"
+    );
+}
