@@ -262,6 +262,9 @@ pub fn plan_target(
             dev.name, dev.num_qubits
         ));
     }
+    if n == 0 {
+        return TargetPlan::with_layout(0, false, dev, Vec::new());
+    }
     let comps = dev.components();
     let comp = match comps.first() {
         Some(c) if c.len() >= n => c.clone(),
@@ -274,9 +277,6 @@ pub fn plan_target(
             ))
         }
     };
-    if n == 0 {
-        return TargetPlan::with_layout(0, false, dev, Vec::new());
-    }
     let w = layout::interaction_weights(h, ancilla);
     let mut candidates: Vec<Vec<u32>> = Vec::new();
     for t in 0..cfg.layout_trials.max(1) {
