@@ -7,20 +7,62 @@
 //! 1. `formula::order_terms` + `formula::evolution`: the rotation program per time point;
 //! 2. `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`, clean-up by
 //!    `circuit::cancel`), logical qubits, ancilla last;
-//! 3. all-to-all target: `verify_ir`, done;
-//! 4. `qasm::write`.
+//! 3. all-to-all target: `verify_ir`, done; device target: `route::plan_target` chose the
+//!    layout and the ladders before step 2, and `route::to_device` now inserts SWAPs, lowers to
+//!    the native gates, fuses one-qubit runs and cancels inverses (verified after each pass);
+//! 4. `qasm::write` (logical `q[k]` on all-to-all, physical `$k` on a device).
 //!
 //! Nothing here does I/O; the command layer writes the files.
 
 use crate::circuit::metrics::counts;
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::Circuit;
+use crate::device::Device;
 use crate::family::plan::{
-    CircuitEntry, Costs, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
+    CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
 use crate::family::{build_jobs, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
+use crate::route::{plan_target, to_device, RouteConfig};
+use rayon::prelude::*;
+
+/// Where the circuits will run.
+pub enum Target<'a> {
+    /// Every pair coupled, every standard gate available: logical qubits, no routing.
+    AllToAll,
+    /// A device: layout, SWAPs, native gates, calibrated costs.
+    Device {
+        device: &'a Device,
+        config: &'a RouteConfig,
+    },
+}
+
+/// Why compilation stopped: the problem does not fit the target (bad input), or a pass broke
+/// an IR invariant (a compiler bug).
+#[derive(Debug)]
+pub enum CompileError {
+    DoesNotFit(String),
+    Ir(IrError),
+}
+
+impl From<IrError> for CompileError {
+    fn from(e: IrError) -> CompileError {
+        CompileError::Ir(e)
+    }
+}
+
+impl From<CompileError> for crate::error::Error {
+    fn from(e: CompileError) -> crate::error::Error {
+        match e {
+            CompileError::DoesNotFit(m) => crate::error::Error::usage(
+                m,
+                Some("choose a larger device, or one whose coupling graph is connected"),
+            ),
+            CompileError::Ir(e) => crate::error::Error::Ir(e),
+        }
+    }
+}
 
 /// A compiled campaign: the plan and, for every circuit in plan order, its program text.
 pub struct Compiled {
@@ -50,29 +92,112 @@ pub fn hamiltonian_info(h: &PauliSum, source: &str) -> HamiltonianInfo {
 
 /// Runs the passes for the all-to-all target.
 pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, IrError> {
-    let default_ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
-    let jobs = build_jobs(h, spec, &default_ladder);
+    match compile_for(h, source, spec, &Target::AllToAll) {
+        Ok(c) => Ok(c),
+        Err(CompileError::Ir(e)) => Err(e),
+        Err(CompileError::DoesNotFit(m)) => unreachable!("all-to-all always fits: {m}"),
+    }
+}
+
+/// One circuit after the target-specific passes.
+struct Finished {
+    circuit: Circuit,
+    costs: Costs,
+    final_layout: Vec<u32>,
+}
+
+/// Runs the passes for any target.
+pub fn compile_for(
+    h: &PauliSum,
+    source: &str,
+    spec: &Spec,
+    target: &Target,
+) -> Result<Compiled, CompileError> {
+    let (jobs, device_info, addressing) = match target {
+        Target::AllToAll => {
+            let default_ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
+            (
+                build_jobs(h, spec, &default_ladder),
+                None,
+                Addressing::Logical,
+            )
+        }
+        Target::Device { device, config } => {
+            let tp = plan_target(h, true, device, config).map_err(CompileError::DoesNotFit)?;
+            let ladder = |r: &crate::formula::Rotation| tp.ladder(r);
+            let info = DeviceInfo {
+                name: device.name.clone(),
+                num_qubits: device.num_qubits,
+                native: device.native.names.clone(),
+                initial_layout: tp.initial_layout.clone(),
+            };
+            let jobs = build_jobs(h, spec, &ladder);
+            return finish(
+                h,
+                source,
+                spec,
+                jobs,
+                Some(info),
+                Addressing::Physical,
+                |c| {
+                    let routed = to_device(c, &tp, device, config)?;
+                    let costs = crate::device::costs(&routed.circuit, device, routed.swaps);
+                    Ok(Finished {
+                        circuit: routed.circuit,
+                        costs,
+                        final_layout: routed.final_layout,
+                    })
+                },
+            );
+        }
+    };
+    finish(h, source, spec, jobs, device_info, addressing, |c| {
+        verify_ir(c, &Rules::default())?;
+        Ok(Finished {
+            circuit: c.clone(),
+            costs: counts(c).into(),
+            final_layout: Vec::new(),
+        })
+    })
+}
+
+fn finish(
+    h: &PauliSum,
+    source: &str,
+    spec: &Spec,
+    jobs: Vec<crate::family::Job>,
+    device: Option<DeviceInfo>,
+    addressing: Addressing,
+    pass: impl Fn(&Circuit) -> Result<Finished, IrError> + Sync,
+) -> Result<Compiled, CompileError> {
+    let done: Vec<Finished> = jobs
+        .par_iter()
+        .map(|j| pass(&j.circuit))
+        .collect::<Result<_, _>>()?;
     let mut entries = Vec::with_capacity(jobs.len());
     let mut programs = Vec::with_capacity(jobs.len());
     let mut circuits = Vec::with_capacity(jobs.len());
-    for job in jobs {
-        verify_ir(&job.circuit, &Rules::default())?;
-        let costs: Costs = counts(&job.circuit).into();
-        let comments = vec![
+    for (job, f) in jobs.into_iter().zip(done) {
+        let part = if job.part == crate::family::plan::Part::Re {
+            "real"
+        } else {
+            "imaginary"
+        };
+        let mut comments = vec![
             format!(
-                "phasewright circuit {}: {} part of the Hadamard test at k = {}, t = {}",
-                job.id,
-                if job.part == crate::family::plan::Part::Re {
-                    "real"
-                } else {
-                    "imaginary"
-                },
-                job.k,
-                job.time
+                "phasewright circuit {}: {part} part of the Hadamard test at k = {}, t = {}",
+                job.id, job.k, job.time
             ),
             "bit 0 is the ancilla; see plan.json for what each bit reads".to_string(),
         ];
-        programs.push(write(&job.circuit, Addressing::Logical, &comments));
+        if let Some(d) = &device {
+            comments.push(format!(
+                "device {}: physical qubits, native gates {}",
+                d.name,
+                d.native.join(" ")
+            ));
+        }
+        programs.push(write(&f.circuit, addressing, &comments));
         entries.push(CircuitEntry {
             file: format!("{}.qasm", job.id),
             id: job.id,
@@ -81,14 +206,14 @@ pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, IrEr
             part: job.part,
             state: job.state,
             group: job.group,
-            num_qubits: job.circuit.num_qubits,
-            num_clbits: job.circuit.num_clbits,
+            num_qubits: f.circuit.num_qubits,
+            num_clbits: f.circuit.num_clbits,
             ancilla_bit: 0,
             reads: job.reads,
-            costs,
-            final_layout: Vec::new(),
+            costs: f.costs,
+            final_layout: f.final_layout,
         });
-        circuits.push(job.circuit);
+        circuits.push(f.circuit);
     }
     let plan = Plan {
         format: PLAN_FORMAT.to_string(),
@@ -102,7 +227,7 @@ pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, IrEr
         states: spec.states.clone(),
         seed: None,
         points: spec.points,
-        device: None,
+        device,
         circuits: entries,
     };
     Ok(Compiled {

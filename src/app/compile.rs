@@ -7,7 +7,7 @@ use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
 use crate::lang::diag::Diagnostic;
-use crate::pipeline::{compile, Compiled};
+use crate::pipeline::{compile_for, Compiled, Target};
 use crate::report::table::Table;
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -68,6 +68,9 @@ pub struct CompileArgs {
     /// Seed for random states (and layout trials on devices).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
+    /// Target device (.dev). Without it, an all-to-all device with every standard gate.
+    #[arg(long)]
+    pub device: Option<PathBuf>,
     /// Output folder (created if missing).
     #[arg(short = 'o', long = "out")]
     pub out: PathBuf,
@@ -180,7 +183,23 @@ pub fn run(args: &CompileArgs) -> Result<()> {
         steps_per_dt: args.steps,
         states,
     };
-    let mut compiled = compile(&h, &args.hamiltonian.display().to_string(), &spec)?;
+    let device = args
+        .device
+        .as_deref()
+        .map(super::io::read_device)
+        .transpose()?;
+    let config = crate::route::RouteConfig {
+        seed: args.seed,
+        ..Default::default()
+    };
+    let target = match &device {
+        Some(d) => Target::Device {
+            device: d,
+            config: &config,
+        },
+        None => Target::AllToAll,
+    };
+    let mut compiled = compile_for(&h, &args.hamiltonian.display().to_string(), &spec, &target)?;
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }

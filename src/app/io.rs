@@ -114,3 +114,9 @@ pub fn read_plan_circuits(
         })
         .collect()
 }
+
+/// Reads and parses a `.dev` device file; problems are diagnostics (exit 2).
+pub fn read_device(path: &Path) -> Result<crate::device::Device> {
+    let text = read_text(path)?;
+    crate::lang::dev::parse_device(&path.display().to_string(), &text).map_err(Error::Input)
+}

@@ -6,6 +6,7 @@
 
 pub mod compile;
 pub mod convert;
+pub mod estimate;
 pub mod io;
 pub mod sample;
 pub mod verify;
@@ -28,6 +29,9 @@ pub enum Command {
     /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
     #[command(after_help = convert::EXAMPLES)]
     Convert(convert::ConvertArgs),
+    /// Turn measured counts into energies or a density of states.
+    #[command(long_about = estimate::ESTIMATE_HELP)]
+    Estimate(estimate::EstimateArgs),
     Sample(sample::SampleArgs),
     Verify(verify::VerifyArgs),
 }
@@ -37,6 +41,7 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Compile(a) => compile::run(&a),
         Command::Convert(a) => convert::run(a),
+        Command::Estimate(a) => estimate::run(&a),
         Command::Sample(a) => sample::run(&a),
         Command::Verify(a) => verify::run(&a),
     }

@@ -101,7 +101,6 @@ pub fn run(args: &SampleArgs) -> Result<()> {
         "format": "phasewright-counts/1",
         "bit_order": "first",
         "shots": args.shots,
-        "source": if args.noise { "simulated with global depolarising noise" } else { "simulated, noiseless" },
         "counts": all,
     });
     let out = args

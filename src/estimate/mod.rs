@@ -1,1 +1,520 @@
-//! (to be written)
+//! From counts to energies: overlaps with error bars, Krylov energies, an overlap-only
+//! estimate, and the density of states.
+//!
+//! In: a [`Plan`] and its checked [`counts::CountsFile`] (or, for library users and tests,
+//! the time series directly). Out: an [`Analysis`]: for `overlap`/`krylov` plans the lowest
+//! energy for every Krylov dimension with a bootstrap standard error beside the matrix-pencil
+//! estimate; for `trace` plans the broadened density of states with its band and quadrature
+//! bound. Invariant: the identity coefficient `c` of `H` is never compiled, so every energy
+//! here is computed for `H' = H − c` and `c` is added back exactly once, in this module.
+//!
+//! Submodules, in data order: [`counts`] (file → histograms), [`expect`] (histograms → parity
+//! expectations ± binomial error → series), [`krylov`] (Toeplitz pencil, thresholding),
+//! [`overlap_only`] (matrix pencil), [`dos`] (density of states), [`resample`] (exact
+//! multinomial draws for the bootstrap).
+//!
+//! Bootstrap (Efron & Tibshirani, *An Introduction to the Bootstrap*, 1993, ch. 6): every
+//! circuit's histogram is redrawn as Multinomial(shots, observed frequencies), everything is
+//! recomputed with the threshold of the original data, and the error bar is the standard
+//! deviation of the replicates. Replicate `b` uses ChaCha8 stream `b` of the seed, so results
+//! do not depend on the thread count.
+
+pub mod counts;
+pub mod dos;
+pub mod expect;
+pub mod krylov;
+pub mod overlap_only;
+pub mod resample;
+
+use crate::family::plan::{Family, Plan};
+use crate::pauli::{Pauli, PauliString, PauliSum};
+use counts::CountsFile;
+use expect::{ReadTable, Series};
+use num_complex::Complex64;
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use rayon::prelude::*;
+
+/// Largest Hamiltonian diagonalised automatically for reference values (a 256×256 problem).
+pub const EXACT_MAX_QUBITS: usize = 8;
+
+/// Default number of bootstrap replicates (the standard error of a bootstrap standard
+/// deviation from B replicates is ≈ 1/√(2B) relative: 5% at B = 200; Efron & Tibshirani 1993,
+/// ch. 6 recommend 50–200 for standard errors).
+pub const DEFAULT_BOOTSTRAP: usize = 200;
+
+/// Number of energies at which the density of states is evaluated by default.
+pub const DEFAULT_DOS_POINTS: usize = 401;
+
+/// Choices the user can make; `None` means the documented default.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Config {
+    /// Eigenvalue threshold for `S` (same for every dimension); default from the shot noise.
+    pub threshold: Option<f64>,
+    /// DOS broadening `σ`; default [`dos::default_sigma`].
+    pub sigma: Option<f64>,
+    /// Bootstrap replicates (0 disables error bars on energies).
+    pub bootstrap: usize,
+    pub seed: u64,
+    /// A trusted ground energy to show beside the estimates (overrides the automatic one).
+    pub exact: Option<f64>,
+    pub dos_points: usize,
+}
+
+impl Default for Config {
+    fn default() -> Config {
+        Config {
+            threshold: None,
+            sigma: None,
+            bootstrap: DEFAULT_BOOTSTRAP,
+            seed: 0,
+            exact: None,
+            dos_points: DEFAULT_DOS_POINTS,
+        }
+    }
+}
+
+/// How the Krylov column was computed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum KrylovKind {
+    /// `(H, S)` Toeplitz pencil from term and overlap reads (`krylov` plans).
+    Hamiltonian,
+    /// `(sin(H'dt)/dt, S)` pencil from overlaps alone (`overlap` plans).
+    Sine,
+}
+
+/// One Krylov dimension.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EnergyRow {
+    pub dimension: usize,
+    /// Threshold applied to the eigenvalues of `S`.
+    pub threshold: f64,
+    /// Lowest Krylov energy of `H` (constant included) and the directions kept.
+    pub krylov: Option<f64>,
+    pub kept: Option<usize>,
+    pub krylov_std_error: Option<f64>,
+    /// Matrix-pencil ground energy from `S_0..S_{d−1}` (constant included).
+    pub pencil: Option<f64>,
+    pub pencil_std_error: Option<f64>,
+}
+
+/// Result for `overlap` and `krylov` plans.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EnergyReport {
+    pub family: Family,
+    pub kind: KrylovKind,
+    pub dt: f64,
+    pub constant: f64,
+    pub rows: Vec<EnergyRow>,
+    /// `S_k` and (krylov plans) `h_k`, with standard errors.
+    pub overlaps: Series,
+    pub hamiltonian: Option<Series>,
+    /// Exact ground energy (`--exact`, or diagonalised when the plan is small).
+    pub exact: Option<f64>,
+    pub exact_source: Option<&'static str>,
+    pub bootstrap: usize,
+    pub seed: u64,
+    pub warnings: Vec<String>,
+}
+
+/// Result for `trace` plans.
+#[derive(Clone, Debug, PartialEq)]
+pub struct DosReport {
+    pub dt: f64,
+    pub points: usize,
+    pub num_qubits: usize,
+    pub num_states: usize,
+    pub sigma: f64,
+    pub resolution: f64,
+    /// `g_k = mean over states of ⟨ψ_s|U(k·dt)|ψ_s⟩ ≈ tr U/2ⁿ`.
+    pub trace: Series,
+    pub energies: Vec<f64>,
+    pub density: Vec<f64>,
+    /// Standard error of the density (spread over states, or shot noise for one state).
+    pub std_error: Vec<f64>,
+    /// Quadrature error bound at each energy.
+    pub quadrature_bound: Vec<f64>,
+    /// Exact broadened spectrum when the plan is small enough to diagonalise.
+    pub exact: Option<Vec<f64>>,
+    pub band_source: &'static str,
+    pub warnings: Vec<String>,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum Analysis {
+    Energies(EnergyReport),
+    Dos(DosReport),
+}
+
+/// Runs the estimators the plan's family calls for. Errors are plain messages (a plan that
+/// lacks a needed circuit, an invalid option).
+pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysis, String> {
+    if plan.points < 1 {
+        return Err("the plan has no time points".into());
+    }
+    if plan.formula.dt.is_nan() || plan.formula.dt <= 0.0 {
+        return Err(format!(
+            "the plan's dt must be positive, found {}",
+            plan.formula.dt
+        ));
+    }
+    let table = ReadTable::new(plan, &counts.circuits);
+    let weights = ReadTable::weights_of(&counts.circuits);
+    match plan.family {
+        Family::Overlap | Family::Krylov => {
+            energies(plan, &table, &weights, cfg).map(Analysis::Energies)
+        }
+        Family::Trace => density(plan, &table, &weights, cfg).map(Analysis::Dos),
+    }
+}
+
+/// The series an energy analysis needs, from one set of histograms.
+fn energy_inputs(
+    plan: &Plan,
+    table: &ReadTable,
+    weights: &[Vec<u64>],
+) -> Result<(Series, Option<Series>), String> {
+    let q = table.evaluate(weights);
+    let s = expect::overlap_series(&q, 0, plan.points)?;
+    let h = match plan.family {
+        Family::Krylov => {
+            let coeffs: Vec<f64> = plan.hamiltonian.terms.iter().map(|t| t.coeff).collect();
+            Some(expect::energy_series(&q, &coeffs, 0, plan.points)?)
+        }
+        _ => None,
+    };
+    Ok((s, h))
+}
+
+/// Krylov thresholds per dimension (`d = 1..=K`).
+pub fn thresholds(overlaps: &Series, user: Option<f64>) -> Vec<f64> {
+    (1..=overlaps.len())
+        .map(|d| user.unwrap_or_else(|| krylov::default_threshold(&overlaps.std_errors, d)))
+        .collect()
+}
+
+/// RMS standard error of one complex sample `S_k`, `k ≥ 1`.
+pub fn sample_noise(overlaps: &Series) -> f64 {
+    let tail = &overlaps.std_errors[1.min(overlaps.len())..];
+    if tail.is_empty() {
+        return 0.0;
+    }
+    (tail.iter().map(|(a, b)| a * a + b * b).sum::<f64>() / tail.len() as f64).sqrt()
+}
+
+/// Point estimates (no error bars) for dimensions `1..=K`: `(krylov, kept, pencil)` for `H'`
+/// (constant not added). `h = None` selects the overlap-only sine pencil.
+pub fn point_estimates(
+    s: &Series,
+    h: Option<&Series>,
+    dt: f64,
+    thresholds: &[f64],
+    pencil_noise: f64,
+) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
+    let k = s.len();
+    // Mean energy of the reference state: centre of the pencil's window and shift of the sine
+    // pencil.
+    let center = match h {
+        Some(h) => h.values[0].re,
+        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
+    };
+    let kry: Vec<Option<krylov::Ritz>> = (1..=k)
+        .map(|d| {
+            let eps = thresholds[d - 1];
+            match h {
+                Some(h) => krylov::lowest_ritz(
+                    &krylov::toeplitz(&h.values, d),
+                    &krylov::toeplitz(&s.values, d),
+                    eps,
+                ),
+                None if d < k => krylov::sine_ritz(&s.values, dt, d, eps, center),
+                None => None,
+            }
+        })
+        .collect();
+    let pencil = overlap_only::pencil_energies(&s.values, dt, pencil_noise, center);
+    kry.into_iter().zip(pencil).collect()
+}
+
+fn energies(
+    plan: &Plan,
+    table: &ReadTable,
+    weights: &[Vec<u64>],
+    cfg: &Config,
+) -> Result<EnergyReport, String> {
+    let dt = plan.formula.dt;
+    let c = plan.hamiltonian.constant;
+    let (s, h) = energy_inputs(plan, table, weights)?;
+    let eps = thresholds(&s, cfg.threshold);
+    let noise = sample_noise(&s);
+    let point = point_estimates(&s, h.as_ref(), dt, &eps, noise);
+    let kind = if h.is_some() {
+        KrylovKind::Hamiltonian
+    } else {
+        KrylovKind::Sine
+    };
+    let mut warnings = Vec::new();
+    if kind == KrylovKind::Sine && plan.hamiltonian.one_norm * dt > std::f64::consts::FRAC_PI_2 {
+        warnings.push(format!(
+            "the overlap-only Krylov estimate assumes ‖H − c − μ‖·dt ≤ π/2 (μ: mean energy of \
+             the reference state); only the bound Σ|c_j|·dt = {:.3} is known, so check the \
+             spectral width",
+            plan.hamiltonian.one_norm * dt
+        ));
+    }
+    if plan.hamiltonian.one_norm * dt > std::f64::consts::PI {
+        warnings.push(format!(
+            "Σ|c_j|·dt = {:.3} exceeds π: the matrix pencil resolves energies only within \
+             ±π/dt of the reference state's mean energy",
+            plan.hamiltonian.one_norm * dt
+        ));
+    }
+
+    // Bootstrap replicates: each a vector over dimensions of (krylov, pencil).
+    let reps: Vec<Vec<Replicate>> = (0..cfg.bootstrap)
+        .into_par_iter()
+        .map(|b| {
+            let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
+            rng.set_stream(b as u64);
+            let w: Vec<Vec<u64>> = weights
+                .iter()
+                .map(|w| {
+                    let n: u64 = w.iter().sum();
+                    let p: Vec<f64> = w.iter().map(|&x| x as f64).collect();
+                    resample::multinomial(&mut rng, n, &p)
+                })
+                .collect();
+            match energy_inputs(plan, table, &w) {
+                Ok((s2, h2)) => point_estimates(&s2, h2.as_ref(), dt, &eps, noise)
+                    .into_iter()
+                    .map(|(k, p)| (k.map(|r| r.energy), p))
+                    .collect(),
+                Err(_) => Vec::new(),
+            }
+        })
+        .collect();
+    let spread = |pick: &dyn Fn(&Replicate) -> Option<f64>, d: usize| {
+        let xs: Vec<f64> = reps
+            .iter()
+            .filter_map(|r| r.get(d).and_then(pick))
+            .collect();
+        std_dev(&xs)
+    };
+    let rows = point
+        .iter()
+        .enumerate()
+        .map(|(i, (kr, pe))| EnergyRow {
+            dimension: i + 1,
+            threshold: eps[i],
+            krylov: kr.map(|r| r.energy + c),
+            kept: kr.map(|r| r.kept),
+            krylov_std_error: kr.and_then(|_| spread(&|x| x.0, i)),
+            pencil: pe.map(|e| e + c),
+            pencil_std_error: pe.and_then(|_| spread(&|x| x.1, i)),
+        })
+        .collect();
+    let (exact, exact_source) = match cfg.exact {
+        Some(e) => (Some(e), Some("--exact")),
+        None => match small_hamiltonian(plan) {
+            Some(hs) => (
+                Some(crate::sim::exact::spectrum(&hs).values[0]),
+                Some("dense diagonalisation"),
+            ),
+            None => (None, None),
+        },
+    };
+    Ok(EnergyReport {
+        family: plan.family,
+        kind,
+        dt,
+        constant: c,
+        rows,
+        overlaps: s,
+        hamiltonian: h,
+        exact,
+        exact_source,
+        bootstrap: cfg.bootstrap,
+        seed: cfg.seed,
+        warnings,
+    })
+}
+
+/// One bootstrap replicate at one dimension: (Krylov energy, pencil energy).
+type Replicate = (Option<f64>, Option<f64>);
+
+/// Sample standard deviation; `None` with fewer than 2 values.
+pub fn std_dev(xs: &[f64]) -> Option<f64> {
+    if xs.len() < 2 {
+        return None;
+    }
+    let m = xs.iter().sum::<f64>() / xs.len() as f64;
+    Some((xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (xs.len() - 1) as f64).sqrt())
+}
+
+fn density(
+    plan: &Plan,
+    table: &ReadTable,
+    weights: &[Vec<u64>],
+    cfg: &Config,
+) -> Result<DosReport, String> {
+    let q = table.evaluate(weights);
+    let n_states = plan.states.len();
+    if n_states == 0 {
+        return Err("the trace plan lists no states".into());
+    }
+    let per_state: Vec<Series> = (0..n_states)
+        .map(|s| expect::overlap_series(&q, s, plan.points))
+        .collect::<Result<_, _>>()?;
+    let dt = plan.formula.dt;
+    let sigma = cfg
+        .sigma
+        .unwrap_or_else(|| dos::default_sigma(plan.points, dt));
+    if sigma.is_nan() || sigma <= 0.0 {
+        return Err(format!("the broadening must be positive, found {sigma}"));
+    }
+    let grid = dos::DosGrid {
+        num_qubits: plan.hamiltonian.num_qubits,
+        dt,
+        constant: plan.hamiltonian.constant,
+        sigma,
+    };
+    let norm = plan.hamiltonian.one_norm;
+    let energies = dos::energy_grid(grid.constant, norm, sigma, dt, cfg.dos_points);
+    let trace = mean_series(&per_state);
+    let density: Vec<f64> = energies
+        .iter()
+        .map(|&e| grid.density(&trace.values, e))
+        .collect();
+    let (std_error, band_source) = if n_states >= 2 {
+        let se = energies
+            .iter()
+            .map(|&e| {
+                let xs: Vec<f64> = per_state
+                    .iter()
+                    .map(|s| grid.density(&s.values, e))
+                    .collect();
+                std_dev(&xs).unwrap_or(0.0) / (n_states as f64).sqrt()
+            })
+            .collect();
+        (se, "spread over the random states (includes shot noise)")
+    } else {
+        let se = energies
+            .iter()
+            .map(|&e| grid.density_std_error(&trace.std_errors, e))
+            .collect();
+        (
+            se,
+            "shot noise only (one state: trace-estimation error unknown)",
+        )
+    };
+    let quadrature_bound = energies
+        .iter()
+        .map(|&e| grid.error_bound(plan.points, norm, e))
+        .collect();
+    let exact = small_hamiltonian(plan).map(|h| {
+        let ev = crate::sim::exact::spectrum(&h).values;
+        energies
+            .iter()
+            .map(|&e| dos::broadened_spectrum(&ev, sigma, e))
+            .collect()
+    });
+    let mut warnings = Vec::new();
+    let resolution = dos::resolution_limit(plan.points, dt);
+    if sigma < resolution {
+        warnings.push(format!(
+            "σ = {sigma:.4} is finer than the resolution limit π/(K·dt) = {resolution:.4}; \
+             the quadrature bound shows the price"
+        ));
+    }
+    if norm * dt >= std::f64::consts::PI {
+        warnings.push(format!(
+            "Σ|c_j|·dt = {:.3} ≥ π: the spectrum may alias (period 2π/dt); use a smaller dt",
+            norm * dt
+        ));
+    }
+    Ok(DosReport {
+        dt,
+        points: plan.points,
+        num_qubits: plan.hamiltonian.num_qubits,
+        num_states: n_states,
+        sigma,
+        resolution,
+        trace,
+        energies,
+        density,
+        std_error,
+        quadrature_bound,
+        exact,
+        band_source,
+        warnings,
+    })
+}
+
+/// Mean of several series; standard errors combine as `√(Σ se²)/N`.
+pub fn mean_series(all: &[Series]) -> Series {
+    let n = all.len() as f64;
+    let len = all[0].len();
+    let values = (0..len)
+        .map(|k| all.iter().map(|s| s.values[k]).sum::<Complex64>() / n)
+        .collect();
+    let std_errors = (0..len)
+        .map(|k| {
+            let (a, b) = all.iter().fold((0.0, 0.0), |(a, b), s| {
+                (a + s.std_errors[k].0.powi(2), b + s.std_errors[k].1.powi(2))
+            });
+            (a.sqrt() / n, b.sqrt() / n)
+        })
+        .collect();
+    Series { values, std_errors }
+}
+
+/// The plan's Hamiltonian as a Pauli sum, when it has at most [`EXACT_MAX_QUBITS`] qubits
+/// and every term's text parses.
+pub fn small_hamiltonian(plan: &Plan) -> Option<PauliSum> {
+    let n = plan.hamiltonian.num_qubits;
+    if n == 0 || n > EXACT_MAX_QUBITS {
+        return None;
+    }
+    plan_hamiltonian(plan).ok()
+}
+
+/// Rebuilds `H` from the plan's term list (`X0 Y1 Z3` text, qubit 0 first).
+pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
+    let n = plan.hamiltonian.num_qubits;
+    let mut h = PauliSum::new(n);
+    h.constant = plan.hamiltonian.constant;
+    for t in &plan.hamiltonian.terms {
+        let mut factors = Vec::new();
+        for tok in t.pauli.split_whitespace() {
+            let (letter, idx) = tok.split_at(1);
+            let p = match letter {
+                "X" => Pauli::X,
+                "Y" => Pauli::Y,
+                "Z" => Pauli::Z,
+                "I" if idx.is_empty() => continue,
+                _ => return Err(format!("cannot read term `{}`", t.pauli)),
+            };
+            let q: usize = idx
+                .parse()
+                .ok()
+                .filter(|&q| q < n)
+                .ok_or_else(|| format!("cannot read term `{}`", t.pauli))?;
+            factors.push((q, p));
+        }
+        let (phase, p) = PauliString::from_factors(&factors);
+        if (phase - Complex64::new(1.0, 0.0)).norm() > 1e-12 {
+            return Err(format!("term `{}` is not Hermitian as written", t.pauli));
+        }
+        h.add(p, t.coeff);
+    }
+    Ok(h)
+}
+
+/// Map from a family to its name in plan.json.
+pub fn family_name(f: Family) -> &'static str {
+    match f {
+        Family::Overlap => "overlap",
+        Family::Krylov => "krylov",
+        Family::Trace => "trace",
+    }
+}

@@ -1,0 +1,405 @@
+//! `phasewright estimate`: read a campaign's plan and a counts file, print energies or the
+//! density of states, optionally as JSON and as an SVG plot.
+//!
+//! In: validated arguments. Out: a table on stdout (or JSON with `--json`), an SVG file with
+//! `--plot`. Invariant: every problem in the counts file is reported with its position before
+//! anything is computed; no output file is left half-written.
+
+use super::io::{read_text, write_atomic};
+use crate::error::{Error, Result};
+use crate::estimate::counts::{self, BitOrder};
+use crate::estimate::{
+    self, Analysis, Config, DosReport, EnergyReport, KrylovKind, DEFAULT_BOOTSTRAP,
+};
+use crate::family::plan::{Plan, PLAN_FORMAT};
+use crate::lang::diag::Diagnostic;
+use crate::report::plot;
+use clap::{Args, ValueEnum};
+use serde_json::{json, Value};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+/// Which end of a bitstring holds classical bit 0.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum BitOrderArg {
+    /// Leftmost character is classical bit 0 (phasewright's convention).
+    First,
+    /// Rightmost character is classical bit 0.
+    Last,
+}
+
+/// Long help of `phasewright estimate`.
+pub const ESTIMATE_HELP: &str = "\
+Turn measured counts into energies (overlap and krylov plans) or a density of states (trace \
+plans).
+
+Example:
+  phasewright estimate campaign/ --counts counts.json --plot energies.svg
+
+The counts file is JSON: {\"format\": \"phasewright-counts/1\", \"counts\": {\"<circuit id>\": \
+{\"<bitstring>\": count, ...}, ...}} (see docs/counts.md). A bitstring lists classical bit 0 \
+first (leftmost); pass --bit-order last for files that put bit 0 rightmost. The flag wins over \
+the file's own \"bit_order\" key.
+
+For overlap and krylov plans the table gives the lowest Krylov energy for every dimension \
+1..K, with a bootstrap standard error, beside the matrix-pencil estimate from the overlaps \
+alone. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
+the quadrature error bound.
+
+Caution: energies from noisy hardware depend on the device calibration; validate against \
+trusted methods.";
+
+/// Arguments of `phasewright estimate`.
+#[derive(Args, Debug, Clone)]
+pub struct EstimateArgs {
+    /// Campaign folder holding plan.json.
+    pub dir: PathBuf,
+    /// Counts file (JSON, format phasewright-counts/1).
+    #[arg(long, value_name = "FILE")]
+    pub counts: PathBuf,
+    /// Which end of each bitstring is classical bit 0 [default: the file's "bit_order", else first].
+    #[arg(long, value_enum, value_name = "ORDER")]
+    pub bit_order: Option<BitOrderArg>,
+    /// Write an SVG plot (energy against Krylov dimension, or the density of states).
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// Print JSON instead of a table.
+    #[arg(long)]
+    pub json: bool,
+    /// Keep eigenvectors of S above this eigenvalue [default: σ̄·d from the shot noise].
+    #[arg(long, value_name = "EPS", value_parser = positive_f64)]
+    pub threshold: Option<f64>,
+    /// Broadening σ of the density of states, energy units [default: 3.5/((K−1)·dt)].
+    #[arg(long, value_name = "SIGMA", value_parser = positive_f64)]
+    pub sigma: Option<f64>,
+    /// A trusted ground energy to show beside the estimates and in the plot.
+    #[arg(long, value_name = "ENERGY", allow_negative_numbers = true, value_parser = finite_f64)]
+    pub exact: Option<f64>,
+    /// Bootstrap replicates for the energy error bars (0 turns them off).
+    #[arg(long, value_name = "N", default_value_t = DEFAULT_BOOTSTRAP)]
+    pub bootstrap: usize,
+    /// Seed of the bootstrap resampling.
+    #[arg(long, value_name = "SEED", default_value_t = 0)]
+    pub seed: u64,
+}
+
+fn positive_f64(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(x) if x.is_finite() && x > 0.0 => Ok(x),
+        _ => Err(format!("`{s}` is not a positive number")),
+    }
+}
+
+fn finite_f64(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(x) if x.is_finite() => Ok(x),
+        _ => Err(format!("`{s}` is not a finite number")),
+    }
+}
+
+/// Reads `DIR/plan.json`; a malformed plan is a diagnostic with its position.
+pub fn read_plan(dir: &std::path::Path) -> Result<Plan> {
+    let path = dir.join("plan.json");
+    let text = read_text(&path)?;
+    let name = path.display().to_string();
+    let plan = Plan::from_json(&text).map_err(|e| {
+        let off = line_col_offset(&text, e.line(), e.column());
+        Error::input(Diagnostic::at(
+            &name,
+            &text,
+            off,
+            1,
+            format!("not a valid plan: {e}"),
+            Some("plan.json is written by `phasewright compile`; do not edit it by hand".into()),
+        ))
+    })?;
+    if plan.format != PLAN_FORMAT {
+        return Err(Error::input(Diagnostic::whole_file(
+            &name,
+            format!("unsupported plan format `{}`", plan.format),
+            Some(format!("this version reads `{PLAN_FORMAT}`")),
+        )));
+    }
+    Ok(plan)
+}
+
+fn line_col_offset(src: &str, line: usize, column: usize) -> usize {
+    let mut off = 0;
+    for (i, l) in src.split_inclusive('\n').enumerate() {
+        if i + 1 == line {
+            return off + column.saturating_sub(1).min(l.len());
+        }
+        off += l.len();
+    }
+    src.len()
+}
+
+/// Runs `phasewright estimate`.
+pub fn run(args: &EstimateArgs) -> Result<()> {
+    let plan = read_plan(&args.dir)?;
+    let text = read_text(&args.counts)?;
+    let order = args.bit_order.map(|b| match b {
+        BitOrderArg::First => BitOrder::First,
+        BitOrderArg::Last => BitOrder::Last,
+    });
+    let name = args.counts.display().to_string();
+    let counts = counts::parse(&text, &name, &plan, order).map_err(Error::Input)?;
+    let cfg = Config {
+        threshold: args.threshold,
+        sigma: args.sigma,
+        bootstrap: args.bootstrap,
+        seed: args.seed,
+        exact: args.exact,
+        ..Config::default()
+    };
+    let analysis = estimate::analyse(&plan, &counts, &cfg)
+        .map_err(|m| Error::usage(m, Some("check that the counts answer this plan")))?;
+    if let Some(path) = &args.plot {
+        let svg = match &analysis {
+            Analysis::Energies(r) => plot::energy_svg(r),
+            Analysis::Dos(r) => plot::dos_svg(r),
+        }
+        .map_err(Error::Internal)?;
+        write_atomic(path, svg.as_bytes())?;
+    }
+    let out = if args.json {
+        serde_json::to_string_pretty(&to_json(&analysis, &plan, counts.bit_order))
+            .expect("serialises")
+            + "\n"
+    } else {
+        match &analysis {
+            Analysis::Energies(r) => energy_table(r, &plan),
+            Analysis::Dos(r) => dos_table(r, &plan),
+        }
+    };
+    print!("{out}");
+    Ok(())
+}
+
+fn fmt_opt(x: Option<f64>, prec: usize) -> String {
+    match x {
+        Some(v) => format!("{v:.prec$}"),
+        None => "-".into(),
+    }
+}
+
+/// The human-readable table for energies.
+pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
+    let mut s = String::new();
+    let k = plan.points;
+    let _ = writeln!(
+        s,
+        "{} plan: K = {k} time points, dt = {}, identity coefficient c = {} added back",
+        estimate::family_name(r.family),
+        r.dt,
+        r.constant
+    );
+    let _ = writeln!(
+        s,
+        "threshold on eigenvalues of S: {}",
+        if plan.points > 0 && r.rows.iter().all(|x| x.threshold == r.rows[0].threshold) {
+            format!("{:.3e} (all dimensions)", r.rows[0].threshold)
+        } else {
+            "σ̄·d from the shot noise of S (column `threshold`)".into()
+        }
+    );
+    if r.bootstrap >= 2 {
+        let _ = writeln!(
+            s,
+            "error bars: one bootstrap standard error (σ) from {} replicates, seed {}",
+            r.bootstrap, r.seed
+        );
+    } else {
+        let _ = writeln!(s, "error bars: off (--bootstrap 0)");
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "{:>3}  {:>14}  {:>9}  {:>5}  {:>9}  {:>14}  {:>9}",
+        "d", "krylov", "±σ", "kept", "threshold", "pencil", "±σ"
+    );
+    for row in &r.rows {
+        let _ = writeln!(
+            s,
+            "{:>3}  {:>14}  {:>9}  {:>5}  {:>9.2e}  {:>14}  {:>9}",
+            row.dimension,
+            fmt_opt(row.krylov, 6),
+            fmt_opt(row.krylov_std_error, 6),
+            row.kept
+                .map(|x| format!("{x}/{}", row.dimension))
+                .unwrap_or_else(|| "-".into()),
+            row.threshold,
+            fmt_opt(row.pencil, 6),
+            fmt_opt(row.pencil_std_error, 6),
+        );
+    }
+    let _ = writeln!(s);
+    if let (Some(e), Some(src)) = (r.exact, r.exact_source) {
+        let _ = writeln!(s, "exact ground energy: {e:.6} ({src})");
+    }
+    let method = match r.kind {
+        KrylovKind::Hamiltonian => {
+            "krylov: Toeplitz pencil (H, S) of the real-time Krylov basis U^k|ψ⟩ (Parrish & McMahon 2019; Stair, Huang & Evangelista 2020), S thresholded (Epperly, Lin & Nakatsukasa 2022)"
+        }
+        KrylovKind::Sine => {
+            "krylov: pencil (sin(H'dt)/dt, S) from overlaps only, energy = arcsin(β·dt)/dt, d < K (valid while ‖H − c‖·dt ≤ π/2)"
+        }
+    };
+    let _ = writeln!(s, "{method}");
+    let _ = writeln!(
+        s,
+        "pencil: matrix pencil method on S_-(d-1)..S_(d-1) (Hua & Sarkar 1990), lowest mode with weight ≥ {}",
+        estimate::overlap_only::MIN_WEIGHT
+    );
+    for w in &r.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(
+        s,
+        "caution: energies from noisy hardware depend on the device calibration; validate against trusted methods"
+    );
+    s
+}
+
+/// Largest number of rows the density-of-states table prints (JSON has every point).
+pub const DOS_TABLE_ROWS: usize = 41;
+
+/// The human-readable table for the density of states.
+pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "trace plan: {} qubits, {} random states, K = {} time points, dt = {}",
+        r.num_qubits, r.num_states, r.points, r.dt
+    );
+    let _ = writeln!(
+        s,
+        "broadening σ = {:.6}; resolution limit π/(K·dt) = {:.6}",
+        r.sigma, r.resolution
+    );
+    let _ = writeln!(
+        s,
+        "quadrature: rectangle rule on t_k = k·dt, |k| ≤ K−1 (trapezoid on the infinite grid), \
+         truncation + aliasing bound in column `bound`"
+    );
+    let _ = writeln!(s, "band: ±2σ, σ from the {}", r.band_source);
+    let _ = writeln!(
+        s,
+        "ρ in states per unit energy (integrates to 2^{} = {})",
+        r.num_qubits,
+        1u64 << r.num_qubits.min(63)
+    );
+    let _ = writeln!(s);
+    let n = r.energies.len();
+    let step = n.div_ceil(DOS_TABLE_ROWS).max(1);
+    let _ = writeln!(
+        s,
+        "{:>12}  {:>12}  {:>12}  {:>12}  {:>10}  {:>12}",
+        "E", "ρ", "ρ−2σ", "ρ+2σ", "bound", "exact"
+    );
+    let mut idx: Vec<usize> = (0..n).step_by(step).collect();
+    if idx.last() != Some(&(n - 1)) {
+        idx.push(n - 1);
+    }
+    for i in idx {
+        let _ = writeln!(
+            s,
+            "{:>12.5}  {:>12.5}  {:>12.5}  {:>12.5}  {:>10.2e}  {:>12}",
+            r.energies[i],
+            r.density[i],
+            r.density[i] - 2.0 * r.std_error[i],
+            r.density[i] + 2.0 * r.std_error[i],
+            r.quadrature_bound[i],
+            r.exact
+                .as_ref()
+                .map(|e| format!("{:.5}", e[i]))
+                .unwrap_or_else(|| "-".into()),
+        );
+    }
+    if step > 1 {
+        let _ = writeln!(s, "(every {step}th of {n} energies; --json lists all)");
+    }
+    let _ = writeln!(
+        s,
+        "ρ_σ(E) = (2^n/2π) ∫ e^(−σ²t²/2) e^(iEt) tr U(t)/2^n dt, tr U/2^n estimated by averaging \
+         ⟨ψ_s|U|ψ_s⟩ over random states (Hutchinson-type stochastic trace)"
+    );
+    for w in &r.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(
+        s,
+        "caution: results from noisy hardware depend on the device calibration; validate against trusted methods"
+    );
+    let _ = plan;
+    s
+}
+
+fn series_json(s: &estimate::expect::Series) -> Value {
+    Value::Array(
+        s.values
+            .iter()
+            .zip(&s.std_errors)
+            .enumerate()
+            .map(|(k, (v, (sr, si)))| {
+                json!({"k": k, "re": v.re, "im": v.im, "re_std_error": sr, "im_std_error": si})
+            })
+            .collect(),
+    )
+}
+
+/// The machine-readable result (`phasewright-estimate/1`).
+pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
+    match a {
+        Analysis::Energies(r) => json!({
+            "format": "phasewright-estimate/1",
+            "family": estimate::family_name(r.family),
+            "dt": r.dt,
+            "points": plan.points,
+            "constant": r.constant,
+            "bit_order": order.name(),
+            "krylov_method": match r.kind {
+                KrylovKind::Hamiltonian => "toeplitz-h-s",
+                KrylovKind::Sine => "toeplitz-sine-s",
+            },
+            "bootstrap": r.bootstrap,
+            "seed": r.seed,
+            "energies": r.rows.iter().map(|row| json!({
+                "dimension": row.dimension,
+                "threshold": row.threshold,
+                "krylov": row.krylov,
+                "krylov_std_error": row.krylov_std_error,
+                "kept": row.kept,
+                "pencil": row.pencil,
+                "pencil_std_error": row.pencil_std_error,
+            })).collect::<Vec<_>>(),
+            "exact": r.exact,
+            "exact_source": r.exact_source,
+            "overlaps": series_json(&r.overlaps),
+            "hamiltonian_elements": r.hamiltonian.as_ref().map(series_json),
+            "warnings": r.warnings,
+        }),
+        Analysis::Dos(r) => json!({
+            "format": "phasewright-estimate/1",
+            "family": "trace",
+            "dt": r.dt,
+            "points": r.points,
+            "num_qubits": r.num_qubits,
+            "num_states": r.num_states,
+            "bit_order": order.name(),
+            "sigma": r.sigma,
+            "resolution_limit": r.resolution,
+            "quadrature": "rectangle rule on t_k = k*dt, |k| <= K-1",
+            "band": r.band_source,
+            "trace": series_json(&r.trace),
+            "dos": (0..r.energies.len()).map(|i| json!({
+                "energy": r.energies[i],
+                "density": r.density[i],
+                "std_error": r.std_error[i],
+                "quadrature_bound": r.quadrature_bound[i],
+                "exact": r.exact.as_ref().map(|e| e[i]),
+            })).collect::<Vec<_>>(),
+            "warnings": r.warnings,
+        }),
+    }
+}

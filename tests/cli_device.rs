@@ -1,0 +1,143 @@
+//! Device targets end to end: the written files (not only the IR) use only native gates, every
+//! two-qubit gate sits on a coupled pair, and `verify` passes with the final permutation.
+
+use assert_cmd::Command;
+use phasewright::circuit::verify::{verify_ir, Rules};
+use phasewright::lang::dev::parse_device;
+use phasewright::qasm;
+
+fn run_ok(args: &[&str]) -> String {
+    let out = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args(args)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{:?}: {}",
+        args,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).unwrap()
+}
+
+#[test]
+fn files_for_every_example_device_are_native_coupled_and_correct() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cases = [
+        (
+            "examples/ising_ring8.ham",
+            "0+0+0+0+",
+            "examples/chip_grid12.dev",
+            "overlap",
+        ),
+        (
+            "examples/mixed_field4.ham",
+            "0+1r",
+            "examples/brick16.dev",
+            "krylov",
+        ),
+        (
+            "examples/heisenberg_chain6.ham",
+            "010101",
+            "examples/ring10_u.dev",
+            "overlap",
+        ),
+        (
+            "examples/mixed_field4.ham",
+            "0+1r",
+            "examples/line8.dev",
+            "trace",
+        ),
+    ];
+    for (ham, state, dev_path, measure) in cases {
+        let out = tmp.path().join(format!(
+            "{}-{measure}",
+            std::path::Path::new(dev_path)
+                .file_stem()
+                .unwrap()
+                .to_string_lossy()
+        ));
+        let out_s = out.display().to_string();
+        let table = run_ok(&[
+            "compile",
+            ham,
+            "--state",
+            state,
+            "--dt",
+            "0.25",
+            "--points",
+            "3",
+            "--measure",
+            measure,
+            "--samples",
+            "2",
+            "--device",
+            dev_path,
+            "-o",
+            &out_s,
+        ]);
+        assert!(
+            table.contains("swaps") && table.contains("success"),
+            "{table}"
+        );
+        let dev = parse_device(dev_path, &std::fs::read_to_string(dev_path).unwrap()).unwrap();
+        let plan: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+        assert_eq!(plan["device"]["name"], serde_json::json!(dev.name));
+        for c in plan["circuits"].as_array().unwrap() {
+            let text = std::fs::read_to_string(out.join(c["file"].as_str().unwrap())).unwrap();
+            let prog = qasm::read("f.qasm", &text).unwrap();
+            assert!(prog.physical, "device files address hardware qubits");
+            let coupled = |a: u32, b: u32| dev.coupled(a, b);
+            let rules = Rules {
+                coupled: Some(&coupled),
+                native: Some(&dev.native.names),
+            };
+            verify_ir(&prog.circuit, &rules)
+                .unwrap_or_else(|e| panic!("{dev_path} {}: {e}", c["id"]));
+            assert!(prog.circuit.num_qubits <= dev.num_qubits);
+            assert!(c["costs"]["success_probability"].as_f64().unwrap() > 0.0);
+            assert!(c["costs"]["duration_ns"].as_f64().unwrap() > 0.0);
+            assert_eq!(
+                c["final_layout"].as_array().unwrap().len(),
+                plan["hamiltonian"]["num_qubits"].as_u64().unwrap() as usize + 1
+            );
+        }
+        let v: serde_json::Value =
+            serde_json::from_str(&run_ok(&["verify", "--json", &out_s])).unwrap();
+        assert_eq!(v["ok"], true, "{dev_path}: {v}");
+    }
+}
+
+#[test]
+fn a_device_too_small_or_split_is_bad_input() {
+    let tmp = tempfile::tempdir().unwrap();
+    let small = tmp.path().join("small.dev");
+    std::fs::write(&small, "qubits 4\nnative rz sx x cx\nlattice line 4\n").unwrap();
+    let r = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args([
+            "compile",
+            "examples/ising_ring8.ham",
+            "--state",
+            "00000000",
+            "--dt",
+            "0.1",
+            "--points",
+            "2",
+            "--device",
+        ])
+        .arg(&small)
+        .arg("-o")
+        .arg(tmp.path().join("o"))
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    assert!(
+        String::from_utf8_lossy(&r.stderr).contains("has 4 qubits"),
+        "{}",
+        String::from_utf8_lossy(&r.stderr)
+    );
+    assert!(!tmp.path().join("o").exists());
+}

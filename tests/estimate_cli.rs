@@ -1,0 +1,309 @@
+//! `phasewright estimate` end to end on small fixture campaigns in tests/data/estimate/.
+//!
+//! The fixtures are ideal campaigns from tests/estimate_support (exact evolution, seeded
+//! multinomial shots). They are regenerated on purpose with `BLESS=1 cargo test --test
+//! estimate_cli`, never by hand; `fixtures_are_current` fails when code and files disagree.
+
+mod estimate_support;
+
+use assert_cmd::Command;
+use estimate_support::*;
+use phasewright::estimate::counts;
+use std::path::{Path, PathBuf};
+
+fn data_dir(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data/estimate")
+        .join(name)
+}
+
+/// (folder, plan.json, counts.json) for every fixture.
+fn fixtures() -> Vec<(&'static str, String, String)> {
+    let specs: Vec<(&str, Campaign, u64, u64)> = vec![
+        (
+            "krylov_tfim3",
+            campaign(&tfim(3, 1.0, 0.7, 0.2), &["+++"], Kind::Krylov, 0.35, 5),
+            20_000,
+            7,
+        ),
+        (
+            "overlap_heis4",
+            campaign(&heisenberg(4, 1.0, -0.4), &["0101"], Kind::Overlap, 0.2, 6),
+            20_000,
+            8,
+        ),
+        (
+            "trace_tfim3",
+            campaign(
+                &tfim(3, 1.0, 0.6, 0.25),
+                &["+0r", "1-l", "r+0", "l1-", "0r+", "-l1"],
+                Kind::Trace,
+                0.3,
+                16,
+            ),
+            4_000,
+            9,
+        ),
+    ];
+    specs
+        .into_iter()
+        .map(|(name, camp, shots, seed)| {
+            let c = camp.sample(shots, seed);
+            let ids: Vec<&str> = camp.plan.circuits.iter().map(|c| c.id.as_str()).collect();
+            let counts_text = counts::to_json(&ids, &c.circuits, Some(shots));
+            (name, camp.plan.to_json(), counts_text)
+        })
+        .collect()
+}
+
+#[test]
+fn fixtures_are_current() {
+    let bless = std::env::var_os("BLESS").is_some();
+    for (name, plan, counts) in fixtures() {
+        let dir = data_dir(name);
+        if bless {
+            std::fs::create_dir_all(&dir).unwrap();
+            std::fs::write(dir.join("plan.json"), &plan).unwrap();
+            std::fs::write(dir.join("counts.json"), &counts).unwrap();
+        }
+        let on_disk = std::fs::read_to_string(dir.join("plan.json")).unwrap();
+        assert_eq!(
+            on_disk, plan,
+            "{name}/plan.json is stale: rerun with BLESS=1"
+        );
+        let on_disk = std::fs::read_to_string(dir.join("counts.json")).unwrap();
+        assert_eq!(
+            on_disk, counts,
+            "{name}/counts.json is stale: rerun with BLESS=1"
+        );
+    }
+}
+
+fn estimate(dir: &str, extra: &[&str]) -> assert_cmd::assert::Assert {
+    let d = data_dir(dir);
+    Command::cargo_bin("phasewright")
+        .unwrap()
+        .arg("estimate")
+        .arg(&d)
+        .arg("--counts")
+        .arg(d.join("counts.json"))
+        .args(extra)
+        .assert()
+}
+
+fn json_of(dir: &str, extra: &[&str]) -> serde_json::Value {
+    let mut args = vec!["--json"];
+    args.extend_from_slice(extra);
+    let out = estimate(dir, &args).success().get_output().stdout.clone();
+    serde_json::from_slice(&out).expect("--json prints JSON")
+}
+
+#[test]
+fn krylov_table_lists_every_dimension_beside_the_pencil_and_the_exact_value() {
+    let out = estimate("krylov_tfim3", &["--bootstrap", "50"]).success();
+    let text = String::from_utf8(out.get_output().stdout.clone()).unwrap();
+    assert!(text.contains("krylov plan: K = 5 time points"), "{text}");
+    for d in 1..=5 {
+        assert!(
+            text.lines()
+                .any(|l| l.trim_start().starts_with(&format!("{d}  "))),
+            "row {d} missing:\n{text}"
+        );
+    }
+    assert!(text.contains("exact ground energy"));
+    assert!(text.contains("Hua & Sarkar 1990"));
+    assert!(text.contains("validate against trusted methods"));
+}
+
+#[test]
+fn krylov_json_is_close_to_the_exact_ground_energy() {
+    let v = json_of("krylov_tfim3", &["--bootstrap", "100"]);
+    assert_eq!(v["format"], "phasewright-estimate/1");
+    assert_eq!(v["family"], "krylov");
+    let rows = v["energies"].as_array().unwrap();
+    assert_eq!(rows.len(), 5);
+    let exact = v["exact"].as_f64().unwrap();
+    // Reference: dense diagonalisation of H = −Σ ZZ − 0.7 Σ X + 0.2 on 3 sites.
+    let want = ground_energy(&tfim(3, 1.0, 0.7, 0.2));
+    assert!((exact - want).abs() < 1e-12);
+    let last = &rows[4];
+    let e = last["krylov"].as_f64().unwrap();
+    let se = last["krylov_std_error"].as_f64().unwrap();
+    // 20000 shots: the estimate lies within 4 bootstrap σ plus the noiseless Krylov bias
+    // (≤ 1e-2 at K = 5 for this chain, from the exact series at the same threshold).
+    assert!(se > 0.0 && se < 0.05, "σ = {se}");
+    assert!((e - want).abs() < 4.0 * se + 1e-2, "{e} vs {want} ± {se}");
+}
+
+#[test]
+fn bit_order_last_reads_reversed_bitstrings_identically() {
+    let d = data_dir("krylov_tfim3");
+    let text = std::fs::read_to_string(d.join("counts.json")).unwrap();
+    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let counts = v["counts"].as_object_mut().unwrap();
+    for (_, per) in counts.iter_mut() {
+        let m = per.as_object().unwrap().clone();
+        let rev: serde_json::Map<String, serde_json::Value> = m
+            .into_iter()
+            .map(|(k, n)| (k.chars().rev().collect(), n))
+            .collect();
+        *per = serde_json::Value::Object(rev);
+    }
+    v.as_object_mut().unwrap().remove("bit_order");
+    let tmp = tempfile::tempdir().unwrap();
+    let rev_path = tmp.path().join("reversed.json");
+    std::fs::write(&rev_path, serde_json::to_string(&v).unwrap()).unwrap();
+    let run = |counts: &Path, extra: &[&str]| {
+        let out = Command::cargo_bin("phasewright")
+            .unwrap()
+            .arg("estimate")
+            .arg(&d)
+            .arg("--counts")
+            .arg(counts)
+            .args(["--json", "--bootstrap", "20"])
+            .args(extra)
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        let mut j: serde_json::Value = serde_json::from_slice(&out).unwrap();
+        j.as_object_mut().unwrap().remove("bit_order");
+        j
+    };
+    let a = run(&d.join("counts.json"), &[]);
+    let b = run(&rev_path, &["--bit-order", "last"]);
+    assert_eq!(a, b);
+    // Read with the wrong convention, the answer changes (the flag is not ignored).
+    let c = run(&rev_path, &[]);
+    assert_ne!(a, c);
+}
+
+#[test]
+fn plot_writes_an_svg_with_energies_and_exact_line() {
+    let tmp = tempfile::tempdir().unwrap();
+    let svg = tmp.path().join("e.svg");
+    estimate(
+        "krylov_tfim3",
+        &["--bootstrap", "20", "--plot", svg.to_str().unwrap()],
+    )
+    .success();
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(text.starts_with("<svg"), "{}", &text[..60.min(text.len())]);
+    assert!(text.contains("Krylov dimension"));
+    assert!(text.contains("exact"));
+    assert!(text.contains("matrix pencil"));
+}
+
+#[test]
+fn overlap_plan_uses_the_overlap_only_krylov_variant() {
+    let v = json_of("overlap_heis4", &["--bootstrap", "30", "--exact", "-6.0"]);
+    assert_eq!(v["krylov_method"], "toeplitz-sine-s");
+    let rows = v["energies"].as_array().unwrap();
+    assert_eq!(rows.len(), 6);
+    assert!(rows[5]["krylov"].is_null(), "d = K needs S_K");
+    assert!(rows[4]["krylov"].is_f64());
+    assert_eq!(v["exact"].as_f64(), Some(-6.0));
+    assert_eq!(v["exact_source"], "--exact");
+}
+
+#[test]
+fn trace_plan_prints_the_dos_with_resolution_and_quadrature() {
+    let tmp = tempfile::tempdir().unwrap();
+    let svg = tmp.path().join("dos.svg");
+    let out = estimate("trace_tfim3", &["--plot", svg.to_str().unwrap()]).success();
+    let text = String::from_utf8(out.get_output().stdout.clone()).unwrap();
+    assert!(text.contains("resolution limit π/(K·dt)"), "{text}");
+    assert!(text.contains("quadrature: rectangle rule"));
+    assert!(text.contains("spread over the random states"));
+    let svg_text = std::fs::read_to_string(&svg).unwrap();
+    assert!(svg_text.contains("Density of states"));
+    let v = json_of("trace_tfim3", &["--sigma", "0.5"]);
+    assert_eq!(v["sigma"].as_f64(), Some(0.5));
+    let dos = v["dos"].as_array().unwrap();
+    assert_eq!(dos.len(), phasewright::estimate::DEFAULT_DOS_POINTS);
+    // Within the band plus the quadrature bound at most energies (random states: 6 only, so
+    // the band itself is a rough estimate; require 80%).
+    let inside = dos
+        .iter()
+        .filter(|p| {
+            let (r, se, b, ex) = (
+                p["density"].as_f64().unwrap(),
+                p["std_error"].as_f64().unwrap(),
+                p["quadrature_bound"].as_f64().unwrap(),
+                p["exact"].as_f64().unwrap(),
+            );
+            (r - ex).abs() <= 2.0 * se + b
+        })
+        .count();
+    assert!(
+        inside as f64 >= 0.8 * dos.len() as f64,
+        "{inside}/{}",
+        dos.len()
+    );
+}
+
+fn run_with_counts(dir: &str, counts_text: &str) -> (i32, String) {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = tmp.path().join("counts.json");
+    std::fs::write(&p, counts_text).unwrap();
+    let out = Command::cargo_bin("phasewright")
+        .unwrap()
+        .arg("estimate")
+        .arg(data_dir(dir))
+        .arg("--counts")
+        .arg(&p)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap(),
+        String::from_utf8(out.stderr).unwrap(),
+    )
+}
+
+#[test]
+fn bad_counts_exit_2_with_a_diagnostic_naming_the_circuit() {
+    let good = std::fs::read_to_string(data_dir("overlap_heis4").join("counts.json")).unwrap();
+    // Unknown circuit id.
+    let bad = good.replacen("\"k01_im\"", "\"k01_imag\"", 1);
+    let (code, err) = run_with_counts("overlap_heis4", &bad);
+    assert_eq!(code, 2);
+    assert!(err.contains("unknown circuit `k01_imag`"), "{err}");
+    assert!(err.contains("counts.json:"), "position missing: {err}");
+    assert!(err.contains("has no counts: `k01_im`"), "{err}");
+    // The first bitstring of the first circuit (ids and bitstrings are written sorted).
+    let v: serde_json::Value = serde_json::from_str(&good).unwrap();
+    let (first_id, first) = v["counts"].as_object().unwrap().iter().next().unwrap();
+    let key = first.as_object().unwrap().keys().next().unwrap().clone();
+    let pat = format!("\"{key}\": ");
+    // Wrong length.
+    let bad = good.replacen(&pat, &format!("\"{}\": ", &key[1..]), 1);
+    let (code, err) = run_with_counts("overlap_heis4", &bad);
+    assert_eq!(code, 2);
+    assert!(err.contains("has 4 bits, expected 5"), "{err}");
+    assert!(err.contains(&format!("circuit `{first_id}`")), "{err}");
+    assert!(err.contains('^'), "caret missing: {err}");
+    // Non-JSON.
+    let (code, err) = run_with_counts("overlap_heis4", "{\"format\": ");
+    assert_eq!(code, 2);
+    assert!(err.contains("not valid JSON"), "{err}");
+    // Zero count.
+    let bad = good.replacen(&pat, &format!("{pat}0, \"{key}x\": "), 1);
+    let (code, err) = run_with_counts("overlap_heis4", &bad);
+    assert_eq!(code, 2);
+    assert!(err.contains("a zero count"), "{err}");
+    assert!(err.contains("contains `x`"), "{err}");
+}
+
+#[test]
+fn help_states_the_bit_order_an_example_and_the_caution() {
+    let out = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args(["estimate", "--help"])
+        .assert()
+        .success();
+    let text = String::from_utf8(out.get_output().stdout.clone()).unwrap();
+    assert!(text.contains("phasewright estimate campaign/ --counts counts.json"));
+    assert!(text.contains("classical bit 0"));
+    assert!(text.contains("validate against"));
+}
