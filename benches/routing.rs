@@ -8,8 +8,8 @@
 //! - `ratio`: two-qubit gates after routing and lowering ÷ two-qubit gates of the same circuit
 //!   on an all-to-all device (same lowering and cancellation);
 //! - `swaps`: SWAPs inserted;
-//! - `base`: SWAPs with the lookahead window, layout trials and refinement turned off (the
-//!   greedy layout and a front-only score), for scale;
+//! - `base`: SWAPs with the lookahead window, the random layout trials and the bidirectional
+//!   refinement turned off (one annealed greedy layout, a front-only score), for scale;
 //! - `plain`: the same ratio and SWAPs for the uncontrolled evolution (no ancilla);
 //! - `ms`: wall time of `plan_target` + `to_device` for the Hadamard test.
 //!

@@ -191,7 +191,9 @@ fn arbitrary_bytes_never_panic() {
         "",
         "qubits 99999999999999999999\n",
         "qubits 5000\nnative rz sx cx\n",
+        "qubits 0\nnative rz sx cx\n",
         "lattice full 100000\nnative rz sx cx\n",
+        "lattice full 2000\nnative rz sx cx\n",
         "native rz sx cx\r\nlattice line 3\r\n",
         "nätive rz\n",
         "error\n",
@@ -202,4 +204,84 @@ fn arbitrary_bytes_never_panic() {
         let _ = parse_device("fuzz.dev", src);
     }
     assert!(parse_device("crlf.dev", "native rz sx cx\r\nlattice line 3\r\n").is_ok());
+    let d = one_error("lattice full 2000\nnative rz sx cx\n");
+    assert!(d.message.contains("1999000 couplings"), "{}", d.message);
+    let d = one_error("qubits 0\nnative rz sx cx\n");
+    assert!(d.message.contains("at least one qubit"));
+}
+
+#[test]
+fn the_rendered_diagnostic_matches_grammar_device_md() {
+    let e = parse_device("chip.dev", &format!("{GOOD_HEAD}link 2 6\n")).unwrap_err();
+    assert_eq!(
+        e[0].to_string(),
+        "error: chip.dev:4:8: qubit 6 does not exist (the device has 6 qubits)\n  |\n4 | link 2 6\n  |        ^\nhint: qubits are numbered from 0; declare more with `qubits N`\n"
+    );
+}
+
+mod fuzz {
+    use super::*;
+    use proptest::prelude::*;
+
+    const WORDS: &[&str] = &[
+        "qubits",
+        "native",
+        "lattice",
+        "link",
+        "cut",
+        "error",
+        "time",
+        "name",
+        "readout",
+        "measure",
+        "grid",
+        "line",
+        "ring",
+        "brickwall",
+        "full",
+        "rz",
+        "sx",
+        "x",
+        "cx",
+        "cz",
+        "U",
+        "u",
+        "h",
+        "0",
+        "1",
+        "3",
+        "12",
+        "2048",
+        "400",
+        "99999999999",
+        "0.5",
+        "-1",
+        "1e-3",
+        "2-3",
+        "3-3",
+        "300ns",
+        "1.5us",
+        "ms",
+        "#",
+        "-",
+        ".",
+        "\t",
+        "é",
+    ];
+
+    proptest! {
+        #[test]
+        fn random_token_soup_never_panics(lines in proptest::collection::vec(
+            proptest::collection::vec(0usize..WORDS.len(), 0..6), 0..8)) {
+            let src: String = lines
+                .iter()
+                .map(|l| l.iter().map(|&i| WORDS[i]).collect::<Vec<_>>().join(" "))
+                .collect::<Vec<_>>()
+                .join("\n");
+            match parse_device("soup.dev", &src) {
+                Ok(d) => prop_assert!(d.num_qubits as u64 <= phasewright::lang::dev::MAX_DEVICE_QUBITS),
+                Err(ds) => prop_assert!(!ds.is_empty()),
+            }
+        }
+    }
 }

@@ -26,7 +26,11 @@ use nom::IResult;
 use std::collections::{BTreeMap, BTreeSet};
 
 /// Largest device the language accepts (the all-pairs distance table grows as the square).
-pub const MAX_DEVICE_QUBITS: u64 = 4096;
+pub const MAX_DEVICE_QUBITS: u64 = 2048;
+
+/// Most couplings a device may have (breadth-first search from every qubit costs
+/// qubits × couplings).
+pub const MAX_DEVICE_LINKS: usize = 65_536;
 
 /// A syntax error: where, and what was expected there (the innermost `context`).
 #[derive(Debug)]
@@ -307,7 +311,9 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     cx.err(text.trim(), "`qubits` is given twice", None);
                 }
                 if let Some(v) = cx.uint(n, "qubit count") {
-                    if v as u64 > MAX_DEVICE_QUBITS {
+                    if v == 0 {
+                        cx.err(n, "a device needs at least one qubit", None);
+                    } else if v as u64 > MAX_DEVICE_QUBITS {
                         cx.err(
                             n,
                             format!("{v} qubits is more than phasewright handles"),
@@ -449,8 +455,20 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             }
         }
     }
-    let any_lattice = stmts.iter().any(|(_, s)| matches!(s, Stmt::Lattice(..)));
-    if size == 0 && declared.is_none() && !syntax_errors && !any_lattice {
+    if couplings.len() > MAX_DEVICE_LINKS {
+        cx.diags.push(Diagnostic::whole_file(
+            cx.file,
+            format!(
+                "the device has {} couplings, more than phasewright handles",
+                couplings.len()
+            ),
+            Some(format!("at most {MAX_DEVICE_LINKS} couplings")),
+        ));
+    }
+    let size_given = stmts
+        .iter()
+        .any(|(_, s)| matches!(s, Stmt::Lattice(..) | Stmt::Qubits(..)));
+    if size == 0 && declared.is_none() && !syntax_errors && !size_given {
         cx.diags.push(Diagnostic::whole_file(
             cx.file,
             "the device declares no qubits",

@@ -21,6 +21,9 @@
 //!   `max(decay(a), decay(b)) · ( mean_front d + w · mean_window d )`, with `d` the hop distance
 //!   between a gate's two qubits after the SWAP; the lowest score wins, ties broken by a seeded
 //!   random draw (so the pass is deterministic for a given seed);
+//! - optionally, a *hub* qubit (the Hadamard-test ancilla, which meets every rotation) has the
+//!   score of its own SWAPs multiplied by a factor below 1, so the ancilla travels to the terms
+//!   rather than the terms being dragged out of their places to the ancilla;
 //! - `decay` grows by `decay_step` on both qubits of each chosen SWAP and is reset after
 //!   `decay_reset` SWAPs or whenever a two-qubit gate runs; it steers successive SWAPs onto
 //!   different qubits, so they can run in parallel rather than serialising on one qubit;
@@ -50,6 +53,9 @@ pub struct SwapParams {
     /// SWAPs without a two-qubit gate running before the shortest-path guard steps in
     /// (`None`: the device size, at least 8).
     pub stall_limit: Option<usize>,
+    /// A logical qubit whose own moves are preferred (score × `hub_factor`).
+    pub hub: Option<u32>,
+    pub hub_factor: f64,
 }
 
 /// The routed circuit (still with `swap` gates), the final layout and the SWAP count.
@@ -248,8 +254,14 @@ impl Router<'_> {
         let mut best = f64::INFINITY;
         let mut ties: Vec<(u32, u32)> = Vec::new();
         for &(a, b) in &candidates {
-            let h = self.decay[a as usize].max(self.decay[b as usize])
+            let mut h = self.decay[a as usize].max(self.decay[b as usize])
                 * (mean(&front, a, b) + self.p.extended_weight * mean(&window, a, b));
+            if let Some(hub) = self.p.hub {
+                let hp = self.layout.l2p[hub as usize];
+                if a == hp || b == hp {
+                    h *= self.p.hub_factor;
+                }
+            }
             if h < best - 1e-12 {
                 best = h;
                 ties.clear();
@@ -402,6 +414,8 @@ mod tests {
             decay_reset: 5,
             seed: 3,
             stall_limit,
+            hub: None,
+            hub_factor: 1.0,
         }
     }
 
