@@ -3,7 +3,9 @@
 Writes an FCIDUMP file for LiH (STO-3G, bond length 1.6 angstrom, restricted Hartree-Fock
 orbitals) into the folder given as the first argument and prints one JSON line with the
 Hartree-Fock, full-CI and frozen-core CASCI (orbitals 2-6, 2 electrons) total energies in
-hartree. Exits with status 3 when PySCF is not importable.
+hartree. Also writes an FCIDUMP for H2 (STO-3G, 0.74 angstrom) with its Hartree-Fock and
+full-CI energies (keys h2_*), for the end-to-end rehearsal test. Exits with status 3 when PySCF
+is not importable.
 """
 import json
 import os
@@ -31,7 +33,19 @@ def main() -> None:
     cas = mcscf.CASCI(mf, 5, 2)
     cas.fcisolver.conv_tol = 1e-12
     e_cas = cas.kernel()[0]
+    h2 = gto.M(atom="H 0 0 0; H 0 0 0.74", unit="Angstrom", basis="sto-3g", verbose=0)
+    mf2 = scf.RHF(h2)
+    mf2.conv_tol = 1e-12
+    mf2.kernel()
+    h2_path = os.path.join(out_dir, "h2_sto3g.fcidump")
+    fcidump.from_scf(mf2, h2_path, tol=0.0)
+    cis2 = fci.FCI(mf2)
+    cis2.conv_tol = 1e-12
+    e2_fci = cis2.kernel()[0]
     print(json.dumps({
+        "h2_fcidump": h2_path,
+        "h2_e_hf": float(mf2.e_tot),
+        "h2_e_fci": float(e2_fci),
         "fcidump": path,
         "norb": int(mol.nao_nr()),
         "nelec": int(mol.nelectron),
