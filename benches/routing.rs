@@ -88,7 +88,7 @@ fn circuit(h: &PauliSum, plan: &TargetPlan, ancilla: bool) -> Circuit {
     if let Some(a) = anc {
         c.push(Gate::H(a));
     }
-    for r in evolution(&order_terms(h), Order::Strang, 0.2, 2) {
+    for r in evolution(&order_terms(h), Order::Second, 0.2, 2) {
         c.extend(pauli_rotation_along(&r, anc, &plan.ladder(&r)));
     }
     if let Some(a) = anc {

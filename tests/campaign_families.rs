@@ -46,7 +46,7 @@ fn krylov_elements_from_the_circuits_rebuild_s_and_h() {
     let state = "01+0r1".to_string();
     let spec = Spec {
         family: Family::Krylov,
-        order: Order::Strang,
+        order: Order::Second,
         dt: 0.15,
         points: 4,
         steps_per_dt: 2,
@@ -157,7 +157,7 @@ fn grouping_is_no_worse_than_one_term_per_circuit_and_deterministic() {
 fn local_overlap(h: &PauliSum, state: &str, t: f64) -> Complex64 {
     let psi = prepared(state);
     let mut s = psi.clone();
-    apply_program(&mut s, &evolution(&order_terms(h), Order::Strang, t, 2));
+    apply_program(&mut s, &evolution(&order_terms(h), Order::Second, t, 2));
     psi.inner(&s)
 }
 
@@ -181,7 +181,7 @@ fn random_state_trace_estimator_is_unbiased_with_the_predicted_spread() {
     let t = 0.9;
     // The full unitary of the product formula, column by column.
     let dim = 1usize << n;
-    let program = evolution(&order_terms(&h), Order::Strang, t, 2);
+    let program = evolution(&order_terms(&h), Order::Second, t, 2);
     let mut u = vec![vec![Complex64::new(0.0, 0.0); dim]; dim]; // u[row][col]
     for col in 0..dim {
         let mut v = State::zero(n);
@@ -264,7 +264,7 @@ fn trace_campaign_lists_its_states_and_each_is_exact() {
     let states = random_states(6, 4, 11);
     let spec = Spec {
         family: Family::Trace,
-        order: Order::LieTrotter,
+        order: Order::First,
         dt: 0.2,
         points: 3,
         steps_per_dt: 1,

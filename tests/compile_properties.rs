@@ -49,11 +49,7 @@ fn case() -> impl Strategy<Value = (PauliSum, String, Order, usize, f64, Family)
                 Just(n),
                 proptest::collection::vec((any::<u64>(), any::<u64>(), -2.0f64..2.0), 1..10),
                 state_strategy(n),
-                prop_oneof![
-                    Just(Order::LieTrotter),
-                    Just(Order::Strang),
-                    Just(Order::Suzuki4)
-                ],
+                prop_oneof![Just(Order::First), Just(Order::Second), Just(Order::Fourth)],
                 1usize..3,
                 0.05f64..0.6,
                 prop_oneof![Just(Family::Overlap), Just(Family::Krylov)],

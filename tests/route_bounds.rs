@@ -41,7 +41,7 @@ fn heisenberg_chain(n: usize) -> PauliSum {
 fn plain_evolution(h: &PauliSum, plan: &TargetPlan, steps: usize) -> Circuit {
     let n = h.num_qubits;
     let mut c = Circuit::new(n, n);
-    for r in evolution(&order_terms(h), Order::Strang, 1.0, steps) {
+    for r in evolution(&order_terms(h), Order::Second, 1.0, steps) {
         c.extend(pauli_rotation_along(&r, None, &plan.ladder(&r)));
     }
     for q in 0..n as Qubit {
@@ -239,7 +239,7 @@ fn written_files_use_coupled_pairs_physical_qubits_and_native_gates_only() {
         let anc = 5 as Qubit;
         let mut c = Circuit::new(6, 1);
         c.extend([Gate::H(0), Gate::X(2), Gate::H(anc)]);
-        for r in evolution(&order_terms(&h), Order::LieTrotter, 0.5, 2) {
+        for r in evolution(&order_terms(&h), Order::First, 0.5, 2) {
             c.extend(pauli_rotation_along(&r, Some(anc), &plan.ladder(&r)));
         }
         c.extend([Gate::Sdg(anc), Gate::H(anc), Gate::Measure(anc, 0)]);

@@ -94,7 +94,7 @@ fn hadamard_test(
         }
     }
     c.push(Gate::H(anc));
-    let program = evolution(&order_terms(h), Order::Strang, 0.7, 1);
+    let program = evolution(&order_terms(h), Order::Second, 0.7, 1);
     for r in &program {
         c.extend(pauli_rotation_along(r, Some(anc), &plan.ladder(r)));
     }

@@ -29,26 +29,29 @@ pub struct Rotation {
 /// Product-formula order.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum Order {
-    LieTrotter,
-    Strang,
-    Suzuki4,
+    /// Lie–Trotter.
+    First,
+    /// Strang (symmetric).
+    Second,
+    /// Suzuki's fourth-order recursion.
+    Fourth,
 }
 
 impl Order {
     pub fn from_number(k: u32) -> Option<Order> {
         match k {
-            1 => Some(Order::LieTrotter),
-            2 => Some(Order::Strang),
-            4 => Some(Order::Suzuki4),
+            1 => Some(Order::First),
+            2 => Some(Order::Second),
+            4 => Some(Order::Fourth),
             _ => None,
         }
     }
 
     pub fn number(self) -> u32 {
         match self {
-            Order::LieTrotter => 1,
-            Order::Strang => 2,
-            Order::Suzuki4 => 4,
+            Order::First => 1,
+            Order::Second => 2,
+            Order::Fourth => 4,
         }
     }
 }
@@ -104,7 +107,7 @@ fn strang(terms: &[(PauliString, f64)], dt: f64, out: &mut Vec<Rotation>) {
 /// Appends one step `S(dt)` of the given order.
 pub fn step(terms: &[(PauliString, f64)], order: Order, dt: f64, out: &mut Vec<Rotation>) {
     match order {
-        Order::LieTrotter => {
+        Order::First => {
             for &(p, c) in terms {
                 push_merged(
                     out,
@@ -115,8 +118,8 @@ pub fn step(terms: &[(PauliString, f64)], order: Order, dt: f64, out: &mut Vec<R
                 );
             }
         }
-        Order::Strang => strang(terms, dt, out),
-        Order::Suzuki4 => {
+        Order::Second => strang(terms, dt, out),
+        Order::Fourth => {
             let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
             for f in [p, p, 1.0 - 4.0 * p, p, p] {
                 strang(terms, f * dt, out);
@@ -199,9 +202,9 @@ mod tests {
         // it by about 2^p. Checked over several r with a loose band around the asymptotic ratio.
         let h = tfim(5, 1.0, 0.8);
         for (order, want) in [
-            (Order::LieTrotter, 2.0),
-            (Order::Strang, 4.0),
-            (Order::Suzuki4, 16.0),
+            (Order::First, 2.0),
+            (Order::Second, 4.0),
+            (Order::Fourth, 16.0),
         ] {
             for r in [4usize, 8, 16] {
                 let ratio = trotter_error(&h, order, 1.0, r) / trotter_error(&h, order, 1.0, 2 * r);
@@ -225,15 +228,15 @@ mod tests {
             -0.4,
         );
         h.add(PauliString::single(2, Pauli::Z), 0.3);
-        assert!(trotter_error(&h, Order::LieTrotter, 2.0, 1) < 1e-14);
+        assert!(trotter_error(&h, Order::First, 2.0, 1) < 1e-14);
     }
 
     #[test]
     fn strang_steps_merge_their_boundary_rotations() {
         let h = tfim(3, 1.0, 0.5);
         let terms = order_terms(&h);
-        let one = evolution(&terms, Order::Strang, 1.0, 1).len();
-        let three = evolution(&terms, Order::Strang, 1.0, 3).len();
+        let one = evolution(&terms, Order::Second, 1.0, 1).len();
+        let three = evolution(&terms, Order::Second, 1.0, 3).len();
         // 2L−1 rotations per step, and one more merge at each of the two step boundaries.
         assert_eq!(one, 2 * terms.len() - 1);
         assert_eq!(three, 3 * (2 * terms.len() - 1) - 2);

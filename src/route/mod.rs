@@ -228,7 +228,7 @@ pub struct Routed {
 fn skeleton(h: &PauliSum, plan: &TargetPlan) -> Circuit {
     let n = plan.initial_layout.len();
     let mut rotations = Vec::new();
-    step(&order_terms(h), Order::Strang, 1.0, &mut rotations);
+    step(&order_terms(h), Order::Second, 1.0, &mut rotations);
     let mut c = Circuit::new(n, 0);
     if let Some(a) = plan.ancilla {
         c.push(Gate::H(a));
