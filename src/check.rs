@@ -43,20 +43,10 @@ pub struct CircuitCheck {
     pub trotter_error: f64,
 }
 
-/// Rebuilds the compiled Hamiltonian (without its constant) from the plan.
+/// The compiled Hamiltonian: the plan's terms without the constant, which is never a gate.
 pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
-    let mut h = PauliSum::new(plan.hamiltonian.num_qubits);
-    for t in &plan.hamiltonian.terms {
-        let p = PauliString::parse_factor_text(&t.pauli)
-            .ok_or_else(|| format!("plan.json: bad Pauli string `{}`", t.pauli))?;
-        if p.span() > h.num_qubits {
-            return Err(format!(
-                "plan.json: term `{}` exceeds {} qubits",
-                t.pauli, h.num_qubits
-            ));
-        }
-        h.add(p, t.coeff);
-    }
+    let mut h = plan.pauli_sum()?;
+    h.constant = 0.0;
     Ok(h)
 }
 

@@ -236,16 +236,20 @@ impl Circuit {
     /// the map `new index → old index`. Untouched qubits stay in |0⟩ and never affect the result,
     /// so simulating the compact circuit is exact; it keeps device-sized circuits small.
     pub fn compacted(&self) -> (Circuit, Vec<Qubit>) {
-        let mut used = vec![false; self.num_qubits];
-        for g in &self.gates {
-            for q in g.qubits() {
-                used[q as usize] = true;
-            }
-        }
-        let old: Vec<Qubit> = (0..self.num_qubits as Qubit)
-            .filter(|&q| used[q as usize])
+        self.compacted_keeping(&[])
+    }
+
+    /// As [`Circuit::compacted`], also keeping the qubits in `keep` (touched or not).
+    pub fn compacted_keeping(&self, keep: &[Qubit]) -> (Circuit, Vec<Qubit>) {
+        let set: std::collections::BTreeSet<Qubit> = self
+            .gates
+            .iter()
+            .flat_map(|g| g.qubits())
+            .chain(keep.iter().copied())
             .collect();
-        let mut new_of = vec![0; self.num_qubits];
+        let old: Vec<Qubit> = set.into_iter().collect();
+        let mut new_of =
+            vec![Qubit::MAX; self.num_qubits.max(1 + *old.last().unwrap_or(&0) as usize)];
         for (i, &q) in old.iter().enumerate() {
             new_of[q as usize] = i as Qubit;
         }

@@ -27,7 +27,7 @@ pub mod overlap_only;
 pub mod resample;
 
 use crate::family::plan::{Family, Plan};
-use crate::pauli::{Pauli, PauliString, PauliSum};
+use crate::pauli::PauliSum;
 use counts::CountsFile;
 use expect::{ReadTable, Series};
 use num_complex::Complex64;
@@ -540,36 +540,9 @@ pub fn small_hamiltonian(plan: &Plan) -> Option<PauliSum> {
     plan_hamiltonian(plan).ok()
 }
 
-/// Rebuilds `H` from the plan's term list (`X0 Y1 Z3` text, qubit 0 first).
+/// Rebuilds `H` (constant included) from the plan's term list.
 pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
-    let n = plan.hamiltonian.num_qubits;
-    let mut h = PauliSum::new(n);
-    h.constant = plan.hamiltonian.constant;
-    for t in &plan.hamiltonian.terms {
-        let mut factors = Vec::new();
-        for tok in t.pauli.split_whitespace() {
-            let (letter, idx) = tok.split_at(1);
-            let p = match letter {
-                "X" => Pauli::X,
-                "Y" => Pauli::Y,
-                "Z" => Pauli::Z,
-                "I" if idx.is_empty() => continue,
-                _ => return Err(format!("cannot read term `{}`", t.pauli)),
-            };
-            let q: usize = idx
-                .parse()
-                .ok()
-                .filter(|&q| q < n)
-                .ok_or_else(|| format!("cannot read term `{}`", t.pauli))?;
-            factors.push((q, p));
-        }
-        let (phase, p) = PauliString::from_factors(&factors);
-        if (phase - Complex64::new(1.0, 0.0)).norm() > 1e-12 {
-            return Err(format!("term `{}` is not Hermitian as written", t.pauli));
-        }
-        h.add(p, t.coeff);
-    }
-    Ok(h)
+    plan.pauli_sum()
 }
 
 /// Map from a family to its name in plan.json.

@@ -160,6 +160,23 @@ impl From<Counts> for Costs {
 }
 
 impl Plan {
+    /// The Hamiltonian rebuilt from `hamiltonian.terms` (sparse `X0 Y1 Z3` text) with its
+    /// identity coefficient as `constant`. Errors name the term that does not read back.
+    pub fn pauli_sum(&self) -> Result<crate::pauli::PauliSum, String> {
+        let n = self.hamiltonian.num_qubits;
+        let mut h = crate::pauli::PauliSum::new(n);
+        h.constant = self.hamiltonian.constant;
+        for t in &self.hamiltonian.terms {
+            let p = crate::pauli::PauliString::parse_factor_text(&t.pauli)
+                .filter(|p| p.span() <= n)
+                .ok_or_else(|| {
+                    format!("plan.json: cannot read term `{}` on {n} qubits", t.pauli)
+                })?;
+            h.add(p, t.coeff);
+        }
+        Ok(h)
+    }
+
     pub fn to_json(&self) -> String {
         serde_json::to_string_pretty(self).expect("plan serialises") + "\n"
     }

@@ -10,46 +10,15 @@
 //! check is an exact unitary equality on the logical subspace), otherwise 8 seeded random states.
 
 use super::Routed;
-use crate::circuit::{Circuit, Qubit};
+use crate::circuit::Circuit;
 use crate::sim::{run, State};
 use num_complex::Complex64;
 use rand::{Rng, SeedableRng};
-use std::collections::BTreeSet;
 
 /// Relabels a physical circuit onto the qubits it touches, ascending: returns the circuit on
-/// `0..k` and `new → physical`.
+/// `0..k` and `new → physical` (see [`Circuit::compacted`]).
 pub fn compact(c: &Circuit) -> (Circuit, Vec<u32>) {
-    compact_keeping(c, &[])
-}
-
-/// As [`compact`], also keeping the qubits in `keep` (touched or not).
-pub fn compact_keeping(c: &Circuit, keep: &[u32]) -> (Circuit, Vec<u32>) {
-    let set: BTreeSet<Qubit> = c
-        .gates
-        .iter()
-        .flat_map(|g| g.qubits())
-        .chain(keep.iter().copied())
-        .collect();
-    let new_to_phys: Vec<u32> = set.into_iter().collect();
-    let mut phys_to_new = vec![
-        u32::MAX;
-        c.num_qubits
-            .max(1 + *new_to_phys.last().unwrap_or(&0) as usize)
-    ];
-    for (i, &p) in new_to_phys.iter().enumerate() {
-        phys_to_new[p as usize] = i as u32;
-    }
-    let out = Circuit {
-        num_qubits: new_to_phys.len(),
-        num_clbits: c.num_clbits,
-        gates: c
-            .gates
-            .iter()
-            .map(|g| g.map_qubits(|q| phys_to_new[q as usize]))
-            .collect(),
-        global_phase: c.global_phase,
-    };
-    (out, new_to_phys)
+    c.compacted()
 }
 
 /// Largest simulated qubit count this check accepts.
@@ -93,7 +62,7 @@ pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> 
         .chain(&routed.final_layout)
         .copied()
         .collect();
-    let (cc, new_to_phys) = compact_keeping(&routed.circuit, &keep);
+    let (cc, new_to_phys) = routed.circuit.compacted_keeping(&keep);
     if cc.num_qubits > MAX_CHECK_QUBITS {
         return Err(format!(
             "the routed circuit touches {} qubits; the check simulates at most {MAX_CHECK_QUBITS}",
