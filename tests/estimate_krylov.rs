@@ -133,16 +133,18 @@ fn sampled_errors(h: &phasewright::pauli::PauliSum, st: &str, dt: f64, seeds: u6
 #[test]
 fn tfim8_and_heisenberg6_at_a_million_shots() {
     // Measured with the default threshold σ̄·d at dt = 0.3, K = 10, 10⁶ shots per circuit
-    // (tests/estimate_support campaigns, exact evolution, qubit-wise commuting term groups).
-    // Observed errors: transverse-field Ising (J = h = 1, |+…+⟩) +0.6e-2…+1.9e-2, Heisenberg
-    // (J = 1, Néel) −0.4e-2…+1.7e-2. The noiseless K = 10 errors at this dt are 7e-3 (Ising)
-    // and 2e-5 (Heisenberg), so 10⁶ shots do not reach 1.6e-3 on these chains; the bound
-    // asserted here (3e-2) is the measured worst case with a 1.5× margin.
+    // (tests/estimate_support campaigns, exact evolution, qubit-wise commuting term groups,
+    // H elements shifted by the reference energy with same-shot ancilla reads). Observed
+    // errors with these *poor* product references: transverse-field Ising at the critical
+    // point (J = h = 1, |+…+⟩) +0.2e-2…+1.4e-2, Heisenberg (J = 1, Néel) −1.2e-2…+0.7e-2.
+    // The noiseless K = 10 errors at this dt are 7e-3 (Ising) and 2e-5 (Heisenberg); the bound
+    // asserted here (2e-2) is the measured worst case with a 1.4× margin. With good
+    // references (paramagnetic chain, dimer state) tests/e2e_energies.rs reaches 1.6e-3.
     let tf = sampled_errors(&tfim(8, 1.0, 1.0, 0.0), "++++++++", 0.3, 4);
     let he = sampled_errors(&heisenberg(6, 1.0, 0.0), "010101", 0.3, 4);
     eprintln!("tfim8 errors {tf:?}\nheisenberg6 errors {he:?}");
     for e in tf.iter().chain(&he) {
-        assert!(e.abs() < 3e-2, "error {e}");
+        assert!(e.abs() < 2e-2, "error {e}");
     }
     // The Ising chain's Krylov energy is variational up to noise: it stays above E0 − 5σ-ish.
     assert!(tf.iter().all(|e| *e > -5e-3));
