@@ -384,3 +384,125 @@ fn written_files_pass_the_reference_parser_and_an_independent_simulation() {
         }
     }
 }
+
+#[test]
+fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("c");
+    stdout_of(
+        phasewright()
+            .args([
+                "compile",
+                "examples/mixed_field4.ham",
+                "--state",
+                "0+1r",
+                "--dt",
+                "0.3",
+                "--points",
+                "3",
+                "--measure",
+                "krylov",
+                "-o",
+            ])
+            .arg(&out),
+    );
+    let r = phasewright()
+        .args(["sample", "--noise"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&r.stderr).contains("--device"));
+    stdout_of(
+        phasewright()
+            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .arg(&out),
+    );
+    let counts: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("counts.json")).unwrap()).unwrap();
+    assert_eq!(counts["format"], "phasewright-counts/1");
+    assert_eq!(counts["bit_order"], "first");
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+    for c in plan["circuits"].as_array().unwrap() {
+        let hist = counts["counts"][c["id"].as_str().unwrap()]
+            .as_object()
+            .unwrap();
+        assert_eq!(
+            hist.values().map(|v| v.as_u64().unwrap()).sum::<u64>(),
+            2000
+        );
+        assert!(hist
+            .keys()
+            .all(|b| b.len() == c["num_clbits"].as_u64().unwrap() as usize));
+    }
+    // Same seed, same bytes.
+    let first = std::fs::read(out.join("counts.json")).unwrap();
+    stdout_of(
+        phasewright()
+            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .arg(&out),
+    );
+    assert_eq!(first, std::fs::read(out.join("counts.json")).unwrap());
+    let text = stdout_of(
+        phasewright()
+            .args(["estimate"])
+            .arg(&out)
+            .arg("--counts")
+            .arg(out.join("counts.json")),
+    );
+    assert!(text.contains("exact ground energy"), "{text}");
+    // With a device, --noise mixes in the uniform distribution with the circuit's estimated
+    // success probability F: the ancilla expectation shrinks to F times the noiseless value.
+    let dev_out = dir.path().join("d");
+    stdout_of(
+        phasewright()
+            .args([
+                "compile",
+                "examples/mixed_field4.ham",
+                "--state",
+                "0+1r",
+                "--dt",
+                "0.3",
+                "--points",
+                "2",
+                "--device",
+                "examples/line8.dev",
+                "-o",
+            ])
+            .arg(&dev_out),
+    );
+    let shots = 400_000.0;
+    stdout_of(
+        phasewright()
+            .args(["sample", "--noise", "--shots", "400000"])
+            .arg(&dev_out),
+    );
+    let noisy: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dev_out.join("counts.json")).unwrap())
+            .unwrap();
+    let hist = &noisy["counts"]["k01-re"];
+    let n0 = hist["0"].as_f64().unwrap_or(0.0);
+    let n1 = hist["1"].as_f64().unwrap_or(0.0);
+    let measured = (n0 - n1) / shots;
+    let v: serde_json::Value = serde_json::from_str(&stdout_of(
+        phasewright().args(["verify", "--json"]).arg(&dev_out),
+    ))
+    .unwrap();
+    let ideal = v["circuits"][0]["reads"][0]["simulated"].as_f64().unwrap();
+    let dplan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dev_out.join("plan.json")).unwrap()).unwrap();
+    let f = dplan["circuits"][0]["costs"]["success_probability"]
+        .as_f64()
+        .unwrap();
+    assert!(
+        f < 0.99,
+        "the example device has non-trivial errors (F = {f})"
+    );
+    // Binomial standard error ≤ 1/√shots; 5σ band.
+    assert!(
+        (measured - f * ideal).abs() < 5.0 / shots.sqrt(),
+        "{measured} vs F·ideal = {}",
+        f * ideal
+    );
+}

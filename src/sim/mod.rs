@@ -384,6 +384,16 @@ mod tests {
     }
 
     #[test]
+    fn circuits_too_large_for_memory_are_refused_with_the_size_needed() {
+        assert!(check_fits(10, 2).is_ok());
+        let too_many = check_fits(41, 2).unwrap_err();
+        assert!(too_many.contains("41-qubit"), "{too_many}");
+        // 2 × 2^38 amplitudes × 16 bytes = 8 TiB: more than any machine this runs on.
+        let too_big = check_fits(38, 2).unwrap_err();
+        assert!(too_big.contains("needs about 8192.0 GiB"), "{too_big}");
+    }
+
+    #[test]
     fn gate_kernels_match_dense_application() {
         let v = random_state(3, 3);
         for g in [
