@@ -21,7 +21,7 @@ use crate::device::Device;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, Spec};
+use crate::family::{build_jobs, build_jobs_with_terms, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{plan_target, to_device, RouteConfig};
@@ -131,7 +131,7 @@ pub fn compile_for(
                 native: device.native.names.clone(),
                 initial_layout: tp.initial_layout.clone(),
             };
-            let jobs = build_jobs(h, spec, &ladder);
+            let jobs = build_jobs_with_terms(h, spec, &tp.terms(h), &ladder);
             return finish(
                 h,
                 source,

@@ -25,6 +25,7 @@
 
 pub mod check;
 pub mod layout;
+pub mod order;
 pub mod swap;
 
 use crate::circuit::cancel::cancel_inverses;
@@ -33,9 +34,10 @@ use crate::circuit::{Circuit, Gate, Qubit};
 use crate::device::{Device, UNREACHABLE};
 use crate::formula::{order_terms, step, Order, Rotation};
 use crate::lower::lower_to_native;
-use crate::pauli::PauliSum;
+use crate::pauli::{PauliString, PauliSum};
 use crate::synth::{default_ladder, pauli_rotation_along};
 pub use check::{compact, routing_error};
+pub use order::{device_order, order_for_device, DeviceOrder};
 use swap::{insert_swaps, reversed, SwapParams};
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
@@ -57,6 +59,9 @@ pub struct RouteConfig {
     pub decay_step: f64,
     /// SWAPs after which decay is reset.
     pub decay_reset: usize,
+    /// Reorder the terms inside each commuting group so the ancilla walks a short path, and
+    /// root each ladder where the walk meets it ([`order`]); off: the default order and roots.
+    pub device_order: bool,
 }
 
 impl Default for RouteConfig {
@@ -72,6 +77,7 @@ impl Default for RouteConfig {
             extended_weight: 0.5,
             decay_step: 0.001,
             decay_reset: 5,
+            device_order: true,
         }
     }
 }
@@ -102,6 +108,8 @@ pub struct TargetPlan {
     /// Score factor for SWAPs that move the ancilla (below 1 prefers moving the ancilla to the
     /// terms over moving the terms to the ancilla); chosen by [`plan_target`].
     pub ancilla_swap_factor: f64,
+    /// The device-aware term order and ladder roots, if the plan uses one ([`order`]).
+    pub order: Option<DeviceOrder>,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -151,8 +159,24 @@ impl TargetPlan {
             num_system,
             ancilla: ancilla.then_some(num_system as u32),
             ancilla_swap_factor: 1.0,
+            order: None,
             dist,
         })
+    }
+
+    /// The same plan with the device-aware order of `h` on `dev` ([`device_order`]).
+    pub fn with_device_order(mut self, h: &PauliSum, dev: &Device) -> TargetPlan {
+        self.order = Some(device_order(h, &self, dev));
+        self
+    }
+
+    /// The term order circuits for this plan should follow: the device-aware one if the plan
+    /// has it, else `formula::order_terms(h)`. Either gives the same operator for every formula.
+    pub fn terms(&self, h: &PauliSum) -> Vec<(PauliString, f64)> {
+        match &self.order {
+            Some(o) => o.terms.clone(),
+            None => order_terms(h),
+        }
     }
 
     fn d(&self, a: Qubit, b: Qubit) -> u32 {
@@ -179,22 +203,29 @@ impl TargetPlan {
     }
 
     /// The CNOT ladder for `r`: a permutation of its support (logical indices), root last.
-    /// With an ancilla the root is the support qubit nearest to it; without, the root that
-    /// gives the shortest greedy chain. Ties go to the lower index.
+    /// The root is the one the device-aware order chose for `r`'s string if the plan has one;
+    /// else, with an ancilla, the support qubit nearest to it; without, the root that gives the
+    /// shortest greedy chain. Ties go to the lower index.
     pub fn ladder(&self, r: &Rotation) -> Vec<Qubit> {
         let support = default_ladder(r);
         if support.len() <= 1 {
             return support;
         }
-        let (mut chain, _) = match self.ancilla {
-            Some(a) => {
+        let planned = self
+            .order
+            .as_ref()
+            .and_then(|o| o.roots.get(&r.pauli))
+            .filter(|q| support.contains(q));
+        let (mut chain, _) = match (planned, self.ancilla) {
+            (Some(&root), _) => self.chain_from(root, &support),
+            (None, Some(a)) => {
                 let root = *support
                     .iter()
                     .min_by_key(|&&q| (self.d(q, a), q))
                     .expect("non-empty");
                 self.chain_from(root, &support)
             }
-            None => support
+            (None, None) => support
                 .iter()
                 .map(|&root| self.chain_from(root, &support))
                 .min_by_key(|(c, len)| (*len, c[0]))
@@ -228,7 +259,7 @@ pub struct Routed {
 fn skeleton(h: &PauliSum, plan: &TargetPlan) -> Circuit {
     let n = plan.initial_layout.len();
     let mut rotations = Vec::new();
-    step(&order_terms(h), Order::Second, 1.0, &mut rotations);
+    step(&plan.terms(h), Order::Second, 1.0, &mut rotations);
     let mut c = Circuit::new(n, 0);
     if let Some(a) = plan.ancilla {
         c.push(Gate::H(a));
@@ -305,6 +336,9 @@ pub fn plan_target(
             let mut l = start.clone();
             for round in 0..=cfg.refine_rounds {
                 let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.clone())?;
+                if cfg.device_order && ancilla {
+                    plan = plan.with_device_order(h, dev);
+                }
                 plan.ancilla_swap_factor = factor;
                 let sk = skeleton(h, &plan);
                 let fwd = insert_swaps(&sk, &l, dev, &params);
