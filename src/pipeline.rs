@@ -6,7 +6,9 @@
 //!
 //! 1. `formula::order_terms` + `formula::evolution`: the rotation program per time point;
 //! 2. `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`, clean-up by
-//!    `circuit::cancel`), logical qubits, ancilla last;
+//!    `circuit::cancel`), logical qubits, ancilla last; on a device, `build_jobs_with_terms`
+//!    with the plan's term order (`TargetPlan::terms`, a reordering inside commuting groups
+//!    that leaves every formula exactly equal);
 //! 3. all-to-all target: `verify_ir`, done; device target: `route::plan_target` chose the
 //!    layout and the ladders before step 2, and `route::to_device` now inserts SWAPs, lowers to
 //!    the native gates, fuses one-qubit runs and cancels inverses (verified after each pass);

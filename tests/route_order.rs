@@ -84,30 +84,35 @@ proptest! {
         let h = random_hamiltonian(n, terms, &mut rng);
         let dev = random_device(kind, n as u32 + 1 + rng.gen_range(0..3));
         let cfg = RouteConfig { seed, ..RouteConfig::default() };
-        let plan = plan_target(&h, true, &dev, &cfg).unwrap();
-        prop_assert!(plan.order.is_some());
         let order = [Order::First, Order::Second, Order::Fourth][order];
-
-        // A permutation inside each commuting group, groups in their fixed order.
-        let reordered = plan.terms(&h);
-        let mut at = 0;
-        for group in term_groups(&h) {
-            let mut mine = reordered[at..at + group.len()].to_vec();
-            let mut want = group.clone();
-            mine.sort_by_key(|t| t.0);
-            want.sort_by_key(|t| t.0);
-            prop_assert_eq!(mine, want);
-            at += group.len();
-        }
-        prop_assert_eq!(at, reordered.len());
-
+        // The plan `plan_target` chose (any of its order choices), and the walk order forced
+        // on the same layout.
+        let chosen = plan_target(&h, true, &dev, &cfg).unwrap();
+        let walk = TargetPlan::with_layout(n, true, &dev, chosen.initial_layout.clone())
+            .unwrap()
+            .with_device_order(&h, &dev);
         let default = controlled_program(n, &order_terms(&h), order, steps, &|r| default_ladder(r));
-        let device = controlled_program(n, &reordered, order, steps, &|r| plan.ladder(r));
-        let d = unitary_distance(&default, &device);
-        prop_assert!(d < 1e-9, "unitary distance {}", d);
+        for plan in [&chosen, &walk] {
+            // A permutation inside each commuting group, groups in their fixed order.
+            let reordered = plan.terms(&h);
+            let mut at = 0;
+            for group in term_groups(&h) {
+                let mut mine = reordered[at..at + group.len()].to_vec();
+                let mut want = group.clone();
+                mine.sort_by_key(|t| t.0);
+                want.sort_by_key(|t| t.0);
+                prop_assert_eq!(mine, want);
+                at += group.len();
+            }
+            prop_assert_eq!(at, reordered.len());
 
-        let (walk_device, _) = ancilla_walk(&reordered, &plan, &dev);
-        let (walk_default, _) = ancilla_walk(&order_terms(&h), &plan, &dev);
+            let device = controlled_program(n, &reordered, order, steps, &|r| plan.ladder(r));
+            let d = unitary_distance(&default, &device);
+            prop_assert!(d < 1e-9, "unitary distance {}", d);
+        }
+
+        let (walk_device, _) = ancilla_walk(&walk.terms(&h), &walk, &dev);
+        let (walk_default, _) = ancilla_walk(&order_terms(&h), &walk, &dev);
         prop_assert!(walk_device <= walk_default, "{} > {}", walk_device, walk_default);
     }
 }

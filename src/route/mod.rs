@@ -13,9 +13,13 @@
 //!    (greedy around the centre, seeded random, each annealed; see [`layout`]) are scored
 //!    by routing a one-Strang-step skeleton of the campaign, refined by bidirectional passes
 //!    (route forward, route the reversed circuit from the final layout, start again from where
-//!    it ends), with and without a preference for moving the ancilla (see [`swap`]), and the
-//!    one with the fewest SWAPs wins. All circuits of a campaign then share
-//!    that initial layout, which plan.json records once.
+//!    it ends), with and without a preference for moving the ancilla (see [`swap`]), and, with
+//!    an ancilla, with the terms in the device-aware order of [`order`] (each commuting group
+//!    swept so the ancilla walks a short path, ladders rooted where the walk meets each term,
+//!    or nearest the ancilla's initial site) or in the default order; the one with the fewest
+//!    SWAPs wins. All circuits of a campaign then share that initial layout, which plan.json
+//!    records once, and follow [`TargetPlan::terms`], which computes exactly what
+//!    `formula::order_terms` would (a permutation inside commuting groups).
 //! 2. [`to_device`] (per circuit): SWAP insertion ([`swap`]), lowering to native gates with
 //!    fusion and cancellation ([`crate::lower`]), `verify_ir` after each pass.
 //!
@@ -241,6 +245,26 @@ impl TargetPlan {
 /// so both are scored on the skeleton).
 const ANCILLA_SWAP_FACTORS: [f64; 2] = [1.0, 0.9];
 
+/// How a plan orders the terms and roots the ladders; with `RouteConfig::device_order`,
+/// [`plan_target`] scores all of these on the skeleton and keeps the best.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum OrderChoice {
+    /// `formula::order_terms` and roots nearest the ancilla's initial site.
+    Default,
+    /// [`device_order`] with the roots where its walk meets each term.
+    Walk,
+    /// [`device_order`]'s terms with roots nearest the ancilla's initial site.
+    WalkNearestRoots,
+}
+
+/// On `benches/routing.rs` the walk's roots win on most pairs and the initial-site roots on a
+/// few; the default order is kept as a fallback, so the skeleton never routes worse than it.
+const ORDER_CHOICES: [OrderChoice; 3] = [
+    OrderChoice::Walk,
+    OrderChoice::WalkNearestRoots,
+    OrderChoice::Default,
+];
+
 /// A circuit on the device.
 #[derive(Clone, Debug)]
 pub struct Routed {
@@ -329,15 +353,29 @@ pub fn plan_target(
     } else {
         &[1.0]
     };
+    let choices: &[OrderChoice] = if cfg.device_order && ancilla {
+        &ORDER_CHOICES
+    } else {
+        &[OrderChoice::Default]
+    };
     let mut best: Option<((usize, f64), TargetPlan)> = None;
-    for &factor in factors {
+    for (&factor, &choice) in factors
+        .iter()
+        .flat_map(|f| choices.iter().map(move |c| (f, c)))
+    {
         params.hub_factor = factor;
         for start in &candidates {
             let mut l = start.clone();
             for round in 0..=cfg.refine_rounds {
                 let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.clone())?;
-                if cfg.device_order && ancilla {
-                    plan = plan.with_device_order(h, dev);
+                match choice {
+                    OrderChoice::Default => {}
+                    OrderChoice::Walk => plan = plan.with_device_order(h, dev),
+                    OrderChoice::WalkNearestRoots => {
+                        let mut o = device_order(h, &plan, dev);
+                        o.roots.clear();
+                        plan.order = Some(o);
+                    }
                 }
                 plan.ancilla_swap_factor = factor;
                 let sk = skeleton(h, &plan);
