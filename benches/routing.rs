@@ -10,8 +10,10 @@
 //! - `ratio`, `swaps` under `default order`: two-qubit gates after routing and lowering ÷
 //!   `a2a 2q`, and SWAPs inserted, with the terms in `formula::order_terms` order and each
 //!   ladder rooted nearest the ancilla's initial site (`RouteConfig::device_order` off);
-//! - `ratio`, `swaps` under `device order`: the same with the device-aware order inside each
-//!   commuting group and the roots it chose (`route::order`, the default);
+//! - `ratio`, `swaps` under `device order`: the same with `RouteConfig::device_order` on (the
+//!   default): `plan_target` scores the device-aware order inside each commuting group
+//!   (`route::order`; ladders rooted where its walk meets each term, or nearest the ancilla's
+//!   initial site) against the default order and keeps the best;
 //! - `base`: SWAPs with the lookahead window, the random layout trials and the bidirectional
 //!   refinement turned off (one annealed greedy layout, a front-only score; device order), for
 //!   scale;

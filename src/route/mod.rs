@@ -358,6 +358,8 @@ pub fn plan_target(
     } else {
         &[OrderChoice::Default]
     };
+    // The device order depends only on the layout: computed once per layout tried.
+    let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
     let mut best: Option<((usize, f64), TargetPlan)> = None;
     for (&factor, &choice) in factors
         .iter()
@@ -368,14 +370,15 @@ pub fn plan_target(
             let mut l = start.clone();
             for round in 0..=cfg.refine_rounds {
                 let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.clone())?;
-                match choice {
-                    OrderChoice::Default => {}
-                    OrderChoice::Walk => plan = plan.with_device_order(h, dev),
-                    OrderChoice::WalkNearestRoots => {
-                        let mut o = device_order(h, &plan, dev);
+                if choice != OrderChoice::Default {
+                    let mut o = orders
+                        .entry(l.clone())
+                        .or_insert_with(|| device_order(h, &plan, dev))
+                        .clone();
+                    if choice == OrderChoice::WalkNearestRoots {
                         o.roots.clear();
-                        plan.order = Some(o);
                     }
+                    plan.order = Some(o);
                 }
                 plan.ancilla_swap_factor = factor;
                 let sk = skeleton(h, &plan);
