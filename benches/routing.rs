@@ -5,19 +5,26 @@
 //! devices (line, grid 4×4, brick wall 4×4), it compiles the real-part Hadamard test of two
 //! Strang steps (13 logical qubits with the ancilla) and prints, per pair:
 //!
-//! - `ratio`: two-qubit gates after routing and lowering ÷ two-qubit gates of the same circuit
-//!   on an all-to-all device (same lowering and cancellation);
-//! - `swaps`: SWAPs inserted;
+//! - `a2a 2q`: two-qubit gates of the circuit on an all-to-all device (same lowering and
+//!   cancellation; the term order does not change it);
+//! - `ratio`, `swaps` under `default order`: two-qubit gates after routing and lowering ÷
+//!   `a2a 2q`, and SWAPs inserted, with the terms in `formula::order_terms` order and each
+//!   ladder rooted nearest the ancilla's initial site (`RouteConfig::device_order` off);
+//! - `ratio`, `swaps` under `device order`: the same with `RouteConfig::device_order` on (the
+//!   default): `plan_target` scores the device-aware order inside each commuting group
+//!   (`route::order`; ladders rooted where its walk meets each term, or nearest the ancilla's
+//!   initial site) against the default order and keeps the best;
 //! - `base`: SWAPs with the lookahead window, the random layout trials and the bidirectional
-//!   refinement turned off (one annealed greedy layout, a front-only score), for scale;
-//! - `plain`: the same ratio and SWAPs for the uncontrolled evolution (no ancilla);
-//! - `ms`: wall time of `plan_target` + `to_device` for the Hadamard test.
+//!   refinement turned off (one annealed greedy layout, a front-only score; device order), for
+//!   scale;
+//! - `plain`: the same ratio and SWAPs for the uncontrolled evolution (no ancilla; device order);
+//! - `ms`: wall time of `plan_target` + `to_device` for the Hadamard test (device order).
 //!
 //! Run with `cargo bench --bench routing`. Deterministic: fixed seeds throughout.
 
 use phasewright::circuit::{Circuit, Gate, Qubit};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::formula::{evolution, order_terms, Order};
+use phasewright::formula::{evolution, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::route::{plan_target, to_device, RouteConfig, TargetPlan};
 use phasewright::synth::pauli_rotation_along;
@@ -88,7 +95,7 @@ fn circuit(h: &PauliSum, plan: &TargetPlan, ancilla: bool) -> Circuit {
     if let Some(a) = anc {
         c.push(Gate::H(a));
     }
-    for r in evolution(&order_terms(h), Order::Second, 0.2, 2) {
+    for r in evolution(&plan.terms(h), Order::Second, 0.2, 2) {
         c.extend(pauli_rotation_along(&r, anc, &plan.ladder(&r)));
     }
     if let Some(a) = anc {
@@ -153,6 +160,10 @@ fn main() {
         ),
     ];
     let cfg = RouteConfig::default();
+    let default_order_cfg = RouteConfig {
+        device_order: false,
+        ..RouteConfig::default()
+    };
     let base_cfg = RouteConfig {
         layout_trials: 1,
         refine_rounds: 0,
@@ -160,24 +171,41 @@ fn main() {
         ..RouteConfig::default()
     };
     println!(
-        "{:<20} {:<14} {:>8} {:>6} {:>6} {:>6} | {:>6} {:>6} | {:>8}",
-        "model", "device", "a2a 2q", "ratio", "swaps", "base", "plain", "swaps", "ms"
+        "{:<35} {:>8} | {:^13} | {:^13} | {:>6} | {:^13} |",
+        "", "", "default order", "device order", "", "plain"
+    );
+    println!(
+        "{:<20} {:<14} {:>8} | {:>6} {:>6} | {:>6} {:>6} | {:>6} | {:>6} {:>6} | {:>8}",
+        "model",
+        "device",
+        "a2a 2q",
+        "ratio",
+        "swaps",
+        "ratio",
+        "swaps",
+        "base",
+        "ratio",
+        "swaps",
+        "ms"
     );
     for (mname, h) in &models {
         let n = h.num_qubits;
-        let a2a_ht = compile(h, &Device::all_to_all(n + 1), true, &cfg).two_qubit;
+        let a2a_ht = compile(h, &Device::all_to_all(n + 1), true, &default_order_cfg).two_qubit;
         let a2a_plain = compile(h, &Device::all_to_all(n), false, &cfg).two_qubit;
         for (dname, dev) in &devices {
             let t = Instant::now();
             let ht = compile(h, dev, true, &cfg);
             let ms = t.elapsed().as_secs_f64() * 1e3;
+            let before = compile(h, dev, true, &default_order_cfg);
             let base = compile(h, dev, true, &base_cfg);
             let plain = compile(h, dev, false, &cfg);
             println!(
-                "{:<20} {:<14} {:>8} {:>6.2} {:>6} {:>6} | {:>6.2} {:>6} | {:>8.1}",
+                "{:<20} {:<14} {:>8} | {:>6.2} {:>6} | {:>6.2} {:>6} | {:>6} | {:>6.2} {:>6} | {:>8.1}",
                 mname,
                 dname,
                 a2a_ht,
+                before.two_qubit as f64 / a2a_ht as f64,
+                before.swaps,
                 ht.two_qubit as f64 / a2a_ht as f64,
                 ht.swaps,
                 base.swaps,

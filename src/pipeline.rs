@@ -6,7 +6,9 @@
 //!
 //! 1. `formula::order_terms` + `formula::evolution`: the rotation program per time point;
 //! 2. `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`, clean-up by
-//!    `circuit::cancel`), logical qubits, ancilla last;
+//!    `circuit::cancel`), logical qubits, ancilla last; on a device, `build_jobs_with_terms`
+//!    with the plan's term order (`TargetPlan::terms`, a reordering inside commuting groups
+//!    that leaves every formula exactly equal);
 //! 3. all-to-all target: `verify_ir`, done; device target: `route::plan_target` chose the
 //!    layout and the ladders before step 2, and `route::to_device` now inserts SWAPs, lowers to
 //!    the native gates, fuses one-qubit runs and cancels inverses (verified after each pass);
@@ -21,7 +23,7 @@ use crate::device::Device;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, Spec};
+use crate::family::{build_jobs, build_jobs_with_terms, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{plan_target, to_device, RouteConfig};
@@ -131,7 +133,7 @@ pub fn compile_for(
                 native: device.native.names.clone(),
                 initial_layout: tp.initial_layout.clone(),
             };
-            let jobs = build_jobs(h, spec, &ladder);
+            let jobs = build_jobs_with_terms(h, spec, &tp.terms(h), &ladder);
             return finish(
                 h,
                 source,

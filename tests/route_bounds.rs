@@ -119,14 +119,19 @@ fn a_weight_w_rotation_on_all_to_all_costs_two_w_minus_one_cnots() {
 }
 
 #[test]
-fn the_ladder_root_is_the_support_qubit_nearest_the_ancilla() {
+fn without_the_device_order_the_ladder_root_is_the_support_qubit_nearest_the_ancilla() {
     let dev = parse_device(
         "chip_grid12.dev",
         include_str!("../examples/chip_grid12.dev"),
     )
     .unwrap();
     let h = heisenberg_chain(6);
-    let plan = plan_target(&h, true, &dev, &RouteConfig::default()).unwrap();
+    let cfg = RouteConfig {
+        device_order: false,
+        ..RouteConfig::default()
+    };
+    let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+    assert!(plan.order.is_none());
     let anc = plan.initial_layout[6];
     for (p, _) in h.term_list() {
         let r = Rotation {

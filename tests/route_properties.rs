@@ -7,7 +7,7 @@
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::circuit::{Circuit, Gate, Qubit};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::formula::{evolution, order_terms, Order};
+use phasewright::formula::{evolution, Order};
 use phasewright::pauli::{PauliString, PauliSum};
 use phasewright::route::{plan_target, routing_error, to_device, RouteConfig, Routed, TargetPlan};
 use phasewright::synth::pauli_rotation_along;
@@ -94,7 +94,7 @@ fn hadamard_test(
         }
     }
     c.push(Gate::H(anc));
-    let program = evolution(&order_terms(h), Order::Second, 0.7, 1);
+    let program = evolution(&plan.terms(h), Order::Second, 0.7, 1);
     for r in &program {
         c.extend(pauli_rotation_along(r, Some(anc), &plan.ladder(r)));
     }

@@ -176,15 +176,27 @@ pub fn term_bits(p: &PauliString) -> Vec<u32> {
         .collect()
 }
 
-/// Every job of the campaign, in a fixed order (k, then state, then group, then part).
+/// Every job of the campaign, in a fixed order (k, then state, then group, then part), with
+/// the product formulas over `formula::order_terms(h)`.
 pub fn build_jobs(
     h: &PauliSum,
     spec: &Spec,
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
 ) -> Vec<Job> {
+    build_jobs_with_terms(h, spec, &crate::formula::order_terms(h), ladder)
+}
+
+/// [`build_jobs`] with the product formulas over `terms`, a reordering of
+/// `formula::order_terms(h)` inside its commuting groups (e.g. `route::order_for_device`), so
+/// that every circuit computes exactly what `build_jobs` would.
+pub fn build_jobs_with_terms(
+    h: &PauliSum,
+    spec: &Spec,
+    terms: &[(PauliString, f64)],
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+) -> Vec<Job> {
     use rayon::prelude::*;
     let n = h.num_qubits;
-    let terms = crate::formula::order_terms(h);
     let term_index: std::collections::BTreeMap<PauliString, usize> =
         h.terms.keys().enumerate().map(|(i, p)| (*p, i)).collect();
     let strings: Vec<PauliString> = h.terms.keys().copied().collect();
@@ -241,7 +253,7 @@ pub fn build_jobs(
             let prep =
                 state_prep(&spec.states[d.state]).expect("states are validated before building");
             let time = d.k as f64 * spec.dt;
-            let program = evolution(&terms, spec.order, time, d.k * spec.steps_per_dt);
+            let program = evolution(terms, spec.order, time, d.k * spec.steps_per_dt);
             let (basis, reads) = match d.group {
                 None => (
                     None,

@@ -56,16 +56,25 @@ impl Order {
     }
 }
 
-/// Orders the terms: groups of mutually commuting strings first (largest-first colouring), and
-/// inside a group the strings' own (bit-mask) order. Deterministic.
-pub fn order_terms(h: &PauliSum) -> Vec<(PauliString, f64)> {
+/// The terms in groups of mutually commuting strings (largest-first colouring), each group in
+/// the strings' own (bit-mask) order. Deterministic.
+///
+/// Any permutation inside a group leaves every formula of this module exactly equal: the
+/// factors of one group commute, and Strang and Suzuki apply a group forward then reversed,
+/// which is again a product of commuting factors. A target may therefore reorder inside groups
+/// (see `route::order_for_device`) but never across them.
+pub fn term_groups(h: &PauliSum) -> Vec<Vec<(PauliString, f64)>> {
     let terms = h.term_list();
     let strings: Vec<PauliString> = terms.iter().map(|t| t.0).collect();
     colour_groups(&strings, Compat::Commuting)
         .into_iter()
-        .flatten()
-        .map(|i| terms[i])
+        .map(|g| g.into_iter().map(|i| terms[i]).collect())
         .collect()
+}
+
+/// Orders the terms: the groups of [`term_groups`] one after the other. Deterministic.
+pub fn order_terms(h: &PauliSum) -> Vec<(PauliString, f64)> {
+    term_groups(h).concat()
 }
 
 fn push_merged(out: &mut Vec<Rotation>, r: Rotation) {

@@ -13,9 +13,13 @@
 //!    (greedy around the centre, seeded random, each annealed; see [`layout`]) are scored
 //!    by routing a one-Strang-step skeleton of the campaign, refined by bidirectional passes
 //!    (route forward, route the reversed circuit from the final layout, start again from where
-//!    it ends), with and without a preference for moving the ancilla (see [`swap`]), and the
-//!    one with the fewest SWAPs wins. All circuits of a campaign then share
-//!    that initial layout, which plan.json records once.
+//!    it ends), with and without a preference for moving the ancilla (see [`swap`]), and, with
+//!    an ancilla, with the terms in the device-aware order of [`order`] (each commuting group
+//!    swept so the ancilla walks a short path, ladders rooted where the walk meets each term,
+//!    or nearest the ancilla's initial site) or in the default order; the one with the fewest
+//!    SWAPs wins. All circuits of a campaign then share that initial layout, which plan.json
+//!    records once, and follow [`TargetPlan::terms`], which computes exactly what
+//!    `formula::order_terms` would (a permutation inside commuting groups).
 //! 2. [`to_device`] (per circuit): SWAP insertion ([`swap`]), lowering to native gates with
 //!    fusion and cancellation ([`crate::lower`]), `verify_ir` after each pass.
 //!
@@ -25,6 +29,7 @@
 
 pub mod check;
 pub mod layout;
+pub mod order;
 pub mod swap;
 
 use crate::circuit::cancel::cancel_inverses;
@@ -33,9 +38,10 @@ use crate::circuit::{Circuit, Gate, Qubit};
 use crate::device::{Device, UNREACHABLE};
 use crate::formula::{order_terms, step, Order, Rotation};
 use crate::lower::lower_to_native;
-use crate::pauli::PauliSum;
+use crate::pauli::{PauliString, PauliSum};
 use crate::synth::{default_ladder, pauli_rotation_along};
 pub use check::{compact, routing_error};
+pub use order::{device_order, order_for_device, DeviceOrder};
 use swap::{insert_swaps, reversed, SwapParams};
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
@@ -57,6 +63,9 @@ pub struct RouteConfig {
     pub decay_step: f64,
     /// SWAPs after which decay is reset.
     pub decay_reset: usize,
+    /// Reorder the terms inside each commuting group so the ancilla walks a short path, and
+    /// root each ladder where the walk meets it ([`order`]); off: the default order and roots.
+    pub device_order: bool,
 }
 
 impl Default for RouteConfig {
@@ -72,6 +81,7 @@ impl Default for RouteConfig {
             extended_weight: 0.5,
             decay_step: 0.001,
             decay_reset: 5,
+            device_order: true,
         }
     }
 }
@@ -102,6 +112,8 @@ pub struct TargetPlan {
     /// Score factor for SWAPs that move the ancilla (below 1 prefers moving the ancilla to the
     /// terms over moving the terms to the ancilla); chosen by [`plan_target`].
     pub ancilla_swap_factor: f64,
+    /// The device-aware term order and ladder roots, if the plan uses one ([`order`]).
+    pub order: Option<DeviceOrder>,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -151,8 +163,24 @@ impl TargetPlan {
             num_system,
             ancilla: ancilla.then_some(num_system as u32),
             ancilla_swap_factor: 1.0,
+            order: None,
             dist,
         })
+    }
+
+    /// The same plan with the device-aware order of `h` on `dev` ([`device_order`]).
+    pub fn with_device_order(mut self, h: &PauliSum, dev: &Device) -> TargetPlan {
+        self.order = Some(device_order(h, &self, dev));
+        self
+    }
+
+    /// The term order circuits for this plan should follow: the device-aware one if the plan
+    /// has it, else `formula::order_terms(h)`. Either gives the same operator for every formula.
+    pub fn terms(&self, h: &PauliSum) -> Vec<(PauliString, f64)> {
+        match &self.order {
+            Some(o) => o.terms.clone(),
+            None => order_terms(h),
+        }
     }
 
     fn d(&self, a: Qubit, b: Qubit) -> u32 {
@@ -179,22 +207,29 @@ impl TargetPlan {
     }
 
     /// The CNOT ladder for `r`: a permutation of its support (logical indices), root last.
-    /// With an ancilla the root is the support qubit nearest to it; without, the root that
-    /// gives the shortest greedy chain. Ties go to the lower index.
+    /// The root is the one the device-aware order chose for `r`'s string if the plan has one;
+    /// else, with an ancilla, the support qubit nearest to it; without, the root that gives the
+    /// shortest greedy chain. Ties go to the lower index.
     pub fn ladder(&self, r: &Rotation) -> Vec<Qubit> {
         let support = default_ladder(r);
         if support.len() <= 1 {
             return support;
         }
-        let (mut chain, _) = match self.ancilla {
-            Some(a) => {
+        let planned = self
+            .order
+            .as_ref()
+            .and_then(|o| o.roots.get(&r.pauli))
+            .filter(|q| support.contains(q));
+        let (mut chain, _) = match (planned, self.ancilla) {
+            (Some(&root), _) => self.chain_from(root, &support),
+            (None, Some(a)) => {
                 let root = *support
                     .iter()
                     .min_by_key(|&&q| (self.d(q, a), q))
                     .expect("non-empty");
                 self.chain_from(root, &support)
             }
-            None => support
+            (None, None) => support
                 .iter()
                 .map(|&root| self.chain_from(root, &support))
                 .min_by_key(|(c, len)| (*len, c[0]))
@@ -209,6 +244,26 @@ impl TargetPlan {
 /// ancilla (on `benches/routing.rs`, 0.9 lowers the SWAP count in most cases and 1.0 in a few,
 /// so both are scored on the skeleton).
 const ANCILLA_SWAP_FACTORS: [f64; 2] = [1.0, 0.9];
+
+/// How a plan orders the terms and roots the ladders; with `RouteConfig::device_order`,
+/// [`plan_target`] scores all of these on the skeleton and keeps the best.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum OrderChoice {
+    /// `formula::order_terms` and roots nearest the ancilla's initial site.
+    Default,
+    /// [`device_order`] with the roots where its walk meets each term.
+    Walk,
+    /// [`device_order`]'s terms with roots nearest the ancilla's initial site.
+    WalkNearestRoots,
+}
+
+/// On `benches/routing.rs` the walk's roots win on most pairs and the initial-site roots on a
+/// few; the default order is kept as a fallback, so the skeleton never routes worse than it.
+const ORDER_CHOICES: [OrderChoice; 3] = [
+    OrderChoice::Walk,
+    OrderChoice::WalkNearestRoots,
+    OrderChoice::Default,
+];
 
 /// A circuit on the device.
 #[derive(Clone, Debug)]
@@ -228,7 +283,7 @@ pub struct Routed {
 fn skeleton(h: &PauliSum, plan: &TargetPlan) -> Circuit {
     let n = plan.initial_layout.len();
     let mut rotations = Vec::new();
-    step(&order_terms(h), Order::Second, 1.0, &mut rotations);
+    step(&plan.terms(h), Order::Second, 1.0, &mut rotations);
     let mut c = Circuit::new(n, 0);
     if let Some(a) = plan.ancilla {
         c.push(Gate::H(a));
@@ -298,13 +353,33 @@ pub fn plan_target(
     } else {
         &[1.0]
     };
+    let choices: &[OrderChoice] = if cfg.device_order && ancilla {
+        &ORDER_CHOICES
+    } else {
+        &[OrderChoice::Default]
+    };
+    // The device order depends only on the layout: computed once per layout tried.
+    let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
     let mut best: Option<((usize, f64), TargetPlan)> = None;
-    for &factor in factors {
+    for (&factor, &choice) in factors
+        .iter()
+        .flat_map(|f| choices.iter().map(move |c| (f, c)))
+    {
         params.hub_factor = factor;
         for start in &candidates {
             let mut l = start.clone();
             for round in 0..=cfg.refine_rounds {
                 let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.clone())?;
+                if choice != OrderChoice::Default {
+                    let mut o = orders
+                        .entry(l.clone())
+                        .or_insert_with(|| device_order(h, &plan, dev))
+                        .clone();
+                    if choice == OrderChoice::WalkNearestRoots {
+                        o.roots.clear();
+                    }
+                    plan.order = Some(o);
+                }
                 plan.ancilla_swap_factor = factor;
                 let sk = skeleton(h, &plan);
                 let fwd = insert_swaps(&sk, &l, dev, &params);
