@@ -11,8 +11,7 @@ use crate::estimate::counts::{self, BitOrder};
 use crate::estimate::{
     self, Analysis, Config, DosReport, EnergyReport, KrylovKind, DEFAULT_BOOTSTRAP,
 };
-use crate::family::plan::{Plan, PLAN_FORMAT};
-use crate::lang::diag::Diagnostic;
+use crate::family::plan::Plan;
 use crate::report::plot;
 use clap::{Args, ValueEnum};
 use serde_json::{json, Value};
@@ -97,46 +96,9 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
     }
 }
 
-/// Reads `DIR/plan.json`; a malformed plan is a diagnostic with its position.
-pub fn read_plan(dir: &std::path::Path) -> Result<Plan> {
-    let path = dir.join("plan.json");
-    let text = read_text(&path)?;
-    let name = path.display().to_string();
-    let plan = Plan::from_json(&text).map_err(|e| {
-        let off = line_col_offset(&text, e.line(), e.column());
-        Error::input(Diagnostic::at(
-            &name,
-            &text,
-            off,
-            1,
-            format!("not a valid plan: {e}"),
-            Some("plan.json is written by `phasewright compile`; do not edit it by hand".into()),
-        ))
-    })?;
-    if plan.format != PLAN_FORMAT {
-        return Err(Error::input(Diagnostic::whole_file(
-            &name,
-            format!("unsupported plan format `{}`", plan.format),
-            Some(format!("this version reads `{PLAN_FORMAT}`")),
-        )));
-    }
-    Ok(plan)
-}
-
-fn line_col_offset(src: &str, line: usize, column: usize) -> usize {
-    let mut off = 0;
-    for (i, l) in src.split_inclusive('\n').enumerate() {
-        if i + 1 == line {
-            return off + column.saturating_sub(1).min(l.len());
-        }
-        off += l.len();
-    }
-    src.len()
-}
-
 /// Runs `phasewright estimate`.
 pub fn run(args: &EstimateArgs) -> Result<()> {
-    let plan = read_plan(&args.dir)?;
+    let plan = super::io::read_plan(&args.dir)?;
     let text = read_text(&args.counts)?;
     let order = args.bit_order.map(|b| match b {
         BitOrderArg::First => BitOrder::First,

@@ -65,7 +65,7 @@ pub fn read_plan(dir: &Path) -> Result<crate::family::plan::Plan> {
     let text = read_text(&path)?;
     let name = path.display().to_string();
     let plan = crate::family::plan::Plan::from_json(&text).map_err(|e| {
-        let offset = offset_of(&text, e.line(), e.column());
+        let offset = crate::lang::diag::offset_of(&text, e.line(), e.column());
         Error::input(Diagnostic::at(
             &name,
             &text,
@@ -86,16 +86,6 @@ pub fn read_plan(dir: &Path) -> Result<crate::family::plan::Plan> {
         )));
     }
     Ok(plan)
-}
-
-/// Byte offset of a 1-based (line, column) position, as serde_json reports them.
-pub fn offset_of(text: &str, line: usize, column: usize) -> usize {
-    let start: usize = text
-        .split_inclusive('\n')
-        .take(line.saturating_sub(1))
-        .map(str::len)
-        .sum();
-    (start + column.saturating_sub(1)).min(text.len())
 }
 
 /// Reads every circuit file of a plan back with phasewright's OpenQASM 3 reader.

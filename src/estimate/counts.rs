@@ -132,7 +132,7 @@ pub fn parse(
     let value: serde_json::Value = match serde_json::from_str(src) {
         Ok(v) => v,
         Err(e) => {
-            let off = offset_of(src, e.line(), e.column());
+            let off = crate::lang::diag::offset_of(src, e.line(), e.column());
             return Err(vec![here(
                 off,
                 1,
@@ -161,7 +161,7 @@ pub fn parse(
     let raw: RawFile = match serde_json::from_str(src) {
         Ok(r) => r,
         Err(e) => {
-            let off = offset_of(src, e.line(), e.column());
+            let off = crate::lang::diag::offset_of(src, e.line(), e.column());
             return Err(vec![here(
                 off,
                 1,
@@ -430,18 +430,6 @@ pub fn to_json(ids: &[&str], circuits: &[CircuitCounts], shots: Option<u64>) -> 
     }
     top.insert("counts".into(), serde_json::Value::Object(counts));
     serde_json::to_string_pretty(&serde_json::Value::Object(top)).expect("serialises") + "\n"
-}
-
-fn offset_of(src: &str, line: usize, column: usize) -> usize {
-    // serde_json reports 1-based line and column (bytes); column 0 means "before the line".
-    let mut off = 0;
-    for (i, l) in src.split_inclusive('\n').enumerate() {
-        if i + 1 == line {
-            return off + column.saturating_sub(1).min(l.len());
-        }
-        off += l.len();
-    }
-    src.len()
 }
 
 fn strip_position(msg: &str) -> String {

@@ -66,6 +66,19 @@ impl Diagnostic {
     }
 }
 
+/// Byte offset of a 1-based (line, column) position, as serde_json reports them (column in
+/// bytes; column 0 means the start of the line). Past the end gives `src.len()`.
+pub fn offset_of(src: &str, line: usize, column: usize) -> usize {
+    let mut off = 0;
+    for (i, l) in src.split_inclusive('\n').enumerate() {
+        if i + 1 == line {
+            return off + column.saturating_sub(1).min(l.len());
+        }
+        off += l.len();
+    }
+    src.len()
+}
+
 fn floor_char_boundary(s: &str, mut i: usize) -> usize {
     while i > 0 && !s.is_char_boundary(i) {
         i -= 1;

@@ -13,7 +13,7 @@ use super::Routed;
 use crate::circuit::Circuit;
 use crate::sim::{run, State};
 use num_complex::Complex64;
-use rand::{Rng, SeedableRng};
+use rand::SeedableRng;
 
 /// Relabels a physical circuit onto the qubits it touches, ascending: returns the circuit on
 /// `0..k` and `new → physical` (see [`Circuit::compacted`]).
@@ -83,16 +83,7 @@ pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> 
             .collect()
     } else {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x5eed);
-        (0..8)
-            .map(|_| {
-                let mut amps: Vec<Complex64> = (0..1usize << n)
-                    .map(|_| Complex64::new(rng.gen::<f64>() - 0.5, rng.gen::<f64>() - 0.5))
-                    .collect();
-                let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
-                amps.iter_mut().for_each(|a| *a /= norm);
-                State { n, amps }
-            })
-            .collect()
+        (0..8).map(|_| State::random(n, &mut rng)).collect()
     };
     let mut err: f64 = 0.0;
     for s in inputs {

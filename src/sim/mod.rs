@@ -68,6 +68,17 @@ impl State {
         State { n, amps }
     }
 
+    /// A normalised state with uniformly random real and imaginary parts in [−½, ½) before
+    /// normalisation, from `rng` (seeded by the caller: reproducible test inputs).
+    pub fn random(n: usize, rng: &mut impl rand::Rng) -> State {
+        let mut amps: Vec<Complex64> = (0..1usize << n)
+            .map(|_| Complex64::new(rng.gen::<f64>() - 0.5, rng.gen::<f64>() - 0.5))
+            .collect();
+        let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
+        amps.iter_mut().for_each(|a| *a /= norm);
+        State { n, amps }
+    }
+
     /// `⟨self|other⟩`.
     pub fn inner(&self, other: &State) -> Complex64 {
         self.amps
@@ -311,14 +322,8 @@ mod tests {
     use crate::pauli::{Pauli, PauliSum};
 
     fn random_state(n: usize, seed: u64) -> State {
-        use rand::{Rng, SeedableRng};
-        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
-        let mut amps: Vec<Complex64> = (0..1usize << n)
-            .map(|_| Complex64::new(rng.gen::<f64>() - 0.5, rng.gen::<f64>() - 0.5))
-            .collect();
-        let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
-        amps.iter_mut().for_each(|a| *a /= norm);
-        State { n, amps }
+        use rand::SeedableRng;
+        State::random(n, &mut rand_chacha::ChaCha8Rng::seed_from_u64(seed))
     }
 
     #[test]
