@@ -87,6 +87,15 @@ fn prepared(n: usize, state: &str) -> Result<State, String> {
 
 /// Checks every circuit of a plan. `circuits[i]` belongs to `plan.circuits[i]`.
 pub fn check_plan(plan: &Plan, circuits: &[Circuit]) -> Result<Vec<CircuitCheck>, String> {
+    check_plan_with_progress(plan, circuits, &|| {})
+}
+
+/// As [`check_plan`], calling `tick` once per circuit checked (from any thread).
+pub fn check_plan_with_progress(
+    plan: &Plan,
+    circuits: &[Circuit],
+    tick: &(dyn Fn() + Sync),
+) -> Result<Vec<CircuitCheck>, String> {
     let h = plan_hamiltonian(plan)?;
     let n = h.num_qubits;
     let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
@@ -125,7 +134,11 @@ pub fn check_plan(plan: &Plan, circuits: &[Circuit]) -> Result<Vec<CircuitCheck>
     plan.circuits
         .par_iter()
         .zip(circuits.par_iter())
-        .map(|(e, c)| check_circuit(e, c, lookup(e.state, e.k), &strings))
+        .map(|(e, c)| {
+            let r = check_circuit(e, c, lookup(e.state, e.k), &strings);
+            tick();
+            r
+        })
         .collect()
 }
 

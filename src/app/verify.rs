@@ -2,11 +2,12 @@
 //! ideal product formula and the exact evolution.
 
 use super::io::{read_plan, read_plan_circuits};
-use crate::check::{check_plan, trace_summary, COMPILE_TOLERANCE};
+use crate::check::{check_plan_with_progress, trace_summary, COMPILE_TOLERANCE};
 use crate::error::{Error, Result};
 use crate::family::plan::Family;
 use crate::report::table::{sci, Table};
 use clap::Args;
+use indicatif::{ProgressBar, ProgressStyle};
 use std::path::PathBuf;
 
 /// Simulate every circuit of a compiled campaign and compare it with the ideal product formula
@@ -38,7 +39,14 @@ pub struct VerifyArgs {
 pub fn run(args: &VerifyArgs) -> Result<()> {
     let plan = read_plan(&args.dir)?;
     let circuits = read_plan_circuits(&args.dir, &plan)?;
-    let checks = check_plan(&plan, &circuits).map_err(|m| {
+    let bar = ProgressBar::new(circuits.len() as u64);
+    bar.set_style(
+        ProgressStyle::with_template("simulating {bar:40} {pos}/{len} circuits ({eta})")
+            .expect("valid template"),
+    );
+    let checked = check_plan_with_progress(&plan, &circuits, &|| bar.inc(1));
+    bar.finish_and_clear();
+    let checks = checked.map_err(|m| {
         Error::usage(
             m,
             Some("the plan or a circuit file does not fit this machine or is inconsistent"),
