@@ -281,6 +281,13 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
     if step > 1 {
         let _ = writeln!(s, "(every {step}th of {n} energies; --json lists all)");
     }
+    if r.quadrature_bound.iter().any(|b| b.is_infinite()) {
+        let _ = writeln!(
+            s,
+            "bound inf: there 2π/dt ≤ |E − c| + Σ|c_j|, so aliasing cannot be ruled out by the \
+             norm bound alone; a smaller dt widens the guaranteed window"
+        );
+    }
     let _ = writeln!(
         s,
         "ρ_σ(E) = (2^n/2π) ∫ e^(−σ²t²/2) e^(iEt) tr U(t)/2^n dt, tr U/2^n estimated by averaging \
