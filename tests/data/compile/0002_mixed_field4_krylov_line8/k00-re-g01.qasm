@@ -1,0 +1,19 @@
+OPENQASM 3.0;
+include "stdgates.inc";
+// phasewright circuit k00-re-g01: real part of the Hadamard test at k = 0, t = 0
+// bit 0 is the ancilla; see plan.json for what each bit reads
+// device line8: physical qubits, native gates cz rz sx x
+bit[5] c;
+gphase(2.356194490192345);
+c[0] = measure $3;
+c[1] = measure $4;
+rz(1.5707963267948966) $1;
+sx $1;
+rz(1.5707963267948966) $1;
+c[2] = measure $1;
+x $2;
+c[3] = measure $2;
+rz(1.5707963267948966) $5;
+sx $5;
+rz(3.141592653589793) $5;
+c[4] = measure $5;
