@@ -203,21 +203,18 @@ pub fn sample_noise(overlaps: &Series) -> f64 {
 }
 
 /// Point estimates (no error bars) for dimensions `1..=K`: `(krylov, kept, pencil)` for `H'`
-/// (constant not added). `h = None` selects the overlap-only sine pencil.
+/// (constant not added). `h = None` selects the overlap-only sine pencil. `center` is the mean
+/// energy `⟨ψ|H'|ψ⟩` (or an estimate): the shift of the sine pencil and the centre of the
+/// matrix pencil's energy window.
 pub fn point_estimates(
     s: &Series,
     h: Option<&Series>,
     dt: f64,
     thresholds: &[f64],
     pencil_noise: f64,
+    center: f64,
 ) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
     let k = s.len();
-    // Mean energy of the reference state: centre of the pencil's window and shift of the sine
-    // pencil.
-    let center = match h {
-        Some(h) => h.values[0].re,
-        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
-    };
     let kry: Vec<Option<krylov::Ritz>> = (1..=k)
         .map(|d| {
             let eps = thresholds[d - 1];
@@ -247,7 +244,13 @@ fn energies(
     let (s, h) = energy_inputs(plan, table, weights)?;
     let eps = thresholds(&s, cfg.threshold);
     let noise = sample_noise(&s);
-    let point = point_estimates(&s, h.as_ref(), dt, &eps, noise);
+    // Mean energy of the reference state: exact from the plan for product states, else h_0,
+    // else the phase of S_1.
+    let center = product_state_mean(plan, 0).unwrap_or_else(|| match &h {
+        Some(h) => h.values[0].re,
+        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
+    });
+    let point = point_estimates(&s, h.as_ref(), dt, &eps, noise, center);
     let kind = if h.is_some() {
         KrylovKind::Hamiltonian
     } else {
@@ -285,7 +288,7 @@ fn energies(
                 })
                 .collect();
             match energy_inputs(plan, table, &w) {
-                Ok((s2, h2)) => point_estimates(&s2, h2.as_ref(), dt, &eps, noise)
+                Ok((s2, h2)) => point_estimates(&s2, h2.as_ref(), dt, &eps, noise, center)
                     .into_iter()
                     .map(|(k, p)| (k.map(|r| r.energy), p))
                     .collect(),
@@ -508,6 +511,35 @@ pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
         h.add(p, t.coeff);
     }
     Ok(h)
+}
+
+/// `⟨ψ_s|H − c|ψ_s⟩` for a product reference state written with the letters `0 1 + - r l`
+/// (qubit 0 first), computed exactly from the plan's terms; `None` for other state forms.
+pub fn product_state_mean(plan: &Plan, state: usize) -> Option<f64> {
+    let spec: Vec<char> = plan
+        .states
+        .get(state)?
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect();
+    if spec.len() != plan.hamiltonian.num_qubits || spec.iter().any(|c| !"01+-rl".contains(*c)) {
+        return None;
+    }
+    let h = plan_hamiltonian(plan).ok()?;
+    let mut mean = 0.0;
+    for (p, c) in h.term_list() {
+        let mut v = 1.0;
+        for (q, letter) in spec.iter().enumerate() {
+            v *= match (p.get(q), letter) {
+                (Pauli::I, _) => 1.0,
+                (Pauli::Z, '0') | (Pauli::X, '+') | (Pauli::Y, 'r') => 1.0,
+                (Pauli::Z, '1') | (Pauli::X, '-') | (Pauli::Y, 'l') => -1.0,
+                _ => 0.0,
+            };
+        }
+        mean += c * v;
+    }
+    Some(mean)
 }
 
 /// Map from a family to its name in plan.json.
