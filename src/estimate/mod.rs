@@ -13,6 +13,10 @@
 //! [`overlap_only`] (matrix pencil), [`dos`] (density of states), [`resample`] (exact
 //! multinomial draws for the bootstrap).
 //!
+//! Stochastic trace (trace plans): `tr U/2ⁿ` is the mean of `⟨ψ_s|U|ψ_s⟩` over random states
+//! whose average projector is `I/2ⁿ` (Hutchinson, Commun. Stat. Simul. Comput. 18, 1059
+//! (1989); cited from memory).
+//!
 //! Bootstrap (Efron & Tibshirani, *An Introduction to the Bootstrap*, 1993, ch. 6): every
 //! circuit's histogram is redrawn as Multinomial(shots, observed frequencies), everything is
 //! recomputed with the threshold of the original data, and the error bar is the standard
