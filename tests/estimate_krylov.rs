@@ -59,7 +59,7 @@ fn exact_values_give_the_dense_regularised_energy_to_1e10() {
         let s = Series::exact(s);
         let hs = Series::exact(hk);
         let th = vec![eps; k];
-        let got = point_estimates(&s, Some(&hs), dt, &th, 0.0);
+        let got = point_estimates(&s, Some(&hs), dt, &th, 0.0, hs.values[0].re);
         for d in 1..=k {
             let want = dense_regularised(&h, st, dt, d, eps);
             let e = got[d - 1].0.unwrap().energy + h.constant;
@@ -111,13 +111,18 @@ fn exact_counts_through_the_whole_pipeline_match_the_series_route() {
     assert!((r.exact.unwrap() - ground_energy(&h)).abs() < 1e-12);
 }
 
-/// Ground-energy error at K = 10 for `seeds` independent 10⁶-shot campaigns.
-fn sampled_errors(h: &phasewright::pauli::PauliSum, st: &str, dt: f64, seeds: u64) -> Vec<f64> {
+/// Ground-energy errors (Krylov, pencil) at K = 10 for `seeds` independent 10⁶-shot campaigns.
+fn sampled_errors(
+    h: &phasewright::pauli::PauliSum,
+    st: &str,
+    dt: f64,
+    seeds: u64,
+) -> (Vec<f64>, Vec<f64>) {
     let camp = campaign(h, &[st], Kind::Krylov, dt, 10);
     let e0 = ground_energy(h);
     (0..seeds)
         .map(|seed| {
-            let counts = camp.sample(1_000_000, 100 + seed);
+            let counts = camp.sample(1_000_000, seed);
             let cfg = Config {
                 bootstrap: 0,
                 ..Config::default()
@@ -125,29 +130,34 @@ fn sampled_errors(h: &phasewright::pauli::PauliSum, st: &str, dt: f64, seeds: u6
             let Analysis::Energies(r) = analyse(&camp.plan, &counts, &cfg).unwrap() else {
                 panic!()
             };
-            r.rows.last().unwrap().krylov.unwrap() - e0
+            let last = r.rows.last().unwrap();
+            (last.krylov.unwrap() - e0, last.pencil.unwrap() - e0)
         })
-        .collect()
+        .unzip()
+}
+
+fn max_abs(v: &[f64]) -> f64 {
+    v.iter().map(|x| x.abs()).fold(0.0, f64::max)
 }
 
 #[test]
 fn tfim8_and_heisenberg6_at_a_million_shots() {
-    // Measured with the default threshold σ̄·d at dt = 0.3, K = 10, 10⁶ shots per circuit
-    // (tests/estimate_support campaigns, exact evolution, qubit-wise commuting term groups,
-    // H elements shifted by the reference energy with same-shot ancilla reads). Observed
-    // errors with these *poor* product references: transverse-field Ising at the critical
-    // point (J = h = 1, |+…+⟩) +0.2e-2…+1.4e-2, Heisenberg (J = 1, Néel) −1.2e-2…+0.7e-2.
-    // The noiseless K = 10 errors at this dt are 7e-3 (Ising) and 2e-5 (Heisenberg); the bound
-    // asserted here (2e-2) is the measured worst case with a 1.4× margin. With good
-    // references (paramagnetic chain, dimer state) tests/e2e_energies.rs reaches 1.6e-3.
-    let tf = sampled_errors(&tfim(8, 1.0, 1.0, 0.0), "++++++++", 0.3, 4);
-    let he = sampled_errors(&heisenberg(6, 1.0, 0.0), "010101", 0.3, 4);
-    eprintln!("tfim8 errors {tf:?}\nheisenberg6 errors {he:?}");
-    for e in tf.iter().chain(&he) {
-        assert!(e.abs() < 2e-2, "error {e}");
-    }
-    // The Ising chain's Krylov energy is variational up to noise: it stays above E0 − 5σ-ish.
-    assert!(tf.iter().all(|e| *e > -5e-3));
+    // Default thresholds, dt = 0.3 (= 4.5/Σ|c_j| for both chains), K = 10, 10⁶ shots per
+    // circuit, qubit-wise commuting term groups, exact evolution (no Trotter error), 6 seeds,
+    // H elements read as (H − μ) with same-shot ancilla reads. These are *poor* references
+    // (the critical Ising chain from |+…+⟩, the Heisenberg chain from Néel); measured maxima
+    // over the seeds: Ising Krylov 1.6e-2, pencil 4.6e-2; Heisenberg Krylov 1.6e-2, pencil
+    // 1.5e-3. Noiseless K = 10 errors at this dt: Krylov 7.2e-3 (Ising) and 1.0e-5
+    // (Heisenberg). Bounds below: measured maxima × ~1.5. With good references (paramagnetic
+    // chain, dimer state) tests/e2e_energies.rs reaches 1.6e-3 with the Krylov column.
+    let (tf_k, tf_p) = sampled_errors(&tfim(8, 1.0, 1.0, 0.0), "++++++++", 0.3, 6);
+    let (he_k, he_p) = sampled_errors(&heisenberg(6, 1.0, 0.0), "010101", 0.3, 6);
+    eprintln!("tfim8 krylov {tf_k:?}\ntfim8 pencil {tf_p:?}");
+    eprintln!("heis6 krylov {he_k:?}\nheis6 pencil {he_p:?}");
+    assert!(max_abs(&tf_k) < 2.5e-2);
+    assert!(max_abs(&he_k) < 2.5e-2);
+    assert!(max_abs(&tf_p) < 7e-2);
+    assert!(max_abs(&he_p) < 2.5e-3);
 }
 
 #[test]
@@ -156,6 +166,8 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
     // threshold so the estimand is the same in every campaign). The noiseless value is the
     // same regularised problem on exact series. A 2σ interval of a normal estimate covers
     // 95.4%; with 200 trials the binomial spread is ±1.5%, so [0.90, 0.99] is ±3 spreads.
+    // Measured: Krylov 0.96/0.93/0.945/0.93 for d = 1..4, pencil 0.95, reads 0.950 (the read
+    // band is narrower because ≈5000 read checks are pooled).
     let h = tfim(3, 1.0, 0.7, 0.2);
     let (dt, k, st) = (0.35, 4, "+++");
     let camp = campaign(&h, &[st], Kind::Krylov, dt, k);
@@ -165,6 +177,13 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
         .iter()
         .map(|r| r.unwrap().energy + h.constant)
         .collect();
+    // The pencil's noiseless value: exact series, rank cut at the noise level of 4000 shots
+    // (σ̄ of one sample ≈ √2/√4000; the cut only drops modes far below it).
+    let center = product_state_mean(&camp.plan, 0).unwrap();
+    let pencil_truth =
+        overlap_only::pencil_energies(&s, dt, 2f64.sqrt() / 4000f64.sqrt(), center)[k - 1].unwrap()
+            + h.constant;
+    let mut pencil_covered = 0usize;
     let mut covered = vec![0usize; k];
     let mut read_covered = 0usize;
     let mut reads = 0usize;
@@ -185,6 +204,10 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
             if (row.krylov.unwrap() - truth[d]).abs() <= 2.0 * row.krylov_std_error.unwrap() {
                 covered[d] += 1;
             }
+        }
+        let last = &r.rows[k - 1];
+        if (last.pencil.unwrap() - pencil_truth).abs() <= 2.0 * last.pencil_std_error.unwrap() {
+            pencil_covered += 1;
         }
         // Read-level binomial errors: every pooled quantity against its exact value.
         let table = ReadTable::new(&camp.plan, &counts.circuits);
@@ -214,6 +237,8 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
         }
     }
     let read_rate = read_covered as f64 / reads as f64;
+    let pencil_rate = pencil_covered as f64 / trials as f64;
+    eprintln!("pencil coverage {pencil_rate:.3}");
     eprintln!(
         "energy coverage per dimension {:?}, read coverage {read_rate:.3}",
         covered

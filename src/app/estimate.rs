@@ -204,7 +204,7 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
             "krylov: Toeplitz pencil (H, S) of the real-time Krylov basis U^k|ψ⟩ (Parrish & McMahon 2019; Stair, Huang & Evangelista 2020), S thresholded (Epperly, Lin & Nakatsukasa 2022); H elements read as (H − μ) with the same shots' ancilla bits as control variate, μ = the reference energy"
         }
         KrylovKind::Sine => {
-            "krylov: pencil (sin(H'dt)/dt, S) from overlaps only, energy = arcsin(β·dt)/dt, d < K (valid while ‖H − c‖·dt ≤ π/2)"
+            "krylov: pencil (sin(H'dt)/dt, S) from overlaps only, energy = arcsin(β·dt)/dt, d < K, shifted by the mean energy μ (valid while ‖H − c − μ‖·dt ≤ π/2)"
         }
     };
     let _ = writeln!(s, "{method}");

@@ -153,10 +153,10 @@ pub fn sine_energies(s: &[Complex64], dt: f64, threshold: f64, shift: f64) -> Ve
 /// Commun. Probab. 12, 2007; cited from memory). Directions with eigenvalue below `σ̄·d` are
 /// dominated by noise. The factor 1 (rather than the bound's 1.8 or a safety factor 3) was
 /// chosen on the 8-site transverse-field Ising and 6-site Heisenberg chains at 10⁶–10⁸
-/// shots, K = 10: a factor 3 dropped directions the data resolve (energy bias ≈ 3e-2 at 10⁶
-/// shots), a factor 0.1 kept noise directions (errors of order 1 in some seeds), factors
-/// 0.3–1 gave the smallest errors and 1 never failed (measurements in
-/// tests/estimate_krylov.rs).
+/// shots, K = 10, dt = 0.2–0.3, six seeds each: a factor 3 dropped directions the data
+/// resolve (bias ≈ 3e-2 at 10⁶ shots), a factor 0.1 kept noise directions (errors of order 1
+/// in some seeds), factors 0.3–1 gave the smallest errors and 1 never failed (a development
+/// survey; tests/estimate_krylov.rs checks the default on both chains).
 pub fn default_threshold(std_errors: &[(f64, f64)], d: usize) -> f64 {
     let tail = &std_errors[1.min(std_errors.len())..];
     let sigma = if tail.is_empty() {

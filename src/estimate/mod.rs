@@ -13,6 +13,10 @@
 //! [`overlap_only`] (matrix pencil), [`dos`] (density of states), [`resample`] (exact
 //! multinomial draws for the bootstrap).
 //!
+//! Stochastic trace (trace plans): `tr U/2ⁿ` is the mean of `⟨ψ_s|U|ψ_s⟩` over random states
+//! whose average projector is `I/2ⁿ` (Hutchinson, Commun. Stat. Simul. Comput. 18, 1059
+//! (1989); cited from memory).
+//!
 //! Bootstrap (Efron & Tibshirani, *An Introduction to the Bootstrap*, 1993, ch. 6): every
 //! circuit's histogram is redrawn as Multinomial(shots, observed frequencies), everything is
 //! recomputed with the threshold of the original data, and the error bar is the standard
@@ -27,7 +31,7 @@ pub mod overlap_only;
 pub mod resample;
 
 use crate::family::plan::{Family, Plan};
-use crate::pauli::PauliSum;
+use crate::pauli::{Pauli, PauliSum};
 use counts::CountsFile;
 use expect::{ReadTable, Series};
 use num_complex::Complex64;
@@ -213,15 +217,18 @@ pub fn sample_noise(overlaps: &Series) -> f64 {
 }
 
 /// Point estimates (no error bars) for dimensions `1..=K`: `(krylov, kept, pencil)` for `H'`
-/// (constant not added). `h = None` selects the overlap-only sine pencil.
+/// (constant not added). `h = None` selects the overlap-only sine pencil. `center` is the mean
+/// energy `⟨ψ|H'|ψ⟩` (or an estimate): the shift of the sine pencil and the centre of the
+/// matrix pencil's energy window.
 pub fn point_estimates(
     s: &Series,
     h: Option<&Series>,
     dt: f64,
     thresholds: &[f64],
     pencil_noise: f64,
+    center: f64,
 ) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
-    point_estimates_shifted(s, h.map(|h| (h, 0.0)), dt, thresholds, pencil_noise)
+    point_estimates_shifted(s, h.map(|h| (h, 0.0)), dt, thresholds, pencil_noise, center)
 }
 
 /// As [`point_estimates`], with `h` given as `h_k − μ S_k` and its shift `μ`: the pencil is
@@ -232,14 +239,9 @@ pub fn point_estimates_shifted(
     dt: f64,
     thresholds: &[f64],
     pencil_noise: f64,
+    center: f64,
 ) -> Vec<(Option<krylov::Ritz>, Option<f64>)> {
     let k = s.len();
-    // Mean energy of the reference state: centre of the pencil's window and shift of the sine
-    // pencil (h'_0 = h_0 − μ, so h'_0 + μ is the mean energy either way).
-    let center = match h {
-        Some((h, mu)) => h.values[0].re + mu,
-        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
-    };
     let kry: Vec<Option<krylov::Ritz>> = (1..=k)
         .map(|d| {
             let eps = thresholds[d - 1];
@@ -273,7 +275,20 @@ fn energies(
     let (s, h) = energy_inputs(plan, table, weights)?;
     let eps = thresholds(&s, cfg.threshold);
     let noise = sample_noise(&s);
-    let point = point_estimates_shifted(&s, h.as_ref().map(|(h, mu)| (h, *mu)), dt, &eps, noise);
+    // Mean energy of the reference state: exact from the plan for product states, else
+    // h'_0 + μ (h'_0 = h_0 − μ), else the phase of S_1.
+    let center = product_state_mean(plan, 0).unwrap_or_else(|| match &h {
+        Some((h, mu)) => h.values[0].re + mu,
+        None => overlap_only::mean_energy_from_overlap(&s.values, dt),
+    });
+    let point = point_estimates_shifted(
+        &s,
+        h.as_ref().map(|(h, mu)| (h, *mu)),
+        dt,
+        &eps,
+        noise,
+        center,
+    );
     let kind = if h.is_some() {
         KrylovKind::Hamiltonian
     } else {
@@ -317,6 +332,7 @@ fn energies(
                     dt,
                     &eps,
                     noise,
+                    center,
                 )
                 .into_iter()
                 .map(|(k, p)| (k.map(|r| r.energy), p))
@@ -543,6 +559,35 @@ pub fn small_hamiltonian(plan: &Plan) -> Option<PauliSum> {
 /// Rebuilds `H` (constant included) from the plan's term list.
 pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
     plan.pauli_sum()
+}
+
+/// `⟨ψ_s|H − c|ψ_s⟩` for a product reference state written with the letters `0 1 + - r l`
+/// (qubit 0 first), computed exactly from the plan's terms; `None` for other state forms.
+pub fn product_state_mean(plan: &Plan, state: usize) -> Option<f64> {
+    let spec: Vec<char> = plan
+        .states
+        .get(state)?
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect();
+    if spec.len() != plan.hamiltonian.num_qubits || spec.iter().any(|c| !"01+-rl".contains(*c)) {
+        return None;
+    }
+    let h = plan_hamiltonian(plan).ok()?;
+    let mut mean = 0.0;
+    for (p, c) in h.term_list() {
+        let mut v = 1.0;
+        for (q, letter) in spec.iter().enumerate() {
+            v *= match (p.get(q), letter) {
+                (Pauli::I, _) => 1.0,
+                (Pauli::Z, '0') | (Pauli::X, '+') | (Pauli::Y, 'r') => 1.0,
+                (Pauli::Z, '1') | (Pauli::X, '-') | (Pauli::Y, 'l') => -1.0,
+                _ => 0.0,
+            };
+        }
+        mean += c * v;
+    }
+    Some(mean)
 }
 
 /// Map from a family to its name in plan.json.

@@ -20,11 +20,13 @@
 //! The ground-state estimate is the lowest `E'_l` among modes with `Re b_l` above
 //! [`MIN_WEIGHT`] (a noise-spawned mode carries weight of the order of the noise).
 //!
-//! A pole only fixes `E'` modulo `2π/dt`. We place every energy in the window
-//! `center ± π/dt`, with `center` the mean energy of the reference state (`h_0` when the plan
-//! measures it, else `−arg(S_1)/dt`, the first cumulant of the overlap): the modes that carry
-//! weight sit around the mean energy, so this window holds them whenever their spread is below
-//! `2π/dt`, even when the whole spectrum is wider.
+//! A pole only fixes `E'` modulo the period `P = 2π/dt`. We unwrap on the circle: the
+//! significant modes (weight ≥ [`MIN_WEIGHT`]) occupy an arc, and the circle is cut in the
+//! middle of the largest empty gap between them; the window `[cut, cut + P)` is then moved by
+//! a multiple of `P` so that it contains `center`, the mean energy `⟨ψ|H'|ψ⟩` of the reference
+//! state (computed from the plan for product states, else `h_0` or `−arg(S_1)/dt`). The mean
+//! is a weighted average of the mode energies, so it lies inside their arc whenever the
+//! weighted spectrum is narrower than `P`, even when the whole spectrum is wider.
 //! Tolerance: exact for a noiseless signal with at most `L` modes (tested to 1e-9).
 
 use super::krylov::at;
@@ -61,7 +63,8 @@ pub fn rank_cut(sigma_sample: f64, rows: usize, cols: usize, sigma_max: f64) -> 
 }
 
 /// Modes of the overlap series `s` (`s[0] = S_0`) sampled every `dt`, `σ̄` the noise of one
-/// sample, energies placed in `center ± π/dt`. Empty when fewer than 2 samples are given.
+/// sample, energies unwrapped around `center` (see the module docs). Empty when fewer than 2
+/// samples are given.
 pub fn matrix_pencil(s: &[Complex64], dt: f64, sigma_sample: f64, center: f64) -> Vec<Mode> {
     let k = s.len();
     if k < 2 {
@@ -103,12 +106,50 @@ pub fn matrix_pencil(s: &[Complex64], dt: f64, sigma_sample: f64, center: f64) -
         Ok(p) => p * rhs,
         Err(_) => return Vec::new(),
     };
+    let raw: Vec<f64> = (0..r).map(|c| -z[c].arg() / dt).collect();
+    let weights: Vec<Complex64> = (0..r).map(|c| b[(c, 0)]).collect();
+    let energies = unwrap_energies(&raw, &weights, dt, center);
     (0..r)
         .map(|c| Mode {
-            energy: center - (z[c] * Complex64::from_polar(1.0, center * dt)).arg() / dt,
+            energy: energies[c],
             modulus: z[c].norm(),
-            weight: b[(c, 0)],
+            weight: weights[c],
         })
+        .collect()
+}
+
+/// Places energies known modulo `P = 2π/dt` in one window of length `P`: cut the circle in the
+/// middle of the largest gap between significant modes, then shift the window to contain
+/// `center`.
+pub fn unwrap_energies(raw: &[f64], weights: &[Complex64], dt: f64, center: f64) -> Vec<f64> {
+    let period = 2.0 * std::f64::consts::PI / dt;
+    let wrap = |e: f64| e.rem_euclid(period);
+    let mut marks: Vec<f64> = raw
+        .iter()
+        .zip(weights)
+        .filter(|(_, w)| w.re >= MIN_WEIGHT)
+        .map(|(e, _)| wrap(*e))
+        .collect();
+    if marks.is_empty() {
+        marks = raw.iter().map(|e| wrap(*e)).collect();
+    }
+    marks.sort_by(f64::total_cmp);
+    // Largest circular gap: between marks[i] and marks[i+1] (and from the last around).
+    let mut cut = wrap(center + period / 2.0);
+    if let (Some(&first), Some(&last)) = (marks.first(), marks.last()) {
+        let mut best = (first + period - last, last);
+        for pair in marks.windows(2) {
+            if pair[1] - pair[0] > best.0 {
+                best = (pair[1] - pair[0], pair[0]);
+            }
+        }
+        cut = wrap(best.1 + best.0 / 2.0);
+    }
+    // Window [cut + mP, cut + (m+1)P) holding the centre.
+    let m = ((center - cut) / period).floor();
+    let start = cut + m * period;
+    raw.iter()
+        .map(|&e| start + (e - start).rem_euclid(period))
         .collect()
 }
 
@@ -174,8 +215,8 @@ mod tests {
     #[test]
     fn energies_outside_the_nyquist_window_are_placed_around_the_center() {
         // Levels −11 and −8 (equal weights) with dt = 0.3: π/dt = 10.47, so a window centred at
-        // 0 aliases −11 to +9.94; centred at the mean energy −9.5 (recovered exactly from
-        // arg S_1 for equal weights) both levels are found.
+        // 0 would alias −11 to +9.94; unwrapped around the mean energy −9.5 (recovered exactly
+        // from arg S_1 for equal weights) both levels are found.
         let dt = 0.3;
         let modes = [(-11.0, 0.5), (-8.0, 0.5)];
         let s: Vec<Complex64> = (0..5)
@@ -190,8 +231,9 @@ mod tests {
         assert!((center + 9.5).abs() < 1e-12, "center {center}");
         let found = matrix_pencil(&s, dt, 0.0, center);
         assert!((ground_energy(&found).unwrap() + 11.0).abs() < 1e-9);
-        let aliased = matrix_pencil(&s, dt, 0.0, 0.0);
-        assert!((ground_energy(&aliased).unwrap() + 8.0).abs() < 1e-9);
+        // A centre off by a few units still selects the same window (the cut sits in the gap).
+        let found = matrix_pencil(&s, dt, 0.0, -5.0);
+        assert!((ground_energy(&found).unwrap() + 11.0).abs() < 1e-9);
         // With h_0 known (krylov plans) the centre may lie outside (−π/dt, π/dt].
         let far: Vec<Complex64> = s
             .iter()
