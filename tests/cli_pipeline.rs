@@ -73,27 +73,31 @@ fn every_example_compiles_and_verifies() {
     );
 }
 
+/// `compile` of the bundled Ising ring (order 4, four points) into `out`.
+fn compile_ising(out: &Path) -> Command {
+    let mut cmd = phasewright();
+    cmd.args([
+        "compile",
+        "examples/ising_ring8.ham",
+        "--state",
+        "00000000",
+        "--dt",
+        "0.25",
+        "--points",
+        "4",
+        "--order",
+        "4",
+        "-o",
+    ])
+    .arg(out);
+    cmd
+}
+
 #[test]
 fn compile_writes_the_plan_and_one_file_per_circuit() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("ising");
-    let table = stdout_of(
-        phasewright()
-            .args([
-                "compile",
-                "examples/ising_ring8.ham",
-                "--state",
-                "00000000",
-                "--dt",
-                "0.25",
-                "--points",
-                "4",
-                "--order",
-                "4",
-                "-o",
-            ])
-            .arg(&out),
-    );
+    let table = stdout_of(&mut compile_ising(&out));
     assert!(table.contains("total"), "{table}");
     assert!(
         table.contains("calibration"),
@@ -118,23 +122,7 @@ fn compile_writes_the_plan_and_one_file_per_circuit() {
     }
     // Same inputs, same bytes.
     let again = dir.path().join("again");
-    stdout_of(
-        phasewright()
-            .args([
-                "compile",
-                "examples/ising_ring8.ham",
-                "--state",
-                "00000000",
-                "--dt",
-                "0.25",
-                "--points",
-                "4",
-                "--order",
-                "4",
-                "-o",
-            ])
-            .arg(&again),
-    );
+    stdout_of(&mut compile_ising(&again));
     for c in circuits {
         let f = c["file"].as_str().unwrap();
         assert_eq!(

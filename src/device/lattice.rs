@@ -36,7 +36,9 @@ pub fn ring(n: u32) -> Vec<Link> {
     finish(v)
 }
 
-pub fn grid(rows: u32, cols: u32) -> Vec<Link> {
+/// Row-major `rows × cols` sites with every horizontal link and the vertical links for which
+/// `vertical(r, c)` holds (between site (r, c) and (r+1, c)).
+fn rows_and_columns(rows: u32, cols: u32, vertical: impl Fn(u32, u32) -> bool) -> Vec<Link> {
     let mut v = Vec::new();
     for r in 0..rows {
         for c in 0..cols {
@@ -44,7 +46,7 @@ pub fn grid(rows: u32, cols: u32) -> Vec<Link> {
             if c + 1 < cols {
                 v.push(link(q, q + 1));
             }
-            if r + 1 < rows {
+            if r + 1 < rows && vertical(r, c) {
                 v.push(link(q, q + cols));
             }
         }
@@ -52,20 +54,12 @@ pub fn grid(rows: u32, cols: u32) -> Vec<Link> {
     finish(v)
 }
 
+pub fn grid(rows: u32, cols: u32) -> Vec<Link> {
+    rows_and_columns(rows, cols, |_, _| true)
+}
+
 pub fn brickwall(rows: u32, cols: u32) -> Vec<Link> {
-    let mut v = Vec::new();
-    for r in 0..rows {
-        for c in 0..cols {
-            let q = r * cols + c;
-            if c + 1 < cols {
-                v.push(link(q, q + 1));
-            }
-            if r + 1 < rows && (c + r) % 2 == 0 {
-                v.push(link(q, q + cols));
-            }
-        }
-    }
-    finish(v)
+    rows_and_columns(rows, cols, |r, c| (c + r) % 2 == 0)
 }
 
 pub fn full(n: u32) -> Vec<Link> {

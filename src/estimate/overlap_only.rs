@@ -187,18 +187,23 @@ pub fn mean_energy_from_overlap(s: &[Complex64], dt: f64) -> f64 {
 mod tests {
     use super::*;
 
-    #[test]
-    fn recovers_three_modes_exactly() {
-        let dt = 0.3;
-        let modes = [(-1.3, 0.5), (0.4, 0.3), (2.0, 0.2)];
-        let s: Vec<Complex64> = (0..6)
+    /// `S_k = Σ w e^{−iEk·dt}` for `k = 0..len`.
+    fn series(modes: &[(f64, f64)], dt: f64, len: usize) -> Vec<Complex64> {
+        (0..len)
             .map(|k| {
                 modes
                     .iter()
                     .map(|&(e, w)| Complex64::from_polar(w, -e * k as f64 * dt))
                     .sum()
             })
-            .collect();
+            .collect()
+    }
+
+    #[test]
+    fn recovers_three_modes_exactly() {
+        let dt = 0.3;
+        let modes = [(-1.3, 0.5), (0.4, 0.3), (2.0, 0.2)];
+        let s = series(&modes, dt, 6);
         let found = matrix_pencil(&s, dt, 0.0, 0.0);
         assert_eq!(found.len(), 3);
         for &(e, w) in &modes {
@@ -219,14 +224,7 @@ mod tests {
         // from arg S_1 for equal weights) both levels are found.
         let dt = 0.3;
         let modes = [(-11.0, 0.5), (-8.0, 0.5)];
-        let s: Vec<Complex64> = (0..5)
-            .map(|k| {
-                modes
-                    .iter()
-                    .map(|&(e, w)| Complex64::from_polar(w, -e * k as f64 * dt))
-                    .sum()
-            })
-            .collect();
+        let s = series(&modes, dt, 5);
         let center = mean_energy_from_overlap(&s, dt);
         assert!((center + 9.5).abs() < 1e-12, "center {center}");
         let found = matrix_pencil(&s, dt, 0.0, center);

@@ -516,6 +516,30 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
     Some(Device::new(&name, size as usize, &links, native_set, cal))
 }
 
+/// A calibrated gate must be a standard gate and native to the device; otherwise a diagnostic
+/// at the gate name (`hint` says what to write instead) and `false`.
+fn check_calibrated_gate(
+    cx: &mut Ctx,
+    gate: &str,
+    canonical_name: &str,
+    native: &[String],
+    hint: &str,
+) -> bool {
+    if !is_standard_gate(canonical_name) {
+        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
+        return false;
+    }
+    if !native.iter().any(|n| n == canonical_name) {
+        cx.err(
+            gate,
+            format!("`{gate}` is not a native gate of this device"),
+            Some(hint),
+        );
+        return false;
+    }
+    true
+}
+
 fn calibration(
     cx: &mut Ctx,
     stmts: &[(&str, Stmt)],
@@ -525,27 +549,21 @@ fn calibration(
 ) -> Calibration {
     let mut cal = Calibration::default();
     let mut seen: BTreeMap<String, ()> = BTreeMap::new();
-    let is_native = |g: &str| native.iter().any(|n| n == g);
     for (text, s) in stmts {
         match s {
             Stmt::Error(gate, target, rate_text) => {
                 let readout = matches!(*gate, "readout" | "measure");
                 let g = canonical(gate);
-                if !readout {
-                    if !is_standard_gate(g) {
-                        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
-                        continue;
-                    }
-                    if !is_native(g) {
-                        cx.err(
-                            gate,
-                            format!("`{gate}` is not a native gate of this device"),
-                            Some(
-                                "give error rates for the gates on the `native` line, or `readout`",
-                            ),
-                        );
-                        continue;
-                    }
+                if !readout
+                    && !check_calibrated_gate(
+                        cx,
+                        gate,
+                        g,
+                        native,
+                        "give error rates for the gates on the `native` line, or `readout`",
+                    )
+                {
+                    continue;
                 }
                 let rate = match rate_text.parse::<f64>() {
                     Ok(r) if (0.0..=1.0).contains(&r) => r,
@@ -628,19 +646,16 @@ fn calibration(
             Stmt::Time(gate, value, unit) => {
                 let measure = matches!(*gate, "measure" | "readout");
                 let g = if measure { "measure" } else { canonical(gate) };
-                if !measure {
-                    if !is_standard_gate(g) {
-                        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
-                        continue;
-                    }
-                    if !is_native(g) {
-                        cx.err(
-                            gate,
-                            format!("`{gate}` is not a native gate of this device"),
-                            Some("give times for the gates on the `native` line, or `measure`"),
-                        );
-                        continue;
-                    }
+                if !measure
+                    && !check_calibrated_gate(
+                        cx,
+                        gate,
+                        g,
+                        native,
+                        "give times for the gates on the `native` line, or `measure`",
+                    )
+                {
+                    continue;
                 }
                 let scale = match *unit {
                     "ns" => 1.0,

@@ -6,7 +6,7 @@
 //! SVG document as text; the caller writes it. Invariant: no file I/O here, and the same
 //! report always gives the same bytes.
 
-use crate::estimate::{DosReport, EnergyReport, KrylovKind};
+use crate::estimate::{DosReport, EnergyReport, EnergyRow, KrylovKind};
 use plotters::prelude::*;
 
 const WIDTH: u32 = 800;
@@ -28,6 +28,20 @@ struct Points {
     data: Vec<(f64, f64, f64)>,
 }
 
+/// `(dimension, energy, 2σ)` for every row where `pick` gives an energy.
+fn with_bars(
+    r: &EnergyReport,
+    pick: impl Fn(&EnergyRow) -> (Option<f64>, Option<f64>),
+) -> Vec<(f64, f64, f64)> {
+    r.rows
+        .iter()
+        .filter_map(|row| {
+            let (e, se) = pick(row);
+            e.map(|e| (row.dimension as f64, e, 2.0 * se.unwrap_or(0.0)))
+        })
+        .collect()
+}
+
 /// Energy against Krylov dimension, both estimators, with ±2σ error bars.
 pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
     let krylov_label = match r.kind {
@@ -39,37 +53,13 @@ pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
             label: krylov_label,
             color: KRYLOV_COLOR,
             offset: -0.08,
-            data: r
-                .rows
-                .iter()
-                .filter_map(|row| {
-                    row.krylov.map(|e| {
-                        (
-                            row.dimension as f64,
-                            e,
-                            2.0 * row.krylov_std_error.unwrap_or(0.0),
-                        )
-                    })
-                })
-                .collect(),
+            data: with_bars(r, |row| (row.krylov, row.krylov_std_error)),
         },
         Points {
             label: "matrix pencil",
             color: PENCIL_COLOR,
             offset: 0.08,
-            data: r
-                .rows
-                .iter()
-                .filter_map(|row| {
-                    row.pencil.map(|e| {
-                        (
-                            row.dimension as f64,
-                            e,
-                            2.0 * row.pencil_std_error.unwrap_or(0.0),
-                        )
-                    })
-                })
-                .collect(),
+            data: with_bars(r, |row| (row.pencil, row.pencil_std_error)),
         },
     ];
     // Range: every point with its bar, and the exact value; errors are clipped at 4 bar widths
