@@ -16,22 +16,16 @@ fn main() {
     ] {
         let strings: Vec<PauliString> = (0..10_000)
             .map(|_| loop {
-                let p = PauliString {
-                    x: rng.gen::<u64>() & mask,
-                    z: rng.gen::<u64>() & mask,
-                };
+                let (x, z) = (rng.gen::<u64>() & mask, rng.gen::<u64>() & mask);
                 let p = match weight {
-                    None => p,
+                    None => PauliString::from_masks(x, z),
                     Some(w) => {
                         // keep at most w random support qubits
                         let mut keep = 0u64;
                         for _ in 0..w {
                             keep |= 1 << rng.gen_range(0..24);
                         }
-                        PauliString {
-                            x: p.x & keep,
-                            z: p.z & keep,
-                        }
+                        PauliString::from_masks(x & keep, z & keep)
                     }
                 };
                 if !p.is_identity() {

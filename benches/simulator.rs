@@ -45,18 +45,14 @@ fn main() {
         (
             "rotation exp(-i0.3 X0 Y7 Z23)",
             Box::new(|s: &mut State| {
-                s.apply_pauli_rotation(
-                    &PauliString {
-                        x: 0x81,
-                        z: 0x80_0080,
-                    },
-                    0.3,
-                )
+                s.apply_pauli_rotation(&PauliString::from_masks(0x81, 0x80_0080), 0.3)
             }),
         ),
         (
             "rotation exp(-i0.3 Z0 Z1 Z2) (diagonal)",
-            Box::new(|s: &mut State| s.apply_pauli_rotation(&PauliString { x: 0, z: 0b111 }, 0.3)),
+            Box::new(|s: &mut State| {
+                s.apply_pauli_rotation(&PauliString::from_masks(0, 0b111), 0.3)
+            }),
         ),
         (
             "h on qubit 12",

@@ -100,7 +100,7 @@ pub fn check_plan_with_progress(
     let n = h.num_qubits;
     let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
     let terms = order_terms(&h);
-    let strings: Vec<PauliString> = h.terms.keys().copied().collect();
+    let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
     // References per (state, k), computed once and shared by all circuits that need them.
     let mut keys: Vec<(usize, usize)> = plan.circuits.iter().map(|e| (e.state, e.k)).collect();
     keys.sort_unstable();

@@ -16,13 +16,7 @@ fn random_sum(n: usize, seeds: &[(u64, u64, f64)]) -> PauliSum {
     let mask = (1u64 << n) - 1;
     let mut h = PauliSum::new(n);
     for &(x, z, c) in seeds {
-        h.add(
-            PauliString {
-                x: x & mask,
-                z: z & mask,
-            },
-            c,
-        );
+        h.add(PauliString::from_masks(x & mask, z & mask), c);
     }
     h
 }

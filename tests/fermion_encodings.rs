@@ -25,7 +25,11 @@ fn dense(terms: &[(Complex64, PauliString)], n: usize) -> DMatrix<Complex64> {
 }
 
 fn dense_map(map: &ComplexPauliMap, n: usize) -> DMatrix<Complex64> {
-    let v: Vec<(Complex64, PauliString)> = map.terms.iter().map(|(p, (c, _))| (*c, *p)).collect();
+    let v: Vec<(Complex64, PauliString)> = map
+        .terms
+        .iter()
+        .map(|(p, (c, _))| (*c, p.clone()))
+        .collect();
     dense(&v, n)
 }
 

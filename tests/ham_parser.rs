@@ -150,15 +150,15 @@ fn empty_file() {
 #[test]
 fn qubits_limit() {
     assert_eq!(
-        err("qubits 64\n"),
-        e(1, 8, "`qubits 64` exceeds the limit of 63 qubits")
+        err("qubits 4097\n"),
+        e(1, 8, "`qubits 4097` exceeds the limit of 4096 qubits")
     );
     assert_eq!(
         err("qubits 99999999999999999999999\n"),
         e(
             1,
             8,
-            "`qubits 99999999999999999999999` exceeds the limit of 63 qubits"
+            "`qubits 99999999999999999999999` exceeds the limit of 4096 qubits"
         )
     );
 }
@@ -674,10 +674,7 @@ fn arb_sum() -> impl Strategy<Value = PauliSum> {
                 let mut h = PauliSum::new(n);
                 h.constant = constant;
                 for (x, z, c) in terms {
-                    let p = PauliString {
-                        x: x & mask,
-                        z: z & mask,
-                    };
+                    let p = PauliString::from_masks(x & mask, z & mask);
                     if !p.is_identity() && !h.terms.contains_key(&p) {
                         h.terms.insert(p, c);
                     }

@@ -106,7 +106,7 @@ fn a_weight_w_rotation_on_all_to_all_costs_two_w_minus_one_cnots() {
             theta: 0.37,
         };
         let mut h = PauliSum::new(w);
-        h.add(r.pauli, 1.0);
+        h.add(r.pauli.clone(), 1.0);
         let dev = Device::all_to_all(w);
         let plan = plan_target(&h, false, &dev, &RouteConfig::default()).unwrap();
         let mut c = Circuit::new(w, 0);

@@ -62,10 +62,7 @@ fn random_hamiltonian(n: usize, terms: usize, rng: &mut ChaCha8Rng) -> PauliSum 
     let mut h = PauliSum::new(n);
     let mask = (1u64 << n) - 1;
     for _ in 0..terms {
-        let p = PauliString {
-            x: rng.gen::<u64>() & mask,
-            z: rng.gen::<u64>() & mask,
-        };
+        let p = PauliString::from_masks(rng.gen::<u64>() & mask, rng.gen::<u64>() & mask);
         if !p.is_identity() {
             h.add(p, rng.gen_range(-1.0..1.0));
         }

@@ -121,7 +121,7 @@ pub fn random_states(n: usize, count: usize, seed: u64) -> Vec<String> {
 /// Measurement-basis groups for the Krylov family: qubit-wise commuting groups of the terms
 /// (indices into `h.term_list()`), by largest-first colouring.
 pub fn krylov_groups(h: &PauliSum) -> Vec<Vec<usize>> {
-    let strings: Vec<PauliString> = h.terms.keys().copied().collect();
+    let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
     colour_groups(&strings, Compat::QubitWise)
 }
 
@@ -170,9 +170,8 @@ pub fn hadamard_test(
 
 /// The bits whose parity reads term `p` in a circuit measuring with [`hadamard_test`]'s layout.
 pub fn term_bits(p: &PauliString) -> Vec<u32> {
-    let s = p.support();
     std::iter::once(0)
-        .chain((0..64u32).filter(|q| (s >> q) & 1 == 1).map(|q| q + 1))
+        .chain(p.support_qubits().into_iter().map(|q| q as u32 + 1))
         .collect()
 }
 
@@ -197,9 +196,7 @@ pub fn build_jobs_with_terms(
 ) -> Vec<Job> {
     use rayon::prelude::*;
     let n = h.num_qubits;
-    let term_index: std::collections::BTreeMap<PauliString, usize> =
-        h.terms.keys().enumerate().map(|(i, p)| (*p, i)).collect();
-    let strings: Vec<PauliString> = h.terms.keys().copied().collect();
+    let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
     let groups = if spec.family == Family::Krylov {
         krylov_groups(h)
     } else {
@@ -246,7 +243,6 @@ pub fn build_jobs_with_terms(
             }
         }
     }
-    let _ = &term_index;
     descs
         .into_par_iter()
         .map(|d| {
@@ -266,10 +262,8 @@ pub fn build_jobs_with_terms(
                     let members = &groups[g];
                     let mut basis = PauliString::IDENTITY;
                     for &i in members {
-                        basis = PauliString {
-                            x: basis.x | strings[i].x,
-                            z: basis.z | strings[i].z,
-                        };
+                        basis.x.or_assign(&strings[i].x);
+                        basis.z.or_assign(&strings[i].z);
                     }
                     let reads = members
                         .iter()

@@ -15,7 +15,7 @@
 //! The canonical anticommutation relations of the images are tested for both encodings.
 
 use super::{FermionOp, Ladder, LadderOp};
-use crate::pauli::PauliString;
+use crate::pauli::{Bits, PauliString};
 use num_complex::Complex64;
 use std::collections::BTreeMap;
 use std::fmt;
@@ -60,39 +60,40 @@ impl FromStr for Encoding {
     }
 }
 
-/// Bit mask of the Bravyi–Kitaev update set of mode `j` on `n` modes.
-fn bk_update(j: usize, n: usize) -> u64 {
-    let mut m = 0;
+/// The Bravyi–Kitaev update set of mode `j` on `n` modes.
+fn bk_update(j: usize, n: usize) -> Bits {
+    let mut m = Bits::new();
     let mut k = j | (j + 1);
     while k < n {
-        m |= 1 << k;
+        m.insert(k);
         k |= k + 1;
     }
     m
 }
 
 /// Mask of the qubits whose stored ranges tile modes `lo … j−1` (a Fenwick prefix walk).
-fn bk_prefix(j: usize, lo: usize) -> u64 {
-    let mut m = 0;
+fn bk_prefix(j: usize, lo: usize) -> Bits {
+    let mut m = Bits::new();
     let mut k = j as i64 - 1;
     while k >= lo as i64 {
-        m |= 1 << k;
+        m.insert(k as usize);
         k = (k & (k + 1)) - 1;
     }
     m
 }
 
 /// Update, parity and remainder masks `(U, P, R)` of mode `j`.
-pub fn sets(enc: Encoding, j: usize, n: usize) -> (u64, u64, u64) {
+pub fn sets(enc: Encoding, j: usize, n: usize) -> (Bits, Bits, Bits) {
     match enc {
         Encoding::JordanWigner => {
-            let p = (1u64 << j) - 1;
-            (0, p, p)
+            let p = Bits::range(0, j);
+            (Bits::new(), p.clone(), p)
         }
         Encoding::BravyiKitaev => {
             let p = bk_prefix(j, 0);
             let f = bk_prefix(j, j & (j + 1));
-            (bk_update(j, n), p, p & !f)
+            let r = p.and_not(&f);
+            (bk_update(j, n), p, r)
         }
     }
 }
@@ -101,12 +102,15 @@ pub fn sets(enc: Encoding, j: usize, n: usize) -> (u64, u64, u64) {
 pub fn ladder_image(enc: Encoding, n: usize, op: LadderOp) -> [(Complex64, PauliString); 2] {
     let (j, kind) = op;
     let (u, p, r) = sets(enc, j, n);
-    let bit = 1u64 << j;
-    let xs = PauliString { x: u | bit, z: p };
-    let ys = PauliString {
-        x: u | bit,
-        z: r | bit,
+    let mut ux = u;
+    ux.insert(j);
+    let mut rz = r;
+    rz.insert(j);
+    let xs = PauliString {
+        x: ux.clone(),
+        z: p,
     };
+    let ys = PauliString { x: ux, z: rz };
     let y_coeff = match kind {
         Ladder::Create => Complex64::new(0.0, -0.5),
         Ladder::Annihilate => Complex64::new(0.0, 0.5),
@@ -197,14 +201,14 @@ mod tests {
         // independently): U(0) = {1, 3, 7}, U(4) = {5, 7}, P(6) = {3, 5} with F(6) = ∅,
         // P(7) = F(7) = {3, 5, 6}.
         let n = 8;
-        let (u, p, r) = sets(Encoding::BravyiKitaev, 4, n);
-        assert_eq!((u, p, r), (0b1010_0000, 0b0000_1000, 0b0000_1000));
-        let (u, p, r) = sets(Encoding::BravyiKitaev, 6, n);
-        assert_eq!((u, p, r), (0b1000_0000, 0b0010_1000, 0b0010_1000));
-        let (u, p, r) = sets(Encoding::BravyiKitaev, 7, n);
-        assert_eq!((u, p, r), (0, 0b0110_1000, 0));
-        let (u, p, r) = sets(Encoding::BravyiKitaev, 0, n);
-        assert_eq!((u, p, r), (0b1000_1010, 0, 0));
+        let masks = |j| {
+            let (u, p, r) = sets(Encoding::BravyiKitaev, j, n);
+            (u.low_u64(), p.low_u64(), r.low_u64())
+        };
+        assert_eq!(masks(4), (0b1010_0000, 0b0000_1000, 0b0000_1000));
+        assert_eq!(masks(6), (0b1000_0000, 0b0010_1000, 0b0010_1000));
+        assert_eq!(masks(7), (0, 0b0110_1000, 0));
+        assert_eq!(masks(0), (0b1000_1010, 0, 0));
     }
 
     #[test]

@@ -51,6 +51,11 @@ pub struct ChemInfo {
     pub dropped_roundoff: usize,
 }
 
+/// Largest number of spin orbitals for which reference determinants (Hartree–Fock, sector
+/// bases) are built: occupations are 64-bit words. Fermionic terms in `.ham` files are mapped at
+/// any width; only integral-file import and `hf` states stop here.
+pub const MAX_SPIN_ORBITALS: usize = 63;
+
 /// Occupation bits of the Hartree–Fock determinant: the lowest `N_α` α modes (`2p`) and the
 /// lowest `N_β` β modes (`2p + 1`), with `N_α − N_β = ms2`.
 pub fn hf_occupation(nelec: usize, ms2: i64) -> u64 {
@@ -73,7 +78,13 @@ pub fn check_hf_inputs(nelec: usize, ms2: i64, n_spin_orbitals: usize) -> Result
     }
     let (na, nb) = fcidump::alpha_beta(nelec, ms2);
     let orbitals = n_spin_orbitals / 2;
-    if na > orbitals || nb > orbitals || n_spin_orbitals > 63 {
+    if n_spin_orbitals > MAX_SPIN_ORBITALS {
+        return Err(format!(
+            "{n_spin_orbitals} spin orbitals: reference determinants are built for at most \
+             {MAX_SPIN_ORBITALS} (64-bit occupation words)"
+        ));
+    }
+    if na > orbitals || nb > orbitals {
         return Err(format!(
             "{na} α and {nb} β electrons do not fit {n_spin_orbitals} spin orbitals"
         ));
@@ -107,7 +118,7 @@ pub fn hermitian_part(
     for (p, (c, mag)) in &map.terms {
         let tol = ROUNDOFF_REL_TOL * mag;
         if c.im.abs() > tol {
-            return Err((*p, *c));
+            return Err((p.clone(), *c));
         }
         if c.re.abs() <= tol {
             if c.re != 0.0 {
@@ -118,7 +129,7 @@ pub fn hermitian_part(
         if p.is_identity() {
             h.constant = c.re;
         } else {
-            h.terms.insert(*p, c.re);
+            h.terms.insert(p.clone(), c.re);
         }
     }
     Ok((h, dropped))
@@ -132,11 +143,11 @@ pub fn qubit_hamiltonian_from_integrals(
     frozen_orbitals: usize,
 ) -> Result<(PauliSum, ChemInfo), String> {
     let n = 2 * ints.norb;
-    if n > crate::lang::ham::MAX_HAM_QUBITS {
+    if n > MAX_SPIN_ORBITALS {
         return Err(format!(
-            "{} spatial orbitals need {n} qubits, more than {}",
-            ints.norb,
-            crate::lang::ham::MAX_HAM_QUBITS
+            "{} spatial orbitals need {n} qubits; integral files are imported up to \
+             {MAX_SPIN_ORBITALS} spin orbitals",
+            ints.norb
         ));
     }
     check_hf_inputs(ints.nelec, ints.ms2, n)?;

@@ -77,7 +77,7 @@ pub fn lowest_in_sector(h: &PauliSum, basis: &[u64]) -> Option<f64> {
 pub fn basis_energy(h: &PauliSum, b: u64) -> f64 {
     let mut e = h.constant;
     for (p, c) in &h.terms {
-        if p.x == 0 {
+        if p.x.is_empty() {
             let (ph, _) = p.apply_to_basis(b);
             e += ph.re * c;
         }

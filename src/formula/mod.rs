@@ -20,7 +20,7 @@ use crate::pauli::{PauliString, PauliSum};
 use crate::sim::State;
 
 /// One factor `exp(-i θ P)` of a product formula.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Rotation {
     pub pauli: PauliString,
     pub theta: f64,
@@ -65,10 +65,10 @@ impl Order {
 /// (see `route::order_for_device`) but never across them.
 pub fn term_groups(h: &PauliSum) -> Vec<Vec<(PauliString, f64)>> {
     let terms = h.term_list();
-    let strings: Vec<PauliString> = terms.iter().map(|t| t.0).collect();
+    let strings: Vec<PauliString> = terms.iter().map(|t| t.0.clone()).collect();
     colour_groups(&strings, Compat::Commuting)
         .into_iter()
-        .map(|g| g.into_iter().map(|i| terms[i]).collect())
+        .map(|g| g.into_iter().map(|i| terms[i].clone()).collect())
         .collect()
 }
 
@@ -102,20 +102,20 @@ fn push_merged(out: &mut Vec<Rotation>, r: Rotation) {
 }
 
 fn strang(terms: &[(PauliString, f64)], dt: f64, out: &mut Vec<Rotation>) {
-    for &(p, c) in terms {
+    for (p, c) in terms {
         push_merged(
             out,
             Rotation {
-                pauli: p,
+                pauli: p.clone(),
                 theta: c * dt / 2.0,
             },
         );
     }
-    for &(p, c) in terms.iter().rev() {
+    for (p, c) in terms.iter().rev() {
         push_merged(
             out,
             Rotation {
-                pauli: p,
+                pauli: p.clone(),
                 theta: c * dt / 2.0,
             },
         );
@@ -126,11 +126,11 @@ fn strang(terms: &[(PauliString, f64)], dt: f64, out: &mut Vec<Rotation>) {
 pub fn step(terms: &[(PauliString, f64)], order: Order, dt: f64, out: &mut Vec<Rotation>) {
     match order {
         Order::First => {
-            for &(p, c) in terms {
+            for (p, c) in terms {
                 push_merged(
                     out,
                     Rotation {
-                        pauli: p,
+                        pauli: p.clone(),
                         theta: c * dt,
                     },
                 );
@@ -202,7 +202,7 @@ mod tests {
                 -0.2 * q as f64,
             ));
         }
-        psi.apply_pauli_rotation(&PauliString { x: 0b101, z: 0b011 }, 0.4);
+        psi.apply_pauli_rotation(&PauliString::from_masks(0b101, 0b011), 0.4);
         let mut s = psi.clone();
         apply_program(&mut s, &evolution(&terms, order, t, r));
         let exact = crate::sim::exact::evolve_taylor(h, &psi, t);
@@ -267,9 +267,9 @@ mod tests {
             let dt = 1.0 / r as f64;
             let mut naive = Vec::new();
             for _ in 0..r {
-                for &(p, c) in terms.iter().chain(terms.iter().rev()) {
+                for (p, c) in terms.iter().chain(terms.iter().rev()) {
                     naive.push(Rotation {
-                        pauli: p,
+                        pauli: p.clone(),
                         theta: c * dt / 2.0,
                     });
                 }

@@ -30,8 +30,9 @@ use num_complex::Complex64;
 use std::cell::RefCell;
 use std::collections::{BTreeMap, HashSet};
 
-/// Largest `qubits N`: bit 63 of the 64-bit masks is kept free for the Hadamard-test ancilla.
-pub const MAX_HAM_QUBITS: usize = 63;
+/// Largest `qubits N` (the Pauli strings' own bound; the Hadamard-test ancilla is one more
+/// circuit qubit, not a bit of the strings).
+pub const MAX_HAM_QUBITS: usize = crate::pauli::MAX_QUBITS;
 
 /// Relative bound on the imaginary part of a merged coefficient (see the module notes).
 pub const HERMITIAN_REL_TOL: f64 = 1e-12;
@@ -110,11 +111,12 @@ pub fn write_hamiltonian(h: &PauliSum, header_comment: &str) -> String {
         .terms
         .iter()
         .map(|(p, c)| {
-            let key = (0..p.span())
-                .filter(|&q| p.get(q) != Pauli::I)
+            let key = p
+                .support_qubits()
+                .into_iter()
                 .map(|q| (q, p.get(q).letter()))
                 .collect();
-            (key, *p, *c)
+            (key, p.clone(), *c)
         })
         .collect();
     terms.sort_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
@@ -1444,9 +1446,7 @@ impl<'s> Evaluator<'s> {
                     self.report(EvalErr::new(
                         *count_span,
                         msg,
-                        format!(
-                            "use 1 to {MAX_HAM_QUBITS}; one more qubit is reserved for the Hadamard-test ancilla"
-                        ),
+                        format!("use 1 to {MAX_HAM_QUBITS}"),
                     ));
                     return;
                 }
@@ -1676,9 +1676,11 @@ impl<'s> Evaluator<'s> {
         }
         let (phase, p) = PauliString::from_factors(&paulis);
         let c = c * phase;
-        self.add(p, c, t.span, true);
         if t.hc {
+            self.add(p.clone(), c, t.span, true);
             self.add(p, c.conj(), t.span, true);
+        } else {
+            self.add(p, c, t.span, true);
         }
         Ok(())
     }
@@ -1786,7 +1788,7 @@ impl<'s> Evaluator<'s> {
                 } else if p.is_identity() {
                     sum.constant = re;
                 } else {
-                    sum.terms.insert(*p, re);
+                    sum.terms.insert(p.clone(), re);
                 }
             }
         }
@@ -1880,6 +1882,18 @@ mod tests {
         let h = read("# comment lines may come first\n\nqubits 63\nZ62\n");
         assert_eq!(h.sum.num_qubits, 63);
         assert_eq!(h.sum.terms[&ps(&[(62, Pauli::Z)])], 1.0);
+        // Indices across 64-bit word boundaries and up to the limit.
+        let h = read("qubits 4096\nX63 Z64 Y127 X128\n0.5 Z4095\n");
+        assert_eq!(h.sum.num_qubits, 4096);
+        let wide = ps(&[
+            (63, Pauli::X),
+            (64, Pauli::Z),
+            (127, Pauli::Y),
+            (128, Pauli::X),
+        ]);
+        assert_eq!(h.sum.terms[&wide], 1.0);
+        assert_eq!(wide.to_factor_text(), "X63 Z64 Y127 X128");
+        assert_eq!(h.sum.terms[&ps(&[(4095, Pauli::Z)])], 0.5);
     }
 
     #[test]

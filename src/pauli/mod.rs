@@ -1,22 +1,25 @@
 //! Pauli strings as bit masks and real-coefficient Pauli sums.
 //!
 //! In: qubit indices and Pauli letters (from the parsers or from code). Out: [`PauliString`]
-//! values (two `u64` masks, so at most [`MAX_QUBITS`] qubits) and [`PauliSum`], a Hermitian
-//! operator `c·I + Σ_j c_j P_j` with real `c_j`, kept in a `BTreeMap` so every iteration order
-//! is deterministic.
+//! values (two [`Bits`] masks of any width up to [`MAX_QUBITS`] qubits) and [`PauliSum`], a
+//! Hermitian operator `c·I + Σ_j c_j P_j` with real `c_j`, kept in a `BTreeMap` so every
+//! iteration order is deterministic.
 //!
 //! Convention: a string with masks `(x, z)` denotes `i^{|x∧z|} X^x Z^z`, so a qubit with both
 //! bits set carries `Y = i·X·Z`. With that convention every string is Hermitian and two strings
-//! commute exactly when `|x₁∧z₂| + |z₁∧x₂|` is even (one popcount).
+//! commute exactly when `|x₁∧z₂| + |z₁∧x₂|` is even (one popcount per 64-qubit word).
 
+pub mod bits;
 pub mod group;
 
+pub use bits::Bits;
 use num_complex::Complex64;
 use std::collections::BTreeMap;
 use std::fmt;
 
-/// Largest number of qubits a [`PauliString`] can address (bits of a `u64`).
-pub const MAX_QUBITS: usize = 64;
+/// Largest number of qubits a [`PauliString`] may address in phasewright's inputs. The masks
+/// themselves have no width limit; this bound keeps inputs, plans and predicted memory sane.
+pub const MAX_QUBITS: usize = 4096;
 
 /// One tensor factor of a Pauli string.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -39,26 +42,48 @@ impl Pauli {
     }
 }
 
-/// A Hermitian Pauli string `i^{|x∧z|} X^x Z^z` on up to 64 qubits (qubit k is bit k).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
+/// A Hermitian Pauli string `i^{|x∧z|} X^x Z^z` (qubit k is member k of both masks).
+///
+/// Ordered by `x` then `z`, each compared as a binary number: for strings on qubits 0..64 this
+/// is the order of their `u64` masks.
+#[derive(Clone, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
 pub struct PauliString {
-    pub x: u64,
-    pub z: u64,
+    pub x: Bits,
+    pub z: Bits,
 }
 
 impl PauliString {
     /// The identity string.
-    pub const IDENTITY: PauliString = PauliString { x: 0, z: 0 };
+    pub const IDENTITY: PauliString = PauliString {
+        x: Bits::new(),
+        z: Bits::new(),
+    };
 
-    /// A single-qubit factor on qubit `q` (`q < 64`).
+    /// A string from two `u64` masks (qubits 0..64), for code and tests on small registers.
+    pub fn from_masks(x: u64, z: u64) -> PauliString {
+        PauliString {
+            x: Bits::from_u64(x),
+            z: Bits::from_u64(z),
+        }
+    }
+
+    /// A single-qubit factor on qubit `q`.
     pub fn single(q: usize, p: Pauli) -> PauliString {
-        assert!(q < MAX_QUBITS, "qubit index {q} exceeds the 64-qubit limit");
-        let bit = 1u64 << q;
+        let bit = Bits::single(q);
         match p {
             Pauli::I => PauliString::IDENTITY,
-            Pauli::X => PauliString { x: bit, z: 0 },
-            Pauli::Y => PauliString { x: bit, z: bit },
-            Pauli::Z => PauliString { x: 0, z: bit },
+            Pauli::X => PauliString {
+                x: bit,
+                z: Bits::new(),
+            },
+            Pauli::Y => PauliString {
+                x: bit.clone(),
+                z: bit,
+            },
+            Pauli::Z => PauliString {
+                x: Bits::new(),
+                z: bit,
+            },
         }
     }
 
@@ -77,9 +102,7 @@ impl PauliString {
 
     /// The factor on qubit `q`.
     pub fn get(&self, q: usize) -> Pauli {
-        let xb = (self.x >> q) & 1 == 1;
-        let zb = (self.z >> q) & 1 == 1;
-        match (xb, zb) {
+        match (self.x.contains(q), self.z.contains(q)) {
             (false, false) => Pauli::I,
             (true, false) => Pauli::X,
             (true, true) => Pauli::Y,
@@ -87,34 +110,57 @@ impl PauliString {
         }
     }
 
-    /// Mask of the qubits on which the string acts non-trivially.
-    pub fn support(&self) -> u64 {
-        self.x | self.z
+    /// The qubits on which the string acts non-trivially.
+    pub fn support(&self) -> Bits {
+        self.x.or(&self.z)
+    }
+
+    /// The support in ascending order, without building a mask.
+    pub fn support_qubits(&self) -> Vec<usize> {
+        let n = self.x.words().len().max(self.z.words().len());
+        let mut out = Vec::new();
+        for i in 0..n {
+            let mut w = self.x.words().get(i).copied().unwrap_or(0)
+                | self.z.words().get(i).copied().unwrap_or(0);
+            while w != 0 {
+                out.push(i * 64 + w.trailing_zeros() as usize);
+                w &= w - 1;
+            }
+        }
+        out
     }
 
     /// Number of non-identity factors.
     pub fn weight(&self) -> u32 {
-        self.support().count_ones()
+        let n = self.x.words().len().max(self.z.words().len());
+        (0..n)
+            .map(|i| {
+                (self.x.words().get(i).copied().unwrap_or(0)
+                    | self.z.words().get(i).copied().unwrap_or(0))
+                .count_ones()
+            })
+            .sum()
     }
 
     pub fn is_identity(&self) -> bool {
-        self.x == 0 && self.z == 0
+        self.x.is_empty() && self.z.is_empty()
     }
 
     /// Number of `Y` factors, `|x∧z|`.
     pub fn y_count(&self) -> u32 {
-        (self.x & self.z).count_ones()
+        self.x.and_count(&self.z)
     }
 
     /// True when the two strings commute (symplectic product is even).
+    #[inline]
     pub fn commutes_with(&self, other: &PauliString) -> bool {
-        ((self.x & other.z).count_ones() + (self.z & other.x).count_ones()).is_multiple_of(2)
+        (self.x.and_count(&other.z) + self.z.and_count(&other.x)).is_multiple_of(2)
     }
 
     /// True when the two strings commute qubit by qubit (on every shared qubit the letters agree).
     pub fn qubitwise_commutes_with(&self, other: &PauliString) -> bool {
-        let both = self.support() & other.support();
-        (self.x ^ other.x) & both == 0 && (self.z ^ other.z) & both == 0
+        let both = self.support().and(&other.support());
+        !self.x.xor(&other.x).intersects(&both) && !self.z.xor(&other.z).intersects(&both)
     }
 
     /// Product `self · other = phase · result`, `phase ∈ {±1, ±i}`.
@@ -122,23 +168,17 @@ impl PauliString {
     /// With `P = i^{a} X^{x1} Z^{z1}` and `Q = i^{b} X^{x2} Z^{z2}`, moving `Z^{z1}` past `X^{x2}`
     /// gives `(-1)^{|z1∧x2|}`, and the result's own `i^{|x∧z|}` is divided out.
     pub fn mul(&self, other: &PauliString) -> (Complex64, PauliString) {
-        let x = self.x ^ other.x;
-        let z = self.z ^ other.z;
-        let power = self.y_count() as i64
-            + other.y_count() as i64
-            + 2 * (self.z & other.x).count_ones() as i64
-            - (x & z).count_ones() as i64;
+        let x = self.x.xor(&other.x);
+        let z = self.z.xor(&other.z);
+        let power =
+            self.y_count() as i64 + other.y_count() as i64 + 2 * self.z.and_count(&other.x) as i64
+                - x.and_count(&z) as i64;
         (i_pow(power), PauliString { x, z })
     }
 
     /// Highest qubit index touched plus one (0 for the identity).
     pub fn span(&self) -> usize {
-        let s = self.support();
-        if s == 0 {
-            0
-        } else {
-            64 - s.leading_zeros() as usize
-        }
+        self.x.span().max(self.z.span())
     }
 
     /// Text form over `n` qubits, qubit 0 first, e.g. `XIZY`.
@@ -151,27 +191,40 @@ impl PauliString {
         if self.is_identity() {
             return "I".to_string();
         }
-        let mut parts = Vec::new();
-        for q in 0..self.span() {
-            let p = self.get(q);
-            if p != Pauli::I {
-                parts.push(format!("{}{}", p.letter(), q));
+        let mut out = String::new();
+        for q in self.support_qubits() {
+            if !out.is_empty() {
+                out.push(' ');
             }
+            out.push(self.get(q).letter());
+            out.push_str(&q.to_string());
         }
-        parts.join(" ")
+        out
     }
 
-    /// Applies the string to a computational basis state: `P|b⟩ = phase · |b'⟩`.
+    /// Applies the string to a computational basis state: `P|b⟩ = phase · |b'⟩`. For strings
+    /// on qubits 0..64 (statevector work never goes beyond).
     #[inline]
     pub fn apply_to_basis(&self, b: u64) -> (Complex64, u64) {
-        let sign_flips = (b & self.z).count_ones() as i64 * 2;
-        (i_pow(self.y_count() as i64 + sign_flips), b ^ self.x)
+        debug_assert!(self.span() <= 64, "basis states are 64-bit indices");
+        let (x, z) = (self.x.low_u64(), self.z.low_u64());
+        let sign_flips = (b & z).count_ones() as i64 * 2;
+        (i_pow((x & z).count_ones() as i64 + sign_flips), b ^ x)
+    }
+
+    /// The string with every qubit index raised by `by`.
+    pub fn shifted_up(&self, by: usize) -> PauliString {
+        PauliString {
+            x: self.x.shifted_up(by),
+            z: self.z.shifted_up(by),
+        }
     }
 }
 
 impl PauliString {
     /// Parses the sparse text form written by [`PauliString::to_factor_text`] (`X0 Y1 Z3`, or
-    /// `I`). Repeated qubits are rejected (the writer never produces them).
+    /// `I`). Repeated qubits and indices from [`MAX_QUBITS`] on are rejected (the writer never
+    /// produces them).
     pub fn parse_factor_text(text: &str) -> Option<PauliString> {
         let text = text.trim();
         if text == "I" {
@@ -190,11 +243,12 @@ impl PauliString {
             if q >= MAX_QUBITS || out.get(q) != Pauli::I {
                 return None;
             }
-            let f = PauliString::single(q, p);
-            out = PauliString {
-                x: out.x | f.x,
-                z: out.z | f.z,
-            };
+            if matches!(p, Pauli::X | Pauli::Y) {
+                out.x.insert(q);
+            }
+            if matches!(p, Pauli::Z | Pauli::Y) {
+                out.z.insert(q);
+            }
         }
         Some(out)
     }
@@ -242,16 +296,24 @@ impl PauliSum {
             self.constant += coeff;
             return;
         }
-        let e = self.terms.entry(p).or_insert(0.0);
-        *e += coeff;
-        if *e == 0.0 {
-            self.terms.remove(&p);
+        match self.terms.entry(p) {
+            std::collections::btree_map::Entry::Vacant(v) => {
+                if coeff != 0.0 {
+                    v.insert(coeff);
+                }
+            }
+            std::collections::btree_map::Entry::Occupied(mut o) => {
+                *o.get_mut() += coeff;
+                if *o.get() == 0.0 {
+                    o.remove();
+                }
+            }
         }
     }
 
     /// Terms as a vector in key order (deterministic).
     pub fn term_list(&self) -> Vec<(PauliString, f64)> {
-        self.terms.iter().map(|(p, c)| (*p, *c)).collect()
+        self.terms.iter().map(|(p, c)| (p.clone(), *c)).collect()
     }
 
     /// `Σ |c_j|` over the non-identity terms (the usual product-formula cost scale).
@@ -315,9 +377,9 @@ mod tests {
         let x = PauliString::single(0, Pauli::X);
         let y = PauliString::single(0, Pauli::Y);
         let z = PauliString::single(0, Pauli::Z);
-        assert_eq!(x.mul(&y), (Complex64::new(0.0, 1.0), z));
-        assert_eq!(y.mul(&z), (Complex64::new(0.0, 1.0), x));
-        assert_eq!(z.mul(&x), (Complex64::new(0.0, 1.0), y));
+        assert_eq!(x.mul(&y), (Complex64::new(0.0, 1.0), z.clone()));
+        assert_eq!(y.mul(&z), (Complex64::new(0.0, 1.0), x.clone()));
+        assert_eq!(z.mul(&x), (Complex64::new(0.0, 1.0), y.clone()));
         assert_eq!(y.mul(&x), (Complex64::new(0.0, -1.0), z));
         assert_eq!(y.mul(&y), (Complex64::new(1.0, 0.0), PauliString::IDENTITY));
     }
@@ -348,7 +410,7 @@ mod tests {
     fn sums_merge_and_drop_exact_zeros() {
         let mut h = PauliSum::new(2);
         let z0 = PauliString::single(0, Pauli::Z);
-        h.add(z0, 1.5);
+        h.add(z0.clone(), 1.5);
         h.add(z0, -1.5);
         h.add(PauliString::IDENTITY, 2.0);
         assert!(h.terms.is_empty());

@@ -25,8 +25,7 @@ pub fn interaction_weights(h: &PauliSum, ancilla: bool) -> Vec<f64> {
     let n = h.num_qubits + ancilla as usize;
     let mut w = vec![0.0; n * n];
     for p in h.terms.keys() {
-        let s = p.support();
-        let support: Vec<usize> = (0..64).filter(|q| (s >> q) & 1 == 1).collect();
+        let support = p.support_qubits();
         let k = support.len() as f64;
         for (i, &a) in support.iter().enumerate() {
             for &b in &support[i + 1..] {

@@ -44,10 +44,9 @@ pub struct DeviceOrder {
 
 /// A term's support as (physical site, logical qubit), ascending by logical qubit.
 fn sites(p: &PauliString, layout: &[u32]) -> Vec<(u32, Qubit)> {
-    let s = p.support();
-    (0..64u32)
-        .filter(|q| (s >> q) & 1 == 1)
-        .map(|q| (layout[q as usize], q))
+    p.support_qubits()
+        .into_iter()
+        .map(|q| (layout[q], q as Qubit))
         .collect()
 }
 
@@ -144,7 +143,7 @@ pub fn ancilla_walk(
     for (p, _) in terms {
         let (d, root, site) = nearest(pos, &sites(p, &plan.initial_layout), dev);
         length += d as u64;
-        roots.insert(*p, root);
+        roots.insert(p.clone(), root);
         pos = site;
     }
     (length, roots)
@@ -163,7 +162,7 @@ pub fn device_order(h: &PauliSum, plan: &TargetPlan, dev: &Device) -> DeviceOrde
         let supports: Vec<Vec<(u32, Qubit)>> = group.iter().map(|t| sites(&t.0, layout)).collect();
         for t in group_tour(&supports, pos, dev) {
             pos = nearest(pos, &supports[t], dev).2;
-            terms.push(group[t]);
+            terms.push(group[t].clone());
         }
     }
     let (length, roots) = ancilla_walk(&terms, plan, dev);

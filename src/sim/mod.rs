@@ -166,9 +166,11 @@ impl State {
     /// one select and two complex multiply-adds.
     pub fn apply_pauli_rotation(&mut self, p: &PauliString, theta: f64) {
         let (s, c) = theta.sin_cos();
-        let z = p.z as usize;
+        debug_assert!(p.span() <= 64, "statevectors index qubits 0..64");
+        let z = p.z.low_u64() as usize;
+        let x = p.x.low_u64();
         let odd = move |b: usize| (b & z).count_ones() & 1 == 1;
-        if p.x == 0 {
+        if x == 0 {
             // Diagonal: P|b⟩ = ±|b⟩, so the amplitude is multiplied by e^{∓iθ}.
             let f = [Complex64::new(c, -s), Complex64::new(c, s)];
             self.for_each_indexed(|b, a| *a *= f[odd(b) as usize]);
@@ -176,9 +178,9 @@ impl State {
         }
         let m = Complex64::new(0.0, -s) * crate::pauli::i_pow(p.y_count() as i64);
         let mm = [m, -m];
-        let h = 63 - p.x.leading_zeros();
+        let h = 63 - x.leading_zeros();
         let half = 1usize << h;
-        let xlow = (p.x as usize) & (half - 1);
+        let xlow = (x as usize) & (half - 1);
         let kernel = |(k, chunk): (usize, &mut [Complex64])| {
             let base = k * 2 * half;
             let (lo, hi) = chunk.split_at_mut(half);
@@ -334,14 +336,11 @@ mod tests {
                 use rand::{Rng, SeedableRng};
                 let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
                 let mask = (1u64 << n) - 1;
-                let p = PauliString {
-                    x: rng.gen::<u64>() & mask,
-                    z: rng.gen::<u64>() & mask,
-                };
+                let p = PauliString::from_masks(rng.gen::<u64>() & mask, rng.gen::<u64>() & mask);
                 let theta = rng.gen::<f64>() * 3.0 - 1.5;
                 let v = random_state(n, seed + 100);
                 let mut h = PauliSum::new(n);
-                h.add(p, 1.0);
+                h.add(p.clone(), 1.0);
                 let pv = if p.is_identity() {
                     v.amps.clone()
                 } else {

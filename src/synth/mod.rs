@@ -22,8 +22,11 @@ use crate::pauli::Pauli;
 
 /// The support of `r` in ascending order: the default ladder order (root = highest qubit).
 pub fn default_ladder(r: &Rotation) -> Vec<Qubit> {
-    let s = r.pauli.support();
-    (0..64u32).filter(|q| (s >> q) & 1 == 1).collect()
+    r.pauli
+        .support_qubits()
+        .into_iter()
+        .map(|q| q as Qubit)
+        .collect()
 }
 
 /// Basis change that maps the factor on each support qubit to Z (step 1).
@@ -117,7 +120,7 @@ mod tests {
     proptest! {
         #[test]
         fn rotations_are_exact_with_and_without_control(x in 0u64..16, z in 0u64..16, theta in -3.0f64..3.0) {
-            let r = Rotation { pauli: PauliString { x, z }, theta };
+            let r = Rotation { pauli: PauliString::from_masks(x, z), theta };
             prop_assume!(!r.pauli.is_identity());
             prop_assert!(rotation_error(&r, None, 4) < 1e-12);
             // Control on qubit 4: identity when off, exact rotation when on, no relative phase.
@@ -130,10 +133,7 @@ mod tests {
         // Nielsen & Chuang (2010) §4.7.3: exp(-iθ Z⊗…⊗Z) on w qubits uses 2(w−1) CNOTs.
         for w in 1..=6u32 {
             let r = Rotation {
-                pauli: PauliString {
-                    x: 0,
-                    z: (1u64 << w) - 1,
-                },
+                pauli: PauliString::from_masks(0, (1u64 << w) - 1),
                 theta: 0.3,
             };
             let cx = pauli_rotation(&r, None)
@@ -154,7 +154,7 @@ mod tests {
         // OpenQASM 3 specification, stdgates.inc: rz(λ) = exp(-iλZ/2) = diag(e^{-iλ/2}, e^{iλ/2}).
         // So exp(-iθZ) must come out as rz(2θ) with no further phase.
         let r = Rotation {
-            pauli: PauliString { x: 0, z: 1 },
+            pauli: PauliString::from_masks(0, 1),
             theta: 0.4,
         };
         assert_eq!(pauli_rotation(&r, None), vec![Gate::Rz(0, 0.8)]);
