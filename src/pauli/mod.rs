@@ -117,17 +117,22 @@ impl PauliString {
 
     /// The support in ascending order, without building a mask.
     pub fn support_qubits(&self) -> Vec<usize> {
-        let n = self.x.words().len().max(self.z.words().len());
-        let mut out = Vec::new();
-        for i in 0..n {
-            let mut w = self.x.words().get(i).copied().unwrap_or(0)
-                | self.z.words().get(i).copied().unwrap_or(0);
-            while w != 0 {
-                out.push(i * 64 + w.trailing_zeros() as usize);
-                w &= w - 1;
-            }
-        }
-        out
+        self.support_iter().collect()
+    }
+
+    /// The support in ascending order, lazily.
+    pub fn support_iter(&self) -> impl Iterator<Item = usize> + '_ {
+        let (xs, zs) = (self.x.words(), self.z.words());
+        (0..xs.len().max(zs.len())).flat_map(move |i| {
+            let mut w = xs.get(i).copied().unwrap_or(0) | zs.get(i).copied().unwrap_or(0);
+            std::iter::from_fn(move || {
+                (w != 0).then(|| {
+                    let t = w.trailing_zeros() as usize;
+                    w &= w - 1;
+                    i * 64 + t
+                })
+            })
+        })
     }
 
     /// Number of non-identity factors.
