@@ -49,6 +49,18 @@ fn files_for_every_example_device_are_native_coupled_and_correct() {
             "examples/line8.dev",
             "trace",
         ),
+        (
+            "examples/heisenberg_chain6.ham",
+            "010101",
+            "examples/hexchip127.dev",
+            "krylov",
+        ),
+        (
+            "examples/mixed_field4.ham",
+            "0+1r",
+            "examples/hexchip433.dev",
+            "overlap",
+        ),
     ];
     for (ham, state, dev_path, measure) in cases {
         let out = tmp.path().join(format!(
@@ -138,6 +150,42 @@ fn a_device_too_small_or_split_is_bad_input() {
         String::from_utf8_lossy(&r.stderr).contains("has 4 qubits"),
         "{}",
         String::from_utf8_lossy(&r.stderr)
+    );
+    assert!(!tmp.path().join("o").exists());
+}
+
+#[test]
+fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
+    let tmp = tempfile::tempdir().unwrap();
+    let bad = tmp.path().join("hex.dev");
+    std::fs::write(&bad, "native rz sx x cx\nlattice heavyhex 7 14\n").unwrap();
+    let r = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args([
+            "compile",
+            "examples/ising_ring8.ham",
+            "--state",
+            "00000000",
+            "--dt",
+            "0.1",
+            "--points",
+            "2",
+            "--device",
+        ])
+        .arg(&bad)
+        .arg("-o")
+        .arg(tmp.path().join("o"))
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&r.stderr);
+    assert!(
+        err.contains("hex.dev:2:20: heavy-hexagon rows have 4k + 3 qubits"),
+        "{err}"
+    );
+    assert!(
+        err.contains("2 | lattice heavyhex 7 14\n  |                    ^^"),
+        "{err}"
     );
     assert!(!tmp.path().join("o").exists());
 }

@@ -59,6 +59,145 @@ fn the_examples_parse_into_what_they_describe() {
     }
 }
 
+/// Degree of every qubit of `d`.
+fn degrees(d: &phasewright::device::Device) -> Vec<usize> {
+    (0..d.num_qubits as u32)
+        .map(|q| d.neighbours(q).len())
+        .collect()
+}
+
+#[test]
+fn the_heavy_hexagon_examples_parse_into_what_they_describe() {
+    // Counts from the hand derivation in src/device/lattice.rs (heavy-hexagon lattice of
+    // Chamberland, Zhu, Yoder, Hertzberg & Cross, Phys. Rev. X 10, 011022 (2020)):
+    // N = R·L − 2 + (R − 1)(L + 1)/4, E = R(L − 1) − 2 + (R − 1)(L + 1)/2.
+    let d127 = parse_device("hexchip127.dev", include_str!("../examples/hexchip127.dev")).unwrap();
+    assert_eq!(d127.name, "hexchip127");
+    assert_eq!(d127.num_qubits, 7 * 15 - 2 + 6 * 4);
+    assert_eq!(d127.num_qubits, 127);
+    // 144 couplings, less `cut 62 72`.
+    assert_eq!(d127.links().len(), 7 * 14 - 2 + 6 * 8 - 1);
+    assert!(!d127.coupled(62, 72) && d127.coupled(72, 81) && d127.coupled(0, 14));
+    assert_eq!(d127.native.one_qubit, OneQubitBasis::RzRy);
+    assert_eq!(d127.native.two_qubit, Entangler::Cz);
+    assert_eq!(
+        d127.gate_error(&phasewright::circuit::Gate::Cz(14, 0)),
+        0.021
+    );
+    assert_eq!(
+        d127.gate_error(&phasewright::circuit::Gate::Ry(13, 0.3)),
+        0.0012
+    );
+
+    let d433 = parse_device("hexchip433.dev", include_str!("../examples/hexchip433.dev")).unwrap();
+    assert_eq!(d433.num_qubits, 13 * 27 - 2 + 12 * 7);
+    assert_eq!(d433.num_qubits, 433);
+    // 504 couplings, less `cut 210 211`.
+    assert_eq!(d433.links().len(), 13 * 26 - 2 + 12 * 14 - 1);
+    assert_eq!(d433.native.one_qubit, OneQubitBasis::RxRy);
+    assert_eq!(d433.native.two_qubit, Entangler::Cx);
+    assert_eq!(d433.calibration.time_ns["measure"], 1600.0);
+
+    for d in [&d127, &d433] {
+        assert_eq!(d.components().len(), 1, "{} is connected", d.name);
+        assert!(degrees(d).iter().all(|&k| (1..=3).contains(&k)));
+        let links = d.links();
+        assert!(links.iter().all(|&(a, b)| a < b));
+        assert!(links.windows(2).all(|w| w[0] < w[1]), "sorted, no repeats");
+    }
+}
+
+#[test]
+fn heavyhex_lattices_of_several_sizes() {
+    // (R, L) -> N = R·L − 2 + (R − 1)(L + 1)/4 qubits, E = R(L − 1) − 2 + (R − 1)(L + 1)/2
+    // couplings (derivation in src/device/lattice.rs); the number of bridge qubits, each of
+    // degree 2 and between rows, is (R − 1)(L + 1)/4.
+    for (rows, len) in [
+        (2u32, 3u32),
+        (2, 7),
+        (3, 7),
+        (4, 11),
+        (5, 11),
+        (6, 19),
+        (9, 23),
+    ] {
+        let src = format!("native rz sx x cx\nlattice heavyhex {rows} {len}\n");
+        let d = parse_device("hh.dev", &src).unwrap();
+        let b = (len + 1) / 4;
+        let n = rows * len - 2 + (rows - 1) * b;
+        let e = rows * (len - 1) - 2 + 2 * (rows - 1) * b;
+        assert_eq!(d.num_qubits as u32, n, "{rows} {len}");
+        assert_eq!(d.links().len() as u32, e, "{rows} {len}");
+        assert_eq!(d.components().len(), 1, "{rows} {len}");
+        let deg = degrees(&d);
+        assert!(deg.iter().all(|&k| (1..=3).contains(&k)), "{rows} {len}");
+        // Euler: a connected planar graph has E − N + 1 bounded faces, one hexagonal cell
+        // between consecutive bridges of each gap: (R − 1)(b − 1).
+        assert_eq!(e + 1 - n, (rows - 1) * (b - 1), "{rows} {len}");
+    }
+}
+
+#[test]
+fn heavyhex_sizes_that_do_not_fit_are_diagnosed() {
+    // A row length that is not 4k + 3: caret under the length, nearest good lengths suggested.
+    let d = one_error("native rz sx x cx\nlattice heavyhex 7 14\n");
+    assert_eq!((d.line, d.column, d.width), (2, 20, 2));
+    assert!(d.message.contains("4k + 3"), "{}", d.message);
+    assert!(
+        d.hint.as_deref().unwrap().contains("11 or 15"),
+        "{:?}",
+        d.hint
+    );
+    let d = one_error("native rz sx x cx\nlattice heavyhex 3 2\n");
+    assert!(
+        d.hint.as_deref().unwrap().starts_with("try 3;"),
+        "{:?}",
+        d.hint
+    );
+    // One row: caret under the row count.
+    let d = one_error("native rz sx x cx\nlattice heavyhex 1 15\n");
+    assert_eq!((d.line, d.column, d.width), (2, 18, 1));
+    assert!(d.message.contains("at least 2 rows"), "{}", d.message);
+    // Arity.
+    let d = one_error("native rz sx x cx\nlattice heavyhex 7\n");
+    assert!(
+        d.message.contains("`heavyhex` takes 2 sizes"),
+        "{}",
+        d.message
+    );
+    assert!(d.hint.as_deref().unwrap().contains("heavyhex R L"));
+    // Too many qubits for phasewright: 40 rows of 55 are 2744 qubits.
+    let d = one_error("native rz sx x cx\nlattice heavyhex 40 55\n");
+    assert!(d.message.contains("2744-qubit lattice"), "{}", d.message);
+    // More than the device declares.
+    let d = one_error("qubits 100\nnative rz sx x cx\nlattice heavyhex 7 15\n");
+    assert!(
+        d.message.contains("127 qubits but the device declares 100"),
+        "{}",
+        d.message
+    );
+    // Huge numbers never overflow.
+    let d = one_error("native rz sx x cx\nlattice heavyhex 4294967295 4294967295\n");
+    assert_eq!(d.column, 18, "{}", d.message);
+}
+
+#[test]
+fn octagon_lattice_counts() {
+    // R × C squares: 4RC qubits, 4RC + R(C − 1) + (R − 1)C couplings (derivation in
+    // src/device/lattice.rs).
+    let d = parse_device("o.dev", "native rz sx x cx\nlattice octagon 2 3\n").unwrap();
+    assert_eq!(d.num_qubits, 24);
+    assert_eq!(d.links().len(), 24 + 2 * 2 + 3);
+    assert_eq!(d.components().len(), 1);
+    assert!(degrees(&d).iter().all(|&k| k == 2 || k == 3));
+    let d = one_error("native rz sx x cx\nlattice octagon 3\n");
+    assert!(
+        d.message.contains("`octagon` takes 2 sizes"),
+        "{}",
+        d.message
+    );
+}
+
 #[test]
 fn unknown_gate_name() {
     let d = one_error("qubits 2\nnative rz sx foo cx\nlattice line 2\n");
@@ -238,6 +377,8 @@ mod fuzz {
         "line",
         "ring",
         "brickwall",
+        "heavyhex",
+        "octagon",
         "full",
         "rz",
         "sx",
@@ -252,6 +393,8 @@ mod fuzz {
         "3",
         "12",
         "2048",
+        "15",
+        "7",
         "400",
         "99999999999",
         "0.5",

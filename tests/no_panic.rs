@@ -86,6 +86,8 @@ const DEV: &[&str] = &[
     "line ",
     "ring ",
     "brickwall ",
+    "heavyhex ",
+    "octagon ",
     "full ",
     "3 ",
     "4 ",

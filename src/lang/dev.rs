@@ -11,9 +11,10 @@
 //! `link`, `cut`, `error`, `time`. Lattices and links add couplings and cuts remove them, in
 //! file order; error rates and times are checked against the final coupling graph.
 
+use crate::device::lattice::{self, Lattice, ShapeError};
 use crate::device::native::{gate_arity, is_standard_gate};
-use crate::device::{lattice, Calibration, Device, Link, NativeSet};
-use crate::lang::diag::Diagnostic;
+use crate::device::{Calibration, Device, Link, NativeSet};
+use crate::lang::diag::{Diagnostic, LineIndex};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{alpha1, alphanumeric1, char, digit1, space0, space1};
@@ -137,7 +138,10 @@ fn statement(i: &str) -> Res<'_, Stmt<'_>> {
             preceded(
                 keyword("lattice"),
                 cut(pair(
-                    arg("a lattice kind (line, ring, grid, brickwall, full)", ident),
+                    arg(
+                        "a lattice kind (line, ring, grid, brickwall, heavyhex, octagon, full)",
+                        ident,
+                    ),
                     context("a lattice size", many1(preceded(space1, digit1))),
                 )),
             ),
@@ -204,6 +208,8 @@ struct Ctx<'s> {
     file: &'s str,
     src: &'s str,
     diags: Vec<Diagnostic>,
+    /// Line starts, built at the first diagnostic.
+    lines: Option<LineIndex>,
 }
 
 impl<'s> Ctx<'s> {
@@ -212,10 +218,13 @@ impl<'s> Ctx<'s> {
     }
 
     fn err(&mut self, at: &str, msg: impl Into<String>, hint: Option<&str>) {
-        let d = Diagnostic::at(
+        let offset = self.offset(at);
+        let lines = self.lines.get_or_insert_with(|| LineIndex::new(self.src));
+        let d = Diagnostic::at_indexed(
             self.file,
             self.src,
-            self.offset(at),
+            lines,
+            offset,
             at.len(),
             msg,
             hint.map(str::to_string),
@@ -255,6 +264,7 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
         file,
         src,
         diags: Vec::new(),
+        lines: None,
     };
     let mut stmts: Vec<(&str, Stmt)> = Vec::new();
     for raw in src.split('\n') {
@@ -358,31 +368,36 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                 if nums.len() != sizes.len() {
                     continue;
                 }
-                let arity = match *kind {
-                    "line" | "ring" | "full" => 1,
-                    "grid" | "brickwall" => 2,
-                    _ => {
+                let kinds_hint = format!("lattices are: {}", lattice::kinds_list());
+                let lat = match Lattice::new(kind, &nums) {
+                    Ok(lat) => lat,
+                    Err(ShapeError::UnknownKind) => {
+                        cx.err(kind, format!("unknown lattice `{kind}`"), Some(&kinds_hint));
+                        continue;
+                    }
+                    Err(ShapeError::Arity { expected }) => {
+                        let at = sizes.last().copied().unwrap_or(kind);
                         cx.err(
-                            kind,
-                            format!("unknown lattice `{kind}`"),
-                            Some("lattices are: line N, ring N, grid R C, brickwall R C, full N"),
+                            at,
+                            format!(
+                                "`{kind}` takes {expected} size{}",
+                                if expected == 1 { "" } else { "s" }
+                            ),
+                            Some(&kinds_hint),
                         );
                         continue;
                     }
+                    Err(ShapeError::Size {
+                        index,
+                        message,
+                        hint,
+                    }) => {
+                        let at = sizes.get(index).copied().unwrap_or(kind);
+                        cx.err(at, message, Some(&hint));
+                        continue;
+                    }
                 };
-                if nums.len() != arity {
-                    let at = sizes.last().copied().unwrap_or(kind);
-                    cx.err(
-                        at,
-                        format!(
-                            "`{kind}` takes {arity} size{}",
-                            if arity == 1 { "" } else { "s" }
-                        ),
-                        Some("lattices are: line N, ring N, grid R C, brickwall R C, full N"),
-                    );
-                    continue;
-                }
-                let total: u64 = nums.iter().map(|&v| v as u64).product();
+                let total = lat.qubits();
                 if total > MAX_DEVICE_QUBITS {
                     cx.err(
                         kind,
@@ -404,15 +419,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     }
                 }
                 size = size.max(total);
-                let links = match (*kind, nums.as_slice()) {
-                    ("line", [n]) => lattice::line(*n),
-                    ("ring", [n]) => lattice::ring(*n),
-                    ("full", [n]) => lattice::full(*n),
-                    ("grid", [r, c]) => lattice::grid(*r, *c),
-                    ("brickwall", [r, c]) => lattice::brickwall(*r, *c),
-                    _ => unreachable!("arity checked"),
-                };
-                couplings.extend(links);
+                couplings.extend(lat.links());
             }
             Stmt::Link(a, b) => ops.push((true, a, b)),
             Stmt::Cut(a, b) => ops.push((false, a, b)),
