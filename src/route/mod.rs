@@ -282,8 +282,7 @@ pub struct Routed {
 /// layout candidates are scored on.
 fn skeleton(h: &PauliSum, plan: &TargetPlan) -> Circuit {
     let n = plan.initial_layout.len();
-    let mut rotations = Vec::new();
-    step(&plan.terms(h), Order::Second, 1.0, &mut rotations);
+    let rotations = step(&plan.terms(h), Order::Second, 1.0);
     let mut c = Circuit::new(n, 0);
     if let Some(a) = plan.ancilla {
         c.push(Gate::H(a));
