@@ -70,7 +70,7 @@ impl Gate {
     }
 
     /// Qubits the gate acts on (control first for `cx`).
-    pub fn qubits(&self) -> Vec<Qubit> {
+    pub fn qubits(&self) -> smallvec::SmallVec<[Qubit; 2]> {
         match *self {
             Gate::H(q)
             | Gate::X(q)
@@ -84,17 +84,17 @@ impl Gate {
             | Gate::Rx(q, _)
             | Gate::Ry(q, _)
             | Gate::U(q, ..)
-            | Gate::Measure(q, _) => vec![q],
-            Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => vec![a, b],
+            | Gate::Measure(q, _) => smallvec::smallvec![q],
+            Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => smallvec::smallvec![a, b],
         }
     }
 
     /// Angle parameters in OpenQASM order.
-    pub fn params(&self) -> Vec<f64> {
+    pub fn params(&self) -> smallvec::SmallVec<[f64; 3]> {
         match *self {
-            Gate::Rz(_, a) | Gate::Rx(_, a) | Gate::Ry(_, a) => vec![a],
-            Gate::U(_, t, p, l) => vec![t, p, l],
-            _ => vec![],
+            Gate::Rz(_, a) | Gate::Rx(_, a) | Gate::Ry(_, a) => smallvec::smallvec![a],
+            Gate::U(_, t, p, l) => smallvec::smallvec![t, p, l],
+            _ => smallvec::SmallVec::new(),
         }
     }
 

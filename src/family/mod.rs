@@ -243,13 +243,18 @@ pub fn build_jobs_with_terms(
             }
         }
     }
+    // One rotation program per time point, shared by every circuit at that point.
+    let programs: Vec<Vec<Rotation>> = (0..spec.points)
+        .into_par_iter()
+        .map(|k| evolution(terms, spec.order, k as f64 * spec.dt, k * spec.steps_per_dt))
+        .collect();
     descs
         .into_par_iter()
         .map(|d| {
             let prep =
                 state_prep(&spec.states[d.state]).expect("states are validated before building");
             let time = d.k as f64 * spec.dt;
-            let program = evolution(terms, spec.order, time, d.k * spec.steps_per_dt);
+            let program = &programs[d.k];
             let (basis, reads) = match d.group {
                 None => (
                     None,

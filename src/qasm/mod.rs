@@ -17,7 +17,6 @@ mod read;
 pub use read::{read, QasmProgram};
 
 use crate::circuit::{Circuit, Gate};
-use std::fmt::Write;
 
 /// How qubits are addressed in the written file.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -35,51 +34,63 @@ pub fn fmt_angle(a: f64) -> String {
 
 /// Writes a circuit as an OpenQASM 3 program. `comments` become leading `//` lines.
 pub fn write(c: &Circuit, addressing: Addressing, comments: &[String]) -> String {
-    let mut s = String::with_capacity(32 * c.gates.len() + 256);
-    s.push_str("OPENQASM 3.0;\ninclude \"stdgates.inc\";\n");
+    let mut out = Vec::with_capacity(24 * c.gates.len() + 256);
+    write_to(&mut out, c, addressing, comments).expect("writing to memory cannot fail");
+    String::from_utf8(out).expect("the writer emits UTF-8")
+}
+
+/// Streams the program of [`write`] into `w` (a buffered file, say), gate by gate, without
+/// building the text in memory first.
+pub fn write_to(
+    w: &mut impl std::io::Write,
+    c: &Circuit,
+    addressing: Addressing,
+    comments: &[String],
+) -> std::io::Result<()> {
+    w.write_all(b"OPENQASM 3.0;\ninclude \"stdgates.inc\";\n")?;
     for line in comments {
-        let _ = writeln!(s, "// {line}");
+        writeln!(w, "// {line}")?;
     }
-    let q = |k: u32| match addressing {
-        Addressing::Logical => format!("q[{k}]"),
-        Addressing::Physical => format!("${k}"),
+    let q = |w: &mut dyn std::io::Write, k: u32| match addressing {
+        Addressing::Logical => write!(w, "q[{k}]"),
+        Addressing::Physical => write!(w, "${k}"),
     };
     if addressing == Addressing::Logical {
-        let _ = writeln!(s, "qubit[{}] q;", c.num_qubits);
+        writeln!(w, "qubit[{}] q;", c.num_qubits)?;
     }
     if c.num_clbits > 0 {
-        let _ = writeln!(s, "bit[{}] c;", c.num_clbits);
+        writeln!(w, "bit[{}] c;", c.num_clbits)?;
     }
     if c.global_phase != 0.0 {
-        let _ = writeln!(s, "gphase({});", fmt_angle(c.global_phase));
+        writeln!(w, "gphase({:?});", c.global_phase)?;
     }
     for g in &c.gates {
         if let Gate::Measure(qb, bit) = *g {
-            let _ = writeln!(s, "c[{bit}] = measure {};", q(qb));
+            write!(w, "c[{bit}] = measure ")?;
+            q(w, qb)?;
+            w.write_all(b";\n")?;
             continue;
         }
-        s.push_str(g.name());
+        w.write_all(g.name().as_bytes())?;
         let params = g.params();
         if !params.is_empty() {
-            s.push('(');
-            s.push_str(
-                &params
-                    .iter()
-                    .map(|a| fmt_angle(*a))
-                    .collect::<Vec<_>>()
-                    .join(", "),
-            );
-            s.push(')');
+            w.write_all(b"(")?;
+            for (i, a) in params.iter().enumerate() {
+                if i > 0 {
+                    w.write_all(b", ")?;
+                }
+                write!(w, "{a:?}")?;
+            }
+            w.write_all(b")")?;
         }
-        s.push(' ');
-        s.push_str(
-            &g.qubits()
-                .iter()
-                .map(|k| q(*k))
-                .collect::<Vec<_>>()
-                .join(", "),
-        );
-        s.push_str(";\n");
+        w.write_all(b" ")?;
+        for (i, k) in g.qubits().iter().enumerate() {
+            if i > 0 {
+                w.write_all(b", ")?;
+            }
+            q(w, *k)?;
+        }
+        w.write_all(b";\n")?;
     }
-    s
+    Ok(())
 }
