@@ -280,7 +280,7 @@ pub fn build_jobs_with_terms(
                     (Some(basis), reads)
                 }
             };
-            let circuit = hadamard_test(n, &prep, &program, d.part, basis.as_ref(), ladder);
+            let circuit = hadamard_test(n, &prep, program, d.part, basis.as_ref(), ladder);
             Job {
                 id: d.id,
                 k: d.k,
