@@ -28,7 +28,7 @@ use nom::error::{context, ContextError, ErrorKind, ParseError};
 use nom::{IResult, Offset};
 use num_complex::Complex64;
 use std::cell::RefCell;
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{HashMap, HashSet};
 
 /// Largest `qubits N` (the Pauli strings' own bound; the Hadamard-test ancilla is one more
 /// circuit qubit, not a bit of the strings).
@@ -1176,7 +1176,7 @@ struct Evaluator<'s> {
     scope: Vec<(String, Val, Span)>,
     diags: Vec<(usize, Diagnostic)>,
     reported: HashSet<usize>,
-    acc: BTreeMap<PauliString, Acc>,
+    acc: HashMap<PauliString, Acc>,
     terms_read: usize,
     steps: usize,
     aborted: bool,
@@ -1208,7 +1208,7 @@ impl<'s> Evaluator<'s> {
             scope: Vec::new(),
             diags: Vec::new(),
             reported: HashSet::new(),
-            acc: BTreeMap::new(),
+            acc: HashMap::new(),
             terms_read: 0,
             steps: 0,
             aborted: false,
@@ -1758,7 +1758,11 @@ impl<'s> Evaluator<'s> {
             None
         };
         if self.diags.is_empty() {
-            let acc = std::mem::take(&mut self.acc);
+            // Hashed while reading (one probe per term), sorted once here: the sum's order.
+            let mut acc: Vec<(PauliString, Acc)> =
+                std::mem::take(&mut self.acc).into_iter().collect();
+            acc.sort_unstable_by(|a, b| a.0.cmp(&b.0));
+            let mut kept = Vec::with_capacity(acc.len());
             for (p, a) in &acc {
                 if a.sum.im.abs() > HERMITIAN_REL_TOL * a.magnitude {
                     let what = if p.is_identity() {
@@ -1788,9 +1792,10 @@ impl<'s> Evaluator<'s> {
                 } else if p.is_identity() {
                     sum.constant = re;
                 } else {
-                    sum.terms.insert(p.clone(), re);
+                    kept.push((p.clone(), re));
                 }
             }
+            sum.terms = kept.into_iter().collect();
         }
         if !self.diags.is_empty() {
             self.diags.sort_by_key(|(o, _)| *o);

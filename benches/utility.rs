@@ -1,0 +1,203 @@
+//! Utility-scale figures, each a ratio measured in the same run (never an absolute time alone):
+//!
+//! 1. parse: a generated 10⁶-term `.ham` on 200 qubits, parse + write back (what `convert`
+//!    does) ÷ (read the file + write the same bytes);
+//! 2. compile: a 10⁵-term, 120-qubit Hamiltonian, one second-order step per point, overlap
+//!    family, 5 points, all-to-all: compile + write the files ÷ write the same bytes; peak
+//!    resident memory of the process (VmHWM) printed beside it;
+//! 3. scaling: compile time (one time point past 0: the Re and Im circuits of one Strang step)
+//!    at 10³…10⁶ terms on 120 qubits, and at 64…1,024 qubits with 100 terms per qubit; the
+//!    least-squares exponent of time against size is printed.
+//!
+//! Sizes can be cut for a quick look: `PHASEWRIGHT_BENCH_QUICK=1 cargo bench --bench utility`
+//! (the largest sizes are dropped). The device figures live in `benches/utility_device.rs`.
+
+use phasewright::family::plan::Family;
+use phasewright::family::Spec;
+use phasewright::formula::Order;
+use phasewright::lang::ham::{parse_hamiltonian, write_hamiltonian};
+use phasewright::pauli::PauliSum;
+use phasewright::pipeline::compile;
+use rand::{Rng, SeedableRng};
+use std::io::Write;
+use std::path::Path;
+use std::time::Instant;
+
+/// A random local Hamiltonian as `.ham` text: `m` distinct strings of weight 1–4 on `n` qubits,
+/// coefficients uniform in (−1, 1).
+fn random_ham_text(n: usize, m: usize, seed: u64) -> String {
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let mut seen = std::collections::HashSet::new();
+    let mut out = format!("qubits {n}\n");
+    while seen.len() < m {
+        let w = rng.gen_range(1..=4usize).min(n);
+        let mut qs: Vec<usize> = Vec::with_capacity(w);
+        while qs.len() < w {
+            let q = rng.gen_range(0..n);
+            if !qs.contains(&q) {
+                qs.push(q);
+            }
+        }
+        qs.sort_unstable();
+        let term: String = qs
+            .iter()
+            .map(|q| format!("{}{q}", ['X', 'Y', 'Z'][rng.gen_range(0..3)]))
+            .collect::<Vec<_>>()
+            .join(" ");
+        if seen.insert(term.clone()) {
+            out.push_str(&format!("{:.6} {term}\n", rng.gen_range(-1.0..1.0)));
+        }
+    }
+    out
+}
+
+fn parse(text: &str) -> PauliSum {
+    parse_hamiltonian("bench.ham", text)
+        .unwrap_or_else(|d| panic!("generated text parses: {}", d[0].message))
+        .sum
+}
+
+fn peak_rss_mb() -> f64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines()
+                .find(|l| l.starts_with("VmHWM:"))
+                .and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
+        })
+        .map_or(f64::NAN, |kb| kb / 1024.0)
+}
+
+fn spec(n: usize, points: usize) -> Spec {
+    Spec {
+        family: Family::Overlap,
+        order: Order::Second,
+        dt: 0.1,
+        points,
+        steps_per_dt: 1,
+        states: vec!["0".repeat(n)],
+    }
+}
+
+/// Writes every program into `dir` through a buffered writer; returns the bytes written.
+fn write_all(dir: &Path, programs: &[String]) -> usize {
+    std::fs::create_dir_all(dir).unwrap();
+    let mut bytes = 0;
+    for (i, p) in programs.iter().enumerate() {
+        let f = std::fs::File::create(dir.join(format!("c{i:03}.qasm"))).unwrap();
+        let mut w = std::io::BufWriter::with_capacity(1 << 20, f);
+        w.write_all(p.as_bytes()).unwrap();
+        w.flush().unwrap();
+        bytes += p.len();
+    }
+    bytes
+}
+
+/// Seconds to compile `h` (all-to-all, [`spec`]) and write the files.
+fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
+    let t = Instant::now();
+    let c = compile(h, "bench.ham", &spec(h.num_qubits, points)).expect("compiles");
+    let bytes = write_all(dir, &c.programs);
+    (t.elapsed().as_secs_f64(), bytes)
+}
+
+/// Least-squares slope of ln(time) against ln(size).
+fn exponent(points: &[(f64, f64)]) -> f64 {
+    let n = points.len() as f64;
+    let (lx, ly): (Vec<f64>, Vec<f64>) = points.iter().map(|(x, y)| (x.ln(), y.ln())).unzip();
+    let (mx, my) = (lx.iter().sum::<f64>() / n, ly.iter().sum::<f64>() / n);
+    let cov: f64 = lx.iter().zip(&ly).map(|(x, y)| (x - mx) * (y - my)).sum();
+    let var: f64 = lx.iter().map(|x| (x - mx) * (x - mx)).sum();
+    cov / var
+}
+
+fn main() {
+    let quick = std::env::var_os("PHASEWRIGHT_BENCH_QUICK").is_some();
+    let scratch = tempfile::tempdir().expect("scratch folder");
+    println!(
+        "utility benchmark: {} cores, rayon threads {}",
+        std::thread::available_parallelism().map_or(0, |n| n.get()),
+        rayon::current_num_threads()
+    );
+
+    // 1. parse + write back vs read + write the same bytes.
+    let m_parse = if quick { 100_000 } else { 1_000_000 };
+    let text = random_ham_text(200, m_parse, 1);
+    let src = scratch.path().join("in.ham");
+    std::fs::write(&src, &text).unwrap();
+    let t = Instant::now();
+    let read = std::fs::read_to_string(&src).unwrap();
+    std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
+    let io_s = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let read = std::fs::read_to_string(&src).unwrap();
+    let h = parse(&read);
+    let out = write_hamiltonian(&h, "bench");
+    std::fs::write(scratch.path().join("out.ham"), &out).unwrap();
+    let conv_s = t.elapsed().as_secs_f64();
+    println!(
+        "parse   {m_parse} terms on 200 qubits ({:.1} MB): convert {conv_s:.2} s, read+write {io_s:.3} s, ratio {:.0} (target <= 10)",
+        text.len() as f64 / 1e6,
+        conv_s / io_s
+    );
+    drop((text, read, h, out));
+
+    // 2. compile 10^5 terms on 120 qubits vs writing the same bytes.
+    let m_comp = if quick { 10_000 } else { 100_000 };
+    let h = parse(&random_ham_text(120, m_comp, 2));
+    let (comp_s, bytes) = compile_and_write(&h, 5, &scratch.path().join("campaign"));
+    let c = compile(&h, "bench.ham", &spec(120, 5)).expect("compiles");
+    let t = Instant::now();
+    write_all(&scratch.path().join("copy"), &c.programs);
+    let write_s = t.elapsed().as_secs_f64();
+    drop(c);
+    println!(
+        "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {:.0} MB",
+        bytes as f64 / 1e6,
+        comp_s / write_s,
+        peak_rss_mb()
+    );
+
+    // 3. scaling in terms (120 qubits) and in qubits (100 terms per qubit).
+    let term_sizes: &[usize] = if quick {
+        &[1_000, 3_000, 10_000]
+    } else {
+        &[1_000, 10_000, 100_000, 1_000_000]
+    };
+    let mut pts = Vec::new();
+    for &m in term_sizes {
+        let h = parse(&random_ham_text(120, m, 3));
+        let (s, bytes) = compile_and_write(&h, 2, &scratch.path().join(format!("t{m}")));
+        std::fs::remove_dir_all(scratch.path().join(format!("t{m}"))).ok();
+        println!(
+            "  terms {m:>8} on 120 qubits: {s:8.2} s ({:.0} MB)",
+            bytes as f64 / 1e6
+        );
+        pts.push((m as f64, s));
+    }
+    println!(
+        "scaling in terms: exponent {:.2} (target <= 1.15)",
+        exponent(&pts)
+    );
+    let widths: &[usize] = if quick {
+        &[64, 128, 256]
+    } else {
+        &[64, 128, 256, 1024]
+    };
+    let mut pts = Vec::new();
+    for &n in widths {
+        let h = parse(&random_ham_text(n, 100 * n, 4));
+        let (s, bytes) = compile_and_write(&h, 2, &scratch.path().join(format!("q{n}")));
+        std::fs::remove_dir_all(scratch.path().join(format!("q{n}"))).ok();
+        println!(
+            "  qubits {n:>5}, {} terms: {s:8.2} s ({:.0} MB)",
+            100 * n,
+            bytes as f64 / 1e6
+        );
+        pts.push((n as f64, s));
+    }
+    println!(
+        "scaling in qubits (100 terms per qubit): exponent {:.2} (target <= 1.3)",
+        exponent(&pts)
+    );
+}
