@@ -18,7 +18,7 @@
 
 use crate::circuit::metrics::counts;
 use crate::circuit::verify::{verify_ir, IrError, Rules};
-use crate::circuit::Circuit;
+use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
@@ -45,6 +45,8 @@ pub enum Target<'a> {
 #[derive(Debug)]
 pub enum CompileError {
     DoesNotFit(String),
+    /// The predicted peak memory exceeds what the machine has (see [`predicted_memory`]).
+    TooLarge(String),
     Ir(IrError),
 }
 
@@ -61,8 +63,61 @@ impl From<CompileError> for crate::error::Error {
                 m,
                 Some("choose a larger device, or one whose coupling graph is connected"),
             ),
+            CompileError::TooLarge(m) => crate::error::Error::usage(
+                m,
+                Some("use fewer --points or --steps, a lower --order, or fewer terms (a cutoff on small coefficients)"),
+            ),
             CompileError::Ir(e) => crate::error::Error::Ir(e),
         }
+    }
+}
+
+const GIB: f64 = (1u64 << 30) as f64;
+
+/// What a campaign will cost before any of it is built: an upper estimate from the sizes alone.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Prediction {
+    pub circuits: usize,
+    /// Rotations over all circuits, before merging (merging only lowers it).
+    pub rotations: u128,
+    /// Gates over all circuits: per rotation a basis change and its undoing, a CNOT ladder and
+    /// its mirror, and the controlled `rz` (4 gates); on a device, three times that for SWAPs
+    /// and native lowering (a bound from the routing benchmarks, common practice).
+    pub gates: u128,
+    /// Peak bytes: every gate held as IR and as OpenQASM text, plus every rotation.
+    pub bytes: u128,
+}
+
+/// Predicts the size of the campaign `spec` makes of `h` ([`Prediction`]).
+pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
+    let m = h.terms.len() as u128;
+    let weight: u128 = h.terms.keys().map(|p| p.weight() as u128).sum();
+    let per_step = match spec.order {
+        crate::formula::Order::First => 1,
+        crate::formula::Order::Second => 2,
+        crate::formula::Order::Fourth => 10,
+    };
+    let per_circuit = |k: u128| k * spec.steps_per_dt as u128 * per_step;
+    let reads_per_point: u128 = match spec.family {
+        crate::family::plan::Family::Krylov => 2 * (1 + m.min(4096)),
+        _ => 2 * spec.states.len().max(1) as u128,
+    };
+    let points = spec.points as u128;
+    let circuits = (points.saturating_sub(1) * reads_per_point) as usize;
+    let steps: u128 = (1..points).map(per_circuit).sum::<u128>() * reads_per_point;
+    let rotations = steps * m;
+    // Basis change + undo ≤ 2·2w, ladder + mirror 2(w−1), controlled rz 4: at most 6w + 2.
+    let mut gates = steps * (6 * weight + 2 * m);
+    if device {
+        gates *= 3;
+    }
+    let bytes = gates * (std::mem::size_of::<Gate>() as u128 + 24)
+        + rotations * std::mem::size_of::<crate::formula::Rotation>() as u128;
+    Prediction {
+        circuits,
+        rotations,
+        gates,
+        bytes,
     }
 }
 
@@ -92,13 +147,10 @@ pub fn hamiltonian_info(h: &PauliSum, source: &str) -> HamiltonianInfo {
     }
 }
 
-/// Runs the passes for the all-to-all target.
-pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, IrError> {
-    match compile_for(h, source, spec, &Target::AllToAll) {
-        Ok(c) => Ok(c),
-        Err(CompileError::Ir(e)) => Err(e),
-        Err(CompileError::DoesNotFit(m)) => unreachable!("all-to-all always fits: {m}"),
-    }
+/// Runs the passes for the all-to-all target (which every problem fits; a campaign may still
+/// be too large for the machine's memory).
+pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, CompileError> {
+    compile_for(h, source, spec, &Target::AllToAll)
 }
 
 /// One circuit after the target-specific passes.
@@ -115,6 +167,19 @@ pub fn compile_for(
     spec: &Spec,
     target: &Target,
 ) -> Result<Compiled, CompileError> {
+    let predicted = predicted_memory(h, spec, matches!(target, Target::Device { .. }));
+    if let Some(avail) = crate::sim::available_memory_bytes() {
+        if predicted.bytes > avail {
+            return Err(CompileError::TooLarge(format!(
+                "this campaign needs about {:.1} GiB ({} circuits, about {:.2e} rotations and {:.2e} gates) but only {:.1} GiB is available",
+                predicted.bytes as f64 / GIB,
+                predicted.circuits,
+                predicted.rotations as f64,
+                predicted.gates as f64,
+                avail as f64 / GIB
+            )));
+        }
+    }
     let (jobs, device_info, addressing) = match target {
         Target::AllToAll => {
             let default_ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);

@@ -40,18 +40,23 @@ pub fn available_memory_bytes() -> Option<u128> {
     Some(kib * 1024)
 }
 
+/// What to do instead when a circuit is too wide to simulate.
+pub const SIM_HINT: &str =
+    "`verify --method tableau` proves wide circuits equivalent without simulating them";
+
 /// Checks that `copies` statevectors on `n` qubits fit in memory; the error says how much is needed.
 pub fn check_fits(n: usize, copies: u128) -> Result<(), String> {
     if n > 40 {
         return Err(format!(
-            "a {n}-qubit statevector cannot be simulated on this machine"
+            "a {n}-qubit statevector cannot be simulated on this machine ({SIM_HINT})"
         ));
     }
     let need = statevector_bytes(n) * copies;
     if let Some(avail) = available_memory_bytes() {
         if need > avail {
             return Err(format!(
-                "simulating {n} qubits needs about {:.1} GiB but only {:.1} GiB is available",
+                "simulating {n} qubits needs about {:.1} GiB but only {:.1} GiB is available \
+                 ({SIM_HINT})",
                 need as f64 / (1u128 << 30) as f64,
                 avail as f64 / (1u128 << 30) as f64
             ));
