@@ -75,9 +75,92 @@ pub struct CompileArgs {
     /// Output folder (created if missing).
     #[arg(short = 'o', long = "out")]
     pub out: PathBuf,
-    /// Print the cost table as JSON.
-    #[arg(long)]
-    pub json: bool,
+}
+
+/// Most controlled rotations one campaign may hold, summed over its circuits. A rotation costs
+/// about [`BYTES_PER_ROTATION`] bytes of OpenQASM, so this caps a campaign below 1 GB.
+pub const MAX_ROTATIONS: f64 = 1e7;
+
+/// Most circuits (files) one campaign may hold.
+pub const MAX_CIRCUITS: f64 = 1e5;
+
+/// Bytes of OpenQASM per controlled rotation of [`campaign_size`], measured: the Krylov
+/// campaign of `examples/tfim_chain8.ham` (K = 10, order 4, 2 steps) writes 4.7 MB for an
+/// estimated 78 300 rotations.
+const BYTES_PER_ROTATION: f64 = 60.0;
+
+/// What a campaign would cost before it is built: circuits and controlled rotations, counted
+/// from the product formula (`T` exponentials per Lie–Trotter step, `2T − 1` per Strang step,
+/// five Strang steps per Suzuki step) before any folding of commuting groups, so an upper
+/// estimate. Floating point, so absurd requests cannot overflow.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CampaignSize {
+    pub circuits: f64,
+    pub rotations: f64,
+}
+
+/// [`CampaignSize`] for `terms` non-identity terms, `per_point` circuits at each k ≥ 1 and
+/// `at_zero` (rotation-free) circuits at k = 0.
+pub fn campaign_size(
+    order: Order,
+    terms: usize,
+    points: usize,
+    steps: usize,
+    per_point: usize,
+    at_zero: usize,
+) -> CampaignSize {
+    let t = terms as f64;
+    let per_step = match order {
+        Order::First => t,
+        Order::Second => (2.0 * t - 1.0).max(1.0),
+        Order::Fourth => 5.0 * (2.0 * t - 1.0).max(1.0),
+    };
+    let k = points as f64;
+    // Σ_{k=1}^{K−1} k = K(K−1)/2 Trotter-step multiples of `steps`.
+    let rotations = per_point as f64 * per_step * steps as f64 * k * (k - 1.0) / 2.0;
+    CampaignSize {
+        circuits: per_point as f64 * (k - 1.0) + at_zero as f64,
+        rotations,
+    }
+}
+
+/// Refuses a campaign that would not fit (exit 2), saying what it would cost.
+fn check_size(size: CampaignSize, args: &CompileArgs) -> Result<()> {
+    if size.circuits <= MAX_CIRCUITS && size.rotations <= MAX_ROTATIONS {
+        return Ok(());
+    }
+    Err(Error::usage(
+        format!(
+            "--points {} --steps {} would emit {} circuits holding about {} controlled rotations (≈ {}); the limits are {} circuits and {} rotations",
+            args.points,
+            args.steps,
+            quantity(size.circuits),
+            quantity(size.rotations),
+            human_bytes(size.rotations * BYTES_PER_ROTATION),
+            quantity(MAX_CIRCUITS),
+            quantity(MAX_ROTATIONS),
+        ),
+        Some("use fewer --points or --steps (a larger --dt reaches the same times with fewer points)"),
+    ))
+}
+
+/// A count for a message: exact below 10¹², else in scientific notation.
+fn quantity(x: f64) -> String {
+    if x < 1e12 {
+        format!("{x:.0}")
+    } else {
+        format!("{x:.2e}")
+    }
+}
+
+fn human_bytes(b: f64) -> String {
+    if b >= 1e12 {
+        format!("{:.1e} TB of OpenQASM", b / 1e12)
+    } else if b >= 1e9 {
+        format!("{:.1} GB of OpenQASM", b / 1e9)
+    } else {
+        format!("{:.0} MB of OpenQASM", (b / 1e6).max(1.0))
+    }
 }
 
 fn check_state(state: &str, n: usize) -> Result<()> {
@@ -106,7 +189,7 @@ fn check_state(state: &str, n: usize) -> Result<()> {
     Ok(())
 }
 
-pub fn run(args: &CompileArgs) -> Result<()> {
+pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let order = Order::from_number(args.order).ok_or_else(|| {
         Error::usage(
             format!("--order {} is not supported", args.order),
@@ -123,6 +206,16 @@ pub fn run(args: &CompileArgs) -> Result<()> {
         return Err(Error::usage(
             "--points must be at least 2 (k = 0 and at least one evolved point)",
             None,
+        ));
+    }
+    if args.points > crate::family::plan::MAX_POINTS {
+        return Err(Error::usage(
+            format!(
+                "--points {} is more than the {} time points a campaign may have",
+                args.points,
+                crate::family::plan::MAX_POINTS
+            ),
+            Some("a Krylov or density-of-states estimate from K points costs O(K⁴); real-time campaigns use tens to hundreds of points"),
         ));
     }
     if args.steps == 0 {
@@ -176,6 +269,23 @@ pub fn run(args: &CompileArgs) -> Result<()> {
             )
         }
     };
+    let terms = h.terms.len();
+    let size = match family {
+        Family::Overlap => campaign_size(order, terms, args.points, args.steps, 2, 0),
+        Family::Trace => campaign_size(order, terms, args.points, args.steps, 2 * states.len(), 0),
+        Family::Krylov => {
+            let groups = crate::family::krylov_groups(&h).len();
+            campaign_size(
+                order,
+                terms,
+                args.points,
+                args.steps,
+                2 + 2 * groups,
+                groups,
+            )
+        }
+    };
+    check_size(size, args)?;
     let spec = Spec {
         family,
         order,
@@ -206,39 +316,35 @@ pub fn run(args: &CompileArgs) -> Result<()> {
     }
     write_campaign(&args.out, &compiled)?;
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
-    if args.json {
+    if g.json {
         let mut v = cost_json(&compiled.plan);
-        if let Some(g) = &grouping {
-            v["grouping"] = serde_json::to_value(g).expect("serialisable");
+        if let Some(gs) = &grouping {
+            v["grouping"] = serde_json::json!(gs);
         }
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&v).expect("serialisable")
-        );
-    } else {
-        print!("{}", cost_table(&compiled.plan));
-        println!(
-            "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).",
-            compiled.plan.circuits.len(),
-            args.out.display(),
-            n,
-            h.constant
-        );
-        if let Some(c) = &chem {
-            println!(
-                "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.",
-                c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
-            );
-        }
-        if let Some(g) = &grouping {
-            println!(
-                "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.",
-                g.terms, g.groups, g.circuits, g.circuits_one_term_each
-            );
-        }
-        println!("Costs are estimates: they depend on the device calibration; validate results against trusted methods.");
+        return g.json(&v);
     }
-    Ok(())
+    let mut text = cost_table(&compiled.plan);
+    text += &format!(
+        "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
+        compiled.plan.circuits.len(),
+        args.out.display(),
+        n,
+        h.constant
+    );
+    if let Some(c) = &chem {
+        text += &format!(
+            "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.\n",
+            c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
+        );
+    }
+    if let Some(gs) = &grouping {
+        text += &format!(
+            "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.\n",
+            gs.terms, gs.groups, gs.circuits, gs.circuits_one_term_each
+        );
+    }
+    text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
+    g.say(&text)
 }
 
 /// How much the grouped readout of the Krylov family saves.

@@ -135,7 +135,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
 }
 
 /// Runs `phasewright convert`.
-pub fn run(args: ConvertArgs) -> Result<()> {
+pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
     let (h, info, loaded) = load(
         &args.input,
         LoadOptions {
@@ -182,12 +182,28 @@ pub fn run(args: ConvertArgs) -> Result<()> {
             loaded.terms_read, loaded.dropped_zero
         ));
     }
-    println!("{summary}");
-    if let Some(i) = info {
-        println!(
-            "Hartree-Fock state (qubit 0 first): {}  energy {:.10} hartree",
+    summary.push('\n');
+    if let Some(i) = &info {
+        summary += &format!(
+            "Hartree-Fock state (qubit 0 first): {}  energy {:.10} hartree\n",
             i.hf_state, i.hf_energy_ha
         );
     }
-    Ok(())
+    g.json(&serde_json::json!({
+        "out": args.output.display().to_string(),
+        "qubits": h.num_qubits,
+        "pauli_strings": h.terms.len(),
+        "constant": h.constant,
+        "encoding": loaded.encoding.map(|e| e.short_name()),
+        "terms_read": info.is_none().then_some(loaded.terms_read),
+        "dropped_zero": loaded.dropped_zero,
+        "hartree_fock": info.as_ref().map(|i| serde_json::json!({
+            "state": i.hf_state,
+            "energy_ha": i.hf_energy_ha,
+            "electrons": i.nelec,
+            "orbitals": i.norb,
+            "frozen_orbitals": i.frozen_orbitals,
+        })),
+    }))?;
+    g.say(&summary)
 }

@@ -62,9 +62,6 @@ pub struct EstimateArgs {
     /// Write an SVG plot (energy against Krylov dimension, or the density of states).
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
-    /// Print JSON instead of a table.
-    #[arg(long)]
-    pub json: bool,
     /// Keep eigenvectors of S above this eigenvalue [default: σ̄·d from the shot noise].
     #[arg(long, value_name = "EPS", value_parser = positive_f64)]
     pub threshold: Option<f64>,
@@ -97,7 +94,7 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
 }
 
 /// Runs `phasewright estimate`.
-pub fn run(args: &EstimateArgs) -> Result<()> {
+pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     let plan = super::io::read_plan(&args.dir)?;
     let text = read_text(&args.counts)?;
     let order = args.bit_order.map(|b| match b {
@@ -124,18 +121,13 @@ pub fn run(args: &EstimateArgs) -> Result<()> {
         .map_err(Error::Internal)?;
         write_atomic(path, svg.as_bytes())?;
     }
-    let out = if args.json {
-        serde_json::to_string_pretty(&to_json(&analysis, &plan, counts.bit_order))
-            .expect("serialises")
-            + "\n"
-    } else {
-        match &analysis {
-            Analysis::Energies(r) => energy_table(r, &plan),
-            Analysis::Dos(r) => dos_table(r, &plan),
-        }
-    };
-    print!("{out}");
-    Ok(())
+    if g.json {
+        return g.json(&to_json(&analysis, &plan, counts.bit_order));
+    }
+    g.say(&match &analysis {
+        Analysis::Energies(r) => energy_table(r, &plan),
+        Analysis::Dos(r) => dos_table(r, &plan),
+    })
 }
 
 fn fmt_opt(x: Option<f64>, prec: usize) -> String {

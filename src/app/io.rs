@@ -4,8 +4,30 @@
 //! name in the target folder and renamed into place.
 
 use crate::error::{Error, Result};
+use crate::family::plan::{PathStep, Plan, PLAN_FORMAT};
 use crate::lang::diag::Diagnostic;
+use crate::lang::json_span::{locate, Step};
+use std::io::Write;
 use std::path::Path;
+
+/// Writes `text` to stdout and flushes. A reader that has gone away (`| head -1`) is
+/// [`Error::BrokenPipe`], which `main` turns into a quiet exit.
+pub fn emit(text: &str) -> Result<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())
+        .and_then(|()| out.flush())
+        .map_err(|source| {
+            if source.kind() == std::io::ErrorKind::BrokenPipe {
+                Error::BrokenPipe
+            } else {
+                Error::Io {
+                    path: "<stdout>".into(),
+                    source,
+                    reading: false,
+                }
+            }
+        })
+}
 
 /// Reads a UTF-8 text file; a file that is not text is a diagnostic (exit status 2).
 pub fn read_text(path: &Path) -> Result<String> {
@@ -59,12 +81,14 @@ pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<()> {
     })
 }
 
-/// Reads `DIR/plan.json`; a malformed plan is bad input (exit 2) with line and column.
-pub fn read_plan(dir: &Path) -> Result<crate::family::plan::Plan> {
+/// Reads `DIR/plan.json` and validates it ([`Plan::validate`]): malformed JSON, another
+/// format, or values that do not fit together are bad input (exit 2), each problem with its
+/// line and column.
+pub fn read_plan(dir: &Path) -> Result<Plan> {
     let path = dir.join("plan.json");
     let text = read_text(&path)?;
     let name = path.display().to_string();
-    let plan = crate::family::plan::Plan::from_json(&text).map_err(|e| {
+    let not_a_plan = |e: serde_json::Error| {
         let offset = crate::lang::diag::offset_of(&text, e.line(), e.column());
         Error::input(Diagnostic::at(
             &name,
@@ -74,33 +98,76 @@ pub fn read_plan(dir: &Path) -> Result<crate::family::plan::Plan> {
             format!("not a phasewright plan: {e}"),
             Some("pass a folder written by `phasewright compile`".into()),
         ))
-    })?;
-    if plan.format != crate::family::plan::PLAN_FORMAT {
-        return Err(Error::input(Diagnostic::whole_file(
+    };
+    let value: serde_json::Value = serde_json::from_str(&text).map_err(not_a_plan)?;
+    let format = value.get("format").and_then(|f| f.as_str());
+    if format != Some(PLAN_FORMAT) {
+        let shown = format.map_or_else(|| "none".to_string(), |f| format!("`{f}`"));
+        let span = locate(&text, &[Step::Key("format")]).map_or((0, 1), |s| s.value);
+        return Err(Error::input(Diagnostic::at(
             &name,
-            format!("unsupported plan format `{}`", plan.format),
+            &text,
+            span.0,
+            span.1,
+            format!("unsupported plan format {shown}"),
             Some(format!(
-                "this phasewright reads `{}`",
-                crate::family::plan::PLAN_FORMAT
+                "this phasewright reads `{PLAN_FORMAT}`; recompile the campaign with it"
             )),
         )));
     }
-    Ok(plan)
+    let plan = Plan::from_json(&text).map_err(not_a_plan)?;
+    let problems = plan.validate();
+    if problems.is_empty() {
+        return Ok(plan);
+    }
+    Err(Error::Input(
+        problems
+            .into_iter()
+            .map(|p| {
+                let steps: Vec<Step> = p
+                    .path
+                    .iter()
+                    .map(|s| match *s {
+                        PathStep::Key(k) => Step::Key(k),
+                        PathStep::Index(i) => Step::Index(i),
+                    })
+                    .collect();
+                let hint = p.hint.or_else(|| {
+                    Some("recompile the campaign rather than editing plan.json".into())
+                });
+                match locate(&text, &steps) {
+                    Some(span) => {
+                        let (o, l) = span.value;
+                        Diagnostic::at(&name, &text, o, l, p.message, hint)
+                    }
+                    None => Diagnostic::whole_file(&name, p.message, hint),
+                }
+            })
+            .collect(),
+    ))
 }
 
 /// Reads every circuit file of a plan back with phasewright's OpenQASM 3 reader.
-pub fn read_plan_circuits(
-    dir: &Path,
-    plan: &crate::family::plan::Plan,
-) -> Result<Vec<crate::circuit::Circuit>> {
+pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit::Circuit>> {
     plan.circuits
         .iter()
         .map(|e| {
             let path = dir.join(&e.file);
             let text = read_text(&path)?;
-            let prog =
-                crate::qasm::read(&path.display().to_string(), &text).map_err(Error::input)?;
-            Ok(prog.circuit)
+            let name = path.display().to_string();
+            let prog = crate::qasm::read(&name, &text).map_err(Error::input)?;
+            let c = prog.circuit;
+            if c.num_clbits != e.num_clbits || c.num_qubits > e.num_qubits {
+                return Err(Error::input(Diagnostic::whole_file(
+                    &name,
+                    format!(
+                        "uses {} qubits and {} classical bits, but plan.json gives circuit `{}` {} and {}",
+                        c.num_qubits, c.num_clbits, e.id, e.num_qubits, e.num_clbits
+                    ),
+                    Some("the file and the plan come from different compilations; recompile".into()),
+                )));
+            }
+            Ok(c)
         })
         .collect()
 }

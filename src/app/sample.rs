@@ -6,7 +6,6 @@ use crate::error::{Error, Result};
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use rand::SeedableRng;
 use rayon::prelude::*;
 use std::collections::BTreeMap;
@@ -51,7 +50,7 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
-pub fn run(args: &SampleArgs) -> Result<()> {
+pub fn run(args: &SampleArgs, g: &super::Global) -> Result<()> {
     if args.shots == 0 {
         return Err(Error::usage("--shots must be at least 1", None));
     }
@@ -63,10 +62,9 @@ pub fn run(args: &SampleArgs) -> Result<()> {
         ));
     }
     let circuits = read_plan_circuits(&args.dir, &plan)?;
-    let bar = ProgressBar::new(circuits.len() as u64);
-    bar.set_style(
-        ProgressStyle::with_template("sampling {bar:40} {pos}/{len} circuits ({eta})")
-            .expect("valid template"),
+    let bar = g.progress(
+        circuits.len(),
+        "sampling {bar:40} {pos}/{len} circuits ({eta})",
     );
     let results: Vec<Result<(String, BTreeMap<String, u64>)>> = plan
         .circuits
@@ -111,11 +109,17 @@ pub fn run(args: &SampleArgs) -> Result<()> {
         &out,
         (serde_json::to_string_pretty(&doc).expect("serialisable") + "\n").as_bytes(),
     )?;
-    println!(
-        "{} circuits x {} shots written to {}",
+    g.json(&serde_json::json!({
+        "circuits": plan.circuits.len(),
+        "shots": args.shots,
+        "seed": args.seed,
+        "noise": args.noise,
+        "out": out.display().to_string(),
+    }))?;
+    g.say(&format!(
+        "{} circuits x {} shots written to {}\n",
         plan.circuits.len(),
         args.shots,
         out.display()
-    );
-    Ok(())
+    ))
 }

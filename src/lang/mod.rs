@@ -7,3 +7,4 @@
 pub mod dev;
 pub mod diag;
 pub mod ham;
+pub mod json_span;
