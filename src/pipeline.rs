@@ -214,6 +214,7 @@ fn finish(
             reads: job.reads,
             costs: f.costs,
             final_layout: f.final_layout,
+            sha256: None,
         });
         circuits.push(f.circuit);
     }

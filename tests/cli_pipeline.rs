@@ -105,7 +105,7 @@ fn compile_writes_the_plan_and_one_file_per_circuit() {
     );
     let plan: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
-    assert_eq!(plan["format"], "phasewright-plan/1");
+    assert_eq!(plan["format"], "phasewright-plan/2");
     assert_eq!(plan["formula"]["order"], 4);
     assert_eq!(plan["hamiltonian"]["constant"], -1.5);
     let circuits = plan["circuits"].as_array().unwrap();
@@ -166,7 +166,26 @@ fn verify_fails_when_a_file_was_tampered_with() {
         })
         .collect();
     assert_ne!(bad, text);
-    std::fs::write(&f, bad).unwrap();
+    std::fs::write(&f, &bad).unwrap();
+    // The plan's SHA-256 no longer matches: bad input, naming the file.
+    let out_v = phasewright().args(["verify"]).arg(&out).output().unwrap();
+    assert_eq!(out_v.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out_v.stderr);
+    assert!(
+        err.contains("k02-re.qasm: changed since it was compiled"),
+        "{err}"
+    );
+    // A file that agrees with its plan's hash but not with the product formula (as a compiler
+    // bug would write it) is caught by the simulation: exit 1.
+    let plan_path = out.join("plan.json");
+    let mut plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&plan_path).unwrap()).unwrap();
+    for c in plan["circuits"].as_array_mut().unwrap() {
+        if c["file"] == "k02-re.qasm" {
+            c["sha256"] = phasewright::app::io::sha256_hex(bad.as_bytes()).into();
+        }
+    }
+    std::fs::write(&plan_path, serde_json::to_string_pretty(&plan).unwrap()).unwrap();
     let out_v = phasewright().args(["verify"]).arg(&out).output().unwrap();
     assert_eq!(
         out_v.status.code(),

@@ -242,3 +242,180 @@ fn requests_too_large_to_build_are_refused_with_their_cost() {
         "nothing is written for a refused request"
     );
 }
+
+// ----- 2. safe outputs -----------------------------------------------------------------------
+
+fn compile_points(out: &Path, points: &str, extra: &[&str]) -> (i32, String, String) {
+    run(phasewright()
+        .args([
+            "compile",
+            "examples/ising_ring8.ham",
+            "--state",
+            "00000000",
+            "--dt",
+            "0.2",
+            "--points",
+            points,
+            "-o",
+        ])
+        .arg(out)
+        .args(extra))
+}
+
+fn names_in(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().into_string().unwrap())
+        .collect();
+    v.sort();
+    v
+}
+
+/// Every file plan.json lists exists and has the SHA-256 the plan records (FIPS 180-4 digest,
+/// computed here with the same `sha2` crate the binary uses), and nothing else is there.
+fn assert_plan_matches_folder(dir: &Path) {
+    use sha2::{Digest, Sha256};
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("plan.json")).unwrap()).unwrap();
+    let mut listed = vec!["plan.json".to_string()];
+    for c in plan["circuits"].as_array().unwrap() {
+        let file = c["file"].as_str().unwrap();
+        let bytes = std::fs::read(dir.join(file)).unwrap();
+        let hex: String = Sha256::digest(&bytes)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect();
+        assert_eq!(c["sha256"].as_str(), Some(hex.as_str()), "{file}");
+        listed.push(file.to_string());
+    }
+    listed.sort();
+    assert_eq!(
+        names_in(dir),
+        listed,
+        "the folder holds exactly the plan's files"
+    );
+}
+
+#[test]
+fn sha256_matches_a_published_test_vector() {
+    // FIPS 180-2, Appendix B.1 (one-block message "abc").
+    assert_eq!(
+        phasewright::app::io::sha256_hex(b"abc"),
+        "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+    );
+}
+
+#[test]
+fn a_smaller_campaign_replaces_an_older_one_whole() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("c");
+    assert_eq!(compile_points(&out, "5", &[]).0, 0);
+    assert!(out.join("k04-re.qasm").exists());
+    assert_eq!(compile_points(&out, "3", &[]).0, 0);
+    assert!(!out.join("k03-re.qasm").exists(), "stale k03 survived");
+    assert!(!out.join("k04-im.qasm").exists(), "stale k04 survived");
+    assert_plan_matches_folder(&out);
+    // No temporary sibling is left next to it.
+    assert_eq!(names_in(tmp.path()), vec!["c".to_string()]);
+}
+
+#[test]
+fn a_folder_with_other_files_is_refused_unless_forced() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("c");
+    std::fs::create_dir(&out).unwrap();
+    std::fs::write(out.join("notes.txt"), "mine").unwrap();
+    let (code, _, err) = compile_points(&out, "3", &[]);
+    assert_bad_input(code, &err, "holds `notes.txt`");
+    assert!(err.contains("--force"), "{err}");
+    assert_eq!(
+        std::fs::read_to_string(out.join("notes.txt")).unwrap(),
+        "mine"
+    );
+    // A campaign with an extra file is not "an older campaign" either.
+    std::fs::remove_file(out.join("notes.txt")).unwrap();
+    assert_eq!(compile_points(&out, "3", &[]).0, 0);
+    std::fs::write(out.join("counts.json"), "{}").unwrap();
+    let (code, _, err) = compile_points(&out, "4", &[]);
+    assert_bad_input(code, &err, "holds `counts.json`");
+    let (code, _, err) = compile_points(&out, "4", &["--force"]);
+    assert_eq!(code, 0, "{err}");
+    assert_plan_matches_folder(&out);
+}
+
+#[test]
+fn an_existing_file_or_stdout_as_campaign_folder_is_bad_input() {
+    let tmp = tempfile::tempdir().unwrap();
+    let file = tmp.path().join("taken");
+    std::fs::write(&file, "x").unwrap();
+    let (code, _, err) = compile_points(&file, "3", &[]);
+    assert_bad_input(code, &err, "exists and is not a folder");
+    let (code, _, err) = compile_points(&file, "3", &["--force"]);
+    assert_bad_input(code, &err, "exists and is not a folder");
+    let (code, _, err) = compile_points(Path::new("-"), "3", &[]);
+    assert_bad_input(code, &err, "cannot go to stdout");
+}
+
+#[test]
+fn verify_rehearse_and_estimate_name_a_missing_or_edited_file() {
+    let (_tmp, dir) = campaign();
+    let counts = dir.parent().unwrap().join("counts.json");
+    let (code, _, err) = run(phasewright()
+        .args(["sample", "--shots", "100", "-o"])
+        .arg(&counts)
+        .arg(&dir));
+    assert_eq!(code, 0, "{err}");
+    let edited = dir.join("k01-im.qasm");
+    let mut text = std::fs::read_to_string(&edited).unwrap();
+    text.push_str("// a harmless-looking comment\n");
+    std::fs::write(&edited, text).unwrap();
+    std::fs::remove_file(dir.join("k02-re.qasm")).unwrap();
+    let elsewhere = dir.parent().unwrap().join("elsewhere.json");
+    let checks: [&[&str]; 3] = [
+        &["verify"],
+        &["sample", "--shots", "10", "-o", elsewhere.to_str().unwrap()],
+        &["estimate", "--counts", counts.to_str().unwrap()],
+    ];
+    for args in checks {
+        let (code, _, err) = run(phasewright().args(args).arg(&dir));
+        assert_bad_input(code, &err, "k01-im.qasm: changed since it was compiled");
+        assert!(err.contains("k02-re.qasm: missing"), "{args:?}: {err}");
+    }
+    assert!(!elsewhere.exists());
+}
+
+#[test]
+fn a_compile_killed_midway_leaves_a_consistent_folder() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("c");
+    assert_eq!(compile_points(&out, "3", &[]).0, 0);
+    // A larger campaign (order 4, 40 points), killed after a short while: whatever the moment,
+    // the folder holds either the old campaign or the new one, each consistent with its plan.
+    for delay_ms in [50u64, 300, 900] {
+        let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("phasewright"))
+            .args([
+                "compile",
+                "examples/ising_ring8.ham",
+                "--state",
+                "00000000",
+                "--dt",
+                "0.1",
+                "--points",
+                "40",
+                "--order",
+                "4",
+                "-q",
+                "-o",
+            ])
+            .arg(&out)
+            .spawn()
+            .unwrap();
+        std::thread::sleep(std::time::Duration::from_millis(delay_ms));
+        let _ = child.kill();
+        let _ = child.wait();
+        assert_plan_matches_folder(&out);
+    }
+    // The next run removes what killed runs left beside the folder.
+    assert_eq!(compile_points(&out, "3", &[]).0, 0);
+    assert_eq!(names_in(tmp.path()), vec!["c".to_string()]);
+}

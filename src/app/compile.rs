@@ -1,7 +1,6 @@
 //! `phasewright compile`: Hamiltonian (+ device) → folder of OpenQASM 3 files and plan.json,
 //! with a cost table on stdout.
 
-use super::io::write_atomic;
 use crate::error::{Error, Result};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
@@ -72,9 +71,13 @@ pub struct CompileArgs {
     /// Target device (.dev). Without it, an all-to-all device with every standard gate.
     #[arg(long)]
     pub device: Option<PathBuf>,
-    /// Output folder (created if missing).
+    /// Output folder. Created if missing; an older campaign there is replaced whole (no file
+    /// of it survives); a folder holding anything else is refused unless --force.
     #[arg(short = 'o', long = "out")]
     pub out: PathBuf,
+    /// Replace the output folder whole even if it holds files phasewright did not write.
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// Most controlled rotations one campaign may hold, summed over its circuits. A rotation costs
@@ -221,6 +224,7 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     if args.steps == 0 {
         return Err(Error::usage("--steps must be at least 1", None));
     }
+    super::io::check_out_folder(&args.out, args.force)?;
     let opts = super::convert::LoadOptions {
         encoding: args.encoding,
         active: args.active,
@@ -314,7 +318,8 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
-    write_campaign(&args.out, &compiled)?;
+    super::io::check_out_folder(&args.out, args.force)?;
+    write_campaign(&args.out, &mut compiled)?;
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
     if g.json {
         let mut v = cost_json(&compiled.plan);
@@ -375,17 +380,24 @@ pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
     }
 }
 
-/// Writes every program and then plan.json, each atomically.
-pub fn write_campaign(dir: &Path, c: &Compiled) -> Result<()> {
-    std::fs::create_dir_all(dir).map_err(|source| Error::Io {
-        path: dir.display().to_string(),
-        source,
-        reading: false,
-    })?;
-    for (e, text) in c.plan.circuits.iter().zip(&c.programs) {
-        write_atomic(&dir.join(&e.file), text.as_bytes())?;
+/// Writes the campaign as the whole content of `dir`: every program, then plan.json recording
+/// each program's SHA-256, through a temporary sibling folder that replaces `dir` at once
+/// ([`super::io::replace_folder`]), so no file of an older campaign survives and a reader never
+/// sees a plan whose files are missing or partial.
+pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
+    for (e, text) in c.plan.circuits.iter_mut().zip(&c.programs) {
+        e.sha256 = Some(super::io::sha256_hex(text.as_bytes()));
     }
-    write_atomic(&dir.join("plan.json"), c.plan.to_json().as_bytes())
+    let plan = c.plan.to_json();
+    let mut files: Vec<(&str, &[u8])> = c
+        .plan
+        .circuits
+        .iter()
+        .zip(&c.programs)
+        .map(|(e, text)| (e.file.as_str(), text.as_bytes()))
+        .collect();
+    files.push(("plan.json", plan.as_bytes()));
+    super::io::replace_folder(dir, &files)
 }
 
 /// The per-circuit and total cost table.

@@ -96,6 +96,7 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
 /// Runs `phasewright estimate`.
 pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     let plan = super::io::read_plan(&args.dir)?;
+    super::io::check_campaign_files(&args.dir, &plan)?;
     let text = read_text(&args.counts)?;
     let order = args.bit_order.map(|b| match b {
         BitOrderArg::First => BitOrder::First,

@@ -147,13 +147,25 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
     ))
 }
 
-/// Reads every circuit file of a plan back with phasewright's OpenQASM 3 reader.
+/// Reads every circuit file of a plan back with phasewright's OpenQASM 3 reader, after
+/// checking that none is missing or changed ([`check_campaign_files`]).
 pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit::Circuit>> {
+    check_campaign_files(dir, plan)?;
     plan.circuits
         .iter()
         .map(|e| {
             let path = dir.join(&e.file);
-            let text = read_text(&path)?;
+            let bytes = campaign_file(dir, e)?;
+            if let Some(d) = changed_file(dir, e, &bytes) {
+                return Err(Error::input(d));
+            }
+            let text = String::from_utf8(bytes).map_err(|_| {
+                Error::input(Diagnostic::whole_file(
+                    &path.display().to_string(),
+                    "not a text file",
+                    Some("a circuit file is OpenQASM 3 text; recompile the campaign".into()),
+                ))
+            })?;
             let name = path.display().to_string();
             let prog = crate::qasm::read(&name, &text).map_err(Error::input)?;
             let c = prog.circuit;
@@ -176,4 +188,274 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
 pub fn read_device(path: &Path) -> Result<crate::device::Device> {
     let text = read_text(path)?;
     crate::lang::dev::parse_device(&path.display().to_string(), &text).map_err(Error::Input)
+}
+
+/// SHA-256 of `bytes` as 64 lowercase hex digits.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::{Digest, Sha256};
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// Compares a campaign file's bytes with the SHA-256 its plan records; `None` when they agree
+/// (or the plan records none).
+fn changed_file(
+    dir: &Path,
+    e: &crate::family::plan::CircuitEntry,
+    bytes: &[u8],
+) -> Option<Diagnostic> {
+    let want = e.sha256.as_deref()?;
+    let got = sha256_hex(bytes);
+    (got != want).then(|| {
+        Diagnostic::whole_file(
+            &dir.join(&e.file).display().to_string(),
+            format!(
+                "changed since it was compiled: its SHA-256 is {}…, plan.json records {}…",
+                &got[..12],
+                &want[..want.len().min(12)]
+            ),
+            Some(
+                "recompile the campaign; a circuit edited by hand no longer matches its plan"
+                    .into(),
+            ),
+        )
+    })
+}
+
+/// Reads one campaign file's bytes; a missing file is a diagnostic naming it.
+fn campaign_file(
+    dir: &Path,
+    e: &crate::family::plan::CircuitEntry,
+) -> std::result::Result<Vec<u8>, Error> {
+    let path = dir.join(&e.file);
+    std::fs::read(&path).map_err(|source| {
+        if source.kind() == std::io::ErrorKind::NotFound {
+            Error::input(Diagnostic::whole_file(
+                &path.display().to_string(),
+                format!("missing: plan.json lists it for circuit `{}`", e.id),
+                Some("the campaign folder is incomplete; recompile it".into()),
+            ))
+        } else {
+            Error::Io {
+                path: path.display().to_string(),
+                source,
+                reading: true,
+            }
+        }
+    })
+}
+
+/// Checks that every file the plan records a SHA-256 for is present and unchanged; all
+/// problems are reported together (exit 2), each naming its file.
+pub fn check_campaign_files(dir: &Path, plan: &Plan) -> Result<()> {
+    let mut diags = Vec::new();
+    for e in plan.circuits.iter().filter(|e| e.sha256.is_some()) {
+        match campaign_file(dir, e) {
+            Ok(bytes) => diags.extend(changed_file(dir, e, &bytes)),
+            Err(Error::Input(ds)) => diags.extend(ds),
+            Err(other) => return Err(other),
+        }
+    }
+    if diags.is_empty() {
+        Ok(())
+    } else {
+        Err(Error::Input(diags))
+    }
+}
+
+/// What an output folder named on the command line holds now.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum OutFolder {
+    /// Nothing there yet.
+    Absent,
+    /// An empty folder, or an older phasewright campaign (its plan and the files it lists).
+    Replaceable,
+    /// A folder with other entries (the first few named).
+    Foreign(Vec<String>),
+    /// Something that is not a folder.
+    NotAFolder,
+}
+
+/// Looks at `dir` before a campaign is written into it.
+pub fn inspect_out_folder(dir: &Path) -> Result<OutFolder> {
+    let meta = match std::fs::symlink_metadata(dir) {
+        Ok(m) => m,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(OutFolder::Absent),
+        Err(source) => {
+            return Err(Error::Io {
+                path: dir.display().to_string(),
+                source,
+                reading: true,
+            })
+        }
+    };
+    if !meta.is_dir() {
+        return Ok(OutFolder::NotAFolder);
+    }
+    let listed: std::collections::BTreeSet<String> = std::fs::read_to_string(dir.join("plan.json"))
+        .ok()
+        .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok())
+        .filter(|v| {
+            v.get("format")
+                .and_then(|f| f.as_str())
+                .is_some_and(|f| f.starts_with("phasewright-plan/"))
+        })
+        .map(|v| {
+            let mut s: std::collections::BTreeSet<String> = v["circuits"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .filter_map(|c| c["file"].as_str().map(str::to_string))
+                .collect();
+            s.insert("plan.json".into());
+            s
+        })
+        .unwrap_or_default();
+    let entries = std::fs::read_dir(dir).map_err(|source| Error::Io {
+        path: dir.display().to_string(),
+        source,
+        reading: true,
+    })?;
+    let mut foreign = Vec::new();
+    for entry in entries.flatten() {
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let is_file = entry.file_type().is_ok_and(|t| t.is_file());
+        if !(is_file && listed.contains(&name)) {
+            foreign.push(name);
+        }
+    }
+    foreign.sort();
+    Ok(if foreign.is_empty() {
+        OutFolder::Replaceable
+    } else {
+        OutFolder::Foreign(foreign)
+    })
+}
+
+/// Refuses an output folder that cannot be replaced (exit 2): a file, or (without `force`) a
+/// folder holding anything but an older campaign.
+pub fn check_out_folder(dir: &Path, force: bool) -> Result<()> {
+    if dir.as_os_str() == "-" {
+        return Err(Error::usage(
+            "a campaign is a folder of files and cannot go to stdout (`-o -`)",
+            Some("name a folder, e.g. -o out/campaign"),
+        ));
+    }
+    if dir.file_name().is_none() {
+        return Err(Error::usage(
+            format!("`{}` cannot be replaced by a campaign", dir.display()),
+            Some("name a folder of its own, e.g. -o out/campaign"),
+        ));
+    }
+    match inspect_out_folder(dir)? {
+        OutFolder::Absent | OutFolder::Replaceable => Ok(()),
+        OutFolder::NotAFolder => Err(Error::usage(
+            format!("`{}` exists and is not a folder", dir.display()),
+            Some("-o names the campaign folder; choose a new name or remove the file"),
+        )),
+        OutFolder::Foreign(_) if force => Ok(()),
+        OutFolder::Foreign(names) => {
+            let shown: Vec<String> = names.iter().take(5).map(|n| format!("`{n}`")).collect();
+            let more = if names.len() > 5 {
+                format!(" and {} more", names.len() - 5)
+            } else {
+                String::new()
+            };
+            Err(Error::usage(
+                format!(
+                    "`{}` holds {}{more}, which is not part of an older phasewright campaign; refusing to replace it",
+                    dir.display(),
+                    shown.join(", ")
+                ),
+                Some("choose an empty or new folder, move those files away, or pass --force to replace the folder whole"),
+            ))
+        }
+    }
+}
+
+/// Writes `files` (name, bytes), in order, as the whole content of folder `dir`: into a
+/// temporary sibling folder first, which then takes the place of `dir` (an older `dir` is moved
+/// aside and removed). A reader never sees a mix of old and new files, and a run killed midway
+/// leaves `dir` as it was (plus a hidden `.NAME.phasewright-PID.tmp` sibling, removed by the
+/// next run once its process is gone). Call [`check_out_folder`] first.
+pub fn replace_folder(dir: &Path, files: &[(&str, &[u8])]) -> Result<()> {
+    let werr = |path: &Path| {
+        let path = path.display().to_string();
+        move |source| Error::Io {
+            path,
+            source,
+            reading: false,
+        }
+    };
+    let parent = dir
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    std::fs::create_dir_all(parent).map_err(werr(parent))?;
+    let name = dir
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    remove_abandoned_siblings(parent, &name);
+    let pid = std::process::id();
+    let tmp = parent.join(format!(".{name}.phasewright-{pid}.tmp"));
+    let old = parent.join(format!(".{name}.phasewright-{pid}.old"));
+    let _ = std::fs::remove_dir_all(&tmp);
+    std::fs::create_dir(&tmp).map_err(werr(&tmp))?;
+    for &(file, bytes) in files {
+        let p = tmp.join(file);
+        if let Err(e) = std::fs::write(&p, bytes) {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(werr(&p)(e));
+        }
+    }
+    let existed = dir.exists();
+    if existed {
+        if let Err(e) = std::fs::rename(dir, &old) {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(werr(dir)(e));
+        }
+    }
+    if let Err(e) = std::fs::rename(&tmp, dir) {
+        if existed {
+            let _ = std::fs::rename(&old, dir);
+        }
+        let _ = std::fs::remove_dir_all(&tmp);
+        return Err(werr(dir)(e));
+    }
+    if existed {
+        let _ = std::fs::remove_dir_all(&old);
+    }
+    Ok(())
+}
+
+/// Removes `.NAME.phasewright-PID.tmp|.old` siblings left by runs that were killed, when the
+/// system says (through /proc) that their process no longer exists. Elsewhere they are kept.
+fn remove_abandoned_siblings(parent: &Path, name: &str) {
+    let proc_fs = Path::new("/proc/self");
+    if !proc_fs.exists() {
+        return;
+    }
+    let prefix = format!(".{name}.phasewright-");
+    let Ok(entries) = std::fs::read_dir(parent) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let file = entry.file_name().to_string_lossy().into_owned();
+        let Some(rest) = file.strip_prefix(&prefix) else {
+            continue;
+        };
+        let Some(pid) = rest
+            .strip_suffix(".tmp")
+            .or_else(|| rest.strip_suffix(".old"))
+            .and_then(|p| p.parse::<u32>().ok())
+        else {
+            continue;
+        };
+        if pid != std::process::id() && !Path::new("/proc").join(pid.to_string()).exists() {
+            let _ = std::fs::remove_dir_all(entry.path());
+        }
+    }
 }

@@ -486,6 +486,7 @@ pub(crate) mod tests {
             }],
             costs: Costs::default(),
             final_layout: vec![],
+            sha256: None,
         };
         Plan {
             format: PLAN_FORMAT.into(),

@@ -5,12 +5,13 @@
 //! `estimate`. Invariant: the plan alone says how to recombine counts: every circuit lists its
 //! [`Read`]s, each naming the quantity it estimates and the classical bits whose parity gives it.
 //!
-//! Schema `phasewright-plan/1` (documented in README):
+//! Schema `phasewright-plan/2` (documented in README):
 //! - `family`: `overlap` | `krylov` | `trace`;
 //! - `hamiltonian`: qubit count, constant (identity coefficient, never a gate), one-norm, terms;
 //! - `formula`: order, Trotter steps per unit of `k`, `dt`;
 //! - `states`: reference states (`0 1 + - r l`, qubit 0 first); one for overlap/krylov, N for trace;
-//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group, reads, costs.
+//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group, reads, costs,
+//!   and the file's SHA-256 (the plan is written after every file it lists).
 //!
 //! A read's value is `⟨Π_{b ∈ bits} (−1)^{c_b}⟩` over the shots, i.e. the parity expectation of
 //! the listed classical bits; for part `re` it estimates `Re q`, for part `im` it estimates `Im q`,
@@ -21,7 +22,7 @@ use crate::circuit::metrics::Counts;
 use serde::{Deserialize, Serialize};
 
 /// Identifies the schema in `plan.json`.
-pub const PLAN_FORMAT: &str = "phasewright-plan/1";
+pub const PLAN_FORMAT: &str = "phasewright-plan/2";
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Plan {
@@ -129,6 +130,10 @@ pub struct CircuitEntry {
     /// Physical qubit measured into each classical bit, after routing (empty on all-to-all).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub final_layout: Vec<u32>,
+    /// SHA-256 of `file` (lowercase hex), recorded by `compile` after writing it. When present,
+    /// every reader of the campaign refuses a missing or changed file.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sha256: Option<String>,
 }
 
 /// Costs of one circuit as recorded in the plan.
@@ -499,6 +504,22 @@ impl Plan {
                             Some("`term` indexes `hamiltonian.terms`, counting from 0"),
                         );
                     }
+                }
+            }
+            if let Some(h) = &e.sha256 {
+                if h.len() != 64
+                    || !h
+                        .bytes()
+                        .all(|c| c.is_ascii_digit() || (b'a'..=b'f').contains(&c))
+                {
+                    bad(
+                        at_circuit(i, "sha256"),
+                        format!(
+                            "circuit `{}`: `{h}` is not a SHA-256 (64 lowercase hex digits)",
+                            e.id
+                        ),
+                        None,
+                    );
                 }
             }
             if let Some(d) = device_qubits {

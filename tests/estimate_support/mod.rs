@@ -186,6 +186,7 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
         reads: Vec::new(),
         costs: Costs::default(),
         final_layout: Vec::new(),
+        sha256: None,
     }
 }
 
