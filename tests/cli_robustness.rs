@@ -419,3 +419,324 @@ fn a_compile_killed_midway_leaves_a_consistent_folder() {
     assert_eq!(compile_points(&out, "3", &[]).0, 0);
     assert_eq!(names_in(tmp.path()), vec!["c".to_string()]);
 }
+
+// ----- 3. conventions ------------------------------------------------------------------------
+
+/// Compiles `examples/mixed_field4.ham` (4 qubits) with extra arguments into `out`.
+fn compile_mixed(out: &Path, extra: &[&str]) -> (i32, String, String) {
+    run(phasewright()
+        .args([
+            "compile",
+            "examples/mixed_field4.ham",
+            "--dt",
+            "0.25",
+            "--points",
+            "3",
+        ])
+        .args(extra)
+        .arg("-o")
+        .arg(out))
+}
+
+#[test]
+fn values_that_start_with_a_hyphen_are_read_as_values() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("m");
+    let (code, _, err) = compile_mixed(&out, &["--state", "-+-+"]);
+    assert_eq!(code, 0, "{err}");
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+    assert_eq!(plan["states"][0], "-+-+");
+    // A negative time step reaches our own check, not the argument parser's.
+    let (code, _, err) = run(phasewright().args([
+        "compile",
+        "examples/mixed_field4.ham",
+        "--state",
+        "0000",
+        "--dt",
+        "-0.2",
+        "--points",
+        "3",
+        "-o",
+        tmp.path().join("n").to_str().unwrap(),
+    ]));
+    assert_bad_input(code, &err, "--dt -0.2 must be a positive number");
+    assert!(!err.contains("unexpected argument"), "{err}");
+    for tol in ["--tolerance=-1", "--tolerance=nan"] {
+        let (code, _, err) = run(phasewright().arg("verify").arg(&out).arg(tol));
+        assert_bad_input(code, &err, "is not a non-negative number");
+    }
+}
+
+#[test]
+fn every_command_takes_json_and_quiet() {
+    let (_tmp, dir) = campaign();
+    let base = dir.parent().unwrap().to_path_buf();
+    let counts = base.join("counts.json");
+    let commands: Vec<Vec<String>> = vec![
+        vec![
+            "compile".into(),
+            "examples/mixed_field4.ham".into(),
+            "--state".into(),
+            "0000".into(),
+            "--dt".into(),
+            "0.2".into(),
+            "--points".into(),
+            "3".into(),
+            "-o".into(),
+            base.join("m").display().to_string(),
+        ],
+        vec!["verify".into(), dir.display().to_string()],
+        vec![
+            "sample".into(),
+            dir.display().to_string(),
+            "--shots".into(),
+            "200".into(),
+            "-o".into(),
+            counts.display().to_string(),
+        ],
+        vec![
+            "estimate".into(),
+            dir.display().to_string(),
+            "--counts".into(),
+            counts.display().to_string(),
+            "--bootstrap".into(),
+            "0".into(),
+        ],
+        vec![
+            "convert".into(),
+            "examples/hubbard_ring4.ham".into(),
+            "-o".into(),
+            base.join("h.ham").display().to_string(),
+        ],
+    ];
+    for args in &commands {
+        let (code, out, err) = run(phasewright().args(args).arg("--json"));
+        assert_eq!(code, 0, "{args:?}: {err}");
+        let v: Result<serde_json::Value, _> = serde_json::from_str(&out);
+        assert!(v.is_ok(), "{args:?} --json printed:\n{out}");
+        let (code, out, err) = run(phasewright().args(args).arg("--quiet"));
+        assert_eq!(code, 0, "{args:?}: {err}");
+        assert_eq!(out, "", "{args:?} --quiet printed on stdout");
+    }
+}
+
+#[test]
+fn out_is_the_output_option_of_every_command_that_writes_one_file() {
+    let tmp = tempfile::tempdir().unwrap();
+    for opt in ["-o", "--out", "--output"] {
+        let target = tmp.path().join(format!("h{opt}.ham"));
+        let (code, _, err) = run(phasewright()
+            .args(["convert", "examples/hubbard_ring4.ham", opt])
+            .arg(&target));
+        assert_eq!(code, 0, "{opt}: {err}");
+        assert!(target.exists(), "{opt}");
+    }
+}
+
+#[test]
+fn a_hyphen_is_stdin_or_stdout_where_one_stream_makes_sense() {
+    let tmp = tempfile::tempdir().unwrap();
+    let ham = std::fs::read_to_string("examples/mixed_field4.ham").unwrap();
+    // Hamiltonian from stdin; the plan says where it came from.
+    let out = tmp.path().join("m");
+    let (code, _, err) = run(phasewright()
+        .args([
+            "compile", "-", "--state", "0000", "--dt", "0.25", "--points", "3", "-q", "-o",
+        ])
+        .arg(&out)
+        .write_stdin(ham.clone()));
+    assert_eq!(code, 0, "{err}");
+    let plan = std::fs::read_to_string(out.join("plan.json")).unwrap();
+    assert!(plan.contains("\"source\": \"<stdin>\""));
+    // Counts to stdout, read back from stdin by estimate; the plot to stdout.
+    let (code, counts, err) = run(phasewright()
+        .args(["sample", "--shots", "500", "-o", "-"])
+        .arg(&out));
+    assert_eq!(code, 0, "{err}");
+    assert!(counts.contains("\"format\": \"phasewright-counts/1\""));
+    let (code, table, err) = run(phasewright()
+        .args(["estimate", "--counts", "-", "--bootstrap", "0"])
+        .arg(&out)
+        .write_stdin(counts.clone()));
+    assert_eq!(code, 0, "{err}");
+    assert!(table.contains("krylov"), "{table}");
+    let (code, svg, err) = run(phasewright()
+        .args([
+            "estimate",
+            "--counts",
+            "-",
+            "--bootstrap",
+            "0",
+            "--plot",
+            "-",
+        ])
+        .arg(&out)
+        .write_stdin(counts));
+    assert_eq!(code, 0, "{err}");
+    assert!(svg.starts_with("<svg"), "{svg}");
+    // convert: stdin to stdout.
+    let (code, text, err) = run(phasewright()
+        .args(["convert", "-", "-o", "-"])
+        .write_stdin(ham));
+    assert_eq!(code, 0, "{err}");
+    assert!(text.contains("qubits 4"), "{text}");
+    // Two inputs cannot both be stdin.
+    let (code, _, err) = run(phasewright().args([
+        "compile", "-", "--device", "-", "--state", "0000", "--dt", "0.2", "--points", "3", "-o",
+        "x",
+    ]));
+    assert_bad_input(code, &err, "cannot all read stdin");
+}
+
+#[test]
+fn output_paths_that_cannot_work_are_bad_input() {
+    let (_tmp, dir) = campaign();
+    let base = dir.parent().unwrap().to_path_buf();
+    let counts = base.join("counts.json");
+    let (code, _, err) = run(phasewright()
+        .args(["sample", "--shots", "100", "-q", "-o"])
+        .arg(&counts)
+        .arg(&dir));
+    assert_eq!(code, 0, "{err}");
+    let estimate = |plot: &Path| {
+        run(phasewright()
+            .args(["estimate", "--bootstrap", "0", "--counts"])
+            .arg(&counts)
+            .arg("--plot")
+            .arg(plot)
+            .arg(&dir))
+    };
+    let (code, _, err) = estimate(&base.join("energies.png"));
+    assert_bad_input(code, &err, "writes SVG files only");
+    assert!(!base.join("energies.png").exists());
+    let (code, _, err) = estimate(&base.join("no-such-folder/energies.svg"));
+    assert_bad_input(code, &err, "does not exist");
+    let (code, _, err) = estimate(&base.join("energies.SVG"));
+    assert_eq!(code, 0, "{err}");
+    // A folder where a counts file should go.
+    let (code, _, err) = run(phasewright()
+        .args(["sample", "--shots", "10", "-o"])
+        .arg(&base)
+        .arg(&dir));
+    assert_bad_input(code, &err, "is a folder");
+}
+
+#[test]
+fn options_that_do_not_apply_are_refused() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (code, _, err) = compile_mixed(
+        &tmp.path().join("t"),
+        &["--measure", "trace", "--state", "0000"],
+    );
+    assert_bad_input(code, &err, "--state has no effect with --measure trace");
+    let (code, _, err) = compile_mixed(
+        &tmp.path().join("o"),
+        &["--state", "0000", "--samples", "4"],
+    );
+    assert_bad_input(code, &err, "--samples applies to --measure trace only");
+    let (code, _, err) = compile_mixed(
+        &tmp.path().join("t2"),
+        &["--measure", "trace", "--samples", "2"],
+    );
+    assert_eq!(code, 0, "{err}");
+}
+
+#[test]
+fn a_huge_time_step_is_warned_about() {
+    let tmp = tempfile::tempdir().unwrap();
+    // mixed_field4: Σ|c_j| = 5.645 (plan.json `one_norm`), so dt = 50 spans 282 rad per step.
+    let (code, _, err) = run(phasewright().args([
+        "compile",
+        "examples/mixed_field4.ham",
+        "--state",
+        "0000",
+        "--dt",
+        "50",
+        "--points",
+        "3",
+        "-o",
+        tmp.path().join("w").to_str().unwrap(),
+    ]));
+    assert_eq!(code, 0, "{err}");
+    assert!(err.contains("warning: one Trotter step spans"), "{err}");
+    assert!(err.contains("282.250 rad"), "{err}");
+}
+
+#[test]
+fn keyword_typos_get_a_suggestion_and_the_other_language_is_named() {
+    let tmp = tempfile::tempdir().unwrap();
+    let write = |name: &str, text: &str| {
+        let p = tmp.path().join(name);
+        std::fs::write(&p, text).unwrap();
+        p
+    };
+    let compile = |ham: &Path, device: Option<&Path>| {
+        let mut c = phasewright();
+        c.arg("compile")
+            .arg(ham)
+            .args(["--state", "00", "--dt", "0.2", "--points", "3", "-o"])
+            .arg(tmp.path().join("out"));
+        if let Some(d) = device {
+            c.arg("--device").arg(d);
+        }
+        run(&mut c)
+    };
+    let ham = write("typo.ham", "qbits 2\nZ0 Z1\n");
+    let (code, _, err) = compile(&ham, None);
+    assert_bad_input(
+        code,
+        &err,
+        "unknown keyword `qbits`; did you mean `qubits`?",
+    );
+    assert_eq!(position(&err, "typo.ham"), Some((1, 1)));
+    let ham = write("let.ham", "qubits 2\nlte J = 1\nZ0 Z1\n");
+    let (code, _, err) = compile(&ham, None);
+    assert_bad_input(code, &err, "did you mean `let`?");
+    assert_eq!(position(&err, "let.ham"), Some((2, 1)));
+    let good = write("good.ham", "qubits 2\n0.5 Z0 Z1\n0.3 X0\n");
+    let dev = write("typo.dev", "qubits 2\nnatve rz sx x cx\nlattice line 2\n");
+    let (code, _, err) = compile(&good, Some(&dev));
+    assert_bad_input(
+        code,
+        &err,
+        "unknown statement `natve`; did you mean `native`?",
+    );
+    assert_eq!(position(&err, "typo.dev"), Some((2, 1)));
+    assert!(!err.contains("not a native gate"), "no cascade:\n{err}");
+    let dev = write(
+        "lattice.dev",
+        "qubits 2\nnative rz sx x cx\nlattice lnie 2\n",
+    );
+    let (code, _, err) = compile(&good, Some(&dev));
+    assert_bad_input(code, &err, "did you mean `line`?");
+    // A device file where the Hamiltonian goes, and the reverse: one diagnostic each.
+    let (code, _, err) = compile(Path::new("examples/line8.dev"), None);
+    assert_bad_input(
+        code,
+        &err,
+        "this file describes a device (.dev), not a Hamiltonian",
+    );
+    assert_eq!(err.matches("error:").count(), 1, "{err}");
+    let (code, _, err) = compile(&good, Some(Path::new("examples/mixed_field4.ham")));
+    assert_bad_input(code, &err, "holds a Hamiltonian (.ham), not a device");
+    assert_eq!(err.matches("error:").count(), 1, "{err}");
+}
+
+#[test]
+fn a_repeated_counts_id_is_shown_at_its_second_occurrence() {
+    let (_tmp, dir) = campaign();
+    let counts = dir.parent().unwrap().join("dup.json");
+    std::fs::write(
+        &counts,
+        "{\"format\": \"phasewright-counts/1\", \"counts\": {\n  \"k01-re\": {\"0\": 5},\n  \"k01-im\": {\"0\": 5},\n  \"k02-re\": {\"0\": 5},\n  \"k02-im\": {\"0\": 5},\n  \"k01-re\": {\"1\": 5}\n}}\n",
+    )
+    .unwrap();
+    let (code, _, err) = run(phasewright()
+        .arg("estimate")
+        .arg(&dir)
+        .arg("--counts")
+        .arg(&counts));
+    assert_bad_input(code, &err, "circuit `k01-re` appears more than once");
+    assert_eq!(position(&err, "dup.json"), Some((6, 3)));
+}

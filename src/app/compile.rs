@@ -31,15 +31,16 @@ pub enum MeasureKind {
 /// added back by `estimate`.
 #[derive(Args, Debug)]
 #[command(
+    allow_negative_numbers = true,
     after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 --order 2 -o out/ising\n\nCosts are estimates: they depend on the device calibration; validate results against trusted methods."
 )]
 pub struct CompileArgs {
-    /// Hamiltonian file (.ham).
+    /// Hamiltonian file (.ham or FCIDUMP; `-`: stdin).
     pub hamiltonian: PathBuf,
     /// Reference state, one letter per qubit from `0 1 + - r l` (`ss`: a singlet on two
     /// neighbouring qubits), qubit 0 first; or `hf` for the
     /// Hartree–Fock determinant of an integral file under the chosen encoding.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub state: Option<String>,
     /// Fermion-to-qubit encoding for integral files and fermionic .ham files: jw or bk.
     #[arg(long, value_parser = |s: &str| s.parse::<crate::fermion::Encoding>())]
@@ -62,13 +63,14 @@ pub struct CompileArgs {
     /// Which campaign to emit.
     #[arg(long, value_enum, default_value_t = MeasureKind::Overlap)]
     pub measure: MeasureKind,
-    /// Number of random product states for `--measure trace`.
-    #[arg(long, default_value_t = 8)]
-    pub samples: usize,
+    /// Number of random product states for `--measure trace` [default: 8].
+    #[arg(long)]
+    pub samples: Option<usize>,
     /// Seed for random states (and layout trials on devices).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
-    /// Target device (.dev). Without it, an all-to-all device with every standard gate.
+    /// Target device (.dev; `-`: stdin). Without it, an all-to-all device with every standard
+    /// gate.
     #[arg(long)]
     pub device: Option<PathBuf>,
     /// Output folder. Created if missing; an older campaign there is replaced whole (no file
@@ -79,6 +81,9 @@ pub struct CompileArgs {
     #[arg(long)]
     pub force: bool,
 }
+
+/// Random product states of a trace campaign without --samples.
+pub const DEFAULT_SAMPLES: usize = 8;
 
 /// Most controlled rotations one campaign may hold, summed over its circuits. A rotation costs
 /// about [`BYTES_PER_ROTATION`] bytes of OpenQASM, so this caps a campaign below 1 GB.
@@ -229,23 +234,46 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         encoding: args.encoding,
         active: args.active,
     };
+    super::io::one_stdin(&[
+        ("the Hamiltonian", Some(&args.hamiltonian)),
+        ("--device", args.device.as_deref()),
+    ])?;
+    if args.measure == MeasureKind::Trace && args.state.is_some() {
+        return Err(Error::usage(
+            "--state has no effect with --measure trace, which draws --samples random product states from --seed",
+            Some("drop --state, or use --measure overlap or krylov for one reference state"),
+        ));
+    }
+    if args.measure != MeasureKind::Trace && args.samples.is_some() {
+        return Err(Error::usage(
+            "--samples applies to --measure trace only",
+            Some("drop --samples, or add --measure trace"),
+        ));
+    }
     let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
             format!(
                 "{} has no non-identity term: there is nothing to evolve",
-                args.hamiltonian.display()
+                super::io::display_name(&args.hamiltonian)
             ),
             Some("the identity term alone only adds a phase"),
         ));
     }
+    let step_angle = h.one_norm() * args.dt / args.steps as f64;
+    if step_angle > 2.0 * std::f64::consts::PI {
+        g.warn(&format!(
+            "one Trotter step spans Σ|c_j|·dt/steps = {step_angle:.3} rad (more than 2π): the product formula is far from e^(-iH·dt/steps), and energies more than π/dt apart cannot be told apart; use a smaller --dt or more --steps"
+        ));
+    }
     let (family, states) = match args.measure {
         MeasureKind::Trace => {
-            if args.samples == 0 {
+            let samples = args.samples.unwrap_or(DEFAULT_SAMPLES);
+            if samples == 0 {
                 return Err(Error::usage("--samples must be at least 1", None));
             }
-            (Family::Trace, random_states(n, args.samples, args.seed))
+            (Family::Trace, random_states(n, samples, args.seed))
         }
         kind => {
             let mut state = args.state.clone().ok_or_else(|| {
@@ -314,7 +342,8 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         },
         None => Target::AllToAll,
     };
-    let mut compiled = compile_for(&h, &args.hamiltonian.display().to_string(), &spec, &target)?;
+    let source = super::io::display_name(&args.hamiltonian);
+    let mut compiled = compile_for(&h, &source, &spec, &target)?;
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }

@@ -5,7 +5,7 @@
 //! `--plot`. Invariant: every problem in the counts file is reported with its position before
 //! anything is computed; no output file is left half-written.
 
-use super::io::{read_text, write_atomic};
+use super::io::read_text;
 use crate::error::{Error, Result};
 use crate::estimate::counts::{self, BitOrder};
 use crate::estimate::{
@@ -50,16 +50,18 @@ trusted methods.";
 
 /// Arguments of `phasewright estimate`.
 #[derive(Args, Debug, Clone)]
+#[command(allow_negative_numbers = true)]
 pub struct EstimateArgs {
     /// Campaign folder holding plan.json.
     pub dir: PathBuf,
-    /// Counts file (JSON, format phasewright-counts/1).
+    /// Counts file (JSON, format phasewright-counts/1; `-`: stdin).
     #[arg(long, value_name = "FILE")]
     pub counts: PathBuf,
     /// Which end of each bitstring is classical bit 0 [default: the file's "bit_order", else first].
     #[arg(long, value_enum, value_name = "ORDER")]
     pub bit_order: Option<BitOrderArg>,
-    /// Write an SVG plot (energy against Krylov dimension, or the density of states).
+    /// Write an SVG plot (energy against Krylov dimension, or the density of states) to FILE,
+    /// which must end in .svg (`-`: the SVG on stdout instead of the table).
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
     /// Keep eigenvectors of S above this eigenvalue [default: σ̄·d from the shot noise].
@@ -95,6 +97,16 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
 
 /// Runs `phasewright estimate`.
 pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
+    let plot_to_stdout = args.plot.as_deref().is_some_and(super::io::is_stdio);
+    if plot_to_stdout && g.json {
+        return Err(Error::usage(
+            "--plot - and --json both want stdout",
+            Some("write the plot to a .svg file, or drop --json"),
+        ));
+    }
+    if let Some(p) = &args.plot {
+        super::io::check_out_file(p, "--plot", Some("svg"), true)?;
+    }
     let plan = super::io::read_plan(&args.dir)?;
     super::io::check_campaign_files(&args.dir, &plan)?;
     let text = read_text(&args.counts)?;
@@ -102,7 +114,7 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         BitOrderArg::First => BitOrder::First,
         BitOrderArg::Last => BitOrder::Last,
     });
-    let name = args.counts.display().to_string();
+    let name = super::io::display_name(&args.counts);
     let counts = counts::parse(&text, &name, &plan, order).map_err(Error::Input)?;
     let cfg = Config {
         threshold: args.threshold,
@@ -120,7 +132,10 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
             Analysis::Dos(r) => plot::dos_svg(r),
         }
         .map_err(Error::Internal)?;
-        write_atomic(path, svg.as_bytes())?;
+        super::io::write_output(path, svg.as_bytes())?;
+        if plot_to_stdout {
+            return Ok(());
+        }
     }
     if g.json {
         return g.json(&to_json(&analysis, &plan, counts.bit_order));

@@ -29,16 +29,38 @@ pub fn emit(text: &str) -> Result<()> {
         })
 }
 
-/// Reads a UTF-8 text file; a file that is not text is a diagnostic (exit status 2).
+/// Is `path` the conventional `-` (stdin for an input, stdout for an output)?
+pub fn is_stdio(path: &Path) -> bool {
+    path.as_os_str() == "-"
+}
+
+/// The name of an input in diagnostics: its path, or `<stdin>` for `-`.
+pub fn display_name(path: &Path) -> String {
+    if is_stdio(path) {
+        "<stdin>".into()
+    } else {
+        path.display().to_string()
+    }
+}
+
+/// Reads a UTF-8 text file (`-`: all of stdin); a file that is not text is a diagnostic (exit
+/// status 2).
 pub fn read_text(path: &Path) -> Result<String> {
-    let bytes = std::fs::read(path).map_err(|source| Error::Io {
-        path: path.display().to_string(),
+    let name = display_name(path);
+    let read = if is_stdio(path) {
+        let mut buf = Vec::new();
+        std::io::Read::read_to_end(&mut std::io::stdin().lock(), &mut buf).map(|_| buf)
+    } else {
+        std::fs::read(path)
+    };
+    let bytes = read.map_err(|source| Error::Io {
+        path: name.clone(),
         source,
         reading: true,
     })?;
     String::from_utf8(bytes).map_err(|e| {
         Error::input(Diagnostic::whole_file(
-            &path.display().to_string(),
+            &name,
             format!(
                 "not a text file (invalid UTF-8 at byte {})",
                 e.utf8_error().valid_up_to()
@@ -48,10 +70,116 @@ pub fn read_text(path: &Path) -> Result<String> {
     })
 }
 
+/// Refuses two inputs of one command that both want stdin (`-`).
+pub fn one_stdin(inputs: &[(&str, Option<&Path>)]) -> Result<()> {
+    let from_stdin: Vec<&str> = inputs
+        .iter()
+        .filter(|(_, p)| p.is_some_and(is_stdio))
+        .map(|(what, _)| *what)
+        .collect();
+    if from_stdin.len() > 1 {
+        return Err(Error::usage(
+            format!("{} cannot all read stdin (`-`)", from_stdin.join(" and ")),
+            Some("at most one input can come from stdin; give the others as files"),
+        ));
+    }
+    Ok(())
+}
+
+/// Parses `.ham` text; problems are diagnostics, sharpened with "did you mean" and the
+/// recognition of a device file ([`crate::lang::suggest`]).
+pub fn parse_hamiltonian_text(
+    name: &str,
+    src: &str,
+    encoding: Option<crate::fermion::Encoding>,
+) -> Result<crate::lang::ham::HamRead> {
+    crate::lang::ham::parse_hamiltonian_with(name, src, encoding)
+        .map_err(|d| Error::Input(crate::lang::suggest::hamiltonian_hints(name, src, d)))
+}
+
 /// Reads and parses a `.ham` file: not text, or not valid `.ham`, is a diagnostic (exit 2).
 pub fn read_hamiltonian(path: &Path) -> Result<crate::lang::ham::HamFile> {
     let src = read_text(path)?;
-    crate::lang::ham::parse_hamiltonian(&path.display().to_string(), &src).map_err(Error::Input)
+    parse_hamiltonian_text(&display_name(path), &src, None).map(|r| r.ham)
+}
+
+/// Refuses an output file path before any work is done (exit 2): an existing folder, a
+/// missing parent folder, or (when `extension` is given) another file type. `-` (stdout) is
+/// accepted when `stdout_ok`.
+pub fn check_out_file(
+    path: &Path,
+    option: &str,
+    extension: Option<&str>,
+    stdout_ok: bool,
+) -> Result<()> {
+    if is_stdio(path) {
+        return if stdout_ok {
+            Ok(())
+        } else {
+            Err(Error::usage(
+                format!("{option} - (stdout) is not available here"),
+                Some("name a file"),
+            ))
+        };
+    }
+    if path.is_dir() {
+        return Err(Error::usage(
+            format!("{option} `{}` is a folder", path.display()),
+            Some("name a file inside it"),
+        ));
+    }
+    if let Some(ext) = extension {
+        let ok = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| e.eq_ignore_ascii_case(ext));
+        if !ok {
+            return Err(Error::usage(
+                format!(
+                    "{option} `{}`: phasewright writes {} files only",
+                    path.display(),
+                    ext.to_uppercase()
+                ),
+                Some(&format!("name the file with a .{ext} extension")),
+            ));
+        }
+    }
+    let parent = path.parent().filter(|p| !p.as_os_str().is_empty());
+    if let Some(p) = parent {
+        if !p.is_dir() {
+            return Err(Error::usage(
+                format!(
+                    "{option} `{}`: the folder `{}` does not exist",
+                    path.display(),
+                    p.display()
+                ),
+                Some("create the folder first, or write somewhere else"),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Writes a whole output: to stdout for `-`, else atomically to the file.
+pub fn write_output(path: &Path, contents: &[u8]) -> Result<()> {
+    if is_stdio(path) {
+        let mut out = std::io::stdout().lock();
+        return out
+            .write_all(contents)
+            .and_then(|()| out.flush())
+            .map_err(|source| {
+                if source.kind() == std::io::ErrorKind::BrokenPipe {
+                    Error::BrokenPipe
+                } else {
+                    Error::Io {
+                        path: "<stdout>".into(),
+                        source,
+                        reading: false,
+                    }
+                }
+            });
+    }
+    write_atomic(path, contents)
 }
 
 /// Writes `contents` to `path` through a temporary file in the same folder.
@@ -184,10 +312,13 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
         .collect()
 }
 
-/// Reads and parses a `.dev` device file; problems are diagnostics (exit 2).
+/// Reads and parses a `.dev` device file (`-`: stdin); problems are diagnostics (exit 2),
+/// and a Hamiltonian given as the device is named as such.
 pub fn read_device(path: &Path) -> Result<crate::device::Device> {
     let text = read_text(path)?;
-    crate::lang::dev::parse_device(&path.display().to_string(), &text).map_err(Error::Input)
+    let name = display_name(path);
+    crate::lang::dev::parse_device(&name, &text)
+        .map_err(|d| Error::Input(crate::lang::suggest::device_hints(&name, &text, d)))
 }
 
 /// SHA-256 of `bytes` as 64 lowercase hex digits.

@@ -62,6 +62,14 @@ impl Global {
         io::emit(&(text + "\n"))
     }
 
+    /// Prints `warning: …` on stderr (nothing with `--quiet`).
+    pub fn warn(&self, text: &str) {
+        if !self.quiet {
+            use std::io::Write;
+            let _ = writeln!(std::io::stderr(), "warning: {text}");
+        }
+    }
+
     /// A progress bar on stderr (hidden with `--quiet`, and by indicatif when stderr is not
     /// a terminal).
     pub fn progress(&self, len: usize, template: &str) -> ProgressBar {

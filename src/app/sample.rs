@@ -1,7 +1,7 @@
 //! `phasewright sample DIR`: rehearse a campaign on the simulator, writing a counts file in the
 //! same format that hardware results are expected in.
 
-use super::io::{read_plan, read_plan_circuits, write_atomic};
+use super::io::{read_plan, read_plan_circuits};
 use crate::error::{Error, Result};
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
 use crate::sim::{self, check_fits, measured_distribution, State};
@@ -23,6 +23,7 @@ use std::path::PathBuf;
 /// devices have coherent, correlated and readout-specific errors it does not capture.
 #[derive(Args, Debug)]
 #[command(
+    allow_negative_numbers = true,
     after_help = "Example:\n  phasewright sample out/ising --shots 100000 --seed 7 -o out/ising/counts.json\n  phasewright estimate out/ising --counts out/ising/counts.json"
 )]
 pub struct SampleArgs {
@@ -37,7 +38,7 @@ pub struct SampleArgs {
     /// Apply the crude global depolarising model (needs a plan compiled with --device).
     #[arg(long)]
     pub noise: bool,
-    /// Counts file to write (default: DIR/counts.json).
+    /// Counts file to write (default: DIR/counts.json; `-`: stdout).
     #[arg(short = 'o', long = "out")]
     pub out: Option<PathBuf>,
 }
@@ -54,6 +55,18 @@ pub fn run(args: &SampleArgs, g: &super::Global) -> Result<()> {
     if args.shots == 0 {
         return Err(Error::usage("--shots must be at least 1", None));
     }
+    let out = args
+        .out
+        .clone()
+        .unwrap_or_else(|| args.dir.join("counts.json"));
+    let to_stdout = super::io::is_stdio(&out);
+    if to_stdout && g.json {
+        return Err(Error::usage(
+            "-o - and --json both want stdout",
+            Some("write the counts to a file, or drop --json"),
+        ));
+    }
+    super::io::check_out_file(&out, "-o", None, true)?;
     let plan = read_plan(&args.dir)?;
     if args.noise && plan.device.is_none() {
         return Err(Error::usage(
@@ -101,14 +114,13 @@ pub fn run(args: &SampleArgs, g: &super::Global) -> Result<()> {
         "shots": args.shots,
         "counts": all,
     });
-    let out = args
-        .out
-        .clone()
-        .unwrap_or_else(|| args.dir.join("counts.json"));
-    write_atomic(
+    super::io::write_output(
         &out,
         (serde_json::to_string_pretty(&doc).expect("serialisable") + "\n").as_bytes(),
     )?;
+    if to_stdout {
+        return Ok(());
+    }
     g.json(&serde_json::json!({
         "circuits": plan.circuits.len(),
         "shots": args.shots,

@@ -8,3 +8,4 @@ pub mod dev;
 pub mod diag;
 pub mod ham;
 pub mod json_span;
+pub mod suggest;
