@@ -104,8 +104,8 @@ fn files_for_every_example_device_are_native_coupled_and_correct() {
             assert!(c["costs"]["success_probability"].as_f64().unwrap() > 0.0);
             assert!(c["costs"]["duration_ns"].as_f64().unwrap() > 0.0);
             assert_eq!(
-                c["final_layout"].as_array().unwrap().len(),
-                plan["hamiltonian"]["num_qubits"].as_u64().unwrap() as usize + 1
+                c["end_placement"].as_array().unwrap().len(),
+                plan["hamiltonian"]["qubit_count"].as_u64().unwrap() as usize + 1
             );
         }
         let v: serde_json::Value =

@@ -290,7 +290,7 @@ fn bad_input_exits_with_status_2_and_a_caret() {
 
 #[test]
 fn every_command_has_help_with_an_example() {
-    for cmd in ["compile", "verify", "sample", "estimate", "convert"] {
+    for cmd in ["compile", "verify", "rehearse", "estimate", "convert"] {
         let text = stdout_of(phasewright().args([cmd, "--help"]));
         assert!(
             text.contains("Example"),
@@ -392,7 +392,7 @@ fn written_files_pass_the_reference_parser_and_an_independent_simulation() {
 }
 
 #[test]
-fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
+fn rehearse_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("c");
     stdout_of(
@@ -413,7 +413,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
             .arg(&out),
     );
     let r = phasewright()
-        .args(["sample", "--noise"])
+        .args(["rehearse", "--noise"])
         .arg(&out)
         .output()
         .unwrap();
@@ -421,7 +421,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     assert!(String::from_utf8_lossy(&r.stderr).contains("--device"));
     stdout_of(
         phasewright()
-            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .args(["rehearse", "--shots", "2000", "--seed", "4"])
             .arg(&out),
     );
     let counts: serde_json::Value =
@@ -440,13 +440,13 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
         );
         assert!(hist
             .keys()
-            .all(|b| b.len() == c["num_clbits"].as_u64().unwrap() as usize));
+            .all(|b| b.len() == c["bit_count"].as_u64().unwrap() as usize));
     }
     // Same seed, same bytes.
     let first = std::fs::read(out.join("counts.json")).unwrap();
     stdout_of(
         phasewright()
-            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .args(["rehearse", "--shots", "2000", "--seed", "4"])
             .arg(&out),
     );
     assert_eq!(first, std::fs::read(out.join("counts.json")).unwrap());
@@ -481,7 +481,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     let shots = 400_000.0;
     stdout_of(
         phasewright()
-            .args(["sample", "--noise", "--shots", "400000"])
+            .args(["rehearse", "--noise", "--shots", "400000"])
             .arg(&dev_out),
     );
     let noisy: serde_json::Value =

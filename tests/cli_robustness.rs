@@ -361,7 +361,7 @@ fn verify_rehearse_and_estimate_name_a_missing_or_edited_file() {
     let (_tmp, dir) = campaign();
     let counts = dir.parent().unwrap().join("counts.json");
     let (code, _, err) = run(phasewright()
-        .args(["sample", "--shots", "100", "-o"])
+        .args(["rehearse", "--shots", "100", "-o"])
         .arg(&counts)
         .arg(&dir));
     assert_eq!(code, 0, "{err}");
@@ -373,7 +373,13 @@ fn verify_rehearse_and_estimate_name_a_missing_or_edited_file() {
     let elsewhere = dir.parent().unwrap().join("elsewhere.json");
     let checks: [&[&str]; 3] = [
         &["verify"],
-        &["sample", "--shots", "10", "-o", elsewhere.to_str().unwrap()],
+        &[
+            "rehearse",
+            "--shots",
+            "10",
+            "-o",
+            elsewhere.to_str().unwrap(),
+        ],
         &["estimate", "--counts", counts.to_str().unwrap()],
     ];
     for args in checks {
@@ -488,7 +494,7 @@ fn every_command_takes_json_and_quiet() {
         ],
         vec!["verify".into(), dir.display().to_string()],
         vec![
-            "sample".into(),
+            "rehearse".into(),
             dir.display().to_string(),
             "--shots".into(),
             "200".into(),
@@ -551,7 +557,7 @@ fn a_hyphen_is_stdin_or_stdout_where_one_stream_makes_sense() {
     assert!(plan.contains("\"source\": \"<stdin>\""));
     // Counts to stdout, read back from stdin by estimate; the plot to stdout.
     let (code, counts, err) = run(phasewright()
-        .args(["sample", "--shots", "500", "-o", "-"])
+        .args(["rehearse", "--shots", "500", "-o", "-"])
         .arg(&out));
     assert_eq!(code, 0, "{err}");
     assert!(counts.contains("\"format\": \"phasewright-counts/1\""));
@@ -595,7 +601,7 @@ fn output_paths_that_cannot_work_are_bad_input() {
     let base = dir.parent().unwrap().to_path_buf();
     let counts = base.join("counts.json");
     let (code, _, err) = run(phasewright()
-        .args(["sample", "--shots", "100", "-q", "-o"])
+        .args(["rehearse", "--shots", "100", "-q", "-o"])
         .arg(&counts)
         .arg(&dir));
     assert_eq!(code, 0, "{err}");
@@ -616,7 +622,7 @@ fn output_paths_that_cannot_work_are_bad_input() {
     assert_eq!(code, 0, "{err}");
     // A folder where a counts file should go.
     let (code, _, err) = run(phasewright()
-        .args(["sample", "--shots", "10", "-o"])
+        .args(["rehearse", "--shots", "10", "-o"])
         .arg(&base)
         .arg(&dir));
     assert_bad_input(code, &err, "is a folder");
@@ -739,4 +745,51 @@ fn a_repeated_counts_id_is_shown_at_its_second_occurrence() {
         .arg(&counts));
     assert_bad_input(code, &err, "circuit `k01-re` appears more than once");
     assert_eq!(position(&err, "dup.json"), Some((6, 3)));
+}
+
+// ----- 4. names of our own -------------------------------------------------------------------
+
+#[test]
+fn rehearse_is_listed_and_sample_is_a_hidden_alias() {
+    let (_tmp, dir) = campaign();
+    let (code, help, _) = run(phasewright().arg("--help"));
+    assert_eq!(code, 0);
+    assert!(help.contains("rehearse"), "{help}");
+    assert!(
+        !help.contains("sample"),
+        "the old name is not advertised:\n{help}"
+    );
+    let a = dir.parent().unwrap().join("a.json");
+    let b = dir.parent().unwrap().join("b.json");
+    for (cmd, out) in [("rehearse", &a), ("sample", &b)] {
+        let (code, _, err) = run(phasewright()
+            .args([cmd, "--shots", "300", "--seed", "5", "-q", "-o"])
+            .arg(out)
+            .arg(&dir));
+        assert_eq!(code, 0, "{cmd}: {err}");
+    }
+    assert_eq!(std::fs::read(&a).unwrap(), std::fs::read(&b).unwrap());
+}
+
+#[test]
+fn plan_keys_are_phasewrights_own() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("dev");
+    let (code, _, err) =
+        compile_mixed(&out, &["--state", "0000", "--device", "examples/line8.dev"]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(out.join("plan.json")).unwrap();
+    for old in ["initial_layout", "final_layout", "num_clbits", "num_qubits"] {
+        assert!(!text.contains(old), "plan.json still says `{old}`");
+    }
+    let plan: serde_json::Value = serde_json::from_str(&text).unwrap();
+    assert_eq!(
+        plan["device"]["start_placement"].as_array().unwrap().len(),
+        5
+    );
+    let c = &plan["circuits"][0];
+    assert_eq!(c["end_placement"].as_array().unwrap().len(), 5);
+    assert_eq!(c["bit_count"], 1);
+    assert_eq!(c["qubit_count"], 8, "line8.dev has 8 physical qubits");
+    assert_eq!(plan["hamiltonian"]["qubit_count"], 4);
 }

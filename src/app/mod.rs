@@ -10,7 +10,7 @@ pub mod compile;
 pub mod convert;
 pub mod estimate;
 pub mod io;
-pub mod sample;
+pub mod rehearse;
 pub mod verify;
 
 use crate::error::{Error, Result};
@@ -93,7 +93,8 @@ pub enum Command {
     /// Turn measured counts into energies or a density of states.
     #[command(long_about = estimate::ESTIMATE_HELP)]
     Estimate(estimate::EstimateArgs),
-    Sample(sample::SampleArgs),
+    #[command(alias = "sample")]
+    Rehearse(rehearse::RehearseArgs),
     Verify(verify::VerifyArgs),
 }
 
@@ -104,7 +105,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Compile(a) => compile::run(&a, &g),
         Command::Convert(a) => convert::run(a, &g),
         Command::Estimate(a) => estimate::run(&a, &g),
-        Command::Sample(a) => sample::run(&a, &g),
+        Command::Rehearse(a) => rehearse::run(&a, &g),
         Command::Verify(a) => verify::run(&a, &g),
     }
 }

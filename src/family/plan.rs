@@ -7,11 +7,16 @@
 //!
 //! Schema `phasewright-plan/2` (documented in README):
 //! - `family`: `overlap` | `krylov` | `trace`;
-//! - `hamiltonian`: qubit count, constant (identity coefficient, never a gate), one-norm, terms;
+//! - `hamiltonian`: `qubit_count`, constant (identity coefficient, never a gate), one-norm, terms;
 //! - `formula`: order, Trotter steps per unit of `k`, `dt`;
 //! - `states`: reference states (`0 1 + - r l`, qubit 0 first); one for overlap/krylov, N for trace;
-//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group, reads, costs,
-//!   and the file's SHA-256 (the plan is written after every file it lists).
+//! - `device` (absent on all-to-all): name, `qubit_count`, native gates, `start_placement`;
+//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group,
+//!   `qubit_count`, `bit_count`, ancilla bit, reads, costs, `end_placement` (on a device), and
+//!   the file's SHA-256 (the plan is written after every file it lists).
+//!
+//! The Rust field names (`num_qubits`, `num_clbits`, `initial_layout`, `final_layout`) are
+//! those the compiler passes use; the JSON keys are the plan's own words.
 //!
 //! A read's value is `⟨Π_{b ∈ bits} (−1)^{c_b}⟩` over the shots, i.e. the parity expectation of
 //! the listed classical bits; for part `re` it estimates `Re q`, for part `im` it estimates `Im q`,
@@ -52,6 +57,7 @@ pub enum Family {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct HamiltonianInfo {
     pub source: String,
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
     /// Coefficient of the identity: added back at estimation time, never compiled.
     pub constant: f64,
@@ -79,9 +85,12 @@ pub struct FormulaInfo {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct DeviceInfo {
     pub name: String,
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
     pub native: Vec<String>,
-    /// `initial_layout[l]` = physical qubit holding logical qubit l (the ancilla is the last l).
+    /// `start_placement[l]` = physical qubit holding logical qubit l when every circuit starts
+    /// (the ancilla is the last l).
+    #[serde(rename = "start_placement")]
     pub initial_layout: Vec<u32>,
 }
 
@@ -121,14 +130,23 @@ pub struct CircuitEntry {
     /// Measurement group (krylov family), if any.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub group: Option<usize>,
+    /// Qubits the file addresses (logical qubits, or the device's physical qubits).
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
+    /// Classical bits the file declares (the length of every bitstring of its counts).
+    #[serde(rename = "bit_count")]
     pub num_clbits: usize,
     /// Classical bit holding the Hadamard-test ancilla.
     pub ancilla_bit: u32,
     pub reads: Vec<Read>,
     pub costs: Costs,
-    /// Physical qubit measured into each classical bit, after routing (empty on all-to-all).
-    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    /// `end_placement[l]` = physical qubit holding logical qubit l when the circuit ends, after
+    /// its SWAPs (the ancilla is the last l); empty on all-to-all.
+    #[serde(
+        rename = "end_placement",
+        default,
+        skip_serializing_if = "Vec::is_empty"
+    )]
     pub final_layout: Vec<u32>,
     /// SHA-256 of `file` (lowercase hex), recorded by `compile` after writing it. When present,
     /// every reader of the campaign refuses a missing or changed file.
@@ -229,7 +247,7 @@ impl Plan {
         let n = self.hamiltonian.num_qubits;
         if n == 0 || n > MAX_PLAN_QUBITS {
             bad(
-                vec![Key("hamiltonian"), Key("num_qubits")],
+                vec![Key("hamiltonian"), Key("qubit_count")],
                 format!("the Hamiltonian has {n} qubits; a plan holds 1 to {MAX_PLAN_QUBITS}"),
                 None,
             );
@@ -347,7 +365,7 @@ impl Plan {
         if let Some(d) = &self.device {
             if d.num_qubits == 0 || d.num_qubits > MAX_PLAN_DEVICE_QUBITS {
                 bad(
-                    vec![Key("device"), Key("num_qubits")],
+                    vec![Key("device"), Key("qubit_count")],
                     format!(
                         "a device of {} qubits; 1 to {MAX_PLAN_DEVICE_QUBITS} are allowed",
                         d.num_qubits
@@ -357,7 +375,7 @@ impl Plan {
             }
             if d.initial_layout.len() != n + 1 {
                 bad(
-                    vec![Key("device"), Key("initial_layout")],
+                    vec![Key("device"), Key("start_placement")],
                     format!(
                         "the start placement lists {} qubits; the Hamiltonian and the ancilla need {}",
                         d.initial_layout.len(),
@@ -370,7 +388,7 @@ impl Plan {
             for (l, &p) in d.initial_layout.iter().enumerate() {
                 if p as usize >= d.num_qubits || !used.insert(p) {
                     bad(
-                        vec![Key("device"), Key("initial_layout"), Index(l)],
+                        vec![Key("device"), Key("start_placement"), Index(l)],
                         format!("logical qubit {l} is placed on physical qubit {p}, which is outside the device or used twice"),
                         None,
                     );
@@ -439,7 +457,7 @@ impl Plan {
             };
             if !qubits_ok {
                 bad(
-                    at_circuit(i, "num_qubits"),
+                    at_circuit(i, "qubit_count"),
                     format!("circuit `{}`: {} qubits does not fit a {n}-qubit Hamiltonian plus ancilla{}", e.id, e.num_qubits,
                         device_qubits.map(|d| format!(" on a {d}-qubit device")).unwrap_or_default()),
                     None,
@@ -447,7 +465,7 @@ impl Plan {
             }
             if e.num_clbits == 0 || e.num_clbits > MAX_PLAN_BITS {
                 bad(
-                    at_circuit(i, "num_clbits"),
+                    at_circuit(i, "bit_count"),
                     format!(
                         "circuit `{}`: {} classical bits; 1 to {MAX_PLAN_BITS} are allowed",
                         e.id, e.num_clbits
@@ -529,7 +547,7 @@ impl Plan {
                     .enumerate()
                     .find(|(_, &p)| p as usize >= d)
                 {
-                    let mut path = at_circuit(i, "final_layout");
+                    let mut path = at_circuit(i, "end_placement");
                     path.push(Index(l));
                     bad(
                         path,

@@ -1,5 +1,9 @@
-//! `phasewright sample DIR`: rehearse a campaign on the simulator, writing a counts file in the
-//! same format that hardware results are expected in.
+//! `phasewright rehearse DIR`: rehearse a campaign on the simulator, writing a counts file in
+//! the same format that hardware results are expected in (`sample` is a hidden alias kept for
+//! older scripts).
+//!
+//! In: a validated plan and its unchanged circuit files. Out: one counts file (or stdout), the
+//! same bytes for the same seed whatever the number of threads.
 
 use super::io::{read_plan, read_plan_circuits};
 use crate::error::{Error, Result};
@@ -11,7 +15,8 @@ use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-/// Simulate every circuit of a plan and draw shots from its exact output distribution.
+/// Rehearse a campaign: simulate every circuit and draw shots from its exact output
+/// distribution, as if the files had been run.
 ///
 /// Writes a counts file: {"format": "phasewright-counts/1", "bit_order": "first", "shots": N,
 /// "counts": {"<circuit id>": {"<bitstring>": count}}}. Bitstrings list classical bit 0 first
@@ -24,9 +29,9 @@ use std::path::PathBuf;
 #[derive(Args, Debug)]
 #[command(
     allow_negative_numbers = true,
-    after_help = "Example:\n  phasewright sample out/ising --shots 100000 --seed 7 -o out/ising/counts.json\n  phasewright estimate out/ising --counts out/ising/counts.json"
+    after_help = "Example:\n  phasewright rehearse out/ising --shots 100000 --seed 7 -o out/ising-counts.json\n  phasewright estimate out/ising --counts out/ising-counts.json"
 )]
-pub struct SampleArgs {
+pub struct RehearseArgs {
     /// Folder written by `phasewright compile`.
     pub dir: PathBuf,
     /// Shots per circuit.
@@ -51,7 +56,7 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
-pub fn run(args: &SampleArgs, g: &super::Global) -> Result<()> {
+pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     if args.shots == 0 {
         return Err(Error::usage("--shots must be at least 1", None));
     }
