@@ -229,6 +229,7 @@ fn finish(
         },
         states: spec.states.clone(),
         seed: None,
+        energy_unit: None,
         points: spec.points,
         device,
         circuits: entries,

@@ -793,3 +793,105 @@ fn plan_keys_are_phasewrights_own() {
     assert_eq!(c["qubit_count"], 8, "line8.dev has 8 physical qubits");
     assert_eq!(plan["hamiltonian"]["qubit_count"], 4);
 }
+
+// ----- 5. docs -------------------------------------------------------------------------------
+
+#[test]
+fn the_counts_example_in_the_docs_answers_its_documented_campaign() {
+    let doc = std::fs::read_to_string("docs/counts.md").unwrap();
+    let command = doc
+        .lines()
+        .find(|l| l.starts_with("phasewright compile "))
+        .expect("docs/counts.md shows the compile command of its example");
+    let start = doc.find("```json\n").unwrap() + "```json\n".len();
+    let example = &doc[start..start + doc[start..].find("```").unwrap()];
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("mixed");
+    let mut args: Vec<&str> = command.split_whitespace().skip(1).collect();
+    let o = args.iter().position(|a| *a == "-o").unwrap();
+    args.truncate(o);
+    let (code, _, err) = run(phasewright().args(&args).arg("-o").arg(&out).arg("-q"));
+    assert_eq!(code, 0, "{err}");
+    let counts = tmp.path().join("counts.json");
+    std::fs::write(&counts, example).unwrap();
+    let (code, table, err) = run(phasewright()
+        .arg("estimate")
+        .arg(&out)
+        .arg("--counts")
+        .arg(&counts));
+    assert_eq!(code, 0, "the documented example is refused:\n{err}");
+    assert!(table.contains("overlap plan"), "{table}");
+}
+
+#[test]
+fn table_and_plot_show_the_same_error_bars_and_the_energy_unit() {
+    let (_tmp, dir) = campaign();
+    let base = dir.parent().unwrap().to_path_buf();
+    let counts = base.join("counts.json");
+    let plot = base.join("energies.svg");
+    let (code, _, err) = run(phasewright()
+        .args(["rehearse", "--shots", "2000", "-q", "-o"])
+        .arg(&counts)
+        .arg(&dir));
+    assert_eq!(code, 0, "{err}");
+    let (code, table, err) = run(phasewright()
+        .arg("estimate")
+        .arg(&dir)
+        .arg("--counts")
+        .arg(&counts)
+        .arg("--plot")
+        .arg(&plot));
+    assert_eq!(code, 0, "{err}");
+    assert!(table.contains("±1σ") && !table.contains("±2σ"), "{table}");
+    let svg = std::fs::read_to_string(&plot).unwrap();
+    assert!(
+        svg.contains("(±1σ)") && !svg.contains("±2σ"),
+        "plot bars differ from the table"
+    );
+    assert!(
+        svg.contains("energy (units of H"),
+        "no unit on the energy axis"
+    );
+    // Integral-file input: energies in hartree, named on the axis.
+    let chem = base.join("chem");
+    let (code, _, err) = run(phasewright()
+        .args([
+            "compile",
+            "examples/toy_chain3.fcidump",
+            "--encoding",
+            "jw",
+            "--state",
+            "hf",
+            "--dt",
+            "0.3",
+            "--points",
+            "3",
+            "-q",
+            "-o",
+        ])
+        .arg(&chem));
+    assert_eq!(code, 0, "{err}");
+    let plan = std::fs::read_to_string(chem.join("plan.json")).unwrap();
+    assert!(plan.contains("\"energy_unit\": \"hartree\""));
+    let chem_counts = base.join("chem-counts.json");
+    assert_eq!(
+        run(phasewright()
+            .args(["rehearse", "--shots", "2000", "-q", "-o"])
+            .arg(&chem_counts)
+            .arg(&chem))
+        .0,
+        0
+    );
+    let (code, table, err) = run(phasewright()
+        .arg("estimate")
+        .arg(&chem)
+        .arg("--counts")
+        .arg(&chem_counts)
+        .arg("--plot")
+        .arg(&plot));
+    assert_eq!(code, 0, "{err}");
+    assert!(table.contains("energies in hartree"), "{table}");
+    assert!(std::fs::read_to_string(&plot)
+        .unwrap()
+        .contains("energy (hartree)"));
+}

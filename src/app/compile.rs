@@ -347,6 +347,10 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
+    if chem.is_some() {
+        // FCIDUMP integrals are in hartree by the format's convention.
+        compiled.plan.energy_unit = Some("hartree".into());
+    }
     super::io::check_out_folder(&args.out, args.force)?;
     write_campaign(&args.out, &mut compiled)?;
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));

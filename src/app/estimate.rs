@@ -41,8 +41,9 @@ first (leftmost); pass --bit-order last for files that put bit 0 rightmost. The 
 the file's own \"bit_order\" key.
 
 For overlap and krylov plans the table gives the lowest Krylov energy for every dimension \
-1..K, with a bootstrap standard error, beside the matrix-pencil estimate from the overlaps \
-alone. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
+1..K, with ±1σ (one bootstrap standard error, as the plot's error bars), beside the \
+matrix-pencil estimate from the overlaps alone. Energies are in hartree for integral-file \
+input, otherwise in the units of the .ham coefficients. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
 the quadrature error bound.
 
 Caution: energies from noisy hardware depend on the device calibration; validate against \
@@ -128,8 +129,8 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         .map_err(|m| Error::usage(m, Some("check that the counts answer this plan")))?;
     if let Some(path) = &args.plot {
         let svg = match &analysis {
-            Analysis::Energies(r) => plot::energy_svg(r),
-            Analysis::Dos(r) => plot::dos_svg(r),
+            Analysis::Energies(r) => plot::energy_svg(r, &plan.energy_label()),
+            Analysis::Dos(r) => plot::dos_svg(r, &plan.energy_label()),
         }
         .map_err(Error::Internal)?;
         super::io::write_output(path, svg.as_bytes())?;
@@ -173,10 +174,17 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
             "σ̄·d from the shot noise of S (column `threshold`)".into()
         }
     );
+    let _ = writeln!(
+        s,
+        "energies in {}",
+        plan.energy_unit
+            .as_deref()
+            .unwrap_or("the units of the Hamiltonian's coefficients")
+    );
     if r.bootstrap >= 2 {
         let _ = writeln!(
             s,
-            "error bars: one bootstrap standard error (σ) from {} replicates, seed {}",
+            "error bars: ±1σ, one bootstrap standard error from {} replicates, seed {} (the plot shows the same)",
             r.bootstrap, r.seed
         );
     } else {
@@ -186,7 +194,7 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
     let _ = writeln!(
         s,
         "{:>3}  {:>14}  {:>9}  {:>5}  {:>9}  {:>14}  {:>9}",
-        "d", "krylov", "±σ", "kept", "threshold", "pencil", "±σ"
+        "d", "krylov", "±1σ", "kept", "threshold", "pencil", "±1σ"
     );
     for row in &r.rows {
         let _ = writeln!(
@@ -252,10 +260,17 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         "quadrature: rectangle rule on t_k = k·dt, |k| ≤ K−1 (trapezoid on the infinite grid), \
          truncation + aliasing bound in column `bound`"
     );
-    let _ = writeln!(s, "band: ±2σ, σ from the {}", r.band_source);
     let _ = writeln!(
         s,
-        "ρ in states per unit energy (integrates to 2^{} = {})",
+        "band: ±2σ (the plot shows the same band), σ from the {}",
+        r.band_source
+    );
+    let _ = writeln!(
+        s,
+        "E in {}; ρ in states per unit energy (integrates to 2^{} = {})",
+        plan.energy_unit
+            .as_deref()
+            .unwrap_or("the units of the Hamiltonian's coefficients"),
         r.num_qubits,
         1u64 << r.num_qubits.min(63)
     );
@@ -308,7 +323,6 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         s,
         "caution: results from noisy hardware depend on the device calibration; validate against trusted methods"
     );
-    let _ = plan;
     s
 }
 
@@ -330,6 +344,8 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
     match a {
         Analysis::Energies(r) => json!({
             "format": "phasewright-estimate/1",
+            "energy_unit": plan.energy_unit,
+            "error_bars": "one bootstrap standard error (1 sigma)",
             "family": estimate::family_name(r.family),
             "dt": r.dt,
             "points": plan.points,
@@ -358,6 +374,7 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
         }),
         Analysis::Dos(r) => json!({
             "format": "phasewright-estimate/1",
+            "energy_unit": plan.energy_unit,
             "family": "trace",
             "dt": r.dt,
             "points": r.points,

@@ -39,6 +39,11 @@ pub struct Plan {
     /// Seed used to draw random states (trace family), if any.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub seed: Option<u64>,
+    /// Unit of the coefficients, hence of every energy (`hartree` for an integral-file input);
+    /// absent when the input does not say (a `.ham` file), and then energies are in the units
+    /// of its coefficients.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub energy_unit: Option<String>,
     /// Number of time points K: k runs over 0..K.
     pub points: usize,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -230,6 +235,14 @@ pub fn is_plain_file_name(name: &str) -> bool {
 }
 
 impl Plan {
+    /// The energy axis label: `energy (hartree)`, or `energy (units of H's coefficients)`.
+    pub fn energy_label(&self) -> String {
+        match &self.energy_unit {
+            Some(u) => format!("energy ({u})"),
+            None => "energy (units of H's coefficients)".to_string(),
+        }
+    }
+
     /// Every inconsistency between the plan's parts, each with its place in plan.json. A plan
     /// with none can be simulated, sampled and estimated without any index going out of
     /// range: states fit the Hamiltonian, circuits point at existing states, terms and bits,
