@@ -217,13 +217,20 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
     let text = read_text(&path)?;
     let name = path.display().to_string();
     let not_a_plan = |e: serde_json::Error| {
-        let offset = crate::lang::diag::offset_of(&text, e.line(), e.column());
+        let mut offset = crate::lang::diag::offset_of(&text, e.line(), e.column());
+        if e.classify() == serde_json::error::Category::Data {
+            // An unknown key or variant is reported at its closing quote: show all of it.
+            offset = crate::lang::json_span::token_start(&text, offset);
+        }
         Error::input(Diagnostic::at(
             &name,
             &text,
             offset,
             1,
-            format!("not a phasewright plan: {e}"),
+            format!(
+                "not a phasewright plan: {}",
+                crate::estimate::counts::strip_position(&e.to_string())
+            ),
             Some("pass a folder written by `phasewright compile`".into()),
         ))
     };
@@ -303,6 +310,22 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
                     format!(
                         "uses {} qubits and {} classical bits, but plan.json gives circuit `{}` {} and {}",
                         c.num_qubits, c.num_clbits, e.id, e.num_qubits, e.num_clbits
+                    ),
+                    Some("the file and the plan come from different compilations; recompile".into()),
+                )));
+            }
+            let measured: Vec<u32> = c.measurements().iter().map(|&(_, b)| b).collect();
+            if let Some(b) = e
+                .reads
+                .iter()
+                .flat_map(|r| &r.bits)
+                .find(|b| !measured.contains(b))
+            {
+                return Err(Error::input(Diagnostic::whole_file(
+                    &name,
+                    format!(
+                        "never measures classical bit {b}, which plan.json reads for circuit `{}`",
+                        e.id
                     ),
                     Some("the file and the plan come from different compilations; recompile".into()),
                 )));

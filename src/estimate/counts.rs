@@ -162,7 +162,10 @@ pub fn parse(
     let raw: RawFile = match serde_json::from_str(src) {
         Ok(r) => r,
         Err(e) => {
-            let off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            let mut off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            if e.classify() == serde_json::error::Category::Data {
+                off = crate::lang::json_span::token_start(src, off);
+            }
             return Err(vec![here(
                 off,
                 1,
@@ -456,7 +459,8 @@ pub fn to_json(ids: &[&str], circuits: &[CircuitCounts], shots: Option<u64>) -> 
     serde_json::to_string_pretty(&serde_json::Value::Object(top)).expect("serialises") + "\n"
 }
 
-fn strip_position(msg: &str) -> String {
+/// A serde_json message without its trailing ` at line L column C` (the diagnostic shows the place).
+pub(crate) fn strip_position(msg: &str) -> String {
     match msg.rfind(" at line ") {
         Some(i) => msg[..i].to_string(),
         None => msg.to_string(),

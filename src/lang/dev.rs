@@ -687,10 +687,7 @@ fn calibration(
                     _ => {
                         cx.err(
                             unit,
-                            format!(
-                                "unknown time unit `{unit}`{}",
-                                did_you_mean(unit, &["ns", "us"])
-                            ),
+                            format!("unknown time unit `{unit}`"),
                             Some("use ns or us"),
                         );
                         continue;

@@ -32,6 +32,28 @@ impl Span {
     }
 }
 
+/// The start of the token that ends at byte `offset`: serde_json reports a problem with a
+/// string (an unknown key or variant, a duplicate key) at its closing quote; this steps back
+/// to the opening quote so the caret sits under the whole string. Other offsets are returned
+/// unchanged.
+pub fn token_start(src: &str, offset: usize) -> usize {
+    let b = src.as_bytes();
+    if offset == 0 || b.get(offset) != Some(&b'"') {
+        return offset;
+    }
+    let mut i = offset;
+    while i > 0 {
+        i -= 1;
+        if b[i] == b'"' && (i == 0 || b[i - 1] != b'\\') {
+            return i;
+        }
+        if b[i] == b'\n' {
+            break;
+        }
+    }
+    offset
+}
+
 /// Finds the member at `path` in `src`. An empty path gives the whole top-level value.
 pub fn locate(src: &str, path: &[Step]) -> Option<Span> {
     let b = src.as_bytes();
@@ -201,6 +223,15 @@ mod tests {
         assert!(locate(DOC, &[Step::Key("list"), Step::Index(3)]).is_none());
         assert!(locate(DOC, &[Step::KeyNth("a", 2)]).is_none());
         assert!(locate(DOC, &[Step::Key("a"), Step::Key("b")]).is_none());
+    }
+
+    #[test]
+    fn token_start_steps_back_over_a_string() {
+        let src = "{\"a\": \"xy\\\"z\"}";
+        let close = src.rfind('"').unwrap();
+        assert_eq!(token_start(src, close), 6);
+        assert_eq!(token_start(src, 1), 1, "an opening quote stays");
+        assert_eq!(token_start("{ 12 }", 3), 3);
     }
 
     #[test]
