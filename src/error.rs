@@ -1,7 +1,8 @@
 //! The top-level error: everything a command can fail with, and the exit status it maps to.
 //!
 //! In: errors of each layer (diagnostics from the parsers, I/O failures, broken IR invariants).
-//! Out: one value rendered once by the binary. Bad input exits with 2, internal failures with 1.
+//! Out: one value rendered once by the binary. Bad input exits with 2, internal failures with 1;
+//! a closed stdout (the reader of a pipe stopped early) is a quiet exit with status 0.
 
 use crate::circuit::verify::IrError;
 use crate::lang::diag::{render_all, Diagnostic};
@@ -26,6 +27,8 @@ pub enum Error {
     Ir(IrError),
     /// Any other internal failure.
     Internal(String),
+    /// stdout was closed by its reader (e.g. `| head -1`): stop quietly, nothing to report.
+    BrokenPipe,
 }
 
 impl Error {
@@ -52,6 +55,7 @@ impl Error {
                 }
             }
             Error::Ir(_) | Error::Internal(_) => 1,
+            Error::BrokenPipe => 0,
         }
     }
 }
@@ -84,6 +88,7 @@ impl fmt::Display for Error {
                 "internal error (a phasewright bug, please report it): {e}"
             ),
             Error::Internal(m) => writeln!(f, "internal error: {m}"),
+            Error::BrokenPipe => Ok(()),
         }
     }
 }

@@ -1,14 +1,25 @@
 //! The phasewright binary: argument parsing and dispatch only. All work happens in the library.
+//!
+//! Exit status: 0 success (also when the reader of stdout stops early, as `| head` does), 1 an
+//! internal failure, 2 bad input or usage. Nothing here panics on a closed stream.
 
 use clap::Parser;
+use std::io::Write;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
-    let cli = phasewright::app::Cli::parse();
+    let cli = match phasewright::app::Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            // Help and version go to stdout, usage errors to stderr; a closed stream is ignored.
+            let _ = e.print();
+            return ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2));
+        }
+    };
     match phasewright::app::run(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprint!("{e}");
+            let _ = write!(std::io::stderr(), "{e}");
             ExitCode::from(e.exit_code())
         }
     }

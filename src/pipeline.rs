@@ -279,6 +279,7 @@ fn finish(
             reads: job.reads,
             costs: f.costs,
             final_layout: f.final_layout,
+            sha256: None,
         });
         circuits.push(f.circuit);
     }
@@ -293,6 +294,7 @@ fn finish(
         },
         states: spec.states.clone(),
         seed: None,
+        energy_unit: None,
         points: spec.points,
         device,
         circuits: entries,

@@ -43,22 +43,21 @@ fn every_example_compiles_and_verifies() {
             .collect();
         for measure in ["overlap", "krylov", "trace"] {
             let mut c = phasewright();
-            c.arg("compile")
-                .arg(&path)
-                .args([
-                    "--state",
-                    &state,
-                    "--dt",
-                    "0.3",
-                    "--points",
-                    "3",
-                    "--measure",
-                    measure,
-                    "--samples",
-                    "3",
-                    "-o",
-                ])
-                .arg(&out);
+            c.arg("compile").arg(&path).args([
+                "--dt",
+                "0.3",
+                "--points",
+                "3",
+                "--measure",
+                measure,
+            ]);
+            // A trace campaign draws its own states; the others start from one.
+            if measure == "trace" {
+                c.args(["--samples", "3"]);
+            } else {
+                c.args(["--state", &state]);
+            }
+            c.arg("-o").arg(&out);
             stdout_of(&mut c);
             let report = stdout_of(phasewright().args(["verify", "--json"]).arg(&out));
             let v: serde_json::Value = serde_json::from_str(&report).unwrap();
@@ -105,7 +104,7 @@ fn compile_writes_the_plan_and_one_file_per_circuit() {
     );
     let plan: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
-    assert_eq!(plan["format"], "phasewright-plan/1");
+    assert_eq!(plan["format"], "phasewright-plan/2");
     assert_eq!(plan["formula"]["order"], 4);
     assert_eq!(plan["hamiltonian"]["constant"], -1.5);
     let circuits = plan["circuits"].as_array().unwrap();
@@ -166,7 +165,26 @@ fn verify_fails_when_a_file_was_tampered_with() {
         })
         .collect();
     assert_ne!(bad, text);
-    std::fs::write(&f, bad).unwrap();
+    std::fs::write(&f, &bad).unwrap();
+    // The plan's SHA-256 no longer matches: bad input, naming the file.
+    let out_v = phasewright().args(["verify"]).arg(&out).output().unwrap();
+    assert_eq!(out_v.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out_v.stderr);
+    assert!(
+        err.contains("k02-re.qasm: changed since it was compiled"),
+        "{err}"
+    );
+    // A file that agrees with its plan's hash but not with the product formula (as a compiler
+    // bug would write it) is caught by the simulation: exit 1.
+    let plan_path = out.join("plan.json");
+    let mut plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&plan_path).unwrap()).unwrap();
+    for c in plan["circuits"].as_array_mut().unwrap() {
+        if c["file"] == "k02-re.qasm" {
+            c["sha256"] = phasewright::app::io::sha256_hex(bad.as_bytes()).into();
+        }
+    }
+    std::fs::write(&plan_path, serde_json::to_string_pretty(&plan).unwrap()).unwrap();
     let out_v = phasewright().args(["verify"]).arg(&out).output().unwrap();
     assert_eq!(
         out_v.status.code(),
@@ -272,7 +290,7 @@ fn bad_input_exits_with_status_2_and_a_caret() {
 
 #[test]
 fn every_command_has_help_with_an_example() {
-    for cmd in ["compile", "verify", "sample", "estimate", "convert"] {
+    for cmd in ["compile", "verify", "rehearse", "estimate", "convert"] {
         let text = stdout_of(phasewright().args([cmd, "--help"]));
         assert!(
             text.contains("Example"),
@@ -374,7 +392,7 @@ fn written_files_pass_the_reference_parser_and_an_independent_simulation() {
 }
 
 #[test]
-fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
+fn rehearse_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("c");
     stdout_of(
@@ -395,7 +413,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
             .arg(&out),
     );
     let r = phasewright()
-        .args(["sample", "--noise"])
+        .args(["rehearse", "--noise"])
         .arg(&out)
         .output()
         .unwrap();
@@ -403,7 +421,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     assert!(String::from_utf8_lossy(&r.stderr).contains("--device"));
     stdout_of(
         phasewright()
-            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .args(["rehearse", "--shots", "2000", "--seed", "4"])
             .arg(&out),
     );
     let counts: serde_json::Value =
@@ -422,13 +440,13 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
         );
         assert!(hist
             .keys()
-            .all(|b| b.len() == c["num_clbits"].as_u64().unwrap() as usize));
+            .all(|b| b.len() == c["bit_count"].as_u64().unwrap() as usize));
     }
     // Same seed, same bytes.
     let first = std::fs::read(out.join("counts.json")).unwrap();
     stdout_of(
         phasewright()
-            .args(["sample", "--shots", "2000", "--seed", "4"])
+            .args(["rehearse", "--shots", "2000", "--seed", "4"])
             .arg(&out),
     );
     assert_eq!(first, std::fs::read(out.join("counts.json")).unwrap());
@@ -463,7 +481,7 @@ fn sample_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
     let shots = 400_000.0;
     stdout_of(
         phasewright()
-            .args(["sample", "--noise", "--shots", "400000"])
+            .args(["rehearse", "--noise", "--shots", "400000"])
             .arg(&dev_out),
     );
     let noisy: serde_json::Value =

@@ -1,4 +1,4 @@
-//! Noiseless rehearsal end to end through the real binary: compile → sample (10⁶ shots per
+//! Noiseless rehearsal end to end through the real binary: compile → rehearse (10⁶ shots per
 //! circuit) → estimate, on an invented 8-site transverse-field Ising chain and a 6-site
 //! Heisenberg chain. The Krylov energy at K = 10 must agree with the exact ground energy
 //! (dense diagonalisation, reported by `estimate`) within 1.6e-3 in the model's units — the
@@ -55,7 +55,7 @@ fn krylov_errors(ham: &str, state: &str, dt: &str) -> Vec<(f64, f64)> {
     for seed in ["1", "2", "3"] {
         let counts = dir.join(format!("counts{seed}.json")).display().to_string();
         run(&[
-            "sample", &d, "--shots", "1000000", "--seed", seed, "-o", &counts,
+            "rehearse", &d, "--shots", "1000000", "--seed", seed, "-o", &counts,
         ]);
         let e: serde_json::Value =
             serde_json::from_str(&run(&["estimate", &d, "--counts", &counts, "--json"])).unwrap();

@@ -88,7 +88,7 @@ fn lih_full_ci_and_frozen_core_casci_match_pyscf() {
 }
 
 /// Noiseless rehearsal of a chemistry campaign through the real binary: PySCF's H2 FCIDUMP
-/// (STO-3G, 0.74 Å) → `compile --state hf --measure krylov` (both encodings) → `sample` with
+/// (STO-3G, 0.74 Å) → `compile --state hf --measure krylov` (both encodings) → `rehearse` with
 /// 10⁶ shots per circuit → `estimate`. The Krylov energy at K = 6 must reach PySCF's full-CI
 /// energy within 1.6 mHa ("chemical accuracy", 1 kcal/mol, common practice).
 #[test]
@@ -134,7 +134,7 @@ fn h2_campaign_rehearsal_reaches_full_ci_within_chemical_accuracy() {
         for seed in ["1", "2"] {
             let counts = format!("{camp}/counts{seed}.json");
             run(&[
-                "sample", &camp, "--shots", "1000000", "--seed", seed, "-o", &counts,
+                "rehearse", &camp, "--shots", "1000000", "--seed", seed, "-o", &counts,
             ]);
             let v: serde_json::Value =
                 serde_json::from_str(&run(&["estimate", &camp, "--counts", &counts, "--json"]))

@@ -1,7 +1,6 @@
 //! `phasewright compile`: Hamiltonian (+ device) → folder of OpenQASM 3 files and plan.json,
 //! with a cost table on stdout.
 
-use super::io::write_atomic;
 use crate::error::{Error, Result};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
@@ -32,15 +31,16 @@ pub enum MeasureKind {
 /// added back by `estimate`.
 #[derive(Args, Debug)]
 #[command(
+    allow_negative_numbers = true,
     after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 --order 2 -o out/ising\n\nCosts are estimates: they depend on the device calibration; validate results against trusted methods."
 )]
 pub struct CompileArgs {
-    /// Hamiltonian file (.ham).
+    /// Hamiltonian file (.ham or FCIDUMP; `-`: stdin).
     pub hamiltonian: PathBuf,
     /// Reference state, one letter per qubit from `0 1 + - r l` (`ss`: a singlet on two
     /// neighbouring qubits), qubit 0 first; or `hf` for the
     /// Hartree–Fock determinant of an integral file under the chosen encoding.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub state: Option<String>,
     /// Fermion-to-qubit encoding for integral files and fermionic .ham files: jw or bk.
     #[arg(long, value_parser = |s: &str| s.parse::<crate::fermion::Encoding>())]
@@ -63,21 +63,113 @@ pub struct CompileArgs {
     /// Which campaign to emit.
     #[arg(long, value_enum, default_value_t = MeasureKind::Overlap)]
     pub measure: MeasureKind,
-    /// Number of random product states for `--measure trace`.
-    #[arg(long, default_value_t = 8)]
-    pub samples: usize,
+    /// Number of random product states for `--measure trace` [default: 8].
+    #[arg(long)]
+    pub samples: Option<usize>,
     /// Seed for random states (and layout trials on devices).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
-    /// Target device (.dev). Without it, an all-to-all device with every standard gate.
+    /// Target device (.dev; `-`: stdin). Without it, an all-to-all device with every standard
+    /// gate.
     #[arg(long)]
     pub device: Option<PathBuf>,
-    /// Output folder (created if missing).
+    /// Output folder. Created if missing; an older campaign there is replaced whole (no file
+    /// of it survives); a folder holding anything else is refused unless --force.
     #[arg(short = 'o', long = "out")]
     pub out: PathBuf,
-    /// Print the cost table as JSON.
+    /// Replace the output folder whole even if it holds files phasewright did not write.
     #[arg(long)]
-    pub json: bool,
+    pub force: bool,
+}
+
+/// Random product states of a trace campaign without --samples.
+pub const DEFAULT_SAMPLES: usize = 8;
+
+/// Most controlled rotations one campaign may hold, summed over its circuits. A rotation costs
+/// about [`BYTES_PER_ROTATION`] bytes of OpenQASM, so this caps a campaign near 6 GB; the
+/// memory the machine has is checked separately (`pipeline::predicted_memory`).
+pub const MAX_ROTATIONS: f64 = 1e8;
+
+/// Most circuits (files) one campaign may hold.
+pub const MAX_CIRCUITS: f64 = 1e5;
+
+/// Bytes of OpenQASM per controlled rotation of [`campaign_size`], measured: the Krylov
+/// campaign of `examples/tfim_chain8.ham` (K = 10, order 4, 2 steps) writes 4.7 MB for an
+/// estimated 78 300 rotations.
+const BYTES_PER_ROTATION: f64 = 60.0;
+
+/// What a campaign would cost before it is built: circuits and controlled rotations, counted
+/// from the product formula (`T` exponentials per Lie–Trotter step, `2T − 1` per Strang step,
+/// five Strang steps per Suzuki step) before any folding of commuting groups, so an upper
+/// estimate. Floating point, so absurd requests cannot overflow.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CampaignSize {
+    pub circuits: f64,
+    pub rotations: f64,
+}
+
+/// [`CampaignSize`] for `terms` non-identity terms, `per_point` circuits at each k ≥ 1 and
+/// `at_zero` (rotation-free) circuits at k = 0.
+pub fn campaign_size(
+    order: Order,
+    terms: usize,
+    points: usize,
+    steps: usize,
+    per_point: usize,
+    at_zero: usize,
+) -> CampaignSize {
+    let t = terms as f64;
+    let per_step = match order {
+        Order::First => t,
+        Order::Second => (2.0 * t - 1.0).max(1.0),
+        Order::Fourth => 5.0 * (2.0 * t - 1.0).max(1.0),
+    };
+    let k = points as f64;
+    // Σ_{k=1}^{K−1} k = K(K−1)/2 Trotter-step multiples of `steps`.
+    let rotations = per_point as f64 * per_step * steps as f64 * k * (k - 1.0) / 2.0;
+    CampaignSize {
+        circuits: per_point as f64 * (k - 1.0) + at_zero as f64,
+        rotations,
+    }
+}
+
+/// Refuses a campaign that would not fit (exit 2), saying what it would cost.
+fn check_size(size: CampaignSize, args: &CompileArgs) -> Result<()> {
+    if size.circuits <= MAX_CIRCUITS && size.rotations <= MAX_ROTATIONS {
+        return Ok(());
+    }
+    Err(Error::usage(
+        format!(
+            "--points {} --steps {} would emit {} circuits holding about {} controlled rotations (≈ {}); the limits are {} circuits and {} rotations",
+            args.points,
+            args.steps,
+            quantity(size.circuits),
+            quantity(size.rotations),
+            human_bytes(size.rotations * BYTES_PER_ROTATION),
+            quantity(MAX_CIRCUITS),
+            quantity(MAX_ROTATIONS),
+        ),
+        Some("use fewer --points or --steps (a larger --dt reaches the same times with fewer points)"),
+    ))
+}
+
+/// A count for a message: exact below 10¹², else in scientific notation.
+fn quantity(x: f64) -> String {
+    if x < 1e12 {
+        format!("{x:.0}")
+    } else {
+        format!("{x:.2e}")
+    }
+}
+
+fn human_bytes(b: f64) -> String {
+    if b >= 1e12 {
+        format!("{:.1e} TB of OpenQASM", b / 1e12)
+    } else if b >= 1e9 {
+        format!("{:.1} GB of OpenQASM", b / 1e9)
+    } else {
+        format!("{:.0} MB of OpenQASM", (b / 1e6).max(1.0))
+    }
 }
 
 fn check_state(state: &str, n: usize) -> Result<()> {
@@ -106,7 +198,7 @@ fn check_state(state: &str, n: usize) -> Result<()> {
     Ok(())
 }
 
-pub fn run(args: &CompileArgs) -> Result<()> {
+pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let order = Order::from_number(args.order).ok_or_else(|| {
         Error::usage(
             format!("--order {} is not supported", args.order),
@@ -125,30 +217,64 @@ pub fn run(args: &CompileArgs) -> Result<()> {
             None,
         ));
     }
+    if args.points > crate::family::plan::MAX_POINTS {
+        return Err(Error::usage(
+            format!(
+                "--points {} is more than the {} time points a campaign may have",
+                args.points,
+                crate::family::plan::MAX_POINTS
+            ),
+            Some("a Krylov or density-of-states estimate from K points costs O(K⁴); real-time campaigns use tens to hundreds of points"),
+        ));
+    }
     if args.steps == 0 {
         return Err(Error::usage("--steps must be at least 1", None));
     }
+    super::io::check_out_folder(&args.out, args.force)?;
     let opts = super::convert::LoadOptions {
         encoding: args.encoding,
         active: args.active,
     };
+    super::io::one_stdin(&[
+        ("the Hamiltonian", Some(&args.hamiltonian)),
+        ("--device", args.device.as_deref()),
+    ])?;
+    if args.measure == MeasureKind::Trace && args.state.is_some() {
+        return Err(Error::usage(
+            "--state has no effect with --measure trace, which draws --samples random product states from --seed",
+            Some("drop --state, or use --measure overlap or krylov for one reference state"),
+        ));
+    }
+    if args.measure != MeasureKind::Trace && args.samples.is_some() {
+        return Err(Error::usage(
+            "--samples applies to --measure trace only",
+            Some("drop --samples, or add --measure trace"),
+        ));
+    }
     let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
             format!(
                 "{} has no non-identity term: there is nothing to evolve",
-                args.hamiltonian.display()
+                super::io::display_name(&args.hamiltonian)
             ),
             Some("the identity term alone only adds a phase"),
         ));
     }
+    let step_angle = h.one_norm() * args.dt / args.steps as f64;
+    if step_angle > 2.0 * std::f64::consts::PI {
+        g.warn(&format!(
+            "one Trotter step spans Σ|c_j|·dt/steps = {step_angle:.3} rad (more than 2π): the product formula is far from e^(-iH·dt/steps), and energies more than π/dt apart cannot be told apart; use a smaller --dt or more --steps"
+        ));
+    }
     let (family, states) = match args.measure {
         MeasureKind::Trace => {
-            if args.samples == 0 {
+            let samples = args.samples.unwrap_or(DEFAULT_SAMPLES);
+            if samples == 0 {
                 return Err(Error::usage("--samples must be at least 1", None));
             }
-            (Family::Trace, random_states(n, args.samples, args.seed))
+            (Family::Trace, random_states(n, samples, args.seed))
         }
         kind => {
             let mut state = args.state.clone().ok_or_else(|| {
@@ -176,6 +302,23 @@ pub fn run(args: &CompileArgs) -> Result<()> {
             )
         }
     };
+    let terms = h.terms.len();
+    let size = match family {
+        Family::Overlap => campaign_size(order, terms, args.points, args.steps, 2, 0),
+        Family::Trace => campaign_size(order, terms, args.points, args.steps, 2 * states.len(), 0),
+        Family::Krylov => {
+            let groups = crate::family::krylov_groups(&h).len();
+            campaign_size(
+                order,
+                terms,
+                args.points,
+                args.steps,
+                2 + 2 * groups,
+                groups,
+            )
+        }
+    };
+    check_size(size, args)?;
     let spec = Spec {
         family,
         order,
@@ -200,45 +343,47 @@ pub fn run(args: &CompileArgs) -> Result<()> {
         },
         None => Target::AllToAll,
     };
-    let mut compiled = compile_for(&h, &args.hamiltonian.display().to_string(), &spec, &target)?;
+    let source = super::io::display_name(&args.hamiltonian);
+    let mut compiled = compile_for(&h, &source, &spec, &target)?;
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
-    write_campaign(&args.out, &compiled)?;
-    let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
-    if args.json {
-        let mut v = cost_json(&compiled.plan);
-        if let Some(g) = &grouping {
-            v["grouping"] = serde_json::to_value(g).expect("serialisable");
-        }
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&v).expect("serialisable")
-        );
-    } else {
-        print!("{}", cost_table(&compiled.plan));
-        println!(
-            "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).",
-            compiled.plan.circuits.len(),
-            args.out.display(),
-            n,
-            h.constant
-        );
-        if let Some(c) = &chem {
-            println!(
-                "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.",
-                c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
-            );
-        }
-        if let Some(g) = &grouping {
-            println!(
-                "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.",
-                g.terms, g.groups, g.circuits, g.circuits_one_term_each
-            );
-        }
-        println!("Costs are estimates: they depend on the device calibration; validate results against trusted methods.");
+    if chem.is_some() {
+        // FCIDUMP integrals are in hartree by the format's convention.
+        compiled.plan.energy_unit = Some("hartree".into());
     }
-    Ok(())
+    super::io::check_out_folder(&args.out, args.force)?;
+    write_campaign(&args.out, &mut compiled)?;
+    let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
+    if g.json {
+        let mut v = cost_json(&compiled.plan);
+        if let Some(gs) = &grouping {
+            v["grouping"] = serde_json::json!(gs);
+        }
+        return g.json(&v);
+    }
+    let mut text = cost_table(&compiled.plan);
+    text += &format!(
+        "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
+        compiled.plan.circuits.len(),
+        args.out.display(),
+        n,
+        h.constant
+    );
+    if let Some(c) = &chem {
+        text += &format!(
+            "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.\n",
+            c.nelec, c.norb, c.frozen_orbitals, c.encoding.short_name(), c.hf_state, c.hf_energy_ha
+        );
+    }
+    if let Some(gs) = &grouping {
+        text += &format!(
+            "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.\n",
+            gs.terms, gs.groups, gs.circuits, gs.circuits_one_term_each
+        );
+    }
+    text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
+    g.say(&text)
 }
 
 /// How much the grouped readout of the Krylov family saves.
@@ -269,17 +414,24 @@ pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
     }
 }
 
-/// Writes every program and then plan.json, each atomically.
-pub fn write_campaign(dir: &Path, c: &Compiled) -> Result<()> {
-    std::fs::create_dir_all(dir).map_err(|source| Error::Io {
-        path: dir.display().to_string(),
-        source,
-        reading: false,
-    })?;
-    for (e, text) in c.plan.circuits.iter().zip(&c.programs) {
-        write_atomic(&dir.join(&e.file), text.as_bytes())?;
+/// Writes the campaign as the whole content of `dir`: every program, then plan.json recording
+/// each program's SHA-256, through a temporary sibling folder that replaces `dir` at once
+/// ([`super::io::replace_folder`]), so no file of an older campaign survives and a reader never
+/// sees a plan whose files are missing or partial.
+pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
+    for (e, text) in c.plan.circuits.iter_mut().zip(&c.programs) {
+        e.sha256 = Some(super::io::sha256_hex(text.as_bytes()));
     }
-    write_atomic(&dir.join("plan.json"), c.plan.to_json().as_bytes())
+    let plan = c.plan.to_json();
+    let mut files: Vec<(&str, &[u8])> = c
+        .plan
+        .circuits
+        .iter()
+        .zip(&c.programs)
+        .map(|(e, text)| (e.file.as_str(), text.as_bytes()))
+        .collect();
+    files.push(("plan.json", plan.as_bytes()));
+    super::io::replace_folder(dir, &files)
 }
 
 /// The per-circuit and total cost table.

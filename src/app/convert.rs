@@ -5,11 +5,11 @@
 //! atomically) and a one-paragraph summary on stdout. Also the entry point the other commands
 //! use to read any Hamiltonian input: [`load_qubit_hamiltonian`].
 
-use crate::app::io::{read_text, write_atomic};
+use crate::app::io::read_text;
 use crate::error::{Error, Result};
 use crate::fermion::fcidump::{self, ActiveSpace};
 use crate::fermion::{qubit_hamiltonian_from_integrals, ChemInfo, Encoding};
-use crate::lang::ham::{parse_hamiltonian_with, write_hamiltonian};
+use crate::lang::ham::write_hamiltonian;
 use crate::pauli::PauliSum;
 use clap::Args;
 use std::path::{Path, PathBuf};
@@ -21,6 +21,8 @@ integral file (recognised by its &FCI header). Mode k is qubit k. Spin orbitals 
 file are interleaved: orbital p (counted from 0 in the active space) is mode 2p (alpha) and
 mode 2p+1 (beta). The Hartree-Fock state is printed as a bitstring, qubit 0 first (leftmost).
 
+`-` as the input reads stdin; `-o -` writes the .ham text to stdout (and no summary).
+
 Examples:
   phasewright convert h2.fcidump --encoding jw -o h2.ham
   phasewright convert hubbard_ring4.ham --encoding bk -o hubbard_qubits.ham
@@ -29,10 +31,10 @@ Examples:
 /// Arguments of `phasewright convert`.
 #[derive(Args, Debug)]
 pub struct ConvertArgs {
-    /// Input: a .ham file or an FCIDUMP integral file.
+    /// Input: a .ham file or an FCIDUMP integral file (`-`: stdin).
     pub input: PathBuf,
-    /// Output .ham file (written whole or not at all).
-    #[arg(short = 'o', long = "output")]
+    /// Output .ham file, written whole or not at all (`-`: stdout).
+    #[arg(short = 'o', long = "out", alias = "output")]
     pub output: PathBuf,
     /// Fermion-to-qubit encoding: jw (Jordan–Wigner) or bk (Bravyi–Kitaev). Required for
     /// integral files and for .ham files with fermionic terms but no `encoding` line.
@@ -91,7 +93,7 @@ struct Loaded {
 }
 
 fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, Loaded)> {
-    let name = path.display().to_string();
+    let name = crate::app::io::display_name(path);
     let src = read_text(path)?;
     if fcidump::looks_like_fcidump(&src) {
         let Some(enc) = opts.encoding else {
@@ -125,7 +127,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
             Some("select orbitals in an FCIDUMP input"),
         ));
     }
-    let read = parse_hamiltonian_with(&name, &src, opts.encoding).map_err(Error::Input)?;
+    let read = crate::app::io::parse_hamiltonian_text(&name, &src, opts.encoding)?;
     let loaded = Loaded {
         encoding: read.encoding,
         terms_read: read.ham.terms_read,
@@ -135,7 +137,15 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
 }
 
 /// Runs `phasewright convert`.
-pub fn run(args: ConvertArgs) -> Result<()> {
+pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
+    let to_stdout = crate::app::io::is_stdio(&args.output);
+    if to_stdout && g.json {
+        return Err(Error::usage(
+            "-o - and --json both want stdout",
+            Some("write the .ham to a file, or drop --json"),
+        ));
+    }
+    crate::app::io::check_out_file(&args.output, "-o", None, true)?;
     let (h, info, loaded) = load(
         &args.input,
         LoadOptions {
@@ -143,11 +153,14 @@ pub fn run(args: ConvertArgs) -> Result<()> {
             active: args.active,
         },
     )?;
-    let input = args
-        .input
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
+    let input = if crate::app::io::is_stdio(&args.input) {
+        "<stdin>".to_string()
+    } else {
+        args.input
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default()
+    };
     let mut header = format!("converted by phasewright from {input}\n");
     if let Some(enc) = loaded.encoding {
         header.push_str(&format!(
@@ -166,7 +179,10 @@ pub fn run(args: ConvertArgs) -> Result<()> {
         ));
     }
     let text = write_hamiltonian(&h, &header);
-    write_atomic(&args.output, text.as_bytes())?;
+    crate::app::io::write_output(&args.output, text.as_bytes())?;
+    if to_stdout {
+        return Ok(());
+    }
     let mut summary = format!(
         "wrote {}: {} Pauli strings on {} qubits",
         args.output.display(),
@@ -182,12 +198,28 @@ pub fn run(args: ConvertArgs) -> Result<()> {
             loaded.terms_read, loaded.dropped_zero
         ));
     }
-    println!("{summary}");
-    if let Some(i) = info {
-        println!(
-            "Hartree-Fock state (qubit 0 first): {}  energy {:.10} hartree",
+    summary.push('\n');
+    if let Some(i) = &info {
+        summary += &format!(
+            "Hartree-Fock state (qubit 0 first): {}  energy {:.10} hartree\n",
             i.hf_state, i.hf_energy_ha
         );
     }
-    Ok(())
+    g.json(&serde_json::json!({
+        "out": args.output.display().to_string(),
+        "qubits": h.num_qubits,
+        "pauli_strings": h.terms.len(),
+        "constant": h.constant,
+        "encoding": loaded.encoding.map(|e| e.short_name()),
+        "terms_read": info.is_none().then_some(loaded.terms_read),
+        "dropped_zero": loaded.dropped_zero,
+        "hartree_fock": info.as_ref().map(|i| serde_json::json!({
+            "state": i.hf_state,
+            "energy_ha": i.hf_energy_ha,
+            "electrons": i.nelec,
+            "orbitals": i.norb,
+            "frozen_orbitals": i.frozen_orbitals,
+        })),
+    }))?;
+    g.say(&summary)
 }

@@ -5,7 +5,7 @@
 //! `--plot`. Invariant: every problem in the counts file is reported with its position before
 //! anything is computed; no output file is left half-written.
 
-use super::io::{read_text, write_atomic};
+use super::io::read_text;
 use crate::error::{Error, Result};
 use crate::estimate::counts::{self, BitOrder};
 use crate::estimate::{
@@ -41,8 +41,9 @@ first (leftmost); pass --bit-order last for files that put bit 0 rightmost. The 
 the file's own \"bit_order\" key.
 
 For overlap and krylov plans the table gives the lowest Krylov energy for every dimension \
-1..K, with a bootstrap standard error, beside the matrix-pencil estimate from the overlaps \
-alone. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
+1..K, with ±1σ (one bootstrap standard error, as the plot's error bars), beside the \
+matrix-pencil estimate from the overlaps alone. Energies are in hartree for integral-file \
+input, otherwise in the units of the .ham coefficients. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
 the quadrature error bound.
 
 Caution: energies from noisy hardware depend on the device calibration; validate against \
@@ -50,21 +51,20 @@ trusted methods.";
 
 /// Arguments of `phasewright estimate`.
 #[derive(Args, Debug, Clone)]
+#[command(allow_negative_numbers = true)]
 pub struct EstimateArgs {
     /// Campaign folder holding plan.json.
     pub dir: PathBuf,
-    /// Counts file (JSON, format phasewright-counts/1).
+    /// Counts file (JSON, format phasewright-counts/1; `-`: stdin).
     #[arg(long, value_name = "FILE")]
     pub counts: PathBuf,
     /// Which end of each bitstring is classical bit 0 [default: the file's "bit_order", else first].
     #[arg(long, value_enum, value_name = "ORDER")]
     pub bit_order: Option<BitOrderArg>,
-    /// Write an SVG plot (energy against Krylov dimension, or the density of states).
+    /// Write an SVG plot (energy against Krylov dimension, or the density of states) to FILE,
+    /// which must end in .svg (`-`: the SVG on stdout instead of the table).
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
-    /// Print JSON instead of a table.
-    #[arg(long)]
-    pub json: bool,
     /// Keep eigenvectors of S above this eigenvalue [default: σ̄·d from the shot noise].
     #[arg(long, value_name = "EPS", value_parser = positive_f64)]
     pub threshold: Option<f64>,
@@ -97,14 +97,25 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
 }
 
 /// Runs `phasewright estimate`.
-pub fn run(args: &EstimateArgs) -> Result<()> {
+pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
+    let plot_to_stdout = args.plot.as_deref().is_some_and(super::io::is_stdio);
+    if plot_to_stdout && g.json {
+        return Err(Error::usage(
+            "--plot - and --json both want stdout",
+            Some("write the plot to a .svg file, or drop --json"),
+        ));
+    }
+    if let Some(p) = &args.plot {
+        super::io::check_out_file(p, "--plot", Some("svg"), true)?;
+    }
     let plan = super::io::read_plan(&args.dir)?;
+    super::io::check_campaign_files(&args.dir, &plan)?;
     let text = read_text(&args.counts)?;
     let order = args.bit_order.map(|b| match b {
         BitOrderArg::First => BitOrder::First,
         BitOrderArg::Last => BitOrder::Last,
     });
-    let name = args.counts.display().to_string();
+    let name = super::io::display_name(&args.counts);
     let counts = counts::parse(&text, &name, &plan, order).map_err(Error::Input)?;
     let cfg = Config {
         threshold: args.threshold,
@@ -118,24 +129,22 @@ pub fn run(args: &EstimateArgs) -> Result<()> {
         .map_err(|m| Error::usage(m, Some("check that the counts answer this plan")))?;
     if let Some(path) = &args.plot {
         let svg = match &analysis {
-            Analysis::Energies(r) => plot::energy_svg(r),
-            Analysis::Dos(r) => plot::dos_svg(r),
+            Analysis::Energies(r) => plot::energy_svg(r, &plan.energy_label()),
+            Analysis::Dos(r) => plot::dos_svg(r, &plan.energy_label()),
         }
         .map_err(Error::Internal)?;
-        write_atomic(path, svg.as_bytes())?;
-    }
-    let out = if args.json {
-        serde_json::to_string_pretty(&to_json(&analysis, &plan, counts.bit_order))
-            .expect("serialises")
-            + "\n"
-    } else {
-        match &analysis {
-            Analysis::Energies(r) => energy_table(r, &plan),
-            Analysis::Dos(r) => dos_table(r, &plan),
+        super::io::write_output(path, svg.as_bytes())?;
+        if plot_to_stdout {
+            return Ok(());
         }
-    };
-    print!("{out}");
-    Ok(())
+    }
+    if g.json {
+        return g.json(&to_json(&analysis, &plan, counts.bit_order));
+    }
+    g.say(&match &analysis {
+        Analysis::Energies(r) => energy_table(r, &plan),
+        Analysis::Dos(r) => dos_table(r, &plan),
+    })
 }
 
 fn fmt_opt(x: Option<f64>, prec: usize) -> String {
@@ -165,10 +174,17 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
             "σ̄·d from the shot noise of S (column `threshold`)".into()
         }
     );
+    let _ = writeln!(
+        s,
+        "energies in {}",
+        plan.energy_unit
+            .as_deref()
+            .unwrap_or("the units of the Hamiltonian's coefficients")
+    );
     if r.bootstrap >= 2 {
         let _ = writeln!(
             s,
-            "error bars: one bootstrap standard error (σ) from {} replicates, seed {}",
+            "error bars: ±1σ, one bootstrap standard error from {} replicates, seed {} (the plot shows the same)",
             r.bootstrap, r.seed
         );
     } else {
@@ -178,7 +194,7 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
     let _ = writeln!(
         s,
         "{:>3}  {:>14}  {:>9}  {:>5}  {:>9}  {:>14}  {:>9}",
-        "d", "krylov", "±σ", "kept", "threshold", "pencil", "±σ"
+        "d", "krylov", "±1σ", "kept", "threshold", "pencil", "±1σ"
     );
     for row in &r.rows {
         let _ = writeln!(
@@ -244,10 +260,17 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         "quadrature: rectangle rule on t_k = k·dt, |k| ≤ K−1 (trapezoid on the infinite grid), \
          truncation + aliasing bound in column `bound`"
     );
-    let _ = writeln!(s, "band: ±2σ, σ from the {}", r.band_source);
     let _ = writeln!(
         s,
-        "ρ in states per unit energy (integrates to 2^{} = {})",
+        "band: ±2σ (the plot shows the same band), σ from the {}",
+        r.band_source
+    );
+    let _ = writeln!(
+        s,
+        "E in {}; ρ in states per unit energy (integrates to 2^{} = {})",
+        plan.energy_unit
+            .as_deref()
+            .unwrap_or("the units of the Hamiltonian's coefficients"),
         r.num_qubits,
         1u64 << r.num_qubits.min(63)
     );
@@ -300,7 +323,6 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         s,
         "caution: results from noisy hardware depend on the device calibration; validate against trusted methods"
     );
-    let _ = plan;
     s
 }
 
@@ -322,6 +344,8 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
     match a {
         Analysis::Energies(r) => json!({
             "format": "phasewright-estimate/1",
+            "energy_unit": plan.energy_unit,
+            "error_bars": "one bootstrap standard error (1 sigma)",
             "family": estimate::family_name(r.family),
             "dt": r.dt,
             "points": plan.points,
@@ -350,11 +374,12 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
         }),
         Analysis::Dos(r) => json!({
             "format": "phasewright-estimate/1",
+            "energy_unit": plan.energy_unit,
             "family": "trace",
             "dt": r.dt,
             "points": r.points,
-            "num_qubits": r.num_qubits,
-            "num_states": r.num_states,
+            "qubit_count": r.num_qubits,
+            "state_count": r.num_states,
             "bit_order": order.name(),
             "sigma": r.sigma,
             "resolution_limit": r.resolution,

@@ -2,25 +2,86 @@
 //! that builds the real objects, runs the library, and does the file I/O.
 //!
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
-//! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system.**
+//! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system
+//! or the standard streams**; every write to stdout goes through [`Global::say`] /
+//! [`Global::json`], so a closed pipe is a quiet exit, never a panic.
 
 pub mod compile;
 pub mod convert;
 pub mod estimate;
 pub mod io;
-pub mod sample;
+pub mod rehearse;
 pub mod verify;
 
-use crate::error::Result;
-use clap::{Parser, Subcommand};
+use crate::error::{Error, Result};
+use clap::{Args, Parser, Subcommand};
+use indicatif::{ProgressBar, ProgressStyle};
 
 /// Compile qubit Hamiltonians into real-time-evolution circuit campaigns, check them by
 /// simulation, and turn measured counts into energies.
+///
+/// Exit status: 0 success, 1 internal failure (a phasewright bug, or `verify` finding a compile
+/// error above the tolerance), 2 bad input or usage (a diagnostic says what and where).
 #[derive(Parser, Debug)]
 #[command(name = "phasewright", version, about, long_about = None)]
 pub struct Cli {
+    #[command(flatten)]
+    pub global: Global,
     #[command(subcommand)]
     pub command: Command,
+}
+
+/// Options every command takes.
+#[derive(Args, Debug, Clone, Copy, Default)]
+pub struct Global {
+    /// Print machine-readable JSON on stdout instead of tables and summaries.
+    #[arg(long, global = true)]
+    pub json: bool,
+    /// Print nothing on stdout but requested JSON, and no progress bars; errors still go to
+    /// stderr and the exit status tells the outcome.
+    #[arg(short = 'q', long, global = true)]
+    pub quiet: bool,
+}
+
+impl Global {
+    /// Prints human-readable text on stdout (nothing with `--json` or `--quiet`).
+    pub fn say(&self, text: &str) -> Result<()> {
+        if self.json || self.quiet {
+            return Ok(());
+        }
+        io::emit(text)
+    }
+
+    /// Prints `value` as pretty JSON on stdout when `--json` was given.
+    pub fn json(&self, value: &serde_json::Value) -> Result<()> {
+        if !self.json {
+            return Ok(());
+        }
+        let text = serde_json::to_string_pretty(value)
+            .map_err(|e| Error::Internal(format!("cannot serialise JSON output: {e}")))?;
+        io::emit(&(text + "\n"))
+    }
+
+    /// Prints `warning: …` on stderr (nothing with `--quiet`).
+    pub fn warn(&self, text: &str) {
+        if !self.quiet {
+            use std::io::Write;
+            let _ = writeln!(std::io::stderr(), "warning: {text}");
+        }
+    }
+
+    /// A progress bar on stderr (hidden with `--quiet`, and by indicatif when stderr is not
+    /// a terminal).
+    pub fn progress(&self, len: usize, template: &str) -> ProgressBar {
+        if self.quiet {
+            return ProgressBar::hidden();
+        }
+        let bar = ProgressBar::new(len as u64);
+        if let Ok(style) = ProgressStyle::with_template(template) {
+            bar.set_style(style);
+        }
+        bar
+    }
 }
 
 #[derive(Subcommand, Debug)]
@@ -32,17 +93,19 @@ pub enum Command {
     /// Turn measured counts into energies or a density of states.
     #[command(long_about = estimate::ESTIMATE_HELP)]
     Estimate(estimate::EstimateArgs),
-    Sample(sample::SampleArgs),
+    #[command(alias = "sample")]
+    Rehearse(rehearse::RehearseArgs),
     Verify(verify::VerifyArgs),
 }
 
 /// Runs one command.
 pub fn run(cli: Cli) -> Result<()> {
+    let g = cli.global;
     match cli.command {
-        Command::Compile(a) => compile::run(&a),
-        Command::Convert(a) => convert::run(a),
-        Command::Estimate(a) => estimate::run(&a),
-        Command::Sample(a) => sample::run(&a),
-        Command::Verify(a) => verify::run(&a),
+        Command::Compile(a) => compile::run(&a, &g),
+        Command::Convert(a) => convert::run(a, &g),
+        Command::Estimate(a) => estimate::run(&a, &g),
+        Command::Rehearse(a) => rehearse::run(&a, &g),
+        Command::Verify(a) => verify::run(&a, &g),
     }
 }

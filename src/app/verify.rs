@@ -7,7 +7,6 @@ use crate::error::{Error, Result};
 use crate::family::plan::Family;
 use crate::report::table::{sci, Table};
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use std::path::PathBuf;
 
 /// Simulate every circuit of a compiled campaign and compare it with the ideal product formula
@@ -28,21 +27,25 @@ use std::path::PathBuf;
 pub struct VerifyArgs {
     /// Folder written by `phasewright compile` (holds plan.json and the .qasm files).
     pub dir: PathBuf,
-    /// Largest accepted |simulated − ideal|.
-    #[arg(long, default_value_t = COMPILE_TOLERANCE)]
+    /// Largest accepted |simulated − ideal| (a non-negative number).
+    #[arg(long, default_value_t = COMPILE_TOLERANCE, allow_negative_numbers = true, value_parser = non_negative_f64)]
     pub tolerance: f64,
-    /// Print machine-readable JSON instead of a table.
-    #[arg(long)]
-    pub json: bool,
 }
 
-pub fn run(args: &VerifyArgs) -> Result<()> {
+/// A finite number ≥ 0 (refuses `-1`, `nan`, `inf` with a message).
+pub fn non_negative_f64(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(x) if x.is_finite() && x >= 0.0 => Ok(x),
+        _ => Err(format!("`{s}` is not a non-negative number")),
+    }
+}
+
+pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     let plan = read_plan(&args.dir)?;
     let circuits = read_plan_circuits(&args.dir, &plan)?;
-    let bar = ProgressBar::new(circuits.len() as u64);
-    bar.set_style(
-        ProgressStyle::with_template("simulating {bar:40} {pos}/{len} circuits ({eta})")
-            .expect("valid template"),
+    let bar = g.progress(
+        circuits.len(),
+        "simulating {bar:40} {pos}/{len} circuits ({eta})",
     );
     let checked = check_plan_with_progress(&plan, &circuits, &|| bar.inc(1));
     bar.finish_and_clear();
@@ -60,13 +63,11 @@ pub fn run(args: &VerifyArgs) -> Result<()> {
     } else {
         None
     };
-    if args.json {
+    if g.json {
         let v = serde_json::json!({ "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&v).expect("serialisable")
-        );
+        g.json(&v)?;
     } else {
+        let mut out = String::new();
         let mut t = Table::new([
             "circuit",
             "reads",
@@ -88,17 +89,17 @@ pub fn run(args: &VerifyArgs) -> Result<()> {
                 sci(c.trotter_error),
             ]);
         }
-        print!("{}", t.render());
-        println!(
-            "\n{} circuits checked; largest compile error {} (tolerance {}), largest Trotter error {}.",
+        out += &t.render();
+        out += &format!(
+            "\n{} circuits checked; largest compile error {} (tolerance {}), largest Trotter error {}.\n",
             checks.len(),
             sci(worst),
             sci(args.tolerance),
             sci(worst_trotter)
         );
-        println!("(for circuits with several reads the first is shown; errors are the largest over all reads)");
+        out += "(for circuits with several reads the first is shown; errors are the largest over all reads)\n";
         if let Some(rows) = &trace {
-            println!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace", plan.states.len());
+            out += &format!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace\n", plan.states.len());
             let mut t = Table::new([
                 "k",
                 "time",
@@ -125,9 +126,10 @@ pub fn run(args: &VerifyArgs) -> Result<()> {
                     format!("{:.2}", r.z_score),
                 ]);
             }
-            print!("{}", t.render());
-            println!("(ideal = the product formula the circuits implement; deviations of a few standard errors are sampling spread, not compile errors)");
+            out += &t.render();
+            out += "(ideal = the product formula the circuits implement; deviations of a few standard errors are sampling spread, not compile errors)\n";
         }
+        g.say(&out)?;
     }
     if ok {
         Ok(())

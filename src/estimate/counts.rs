@@ -28,9 +28,10 @@
 
 use crate::family::plan::Plan;
 use crate::lang::diag::Diagnostic;
+use crate::lang::json_span::{locate, Step};
 use serde::de::{Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeMap;
 use std::fmt;
 
 /// Identifies the schema of a counts file.
@@ -161,7 +162,10 @@ pub fn parse(
     let raw: RawFile = match serde_json::from_str(src) {
         Ok(r) => r,
         Err(e) => {
-            let off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            let mut off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            if e.classify() == serde_json::error::Category::Data {
+                off = crate::lang::json_span::token_start(src, off);
+            }
             return Err(vec![here(
                 off,
                 1,
@@ -171,8 +175,16 @@ pub fn parse(
         }
     };
     let mut diags = Vec::new();
-    let key_at = |path: &[&str]| locate(src, path).map(|s| s.key);
-    let value_at = |path: &[&str]| locate(src, path).map(|s| s.value);
+    let key_at = |path: &[&str]| locate(src, &steps(path)).map(|s| s.key_or_value());
+    let value_at = |path: &[&str]| locate(src, &steps(path)).map(|s| s.value);
+    // The n-th occurrence (from 0) of a repeated key, so a duplicate is shown where it repeats.
+    let nth_key_at = |path: &[&str], n: usize| {
+        let mut st = steps(path);
+        if let Some(Step::Key(k)) = st.pop() {
+            st.push(Step::KeyNth(k, n));
+        }
+        locate(src, &st).map(|s| s.key_or_value())
+    };
     let at_or_file = |span: Option<(usize, usize)>, msg: String, hint: Option<&str>| match span {
         Some((o, l)) => here(o, l, msg, hint),
         None => Diagnostic::whole_file(file, msg, hint.map(str::to_string)),
@@ -225,7 +237,13 @@ pub fn parse(
         .map(|(i, c)| (c.id.as_str(), i))
         .collect();
     let mut found: Vec<Option<CircuitCounts>> = vec![None; plan.circuits.len()];
+    let mut id_seen: BTreeMap<&str, usize> = BTreeMap::new();
     for (id, entries) in &raw.counts.0 {
+        let occurrence = {
+            let n = id_seen.entry(id.as_str()).or_insert(0);
+            *n += 1;
+            *n - 1
+        };
         let Some(&ci) = index.get(id.as_str()) else {
             diags.push(at_or_file(
                 key_at(&["counts", id]),
@@ -234,9 +252,9 @@ pub fn parse(
             ));
             continue;
         };
-        if found[ci].is_some() {
+        if occurrence > 0 {
             diags.push(at_or_file(
-                key_at(&["counts", id]),
+                nth_key_at(&["counts", id], occurrence),
                 format!("circuit `{id}` appears more than once"),
                 Some("merge its counts into one entry"),
             ));
@@ -244,13 +262,18 @@ pub fn parse(
         }
         let nbits = plan.circuits[ci].num_clbits;
         let mut outcomes: BTreeMap<u128, u64> = BTreeMap::new();
-        let mut seen = BTreeSet::new();
+        let mut seen: BTreeMap<&str, usize> = BTreeMap::new();
         let mut ok = true;
         for (bits, count) in &entries.0 {
             let kspan = || key_at(&["counts", id, bits]);
-            if !seen.insert(bits.as_str()) {
+            let occurrence = {
+                let n = seen.entry(bits.as_str()).or_insert(0);
+                *n += 1;
+                *n - 1
+            };
+            if occurrence > 0 {
                 diags.push(at_or_file(
-                    kspan(),
+                    nth_key_at(&["counts", id, bits], occurrence),
                     format!("circuit `{id}`: bitstring `{bits}` appears more than once"),
                     Some("each outcome is listed once with its total count"),
                 ));
@@ -355,6 +378,10 @@ pub fn parse(
     })
 }
 
+fn steps<'a>(path: &[&'a str]) -> Vec<Step<'a>> {
+    path.iter().map(|k| Step::Key(k)).collect()
+}
+
 /// Turns a bitstring into an outcome mask (bit b = classical bit b).
 pub fn bitstring_mask(bits: &str, nbits: usize, order: BitOrder) -> Result<u128, String> {
     if let Some(bad) = bits.chars().find(|c| *c != '0' && *c != '1') {
@@ -432,119 +459,11 @@ pub fn to_json(ids: &[&str], circuits: &[CircuitCounts], shots: Option<u64>) -> 
     serde_json::to_string_pretty(&serde_json::Value::Object(top)).expect("serialises") + "\n"
 }
 
-fn strip_position(msg: &str) -> String {
+/// A serde_json message without its trailing ` at line L column C` (the diagnostic shows the place).
+pub(crate) fn strip_position(msg: &str) -> String {
     match msg.rfind(" at line ") {
         Some(i) => msg[..i].to_string(),
         None => msg.to_string(),
-    }
-}
-
-/// Byte spans `(offset, len)` of a member's key (with quotes) and of its value.
-#[derive(Clone, Copy, Debug, PartialEq)]
-struct Span {
-    key: (usize, usize),
-    value: (usize, usize),
-}
-
-/// Finds the first member at `path` (object keys from the top) in valid JSON text.
-fn locate(src: &str, path: &[&str]) -> Option<Span> {
-    let b = src.as_bytes();
-    let mut i = skip_ws(b, 0);
-    let mut result = None;
-    for (depth, want) in path.iter().enumerate() {
-        if b.get(i) != Some(&b'{') {
-            return None;
-        }
-        i = skip_ws(b, i + 1);
-        loop {
-            if b.get(i) == Some(&b'}') {
-                return None;
-            }
-            let kstart = i;
-            let kend = skip_string(b, i)?;
-            let key: String = serde_json::from_str(&src[kstart..kend]).ok()?;
-            i = skip_ws(b, kend);
-            if b.get(i) != Some(&b':') {
-                return None;
-            }
-            i = skip_ws(b, i + 1);
-            let vstart = i;
-            let vend = skip_value(b, i)?;
-            if key == *want {
-                result = Some(Span {
-                    key: (kstart, kend - kstart),
-                    value: (vstart, vend - vstart),
-                });
-                if depth + 1 < path.len() {
-                    i = vstart;
-                }
-                break;
-            }
-            i = skip_ws(b, vend);
-            match b.get(i) {
-                Some(b',') => i = skip_ws(b, i + 1),
-                _ => return None,
-            }
-        }
-    }
-    result
-}
-
-fn skip_ws(b: &[u8], mut i: usize) -> usize {
-    while i < b.len() && b[i].is_ascii_whitespace() {
-        i += 1;
-    }
-    i
-}
-
-fn skip_string(b: &[u8], i: usize) -> Option<usize> {
-    if b.get(i) != Some(&b'"') {
-        return None;
-    }
-    let mut j = i + 1;
-    while j < b.len() {
-        match b[j] {
-            b'\\' => j += 2,
-            b'"' => return Some(j + 1),
-            _ => j += 1,
-        }
-    }
-    None
-}
-
-fn skip_value(b: &[u8], i: usize) -> Option<usize> {
-    match b.get(i)? {
-        b'"' => skip_string(b, i),
-        b'{' | b'[' => {
-            let mut depth = 0usize;
-            let mut j = i;
-            while j < b.len() {
-                match b[j] {
-                    b'"' => {
-                        j = skip_string(b, j)?;
-                        continue;
-                    }
-                    b'{' | b'[' => depth += 1,
-                    b'}' | b']' => {
-                        depth -= 1;
-                        if depth == 0 {
-                            return Some(j + 1);
-                        }
-                    }
-                    _ => {}
-                }
-                j += 1;
-            }
-            None
-        }
-        _ => {
-            let mut j = i;
-            while j < b.len() && !matches!(b[j], b',' | b'}' | b']') && !b[j].is_ascii_whitespace()
-            {
-                j += 1;
-            }
-            Some(j)
-        }
     }
 }
 
@@ -571,6 +490,7 @@ pub(crate) mod tests {
             }],
             costs: Costs::default(),
             final_layout: vec![],
+            sha256: None,
         };
         Plan {
             format: PLAN_FORMAT.into(),
@@ -592,6 +512,7 @@ pub(crate) mod tests {
             },
             states: vec!["00".into()],
             seed: None,
+            energy_unit: None,
             points: 2,
             device: None,
             circuits: vec![circuit("k1_re", 1, Part::Re), circuit("k1_im", 1, Part::Im)],
@@ -690,6 +611,30 @@ pub(crate) mod tests {
             .contains("phasewright-counts/1"));
         let d = parse_str("[1, 2]").unwrap_err();
         assert!(d[0].message.contains("JSON object"));
+    }
+
+    #[test]
+    fn a_repeated_id_or_bitstring_is_shown_where_it_repeats() {
+        let src = "{\"format\": \"phasewright-counts/1\", \"counts\": {\n \"k1_re\": {\"000\": 1},\n \"k1_im\": {\"000\": 1, \"000\": 2},\n \"k1_re\": {\"000\": 1}}}";
+        let d = parse_str(src).unwrap_err();
+        let dup = d
+            .iter()
+            .find(|d| d.message.contains("`k1_re` appears more than once"))
+            .unwrap();
+        assert_eq!(
+            (dup.line, dup.column),
+            (4, 2),
+            "caret on the second `k1_re`"
+        );
+        let bits = d
+            .iter()
+            .find(|d| d.message.contains("`000` appears more than once"))
+            .unwrap();
+        assert_eq!(
+            (bits.line, bits.column),
+            (3, 22),
+            "caret on the second `000`"
+        );
     }
 
     #[test]

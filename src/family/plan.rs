@@ -5,12 +5,18 @@
 //! `estimate`. Invariant: the plan alone says how to recombine counts: every circuit lists its
 //! [`Read`]s, each naming the quantity it estimates and the classical bits whose parity gives it.
 //!
-//! Schema `phasewright-plan/1` (documented in README):
+//! Schema `phasewright-plan/2` (documented in README):
 //! - `family`: `overlap` | `krylov` | `trace`;
-//! - `hamiltonian`: qubit count, constant (identity coefficient, never a gate), one-norm, terms;
+//! - `hamiltonian`: `qubit_count`, constant (identity coefficient, never a gate), one-norm, terms;
 //! - `formula`: order, Trotter steps per unit of `k`, `dt`;
 //! - `states`: reference states (`0 1 + - r l`, qubit 0 first); one for overlap/krylov, N for trace;
-//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group, reads, costs.
+//! - `device` (absent on all-to-all): name, `qubit_count`, native gates, `start_placement`;
+//! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group,
+//!   `qubit_count`, `bit_count`, ancilla bit, reads, costs, `end_placement` (on a device), and
+//!   the file's SHA-256 (the plan is written after every file it lists).
+//!
+//! The Rust field names (`num_qubits`, `num_clbits`, `initial_layout`, `final_layout`) are
+//! those the compiler passes use; the JSON keys are the plan's own words.
 //!
 //! A read's value is `⟨Π_{b ∈ bits} (−1)^{c_b}⟩` over the shots, i.e. the parity expectation of
 //! the listed classical bits; for part `re` it estimates `Re q`, for part `im` it estimates `Im q`,
@@ -21,7 +27,7 @@ use crate::circuit::metrics::Counts;
 use serde::{Deserialize, Serialize};
 
 /// Identifies the schema in `plan.json`.
-pub const PLAN_FORMAT: &str = "phasewright-plan/1";
+pub const PLAN_FORMAT: &str = "phasewright-plan/2";
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Plan {
@@ -33,6 +39,11 @@ pub struct Plan {
     /// Seed used to draw random states (trace family), if any.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub seed: Option<u64>,
+    /// Unit of the coefficients, hence of every energy (`hartree` for an integral-file input);
+    /// absent when the input does not say (a `.ham` file), and then energies are in the units
+    /// of its coefficients.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub energy_unit: Option<String>,
     /// Number of time points K: k runs over 0..K.
     pub points: usize,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -51,6 +62,7 @@ pub enum Family {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct HamiltonianInfo {
     pub source: String,
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
     /// Coefficient of the identity: added back at estimation time, never compiled.
     pub constant: f64,
@@ -78,9 +90,12 @@ pub struct FormulaInfo {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct DeviceInfo {
     pub name: String,
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
     pub native: Vec<String>,
-    /// `initial_layout[l]` = physical qubit holding logical qubit l (the ancilla is the last l).
+    /// `start_placement[l]` = physical qubit holding logical qubit l when every circuit starts
+    /// (the ancilla is the last l).
+    #[serde(rename = "start_placement")]
     pub initial_layout: Vec<u32>,
 }
 
@@ -120,15 +135,28 @@ pub struct CircuitEntry {
     /// Measurement group (krylov family), if any.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub group: Option<usize>,
+    /// Qubits the file addresses (logical qubits, or the device's physical qubits).
+    #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
+    /// Classical bits the file declares (the length of every bitstring of its counts).
+    #[serde(rename = "bit_count")]
     pub num_clbits: usize,
     /// Classical bit holding the Hadamard-test ancilla.
     pub ancilla_bit: u32,
     pub reads: Vec<Read>,
     pub costs: Costs,
-    /// Physical qubit measured into each classical bit, after routing (empty on all-to-all).
-    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    /// `end_placement[l]` = physical qubit holding logical qubit l when the circuit ends, after
+    /// its SWAPs (the ancilla is the last l); empty on all-to-all.
+    #[serde(
+        rename = "end_placement",
+        default,
+        skip_serializing_if = "Vec::is_empty"
+    )]
     pub final_layout: Vec<u32>,
+    /// SHA-256 of `file` (lowercase hex), recorded by `compile` after writing it. When present,
+    /// every reader of the campaign refuses a missing or changed file.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sha256: Option<String>,
 }
 
 /// Costs of one circuit as recorded in the plan.
@@ -159,7 +187,395 @@ impl From<Counts> for Costs {
     }
 }
 
+/// Most time points a plan (and `compile --points`) may have: the Krylov pencils of every
+/// dimension 1..K cost O(K⁴) to solve, so K = 4096 is already far past any useful campaign.
+pub const MAX_POINTS: usize = 4096;
+
+/// Most qubits a plan's Hamiltonian may have (the `.ham` limit; bit 63 is the ancilla's).
+pub const MAX_PLAN_QUBITS: usize = crate::lang::ham::MAX_HAM_QUBITS;
+
+/// Most classical bits a circuit may have (outcome masks of counts files are `u128`).
+pub const MAX_PLAN_BITS: usize = 128;
+
+/// Most physical qubits a plan's device may have (the `.dev` limit).
+pub const MAX_PLAN_DEVICE_QUBITS: usize = crate::lang::dev::MAX_DEVICE_QUBITS as usize;
+
+/// One step of the path to a value in plan.json: an object key or an array index.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PathStep {
+    Key(&'static str),
+    Index(usize),
+}
+
+/// A value in a plan that does not make sense: where it is and what is wrong.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PlanProblem {
+    pub path: Vec<PathStep>,
+    pub message: String,
+    pub hint: Option<String>,
+}
+
+/// `circuits[i].key`.
+fn at_circuit(i: usize, key: &'static str) -> Vec<PathStep> {
+    vec![
+        PathStep::Key("circuits"),
+        PathStep::Index(i),
+        PathStep::Key(key),
+    ]
+}
+
+/// A file name a plan may list: a plain name in the campaign folder, never a path.
+pub fn is_plain_file_name(name: &str) -> bool {
+    !name.is_empty()
+        && name != "."
+        && name != ".."
+        && name != "plan.json"
+        && !name.starts_with('.')
+        && !name.contains(['/', '\\', ':', '\0'])
+}
+
 impl Plan {
+    /// The energy axis label: `energy (hartree)`, or `energy (units of H's coefficients)`.
+    pub fn energy_label(&self) -> String {
+        match &self.energy_unit {
+            Some(u) => format!("energy ({u})"),
+            None => "energy (units of H's coefficients)".to_string(),
+        }
+    }
+
+    /// Every inconsistency between the plan's parts, each with its place in plan.json. A plan
+    /// with none can be simulated, sampled and estimated without any index going out of
+    /// range: states fit the Hamiltonian, circuits point at existing states, terms and bits,
+    /// and the sizes stay within the limits above. Run on every plan read, before use.
+    pub fn validate(&self) -> Vec<PlanProblem> {
+        let mut out = Vec::new();
+        let mut bad = |path: Vec<PathStep>, message: String, hint: Option<&str>| {
+            out.push(PlanProblem {
+                path,
+                message,
+                hint: hint.map(str::to_string),
+            })
+        };
+        use PathStep::{Index, Key};
+        let n = self.hamiltonian.num_qubits;
+        if n == 0 || n > MAX_PLAN_QUBITS {
+            bad(
+                vec![Key("hamiltonian"), Key("qubit_count")],
+                format!("the Hamiltonian has {n} qubits; a plan holds 1 to {MAX_PLAN_QUBITS}"),
+                None,
+            );
+            // Every later check depends on n.
+            return out;
+        }
+        if !self.hamiltonian.constant.is_finite() {
+            bad(
+                vec![Key("hamiltonian"), Key("constant")],
+                "the constant is not a finite number".into(),
+                None,
+            );
+        }
+        let mut previous = None;
+        for (j, t) in self.hamiltonian.terms.iter().enumerate() {
+            let path = || vec![Key("hamiltonian"), Key("terms"), Index(j)];
+            match crate::pauli::PauliString::parse_factor_text(&t.pauli) {
+                Some(p) if p.is_identity() => bad(
+                    path(),
+                    format!("term {j} `{}` is the identity", t.pauli),
+                    Some("the identity coefficient belongs in `constant`"),
+                ),
+                Some(p) if p.span() > n => bad(
+                    path(),
+                    format!(
+                        "term {j} `{}` acts beyond the {n} qubits of the Hamiltonian",
+                        t.pauli
+                    ),
+                    None,
+                ),
+                Some(p) => {
+                    if previous.is_some_and(|q| q >= p) {
+                        bad(
+                            path(),
+                            format!("term {j} `{}` is out of order or repeated", t.pauli),
+                            Some("reads index the terms in the order phasewright wrote them; recompile instead of editing"),
+                        );
+                    }
+                    previous = Some(p);
+                }
+                None => bad(
+                    path(),
+                    format!(
+                        "term {j} `{}` is not a Pauli string such as `X0 Z2`",
+                        t.pauli
+                    ),
+                    None,
+                ),
+            }
+            if !(t.coeff.is_finite() && t.coeff != 0.0) {
+                bad(
+                    path(),
+                    format!(
+                        "term {j} has coefficient {}; it must be finite and non-zero",
+                        t.coeff
+                    ),
+                    None,
+                );
+            }
+        }
+        if crate::formula::Order::from_number(self.formula.order).is_none() {
+            bad(
+                vec![Key("formula"), Key("order")],
+                format!("formula order {} is not 1, 2 or 4", self.formula.order),
+                None,
+            );
+        }
+        if self.formula.steps_per_dt == 0 {
+            bad(
+                vec![Key("formula"), Key("steps_per_dt")],
+                "steps_per_dt must be at least 1".into(),
+                None,
+            );
+        }
+        if !(self.formula.dt.is_finite() && self.formula.dt > 0.0) {
+            bad(
+                vec![Key("formula"), Key("dt")],
+                format!("dt {} must be a positive number", self.formula.dt),
+                None,
+            );
+        }
+        if !(2..=MAX_POINTS).contains(&self.points) {
+            bad(
+                vec![Key("points")],
+                format!("{} time points; a plan has 2 to {MAX_POINTS}", self.points),
+                None,
+            );
+        }
+        if self.states.is_empty() {
+            bad(vec![Key("states")], "the plan lists no state".into(), None);
+        }
+        for (s, st) in self.states.iter().enumerate() {
+            let path = vec![Key("states"), Index(s)];
+            if let Err(b) = crate::family::state_prep(st) {
+                bad(
+                    path,
+                    format!(
+                        "state {s} `{st}`: letter {} `{}`: {}",
+                        b.index, b.letter, b.reason
+                    ),
+                    Some("states use 0 1 + - r l (and ss), qubit 0 first"),
+                );
+            } else if st.chars().count() != n {
+                bad(
+                    path,
+                    format!(
+                        "state {s} `{st}` has {} letters but the Hamiltonian has {n} qubits",
+                        st.chars().count()
+                    ),
+                    None,
+                );
+            }
+        }
+        let device_qubits = self.device.as_ref().map(|d| d.num_qubits);
+        if let Some(d) = &self.device {
+            if d.num_qubits == 0 || d.num_qubits > MAX_PLAN_DEVICE_QUBITS {
+                bad(
+                    vec![Key("device"), Key("qubit_count")],
+                    format!(
+                        "a device of {} qubits; 1 to {MAX_PLAN_DEVICE_QUBITS} are allowed",
+                        d.num_qubits
+                    ),
+                    None,
+                );
+            }
+            if d.initial_layout.len() != n + 1 {
+                bad(
+                    vec![Key("device"), Key("start_placement")],
+                    format!(
+                        "the start placement lists {} qubits; the Hamiltonian and the ancilla need {}",
+                        d.initial_layout.len(),
+                        n + 1
+                    ),
+                    None,
+                );
+            }
+            let mut used = std::collections::BTreeSet::new();
+            for (l, &p) in d.initial_layout.iter().enumerate() {
+                if p as usize >= d.num_qubits || !used.insert(p) {
+                    bad(
+                        vec![Key("device"), Key("start_placement"), Index(l)],
+                        format!("logical qubit {l} is placed on physical qubit {p}, which is outside the device or used twice"),
+                        None,
+                    );
+                }
+            }
+        }
+        if self.circuits.is_empty() {
+            bad(
+                vec![Key("circuits")],
+                "the plan lists no circuit".into(),
+                None,
+            );
+        }
+        let mut ids = std::collections::BTreeSet::new();
+        let mut files = std::collections::BTreeSet::new();
+        for (i, e) in self.circuits.iter().enumerate() {
+            if e.id.is_empty() || !ids.insert(e.id.as_str()) {
+                bad(
+                    at_circuit(i, "id"),
+                    format!("circuit {i}: id `{}` is empty or repeated", e.id),
+                    None,
+                );
+            }
+            if !is_plain_file_name(&e.file) || !files.insert(e.file.as_str()) {
+                bad(
+                    at_circuit(i, "file"),
+                    format!(
+                        "circuit `{}`: file `{}` is not a plain file name of its own",
+                        e.id, e.file
+                    ),
+                    Some("a plan names files inside its own folder, without a path"),
+                );
+            }
+            if e.k >= self.points {
+                bad(
+                    at_circuit(i, "k"),
+                    format!(
+                        "circuit `{}`: k = {} but the plan has {} points",
+                        e.id, e.k, self.points
+                    ),
+                    None,
+                );
+            }
+            if !e.time.is_finite() {
+                bad(
+                    at_circuit(i, "time"),
+                    format!("circuit `{}`: time is not finite", e.id),
+                    None,
+                );
+            }
+            if e.state >= self.states.len() {
+                bad(
+                    at_circuit(i, "state"),
+                    format!(
+                        "circuit `{}`: state {} but the plan lists {} state(s)",
+                        e.id,
+                        e.state,
+                        self.states.len()
+                    ),
+                    Some("`state` indexes `states`, counting from 0"),
+                );
+            }
+            let qubits_ok = match device_qubits {
+                Some(d) => e.num_qubits > n && e.num_qubits <= d,
+                None => e.num_qubits == n + 1,
+            };
+            if !qubits_ok {
+                bad(
+                    at_circuit(i, "qubit_count"),
+                    format!("circuit `{}`: {} qubits does not fit a {n}-qubit Hamiltonian plus ancilla{}", e.id, e.num_qubits,
+                        device_qubits.map(|d| format!(" on a {d}-qubit device")).unwrap_or_default()),
+                    None,
+                );
+            }
+            if e.num_clbits == 0 || e.num_clbits > MAX_PLAN_BITS {
+                bad(
+                    at_circuit(i, "bit_count"),
+                    format!(
+                        "circuit `{}`: {} classical bits; 1 to {MAX_PLAN_BITS} are allowed",
+                        e.id, e.num_clbits
+                    ),
+                    None,
+                );
+            }
+            if e.ancilla_bit as usize >= e.num_clbits {
+                bad(
+                    at_circuit(i, "ancilla_bit"),
+                    format!(
+                        "circuit `{}`: ancilla bit {} is outside its {} classical bits",
+                        e.id, e.ancilla_bit, e.num_clbits
+                    ),
+                    None,
+                );
+            }
+            if e.reads.is_empty() {
+                bad(
+                    at_circuit(i, "reads"),
+                    format!("circuit `{}` has no read", e.id),
+                    None,
+                );
+            }
+            for (r, rd) in e.reads.iter().enumerate() {
+                let path = |key| vec![Key("circuits"), Index(i), Key("reads"), Index(r), Key(key)];
+                if rd.bits.is_empty() {
+                    bad(
+                        path("bits"),
+                        format!("circuit `{}`: read {r} lists no bit", e.id),
+                        None,
+                    );
+                }
+                for (b, &bit) in rd.bits.iter().enumerate() {
+                    if bit as usize >= e.num_clbits {
+                        let mut p = path("bits");
+                        p.push(Index(b));
+                        bad(
+                            p,
+                            format!("circuit `{}`: read {r} uses bit {bit}, outside its {} classical bits", e.id, e.num_clbits),
+                            None,
+                        );
+                    }
+                }
+                if let Target::Term { term } = rd.target {
+                    if term >= self.hamiltonian.terms.len() {
+                        bad(
+                            path("term"),
+                            format!(
+                                "circuit `{}`: read {r} names term {term} but the Hamiltonian lists {}",
+                                e.id,
+                                self.hamiltonian.terms.len()
+                            ),
+                            Some("`term` indexes `hamiltonian.terms`, counting from 0"),
+                        );
+                    }
+                }
+            }
+            if let Some(h) = &e.sha256 {
+                if h.len() != 64
+                    || !h
+                        .bytes()
+                        .all(|c| c.is_ascii_digit() || (b'a'..=b'f').contains(&c))
+                {
+                    bad(
+                        at_circuit(i, "sha256"),
+                        format!(
+                            "circuit `{}`: `{h}` is not a SHA-256 (64 lowercase hex digits)",
+                            e.id
+                        ),
+                        None,
+                    );
+                }
+            }
+            if let Some(d) = device_qubits {
+                if let Some((l, p)) = e
+                    .final_layout
+                    .iter()
+                    .enumerate()
+                    .find(|(_, &p)| p as usize >= d)
+                {
+                    let mut path = at_circuit(i, "end_placement");
+                    path.push(Index(l));
+                    bad(
+                        path,
+                        format!(
+                            "circuit `{}`: physical qubit {p} is outside the {d}-qubit device",
+                            e.id
+                        ),
+                        None,
+                    );
+                }
+            }
+        }
+        out
+    }
+
     /// The Hamiltonian rebuilt from `hamiltonian.terms` (sparse `X0 Y1 Z3` text) with its
     /// identity coefficient as `constant`. Errors name the term that does not read back.
     pub fn pauli_sum(&self) -> Result<crate::pauli::PauliSum, String> {

@@ -12,9 +12,10 @@
 //! file order; error rates and times are checked against the final coupling graph.
 
 use crate::device::lattice::{self, Lattice, ShapeError};
-use crate::device::native::{gate_arity, is_standard_gate};
+use crate::device::native::{gate_arity, is_standard_gate, STDGATES};
 use crate::device::{Calibration, Device, Link, NativeSet};
 use crate::lang::diag::{Diagnostic, LineIndex};
+use crate::lang::suggest::{closest, DEV_STATEMENTS};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{alpha1, alphanumeric1, char, digit1, space0, space1};
@@ -248,6 +249,13 @@ const GATE_HINT: &str = "use gate names from the OpenQASM 3 standard library (e.
 const SETS_HINT: &str = "supported sets contain cx or cz, and one of: U; rz with sx, rx, ry or h; \
                          rx with ry (e.g. `native rz sx x cx`)";
 
+/// `; did you mean `X`?` for a near miss of one of `candidates`, else nothing.
+fn did_you_mean(word: &str, candidates: &[&str]) -> String {
+    closest(word, candidates)
+        .map(|c| format!("; did you mean `{c}`?"))
+        .unwrap_or_default()
+}
+
 /// Canonical spelling of a gate name: `u` is accepted for the built-in `U`.
 fn canonical(name: &str) -> &str {
     if name == "u" {
@@ -277,7 +285,7 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
                 match (e.expected, at_word) {
                     (_, Some(w)) if e.at.as_ptr() == text.trim_start().as_ptr() => cx.err(
                         w,
-                        format!("unknown statement `{w}`"),
+                        format!("unknown statement `{w}`{}", did_you_mean(w, DEV_STATEMENTS)),
                         Some("statements are: name qubits native lattice link cut error time"),
                     ),
                     (expected, _) => {
@@ -348,7 +356,11 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     if is_standard_gate(c) {
                         names.push(c.to_string());
                     } else {
-                        cx.err(g, format!("unknown gate name `{g}`"), Some(GATE_HINT));
+                        cx.err(
+                            g,
+                            format!("unknown gate name `{g}`{}", did_you_mean(g, STDGATES)),
+                            Some(GATE_HINT),
+                        );
                     }
                 }
                 native_listed = gates.len();
@@ -372,7 +384,12 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                 let lat = match Lattice::new(kind, &nums) {
                     Ok(lat) => lat,
                     Err(ShapeError::UnknownKind) => {
-                        cx.err(kind, format!("unknown lattice `{kind}`"), Some(&kinds_hint));
+                        let names: Vec<&str> = lattice::KINDS.iter().map(|k| k.0).collect();
+                        cx.err(
+                            kind,
+                            format!("unknown lattice `{kind}`{}", did_you_mean(kind, &names)),
+                            Some(&kinds_hint),
+                        );
                         continue;
                     }
                     Err(ShapeError::Arity { expected }) => {
@@ -507,6 +524,11 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             }
         }
     };
+    // Calibration lines are judged against the native gates and the size; when either failed
+    // to read, judging them would only repeat that error on every line.
+    if (native.is_none() || size == 0) && !cx.diags.is_empty() {
+        return None;
+    }
     let native_names: Vec<String> = native.as_ref().map(|(_, n)| n.clone()).unwrap_or_default();
     let cal = calibration(cx, stmts, &native_names, size as u32, &couplings);
     let native_set = native_set?;
@@ -533,7 +555,11 @@ fn check_calibrated_gate(
     hint: &str,
 ) -> bool {
     if !is_standard_gate(canonical_name) {
-        cx.err(gate, format!("unknown gate name `{gate}`"), Some(GATE_HINT));
+        cx.err(
+            gate,
+            format!("unknown gate name `{gate}`{}", did_you_mean(gate, STDGATES)),
+            Some(GATE_HINT),
+        );
         return false;
     }
     if !native.iter().any(|n| n == canonical_name) {

@@ -7,3 +7,5 @@
 pub mod dev;
 pub mod diag;
 pub mod ham;
+pub mod json_span;
+pub mod suggest;

@@ -1,7 +1,8 @@
 //! Reader for the OpenQASM 3 subset that [`super::write`] produces.
 //!
 //! One statement per `;`. Each statement is parsed by a small nom parser; on failure the
-//! diagnostic points at the statement's first character and names what was expected.
+//! diagnostic points at the statement's first character and names what was expected, or, for
+//! an unknown gate or an out-of-range qubit or bit, at that name or operand.
 
 use crate::circuit::{Circuit, Gate};
 use crate::lang::diag::Diagnostic;
@@ -249,6 +250,12 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
                 Some(hint.to_string()),
             )
         };
+        // A diagnostic under `needle` where it first appears in the statement (else the
+        // statement's start).
+        let err_at = |needle: &str, msg: String, hint: &str| match stmt_text.find(needle) {
+            Some(i) => Diagnostic::at(file, src, start + i, needle.len(), msg, Some(hint.into())),
+            None => err(msg, hint),
+        };
         if !stmt_text.ends_with(';') {
             return Err(err(
                 "statement is not terminated by `;`".into(),
@@ -291,7 +298,8 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
                 if is_hw {
                     max_hw = max_hw.max(k + 1);
                 } else if declared_qubits.is_none_or(|n| k >= n) {
-                    return Err(err(
+                    return Err(err_at(
+                        &format!("q[{k}]"),
                         format!("qubit q[{k}] is outside the declared register"),
                         "declare `qubit[n] q;` before use, with n larger than every index",
                     ));
@@ -309,7 +317,8 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
             Stmt::Measure(b, q) => {
                 let q = resolve(&[q])?[0];
                 if b as usize >= c.num_clbits {
-                    return Err(err(
+                    return Err(err_at(
+                        &format!("c[{b}]"),
                         format!("bit c[{b}] is outside the declared register"),
                         "declare `bit[m] c;` with m larger than every bit index",
                     ));
@@ -318,8 +327,9 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
             }
             Stmt::Gate(name, params, ops) => {
                 let qs = resolve(&ops)?;
-                let g = make_gate(&name, &params, &qs)
-                    .map_err(|m| err(m, "gates come from stdgates.inc (or the built-in U)"))?;
+                let g = make_gate(&name, &params, &qs).map_err(|m| {
+                    err_at(&name, m, "gates come from stdgates.inc (or the built-in U)")
+                })?;
                 c.push(g);
             }
         }
@@ -391,6 +401,13 @@ mod tests {
         assert!(d.message.contains("`ccx`"), "{}", d.message);
         let d = read("t.qasm", "OPENQASM 3.0;\nqubit[2] q;\nh q[2];\n").unwrap_err();
         assert!(d.message.contains("outside the declared register"));
+        assert_eq!((d.line, d.column, d.width), (3, 3, 4), "caret under `q[2]`");
+        let d = read(
+            "t.qasm",
+            "OPENQASM 3.0;\nqubit[2] q;\nbit[1] c;\nc[1] = measure q[0];\n",
+        )
+        .unwrap_err();
+        assert_eq!((d.line, d.column, d.width), (4, 1, 4), "caret under `c[1]`");
         let d = read("t.qasm", "qubit[2] q;\n").unwrap_err();
         assert!(d.message.contains("header"));
         let d = read("t.qasm", "OPENQASM 3.0;\nqubit[2] q;\nh q[0]").unwrap_err();

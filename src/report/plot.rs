@@ -1,10 +1,12 @@
 //! SVG plots of estimation results, drawn with plotters into a string.
 //!
-//! In: an [`EnergyReport`] (energy against Krylov dimension, error bars of ±2 bootstrap
-//! standard errors, the exact value as a dashed line when known) or a [`DosReport`] (the
-//! density of states with its ±2σ band, and the exact broadened spectrum when known). Out: the
-//! SVG document as text; the caller writes it. Invariant: no file I/O here, and the same
-//! report always gives the same bytes.
+//! In: an [`EnergyReport`] (energy against Krylov dimension, error bars of ±1 bootstrap
+//! standard error, as in the table, the exact value as a dashed line when known) or a
+//! [`DosReport`] (the density of states with its ±2σ band, as in the table, and the exact
+//! broadened spectrum when known), and the energy axis label with its unit. Out: the SVG
+//! document as text; the caller writes it. Invariant: no file I/O here, the error bars and
+//! bands are the ones the text table prints (each labelled with its width), and the same report
+//! always gives the same bytes.
 
 use crate::estimate::{DosReport, EnergyReport, EnergyRow, KrylovKind};
 use plotters::prelude::*;
@@ -28,7 +30,7 @@ struct Points {
     data: Vec<(f64, f64, f64)>,
 }
 
-/// `(dimension, energy, 2σ)` for every row where `pick` gives an energy.
+/// `(dimension, energy, σ)` for every row where `pick` gives an energy.
 fn with_bars(
     r: &EnergyReport,
     pick: impl Fn(&EnergyRow) -> (Option<f64>, Option<f64>),
@@ -37,13 +39,14 @@ fn with_bars(
         .iter()
         .filter_map(|row| {
             let (e, se) = pick(row);
-            e.map(|e| (row.dimension as f64, e, 2.0 * se.unwrap_or(0.0)))
+            e.map(|e| (row.dimension as f64, e, se.unwrap_or(0.0)))
         })
         .collect()
 }
 
-/// Energy against Krylov dimension, both estimators, with ±2σ error bars.
-pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
+/// Energy against Krylov dimension, both estimators, with ±1σ error bars (one bootstrap
+/// standard error, the `±1σ` columns of the table). `energy_label` names the axis and its unit.
+pub fn energy_svg(r: &EnergyReport, energy_label: &str) -> Result<String, String> {
     let krylov_label = match r.kind {
         KrylovKind::Hamiltonian => "Krylov (H, S)",
         KrylovKind::Sine => "Krylov (sin(H dt)/dt, S)",
@@ -97,7 +100,7 @@ pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
         chart
             .configure_mesh()
             .x_desc("Krylov dimension d")
-            .y_desc("energy")
+            .y_desc(energy_label)
             .x_labels(r.rows.len().clamp(2, 12))
             .x_label_formatter(&|x| format!("{x:.0}"))
             .y_label_formatter(&|y| format!("{y:.4}"))
@@ -137,7 +140,7 @@ pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
                         .map(|&(x, y, _)| Circle::new((x + s.offset, y), 4, color.filled())),
                 )
                 .map_err(err)?
-                .label(format!("{} (±2σ)", s.label))
+                .label(format!("{} (±1σ)", s.label))
                 .legend(move |(x, y)| Circle::new((x + 9, y), 4, color.filled()));
         }
         chart
@@ -153,7 +156,8 @@ pub fn energy_svg(r: &EnergyReport) -> Result<String, String> {
 }
 
 /// The broadened density of states with its ±2σ band (and the exact curve when known).
-pub fn dos_svg(r: &DosReport) -> Result<String, String> {
+/// `energy_label` names the energy axis and its unit.
+pub fn dos_svg(r: &DosReport, energy_label: &str) -> Result<String, String> {
     let n = r.energies.len();
     if n < 2 {
         return Err("there is no density of states to plot".into());
@@ -186,7 +190,7 @@ pub fn dos_svg(r: &DosReport) -> Result<String, String> {
             .map_err(err)?;
         chart
             .configure_mesh()
-            .x_desc("energy E")
+            .x_desc(energy_label)
             .y_desc("states per unit energy")
             .x_label_formatter(&|x| format!("{x:.2}"))
             .y_label_formatter(&|y| format!("{y:.2}"))

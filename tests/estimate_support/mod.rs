@@ -186,6 +186,7 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
         reads: Vec::new(),
         costs: Costs::default(),
         final_layout: Vec::new(),
+        sha256: None,
     }
 }
 
@@ -291,6 +292,7 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
         },
         states: states.iter().map(|s| s.to_string()).collect(),
         seed: None,
+        energy_unit: None,
         points,
         device: None,
         circuits: circuits.iter().map(|c| c.entry.clone()).collect(),

@@ -1,18 +1,22 @@
-//! `phasewright sample DIR`: rehearse a campaign on the simulator, writing a counts file in the
-//! same format that hardware results are expected in.
+//! `phasewright rehearse DIR`: rehearse a campaign on the simulator, writing a counts file in
+//! the same format that hardware results are expected in (`sample` is a hidden alias kept for
+//! older scripts).
+//!
+//! In: a validated plan and its unchanged circuit files. Out: one counts file (or stdout), the
+//! same bytes for the same seed whatever the number of threads.
 
-use super::io::{read_plan, read_plan_circuits, write_atomic};
+use super::io::{read_plan, read_plan_circuits};
 use crate::error::{Error, Result};
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use rand::SeedableRng;
 use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-/// Simulate every circuit of a plan and draw shots from its exact output distribution.
+/// Rehearse a campaign: simulate every circuit and draw shots from its exact output
+/// distribution, as if the files had been run.
 ///
 /// Writes a counts file: {"format": "phasewright-counts/1", "bit_order": "first", "shots": N,
 /// "counts": {"<circuit id>": {"<bitstring>": count}}}. Bitstrings list classical bit 0 first
@@ -24,9 +28,10 @@ use std::path::PathBuf;
 /// devices have coherent, correlated and readout-specific errors it does not capture.
 #[derive(Args, Debug)]
 #[command(
-    after_help = "Example:\n  phasewright sample out/ising --shots 100000 --seed 7 -o out/ising/counts.json\n  phasewright estimate out/ising --counts out/ising/counts.json"
+    allow_negative_numbers = true,
+    after_help = "Example:\n  phasewright rehearse out/ising --shots 100000 --seed 7 -o out/ising-counts.json\n  phasewright estimate out/ising --counts out/ising-counts.json"
 )]
-pub struct SampleArgs {
+pub struct RehearseArgs {
     /// Folder written by `phasewright compile`.
     pub dir: PathBuf,
     /// Shots per circuit.
@@ -38,7 +43,7 @@ pub struct SampleArgs {
     /// Apply the crude global depolarising model (needs a plan compiled with --device).
     #[arg(long)]
     pub noise: bool,
-    /// Counts file to write (default: DIR/counts.json).
+    /// Counts file to write (default: DIR/counts.json; `-`: stdout).
     #[arg(short = 'o', long = "out")]
     pub out: Option<PathBuf>,
 }
@@ -51,10 +56,22 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
-pub fn run(args: &SampleArgs) -> Result<()> {
+pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     if args.shots == 0 {
         return Err(Error::usage("--shots must be at least 1", None));
     }
+    let out = args
+        .out
+        .clone()
+        .unwrap_or_else(|| args.dir.join("counts.json"));
+    let to_stdout = super::io::is_stdio(&out);
+    if to_stdout && g.json {
+        return Err(Error::usage(
+            "-o - and --json both want stdout",
+            Some("write the counts to a file, or drop --json"),
+        ));
+    }
+    super::io::check_out_file(&out, "-o", None, true)?;
     let plan = read_plan(&args.dir)?;
     if args.noise && plan.device.is_none() {
         return Err(Error::usage(
@@ -63,10 +80,9 @@ pub fn run(args: &SampleArgs) -> Result<()> {
         ));
     }
     let circuits = read_plan_circuits(&args.dir, &plan)?;
-    let bar = ProgressBar::new(circuits.len() as u64);
-    bar.set_style(
-        ProgressStyle::with_template("sampling {bar:40} {pos}/{len} circuits ({eta})")
-            .expect("valid template"),
+    let bar = g.progress(
+        circuits.len(),
+        "sampling {bar:40} {pos}/{len} circuits ({eta})",
     );
     let results: Vec<Result<(String, BTreeMap<String, u64>)>> = plan
         .circuits
@@ -103,19 +119,24 @@ pub fn run(args: &SampleArgs) -> Result<()> {
         "shots": args.shots,
         "counts": all,
     });
-    let out = args
-        .out
-        .clone()
-        .unwrap_or_else(|| args.dir.join("counts.json"));
-    write_atomic(
+    super::io::write_output(
         &out,
         (serde_json::to_string_pretty(&doc).expect("serialisable") + "\n").as_bytes(),
     )?;
-    println!(
-        "{} circuits x {} shots written to {}",
+    if to_stdout {
+        return Ok(());
+    }
+    g.json(&serde_json::json!({
+        "circuits": plan.circuits.len(),
+        "shots": args.shots,
+        "seed": args.seed,
+        "noise": args.noise,
+        "out": out.display().to_string(),
+    }))?;
+    g.say(&format!(
+        "{} circuits x {} shots written to {}\n",
         plan.circuits.len(),
         args.shots,
         out.display()
-    );
-    Ok(())
+    ))
 }
