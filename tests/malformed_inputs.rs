@@ -51,7 +51,7 @@ const CASES: &[Case] = &[
     case(Ham, "qubits 2\nZ0 Q1\n", Some(("Q1", 0)), "unknown factor `Q1`"),
     case(Ham, "qubits 2\n0.5 Z0 Z5\n", Some(("Z5", 1)), "out of range"),
     case(Ham, "qubits 0\nZ0\n", Some(("0\n", 0)), "at least one qubit"),
-    case(Ham, "qubits 64\nZ0\n", Some(("64", 0)), "limit of 63 qubits"),
+    case(Ham, "qubits 4097\nZ0\n", Some(("4097", 0)), "limit of 4096 qubits"),
     case(Ham, "Z0 Z1\n", Some(("Z0", 0)), "must start with `qubits N`"),
     case(Ham, "qubits 2\nqubits 3\nZ0\n", Some(("qubits 3", 0)), "declared twice"),
     case(Ham, "qubits 2\nlet J = \nZ0\n", Some(("= \n", 2)), "expected a value"),
