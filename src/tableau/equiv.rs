@@ -339,13 +339,23 @@ impl Names {
         }
     }
 
+    /// `X(q0) Z(q3) X(anc)`, ordered by logical qubit (then physical).
     fn pauli(&self, s: &PauliString) -> String {
         if s.is_identity() {
             return "I".into();
         }
-        s.support_qubits()
-            .into_iter()
-            .map(|q| format!("{}{}", s.get(q).letter(), self.qubit(q)))
+        let mut qs = s.support_qubits();
+        qs.sort_by_key(|&q| {
+            (
+                self.logical_of
+                    .get(&(q as u32))
+                    .copied()
+                    .unwrap_or(usize::MAX),
+                q,
+            )
+        });
+        qs.into_iter()
+            .map(|q| format!("{}({})", s.get(q).letter(), self.qubit(q)))
             .collect::<Vec<_>>()
             .join(" ")
     }
@@ -389,13 +399,7 @@ fn compare_cliffords(
     names: &Names,
 ) -> Option<Refutation> {
     let (fc, pc): (&Tableau, &Tableau) = (&file.clifford, &plan.clifford);
-    let at_end = |p: usize| {
-        file.measurements
-            .iter()
-            .find(|m| m.0 as usize == p)
-            .map(|m| m.2)
-            .or(file.last_gate.get(p).copied().flatten())
-    };
+    let at_end = |p: usize| file.last_gate.get(p).copied().flatten();
     for (l, (&i, &f)) in init.iter().zip(fin).enumerate() {
         for (label, fi, pi) in [
             ("X", fc.image_x(f as usize), pc.image_x(i as usize)),

@@ -322,7 +322,7 @@ pub struct Tail {
     pub clifford: Tableau,
     /// `(qubit, bit, gate index)` of every measurement, in order.
     pub measurements: Vec<(Qubit, u32, usize)>,
-    /// Index of the last gate on each qubit (for positions in reports).
+    /// Index of the last unitary gate on each qubit (for positions in reports).
     pub last_gate: Vec<Option<usize>>,
 }
 
@@ -358,7 +358,9 @@ pub fn canonicalise(
                     ),
                 });
             }
-            last_gate[a as usize] = Some(i);
+            if !g.is_measure() {
+                last_gate[a as usize] = Some(i);
+            }
         }
         let mut rotate = |t: &mut Tableau, axis: Axis, a: Qubit, angle: f64| {
             if !angle.is_finite() {

@@ -306,8 +306,9 @@ pub enum DiffKind {
 pub struct Difference {
     pub layer: usize,
     pub axis: PauliString,
-    /// Index of the file gate to point at: the first gate merged into the file's entry (for a
-    /// missing rotation, the first gate of a vanished file entry about the same axis, if any).
+    /// Index of the file gate to point at: the first gate merged into the file's entry; for a
+    /// cancellation, the gate that completed it (for a missing rotation, that of a vanished
+    /// file entry about the same axis, if any).
     pub gate: Option<u32>,
     pub kind: DiffKind,
 }
@@ -321,7 +322,7 @@ pub fn differences(file: &NormalForm, plan: &NormalForm) -> Vec<Difference> {
         file.vanished
             .iter()
             .find(|v| &v.axis == axis)
-            .map(|v| v.gates[0])
+            .and_then(|v| v.gates.last().copied())
     };
     for l in 0..file.layers.len().max(plan.layers.len()) {
         let f = file.layers.get(l).unwrap_or(&empty);
@@ -382,7 +383,7 @@ pub fn differences(file: &NormalForm, plan: &NormalForm) -> Vec<Difference> {
             _ => out.push(Difference {
                 layer: usize::MAX,
                 axis: v.axis.clone(),
-                gate: Some(v.gates[0]),
+                gate: v.gates.last().copied(),
                 kind: DiffKind::Cancelled,
             }),
         }
@@ -468,11 +469,11 @@ mod tests {
         assert_eq!(shape(&f), shape(&g));
         assert_eq!(f.layers.len(), 1);
         assert_eq!(f.vanished.len(), 1);
-        // Against a plan without the cancelled pair, the pair is reported at its first gate.
+        // Against a plan without the cancelled pair, the pair is reported where it cancelled.
         let diffs = differences(&f, &g);
         assert_eq!(diffs.len(), 1);
         assert_eq!(diffs[0].kind, DiffKind::Cancelled);
-        assert_eq!(diffs[0].gate, Some(0));
+        assert_eq!(diffs[0].gate, Some(2));
     }
 
     #[test]
