@@ -15,7 +15,11 @@
 //! - `read s`: reading both files back (`qasm::read`);
 //! - `check s`: `tableau::equiv::Claim::check` on both circuits (claim rebuilt, both circuits
 //!   canonicalised, normal forms compared), in parallel over circuits as `verify` runs it;
-//! - `rot/s`: file rotations per second of `check s`, and `check/compile`.
+//! - `rot/s`: file rotations per second of `check s`, and `check/compile`;
+//!
+//! and, per target, where the time of one check goes: canonicalising the file, its normal
+//! form, and building the claimed logical circuit with `family::hadamard_test` (the claim is
+//! canonicalised too, so a check costs about twice the first two plus the third).
 //!
 //! Run with `cargo bench --bench tableau`. Deterministic inputs (fixed seeds).
 
@@ -105,6 +109,7 @@ fn main() {
         "{:<16} {:>10} {:>10} {:>10} {:>8} {:>8} {:>12} {:>14}",
         "target", "compile s", "gates", "rotations", "read s", "check s", "rot/s", "check/compile"
     );
+    let mut splits = Vec::new();
     for (label, target) in &targets {
         let t = Instant::now();
         let compiled = compile_for(&h, "bench", &spec, target).expect("compiles");
@@ -131,25 +136,35 @@ fn main() {
             )
             .sum();
         let check_s = t.elapsed().as_secs_f64();
-        if std::env::var("TABLEAU_BENCH_SPLIT").is_ok() {
-            let f = &files[0].circuit;
-            let t = Instant::now();
-            let mut v = Vec::new();
-            phasewright::tableau::canonicalise(f, f.num_qubits, &mut |r| v.push(r)).unwrap();
-            let a = t.elapsed().as_secs_f64();
-            let t = Instant::now();
-            let nf = phasewright::tableau::normal::normal_form(v);
-            let b = t.elapsed().as_secs_f64();
-            let t = Instant::now();
-            let _ = claim.logical_circuit(&compiled.plan.circuits[0]).unwrap();
-            let c = t.elapsed().as_secs_f64();
-            println!("split: canonicalise {a:.3} s, normal form {b:.3} s ({} layers), claim circuit {c:.3} s", nf.layers.len());
-        }
+        // Where the time of one check goes (one circuit, one thread).
+        let f = &files[0].circuit;
+        let t = Instant::now();
+        let mut v = Vec::new();
+        phasewright::tableau::canonicalise(f, f.num_qubits, &mut |r| v.push(r)).expect("ok");
+        let canon_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let nf = phasewright::tableau::normal::normal_form(v);
+        let normal_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let _ = claim
+            .logical_circuit(&compiled.plan.circuits[0])
+            .expect("ok");
+        let claim_s = t.elapsed().as_secs_f64();
+        splits.push(format!(
+            "{label}: per circuit, canonicalise the file {canon_s:.3} s, its normal form \
+             {normal_s:.3} s ({} entries in {} layers), build the claimed logical circuit \
+             {claim_s:.3} s",
+            nf.len(),
+            nf.layers.len()
+        ));
         let gates: usize = files.iter().map(|f| f.circuit.gates.len()).sum();
         println!(
             "{label:<16} {compile_s:>10.2} {gates:>10} {rotations:>10} {read_s:>8.2} {check_s:>8.2} {:>12.3e} {:>14.3}",
             rotations as f64 / check_s,
             check_s / compile_s
         );
+    }
+    for line in splits {
+        println!("{line}");
     }
 }

@@ -45,8 +45,13 @@
 //!
 //! A one-qubit Clifford costs `O(1)` word operations on two rows, a two-qubit one `O(⌈n/64⌉)`
 //! (one row product with a popcount phase), a rotation one row copy, `O(⌈n/64⌉)`. The whole
-//! pass is linear in the gate count, with 4 words per row at 127 qubits; the layered form
-//! ([`normal`]) dominates. `benches/tableau.rs` measures both on a 127-qubit campaign.
+//! pass is linear in the gate count, with 2 words per mask at 127 qubits; the layered form
+//! ([`normal`]) costs more. Measured (`benches/tableau.rs`: a random local Hamiltonian on 127
+//! qubits, 10^5 Pauli rotations per circuit, so 2·10^5 controlled-`rz` halves): 0.025 s to
+//! canonicalise a 7·10^5-gate all-to-all file and 0.09 s for a 2.3·10^6-gate file lowered to a
+//! 128-qubit brick wall, then 0.1 s for the normal form (2·10^5 entries, 1591 layers); building
+//! the claimed circuit with `family::hadamard_test` takes 0.7 s of the ~1 s a whole check of one
+//! circuit costs, on one core of the development machine.
 
 pub mod equiv;
 pub mod normal;
