@@ -45,7 +45,7 @@ pub enum Method {
 ///   phasewright verify out/ising
 #[derive(Args, Debug)]
 #[command(
-    after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 -o out/ising\n  phasewright verify out/ising"
+    after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 -o out/ising\n  phasewright verify out/ising\n  phasewright verify out/ising --method tableau"
 )]
 pub struct VerifyArgs {
     /// Folder written by `phasewright compile` (holds plan.json and the .qasm files).
