@@ -13,7 +13,8 @@
 //! 4. [`synth`] turns rotations into basis changes, CNOT ladders and `rz`; [`route`] places
 //!    qubits and inserts SWAPs; [`lower`] translates to the device's native gates;
 //! 5. [`qasm`] writes OpenQASM 3 and reads back the subset it writes;
-//! 6. [`sim`] simulates the files and compares with the ideal and exact values;
+//! 6. [`sim`] simulates the files and compares with the ideal and exact values; [`tableau`]
+//!    proves them equal to the plan's circuit exactly, at any width, without amplitudes;
 //! 7. [`estimate`] turns counts into overlaps, Krylov energies and densities of states, and
 //!    [`report`] prints tables, JSON and SVG plots.
 //!
@@ -38,3 +39,4 @@ pub mod report;
 pub mod route;
 pub mod sim;
 pub mod synth;
+pub mod tableau;

@@ -1,33 +1,63 @@
-//! `phasewright verify DIR`: read every circuit file back, simulate it, and compare with the
-//! ideal product formula and the exact evolution.
+//! `phasewright verify DIR`: read every circuit file back and check it against the plan, by
+//! statevector simulation (compared with the ideal product formula and the exact evolution) or
+//! by the exact tableau equivalence proof ([`tableau`], any width).
 
-use super::io::{read_plan, read_plan_circuits};
-use crate::check::{check_plan_with_progress, trace_summary, COMPILE_TOLERANCE};
+mod tableau;
+
+use super::io::{check_campaign_files, read_plan, read_plan_circuits};
+use crate::check::{
+    check_plan_with, reference_count, trace_summary, CheckOptions, Progress, COMPILE_TOLERANCE,
+};
 use crate::error::{Error, Result};
-use crate::family::plan::Family;
+use crate::family::plan::{Family, Plan};
 use crate::report::table::{sci, Table};
-use clap::Args;
+use clap::{Args, ValueEnum};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::path::PathBuf;
+use std::time::Duration;
 
-/// Simulate every circuit of a compiled campaign and compare it with the ideal product formula
-/// and the exact evolution.
+/// How `verify` checks the files.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum Method {
+    /// Simulate each file from |0…0⟩ and compare the read values with the ideal product
+    /// formula and the exact evolution (up to about 30 qubits).
+    Statevector,
+    /// Prove each file equal to the plan's circuit with a stabiliser tableau (any width; no
+    /// overlap values).
+    Tableau,
+}
+
+/// Check every circuit of a compiled campaign against its plan: by simulation, or by an exact
+/// equivalence proof at any width.
 ///
-/// Each file is read back with phasewright's OpenQASM 3 reader and simulated from |0…0⟩ with a
-/// statevector simulator. Per circuit it prints the simulated ancilla (parity) expectation, the
-/// ideal product-formula value, the exact value ⟨ψ|e^{-iHt}|ψ⟩, the compile error
-/// |simulated − ideal| and the Trotter error |ideal − exact|. Exits with status 1 if any compile
-/// error exceeds the tolerance.
+/// Each file is read back with phasewright's OpenQASM 3 reader. `--method statevector`
+/// simulates it from |0…0⟩ and prints, per circuit, the simulated ancilla (parity) expectation,
+/// the ideal product-formula value, the exact value ⟨ψ|e^{-iHt}|ψ⟩, the compile error
+/// |simulated − ideal| and the Trotter error |ideal − exact|; it exits with status 1 if any
+/// compile error exceeds the tolerance. `--method tableau` rebuilds the circuit the plan claims
+/// (Hamiltonian, formula, steps, states, measurement groups, layouts) and proves the file equal
+/// to it with a stabiliser tableau, angles to 1e-12 relative; it computes no overlap values and
+/// says so; a difference is reported at its file:line:column with the Pauli axis or angle, and
+/// exits with status 1. Without `--method`: statevector when the circuits fit the simulator,
+/// tableau above.
 ///
 /// Example:
 ///   phasewright verify out/ising
 #[derive(Args, Debug)]
 #[command(
-    after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 -o out/ising\n  phasewright verify out/ising"
+    after_help = "Example:\n  phasewright compile examples/ising_ring8.ham --state 00000000 --dt 0.2 --points 6 -o out/ising\n  phasewright verify out/ising\n  phasewright verify out/ising --method tableau"
 )]
 pub struct VerifyArgs {
     /// Folder written by `phasewright compile` (holds plan.json and the .qasm files).
     pub dir: PathBuf,
-    /// Largest accepted |simulated − ideal| (a non-negative number).
+    /// How to check: statevector (simulation, small circuits) or tableau (exact proof, any
+    /// width). Default: statevector when the circuits fit the simulator, tableau above.
+    #[arg(long, value_enum)]
+    pub method: Option<Method>,
+    /// Statevector method: do not compute the exact evolution (no Trotter errors; faster).
+    #[arg(long)]
+    pub skip_exact: bool,
+    /// Largest accepted |simulated − ideal| (statevector method; a non-negative number).
     #[arg(long, default_value_t = COMPILE_TOLERANCE, allow_negative_numbers = true, value_parser = non_negative_f64)]
     pub tolerance: f64,
 }
@@ -40,15 +70,76 @@ pub fn non_negative_f64(s: &str) -> std::result::Result<f64, String> {
     }
 }
 
+/// A progress bar for one phase of the work that appears only once the phase has run for a
+/// second (short phases stay silent), on stderr and only on a terminal; never with `--quiet`.
+pub(crate) fn phase_bar(g: &super::Global, len: usize, what: &str) -> ProgressBar {
+    if g.quiet {
+        return ProgressBar::hidden();
+    }
+    let bar = ProgressBar::with_draw_target(Some(len as u64), ProgressDrawTarget::hidden());
+    bar.set_style(
+        ProgressStyle::with_template(&format!(
+            "{what} {{bar:40}} {{pos}}/{{len}} ({{elapsed}}, {{eta}} left)"
+        ))
+        .expect("valid template"),
+    );
+    let shown = bar.clone();
+    std::thread::spawn(move || {
+        std::thread::sleep(Duration::from_secs(1));
+        if !shown.is_finished() {
+            shown.set_draw_target(ProgressDrawTarget::stderr());
+            shown.enable_steady_tick(Duration::from_millis(250));
+        }
+    });
+    bar
+}
+
+/// Does every circuit of the plan fit the statevector simulator (system qubits plus the
+/// ancilla, two state copies)?
+fn fits_statevector(plan: &Plan) -> bool {
+    crate::sim::check_fits(plan.hamiltonian.num_qubits + 1, 2).is_ok()
+}
+
 pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     let plan = read_plan(&args.dir)?;
+    let method = args.method.unwrap_or(if fits_statevector(&plan) {
+        Method::Statevector
+    } else {
+        Method::Tableau
+    });
+    if method == Method::Tableau {
+        check_campaign_files(&args.dir, &plan)?;
+        return tableau::run(args, g, &plan);
+    }
     let circuits = read_plan_circuits(&args.dir, &plan)?;
-    let bar = g.progress(
-        circuits.len(),
-        "simulating {bar:40} {pos}/{len} circuits ({eta})",
+    let refs = phase_bar(
+        g,
+        reference_count(&plan),
+        if args.skip_exact {
+            "ideal references"
+        } else {
+            "ideal and exact references"
+        },
     );
-    let checked = check_plan_with_progress(&plan, &circuits, &|| bar.inc(1));
-    bar.finish_and_clear();
+    let sims = phase_bar(g, circuits.len(), "simulating");
+    let checked = check_plan_with(
+        &plan,
+        &circuits,
+        CheckOptions {
+            exact: !args.skip_exact,
+        },
+        &Progress {
+            reference: &|| {
+                refs.inc(1);
+                if refs.position() == refs.length().unwrap_or(0) {
+                    refs.finish_and_clear();
+                }
+            },
+            circuit: &|| sims.inc(1),
+        },
+    );
+    refs.finish_and_clear();
+    sims.finish_and_clear();
     let checks = checked.map_err(|m| {
         Error::usage(
             m,
@@ -56,7 +147,11 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
         )
     })?;
     let worst = checks.iter().map(|c| c.compile_error).fold(0.0, f64::max);
-    let worst_trotter = checks.iter().map(|c| c.trotter_error).fold(0.0, f64::max);
+    let worst_trotter = checks
+        .iter()
+        .map(|c| c.trotter_error)
+        .try_fold(0.0, |m: f64, e| e.map(|e| m.max(e)));
+    let opt = |v: Option<f64>, f: &dyn Fn(f64) -> String| v.map_or("skipped".to_string(), f);
     let ok = worst <= args.tolerance;
     let trace = if plan.family == Family::Trace {
         trace_summary(&plan, &checks).map_err(|m| Error::usage(m, None))?
@@ -64,7 +159,7 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
         None
     };
     if g.json {
-        let v = serde_json::json!({ "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
+        let v = serde_json::json!({ "method": "statevector", "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
         g.json(&v)?;
     } else {
         let mut out = String::new();
@@ -84,19 +179,22 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
                 c.reads.len().to_string(),
                 format!("{:.9}", first.simulated),
                 format!("{:.9}", first.ideal),
-                format!("{:.9}", first.exact),
+                opt(first.exact, &|x| format!("{x:.9}")),
                 sci(c.compile_error),
-                sci(c.trotter_error),
+                opt(c.trotter_error, &sci),
             ]);
         }
         out += &t.render();
         out += &format!(
-            "\n{} circuits checked; largest compile error {} (tolerance {}), largest Trotter error {}.\n",
+            "\n{} circuits checked by statevector simulation; largest compile error {} (tolerance {}), largest Trotter error {}.\n",
             checks.len(),
             sci(worst),
             sci(args.tolerance),
-            sci(worst_trotter)
+            opt(worst_trotter, &sci)
         );
+        if args.skip_exact {
+            out += "(the exact evolution was skipped: --skip-exact)\n";
+        }
         out += "(for circuits with several reads the first is shown; errors are the largest over all reads)\n";
         if let Some(rows) = &trace {
             out += &format!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace\n", plan.states.len());

@@ -43,6 +43,14 @@ impl Bits {
         b
     }
 
+    /// The set whose members are the set bits of `words` (qubit `k` is bit `k % 64` of word
+    /// `k / 64`), trailing zero words dropped.
+    pub fn from_words(words: &[u64]) -> Bits {
+        let mut b = Bits(SmallVec::from_slice(words));
+        b.trim();
+        b
+    }
+
     /// The set `{lo, lo+1, …, hi−1}`.
     pub fn range(lo: usize, hi: usize) -> Bits {
         let mut b = Bits::new();

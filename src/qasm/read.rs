@@ -15,11 +15,15 @@ use nom::number::complete::double;
 use nom::sequence::{delimited, pair, preceded, tuple};
 use nom::IResult;
 
-/// A parsed program: the circuit and whether it addressed hardware qubits (`$k`).
+/// A parsed program: the circuit, whether it addressed hardware qubits (`$k`), and where each
+/// gate's statement sits in the source.
 #[derive(Clone, Debug, PartialEq)]
 pub struct QasmProgram {
     pub circuit: Circuit,
     pub physical: bool,
+    /// `spans[i]` = (byte offset, byte length without the `;`) of the statement of
+    /// `circuit.gates[i]` (measurements included), for diagnostics that point at a gate.
+    pub spans: Vec<(usize, usize)>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -232,6 +236,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
     let mut declared_qubits = None::<u32>;
     let mut max_hw = 0u32;
     let mut seen_header = false;
+    let mut spans = Vec::new();
     let mut offset = 0usize;
     for piece in text.split_inclusive(';') {
         let start = offset + (piece.len() - piece.trim_start().len());
@@ -324,6 +329,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
                     ));
                 }
                 c.push(Gate::Measure(q, b));
+                spans.push((start, stmt_text.len() - 1));
             }
             Stmt::Gate(name, params, ops) => {
                 let qs = resolve(&ops)?;
@@ -331,6 +337,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
                     err_at(&name, m, "gates come from stdgates.inc (or the built-in U)")
                 })?;
                 c.push(g);
+                spans.push((start, stmt_text.len() - 1));
             }
         }
     }
@@ -350,6 +357,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
     Ok(QasmProgram {
         circuit: c,
         physical,
+        spans,
     })
 }
 
@@ -377,6 +385,13 @@ mod tests {
             let back = read("t.qasm", &text).unwrap();
             assert_eq!(back.circuit, c);
             assert_eq!(back.physical, a == Addressing::Physical);
+            // Every gate has the span of its own statement.
+            assert_eq!(back.spans.len(), c.gates.len());
+            for ((off, len), g) in back.spans.iter().zip(&c.gates) {
+                let stmt = &text[*off..off + len];
+                let head = if g.is_measure() { "c[" } else { g.name() };
+                assert!(stmt.starts_with(head), "{stmt:?} for {g:?}");
+            }
         }
     }
 

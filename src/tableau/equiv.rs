@@ -1,0 +1,579 @@
+//! Exact equivalence of a written circuit with the circuit its plan claims.
+//!
+//! In: a [`Plan`] and, per circuit entry, the circuit read back from its file. Out: a
+//! [`Verdict`]: the file is equivalent to the plan's circuit (with the sizes of the proof), or
+//! it differs, with the file gate to point at and the axis or angle that differs.
+//!
+//! The claim is rebuilt from the plan alone with the library's own builders, which are the
+//! specification: the Hamiltonian (`plan.hamiltonian`), `formula::order_terms` and
+//! `formula::evolution` (order, `k·steps` steps of `dt/steps`), `family::state_prep`, the
+//! Krylov measurement groups of `family::krylov_groups`, and `family::hadamard_test` with the
+//! default CNOT ladders — the *ideal logical* circuit, before routing and lowering. A device
+//! campaign may order the terms differently inside commuting groups and root its ladders
+//! elsewhere; neither changes the canonical form.
+//!
+//! Both circuits go through [`super::canonicalise`] and [`super::normal`] on the device's
+//! physical qubits: the plan's circuit with logical qubit `l` placed on `initial_layout[l]`.
+//! They are equivalent when (1) their rotation normal forms agree (axes exactly, angles to
+//! [`super::normal::ANGLE_REL_TOL`]); (2) their final Cliffords agree up to the plan's final
+//! permutation: the file's rows at `final_layout[l]` equal the plan circuit's rows at
+//! `initial_layout[l]` for every logical `l`, and every other physical qubit's rows are a bare
+//! `X_k`, `Z_k` pair (qubits that only held |0⟩ and were moved by SWAPs); (3) bit `b` measures
+//! `final_layout[l]` where the plan's circuit measures `l`. Then the file's unitary is the
+//! plan's, placed by the layouts, up to a global phase and the angle tolerance: a proof, not a
+//! sample. Invariant: an `Equivalent` verdict is never given to a file whose unitary differs
+//! from the claim's by more than the angle tolerance allows.
+//!
+//! What it does not give: the ideal and exact overlaps (no amplitudes are computed).
+
+use super::normal::{self, DiffKind};
+use super::{canonicalise, Tableau, Tail};
+use crate::circuit::{Circuit, Qubit};
+use crate::family::plan::{CircuitEntry, Family, Plan, Read, Target};
+use crate::family::{hadamard_test, krylov_groups, state_prep, term_bits};
+use crate::formula::{evolution, order_terms, Order};
+use crate::pauli::PauliString;
+use serde::Serialize;
+
+/// Everything the plan claims that is shared by its circuits.
+#[derive(Clone, Debug)]
+pub struct Claim {
+    /// System qubits; the ancilla is logical qubit `n`.
+    n: usize,
+    family: Family,
+    order: Order,
+    dt: f64,
+    steps_per_dt: usize,
+    states: Vec<String>,
+    terms: Vec<(PauliString, f64)>,
+    strings: Vec<PauliString>,
+    groups: Vec<Vec<usize>>,
+    /// Device qubits and initial layout, for device campaigns.
+    device: Option<(usize, Vec<u32>)>,
+}
+
+/// The sizes of a successful proof.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Proof {
+    pub gates: usize,
+    /// Rotations met in the file (after splitting off quarter turns).
+    pub rotations: usize,
+    /// Entries of the normal form.
+    pub canonical_rotations: usize,
+    pub layers: usize,
+}
+
+/// Where and how a file departs from its claim.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Refutation {
+    /// Index of the file gate to point at (`None`: the difference has no place in the file).
+    pub gate: Option<usize>,
+    pub message: String,
+}
+
+/// The outcome for one circuit.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Verdict {
+    Equivalent(Proof),
+    Differs(Refutation),
+}
+
+/// Why a circuit could not be checked at all: the plan entry is inconsistent, or the file holds
+/// something the canonical form does not take (at file gate `gate`).
+#[derive(Clone, Debug, PartialEq)]
+pub struct CannotCheck {
+    pub gate: Option<usize>,
+    pub message: String,
+}
+
+impl CannotCheck {
+    fn plan(message: impl Into<String>) -> CannotCheck {
+        CannotCheck {
+            gate: None,
+            message: message.into(),
+        }
+    }
+}
+
+impl Claim {
+    /// Reads the shared claim from a plan. Errors name what is inconsistent.
+    pub fn from_plan(plan: &Plan) -> Result<Claim, String> {
+        let h = crate::check::plan_hamiltonian(plan)?;
+        let order = Order::from_number(plan.formula.order)
+            .ok_or_else(|| format!("plan.json: unknown formula order {}", plan.formula.order))?;
+        let n = h.num_qubits;
+        let device = match &plan.device {
+            None => None,
+            Some(d) => {
+                if d.initial_layout.len() != n + 1 {
+                    return Err(format!(
+                        "plan.json: the initial layout places {} qubits; the campaign has {} \
+                         (system and ancilla)",
+                        d.initial_layout.len(),
+                        n + 1
+                    ));
+                }
+                if let Some(p) = d
+                    .initial_layout
+                    .iter()
+                    .find(|&&p| p as usize >= d.num_qubits)
+                {
+                    return Err(format!(
+                        "plan.json: the initial layout uses physical qubit {p} of a {}-qubit device",
+                        d.num_qubits
+                    ));
+                }
+                if !is_injective(&d.initial_layout) {
+                    return Err("plan.json: the initial layout repeats a physical qubit".into());
+                }
+                Some((d.num_qubits, d.initial_layout.clone()))
+            }
+        };
+        Ok(Claim {
+            n,
+            family: plan.family,
+            order,
+            dt: plan.formula.dt,
+            steps_per_dt: plan.formula.steps_per_dt,
+            states: plan.states.clone(),
+            terms: order_terms(&h),
+            strings: h.terms.keys().cloned().collect(),
+            groups: if plan.family == Family::Krylov {
+                krylov_groups(&h)
+            } else {
+                Vec::new()
+            },
+            device,
+        })
+    }
+
+    /// The ideal logical circuit entry `e` claims (system qubits `0..n`, ancilla `n`) and the
+    /// reads it should list, built exactly as `family::build_jobs_with_terms` builds them.
+    pub fn logical_circuit(&self, e: &CircuitEntry) -> Result<(Circuit, Vec<Read>), String> {
+        let state = self.states.get(e.state).ok_or_else(|| {
+            format!(
+                "{}: state {} is not among the plan's {} states",
+                e.id,
+                e.state,
+                self.states.len()
+            )
+        })?;
+        let prep = state_prep(state).map_err(|b| {
+            format!(
+                "{}: bad state letter `{}` at {}: {}",
+                e.id, b.letter, b.index, b.reason
+            )
+        })?;
+        if state.chars().count() != self.n {
+            return Err(format!(
+                "{}: the state has {} letters for {} qubits",
+                e.id,
+                state.chars().count(),
+                self.n
+            ));
+        }
+        let program = evolution(
+            &self.terms,
+            self.order,
+            e.k as f64 * self.dt,
+            e.k * self.steps_per_dt,
+        );
+        let (basis, reads) = match (self.family, e.group) {
+            (Family::Krylov, Some(g)) => {
+                let members = self.groups.get(g).ok_or_else(|| {
+                    format!(
+                        "{}: group {g} is not among the {} measurement groups",
+                        e.id,
+                        self.groups.len()
+                    )
+                })?;
+                let mut basis = PauliString::IDENTITY;
+                for &i in members {
+                    basis.x.or_assign(&self.strings[i].x);
+                    basis.z.or_assign(&self.strings[i].z);
+                }
+                let reads = members
+                    .iter()
+                    .map(|&i| Read {
+                        target: Target::Term { term: i },
+                        bits: term_bits(&self.strings[i]),
+                    })
+                    .collect();
+                (Some(basis), reads)
+            }
+            (_, Some(_)) => {
+                return Err(format!(
+                    "{}: a measurement group in a {:?} campaign",
+                    e.id, self.family
+                ))
+            }
+            (_, None) => (
+                None,
+                vec![Read {
+                    target: Target::Overlap,
+                    bits: vec![0],
+                }],
+            ),
+        };
+        let ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
+        let c = hadamard_test(self.n, &prep, &program, e.part, basis.as_ref(), &ladder);
+        Ok((c, reads))
+    }
+
+    /// Proves `file` equivalent to the circuit entry `e` claims, or finds where it differs.
+    pub fn check(&self, e: &CircuitEntry, file: &Circuit) -> Result<Verdict, CannotCheck> {
+        let (logical, reads) = self.logical_circuit(e).map_err(CannotCheck::plan)?;
+        let m = self.n + 1;
+        let (width, init, fin) = match &self.device {
+            None => {
+                if !e.final_layout.is_empty() {
+                    return Err(CannotCheck::plan(format!(
+                        "{}: a final layout in a campaign without a device",
+                        e.id
+                    )));
+                }
+                let id: Vec<u32> = (0..m as u32).collect();
+                (m.max(file.num_qubits), id.clone(), id)
+            }
+            Some((dev_qubits, init)) => {
+                if e.final_layout.len() != m
+                    || e.final_layout.iter().any(|&p| p as usize >= *dev_qubits)
+                    || !is_injective(&e.final_layout)
+                {
+                    return Err(CannotCheck::plan(format!(
+                        "{}: the final layout {:?} is not a placement of {m} qubits on the \
+                         {dev_qubits}-qubit device",
+                        e.id, e.final_layout
+                    )));
+                }
+                (
+                    (*dev_qubits).max(file.num_qubits),
+                    init.clone(),
+                    e.final_layout.clone(),
+                )
+            }
+        };
+        if reads != e.reads {
+            return Ok(Verdict::Differs(Refutation {
+                gate: None,
+                message: format!(
+                    "plan.json lists reads {:?} for this circuit, but the plan's family builds {:?}",
+                    e.reads, reads
+                ),
+            }));
+        }
+        if file.num_clbits != logical.num_clbits || e.num_clbits != logical.num_clbits {
+            return Ok(Verdict::Differs(Refutation {
+                gate: None,
+                message: format!(
+                    "the file declares {} classical bits (plan.json: {}); the plan's circuit has {}",
+                    file.num_clbits, e.num_clbits, logical.num_clbits
+                ),
+            }));
+        }
+        let mut placed = Circuit::new(width, logical.num_clbits);
+        placed.extend(
+            logical
+                .gates
+                .iter()
+                .map(|g| g.map_qubits(|l| init[l as usize])),
+        );
+        let mut fb = normal::Builder::new();
+        let ftail = canonicalise(file, width, &mut |r| fb.push(r)).map_err(|u| CannotCheck {
+            gate: Some(u.gate),
+            message: u.message,
+        })?;
+        let mut pb = normal::Builder::new();
+        let ptail = canonicalise(&placed, width, &mut |r| pb.push(r))
+            .map_err(|u| CannotCheck::plan(format!("the plan's own circuit: {}", u.message)))?;
+        let (fnf, pnf) = (fb.finish(), pb.finish());
+        let names = Names::new(&init, self.n);
+        let diffs = normal::differences(&fnf, &pnf);
+        if let Some(d) = normal::first_difference(&diffs) {
+            return Ok(Verdict::Differs(Refutation {
+                gate: d.gate.map(|g| g as usize),
+                message: describe(d, &names, diffs.len()),
+            }));
+        }
+        if let Some(r) = compare_cliffords(&ftail, &ptail, &init, &fin, &names) {
+            return Ok(Verdict::Differs(r));
+        }
+        if let Some(r) = compare_measurements(&ftail, &ptail, &init, &fin) {
+            return Ok(Verdict::Differs(r));
+        }
+        Ok(Verdict::Equivalent(Proof {
+            gates: file.gates.len(),
+            rotations: fnf.input_rotations,
+            canonical_rotations: fnf.len(),
+            layers: fnf.layers.len(),
+        }))
+    }
+}
+
+fn is_injective(v: &[u32]) -> bool {
+    let mut s = v.to_vec();
+    s.sort_unstable();
+    s.windows(2).all(|w| w[0] != w[1])
+}
+
+/// Prints physical-frame Pauli strings with logical qubit names (`q3`, `anc`) where the
+/// initial layout names them, `$k` elsewhere.
+struct Names {
+    logical_of: std::collections::HashMap<u32, usize>,
+    n: usize,
+}
+
+impl Names {
+    fn new(init: &[u32], n: usize) -> Names {
+        Names {
+            logical_of: init.iter().enumerate().map(|(l, &p)| (p, l)).collect(),
+            n,
+        }
+    }
+
+    fn qubit(&self, p: usize) -> String {
+        match self.logical_of.get(&(p as u32)) {
+            Some(&l) if l == self.n => "anc".to_string(),
+            Some(&l) => format!("q{l}"),
+            None => format!("${p}"),
+        }
+    }
+
+    /// `X(q0) Z(q3) X(anc)`, ordered by logical qubit (then physical).
+    fn pauli(&self, s: &PauliString) -> String {
+        if s.is_identity() {
+            return "I".into();
+        }
+        let mut qs = s.support_qubits();
+        qs.sort_by_key(|&q| {
+            (
+                self.logical_of
+                    .get(&(q as u32))
+                    .copied()
+                    .unwrap_or(usize::MAX),
+                q,
+            )
+        });
+        qs.into_iter()
+            .map(|q| format!("{}({})", s.get(q).letter(), self.qubit(q)))
+            .collect::<Vec<_>>()
+            .join(" ")
+    }
+
+    fn signed(&self, (neg, s): &(bool, PauliString)) -> String {
+        format!("{}{}", if *neg { "−" } else { "+" }, self.pauli(s))
+    }
+}
+
+fn describe(d: &normal::Difference, names: &Names, count: usize) -> String {
+    let axis = names.pauli(&d.axis);
+    let what = match d.kind {
+        DiffKind::Angle { file, plan } => format!(
+            "the rotation about {axis} has angle {file:?} here; the plan's circuit has {plan:?} \
+             (difference {:.3e})",
+            file - plan
+        ),
+        DiffKind::Extra { angle } => format!(
+            "a rotation about {axis} by {angle:?} here is not in the plan's circuit at this \
+             point"
+        ),
+        DiffKind::Missing { angle } => format!(
+            "the plan's rotation about {axis} by {angle:?} has no counterpart in the file at \
+             this point"
+        ),
+        DiffKind::Cancelled => format!(
+            "rotations about {axis} cancel from here on, where the plan's circuit keeps them"
+        ),
+    };
+    format!(
+        "{what} ({count} difference(s) in the canonical form; axes are Pauli strings at the \
+         circuit's start, rz-convention angles exp(−i·a/2·P) modulo quarter turns)"
+    )
+}
+
+fn compare_cliffords(
+    file: &Tail,
+    plan: &Tail,
+    init: &[u32],
+    fin: &[u32],
+    names: &Names,
+) -> Option<Refutation> {
+    let (fc, pc): (&Tableau, &Tableau) = (&file.clifford, &plan.clifford);
+    let at_end = |p: usize| file.last_gate.get(p).copied().flatten();
+    for (l, (&i, &f)) in init.iter().zip(fin).enumerate() {
+        for (label, fi, pi) in [
+            ("X", fc.image_x(f as usize), pc.image_x(i as usize)),
+            ("Z", fc.image_z(f as usize), pc.image_z(i as usize)),
+        ] {
+            if fi != pi {
+                let who = if l == init.len() - 1 {
+                    "the ancilla".to_string()
+                } else {
+                    format!("logical qubit {l}")
+                };
+                return Some(Refutation {
+                    gate: at_end(f as usize),
+                    message: format!(
+                        "the Clifford left after the last rotation differs on {who} (physical \
+                         ${f} at the end, by the plan's final layout): {label} there comes from \
+                         {} at the start in the file, from {} in the plan's circuit",
+                        names.signed(&fi),
+                        names.signed(&pi)
+                    ),
+                });
+            }
+        }
+    }
+    let ends: std::collections::HashSet<u32> = fin.iter().copied().collect();
+    for p in 0..fc.num_qubits() {
+        if ends.contains(&(p as u32)) {
+            continue;
+        }
+        let (sx, x) = fc.image_x(p);
+        let (sz, z) = fc.image_z(p);
+        let bare = !sx && !sz && x.z.is_empty() && z.x.is_empty() && x.x.count() == 1 && x.x == z.z;
+        if !bare {
+            return Some(Refutation {
+                gate: at_end(p),
+                message: format!(
+                    "physical qubit ${p} holds no logical qubit at the end (plan's final \
+                     layout), but it is not a |0⟩ qubit moved by SWAPs: X there comes from {} \
+                     and Z from {} at the start",
+                    names.signed(&(sx, x)),
+                    names.signed(&(sz, z))
+                ),
+            });
+        }
+    }
+    None
+}
+
+fn compare_measurements(file: &Tail, plan: &Tail, init: &[u32], fin: &[u32]) -> Option<Refutation> {
+    let to_end = |p: Qubit| -> Qubit { init.iter().position(|&i| i == p).map_or(p, |l| fin[l]) };
+    let mut want: Vec<(u32, Qubit)> = plan
+        .measurements
+        .iter()
+        .map(|&(q, b, _)| (b, to_end(q)))
+        .collect();
+    want.sort_unstable();
+    let mut got: Vec<(u32, Qubit, usize)> = file
+        .measurements
+        .iter()
+        .map(|&(q, b, i)| (b, q, i))
+        .collect();
+    got.sort_unstable();
+    for k in 0..want.len().max(got.len()) {
+        match (want.get(k), got.get(k)) {
+            (Some(&(wb, wq)), Some(&(gb, gq, i))) if wb != gb || wq != gq => {
+                return Some(Refutation {
+                    gate: Some(i),
+                    message: if wb == gb {
+                        format!(
+                            "bit c[{gb}] measures ${gq}; by the plan's final layout it should \
+                             measure ${wq}"
+                        )
+                    } else {
+                        format!(
+                            "bit c[{gb}] is measured here, but the plan's circuit measures bit \
+                             c[{wb}] next"
+                        )
+                    },
+                });
+            }
+            (Some(&(wb, wq)), None) => {
+                return Some(Refutation {
+                    gate: None,
+                    message: format!("bit c[{wb}] is never measured (it should measure ${wq})"),
+                })
+            }
+            (None, Some(&(gb, _, i))) => {
+                return Some(Refutation {
+                    gate: Some(i),
+                    message: format!("bit c[{gb}] is measured, but the plan's circuit does not"),
+                })
+            }
+            _ => {}
+        }
+    }
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::family::Spec;
+    use crate::pauli::{Pauli, PauliSum};
+
+    fn small_h() -> PauliSum {
+        let s = |f: &[(usize, Pauli)]| PauliString::from_factors(f).1;
+        let mut h = PauliSum::new(3);
+        h.add(s(&[(0, Pauli::Z), (1, Pauli::Z)]), 0.8);
+        h.add(s(&[(1, Pauli::X), (2, Pauli::X)]), -0.6);
+        h.add(s(&[(0, Pauli::Y)]), 0.3);
+        h.add(s(&[(2, Pauli::Z)]), 0.45);
+        h
+    }
+
+    #[test]
+    fn the_claim_rebuilds_the_library_circuits_gate_for_gate() {
+        // The claim mirrors `build_jobs_with_terms`; on an all-to-all compile the file's
+        // circuit is that logical circuit itself, so they must agree exactly.
+        for family in [Family::Overlap, Family::Krylov, Family::Trace] {
+            let states = if family == Family::Trace {
+                crate::family::random_states(3, 3, 7)
+            } else {
+                vec!["0+r".to_string()]
+            };
+            let spec = Spec {
+                family,
+                order: Order::Second,
+                dt: 0.3,
+                points: 3,
+                steps_per_dt: 2,
+                states,
+            };
+            let c = crate::pipeline::compile(&small_h(), "small", &spec).unwrap();
+            let claim = Claim::from_plan(&c.plan).unwrap();
+            for (e, circ) in c.plan.circuits.iter().zip(&c.circuits) {
+                let (logical, reads) = claim.logical_circuit(e).unwrap();
+                assert_eq!(&logical, circ, "{}", e.id);
+                assert_eq!(reads, e.reads, "{}", e.id);
+                match claim.check(e, circ).unwrap() {
+                    Verdict::Equivalent(p) => assert!(p.rotations > 0 || e.k == 0),
+                    Verdict::Differs(r) => panic!("{}: {}", e.id, r.message),
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_flipped_angle_is_found_at_its_gate() {
+        let spec = Spec {
+            family: Family::Overlap,
+            order: Order::First,
+            dt: 0.2,
+            points: 2,
+            steps_per_dt: 1,
+            states: vec!["1+0".into()],
+        };
+        let c = crate::pipeline::compile(&small_h(), "small", &spec).unwrap();
+        let claim = Claim::from_plan(&c.plan).unwrap();
+        let e = &c.plan.circuits[0];
+        let mut bad = c.circuits[0].clone();
+        let at = bad
+            .gates
+            .iter()
+            .position(|g| matches!(g, crate::circuit::Gate::Rz(..)))
+            .unwrap();
+        if let crate::circuit::Gate::Rz(q, a) = bad.gates[at] {
+            bad.gates[at] = crate::circuit::Gate::Rz(q, -a);
+        }
+        match claim.check(e, &bad).unwrap() {
+            Verdict::Differs(r) => {
+                assert_eq!(r.gate, Some(at), "{}", r.message);
+                assert!(r.message.contains("angle"), "{}", r.message);
+            }
+            Verdict::Equivalent(_) => panic!("a flipped angle was not found"),
+        }
+    }
+}

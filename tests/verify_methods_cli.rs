@@ -1,0 +1,159 @@
+//! `phasewright verify` with `--method tableau` and `--method statevector`, run as the real
+//! binary: verdicts, exit statuses, positions in tampered files, the default choice of method
+//! by width, and `--skip-exact`.
+
+use assert_cmd::Command;
+use std::path::Path;
+
+fn phasewright() -> Command {
+    Command::cargo_bin("phasewright").unwrap()
+}
+
+fn run_ok(args: &[&str]) -> String {
+    let out = phasewright().args(args).output().unwrap();
+    assert!(
+        out.status.success(),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).unwrap()
+}
+
+fn compile(ham: &str, state: &str, extra: &[&str], out: &Path) {
+    let out_s = out.display().to_string();
+    let mut args = vec![
+        "compile", ham, "--state", state, "--dt", "0.2", "--points", "3", "-o", &out_s,
+    ];
+    args.extend_from_slice(extra);
+    run_ok(&args);
+}
+
+#[test]
+fn the_tableau_method_proves_a_campaign_and_says_it_computes_no_overlaps() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("ising");
+    compile(
+        "examples/ising_ring8.ham",
+        "0+0+0+0+",
+        &["--measure", "krylov"],
+        &out,
+    );
+    let d = out.display().to_string();
+    let text = run_ok(&["verify", &d, "--method", "tableau"]);
+    assert!(text.contains("proved equivalent"), "{text}");
+    assert!(text.contains("proves equivalence only"), "{text}");
+    let v: serde_json::Value =
+        serde_json::from_str(&run_ok(&["verify", &d, "--method", "tableau", "--json"])).unwrap();
+    assert_eq!(v["method"], "tableau");
+    assert_eq!(v["ok"], true);
+    let circuits = v["circuits"].as_array().unwrap();
+    assert!(!circuits.is_empty());
+    assert!(circuits.iter().all(|c| c["verdict"] == "equivalent"));
+}
+
+#[test]
+fn the_tableau_method_points_at_a_tampered_angle() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("mixed");
+    compile("examples/mixed_field4.ham", "0+1r", &[], &out);
+    let f = out.join("k02-re.qasm");
+    let text = std::fs::read_to_string(&f).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    // The rz nearest the middle of the file: negate its angle.
+    let mid = lines.len() / 2;
+    let at = (mid..lines.len())
+        .find(|&i| lines[i].starts_with("rz("))
+        .expect("an rz line");
+    let bad: String = lines
+        .iter()
+        .enumerate()
+        .map(|(i, l)| {
+            if i == at {
+                format!("rz(-{}\n", &l[3..])
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    std::fs::write(&f, bad).unwrap();
+    let d = out.display().to_string();
+    let r = phasewright()
+        .args(["verify", &d, "--method", "tableau"])
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&r.stderr);
+    assert!(
+        err.contains(&format!("k02-re.qasm:{}:1:", at + 1)),
+        "expected line {}: {err}",
+        at + 1
+    );
+    assert!(err.contains("angle"), "{err}");
+    // The statevector method sees the same file as wrong.
+    let r = phasewright()
+        .args(["verify", &d, "--method", "statevector"])
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(1));
+}
+
+#[test]
+fn a_gate_after_a_measurement_is_bad_input_with_its_position() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("mixed");
+    compile("examples/mixed_field4.ham", "0000", &[], &out);
+    let f = out.join("k01-re.qasm");
+    let mut text = std::fs::read_to_string(&f).unwrap();
+    let n = text.lines().count();
+    text.push_str("h q[4];\n");
+    std::fs::write(&f, text).unwrap();
+    let r = phasewright()
+        .args(["verify", &out.display().to_string(), "--method", "tableau"])
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&r.stderr);
+    assert!(err.contains(&format!("k01-re.qasm:{}:1:", n + 1)), "{err}");
+}
+
+#[test]
+fn small_campaigns_default_to_simulation_and_can_skip_the_exact_evolution() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("mixed");
+    compile("examples/mixed_field4.ham", "0+1r", &[], &out);
+    let d = out.display().to_string();
+    let text = run_ok(&["verify", &d]);
+    assert!(text.contains("statevector simulation"), "{text}");
+    let v: serde_json::Value =
+        serde_json::from_str(&run_ok(&["verify", &d, "--skip-exact", "--json"])).unwrap();
+    assert_eq!(v["method"], "statevector");
+    assert_eq!(v["ok"], true);
+    assert!(v["max_trotter_error"].is_null(), "{v}");
+    assert!(v["circuits"][0]["reads"][0]["exact"].is_null(), "{v}");
+    assert!(v["max_compile_error"].as_f64().unwrap() <= 1e-9);
+    let text = run_ok(&["verify", &d, "--skip-exact"]);
+    assert!(text.contains("skipped"), "{text}");
+}
+
+#[test]
+fn wide_campaigns_default_to_the_tableau_method() {
+    // 60 qubits: beyond the simulator (it refuses above 40), so `verify` proves by tableau.
+    let dir = tempfile::tempdir().unwrap();
+    let ham = dir.path().join("chain60.ham");
+    std::fs::write(
+        &ham,
+        "# invented: a 60-site open chain in a transverse field\nqubits 60\n\
+         sum i in 0..59 { -1.0 * Z{i} Z{i+1} }\nsum i in 0..60 { -0.6 * X{i} }\n",
+    )
+    .unwrap();
+    let out = dir.path().join("chain");
+    compile(
+        &ham.display().to_string(),
+        &"0".repeat(60),
+        &["--steps", "2"],
+        &out,
+    );
+    let text = run_ok(&["verify", &out.display().to_string()]);
+    assert!(text.contains("tableau method"), "{text}");
+    assert!(text.contains("4 of 4 circuits proved equivalent"), "{text}");
+}
