@@ -28,7 +28,7 @@ use nom::error::{context, ContextError, ErrorKind, ParseError};
 use nom::{IResult, Offset};
 use num_complex::Complex64;
 use std::cell::RefCell;
-use std::collections::{HashMap, HashSet};
+use std::collections::HashSet;
 
 /// Largest `qubits N` (the Pauli strings' own bound; the Hadamard-test ancilla is one more
 /// circuit qubit, not a bit of the strings).
@@ -105,25 +105,25 @@ pub fn write_hamiltonian(h: &PauliSum, header_comment: &str) -> String {
         out.push_str(&format_coefficient(h.constant));
         out.push('\n');
     }
-    // Readable order: by weight, then by (qubit, letter) sequence.
-    type Keyed = (Vec<(usize, char)>, PauliString, f64);
+    // Readable order: by weight, then by (qubit, letter) sequence. Strings are distinct, so an
+    // unstable sort gives the same order.
+    type Keyed<'a> = (smallvec::SmallVec<[(usize, char); 4]>, &'a PauliString, f64);
     let mut terms: Vec<Keyed> = h
         .terms
         .iter()
         .map(|(p, c)| {
-            let key = p
-                .support_qubits()
-                .into_iter()
-                .map(|q| (q, p.get(q).letter()))
-                .collect();
-            (key, p.clone(), *c)
+            let key = p.support_iter().map(|q| (q, p.get(q).letter())).collect();
+            (key, p, *c)
         })
         .collect();
-    terms.sort_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
-    for (_, p, c) in &terms {
+    terms.sort_unstable_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
+    out.reserve(terms.len() * 24);
+    for (key, _, c) in &terms {
         out.push_str(&format_coefficient(*c));
-        out.push(' ');
-        out.push_str(&p.to_factor_text());
+        for (q, letter) in key {
+            use std::fmt::Write;
+            let _ = write!(out, " {letter}{q}");
+        }
         out.push('\n');
     }
     out
@@ -1176,7 +1176,7 @@ struct Evaluator<'s> {
     scope: Vec<(String, Val, Span)>,
     diags: Vec<(usize, Diagnostic)>,
     reported: HashSet<usize>,
-    acc: HashMap<PauliString, Acc>,
+    acc: rustc_hash::FxHashMap<PauliString, Acc>,
     terms_read: usize,
     steps: usize,
     aborted: bool,
@@ -1208,7 +1208,7 @@ impl<'s> Evaluator<'s> {
             scope: Vec::new(),
             diags: Vec::new(),
             reported: HashSet::new(),
-            acc: HashMap::new(),
+            acc: rustc_hash::FxHashMap::default(),
             terms_read: 0,
             steps: 0,
             aborted: false,
@@ -1758,10 +1758,9 @@ impl<'s> Evaluator<'s> {
             None
         };
         if self.diags.is_empty() {
-            // Hashed while reading (one probe per term), sorted once here: the sum's order.
-            let mut acc: Vec<(PauliString, Acc)> =
-                std::mem::take(&mut self.acc).into_iter().collect();
-            acc.sort_unstable_by(|a, b| a.0.cmp(&b.0));
+            // Hashed while reading (one probe per term); the sum sorts the kept terms once.
+            // Diagnostics are ordered by their offset below, whatever the order here.
+            let acc = std::mem::take(&mut self.acc);
             let mut kept = Vec::with_capacity(acc.len());
             for (p, a) in &acc {
                 if a.sum.im.abs() > HERMITIAN_REL_TOL * a.magnitude {
