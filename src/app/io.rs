@@ -13,8 +13,13 @@ use std::path::Path;
 /// Writes `text` to stdout and flushes. A reader that has gone away (`| head -1`) is
 /// [`Error::BrokenPipe`], which `main` turns into a quiet exit.
 pub fn emit(text: &str) -> Result<()> {
+    emit_bytes(text.as_bytes())
+}
+
+/// [`emit`] for bytes.
+fn emit_bytes(bytes: &[u8]) -> Result<()> {
     let mut out = std::io::stdout().lock();
-    out.write_all(text.as_bytes())
+    out.write_all(bytes)
         .and_then(|()| out.flush())
         .map_err(|source| {
             if source.kind() == std::io::ErrorKind::BrokenPipe {
@@ -163,21 +168,7 @@ pub fn check_out_file(
 /// Writes a whole output: to stdout for `-`, else atomically to the file.
 pub fn write_output(path: &Path, contents: &[u8]) -> Result<()> {
     if is_stdio(path) {
-        let mut out = std::io::stdout().lock();
-        return out
-            .write_all(contents)
-            .and_then(|()| out.flush())
-            .map_err(|source| {
-                if source.kind() == std::io::ErrorKind::BrokenPipe {
-                    Error::BrokenPipe
-                } else {
-                    Error::Io {
-                        path: "<stdout>".into(),
-                        source,
-                        reading: false,
-                    }
-                }
-            });
+        return emit_bytes(contents);
     }
     write_atomic(path, contents)
 }
