@@ -39,12 +39,12 @@ use std::time::Duration;
 // ---------------------------------------------------------------------------------------------
 // Budget
 
-/// In-process cases per reader: 192 by default, `PHASEWRIGHT_FUZZ_CASES` to raise it.
+/// In-process cases per reader: 512 by default, `PHASEWRIGHT_FUZZ_CASES` to raise it.
 fn cases() -> u32 {
     std::env::var("PHASEWRIGHT_FUZZ_CASES")
         .ok()
         .and_then(|s| s.parse().ok())
-        .unwrap_or(192)
+        .unwrap_or(512)
 }
 
 /// Binary runs per reader: an eighth of the in-process cases, at least 12.
@@ -1489,4 +1489,58 @@ fn regression_0002_ham_sum_fails_every_pass() {
 
     let code = run_binary(&["convert", &s(&path), "-o", "-"], &path, src.as_bytes()).unwrap();
     assert_eq!(code, 2);
+}
+
+/// Runs `phasewright args` on a fixture and asserts a bad-input exit (2) with a diagnostic
+/// for `file`, rather than an abort.
+fn rejected_by_binary(args: &[&str], file: &Path) {
+    let text = std::fs::read(file).unwrap();
+    let code = run_binary(args, file, &text).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(code, 2, "expected a diagnostic and exit 2");
+}
+
+/// Finding 0003 (open): 10^4 nested parentheses overflow the stack of the `.ham` expression
+/// parser (SIGABRT, exit 134). Driven through the binary so the abort cannot stop this suite.
+#[test]
+fn regression_0003_ham_deep_parentheses() {
+    let f = root().join("tests/data/fuzz/0003_ham_deep_parentheses.ham");
+    rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
+}
+
+/// Finding 0004 (open): a coefficient of 2·10^5 additions parses into a left-deep tree whose
+/// evaluation (or drop) overflows the stack.
+#[test]
+fn regression_0004_ham_long_operator_chain() {
+    let f = root().join("tests/data/fuzz/0004_ham_long_operator_chain.ham");
+    rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
+}
+
+/// Finding 0005 (open): 2·10^4 nested sums overflow the stack.
+#[test]
+fn regression_0005_ham_deep_sums() {
+    let f = root().join("tests/data/fuzz/0005_ham_deep_sums.ham");
+    rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
+}
+
+/// Finding 0006 (open): 2·10^4 nested parentheses in a gate angle overflow the stack of the
+/// OpenQASM reader. The fixture replaces `k01-re.qasm` of the overlap campaign, with its hash
+/// recorded, so `verify` reads it.
+#[test]
+fn regression_0006_qasm_deep_parentheses() {
+    let fixture = root().join("tests/data/fuzz/0006_qasm_deep_parentheses.qasm");
+    let bytes = std::fs::read(&fixture).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("campaign");
+    copy_campaign(&campaigns().dirs[0], &dir);
+    let f = dir.join("k01-re.qasm");
+    std::fs::write(&f, &bytes).unwrap();
+    let plan_path = dir.join("plan.json");
+    let mut plan: serde_json::Value = serde_json::from_str(&read(&plan_path)).unwrap();
+    for e in plan["circuits"].as_array_mut().unwrap() {
+        if e["file"] == "k01-re.qasm" {
+            e["sha256"] = sha256_hex(&bytes).into();
+        }
+    }
+    std::fs::write(&plan_path, serde_json::to_string_pretty(&plan).unwrap()).unwrap();
+    rejected_by_binary(&["-q", "verify", &s(&dir)], &f);
 }
