@@ -322,7 +322,22 @@ pub fn parse(
             num_bits: nbits,
             outcomes: outcomes.into_iter().collect(),
         };
-        let total = cc.shots();
+        // Checked here, so that `shots()` never overflows on a counts file that was read.
+        let Some(total) = cc
+            .outcomes
+            .iter()
+            .try_fold(0u64, |sum, &(_, n)| sum.checked_add(n))
+        else {
+            diags.push(at_or_file(
+                key_at(&["counts", id]),
+                format!(
+                    "circuit `{id}`: the counts add up to more than {} shots",
+                    u64::MAX
+                ),
+                Some("counts are tallies of shots; check the file for a damaged number"),
+            ));
+            continue;
+        };
         if total == 0 {
             diags.push(at_or_file(
                 key_at(&["counts", id]),

@@ -43,6 +43,11 @@ pub const MAX_TERMS: usize = 10_000_000;
 /// Largest number of statements the evaluator executes (guards nested sums with empty bodies).
 const MAX_STEPS: usize = 50_000_000;
 
+/// Errors (repeats included) after which evaluation stops: a sum whose body fails on every
+/// pass would otherwise build an error per pass up to [`MAX_STEPS`] (seconds of work) only to
+/// report the same few positions. Every position already reported stays reported.
+const MAX_EVAL_ERRORS: usize = 100_000;
+
 /// A parsed Hamiltonian file.
 #[derive(Clone, Debug, PartialEq)]
 pub struct HamFile {
@@ -1179,6 +1184,8 @@ struct Evaluator<'s> {
     acc: rustc_hash::FxHashMap<PauliString, Acc>,
     terms_read: usize,
     steps: usize,
+    /// Errors met so far, repeats at one position included (see [`MAX_EVAL_ERRORS`]).
+    errors: usize,
     aborted: bool,
     flag_encoding: Option<Encoding>,
     file_encoding: Option<(Encoding, Span)>,
@@ -1211,6 +1218,7 @@ impl<'s> Evaluator<'s> {
             acc: rustc_hash::FxHashMap::default(),
             terms_read: 0,
             steps: 0,
+            errors: 0,
             aborted: false,
             flag_encoding: None,
             file_encoding: None,
@@ -1225,6 +1233,7 @@ impl<'s> Evaluator<'s> {
     }
 
     fn report(&mut self, e: EvalErr) {
+        self.errors += 1;
         if let Some((msg, hint)) = e.msg {
             if self.reported.insert(e.span.start) {
                 let d = Diagnostic::at(
@@ -1237,6 +1246,10 @@ impl<'s> Evaluator<'s> {
                 );
                 self.diags.push((e.span.start, d));
             }
+        }
+        // Stop only once something is on record, so the file can never read as valid.
+        if self.errors >= MAX_EVAL_ERRORS && !self.diags.is_empty() {
+            self.aborted = true;
         }
     }
 
