@@ -1499,7 +1499,7 @@ fn rejected_by_binary(args: &[&str], file: &Path) {
     assert_eq!(code, 2, "expected a diagnostic and exit 2");
 }
 
-/// Finding 0003 (open): 10^4 nested parentheses overflow the stack of the `.ham` expression
+/// Finding 0003 (fixed by `lang::diag::depth_guard`): 10^4 nested parentheses overflow the stack of the `.ham` expression
 /// parser (SIGABRT, exit 134). Driven through the binary so the abort cannot stop this suite.
 #[test]
 fn regression_0003_ham_deep_parentheses() {
@@ -1507,7 +1507,7 @@ fn regression_0003_ham_deep_parentheses() {
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0004 (open): a coefficient of 2·10^5 additions parses into a left-deep tree whose
+/// Finding 0004 (fixed by `lang::diag::depth_guard`): a coefficient of 2·10^5 additions parses into a left-deep tree whose
 /// evaluation (or drop) overflows the stack.
 #[test]
 fn regression_0004_ham_long_operator_chain() {
@@ -1515,14 +1515,14 @@ fn regression_0004_ham_long_operator_chain() {
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0005 (open): 2·10^4 nested sums overflow the stack.
+/// Finding 0005 (fixed by `lang::diag::depth_guard`): 2·10^4 nested sums overflow the stack.
 #[test]
 fn regression_0005_ham_deep_sums() {
     let f = root().join("tests/data/fuzz/0005_ham_deep_sums.ham");
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0006 (open): 2·10^4 nested parentheses in a gate angle overflow the stack of the
+/// Finding 0006 (fixed by `lang::diag::depth_guard`): 2·10^4 nested parentheses in a gate angle overflow the stack of the
 /// OpenQASM reader. The fixture replaces `k01-re.qasm` of the overlap campaign, with its hash
 /// recorded, so `verify` reads it.
 #[test]

@@ -208,3 +208,77 @@ mod tests {
         assert_eq!((d.line, d.column, d.excerpt.as_str()), (3, 4, "bé c"));
     }
 }
+
+/// Deepest bracket nesting the readers accept (common practice for hand-written and generated
+/// inputs alike; recursion-based parsers need a bound to stay inside the thread's stack).
+pub const MAX_NESTING: usize = 64;
+
+/// Most arithmetic operators on one line: an expression's tree is as deep as its chain of
+/// operators, and evaluating or dropping it recurses that deep.
+pub const MAX_OPERATORS_PER_LINE: usize = 1024;
+
+/// Guards the recursive readers against inputs that would exhaust the stack: bracket nesting
+/// beyond [`MAX_NESTING`] (`(`, `[`, `{` together) or more than [`MAX_OPERATORS_PER_LINE`]
+/// operators on one line. Text after `comment` on a line is ignored. Returns the diagnostic for
+/// the first offence: at the bracket that goes one level too deep, or at the line's first
+/// operator past the bound.
+pub fn depth_guard(file: &str, src: &str, comment: &str) -> Option<Diagnostic> {
+    let mut depth = 0usize;
+    let mut offset = 0usize;
+    for line in src.split_inclusive('\n') {
+        let code = line.find(comment).map_or(line, |i| &line[..i]);
+        let mut ops = 0usize;
+        for (i, b) in code.bytes().enumerate() {
+            match b {
+                b'(' | b'[' | b'{' => {
+                    depth += 1;
+                    if depth > MAX_NESTING {
+                        return Some(Diagnostic::at(
+                            file,
+                            src,
+                            offset + i,
+                            1,
+                            format!("brackets nested deeper than {MAX_NESTING} levels"),
+                            Some("flatten the expression (or the `sum` blocks)".into()),
+                        ));
+                    }
+                }
+                b')' | b']' | b'}' => depth = depth.saturating_sub(1),
+                b'+' | b'-' | b'*' | b'/' | b'%' | b'^' => {
+                    ops += 1;
+                    if ops > MAX_OPERATORS_PER_LINE {
+                        return Some(Diagnostic::at(
+                            file,
+                            src,
+                            offset + i,
+                            1,
+                            format!("more than {MAX_OPERATORS_PER_LINE} operators on one line"),
+                            Some("split the expression over several terms or `let` lines".into()),
+                        ));
+                    }
+                }
+                _ => {}
+            }
+        }
+        offset += line.len();
+    }
+    None
+}
+
+#[cfg(test)]
+mod guard_tests {
+    use super::*;
+
+    #[test]
+    fn deep_nesting_and_long_chains_are_diagnosed_at_their_place() {
+        let deep = format!("qubits 1\n{}1{} Z0\n", "(".repeat(70), ")".repeat(70));
+        let d = depth_guard("t.ham", &deep, "#").expect("too deep");
+        assert_eq!((d.line, d.column), (2, MAX_NESTING + 1));
+        let long = format!("qubits 1\n1{} Z0\n", "+1".repeat(2000));
+        let d = depth_guard("t.ham", &long, "#").expect("too long");
+        assert_eq!((d.line, d.column), (2, 2 * MAX_OPERATORS_PER_LINE + 2));
+        // Brackets and operators inside comments do not count; ordinary files pass.
+        let fine = format!("qubits 1\n0.5 Z0 # {}\n", "(".repeat(200));
+        assert!(depth_guard("t.ham", &fine, "#").is_none());
+    }
+}

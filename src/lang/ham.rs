@@ -84,6 +84,9 @@ pub fn parse_hamiltonian_with(
     src: &str,
     encoding: Option<Encoding>,
 ) -> Result<HamRead, Vec<Diagnostic>> {
+    if let Some(d) = crate::lang::diag::depth_guard(file, src, "#") {
+        return Err(vec![d]);
+    }
     let stmts = parse_statements(file, src)?;
     let mut ev = Evaluator::new(file, src);
     ev.flag_encoding = encoding;

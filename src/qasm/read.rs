@@ -230,6 +230,9 @@ fn blank_comments(src: &str) -> String {
 
 /// Parses a program in the writer's subset.
 pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
+    if let Some(d) = crate::lang::diag::depth_guard(file, src, "//") {
+        return Err(d);
+    }
     let text = blank_comments(src);
     let mut c = Circuit::new(0, 0);
     let mut physical = None::<bool>;
