@@ -80,6 +80,10 @@ pub struct EstimateArgs {
     /// Seed of the bootstrap resampling.
     #[arg(long, value_name = "SEED", default_value_t = 0)]
     pub seed: u64,
+    /// Undo signal loss: divide each circuit's reads by its calibrated success probability
+    /// (recorded by `compile --device`); the method is stated in the output.
+    #[arg(long)]
+    pub undo_loss: bool,
 }
 
 fn positive_f64(s: &str) -> std::result::Result<f64, String> {
@@ -117,12 +121,21 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     });
     let name = super::io::display_name(&args.counts);
     let counts = counts::parse(&text, &name, &plan, order).map_err(Error::Input)?;
+    if args.undo_loss {
+        estimate::sanity::calibrated_loss(&plan).map_err(|m| {
+            Error::usage(
+                format!("--undo-loss: {m}"),
+                Some("compile the campaign with --device D.dev, or drop --undo-loss"),
+            )
+        })?;
+    }
     let cfg = Config {
         threshold: args.threshold,
         sigma: args.sigma,
         bootstrap: args.bootstrap,
         seed: args.seed,
         exact: args.exact,
+        undo_loss: args.undo_loss,
         ..Config::default()
     };
     let analysis = estimate::analyse(&plan, &counts, &cfg)
@@ -137,6 +150,13 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         if plot_to_stdout {
             return Ok(());
         }
+    }
+    let warnings = match &analysis {
+        Analysis::Energies(r) => &r.warnings,
+        Analysis::Dos(r) => &r.warnings,
+    };
+    for w in warnings {
+        g.warn(w);
     }
     if g.json {
         return g.json(&to_json(&analysis, &plan, counts.bit_order));
@@ -196,18 +216,26 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
         "{:>3}  {:>14}  {:>9}  {:>5}  {:>9}  {:>14}  {:>9}",
         "d", "krylov", "±1σ", "kept", "threshold", "pencil", "±1σ"
     );
+    let mark = |x: Option<f64>, out: bool| {
+        let v = fmt_opt(x, 6);
+        if out {
+            v + "!"
+        } else {
+            v
+        }
+    };
     for row in &r.rows {
         let _ = writeln!(
             s,
             "{:>3}  {:>14}  {:>9}  {:>5}  {:>9.2e}  {:>14}  {:>9}",
             row.dimension,
-            fmt_opt(row.krylov, 6),
+            mark(row.krylov, row.krylov_outside_bound),
             fmt_opt(row.krylov_std_error, 6),
             row.kept
                 .map(|x| format!("{x}/{}", row.dimension))
                 .unwrap_or_else(|| "-".into()),
             row.threshold,
-            fmt_opt(row.pencil, 6),
+            mark(row.pencil, row.pencil_outside_bound),
             fmt_opt(row.pencil_std_error, 6),
         );
     }
@@ -229,8 +257,22 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
         "pencil: matrix pencil method on S_-(d-1)..S_(d-1) (Hua & Sarkar 1990), lowest mode with weight ≥ {}",
         estimate::overlap_only::MIN_WEIGHT
     );
-    for w in &r.warnings {
-        let _ = writeln!(s, "warning: {w}");
+    let _ = writeln!(
+        s,
+        "one-norm bound: every eigenvalue of H lies in [{:.6}, {:.6}] (c ± Σ|c_j|); `!` marks \
+         values outside it",
+        r.bound.0, r.bound.1
+    );
+    let _ = writeln!(
+        s,
+        "Gram matrix S (K×K): smallest eigenvalue {:.3e}, noise scale {:.3e}",
+        r.gram_min.0, r.gram_min.1
+    );
+    if let Some(m) = r.loss_method {
+        let _ = writeln!(s, "signal loss undone: {m}");
+    }
+    if !r.warnings.is_empty() {
+        let _ = writeln!(s, "{} warning(s) on stderr", r.warnings.len());
     }
     let _ = writeln!(
         s,
@@ -316,8 +358,11 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         "ρ_σ(E) = (2^n/2π) ∫ e^(−σ²t²/2) e^(iEt) tr U(t)/2^n dt, tr U/2^n estimated by averaging \
          ⟨ψ_s|U|ψ_s⟩ over random states (Hutchinson-type stochastic trace)"
     );
-    for w in &r.warnings {
-        let _ = writeln!(s, "warning: {w}");
+    if let Some(m) = r.loss_method {
+        let _ = writeln!(s, "signal loss undone: {m}");
+    }
+    if !r.warnings.is_empty() {
+        let _ = writeln!(s, "{} warning(s) on stderr", r.warnings.len());
     }
     let _ = writeln!(
         s,
@@ -365,7 +410,15 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
                 "kept": row.kept,
                 "pencil": row.pencil,
                 "pencil_std_error": row.pencil_std_error,
+                "krylov_outside_bound": row.krylov_outside_bound,
+                "pencil_outside_bound": row.pencil_outside_bound,
             })).collect::<Vec<_>>(),
+            "energy_bound": {"low": r.bound.0, "high": r.bound.1,
+                "rule": "c +- sum|c_j| (triangle inequality)"},
+            "gram_min_eigenvalue": r.gram_min.0,
+            "gram_noise_scale": r.gram_min.1,
+            "outside_bound": r.rows.iter().any(|x| x.krylov_outside_bound || x.pencil_outside_bound),
+            "signal_loss": r.loss_method,
             "exact": r.exact,
             "exact_source": r.exact_source,
             "overlaps": series_json(&r.overlaps),
@@ -385,6 +438,7 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
             "resolution_limit": r.resolution,
             "quadrature": "rectangle rule on t_k = k*dt, |k| <= K-1",
             "band": r.band_source,
+            "signal_loss": r.loss_method,
             "trace": series_json(&r.trace),
             "dos": (0..r.energies.len()).map(|i| json!({
                 "energy": r.energies[i],

@@ -109,6 +109,9 @@ pub struct GroupAncilla {
 /// with the circuit's outcomes (the measured one, or a bootstrap resample of it).
 pub struct ReadTable {
     circuits: Vec<CircuitReads>,
+    /// Per-circuit divisor of every parity mean (and its standard error): `1` unless a
+    /// signal-loss factor is undone (see [`ReadTable::undo_loss`]).
+    scale: Vec<f64>,
 }
 
 impl ReadTable {
@@ -154,7 +157,20 @@ impl ReadTable {
                     .collect(),
             })
             .collect();
-        ReadTable { circuits }
+        let scale = vec![1.0; plan.circuits.len()];
+        ReadTable { circuits, scale }
+    }
+
+    /// Divides every read of circuit `i` by `factors[i]` (its signal-loss factor, in `(0, 1]`).
+    /// Under a global depolarising channel `ρ → Fρ + (1 − F)I/2ⁿ` every parity of a non-empty
+    /// set of bits is multiplied by `F` (the maximally mixed state has zero parity), so
+    /// dividing by `F` undoes the loss exactly for that model, and the shot noise grows by
+    /// `1/F` with it.
+    pub fn undo_loss(mut self, factors: &[f64]) -> ReadTable {
+        for (s, f) in self.scale.iter_mut().zip(factors) {
+            *s = *f;
+        }
+        self
     }
 
     /// Evaluates every read on the given histograms (`weights[i]` aligned with circuit i's
@@ -162,10 +178,11 @@ impl ReadTable {
     pub fn evaluate(&self, weights: &[Vec<u64>]) -> BTreeMap<Quantity, Estimate> {
         // (Σ n m, Σ n, Σ n² se²)
         let mut acc: BTreeMap<Quantity, (f64, f64, f64)> = BTreeMap::new();
-        for (c, w) in self.circuits.iter().zip(weights) {
+        for ((c, w), f) in self.circuits.iter().zip(weights).zip(&self.scale) {
             for &(q, mask) in &c.reads {
                 let (m, n) = parity_expectation(&c.outcomes, w, mask);
-                let se = parity_std_error(m, n);
+                let se = parity_std_error(m, n) / f;
+                let m = m / f;
                 let nf = n as f64;
                 let e = acc.entry(q).or_insert((0.0, 0.0, 0.0));
                 e.0 += nf * m;
@@ -191,9 +208,10 @@ impl ReadTable {
         self.circuits
             .iter()
             .zip(weights)
-            .filter_map(|(c, w)| {
+            .zip(&self.scale)
+            .filter_map(|((c, w), f)| {
                 c.ancilla
-                    .map(|(a, mask)| (a, parity_expectation(&c.outcomes, w, mask).0))
+                    .map(|(a, mask)| (a, parity_expectation(&c.outcomes, w, mask).0 / f))
             })
             .collect()
     }

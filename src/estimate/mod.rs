@@ -29,6 +29,7 @@ pub mod expect;
 pub mod krylov;
 pub mod overlap_only;
 pub mod resample;
+pub mod sanity;
 
 use crate::family::plan::{Family, Plan};
 use crate::pauli::{Pauli, PauliSum};
@@ -63,6 +64,8 @@ pub struct Config {
     /// A trusted ground energy to show beside the estimates (overrides the automatic one).
     pub exact: Option<f64>,
     pub dos_points: usize,
+    /// Divide each circuit's reads by its calibrated success probability (`--undo-loss`).
+    pub undo_loss: bool,
 }
 
 impl Default for Config {
@@ -74,6 +77,7 @@ impl Default for Config {
             seed: 0,
             exact: None,
             dos_points: DEFAULT_DOS_POINTS,
+            undo_loss: false,
         }
     }
 }
@@ -100,6 +104,9 @@ pub struct EnergyRow {
     /// Matrix-pencil ground energy from `S_0..S_{d−1}` (constant included).
     pub pencil: Option<f64>,
     pub pencil_std_error: Option<f64>,
+    /// The Krylov / pencil energy lies outside the one-norm bound [`EnergyReport::bound`].
+    pub krylov_outside_bound: bool,
+    pub pencil_outside_bound: bool,
 }
 
 /// Result for `overlap` and `krylov` plans.
@@ -118,8 +125,20 @@ pub struct EnergyReport {
     pub exact_source: Option<&'static str>,
     pub bootstrap: usize,
     pub seed: u64,
+    /// `[c − Σ|c_j|, c + Σ|c_j|]`, where every eigenvalue of `H` lies ([`sanity::energy_bound`]).
+    pub bound: (f64, f64),
+    /// Smallest eigenvalue of the full `K×K` Gram matrix `S` and its noise scale
+    /// ([`sanity::gram_min_eigenvalue`]).
+    pub gram_min: (f64, f64),
+    /// How signal loss was undone, when it was.
+    pub loss_method: Option<&'static str>,
     pub warnings: Vec<String>,
 }
+
+/// Method sentence for `--undo-loss` with calibrated factors.
+pub const LOSS_CALIBRATED: &str = "each circuit's reads divided by its calibrated success \
+     probability Π(1 − error) from plan.json (exact for a global depolarising channel, which \
+     scales every parity by that factor; errors grow by the same factor)";
 
 /// Result for `trace` plans.
 #[derive(Clone, Debug, PartialEq)]
@@ -141,6 +160,8 @@ pub struct DosReport {
     /// Exact broadened spectrum when the plan is small enough to diagonalise.
     pub exact: Option<Vec<f64>>,
     pub band_source: &'static str,
+    /// How signal loss was undone, when it was.
+    pub loss_method: Option<&'static str>,
     pub warnings: Vec<String>,
 }
 
@@ -162,13 +183,135 @@ pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysi
             plan.formula.dt
         ));
     }
-    let table = ReadTable::new(plan, &counts.circuits);
+    let loss = if cfg.undo_loss {
+        Some(sanity::calibrated_loss(plan)?)
+    } else {
+        None
+    };
+    let table_of = |c: &CountsFile| {
+        let t = ReadTable::new(plan, &c.circuits);
+        match &loss {
+            Some(f) => t.undo_loss(f),
+            None => t,
+        }
+    };
+    let table = table_of(counts);
     let weights = ReadTable::weights_of(&counts.circuits);
-    match plan.family {
+    let mut a = match plan.family {
         Family::Overlap | Family::Krylov => {
             energies(plan, &table, &weights, cfg).map(Analysis::Energies)
         }
         Family::Trace => density(plan, &table, &weights, cfg).map(Analysis::Dos),
+    }?;
+    // Bit order: count the violated bounds under both readings of the bitstrings.
+    let given = implausibility(plan, &table, &weights, cfg);
+    if !given.is_empty() {
+        let rev = sanity::reversed(counts);
+        let other = implausibility(plan, &table_of(&rev), &weights_of_same(&rev), cfg);
+        if other.len() < given.len() {
+            let shown: Vec<&str> = given.iter().take(3).map(String::as_str).collect();
+            let w = format!(
+                "the counts fit the other bit order better: read with bit 0 {} they violate \
+                 {} bound{} that hold for any exact data ({}{}), read with bit 0 {} only {}; \
+                 if the file lists classical bit 0 {}, rerun with --bit-order {}",
+                order_words(counts.bit_order),
+                given.len(),
+                if given.len() == 1 { "" } else { "s" },
+                shown.join("; "),
+                if given.len() > 3 { "; …" } else { "" },
+                order_words(rev.bit_order),
+                other.len(),
+                order_words(rev.bit_order),
+                rev.bit_order.name()
+            );
+            match &mut a {
+                Analysis::Energies(r) => r.warnings.push(w),
+                Analysis::Dos(r) => r.warnings.push(w),
+            }
+        }
+    }
+    Ok(a)
+}
+
+fn weights_of_same(c: &CountsFile) -> Vec<Vec<u64>> {
+    ReadTable::weights_of(&c.circuits)
+}
+
+fn order_words(o: counts::BitOrder) -> &'static str {
+    match o {
+        counts::BitOrder::First => "leftmost",
+        counts::BitOrder::Last => "rightmost",
+    }
+}
+
+/// Bounds that the series read from `weights` violate beyond noise, and (energy plans) the
+/// point estimates at the default thresholds that fall outside the one-norm bound.
+fn implausibility(
+    plan: &Plan,
+    table: &ReadTable,
+    weights: &[Vec<u64>],
+    cfg: &Config,
+) -> Vec<String> {
+    match plan.family {
+        Family::Overlap | Family::Krylov => {
+            let Ok((s, h)) = energy_inputs(plan, table, weights) else {
+                return vec!["a series cannot be built".into()];
+            };
+            let h_full = h.as_ref().map(|(h, mu)| unshift(h, &s, *mu));
+            let mut v = sanity::series_violations(plan, &s, h_full.as_ref(), "ψ_0");
+            let eps = thresholds(&s, cfg.threshold);
+            let center = product_state_mean(plan, 0).unwrap_or(0.0);
+            let bound = sanity::energy_bound(plan);
+            let c = plan.hamiltonian.constant;
+            let pts = point_estimates_shifted(
+                &s,
+                h.as_ref().map(|(h, mu)| (h, *mu)),
+                plan.formula.dt,
+                &eps,
+                sample_noise(&s),
+                center,
+            );
+            for (d, (kr, pe)) in pts.iter().enumerate() {
+                if let Some(e) = kr
+                    .map(|r| r.energy + c)
+                    .filter(|&e| sanity::outside(e, bound))
+                {
+                    v.push(format!(
+                        "krylov d = {}: {e:.4} outside the one-norm bound",
+                        d + 1
+                    ));
+                }
+                if let Some(e) = pe.map(|e| e + c).filter(|&e| sanity::outside(e, bound)) {
+                    v.push(format!(
+                        "pencil d = {}: {e:.4} outside the one-norm bound",
+                        d + 1
+                    ));
+                }
+            }
+            v
+        }
+        Family::Trace => {
+            let q = table.evaluate(weights);
+            (0..plan.states.len())
+                .flat_map(|st| match expect::overlap_series(&q, st, plan.points) {
+                    Ok(s) => sanity::series_violations(plan, &s, None, &format!("ψ_{st}")),
+                    Err(_) => vec!["a series cannot be built".into()],
+                })
+                .collect()
+        }
+    }
+}
+
+/// `h_k` from the shifted series `h_k − μS_k`.
+fn unshift(h: &Series, s: &Series, mu: f64) -> Series {
+    Series {
+        values: h
+            .values
+            .iter()
+            .zip(&s.values)
+            .map(|(a, b)| a + b * mu)
+            .collect(),
+        std_errors: h.std_errors.clone(),
     }
 }
 
@@ -348,19 +491,53 @@ fn energies(
             .collect();
         robust_spread(&xs)
     };
-    let rows = point
+    let bound = sanity::energy_bound(plan);
+    let rows: Vec<EnergyRow> = point
         .iter()
         .enumerate()
-        .map(|(i, (kr, pe))| EnergyRow {
-            dimension: i + 1,
-            threshold: eps[i],
-            krylov: kr.map(|r| r.energy + c),
-            kept: kr.map(|r| r.kept),
-            krylov_std_error: kr.and_then(|_| spread(&|x| x.0, i)),
-            pencil: pe.map(|e| e + c),
-            pencil_std_error: pe.and_then(|_| spread(&|x| x.1, i)),
+        .map(|(i, (kr, pe))| {
+            let krylov = kr.map(|r| r.energy + c);
+            let pencil = pe.map(|e| e + c);
+            EnergyRow {
+                dimension: i + 1,
+                threshold: eps[i],
+                krylov,
+                kept: kr.map(|r| r.kept),
+                krylov_std_error: kr.and_then(|_| spread(&|x| x.0, i)),
+                pencil,
+                pencil_std_error: pe.and_then(|_| spread(&|x| x.1, i)),
+                krylov_outside_bound: krylov.is_some_and(|e| sanity::outside(e, bound)),
+                pencil_outside_bound: pencil.is_some_and(|e| sanity::outside(e, bound)),
+            }
         })
         .collect();
+    for (col, pick) in [
+        (
+            "krylov",
+            (|r: &EnergyRow| r.krylov_outside_bound) as fn(&EnergyRow) -> bool,
+        ),
+        ("pencil", |r: &EnergyRow| r.pencil_outside_bound),
+    ] {
+        let bad: Vec<String> = rows
+            .iter()
+            .filter(|r| pick(r))
+            .map(|r| r.dimension.to_string())
+            .collect();
+        if !bad.is_empty() {
+            warnings.push(format!(
+                "{col} energies at d = {} lie outside [{:.6}, {:.6}], the bound c ± Σ|c_j| \
+                 (|E − c| ≤ Σ|c_j| by the triangle inequality, ‖P_j‖ = 1) that every \
+                 eigenvalue of H obeys; those rows are marked `!` and are not energies of H",
+                bad.join(", "),
+                bound.0,
+                bound.1
+            ));
+        }
+    }
+    let gram_min = sanity::gram_min_eigenvalue(&s);
+    if let Some(w) = sanity::gram_warning(&s, "the reference state") {
+        warnings.push(w);
+    }
     let (exact, exact_source) = match cfg.exact {
         Some(e) => (Some(e), Some("--exact")),
         None => match small_hamiltonian(plan) {
@@ -372,15 +549,7 @@ fn energies(
         },
     };
     // Reported as an estimate of h_k itself: (h_k − μS_k) + μS_k.
-    let h_reported = h.map(|(h, mu)| Series {
-        values: h
-            .values
-            .iter()
-            .zip(&s.values)
-            .map(|(a, b)| a + b * mu)
-            .collect(),
-        std_errors: h.std_errors,
-    });
+    let h_reported = h.map(|(h, mu)| unshift(&h, &s, mu));
     Ok(EnergyReport {
         family: plan.family,
         kind,
@@ -393,6 +562,9 @@ fn energies(
         exact_source,
         bootstrap: cfg.bootstrap,
         seed: cfg.seed,
+        bound,
+        gram_min,
+        loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
         warnings,
     })
 }
@@ -497,6 +669,9 @@ fn density(
             .collect()
     });
     let mut warnings = Vec::new();
+    if let Some(w) = sanity::gram_warning(&trace, "the state-averaged trace series") {
+        warnings.push(w);
+    }
     let resolution = dos::resolution_limit(plan.points, dt);
     if sigma < resolution {
         warnings.push(format!(
@@ -524,6 +699,7 @@ fn density(
         quadrature_bound,
         exact,
         band_source,
+        loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
         warnings,
     })
 }
