@@ -162,7 +162,7 @@ fn a_device_too_small_or_split_is_bad_input() {
 fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
     let tmp = tempfile::tempdir().unwrap();
     let bad = tmp.path().join("hex.dev");
-    std::fs::write(&bad, "native rz sx x cx\nlattice heavyhex 7 14\n").unwrap();
+    std::fs::write(&bad, "native rz sx x cx\nlattice bridgedhex 7 14\n").unwrap();
     let r = Command::cargo_bin("phasewright")
         .unwrap()
         .args([
@@ -184,11 +184,11 @@ fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
     assert_eq!(r.status.code(), Some(2));
     let err = String::from_utf8_lossy(&r.stderr);
     assert!(
-        err.contains("hex.dev:2:20: heavy-hexagon rows have 4k + 3 qubits"),
+        err.contains("hex.dev:2:22: heavy-hexagon rows have 4k + 3 qubits"),
         "{err}"
     );
     assert!(
-        err.contains("2 | lattice heavyhex 7 14\n  |                    ^^"),
+        err.contains("2 | lattice bridgedhex 7 14\n  |                      ^^"),
         "{err}"
     );
     assert!(!tmp.path().join("o").exists());

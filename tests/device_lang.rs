@@ -108,7 +108,7 @@ fn the_heavy_hexagon_examples_parse_into_what_they_describe() {
 }
 
 #[test]
-fn heavyhex_lattices_of_several_sizes() {
+fn bridgedhex_lattices_of_several_sizes() {
     // (R, L) -> N = R·L − 2 + (R − 1)(L + 1)/4 qubits, E = R(L − 1) − 2 + (R − 1)(L + 1)/2
     // couplings (derivation in src/device/lattice.rs); the number of bridge qubits, each of
     // degree 2 and between rows, is (R − 1)(L + 1)/4.
@@ -121,7 +121,7 @@ fn heavyhex_lattices_of_several_sizes() {
         (6, 19),
         (9, 23),
     ] {
-        let src = format!("native rz sx x cx\nlattice heavyhex {rows} {len}\n");
+        let src = format!("native rz sx x cx\nlattice bridgedhex {rows} {len}\n");
         let d = parse_device("hh.dev", &src).unwrap();
         let b = (len + 1) / 4;
         let n = rows * len - 2 + (rows - 1) * b;
@@ -138,47 +138,47 @@ fn heavyhex_lattices_of_several_sizes() {
 }
 
 #[test]
-fn heavyhex_sizes_that_do_not_fit_are_diagnosed() {
+fn bridgedhex_sizes_that_do_not_fit_are_diagnosed() {
     // A row length that is not 4k + 3: caret under the length, nearest good lengths suggested.
-    let d = one_error("native rz sx x cx\nlattice heavyhex 7 14\n");
-    assert_eq!((d.line, d.column, d.width), (2, 20, 2));
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 7 14\n");
+    assert_eq!((d.line, d.column, d.width), (2, 22, 2));
     assert!(d.message.contains("4k + 3"), "{}", d.message);
     assert!(
         d.hint.as_deref().unwrap().contains("11 or 15"),
         "{:?}",
         d.hint
     );
-    let d = one_error("native rz sx x cx\nlattice heavyhex 3 2\n");
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 3 2\n");
     assert!(
         d.hint.as_deref().unwrap().starts_with("try 3;"),
         "{:?}",
         d.hint
     );
     // One row: caret under the row count.
-    let d = one_error("native rz sx x cx\nlattice heavyhex 1 15\n");
-    assert_eq!((d.line, d.column, d.width), (2, 18, 1));
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 1 15\n");
+    assert_eq!((d.line, d.column, d.width), (2, 20, 1));
     assert!(d.message.contains("at least 2 rows"), "{}", d.message);
     // Arity.
-    let d = one_error("native rz sx x cx\nlattice heavyhex 7\n");
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 7\n");
     assert!(
-        d.message.contains("`heavyhex` takes 2 sizes"),
+        d.message.contains("`bridgedhex` takes 2 sizes"),
         "{}",
         d.message
     );
-    assert!(d.hint.as_deref().unwrap().contains("heavyhex R L"));
+    assert!(d.hint.as_deref().unwrap().contains("bridgedhex R L"));
     // Too many qubits for phasewright: 40 rows of 55 are 2744 qubits.
-    let d = one_error("native rz sx x cx\nlattice heavyhex 40 55\n");
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 40 55\n");
     assert!(d.message.contains("2744-qubit lattice"), "{}", d.message);
     // More than the device declares.
-    let d = one_error("qubits 100\nnative rz sx x cx\nlattice heavyhex 7 15\n");
+    let d = one_error("qubits 100\nnative rz sx x cx\nlattice bridgedhex 7 15\n");
     assert!(
         d.message.contains("127 qubits but the device declares 100"),
         "{}",
         d.message
     );
     // Huge numbers never overflow.
-    let d = one_error("native rz sx x cx\nlattice heavyhex 4294967295 4294967295\n");
-    assert_eq!(d.column, 18, "{}", d.message);
+    let d = one_error("native rz sx x cx\nlattice bridgedhex 4294967295 4294967295\n");
+    assert_eq!(d.column, 20, "{}", d.message);
 }
 
 #[test]
@@ -377,7 +377,7 @@ mod fuzz {
         "line",
         "ring",
         "brickwall",
-        "heavyhex",
+        "bridgedhex",
         "octagon",
         "full",
         "rz",

@@ -624,7 +624,7 @@ const DEV_WORDS: &[&str] = &[
     "ring",
     "grid",
     "brickwall",
-    "heavyhex",
+    "bridgedhex",
     "octagon",
     "full",
     "rz",

@@ -86,7 +86,7 @@ const DEV: &[&str] = &[
     "line ",
     "ring ",
     "brickwall ",
-    "heavyhex ",
+    "bridgedhex ",
     "octagon ",
     "full ",
     "3 ",

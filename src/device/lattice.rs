@@ -13,7 +13,7 @@
 //!   neighbours;
 //! - `brickwall R C`: every row is a line; rows `r` and `r+1` are joined at the columns `c` with
 //!   `c + r` even, so every inner qubit has degree 3 (the brick-wall or "hexagonal-like" lattice);
-//! - `heavyhex R L`: the heavy-hexagon lattice (a hexagonal lattice with one extra qubit on every
+//! - `bridgedhex R L`: the heavy-hexagon lattice (a hexagonal lattice with one extra qubit on every
 //!   edge; Chamberland, Zhu, Yoder, Hertzberg & Cross, "Topological and subsystem codes on
 //!   low-degree graphs with flag qubits", Phys. Rev. X 10, 011022 (2020)), drawn as `R` long
 //!   rows of `L` qubits joined by *bridge* qubits (see below);
@@ -21,7 +21,7 @@
 //!   octagons (see below);
 //! - `full N`: every pair.
 //!
-//! ## `heavyhex R L`
+//! ## `bridgedhex R L`
 //!
 //! `R ≥ 2` long rows, each a line of `L = 4m + 3` column positions (`L` = 3, 7, 11, 15, …).
 //! Rows `g` and `g+1` are joined through the *gap* `g`: `b = (L + 1)/4` bridge qubits, each
@@ -39,8 +39,8 @@
 //!
 //! Counts: `N = R·L − 2 + (R − 1)·b` qubits and `E = R·(L − 1) − 2 + 2·(R − 1)·b` couplings
 //! (each row of `ℓ` qubits is a line of `ℓ − 1` couplings, two rows are one qubit short, and every
-//! bridge has two couplings). `heavyhex 7 15` gives 127 qubits and 144 couplings;
-//! `heavyhex 13 27` gives 433 qubits and 504 couplings.
+//! bridge has two couplings). `bridgedhex 7 15` gives 127 qubits and 144 couplings;
+//! `bridgedhex 13 27` gives 433 qubits and 504 couplings.
 //!
 //! ## `octagon R C`
 //!
@@ -72,7 +72,7 @@ pub const KINDS: &[(&str, &str)] = &[
     ("ring", "N"),
     ("grid", "R C"),
     ("brickwall", "R C"),
-    ("heavyhex", "R L"),
+    ("bridgedhex", "R L"),
     ("octagon", "R C"),
     ("full", "N"),
 ];
@@ -119,7 +119,7 @@ pub enum Lattice {
     Full(u32),
     Grid { rows: u32, cols: u32 },
     Brickwall { rows: u32, cols: u32 },
-    HeavyHex(HeavyHex),
+    BridgedHex(BridgedHex),
     Octagon { rows: u32, cols: u32 },
 }
 
@@ -140,7 +140,9 @@ impl Lattice {
             ("full", &[n]) => Lattice::Full(n),
             ("grid", &[rows, cols]) => Lattice::Grid { rows, cols },
             ("brickwall", &[rows, cols]) => Lattice::Brickwall { rows, cols },
-            ("heavyhex", &[rows, row_len]) => Lattice::HeavyHex(HeavyHex::new(rows, row_len)?),
+            ("bridgedhex", &[rows, row_len]) => {
+                Lattice::BridgedHex(BridgedHex::new(rows, row_len)?)
+            }
             ("octagon", &[rows, cols]) => Lattice::Octagon { rows, cols },
             _ => return Err(ShapeError::UnknownKind),
         })
@@ -152,7 +154,7 @@ impl Lattice {
         match *self {
             Lattice::Line(n) | Lattice::Ring(n) | Lattice::Full(n) => n as u64,
             Lattice::Grid { rows, cols } | Lattice::Brickwall { rows, cols } => prod(rows, cols),
-            Lattice::HeavyHex(h) => h.qubits(),
+            Lattice::BridgedHex(h) => h.qubits(),
             Lattice::Octagon { rows, cols } => prod(rows, cols).saturating_mul(4),
         }
     }
@@ -166,7 +168,7 @@ impl Lattice {
             Lattice::Full(n) => full(n),
             Lattice::Grid { rows, cols } => grid(rows, cols),
             Lattice::Brickwall { rows, cols } => brickwall(rows, cols),
-            Lattice::HeavyHex(h) => h.links(),
+            Lattice::BridgedHex(h) => h.links(),
             Lattice::Octagon { rows, cols } => octagon(rows, cols),
         }
     }
@@ -243,17 +245,17 @@ pub fn octagon(rows: u32, cols: u32) -> Vec<Link> {
 }
 
 /// A heavy-hexagon layout: `rows ≥ 2` long rows of `row_len = 4m + 3` column positions
-/// (numbering and counts in the module docs). Built only through [`HeavyHex::new`], so every
+/// (numbering and counts in the module docs). Built only through [`BridgedHex::new`], so every
 /// value describes a well-formed layout.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct HeavyHex {
+pub struct BridgedHex {
     rows: u32,
     row_len: u32,
 }
 
-impl HeavyHex {
+impl BridgedHex {
     /// Checks the shape: at least two rows, rows of `4m + 3` qubits, at most `u32::MAX` qubits.
-    pub fn new(rows: u32, row_len: u32) -> Result<HeavyHex, ShapeError> {
+    pub fn new(rows: u32, row_len: u32) -> Result<BridgedHex, ShapeError> {
         if rows < 2 {
             return Err(ShapeError::Size {
                 index: 0,
@@ -275,12 +277,12 @@ impl HeavyHex {
                     "heavy-hexagon rows have 4k + 3 qubits (3, 7, 11, 15, …), not {row_len}"
                 ),
                 hint: format!(
-                    "try {nearest}; `lattice heavyhex 7 15` gives 127 qubits, \
-                     `lattice heavyhex 13 27` gives 433"
+                    "try {nearest}; `lattice bridgedhex 7 15` gives 127 qubits, \
+                     `lattice bridgedhex 13 27` gives 433"
                 ),
             });
         }
-        let h = HeavyHex { rows, row_len };
+        let h = BridgedHex { rows, row_len };
         if h.qubits() > u32::MAX as u64 {
             return Err(ShapeError::Size {
                 index: 0,
@@ -469,8 +471,8 @@ mod tests {
     ///   and the drawing has `m` hexagonal cells between consecutive bridges of each of the
     ///   `R − 1` gaps (Chamberland et al., Phys. Rev. X 10, 011022 (2020), Fig. 1: every cell
     ///   is a hexagon with one qubit on each edge, 12 qubits around).
-    fn check_heavyhex(rows: u32, row_len: u32) {
-        let h = HeavyHex::new(rows, row_len).unwrap();
+    fn check_bridgedhex(rows: u32, row_len: u32) {
+        let h = BridgedHex::new(rows, row_len).unwrap();
         let (r, l) = (rows as u64, row_len as u64);
         let (m, b) = ((l - 3) / 4, (l + 1) / 4);
         let n = r * l - 2 + (r - 1) * b;
@@ -504,29 +506,29 @@ mod tests {
     }
 
     #[test]
-    fn heavyhex_counts_degrees_and_cells_match_the_hand_derivation() {
+    fn bridgedhex_counts_degrees_and_cells_match_the_hand_derivation() {
         for rows in 2..=9 {
             for row_len in [3, 7, 11, 15, 19, 27] {
-                check_heavyhex(rows, row_len);
+                check_bridgedhex(rows, row_len);
             }
         }
     }
 
     #[test]
-    fn heavyhex_127_and_433() {
+    fn bridgedhex_127_and_433() {
         // 7 rows of 15: 7·15 − 2 + 6·4 = 127 qubits, 7·14 − 2 + 2·6·4 = 144 couplings.
-        let h = HeavyHex::new(7, 15).unwrap();
+        let h = BridgedHex::new(7, 15).unwrap();
         assert_eq!((h.qubits(), h.links().len()), (127, 144));
         // 13 rows of 27: 13·27 − 2 + 12·7 = 433 qubits, 13·26 − 2 + 2·12·7 = 504 couplings.
-        let h = HeavyHex::new(13, 27).unwrap();
+        let h = BridgedHex::new(13, 27).unwrap();
         assert_eq!((h.qubits(), h.links().len()), (433, 504));
-        check_heavyhex(7, 15);
-        check_heavyhex(13, 27);
+        check_bridgedhex(7, 15);
+        check_bridgedhex(13, 27);
     }
 
     #[test]
-    fn heavyhex_numbering_follows_the_module_docs() {
-        let h = HeavyHex::new(7, 15).unwrap();
+    fn bridgedhex_numbering_follows_the_module_docs() {
+        let h = BridgedHex::new(7, 15).unwrap();
         // Row 0 is 0–13, bridges 14–17 under columns 0, 4, 8, 12; row 1 starts at 18.
         assert_eq!(h.row_qubit(0, 0), Some(0));
         assert_eq!(h.row_qubit(0, 13), Some(13));
@@ -553,15 +555,15 @@ mod tests {
             assert!(links.binary_search(&l).is_ok(), "{l:?}");
         }
         // With R even the last row lacks its last column instead.
-        let h = HeavyHex::new(2, 7).unwrap();
+        let h = BridgedHex::new(2, 7).unwrap();
         assert_eq!(h.row_qubit(1, 6), None);
         assert_eq!(h.row_qubit(1, 0), Some(8));
         assert_eq!(h.qubits(), 14);
     }
 
     #[test]
-    fn heavyhex_shapes_that_are_not_defined_are_refused() {
-        let size_index = |r, l| match HeavyHex::new(r, l) {
+    fn bridgedhex_shapes_that_are_not_defined_are_refused() {
+        let size_index = |r, l| match BridgedHex::new(r, l) {
             Err(ShapeError::Size { index, .. }) => Some(index),
             _ => None,
         };
@@ -573,7 +575,7 @@ mod tests {
         assert_eq!(size_index(u32::MAX, u32::MAX - 1), Some(1));
         assert_eq!(size_index(u32::MAX, u32::MAX), Some(0));
         assert_eq!(size_index(u32::MAX, 4_000_000_003), Some(0));
-        assert!(HeavyHex::new(2, 3).is_ok());
+        assert!(BridgedHex::new(2, 3).is_ok());
     }
 
     /// Square-octagon lattice of `R × C` squares. Hand derivation: `4·R·C` qubits; 4 couplings
@@ -613,7 +615,7 @@ mod tests {
             ("full", vec![6]),
             ("grid", vec![3, 4]),
             ("brickwall", vec![3, 4]),
-            ("heavyhex", vec![3, 7]),
+            ("bridgedhex", vec![3, 7]),
             ("octagon", vec![2, 3]),
         ] {
             let lat = Lattice::new(kind, &sizes).unwrap();

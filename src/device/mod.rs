@@ -300,7 +300,7 @@ mod tests {
     fn hop_distances_agree_with_petgraph_dijkstra() {
         // Reference: petgraph's Dijkstra with unit weights, on a heavy hexagon with a bridge
         // cut loose (so there are two components and some unreachable pairs).
-        let h = lattice::HeavyHex::new(3, 7).unwrap();
+        let h = lattice::BridgedHex::new(3, 7).unwrap();
         let mut links = h.links();
         let bridge = h.bridges(1).next().unwrap();
         links.retain(|&(a, b)| a != bridge && b != bridge);

@@ -140,7 +140,7 @@ fn statement(i: &str) -> Res<'_, Stmt<'_>> {
                 keyword("lattice"),
                 cut(pair(
                     arg(
-                        "a lattice kind (line, ring, grid, brickwall, heavyhex, octagon, full)",
+                        "a lattice kind (line, ring, grid, brickwall, bridgedhex, octagon, full)",
                         ident,
                     ),
                     context("a lattice size", many1(preceded(space1, digit1))),
