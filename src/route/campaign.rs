@@ -433,3 +433,76 @@ fn assemble(
     crate::circuit::cancel::cancel_inverses(&mut out);
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::device::{lattice, Calibration, NativeSet};
+    use crate::formula::Order;
+    use crate::pauli::{Pauli, PauliString, PauliSum};
+    use crate::route::{plan_and_route_step, routing_error, step_circuit};
+
+    fn model() -> PauliSum {
+        let s = |f: &[(usize, Pauli)]| PauliString::from_factors(f).1;
+        let mut h = PauliSum::new(4);
+        h.add(s(&[(0, Pauli::X), (2, Pauli::X)]), 0.7);
+        h.add(s(&[(1, Pauli::Z), (3, Pauli::Z)]), -0.4);
+        h.add(s(&[(0, Pauli::Y), (1, Pauli::Z), (3, Pauli::X)]), 0.3);
+        h.add(s(&[(2, Pauli::Z)]), 0.5);
+        h.add(s(&[(0, Pauli::Z), (3, Pauli::Y)]), 0.2);
+        h
+    }
+
+    #[test]
+    fn campaign_circuits_are_the_steps_repeated_phase_included_and_print_as_written() {
+        // r steps of the campaign (no prefix or suffix) against the logical step circuit
+        // repeated r times, by simulation with the layouts applied, global phase included
+        // (`routing_error`); on both assembly paths, for every order; and the emitted text is
+        // byte for byte `qasm::write` of the same circuit.
+        let h = model();
+        for native in [
+            &["rz", "sx", "x", "cx"][..],
+            &["rz", "rx", "ry", "cz"],
+            &["U", "cx"],
+        ] {
+            let dev = Device::new(
+                "grid",
+                9,
+                &lattice::grid(3, 3),
+                NativeSet::from_names(native).unwrap(),
+                Calibration::default(),
+            );
+            for order in [Order::First, Order::Second, Order::Fourth] {
+                for stitch_min_gates in [usize::MAX, 0] {
+                    let cfg = RouteConfig {
+                        stitch_min_gates,
+                        stitch_window: 3,
+                        ..RouteConfig::default()
+                    };
+                    let (plan, step) = plan_and_route_step(&h, &dev, &cfg, order, 0.4).unwrap();
+                    let one = step_circuit(&plan.terms(&h), &plan, order, 0.4);
+                    let camp = DeviceCampaign::new(step, &plan, &dev, &cfg).unwrap();
+                    assert_eq!(camp.stitched.is_some(), stitch_min_gates == 0);
+                    let mut logical = Circuit::new(5, 0);
+                    for r in 1..=4 {
+                        logical.extend(one.gates.iter().copied());
+                        let routed = camp.circuit(&[], r, &[], 0).unwrap();
+                        let err = routing_error(&logical, &routed).unwrap();
+                        assert!(
+                            err < 1e-9,
+                            "{order:?} r={r} stitched={}: {err}",
+                            stitch_min_gates == 0
+                        );
+                        let comments = vec!["c".to_string()];
+                        let e = camp.emit(&[], r, &[], 0, &comments).unwrap();
+                        assert_eq!(
+                            e.text,
+                            write(&routed.circuit, Addressing::Physical, &comments)
+                        );
+                        assert_eq!(e.final_layout, routed.final_layout);
+                    }
+                }
+            }
+        }
+    }
+}
