@@ -101,11 +101,7 @@ fn check_written(dir: &Path, dev: &Device) {
         );
         // Bit 0 reads the ancilla (logical qubit 100) where the final layout puts it.
         let ancilla_site = e.final_layout[100];
-        assert!(prog
-            .circuit
-            .gates
-            .iter()
-            .any(|g| *g == Gate::Measure(ancilla_site, 0)));
+        assert!(prog.circuit.gates.contains(&Gate::Measure(ancilla_site, 0)));
     }
 }
 
