@@ -5,13 +5,15 @@
 //! tests and debug builds):
 //!
 //! 1. `formula::order_terms` + `formula::evolution`: the rotation program per time point;
-//! 2. `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`, clean-up by
-//!    `circuit::cancel`), logical qubits, ancilla last; on a device, `build_jobs_with_terms`
-//!    with the plan's term order (`TargetPlan::terms`, a reordering inside commuting groups
-//!    that leaves every formula exactly equal);
-//! 3. all-to-all target: `verify_ir`, done; device target: `route::plan_target` chose the
-//!    layout and the ladders before step 2, and `route::to_device` now inserts SWAPs, lowers to
-//!    the native gates, fuses one-qubit runs and cancels inverses (verified after each pass);
+//! 2. all-to-all target: `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`,
+//!    clean-up by `circuit::cancel`), logical qubits, ancilla last; `verify_ir`, done;
+//! 3. device target: `route::plan_and_route_step` chooses the layout, the term order inside
+//!    commuting groups (`TargetPlan::terms`, which leaves every formula exactly equal) and the
+//!    ladders, scoring candidates on one Trotter step of the campaign, and keeps the winner's
+//!    routing of that step; `family::frames` gives each circuit's preparation and readout, and
+//!    `route::to_device_with_step` routes them around `k·R` reused blocks of the step
+//!    (`route::reuse`), cancels at the junctions, lowers to the native gates, fuses one-qubit
+//!    runs and cancels inverses (verified after each pass);
 //! 4. `qasm::write` (logical `q[k]` on all-to-all, physical `$k` on a device).
 //!
 //! Nothing here does I/O; the command layer writes the files.
@@ -23,10 +25,10 @@ use crate::device::Device;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, build_jobs_with_terms, Spec};
+use crate::family::{build_jobs, frames, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
-use crate::route::{plan_target, to_device, RouteConfig};
+use crate::route::{plan_and_route_step, DeviceCampaign, RouteConfig};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -125,7 +127,10 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
 pub struct Compiled {
     pub plan: Plan,
     pub programs: Vec<String>,
-    /// The final circuits (for callers that want to simulate without re-reading the files).
+    /// The final circuits on the all-to-all target (for callers that want to simulate without
+    /// re-reading the files). Empty on a device: its circuits are built as text from shared
+    /// pieces (`route::campaign`), and at utility scale holding them as IR too would double the
+    /// memory (tens of gigabytes); read them back from `programs` with `qasm::read`.
     pub circuits: Vec<Circuit>,
 }
 
@@ -153,11 +158,55 @@ pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, Comp
     compile_for(h, source, spec, &Target::AllToAll)
 }
 
-/// One circuit after the target-specific passes.
+/// One circuit after the target-specific passes, with what the plan says about it.
 struct Finished {
-    circuit: Circuit,
+    id: String,
+    k: usize,
+    time: f64,
+    part: crate::family::plan::Part,
+    state: usize,
+    group: Option<usize>,
+    reads: Vec<crate::family::plan::Read>,
+    num_qubits: usize,
+    num_clbits: usize,
+    output: Output,
     costs: Costs,
     final_layout: Vec<u32>,
+}
+
+/// What a target hands to emission: the circuit (written here) or its finished text.
+enum Output {
+    Circuit(Circuit),
+    Text(String),
+}
+
+/// The leading comment lines of a circuit's program.
+fn header_comments(
+    id: &str,
+    part: crate::family::plan::Part,
+    k: usize,
+    time: f64,
+    device: Option<&DeviceInfo>,
+) -> Vec<String> {
+    let part = if part == crate::family::plan::Part::Re {
+        "real"
+    } else {
+        "imaginary"
+    };
+    let mut comments = vec![
+        format!(
+            "phasewright circuit {id}: {part} part of the Hadamard test at k = {k}, t = {time}"
+        ),
+        "bit 0 is the ancilla; see plan.json for what each bit reads".to_string(),
+    ];
+    if let Some(d) = device {
+        comments.push(format!(
+            "device {}: physical qubits, native gates {}",
+            d.name,
+            d.native.join(" ")
+        ));
+    }
+    comments
 }
 
 /// Runs the passes for any target.
@@ -180,108 +229,124 @@ pub fn compile_for(
             )));
         }
     }
-    let (jobs, device_info, addressing) = match target {
+    match target {
         Target::AllToAll => {
             let default_ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
-            (
-                build_jobs(h, spec, &default_ladder),
-                None,
-                Addressing::Logical,
-            )
+            let done = build_jobs(h, spec, &default_ladder)
+                .into_par_iter()
+                .map(|j| {
+                    verify_ir(&j.circuit, &Rules::default())?;
+                    Ok(Finished {
+                        costs: counts(&j.circuit).into(),
+                        id: j.id,
+                        k: j.k,
+                        time: j.time,
+                        part: j.part,
+                        state: j.state,
+                        group: j.group,
+                        reads: j.reads,
+                        num_qubits: j.circuit.num_qubits,
+                        num_clbits: j.circuit.num_clbits,
+                        output: Output::Circuit(j.circuit),
+                        final_layout: Vec::new(),
+                    })
+                })
+                .collect::<Result<Vec<_>, IrError>>()?;
+            Ok(finish(h, source, spec, done, None, Addressing::Logical))
         }
         Target::Device { device, config } => {
-            let tp = plan_target(h, true, device, config).map_err(CompileError::DoesNotFit)?;
-            let ladder = |r: &crate::formula::Rotation| tp.ladder(r);
+            // One step of length dt / R, routed once (while the layout is chosen) and reused by
+            // every circuit: time point k runs k·R blocks of it (`route::reuse`).
+            let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
+            let (tp, step) = plan_and_route_step(h, device, config, spec.order, step_dt)
+                .map_err(CompileError::DoesNotFit)?;
             let info = DeviceInfo {
                 name: device.name.clone(),
                 num_qubits: device.num_qubits,
                 native: device.native.names.clone(),
                 initial_layout: tp.initial_layout.clone(),
             };
-            let jobs = build_jobs_with_terms(h, spec, &tp.terms(h), &ladder);
-            return finish(
+            let campaign = DeviceCampaign::new(step, &tp, device, config)?;
+            let done = frames(h, spec)
+                .into_par_iter()
+                .map(|f| {
+                    let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
+                    let e = campaign.emit(
+                        &f.prefix,
+                        f.k * spec.steps_per_dt,
+                        &f.suffix,
+                        f.num_clbits,
+                        &comments,
+                    )?;
+                    Ok(Finished {
+                        id: f.id,
+                        k: f.k,
+                        time: f.time,
+                        part: f.part,
+                        state: f.state,
+                        group: f.group,
+                        reads: f.reads,
+                        num_qubits: device.num_qubits,
+                        num_clbits: f.num_clbits,
+                        output: Output::Text(e.text),
+                        costs: e.costs,
+                        final_layout: e.final_layout,
+                    })
+                })
+                .collect::<Result<Vec<_>, IrError>>()?;
+            Ok(finish(
                 h,
                 source,
                 spec,
-                jobs,
+                done,
                 Some(info),
                 Addressing::Physical,
-                |c| {
-                    let routed = to_device(c, &tp, device, config)?;
-                    let costs = crate::device::costs(&routed.circuit, device, routed.swaps);
-                    Ok(Finished {
-                        circuit: routed.circuit,
-                        costs,
-                        final_layout: routed.final_layout,
-                    })
-                },
-            );
+            ))
         }
-    };
-    finish(h, source, spec, jobs, device_info, addressing, |c| {
-        verify_ir(c, &Rules::default())?;
-        Ok(Finished {
-            circuit: c.clone(),
-            costs: counts(c).into(),
-            final_layout: Vec::new(),
-        })
-    })
+    }
 }
 
 fn finish(
     h: &PauliSum,
     source: &str,
     spec: &Spec,
-    jobs: Vec<crate::family::Job>,
+    mut done: Vec<Finished>,
     device: Option<DeviceInfo>,
     addressing: Addressing,
-    pass: impl Fn(&Circuit) -> Result<Finished, IrError> + Sync,
-) -> Result<Compiled, CompileError> {
-    let done: Vec<Finished> = jobs
-        .par_iter()
-        .map(|j| pass(&j.circuit))
-        .collect::<Result<_, _>>()?;
-    let mut entries = Vec::with_capacity(jobs.len());
-    let mut programs = Vec::with_capacity(jobs.len());
-    let mut circuits = Vec::with_capacity(jobs.len());
-    for (job, f) in jobs.into_iter().zip(done) {
-        let part = if job.part == crate::family::plan::Part::Re {
-            "real"
-        } else {
-            "imaginary"
-        };
-        let mut comments = vec![
-            format!(
-                "phasewright circuit {}: {part} part of the Hadamard test at k = {}, t = {}",
-                job.id, job.k, job.time
+) -> Compiled {
+    let programs: Vec<String> = done
+        .par_iter_mut()
+        .map(|f| match &mut f.output {
+            Output::Circuit(c) => write(
+                c,
+                addressing,
+                &header_comments(&f.id, f.part, f.k, f.time, device.as_ref()),
             ),
-            "bit 0 is the ancilla; see plan.json for what each bit reads".to_string(),
-        ];
-        if let Some(d) = &device {
-            comments.push(format!(
-                "device {}: physical qubits, native gates {}",
-                d.name,
-                d.native.join(" ")
-            ));
-        }
-        programs.push(write(&f.circuit, addressing, &comments));
+            Output::Text(t) => std::mem::take(t),
+        })
+        .collect();
+    let mut entries = Vec::with_capacity(done.len());
+    let mut circuits = Vec::with_capacity(done.len());
+    for f in done {
         entries.push(CircuitEntry {
-            file: format!("{}.qasm", job.id),
-            id: job.id,
-            k: job.k,
-            time: job.time,
-            part: job.part,
-            state: job.state,
-            group: job.group,
-            num_qubits: f.circuit.num_qubits,
-            num_clbits: f.circuit.num_clbits,
+            file: format!("{}.qasm", f.id),
+            id: f.id,
+            k: f.k,
+            time: f.time,
+            part: f.part,
+            state: f.state,
+            group: f.group,
+            num_qubits: f.num_qubits,
+            num_clbits: f.num_clbits,
             ancilla_bit: 0,
-            reads: job.reads,
+            reads: f.reads,
             costs: f.costs,
             final_layout: f.final_layout,
             sha256: None,
         });
-        circuits.push(f.circuit);
+        if let Output::Circuit(c) = f.output {
+            circuits.push(c);
+        }
     }
     let plan = Plan {
         format: PLAN_FORMAT.to_string(),
@@ -299,9 +364,9 @@ fn finish(
         device,
         circuits: entries,
     };
-    Ok(Compiled {
+    Compiled {
         plan,
         programs,
         circuits,
-    })
+    }
 }

@@ -14,7 +14,6 @@
 pub mod lattice;
 pub mod native;
 
-use crate::circuit::metrics::{counts, critical_path, success_probability};
 use crate::circuit::{Circuit, Gate};
 use crate::family::plan::Costs;
 use petgraph::graph::{NodeIndex, UnGraph};
@@ -255,14 +254,214 @@ fn all_pairs_hops(g: &UnGraph<(), ()>) -> Vec<u32> {
 /// `swaps` (inserted by routing; pass the number from [`crate::route::Routed`]), critical-path
 /// duration from the gate times, and `Π (1 − error)` over gates and readouts.
 pub fn costs(c: &Circuit, dev: &Device, swaps: usize) -> Costs {
-    let k = counts(c);
-    Costs {
-        depth: k.depth,
-        two_qubit: k.two_qubit,
-        one_qubit: k.one_qubit,
-        swaps,
-        duration_ns: Some(critical_path(c, |g| dev.gate_time_ns(g))),
-        success_probability: Some(success_probability(c, |g| dev.gate_error(g))),
+    let model = CostModel::new(dev);
+    let mut walk = model.walk(c.num_qubits);
+    walk.add(&c.gates);
+    walk.finish(swaps)
+}
+
+/// Every gate name the IR knows, in the order of [`gate_kind`].
+const KIND_NAMES: [&str; 16] = [
+    "h", "x", "y", "z", "s", "sdg", "sx", "sxdg", "rz", "rx", "ry", "U", "cx", "cz", "swap",
+    "measure",
+];
+
+/// Index of a gate's name in [`KIND_NAMES`].
+fn gate_kind(g: &Gate) -> usize {
+    match g {
+        Gate::H(_) => 0,
+        Gate::X(_) => 1,
+        Gate::Y(_) => 2,
+        Gate::Z(_) => 3,
+        Gate::S(_) => 4,
+        Gate::Sdg(_) => 5,
+        Gate::Sx(_) => 6,
+        Gate::Sxdg(_) => 7,
+        Gate::Rz(..) => 8,
+        Gate::Rx(..) => 9,
+        Gate::Ry(..) => 10,
+        Gate::U(..) => 11,
+        Gate::Cx(..) => 12,
+        Gate::Cz(..) => 13,
+        Gate::Swap(..) => 14,
+        Gate::Measure(..) => 15,
+    }
+}
+
+/// The calibration of a device as tables indexed by gate kind (overrides in hash maps), so that
+/// costing a circuit of 10⁸ gates does not look names up in ordered maps of strings. Gives
+/// exactly [`Device::gate_error`] and [`Device::gate_time_ns`].
+pub struct CostModel {
+    error: [f64; 16],
+    time_ns: [f64; 16],
+    link_error: std::collections::HashMap<(usize, u32, u32), f64>,
+    qubit_error: std::collections::HashMap<(usize, u32), f64>,
+    readout: f64,
+    qubit_readout: std::collections::HashMap<u32, f64>,
+}
+
+impl CostModel {
+    pub fn new(dev: &Device) -> CostModel {
+        let cal = &dev.calibration;
+        let kind_of = |name: &str| KIND_NAMES.iter().position(|&k| k == name);
+        let mut error = [0.0; 16];
+        let mut time_ns = [0.0; 16];
+        for (k, name) in KIND_NAMES.iter().enumerate() {
+            error[k] = cal.error_rate.get(*name).copied().unwrap_or(0.0);
+            time_ns[k] = cal.time_ns.get(*name).copied().unwrap_or(0.0);
+        }
+        CostModel {
+            error,
+            time_ns,
+            link_error: cal
+                .link_error_rate
+                .iter()
+                .filter_map(|((n, a, b), &e)| kind_of(n).map(|k| ((k, *a, *b), e)))
+                .collect(),
+            qubit_error: cal
+                .qubit_error_rate
+                .iter()
+                .filter_map(|((n, q), &e)| kind_of(n).map(|k| ((k, *q), e)))
+                .collect(),
+            readout: cal.readout_error_rate,
+            qubit_readout: cal
+                .qubit_readout_error_rate
+                .iter()
+                .map(|(&q, &e)| (q, e))
+                .collect(),
+        }
+    }
+
+    /// [`Device::gate_error`].
+    pub fn error(&self, g: &Gate) -> f64 {
+        let k = gate_kind(g);
+        match *g {
+            Gate::Measure(q, _) => self.qubit_readout.get(&q).copied().unwrap_or(self.readout),
+            Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => {
+                if self.link_error.is_empty() {
+                    return self.error[k];
+                }
+                let key = (k, a.min(b), a.max(b));
+                self.link_error.get(&key).copied().unwrap_or(self.error[k])
+            }
+            _ => {
+                if self.qubit_error.is_empty() {
+                    return self.error[k];
+                }
+                let q = g.qubits()[0];
+                self.qubit_error
+                    .get(&(k, q))
+                    .copied()
+                    .unwrap_or(self.error[k])
+            }
+        }
+    }
+
+    /// [`Device::gate_time_ns`].
+    pub fn time_ns(&self, g: &Gate) -> f64 {
+        self.time_ns[gate_kind(g)]
+    }
+
+    /// A running cost over `num_qubits` qubits, fed gate lists in program order.
+    pub fn walk(&self, num_qubits: usize) -> CostWalk<'_> {
+        CostWalk {
+            model: self,
+            depth: vec![0; num_qubits],
+            ready_ns: vec![0.0; num_qubits],
+            longest_depth: 0,
+            longest_ns: 0.0,
+            two_qubit: 0,
+            one_qubit: 0,
+            success: 1.0,
+        }
+    }
+}
+
+/// The costs of a circuit given in consecutive pieces: the same figures as [`costs`] on the
+/// concatenation (depth and duration are longest paths through per-qubit ready times; the
+/// success probability is multiplied piece by piece, so it may differ from [`costs`] in the
+/// last bits).
+pub struct CostWalk<'a> {
+    model: &'a CostModel,
+    depth: Vec<u32>,
+    ready_ns: Vec<f64>,
+    longest_depth: u32,
+    longest_ns: f64,
+    two_qubit: usize,
+    one_qubit: usize,
+    success: f64,
+}
+
+/// Gate counts and `Π (1 − error)` of a gate list: the parts of [`Costs`] that add up (and
+/// multiply) piece by piece, so a piece shared by many circuits is tallied once.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Tally {
+    pub two_qubit: usize,
+    pub one_qubit: usize,
+    pub success: f64,
+}
+
+impl CostModel {
+    /// The [`Tally`] of `gates`.
+    pub fn tally(&self, gates: &[Gate]) -> Tally {
+        let mut t = Tally {
+            two_qubit: 0,
+            one_qubit: 0,
+            success: 1.0,
+        };
+        for g in gates {
+            match g {
+                Gate::Measure(..) => {}
+                g if g.is_two_qubit() => t.two_qubit += 1,
+                _ => t.one_qubit += 1,
+            }
+            t.success *= 1.0 - self.error(g);
+        }
+        t
+    }
+}
+
+impl CostWalk<'_> {
+    /// Adds `gates`, counting and multiplying their errors as it goes.
+    pub fn add(&mut self, gates: &[Gate]) {
+        let t = self.model.tally(gates);
+        self.add_tallied(gates, &t);
+    }
+
+    /// Adds `gates` whose [`Tally`] is already known: only depth and duration are walked.
+    pub fn add_tallied(&mut self, gates: &[Gate], tally: &Tally) {
+        for g in gates {
+            let qs = g.qubits();
+            let d = 1 + qs
+                .iter()
+                .map(|&q| self.depth[q as usize])
+                .max()
+                .unwrap_or(0);
+            let t = self.model.time_ns(g)
+                + qs.iter()
+                    .map(|&q| self.ready_ns[q as usize])
+                    .fold(0.0, f64::max);
+            for &q in &qs {
+                self.depth[q as usize] = d;
+                self.ready_ns[q as usize] = t;
+            }
+            self.longest_depth = self.longest_depth.max(d);
+            self.longest_ns = self.longest_ns.max(t);
+        }
+        self.two_qubit += tally.two_qubit;
+        self.one_qubit += tally.one_qubit;
+        self.success *= tally.success;
+    }
+
+    pub fn finish(&self, swaps: usize) -> Costs {
+        Costs {
+            depth: self.longest_depth as usize,
+            two_qubit: self.two_qubit,
+            one_qubit: self.one_qubit,
+            swaps,
+            duration_ns: Some(self.longest_ns),
+            success_probability: Some(self.success),
+        }
     }
 }
 

@@ -139,11 +139,29 @@ pub fn hadamard_test(
     let anc = n as Qubit;
     let nbits = if basis.is_some() { n + 1 } else { 1 };
     let mut c = Circuit::new(n + 1, nbits);
-    c.extend(prep.iter().copied());
-    c.push(Gate::H(anc));
+    c.extend(hadamard_prefix(n, prep));
     for r in program {
         c.extend(crate::synth::pauli_rotation_along(r, Some(anc), &ladder(r)));
     }
+    c.extend(hadamard_suffix(n, part, basis));
+    cancel_inverses(&mut c);
+    c
+}
+
+/// The gates of a Hadamard test before the controlled evolution: the state preparation, then
+/// the ancilla (qubit `n`) to |+⟩.
+pub fn hadamard_prefix(n: usize, prep: &[Gate]) -> Vec<Gate> {
+    let mut out = prep.to_vec();
+    out.push(Gate::H(n as Qubit));
+    out
+}
+
+/// The gates of a Hadamard test after the controlled evolution: the ancilla basis for `part`,
+/// the measurement of the ancilla (bit 0) and, if `basis` is given, of its support qubits after
+/// rotating each to Z (system qubit q into bit q+1).
+pub fn hadamard_suffix(n: usize, part: Part, basis: Option<&PauliString>) -> Vec<Gate> {
+    let anc = n as Qubit;
+    let mut c = Vec::new();
     match part {
         Part::Re => c.push(Gate::H(anc)),
         Part::Im => c.extend([Gate::Sdg(anc), Gate::H(anc)]),
@@ -164,7 +182,6 @@ pub fn hadamard_test(
             }
         }
     }
-    cancel_inverses(&mut c);
     c
 }
 
@@ -185,15 +202,32 @@ pub fn build_jobs(
     build_jobs_with_terms(h, spec, &crate::formula::order_terms(h), ladder)
 }
 
-/// [`build_jobs`] with the product formulas over `terms`, a reordering of
-/// `formula::order_terms(h)` inside its commuting groups (e.g. `route::order_for_device`), so
-/// that every circuit computes exactly what `build_jobs` would.
-pub fn build_jobs_with_terms(
-    h: &PauliSum,
-    spec: &Spec,
-    terms: &[(PauliString, f64)],
-    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
-) -> Vec<Job> {
+/// One circuit of the campaign with its evolution not yet synthesised: what it is and reads,
+/// and the logical gates around the controlled `U(k·dt)` (see [`hadamard_prefix`] and
+/// [`hadamard_suffix`]). A target that builds the evolution its own way (a device reusing one
+/// routed Trotter step) starts from these.
+#[derive(Clone, Debug)]
+pub struct Frame {
+    pub id: String,
+    pub k: usize,
+    pub time: f64,
+    pub part: Part,
+    pub state: usize,
+    pub group: Option<usize>,
+    pub reads: Vec<Read>,
+    /// Qubits `0..n` system, `n` ancilla.
+    pub num_qubits: usize,
+    /// Bit 0 = ancilla; bit q+1 = system qubit q when the circuit reads a group of terms.
+    pub num_clbits: usize,
+    /// State preparation, ancilla to |+⟩.
+    pub prefix: Vec<Gate>,
+    /// Ancilla basis, measurement basis, measurements.
+    pub suffix: Vec<Gate>,
+}
+
+/// Every circuit of the campaign, in a fixed order (k, then state, then group, then part),
+/// without its evolution.
+pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
     use rayon::prelude::*;
     let n = h.num_qubits;
     let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
@@ -202,7 +236,7 @@ pub fn build_jobs_with_terms(
     } else {
         Vec::new()
     };
-    // Describe every circuit first (cheap), then synthesise them in parallel, keeping order.
+    // Describe every circuit first (cheap), then fill in the gates in parallel, keeping order.
     struct Desc {
         id: String,
         k: usize,
@@ -243,18 +277,11 @@ pub fn build_jobs_with_terms(
             }
         }
     }
-    // One rotation program per time point, shared by every circuit at that point.
-    let programs: Vec<Vec<Rotation>> = (0..spec.points)
-        .into_par_iter()
-        .map(|k| evolution(terms, spec.order, k as f64 * spec.dt, k * spec.steps_per_dt))
-        .collect();
     descs
         .into_par_iter()
         .map(|d| {
             let prep =
                 state_prep(&spec.states[d.state]).expect("states are validated before building");
-            let time = d.k as f64 * spec.dt;
-            let program = &programs[d.k];
             let (basis, reads) = match d.group {
                 None => (
                     None,
@@ -280,15 +307,57 @@ pub fn build_jobs_with_terms(
                     (Some(basis), reads)
                 }
             };
-            let circuit = hadamard_test(n, &prep, program, d.part, basis.as_ref(), ladder);
-            Job {
+            Frame {
                 id: d.id,
                 k: d.k,
-                time,
+                time: d.k as f64 * spec.dt,
                 part: d.part,
                 state: d.state,
                 group: d.group,
                 reads,
+                num_qubits: n + 1,
+                num_clbits: if basis.is_some() { n + 1 } else { 1 },
+                prefix: hadamard_prefix(n, &prep),
+                suffix: hadamard_suffix(n, d.part, basis.as_ref()),
+            }
+        })
+        .collect()
+}
+
+/// [`build_jobs`] with the product formulas over `terms`, a reordering of
+/// `formula::order_terms(h)` inside its commuting groups (e.g. `route::order_for_device`), so
+/// that every circuit computes exactly what `build_jobs` would.
+pub fn build_jobs_with_terms(
+    h: &PauliSum,
+    spec: &Spec,
+    terms: &[(PauliString, f64)],
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+) -> Vec<Job> {
+    use rayon::prelude::*;
+    let anc = h.num_qubits as Qubit;
+    // One rotation program per time point, shared by every circuit at that point.
+    let programs: Vec<Vec<Rotation>> = (0..spec.points)
+        .into_par_iter()
+        .map(|k| evolution(terms, spec.order, k as f64 * spec.dt, k * spec.steps_per_dt))
+        .collect();
+    frames(h, spec)
+        .into_par_iter()
+        .map(|f| {
+            let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+            circuit.extend(f.prefix);
+            for r in &programs[f.k] {
+                circuit.extend(crate::synth::pauli_rotation_along(r, Some(anc), &ladder(r)));
+            }
+            circuit.extend(f.suffix);
+            cancel_inverses(&mut circuit);
+            Job {
+                id: f.id,
+                k: f.k,
+                time: f.time,
+                part: f.part,
+                state: f.state,
+                group: f.group,
+                reads: f.reads,
                 circuit,
             }
         })

@@ -7,11 +7,13 @@
 //! 1. [`translate_two_qubit`]: `swap` becomes three CNOTs (oriented to cancel against a
 //!    neighbouring CNOT on the same pair when there is one); `cx` and `cz` are translated into
 //!    each other with Hadamards on the target (`cx = (I⊗H)·cz·(I⊗H)`);
-//! 2. [`fuse_single_qubit`]: every maximal run of one-qubit gates on a qubit becomes one 2×2
-//!    matrix, written back in the native basis by [`euler::decompose`] (identities vanish, their
-//!    phase goes to `global_phase`);
-//! 3. [`crate::circuit::cancel::cancel_inverses`]: adjacent inverse pairs (`cx cx`, `cz cz`)
-//!    vanish; the runs they separated are fused again, until nothing changes.
+//! 2. [`fuse_and_cancel`], one sweep: every maximal run of one-qubit gates on a qubit becomes
+//!    one 2×2 matrix, written back in the native basis by [`euler::decompose`] (identities
+//!    vanish, their phase goes to `global_phase`); adjacent inverse pairs (`cx cx`, `cz cz`)
+//!    vanish when the runs between them are phases, and the runs they separated fuse again in
+//!    the same sweep ([`fuse_single_qubit`] is the fusion alone);
+//! 3. [`crate::circuit::cancel::cancel_inverses`] as a check that nothing is left: if it still
+//!    removes gates, step 2 runs again.
 //!
 //! Invariant kept: `unitary(out) = unitary(in)` exactly (to rounding); measurements stay where
 //! they were relative to the gates on their qubit.
@@ -138,11 +140,125 @@ pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
     c.global_phase = euler::wrap(c.global_phase + phase);
 }
 
-/// The whole lowering: translation, then fusion and cancellation until a fixed point.
+/// Fusion and cancellation in one pass: every maximal run of one-qubit gates becomes one native
+/// sequence, and adjacent inverse two-qubit gates (`cx cx` on the same ordered pair, `cz cz` or
+/// `swap swap` on the same pair) vanish when the runs between them on both qubits multiply to a
+/// phase. Each qubit keeps a stack of the live gates that touch it; when a pair cancels, the
+/// native gates of the runs it separated are taken back off the stacks into the pending run, so
+/// that they fuse with what follows and the cascade (`h cz h · h cz h` → nothing) completes in
+/// the same sweep. Exact: the unitary, global phase included, is kept to rounding.
+///
+/// This replaces iterating [`fuse_single_qubit`] and `cancel_inverses` to a fixed point, which
+/// on a lowered step of 4.7 million gates needed ~35 sweeps that each removed a few dozen gates
+/// (32 s instead of ~1 s).
+pub fn fuse_and_cancel(c: &mut Circuit, basis: OneQubitBasis) {
+    let n = c.num_qubits;
+    let gates = std::mem::take(&mut c.gates);
+    let mut live: Vec<Option<Gate>> = Vec::with_capacity(gates.len());
+    let mut stacks: Vec<Vec<u32>> = vec![Vec::new(); n];
+    let mut pending: Vec<Option<Mat2>> = vec![None; n];
+    let mut phase = 0.0;
+    let push = |g: Gate, live: &mut Vec<Option<Gate>>, stacks: &mut Vec<Vec<u32>>| {
+        for q in g.qubits() {
+            stacks[q as usize].push(live.len() as u32);
+        }
+        live.push(Some(g));
+    };
+    // The pending run of `q` as native gates and their phase (nothing pending: no gates).
+    let decompose_pending = |q: Qubit, pending: &Vec<Option<Mat2>>| -> (Vec<Gate>, f64) {
+        match &pending[q as usize] {
+            Some(m) => euler::decompose(m, q, basis),
+            None => (Vec::new(), 0.0),
+        }
+    };
+    // Takes the one-qubit gates on top of `q`'s stack back into its pending run.
+    let unflush = |q: Qubit,
+                   live: &mut Vec<Option<Gate>>,
+                   stacks: &mut Vec<Vec<u32>>,
+                   pending: &mut Vec<Option<Mat2>>| {
+        let mut run: Option<Mat2> = None;
+        while let Some(&i) = stacks[q as usize].last() {
+            let Some(m) = live[i as usize].and_then(|g| g.matrix1()) else {
+                break;
+            };
+            live[i as usize] = None;
+            stacks[q as usize].pop();
+            // Gates come off latest first: the run is (latest ⋯ earliest).
+            run = Some(match run {
+                Some(r) => mat2_mul(&r, &m),
+                None => m,
+            });
+        }
+        pending[q as usize] = run;
+    };
+    for g in gates {
+        if let Some(m) = g.matrix1() {
+            let q = g.qubits()[0] as usize;
+            pending[q] = Some(match &pending[q] {
+                Some(p) => mat2_mul(&m, p),
+                None => m,
+            });
+            continue;
+        }
+        let qs = g.qubits();
+        if g.is_two_qubit() {
+            let (a, b) = (qs[0], qs[1]);
+            let top = match (stacks[a as usize].last(), stacks[b as usize].last()) {
+                (Some(&i), Some(&j)) if i == j => live[i as usize],
+                _ => None,
+            };
+            let inverse_pair = top.is_some_and(|p| {
+                p.name() == g.name()
+                    && (p.qubits() == qs || matches!(g, Gate::Cz(..) | Gate::Swap(..)))
+                    && p.inverse() == Some(p)
+            });
+            let (ga, pa) = decompose_pending(a, &pending);
+            let (gb, pb) = decompose_pending(b, &pending);
+            pending[a as usize] = None;
+            pending[b as usize] = None;
+            if inverse_pair && ga.is_empty() && gb.is_empty() {
+                let i = *stacks[a as usize].last().expect("checked above");
+                live[i as usize] = None;
+                stacks[a as usize].pop();
+                stacks[b as usize].pop();
+                phase += pa + pb;
+                unflush(a, &mut live, &mut stacks, &mut pending);
+                unflush(b, &mut live, &mut stacks, &mut pending);
+                continue;
+            }
+            phase += pa + pb;
+            for h in ga.into_iter().chain(gb) {
+                push(h, &mut live, &mut stacks);
+            }
+        } else {
+            for &q in &qs {
+                let (gs, a) = decompose_pending(q, &pending);
+                pending[q as usize] = None;
+                phase += a;
+                for h in gs {
+                    push(h, &mut live, &mut stacks);
+                }
+            }
+        }
+        push(g, &mut live, &mut stacks);
+    }
+    for q in 0..n as Qubit {
+        let (gs, a) = decompose_pending(q, &pending);
+        phase += a;
+        for h in gs {
+            push(h, &mut live, &mut stacks);
+        }
+    }
+    c.gates = live.into_iter().flatten().collect();
+    c.global_phase = euler::wrap(c.global_phase + phase);
+}
+
+/// The whole lowering: translation, then fusion and cancellation ([`fuse_and_cancel`]; a
+/// second sweep runs only if a peephole pass still finds work, which the tests never see).
 pub fn lower_to_native(c: &Circuit, native: &NativeSet) -> Circuit {
     let mut out = translate_two_qubit(c, native.two_qubit);
     loop {
-        fuse_single_qubit(&mut out, native.one_qubit);
+        fuse_and_cancel(&mut out, native.one_qubit);
         let before = out.gates.len();
         cancel_inverses(&mut out);
         if out.gates.len() == before {

@@ -51,10 +51,6 @@ pub fn write_to(
     for line in comments {
         writeln!(w, "// {line}")?;
     }
-    let q = |w: &mut dyn std::io::Write, k: u32| match addressing {
-        Addressing::Logical => write!(w, "q[{k}]"),
-        Addressing::Physical => write!(w, "${k}"),
-    };
     if addressing == Addressing::Logical {
         writeln!(w, "qubit[{}] q;", c.num_qubits)?;
     }
@@ -64,7 +60,21 @@ pub fn write_to(
     if c.global_phase != 0.0 {
         writeln!(w, "gphase({:?});", c.global_phase)?;
     }
-    for g in &c.gates {
+    write_gates_to(w, &c.gates, addressing)
+}
+
+/// The gate lines of [`write_to`] alone (one statement per gate, measurements included), for
+/// callers that assemble a program from pieces written once.
+pub fn write_gates_to(
+    w: &mut impl std::io::Write,
+    gates: &[Gate],
+    addressing: Addressing,
+) -> std::io::Result<()> {
+    let q = |w: &mut dyn std::io::Write, k: u32| match addressing {
+        Addressing::Logical => write!(w, "q[{k}]"),
+        Addressing::Physical => write!(w, "${k}"),
+    };
+    for g in gates {
         if let Gate::Measure(qb, bit) = *g {
             write!(w, "c[{bit}] = measure ")?;
             q(w, qb)?;

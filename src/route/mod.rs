@@ -27,21 +27,25 @@
 //! logical circuit's result placed by `final_layout`, global phase included ([`check`] verifies
 //! this by simulation); measured bits read the physical qubit that holds the measured qubit.
 
+pub mod campaign;
 pub mod check;
 pub mod layout;
 pub mod order;
+pub mod reuse;
 pub mod swap;
 
 use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::verify::{verify_ir, IrError, Rules};
-use crate::circuit::{Circuit, Gate, Qubit};
+use crate::circuit::{Circuit, Qubit};
 use crate::device::{Device, UNREACHABLE};
-use crate::formula::{order_terms, step, Order, Rotation};
+use crate::formula::{order_terms, step, term_groups, Order, Rotation};
 use crate::lower::lower_to_native;
 use crate::pauli::{PauliString, PauliSum};
 use crate::synth::{default_ladder, pauli_rotation_along};
+pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
 pub use order::{device_order, order_for_device, DeviceOrder};
+pub use reuse::RoutedStep;
 use swap::{insert_swaps, reversed, SwapParams};
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
@@ -66,6 +70,11 @@ pub struct RouteConfig {
     /// Reorder the terms inside each commuting group so the ancilla walks a short path, and
     /// root each ladder where the walk meets it ([`order`]); off: the default order and roots.
     pub device_order: bool,
+    /// Steps of at least this many gates are lowered once and stitched at the junctions
+    /// ([`campaign`]); smaller ones are lowered whole per circuit.
+    pub stitch_min_gates: usize,
+    /// Gates at each end of a lowered block that are lowered again with their neighbour.
+    pub stitch_window: usize,
 }
 
 impl Default for RouteConfig {
@@ -82,6 +91,8 @@ impl Default for RouteConfig {
             decay_step: 0.001,
             decay_reset: 5,
             device_order: true,
+            stitch_min_gates: campaign::STITCH_MIN_GATES,
+            stitch_window: campaign::STITCH_WINDOW,
         }
     }
 }
@@ -278,31 +289,110 @@ pub struct Routed {
     pub swaps: usize,
 }
 
-/// One Strang step of the campaign's rotations, controlled by the ancilla if any: the circuit
-/// layout candidates are scored on.
-fn skeleton(h: &PauliSum, plan: &TargetPlan) -> Circuit {
+/// The logical circuit of one step of `order` and length `dt` over `terms`, each rotation
+/// along the plan's ladder and controlled by the ancilla if any, after peephole cancellation:
+/// what layout candidates are scored on, and what [`reuse::route_step`] routes.
+pub fn step_circuit(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+) -> Circuit {
     let n = plan.initial_layout.len();
-    let rotations = step(&plan.terms(h), Order::Second, 1.0);
     let mut c = Circuit::new(n, 0);
-    if let Some(a) = plan.ancilla {
-        c.push(Gate::H(a));
-    }
-    for r in &rotations {
+    for r in &step(terms, order, dt) {
         c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
     }
     cancel_inverses(&mut c);
     c
 }
 
-/// Picks the initial layout and ladder plan for `h` (plus the ancilla if `ancilla`) on `dev`.
-/// Errors are user-facing: the device is too small, or its coupling graph is split into parts
-/// none of which is large enough.
+/// Work allowed to the layout search, in routed two-qubit gates plus inserted SWAPs summed over
+/// every skeleton routing (a routing costs about that many units; ~0.1 µs each on the
+/// benchmark machine). Below it the full search runs; above it [`SEARCH_LEVELS`] step down.
+pub const PLAN_BUDGET: usize = 4_000_000;
+
+/// How much of the layout search runs: layout candidates, ancilla SWAP factors, term orders and
+/// refinement rounds.
+#[derive(Clone, Copy, Debug)]
+struct Search {
+    trials: usize,
+    factors: &'static [f64],
+    choices: &'static [OrderChoice],
+    rounds: usize,
+}
+
+impl Search {
+    fn routings(&self) -> usize {
+        self.trials * self.factors.len() * self.choices.len() * (2 * self.rounds + 1)
+    }
+}
+
+/// The search levels tried from the top (the configured one) down, the first whose routings fit
+/// [`PLAN_BUDGET`] winning; deterministic, since it depends only on the first routing's size.
+/// The first level is `RouteConfig`'s own; the others keep the device order with the walk's
+/// roots (best on most pairs of `benches/routing.rs`) and the default order as a fallback, the
+/// ancilla factor 0.9, and fewer candidates and rounds.
+const SEARCH_LEVELS: [(usize, &[f64], &[OrderChoice], usize); 4] = [
+    (
+        4,
+        &ANCILLA_SWAP_FACTORS,
+        &[OrderChoice::Walk, OrderChoice::Default],
+        1,
+    ),
+    (2, &[0.9], &[OrderChoice::Walk, OrderChoice::Default], 1),
+    (1, &[0.9], &[OrderChoice::Walk], 1),
+    (1, &[0.9], &[OrderChoice::Walk], 0),
+];
+
+/// Picks the initial layout and ladder plan for `h` (plus the ancilla if `ancilla`) on `dev`,
+/// scoring candidates on one Strang step. Errors are user-facing: the device is too small, or
+/// its coupling graph is split into parts none of which is large enough.
 pub fn plan_target(
     h: &PauliSum,
     ancilla: bool,
     dev: &Device,
     cfg: &RouteConfig,
 ) -> Result<TargetPlan, String> {
+    Ok(plan_on_step(h, ancilla, dev, cfg, Order::Second, 1.0)?.0)
+}
+
+/// [`plan_target`] scoring on the campaign's own step (`order`, length `dt`) and returning the
+/// winner's routing of it, ready for reuse ([`reuse::route_step`] builds the same from scratch).
+pub fn plan_and_route_step(
+    h: &PauliSum,
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> Result<(TargetPlan, RoutedStep), String> {
+    let (plan, fwd, sk) = plan_on_step(h, true, dev, cfg, order, dt)?;
+    let params = plan_swap_params(&plan, cfg);
+    let step = match fwd {
+        Some(fwd) => reuse::step_from_routing(fwd, &plan, dev, order != Order::First),
+        None => reuse::route_step(&sk, &plan, dev, &params, order != Order::First),
+    };
+    Ok((plan, step))
+}
+
+/// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
+fn plan_swap_params(plan: &TargetPlan, cfg: &RouteConfig) -> SwapParams {
+    let mut params = cfg.swap_params();
+    params.hub = plan.ancilla;
+    params.hub_factor = plan.ancilla_swap_factor;
+    params
+}
+
+type Planned = (TargetPlan, Option<swap::SwapOutcome>, Circuit);
+
+fn plan_on_step(
+    h: &PauliSum,
+    ancilla: bool,
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> Result<Planned, String> {
     let n_sys = h.num_qubits;
     let n = n_sys + ancilla as usize;
     let with_anc = if ancilla {
@@ -317,7 +407,8 @@ pub fn plan_target(
         ));
     }
     if n == 0 {
-        return TargetPlan::with_layout(0, false, dev, Vec::new());
+        let plan = TargetPlan::with_layout(0, false, dev, Vec::new())?;
+        return Ok((plan, None, Circuit::new(0, 0)));
     }
     let comps = dev.components();
     let comp = match comps.first() {
@@ -332,8 +423,9 @@ pub fn plan_target(
         }
     };
     let w = layout::interaction_weights(h, ancilla);
-    let mut candidates: Vec<Vec<u32>> = Vec::new();
-    for t in 0..cfg.layout_trials.max(1) {
+    let groups = term_groups(h);
+    let default_terms: Vec<(PauliString, f64)> = groups.concat();
+    let candidate = |t: usize| -> Vec<u32> {
         let trial_seed = cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64);
         let mut l = if t == 0 {
             layout::greedy_layout(&w, n, &comp, dev, ancilla)
@@ -341,60 +433,123 @@ pub fn plan_target(
             layout::random_layout(n, &comp, trial_seed)
         };
         layout::anneal(&w, &mut l, &comp, dev, trial_seed);
+        l
+    };
+    let mut params = cfg.swap_params();
+    params.hub = ancilla.then_some(n_sys as u32);
+    let full = Search {
+        trials: cfg.layout_trials.max(1),
+        factors: if ancilla {
+            &ANCILLA_SWAP_FACTORS
+        } else {
+            &[1.0]
+        },
+        choices: if cfg.device_order && ancilla {
+            &ORDER_CHOICES
+        } else {
+            &[OrderChoice::Default]
+        },
+        rounds: cfg.refine_rounds,
+    };
+    // The device order depends only on the layout: computed once per layout tried.
+    let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
+    let mut evaluate = |l: &[u32], factor: f64, choice: OrderChoice, params: &mut SwapParams| {
+        let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
+        let terms = if choice != OrderChoice::Default {
+            let mut o = orders
+                .entry(l.to_vec())
+                .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
+                .clone();
+            if choice == OrderChoice::WalkNearestRoots {
+                o.roots.clear();
+            }
+            let terms = o.terms.clone();
+            plan.order = Some(o);
+            terms
+        } else {
+            default_terms.clone()
+        };
+        plan.ancilla_swap_factor = factor;
+        params.hub_factor = factor;
+        let sk = step_circuit(&terms, &plan, order, dt);
+        let fwd = insert_swaps(&sk, l, dev, params);
+        Ok::<_, String>((plan, sk, fwd))
+    };
+    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| (fwd.swaps, layout::layout_cost(&w, l, dev));
+    let mut best: Option<((usize, f64), Planned)> = None;
+    let mut consider =
+        |key: (usize, f64), plan: TargetPlan, fwd: &swap::SwapOutcome, sk: &Circuit| {
+            let better = best
+                .as_ref()
+                .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
+            if better {
+                best = Some((key, (plan, Some(fwd.clone()), sk.clone())));
+            }
+        };
+    // The first routing of the full search measures the work of one routing.
+    let first_layout = candidate(0);
+    let (plan0, sk0, fwd0) =
+        evaluate(&first_layout, full.factors[0], full.choices[0], &mut params)?;
+    let unit = sk0.gates.iter().filter(|g| g.is_two_qubit()).count() + fwd0.swaps;
+    let allowed = (PLAN_BUDGET / unit.max(1)).max(1);
+    let search = std::iter::once(full)
+        .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
+            trials: t.min(full.trials),
+            factors: if ancilla { f } else { &[1.0] },
+            choices: if cfg.device_order && ancilla {
+                c
+            } else {
+                &[OrderChoice::Default]
+            },
+            rounds: r.min(full.rounds),
+        }))
+        .find(|s| s.routings() <= allowed)
+        .unwrap_or(Search {
+            trials: 1,
+            factors: if ancilla { &[0.9] } else { &[1.0] },
+            choices: full.choices[..1].as_ref(),
+            rounds: 0,
+        });
+    let mut candidates: Vec<Vec<u32>> = vec![first_layout.clone()];
+    for t in 1..search.trials {
+        let l = candidate(t);
         if !candidates.contains(&l) {
             candidates.push(l);
         }
     }
-    let mut params = cfg.swap_params();
-    params.hub = ancilla.then_some(n_sys as u32);
-    let factors: &[f64] = if ancilla {
-        &ANCILLA_SWAP_FACTORS
-    } else {
-        &[1.0]
-    };
-    let choices: &[OrderChoice] = if cfg.device_order && ancilla {
-        &ORDER_CHOICES
-    } else {
-        &[OrderChoice::Default]
-    };
-    // The device order depends only on the layout: computed once per layout tried.
-    let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
-    let mut best: Option<((usize, f64), TargetPlan)> = None;
-    for (&factor, &choice) in factors
+    let mut first = Some((plan0, sk0, fwd0));
+    for (&factor, &choice) in search
+        .factors
         .iter()
-        .flat_map(|f| choices.iter().map(move |c| (f, c)))
+        .flat_map(|f| search.choices.iter().map(move |c| (f, c)))
     {
-        params.hub_factor = factor;
         for start in &candidates {
             let mut l = start.clone();
-            for round in 0..=cfg.refine_rounds {
-                let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.clone())?;
-                if choice != OrderChoice::Default {
-                    let mut o = orders
-                        .entry(l.clone())
-                        .or_insert_with(|| device_order(h, &plan, dev))
-                        .clone();
-                    if choice == OrderChoice::WalkNearestRoots {
-                        o.roots.clear();
+            for round in 0..=search.rounds {
+                let reuse_first = round == 0
+                    && *start == first_layout
+                    && factor == full.factors[0]
+                    && choice == full.choices[0];
+                let (plan, sk, fwd) = match (reuse_first, first.take()) {
+                    (true, Some(f)) => f,
+                    (_, f) => {
+                        first = f;
+                        params.hub_factor = factor;
+                        evaluate(&l, factor, choice, &mut params)?
                     }
-                    plan.order = Some(o);
-                }
-                plan.ancilla_swap_factor = factor;
-                let sk = skeleton(h, &plan);
-                let fwd = insert_swaps(&sk, &l, dev, &params);
-                let key = (fwd.swaps, layout::layout_cost(&w, &l, dev));
-                let better = best
-                    .as_ref()
-                    .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
-                if better {
-                    best = Some((key, plan));
-                }
-                if round == cfg.refine_rounds {
+                };
+                consider(key_of(&fwd, &l), plan, &fwd, &sk);
+                if round == search.rounds {
                     break;
                 }
+                params.hub_factor = factor;
                 l = insert_swaps(&reversed(&sk), &fwd.final_layout, dev, &params).final_layout;
             }
         }
+    }
+    if let Some((plan, sk, fwd)) = first {
+        // The measuring routing was not part of the chosen search: it still competes.
+        consider(key_of(&fwd, &first_layout), plan, &fwd, &sk);
     }
     Ok(best.expect("at least one candidate").1)
 }

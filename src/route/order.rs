@@ -22,8 +22,15 @@
 //!
 //! Distances are hop distances between initial sites. Routing moves qubits, so this is a model
 //! of the walk, not its exact length; `route::plan_target` scores layouts on circuits built from
-//! this order and `benches/routing.rs` measures the effect. Cost: `O(m² w)` per group of `m`
-//! terms of weight `w` for the tour, `O(m³)` per 2-opt sweep on small groups.
+//! this order and `benches/routing.rs` measures the effect.
+//!
+//! Cost. The nearest-neighbour tour walks the device outwards from the current site, ring by
+//! ring, over per-site lists of the terms with support there, so a group of `m` terms of weight
+//! `w` costs `O(m·(w + V))` on `V` sites instead of the `O(m² w)` of comparing every remaining
+//! term (the choice is the same). 2-opt costs `O(m³)` walk steps per sweep and runs only on
+//! groups of at most [`TWO_OPT_MAX`] terms, under a total budget of [`TWO_OPT_BUDGET`] walk
+//! steps per order: a Hamiltonian of 10⁵ terms in many small groups would otherwise spend
+//! minutes there. Both bounds are deterministic.
 
 use super::TargetPlan;
 use crate::circuit::Qubit;
@@ -34,6 +41,10 @@ use std::collections::BTreeMap;
 
 /// Groups larger than this get the nearest-neighbour tour only (no 2-opt).
 pub const TWO_OPT_MAX: usize = 64;
+
+/// Term visits (one per term of each walk evaluated) that 2-opt may spend over all groups of
+/// one order; past it the remaining groups keep their nearest-neighbour tours.
+pub const TWO_OPT_BUDGET: usize = 20_000_000;
 
 /// The term order and the root of each term's ladder (logical qubit, one of its support).
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -73,22 +84,83 @@ fn walk(tour: &[usize], supports: &[Vec<(u32, Qubit)>], start: u32, dev: &Device
     (length, pos)
 }
 
+/// Sites of the device by hop distance from each site (ties by site number): the rings the
+/// nearest-neighbour search walks outwards.
+struct Rings {
+    n: usize,
+    by_distance: Vec<u32>,
+}
+
+impl Rings {
+    fn new(dev: &Device) -> Rings {
+        let n = dev.num_qubits;
+        let mut by_distance = Vec::with_capacity(n * n);
+        for p in 0..n as u32 {
+            let mut row: Vec<u32> = (0..n as u32).collect();
+            row.sort_by_key(|&q| (dev.distance(p, q), q));
+            by_distance.extend(row);
+        }
+        Rings { n, by_distance }
+    }
+
+    fn from(&self, p: u32) -> &[u32] {
+        &self.by_distance[p as usize * self.n..(p as usize + 1) * self.n]
+    }
+}
+
 /// Nearest-neighbour tour over one group from site `start` (ties to the earlier term), or the
-/// group's own order if that walks shorter, then 2-opt reversals while they shorten the walk.
-fn group_tour(supports: &[Vec<(u32, Qubit)>], start: u32, dev: &Device) -> Vec<usize> {
+/// group's own order if that walks shorter, then 2-opt reversals while they shorten the walk,
+/// for groups of at most [`TWO_OPT_MAX`] terms and while `budget` (term visits) lasts.
+///
+/// The nearest term is found by walking the sites outwards from the current position, ring by
+/// ring, and looking up which unused terms have support there (per-site lists, ascending, with
+/// used terms skipped lazily): the same choice as comparing every remaining term, without the
+/// `O(m²)` scan over a group of `m` terms.
+fn group_tour(
+    supports: &[Vec<(u32, Qubit)>],
+    start: u32,
+    dev: &Device,
+    rings: &Rings,
+    budget: &mut usize,
+) -> Vec<usize> {
     let m = supports.len();
-    let mut left: Vec<usize> = (0..m).collect();
+    let mut at_site: Vec<Vec<u32>> = vec![Vec::new(); dev.num_qubits];
+    for (t, s) in supports.iter().enumerate() {
+        for &(site, _) in s {
+            if at_site[site as usize].last() != Some(&(t as u32)) {
+                at_site[site as usize].push(t as u32);
+            }
+        }
+    }
+    let mut cursor = vec![0usize; dev.num_qubits];
+    let mut used = vec![false; m];
     let mut tour = Vec::with_capacity(m);
     let mut pos = start;
-    while !left.is_empty() {
-        let (k, (_, _, site)) = left
-            .iter()
-            .enumerate()
-            .map(|(k, &t)| (k, nearest(pos, &supports[t], dev)))
-            .min_by_key(|&(k, (d, _, _))| (d, k))
-            .expect("non-empty");
-        tour.push(left.remove(k));
-        pos = site;
+    while tour.len() < m {
+        let ring = rings.from(pos);
+        let mut best: Option<u32> = None;
+        let mut best_d = u32::MAX;
+        for &site in ring {
+            let d = dev.distance(pos, site);
+            if d > best_d {
+                break;
+            }
+            let list = &at_site[site as usize];
+            let c = &mut cursor[site as usize];
+            while *c < list.len() && used[list[*c] as usize] {
+                *c += 1;
+            }
+            if let Some(&t) = list.get(*c) {
+                if best.is_none_or(|b| t < b) {
+                    best = Some(t);
+                    best_d = d;
+                }
+            }
+        }
+        let t = best.expect("an unused term has a support site") as usize;
+        used[t] = true;
+        tour.push(t);
+        pos = nearest(pos, &supports[t], dev).2;
     }
     let own: Vec<usize> = (0..m).collect();
     let mut best = walk(&tour, supports, start, dev).0;
@@ -98,10 +170,14 @@ fn group_tour(supports: &[Vec<(u32, Qubit)>], start: u32, dev: &Device) -> Vec<u
         best = own_length;
     }
     if m <= TWO_OPT_MAX {
-        loop {
+        'sweeps: loop {
             let mut improved = false;
             for i in 0..m {
                 for j in i + 1..m {
+                    if *budget < m {
+                        break 'sweeps;
+                    }
+                    *budget -= m;
                     tour[i..=j].reverse();
                     let length = walk(&tour, supports, start, dev).0;
                     if length < best {
@@ -154,13 +230,24 @@ pub fn ancilla_walk(
 /// `formula::order_terms(h)` under the same model (that order is kept when it does not).
 /// Deterministic.
 pub fn device_order(h: &PauliSum, plan: &TargetPlan, dev: &Device) -> DeviceOrder {
+    device_order_in(&term_groups(h), plan, dev)
+}
+
+/// [`device_order`] over the commuting groups of [`term_groups`], computed once by the caller.
+pub fn device_order_in(
+    groups: &[Vec<(PauliString, f64)>],
+    plan: &TargetPlan,
+    dev: &Device,
+) -> DeviceOrder {
     let layout = &plan.initial_layout;
     let mut pos = start_site(plan);
-    let mut terms = Vec::with_capacity(h.terms.len());
-    let groups = term_groups(h);
-    for group in &groups {
+    let total: usize = groups.iter().map(|g| g.len()).sum();
+    let mut terms = Vec::with_capacity(total);
+    let rings = Rings::new(dev);
+    let mut budget = TWO_OPT_BUDGET;
+    for group in groups {
         let supports: Vec<Vec<(u32, Qubit)>> = group.iter().map(|t| sites(&t.0, layout)).collect();
-        for t in group_tour(&supports, pos, dev) {
+        for t in group_tour(&supports, pos, dev, &rings, &mut budget) {
             pos = nearest(pos, &supports[t], dev).2;
             terms.push(group[t].clone());
         }
