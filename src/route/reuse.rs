@@ -46,10 +46,14 @@
 //! Cost: one routing of one step per campaign (the layout search's own routing of it is kept,
 //! see `route::plan_and_route_step`), plus the SWAPs back after a routed state preparation.
 
-use super::swap::{insert_swaps, Adjacency, SwapOutcome, SwapParams};
+use super::swap::{insert_swaps, insert_swaps_cut, Adjacency, Mark, SwapOutcome, SwapParams};
 use super::TargetPlan;
+use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
+use crate::formula::{step, Order, Rotation};
+use crate::pauli::PauliString;
+use crate::synth::pauli_rotation_along;
 
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
@@ -200,21 +204,132 @@ pub fn permutation_swaps(from: &[u32], to: &[u32], dev: &Device) -> Vec<(u32, u3
     swaps
 }
 
-/// A routed step and how its blocks alternate (see the module essay).
+/// The logical circuit of one step (controlled rotations along the plan's ladders, each part
+/// cancelled on its own) and where it splits for reuse.
+#[derive(Clone, Debug)]
+pub struct StepParts {
+    /// The whole step.
+    pub circuit: Circuit,
+    /// Empty, or two indices into `circuit.gates`: the end of the leading edge and the start of
+    /// the trailing one (see the module essay).
+    pub cuts: Vec<usize>,
+    /// With cuts: the first group at twice the edge's angle (both edges of a seam merged).
+    pub merged_edge: Option<Circuit>,
+}
+
+fn controlled(rotations: &[Rotation], plan: &TargetPlan) -> Circuit {
+    let mut c = Circuit::new(plan.initial_layout.len(), 0);
+    for r in rotations {
+        c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
+    }
+    cancel_inverses(&mut c);
+    c
+}
+
+/// The first `plan.edge_terms` terms (a commuting group, the first of the order) with each
+/// coefficient times `factor`: one edge of a symmetric step.
+fn edge(terms: &[(PauliString, f64)], factor: f64) -> Vec<Rotation> {
+    terms
+        .iter()
+        .map(|(p, c)| Rotation {
+            pauli: p.clone(),
+            theta: c * factor,
+        })
+        .collect()
+}
+
+/// One step of `order` and length `dt` over `terms` as [`StepParts`]. For a symmetric order and
+/// a plan whose `edge_terms` names a first commuting group `G` short of all the terms, the step
+/// is written `E · M · E'`: order 2, `E = G(δ/2)` and `M = S₂` over the other terms; order 4,
+/// `E = G(pδ/2)` and `M = K(p) G(2p) K(p) G(1−3p) K(1−4p) G(1−3p) K(p) G(2p) K(p)` with
+/// `K(x) = S₂(xδ)` over the other terms and `G(x)` the group at `xδ/2` (the Suzuki product
+/// `S₂(pδ)² S₂((1−4p)δ) S₂(pδ)²` with the group's halves that meet merged, which is exact since
+/// they commute); `E'` is `E` reversed. Otherwise one part, `formula::step`.
+pub fn step_parts(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+) -> StepParts {
+    let e = plan.edge_terms;
+    if order == Order::First || e == 0 || e >= terms.len() {
+        return StepParts {
+            circuit: controlled(&step(terms, order, dt), plan),
+            cuts: Vec::new(),
+            merged_edge: None,
+        };
+    }
+    let (group, rest) = terms.split_at(e);
+    let (lead, middle, merged) = match order {
+        Order::Second => (
+            edge(group, dt / 2.0),
+            step(rest, Order::Second, dt),
+            edge(group, dt),
+        ),
+        _ => {
+            let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
+            let k = |x: f64| step(rest, Order::Second, x * dt);
+            let g = |x: f64| edge(group, x * dt / 2.0);
+            let middle = [
+                k(p),
+                g(2.0 * p),
+                k(p),
+                g(1.0 - 3.0 * p),
+                k(1.0 - 4.0 * p),
+                g(1.0 - 3.0 * p),
+                k(p),
+                g(2.0 * p),
+                k(p),
+            ]
+            .concat();
+            (g(p), middle, g(2.0 * p))
+        }
+    };
+    let mut trail = lead.clone();
+    trail.reverse();
+    let parts = [
+        controlled(&lead, plan),
+        controlled(&middle, plan),
+        controlled(&trail, plan),
+    ];
+    let a = parts[0].gates.len();
+    let b = a + parts[1].gates.len();
+    let mut circuit = Circuit::new(plan.initial_layout.len(), 0);
+    for part in parts {
+        circuit.extend(part.gates);
+    }
+    StepParts {
+        circuit,
+        cuts: vec![a, b],
+        merged_edge: Some(controlled(&merged, plan)),
+    }
+}
+
+/// A routed step, cut into the pieces a circuit of `r` steps is made of (see the module essay):
+/// `head · core₀ · join₀₁ · core₁ · join₁₀ · core₀ · … · core_b · tail_b`, with `core_b` the
+/// core of the last step. All physical (`dev.num_qubits` qubits), `swap` gates kept, not
+/// lowered; unused pieces are empty.
 #[derive(Clone, Debug)]
 pub struct RoutedStep {
-    /// `C : start → end`, physical qubits, `swap` gates kept, not lowered.
-    pub forward: Circuit,
-    /// Symmetric formulas: `mirror(C) : end → start`; order 1: `P·C : end → end`.
-    pub back: Circuit,
+    /// Layout before the first step.
     pub start: Vec<u32>,
-    pub end: Vec<u32>,
+    /// Before the first core.
+    pub head: Circuit,
+    /// `cores[0]` implements the first step's core, `cores[1]` each later one in turn.
+    pub cores: [Circuit; 2],
+    /// `joins[a][b]`: between `cores[a]` and `cores[b]`.
+    pub joins: [[Circuit; 2]; 2],
+    /// `tails[b]`: after the last core when it is `cores[b]`.
+    pub tails: [Circuit; 2],
+    /// `ends[b]`: the layout after `tails[b]`.
+    pub ends: [Vec<u32>; 2],
+    /// Mirror alternation (orders 2, 4) rather than SWAPs home (order 1).
     pub symmetric: bool,
 }
 
 impl RoutedStep {
-    /// Which block implements step `i` (counting from 0): 0 for `forward`, 1 for `back`.
-    pub fn block_index(&self, i: usize) -> usize {
+    /// Which core implements step `i` (counting from 0).
+    pub fn core_index(&self, i: usize) -> usize {
         if i == 0 || (self.symmetric && i.is_multiple_of(2)) {
             0
         } else {
@@ -222,64 +337,146 @@ impl RoutedStep {
         }
     }
 
-    /// The block that implements step `i` (counting from 0).
-    pub fn block(&self, i: usize) -> &Circuit {
-        if self.block_index(i) == 0 {
-            &self.forward
+    /// The layout after `steps` steps.
+    pub fn layout_after(&self, steps: usize) -> &[u32] {
+        if steps == 0 {
+            &self.start
         } else {
-            &self.back
+            &self.ends[self.core_index(steps - 1)]
         }
     }
 
-    /// The layout after `steps` blocks.
-    pub fn layout_after(&self, steps: usize) -> &[u32] {
-        if steps == 0 || (self.symmetric && steps.is_multiple_of(2)) {
-            &self.start
-        } else {
-            &self.end
+    /// The unlowered pieces of `steps` steps, in order (none for zero steps).
+    pub fn pieces(&self, steps: usize) -> Vec<&Circuit> {
+        let mut out = Vec::new();
+        if steps == 0 {
+            return out;
         }
+        out.push(&self.head);
+        for i in 0..steps {
+            let b = self.core_index(i);
+            out.push(&self.cores[b]);
+            if i + 1 < steps {
+                out.push(&self.joins[b][self.core_index(i + 1)]);
+            } else {
+                out.push(&self.tails[b]);
+            }
+        }
+        out
     }
 }
 
-/// Routes the logical step `step` (qubits `0..n`, ancilla last) once from the plan's initial
-/// layout and builds the block that follows it: its mirror when `symmetric`, else the SWAPs
-/// back to the initial layout followed by the step again.
+/// Two-qubit gates a physical circuit costs after peephole cancellation (a SWAP counts 3).
+fn two_qubit_cost(c: &Circuit) -> usize {
+    let mut c = c.clone();
+    cancel_inverses(&mut c);
+    c.gates
+        .iter()
+        .map(|g| match g {
+            Gate::Swap(..) => 3,
+            g if g.is_two_qubit() => 1,
+            _ => 0,
+        })
+        .sum()
+}
+
+fn physical(n_phys: usize, gates: &[Gate]) -> Circuit {
+    let mut c = Circuit::new(n_phys, 0);
+    c.extend(gates.iter().copied());
+    c
+}
+
+/// Routes the step's parts once from the plan's initial layout (see [`route_from`]).
 pub fn route_step(
-    step: &Circuit,
+    parts: &StepParts,
     plan: &TargetPlan,
     dev: &Device,
     params: &SwapParams,
     symmetric: bool,
 ) -> RoutedStep {
-    let start = &plan.initial_layout[..step.num_qubits];
-    step_from_routing(insert_swaps(step, start, dev, params), plan, dev, symmetric)
+    let start = &plan.initial_layout[..parts.circuit.num_qubits];
+    let (fwd, marks) = insert_swaps_cut(&parts.circuit, start, dev, params, &parts.cuts);
+    route_from(parts, fwd, marks, plan, dev, params, symmetric)
 }
 
-/// [`route_step`] from a routing of the step already made from the plan's initial layout.
-pub fn step_from_routing(
+/// The [`RoutedStep`] of a routing of `parts` (with its marks at the cuts) made from the plan's
+/// initial layout: without cuts, `C` and its mirror (or the SWAPs home and `C` again, order 1);
+/// with cuts `E|M|E'`, the head `E`, the cores `M` and `mirror(M)`, the tails `E'` and
+/// `mirror(E)`, and at each seam the cheaper (in two-qubit gates after cancellation) of the
+/// mirrored edge pair and the merged group routed afresh followed by the SWAPs home.
+pub fn route_from(
+    parts: &StepParts,
     fwd: SwapOutcome,
+    marks: Vec<Mark>,
     plan: &TargetPlan,
     dev: &Device,
+    params: &SwapParams,
     symmetric: bool,
 ) -> RoutedStep {
+    let n_phys = dev.num_qubits;
     let start = plan.initial_layout[..fwd.final_layout.len()].to_vec();
-    let back = if symmetric {
-        mirror(&fwd.circuit)
-    } else {
-        let mut c = Circuit::new(fwd.circuit.num_qubits, 0);
-        c.extend(
-            permutation_swaps(&fwd.final_layout, &start, dev)
+    let empty = || Circuit::new(n_phys, 0);
+    let Some(merged) = parts.merged_edge.as_ref().filter(|_| marks.len() == 2) else {
+        let back = if symmetric {
+            mirror(&fwd.circuit)
+        } else {
+            let mut c = physical(n_phys, &[]);
+            c.extend(
+                permutation_swaps(&fwd.final_layout, &start, dev)
+                    .into_iter()
+                    .map(|(a, b)| Gate::Swap(a, b)),
+            );
+            c.extend(fwd.circuit.gates.iter().copied());
+            c
+        };
+        let end = fwd.final_layout.clone();
+        let ends = if symmetric {
+            [end, start.clone()]
+        } else {
+            [end.clone(), end]
+        };
+        return RoutedStep {
+            start,
+            head: empty(),
+            cores: [fwd.circuit, back],
+            joins: [[empty(), empty()], [empty(), empty()]],
+            tails: [empty(), empty()],
+            ends,
+            symmetric,
+        };
+    };
+    let g = &fwd.circuit.gates;
+    let lead = physical(n_phys, &g[..marks[0].at]);
+    let middle = physical(n_phys, &g[marks[0].at..marks[1].at]);
+    let trail = physical(n_phys, &g[marks[1].at..]);
+    // A seam at layout `at`: the mirrored pair of edges, or the merged group and the way back.
+    let seam = |pair: Circuit, at: &[u32]| -> Circuit {
+        let fresh = insert_swaps(merged, at, dev, params);
+        let mut alt = fresh.circuit;
+        alt.extend(
+            permutation_swaps(&fresh.final_layout, at, dev)
                 .into_iter()
                 .map(|(a, b)| Gate::Swap(a, b)),
         );
-        c.extend(fwd.circuit.gates.iter().copied());
-        c
+        if two_qubit_cost(&alt) < two_qubit_cost(&pair) {
+            alt
+        } else {
+            pair
+        }
     };
+    let mut pair_b = trail.clone();
+    pair_b.extend(mirror(&trail).gates);
+    let mut pair_a = mirror(&lead);
+    pair_a.extend(lead.gates.iter().copied());
+    let join_b = seam(pair_b, &marks[1].layout);
+    let join_a = seam(pair_a, &marks[0].layout);
     RoutedStep {
-        forward: fwd.circuit,
-        back,
+        head: lead.clone(),
+        cores: [middle.clone(), mirror(&middle)],
+        joins: [[empty(), join_b], [join_a, empty()]],
+        tails: [trail, mirror(&lead)],
+        ends: [fwd.final_layout, start.clone()],
         start,
-        end: fwd.final_layout,
         symmetric,
     }
 }
