@@ -1,13 +1,14 @@
 //! One routed Trotter step, reused for every step of every circuit of a campaign.
 //!
-//! In: the logical circuit of one product-formula step `S(δ)` (controlled rotations, ancilla
+//! In: one product-formula step `S(δ)` as logical [`StepParts`] (controlled rotations, ancilla
 //! last, no measurements), the campaign's [`TargetPlan`] and the [`Device`]. Out: a
-//! [`RoutedStep`], two physical circuits (with `swap` gates, not yet lowered) whose alternation
-//! implements `S(δ)^r` for any `r`, and the layouts between them; [`super::campaign`] then
-//! builds each circuit of the campaign from its own prefix (state preparation), `r` blocks and
-//! its suffix (bases, measurements). Invariant: block `i` starts from the layout block `i − 1` ended on,
-//! and the first starts from the plan's initial layout `L0`; every block implements `S(δ)`
-//! exactly (global phase included) under those layouts.
+//! [`RoutedStep`], a few physical circuits (with `swap` gates, not yet lowered) whose sequence
+//! ([`RoutedStep::pieces`]) implements `S(δ)^r` for any `r`, and the layouts between them;
+//! [`super::campaign`] then builds each circuit of the campaign from its own prefix (state
+//! preparation), those pieces and its suffix (bases, measurements). Invariant: each piece
+//! starts from the layout the one before it ended on, the first from the plan's initial layout
+//! `L0`, and the sequence for `r` steps implements `S(δ)^r` exactly (global phase included)
+//! from `L0` to [`RoutedStep::layout_after`]`(r)`.
 //!
 //! ## The idea
 //!
@@ -26,6 +27,18 @@
 //!   SWAPs undone in reverse order. A circuit of `r` steps is `C, mirror(C), C, …`; at every
 //!   junction the last rotation of one block meets its own mirror image and the peephole pass
 //!   ([`crate::circuit::cancel`]) folds the pair into one controlled rotation.
+//! - **The seams.** The formula itself does better at a seam: the last half-group of one Strang
+//!   step and the first of the next are the same commuting group `G`, and
+//!   `formula::evolution` merges them (`G/2 · G/2 = G`), while the peephole pass only folds
+//!   the one rotation that meets its image. So a symmetric step is split ([`step_parts`]) as
+//!   `E · M · E'`, with `E` the edge `G` at its half angle and `E'` the same reversed, and
+//!   routed in one pass with barriers between the parts (`swap::insert_swaps_cut`; the
+//!   lookahead still sees across them): `E : L0 → La`, `M : La → Lb`, `E' : Lb → L1`. A circuit
+//!   of `r` steps is then `E · M · J_b · mirror(M) · J_a · M · … · (E' or mirror(E))`, where
+//!   each seam `J` is the cheaper, in two-qubit gates after cancellation, of the mirrored pair
+//!   (`E'·mirror(E')` at `Lb`, `mirror(E)·E` at `La`, which is what alternating `C` and
+//!   `mirror(C)` gives) and the merged group `G` at the full angle routed afresh from the seam's
+//!   layout, followed by the SWAPs back to it. Both are exactly `G`, since its factors commute.
 //! - **Lie–Trotter (order 1)** is not symmetric (the mirror would apply the terms in reverse
 //!   order, another operator). The second block is then the SWAPs that take `L1` back to `L0`
 //!   ([`permutation_swaps`]) followed by `C` again: `C, P·C, P·C, …`.
@@ -44,7 +57,8 @@
 //! (the classical leaf-by-leaf argument for token swapping on trees).
 //!
 //! Cost: one routing of one step per campaign (the layout search's own routing of it is kept,
-//! see `route::plan_and_route_step`), plus the SWAPs back after a routed state preparation.
+//! see `route::plan_and_route_step`), one routing of the merged group per seam (two), plus the
+//! SWAPs back after a routed state preparation.
 
 use super::swap::{insert_swaps, insert_swaps_cut, Adjacency, Mark, SwapOutcome, SwapParams};
 use super::TargetPlan;
@@ -386,6 +400,26 @@ fn physical(n_phys: usize, gates: &[Gate]) -> Circuit {
     c
 }
 
+/// The two ways to implement a seam at layout `at` (both from `at` back to `at`): the mirrored
+/// pair of edges as given, and the merged group `merged` (logical) routed from `at` followed by
+/// the SWAPs home.
+pub(crate) fn seam_options(
+    pair: Circuit,
+    merged: &Circuit,
+    at: &[u32],
+    dev: &Device,
+    params: &SwapParams,
+) -> [Circuit; 2] {
+    let fresh = insert_swaps(merged, at, dev, params);
+    let mut alt = fresh.circuit;
+    alt.extend(
+        permutation_swaps(&fresh.final_layout, at, dev)
+            .into_iter()
+            .map(|(a, b)| Gate::Swap(a, b)),
+    );
+    [pair, alt]
+}
+
 /// Routes the step's parts once from the plan's initial layout (see [`route_from`]).
 pub fn route_step(
     parts: &StepParts,
@@ -451,13 +485,7 @@ pub fn route_from(
     let trail = physical(n_phys, &g[marks[1].at..]);
     // A seam at layout `at`: the mirrored pair of edges, or the merged group and the way back.
     let seam = |pair: Circuit, at: &[u32]| -> Circuit {
-        let fresh = insert_swaps(merged, at, dev, params);
-        let mut alt = fresh.circuit;
-        alt.extend(
-            permutation_swaps(&fresh.final_layout, at, dev)
-                .into_iter()
-                .map(|(a, b)| Gate::Swap(a, b)),
-        );
+        let [pair, alt] = seam_options(pair, merged, at, dev, params);
         if two_qubit_cost(&alt) < two_qubit_cost(&pair) {
             alt
         } else {
@@ -528,6 +556,115 @@ mod tests {
                     }
                 }
                 assert_eq!(at, to);
+            }
+        }
+    }
+
+    /// A 4-qubit Heisenberg chain with fields (XX, YY and ZZ groups, so the step splits) on a
+    /// 3×3 grid, its plan with the ancilla, and its split Strang step.
+    fn split_case() -> (Device, TargetPlan, StepParts, SwapParams) {
+        use crate::pauli::{Pauli, PauliSum};
+        let mut h = PauliSum::new(4);
+        for q in 0..4 {
+            h.add(PauliString::single(q, Pauli::Z), 0.3 + 0.1 * q as f64);
+            if q < 3 {
+                for p in [Pauli::X, Pauli::Y, Pauli::Z] {
+                    h.add(PauliString::from_factors(&[(q, p), (q + 1, p)]).1, 0.8);
+                }
+            }
+        }
+        let dev = Device::new(
+            "grid",
+            9,
+            &lattice::grid(3, 3),
+            NativeSet::rz_sx_x_cx(),
+            Calibration::default(),
+        );
+        let mut plan = TargetPlan::with_layout(4, true, &dev, vec![0, 4, 8, 2, 6]).unwrap();
+        let groups = crate::formula::term_groups(&h);
+        assert!(groups.len() >= 2);
+        plan.edge_terms = groups[0].len();
+        let parts = step_parts(&groups.concat(), &plan, Order::Second, 0.35);
+        let params = SwapParams {
+            extended_size: 20,
+            extended_weight: 0.5,
+            decay_step: 0.001,
+            decay_reset: 5,
+            seed: 1,
+            stall_limit: None,
+            hub: plan.ancilla,
+            hub_factor: 0.9,
+        };
+        (dev, plan, parts, params)
+    }
+
+    fn routed(circuit: Circuit, from: &[u32], to: &[u32]) -> crate::route::Routed {
+        crate::route::Routed {
+            circuit,
+            initial_layout: from.to_vec(),
+            final_layout: to.to_vec(),
+            swaps: 0,
+        }
+    }
+
+    #[test]
+    fn cut_routing_splits_into_segments_that_each_implement_their_part() {
+        let (dev, plan, parts, params) = split_case();
+        assert_eq!(parts.cuts.len(), 2);
+        let (fwd, marks) = insert_swaps_cut(
+            &parts.circuit,
+            &plan.initial_layout,
+            &dev,
+            &params,
+            &parts.cuts,
+        );
+        let bounds = [0, parts.cuts[0], parts.cuts[1], parts.circuit.gates.len()];
+        let outs = [0, marks[0].at, marks[1].at, fwd.circuit.gates.len()];
+        let layouts = [
+            plan.initial_layout.clone(),
+            marks[0].layout.clone(),
+            marks[1].layout.clone(),
+            fwd.final_layout.clone(),
+        ];
+        for i in 0..3 {
+            let mut logical = Circuit::new(5, 0);
+            logical.extend(
+                parts.circuit.gates[bounds[i]..bounds[i + 1]]
+                    .iter()
+                    .copied(),
+            );
+            let seg = physical(9, &fwd.circuit.gates[outs[i]..outs[i + 1]]);
+            let err =
+                crate::route::routing_error(&logical, &routed(seg, &layouts[i], &layouts[i + 1]))
+                    .unwrap();
+            assert!(err < 1e-9, "segment {i}: {err}");
+        }
+    }
+
+    #[test]
+    fn both_seam_options_are_the_merged_group() {
+        // At each seam the mirrored edge pair and the freshly routed merged group (plus the
+        // SWAPs home) must both equal the first group at the full angle, layouts applied.
+        let (dev, plan, parts, params) = split_case();
+        let (fwd, marks) = insert_swaps_cut(
+            &parts.circuit,
+            &plan.initial_layout,
+            &dev,
+            &params,
+            &parts.cuts,
+        );
+        let merged = parts.merged_edge.clone().unwrap();
+        let g = &fwd.circuit.gates;
+        let lead = physical(9, &g[..marks[0].at]);
+        let trail = physical(9, &g[marks[1].at..]);
+        let mut pair_b = trail.clone();
+        pair_b.extend(mirror(&trail).gates);
+        let mut pair_a = mirror(&lead);
+        pair_a.extend(lead.gates.iter().copied());
+        for (pair, at) in [(pair_b, &marks[1].layout), (pair_a, &marks[0].layout)] {
+            for option in seam_options(pair, &merged, at, &dev, &params) {
+                let err = crate::route::routing_error(&merged, &routed(option, at, at)).unwrap();
+                assert!(err < 1e-9, "{err}");
             }
         }
     }
