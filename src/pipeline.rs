@@ -10,11 +10,14 @@
 //! 3. device target: `route::plan_and_route_step` chooses the layout, the term order inside
 //!    commuting groups (`TargetPlan::terms`, which leaves every formula exactly equal) and the
 //!    ladders, scoring candidates on one Trotter step of the campaign, and keeps the winner's
-//!    routing of that step; `family::frames` gives each circuit's preparation and readout, and
-//!    `route::to_device_with_step` routes them around `k·R` reused blocks of the step
-//!    (`route::reuse`), cancels at the junctions, lowers to the native gates, fuses one-qubit
-//!    runs and cancels inverses (verified after each pass);
-//! 4. `qasm::write` (logical `q[k]` on all-to-all, physical `$k` on a device).
+//!    routing of that step (`route::reuse`: it and its mirror image, or the SWAPs home, repeat
+//!    `k·R` times); `route::DeviceCampaign` lowers the step's pieces to the native gates once
+//!    (fusion and cancellation, verified), and `family::frames` gives each circuit's
+//!    preparation and readout, which it routes and stitches around the pieces;
+//! 4. `qasm::write` (logical `q[k]` on all-to-all); on a device each piece's text is written
+//!    once and every program is assembled from those texts (`route::campaign`), so `costs.swaps`
+//!    there counts the SWAPs routing inserted (the step's once per step), before the peephole
+//!    pass folds the mirror seams.
 //!
 //! Nothing here does I/O; the command layer writes the files.
 

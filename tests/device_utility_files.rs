@@ -3,8 +3,9 @@
 //! sits on a coupled pair, and the measurements read the physical qubits plan.json's final
 //! layout names. Checked on the written files, read back with the OpenQASM 3 reader, for the
 //! command line (whole circuits, the default at this size) and for the library with the
-//! stitched assembly of `route::campaign` forced. Too wide to simulate; correctness by
-//! simulation is `tests/route_reuse.rs`'s job on small cases.
+//! stitched assembly of `route::campaign` forced; and the bytes do not depend on the number of
+//! threads. Too wide to simulate; correctness by simulation is `tests/route_reuse.rs`'s job on
+//! small cases.
 
 use assert_cmd::Command;
 use phasewright::circuit::verify::{verify_ir, Rules};
@@ -153,4 +154,49 @@ fn stitched_files_for_100_qubits_on_127_are_native_and_coupled() {
     let out = tmp.path().join("out");
     phasewright::app::compile::write_campaign(&out, &mut compiled).unwrap();
     check_written(&out, &dev);
+}
+
+#[test]
+fn device_campaign_bytes_do_not_depend_on_the_thread_count() {
+    // Stitched assembly forced (pieces printed in parallel chunks, circuits emitted in
+    // parallel): one thread and two must give the same programs and plan, byte for byte.
+    let dev = device();
+    let h = phasewright::lang::ham::parse_hamiltonian("h100.ham", &hamiltonian_text())
+        .unwrap()
+        .sum;
+    let spec = Spec {
+        family: Family::Overlap,
+        order: Order::Fourth,
+        dt: 0.1,
+        points: 3,
+        steps_per_dt: 1,
+        states: vec!["+".repeat(100)],
+    };
+    let cfg = RouteConfig {
+        stitch_min_gates: 0,
+        stitch_window: 128,
+        layout_trials: 1,
+        refine_rounds: 0,
+        ..RouteConfig::default()
+    };
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| {
+                let target = Target::Device {
+                    device: &dev,
+                    config: &cfg,
+                };
+                let c = compile_for(&h, "h100.ham", &spec, &target).unwrap();
+                (c.programs, c.plan.to_json())
+            })
+    };
+    let (one, two) = (run(1), run(2));
+    assert_eq!(one.1, two.1, "plan.json differs");
+    assert_eq!(one.0.len(), two.0.len());
+    for (a, b) in one.0.iter().zip(&two.0) {
+        assert!(a == b, "a program differs between one and two threads");
+    }
 }

@@ -294,15 +294,27 @@ fn gate_kind(g: &Gate) -> usize {
 pub struct CostModel {
     error: [f64; 16],
     time_ns: [f64; 16],
-    link_error: std::collections::HashMap<(usize, u32, u32), f64>,
-    qubit_error: std::collections::HashMap<(usize, u32), f64>,
-    readout: f64,
-    qubit_readout: std::collections::HashMap<u32, f64>,
+    /// Per qubit and one-qubit kind: the error rate, overrides applied (`n × 16`).
+    qubit_error: Vec<[f64; 16]>,
+    /// Per two-qubit kind with link overrides: a dense `n × n` table (devices up to
+    /// [`DENSE_LINKS_MAX`] qubits) or the overrides alone.
+    link_error: Vec<(usize, LinkTable)>,
+    readout: Vec<f64>,
+    readout_default: f64,
+}
+
+/// Largest device whose link overrides are kept as dense `n × n` tables (8 MB per gate kind).
+pub const DENSE_LINKS_MAX: usize = 1024;
+
+enum LinkTable {
+    Dense(Vec<f64>),
+    Sparse(std::collections::HashMap<(u32, u32), f64>),
 }
 
 impl CostModel {
     pub fn new(dev: &Device) -> CostModel {
         let cal = &dev.calibration;
+        let n = dev.num_qubits;
         let kind_of = |name: &str| KIND_NAMES.iter().position(|&k| k == name);
         let mut error = [0.0; 16];
         let mut time_ns = [0.0; 16];
@@ -310,25 +322,51 @@ impl CostModel {
             error[k] = cal.error_rate.get(*name).copied().unwrap_or(0.0);
             time_ns[k] = cal.time_ns.get(*name).copied().unwrap_or(0.0);
         }
+        let mut qubit_error = vec![error; n];
+        for ((name, q), &e) in &cal.qubit_error_rate {
+            if let (Some(k), Some(row)) = (kind_of(name), qubit_error.get_mut(*q as usize)) {
+                row[k] = e;
+            }
+        }
+        let mut link_error: Vec<(usize, LinkTable)> = Vec::new();
+        for ((name, a, b), &e) in &cal.link_error_rate {
+            let Some(k) = kind_of(name) else { continue };
+            let at = match link_error.iter().position(|(kk, _)| *kk == k) {
+                Some(i) => i,
+                None => {
+                    let table = if n <= DENSE_LINKS_MAX {
+                        LinkTable::Dense(vec![error[k]; n * n])
+                    } else {
+                        LinkTable::Sparse(Default::default())
+                    };
+                    link_error.push((k, table));
+                    link_error.len() - 1
+                }
+            };
+            let (a, b) = ((*a).min(*b), (*a).max(*b));
+            match &mut link_error[at].1 {
+                LinkTable::Dense(t) if (b as usize) < n => t[a as usize * n + b as usize] = e,
+                LinkTable::Dense(_) => {}
+                LinkTable::Sparse(m) => {
+                    m.insert((a, b), e);
+                }
+            }
+        }
+        let readout = (0..n as u32)
+            .map(|q| {
+                cal.qubit_readout_error_rate
+                    .get(&q)
+                    .copied()
+                    .unwrap_or(cal.readout_error_rate)
+            })
+            .collect();
         CostModel {
             error,
             time_ns,
-            link_error: cal
-                .link_error_rate
-                .iter()
-                .filter_map(|((n, a, b), &e)| kind_of(n).map(|k| ((k, *a, *b), e)))
-                .collect(),
-            qubit_error: cal
-                .qubit_error_rate
-                .iter()
-                .filter_map(|((n, q), &e)| kind_of(n).map(|k| ((k, *q), e)))
-                .collect(),
-            readout: cal.readout_error_rate,
-            qubit_readout: cal
-                .qubit_readout_error_rate
-                .iter()
-                .map(|(&q, &e)| (q, e))
-                .collect(),
+            qubit_error,
+            link_error,
+            readout,
+            readout_default: cal.readout_error_rate,
         }
     }
 
@@ -336,23 +374,29 @@ impl CostModel {
     pub fn error(&self, g: &Gate) -> f64 {
         let k = gate_kind(g);
         match *g {
-            Gate::Measure(q, _) => self.qubit_readout.get(&q).copied().unwrap_or(self.readout),
+            Gate::Measure(q, _) => self
+                .readout
+                .get(q as usize)
+                .copied()
+                .unwrap_or(self.readout_default),
             Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => {
-                if self.link_error.is_empty() {
+                let Some((_, table)) = self.link_error.iter().find(|(kk, _)| *kk == k) else {
                     return self.error[k];
+                };
+                let (a, b) = (a.min(b), a.max(b));
+                match table {
+                    LinkTable::Dense(t) => {
+                        let n = self.qubit_error.len();
+                        t.get(a as usize * n + b as usize)
+                            .copied()
+                            .unwrap_or(self.error[k])
+                    }
+                    LinkTable::Sparse(m) => m.get(&(a, b)).copied().unwrap_or(self.error[k]),
                 }
-                let key = (k, a.min(b), a.max(b));
-                self.link_error.get(&key).copied().unwrap_or(self.error[k])
             }
             _ => {
-                if self.qubit_error.is_empty() {
-                    return self.error[k];
-                }
-                let q = g.qubits()[0];
-                self.qubit_error
-                    .get(&(k, q))
-                    .copied()
-                    .unwrap_or(self.error[k])
+                let q = g.qubits()[0] as usize;
+                self.qubit_error.get(q).map_or(self.error[k], |row| row[k])
             }
         }
     }
@@ -535,6 +579,41 @@ mod tests {
         );
         assert_eq!(d.components(), vec![vec![3, 4, 5], vec![0, 1], vec![2]]);
         assert_eq!(d.distance(0, 3), UNREACHABLE);
+    }
+
+    #[test]
+    fn the_cost_tables_agree_with_the_calibration_lookups() {
+        // Every gate kind on every qubit and every pair, with link, qubit and readout
+        // overrides: `CostModel` must return exactly what `Device::gate_error` and
+        // `Device::gate_time_ns` return.
+        let mut d = grid_device();
+        d.calibration
+            .qubit_error_rate
+            .insert(("sx".into(), 4), 0.003);
+        d.calibration.qubit_readout_error_rate.insert(5, 0.07);
+        d.calibration
+            .link_error_rate
+            .insert(("swap".into(), 3, 4), 0.2);
+        let model = CostModel::new(&d);
+        for a in 0..6u32 {
+            let mut gates = vec![
+                Gate::H(a),
+                Gate::X(a),
+                Gate::Sx(a),
+                Gate::Rz(a, 0.2),
+                Gate::U(a, 0.1, 0.2, 0.3),
+                Gate::Measure(a, 0),
+            ];
+            for b in 0..6u32 {
+                if a != b {
+                    gates.extend([Gate::Cx(a, b), Gate::Cz(a, b), Gate::Swap(a, b)]);
+                }
+            }
+            for g in &gates {
+                assert_eq!(model.error(g), d.gate_error(g), "{g:?}");
+                assert_eq!(model.time_ns(g), d.gate_time_ns(g), "{g:?}");
+            }
+        }
     }
 
     #[test]

@@ -44,7 +44,7 @@ use crate::device::{CostModel, Device, Tally};
 use crate::family::plan::Costs;
 use crate::lower::euler::wrap;
 use crate::lower::lower_to_native;
-use crate::qasm::{write, write_gates_to, write_to, Addressing};
+use crate::qasm::{write, write_gates_to, Addressing};
 use rayon::prelude::*;
 
 /// Steps with fewer (unlowered) gates are assembled and lowered whole, per circuit (the
@@ -67,7 +67,7 @@ pub struct Emitted {
 struct Piece {
     gates: Vec<Gate>,
     phase: f64,
-    text: Vec<u8>,
+    text: String,
     tally: Tally,
 }
 
@@ -77,7 +77,7 @@ struct Block {
     lowered: Circuit,
     head: usize,
     tail: usize,
-    interior_text: Vec<u8>,
+    interior_text: String,
     interior_tally: Tally,
 }
 
@@ -94,13 +94,21 @@ struct Stitched {
     joins: Vec<((usize, usize), Piece)>,
 }
 
+/// SWAP gates in each piece of a [`RoutedStep`], counted once.
+struct StepSwaps {
+    head: usize,
+    cores: [usize; 2],
+    joins: [[usize; 2]; 2],
+    tails: [usize; 2],
+}
+
 /// Everything a campaign's circuits share on one device.
 pub struct DeviceCampaign<'a> {
     step: RoutedStep,
     dev: &'a Device,
     params: SwapParams,
     model: CostModel,
-    block_swaps: [usize; 2],
+    swaps: StepSwaps,
     window: usize,
     stitched: Option<Stitched>,
 }
@@ -112,9 +120,11 @@ fn count_swaps(c: &Circuit) -> usize {
         .count()
 }
 
-fn render(gates: &[Gate]) -> Vec<u8> {
+/// The gate lines of `gates` (checked as UTF-8 once here, so circuits assembled from the
+/// pieces need no second check).
+fn render(gates: &[Gate]) -> String {
     // Chunks print in parallel and join in order: the same bytes for any thread count.
-    gates
+    let bytes = gates
         .par_chunks(1 << 14)
         .map(|chunk| {
             let mut out = Vec::with_capacity(24 * chunk.len());
@@ -122,7 +132,8 @@ fn render(gates: &[Gate]) -> Vec<u8> {
             out
         })
         .collect::<Vec<_>>()
-        .concat()
+        .concat();
+    String::from_utf8(bytes).expect("the writer emits UTF-8")
 }
 
 impl<'a> DeviceCampaign<'a> {
@@ -135,17 +146,31 @@ impl<'a> DeviceCampaign<'a> {
         cfg: &RouteConfig,
     ) -> Result<DeviceCampaign<'a>, IrError> {
         let params = plan_swap_params(plan, cfg);
-        let block_swaps = [count_swaps(&step.forward), count_swaps(&step.back)];
+        let swaps = StepSwaps {
+            head: count_swaps(&step.head),
+            cores: [count_swaps(&step.cores[0]), count_swaps(&step.cores[1])],
+            joins: [
+                [
+                    count_swaps(&step.joins[0][0]),
+                    count_swaps(&step.joins[0][1]),
+                ],
+                [
+                    count_swaps(&step.joins[1][0]),
+                    count_swaps(&step.joins[1][1]),
+                ],
+            ],
+            tails: [count_swaps(&step.tails[0]), count_swaps(&step.tails[1])],
+        };
         let mut campaign = DeviceCampaign {
             step,
             dev,
             params,
             model: CostModel::new(dev),
-            block_swaps,
+            swaps,
             window: cfg.stitch_window,
             stitched: None,
         };
-        if campaign.step.forward.gates.len() >= cfg.stitch_min_gates {
+        if campaign.step.cores[0].gates.len() >= cfg.stitch_min_gates {
             campaign.stitched = Some(campaign.stitch()?);
         }
         Ok(campaign)
@@ -177,8 +202,8 @@ impl<'a> DeviceCampaign<'a> {
 
     fn stitch(&self) -> Result<Stitched, IrError> {
         let (a, b) = rayon::join(
-            || self.block(&self.step.forward),
-            || self.block(&self.step.back),
+            || self.block(&self.step.cores[0]),
+            || self.block(&self.step.cores[1]),
         );
         let blocks = [a?, b?];
         let pairs: &[(usize, usize)] = if self.step.symmetric {
@@ -191,6 +216,7 @@ impl<'a> DeviceCampaign<'a> {
             .map(|&(x, y)| {
                 let mut c = Circuit::new(self.dev.num_qubits, 0);
                 c.extend(blocks[x].lowered.gates[blocks[x].tail..].iter().copied());
+                c.extend(self.step.joins[x][y].gates.iter().copied());
                 c.extend(blocks[y].lowered.gates[..blocks[y].head].iter().copied());
                 Ok(((x, y), self.piece(&c)?))
             })
@@ -234,9 +260,20 @@ impl<'a> DeviceCampaign<'a> {
         let pre_r = insert_swaps(&pre, &self.step.start, self.dev, &self.params);
         let back = permutation_swaps(&pre_r.final_layout, &self.step.start, self.dev);
         let post_r = insert_swaps(&post, self.step.layout_after(steps), self.dev, &self.params);
-        let blocks: usize = (0..steps)
-            .map(|i| self.block_swaps[self.step.block_index(i)])
-            .sum();
+        let mut blocks = 0;
+        if steps > 0 {
+            let sw = &self.swaps;
+            blocks += sw.head;
+            for i in 0..steps {
+                let b = self.step.core_index(i);
+                blocks += sw.cores[b];
+                blocks += if i + 1 < steps {
+                    sw.joins[b][self.step.core_index(i + 1)]
+                } else {
+                    sw.tails[b]
+                };
+            }
+        }
         let swaps = pre_r.swaps + back.len() + blocks + post_r.swaps;
         let mut head = pre_r.circuit;
         head.num_clbits = 0;
@@ -261,11 +298,13 @@ impl<'a> DeviceCampaign<'a> {
             return Ok(None);
         }
         let (mut head, post, swaps, final_layout) = self.ends(prefix, steps, suffix, num_clbits)?;
-        let first = &st.blocks[self.step.block_index(0)];
-        let last = &st.blocks[self.step.block_index(steps - 1)];
+        let (b0, bl) = (self.step.core_index(0), self.step.core_index(steps - 1));
+        let (first, last) = (&st.blocks[b0], &st.blocks[bl]);
+        head.extend(self.step.head.gates.iter().copied());
         head.extend(first.lowered.gates[..first.head].iter().copied());
         let mut tail = Circuit::new(self.dev.num_qubits, num_clbits);
         tail.extend(last.lowered.gates[last.tail..].iter().copied());
+        tail.extend(self.step.tails[bl].gates.iter().copied());
         tail.extend(post.gates);
         Ok(Some((
             self.piece(&head)?,
@@ -282,12 +321,12 @@ impl<'a> DeviceCampaign<'a> {
         steps: usize,
         head: &'s Piece,
         tail: &'s Piece,
-        mut visit: impl FnMut(&'s [Gate], &'s [u8], f64, &'s Tally),
+        mut visit: impl FnMut(&'s [Gate], &'s str, f64, &'s Tally),
     ) {
         let st = self.stitched.as_ref().expect("stitched campaign");
         visit(&head.gates, &head.text, head.phase, &head.tally);
         for i in 0..steps {
-            let b = self.step.block_index(i);
+            let b = self.step.core_index(i);
             let block = &st.blocks[b];
             visit(
                 block.interior(),
@@ -296,7 +335,7 @@ impl<'a> DeviceCampaign<'a> {
                 &block.interior_tally,
             );
             if i + 1 < steps {
-                let next = self.step.block_index(i + 1);
+                let next = self.step.core_index(i + 1);
                 let (_, join) = st
                     .joins
                     .iter()
@@ -399,13 +438,13 @@ impl<'a> DeviceCampaign<'a> {
                     gates: Vec::new(),
                     global_phase: wrap(phase),
                 };
-                let mut out = Vec::with_capacity(bytes + 512);
-                write_to(&mut out, &shell, Addressing::Physical, comments).expect("memory write");
+                let mut out = write(&shell, Addressing::Physical, comments);
+                out.reserve(bytes);
                 self.for_each_part(steps, &head, &tail, |_, text, _, _| {
-                    out.extend_from_slice(text);
+                    out.push_str(text);
                 });
                 Ok(Emitted {
-                    text: String::from_utf8(out).expect("the writer emits UTF-8"),
+                    text: out,
                     costs: walk.finish(swaps),
                     final_layout,
                 })
@@ -414,7 +453,7 @@ impl<'a> DeviceCampaign<'a> {
     }
 }
 
-/// `prefix` (physical), `steps` blocks of `step`, `suffix` (physical, measurements last),
+/// `prefix` (physical), the pieces of `steps` steps, `suffix` (physical, measurements last),
 /// junctions cancelled: the unlowered circuit of the small-step path.
 fn assemble(
     prefix: &Circuit,
@@ -425,9 +464,9 @@ fn assemble(
 ) -> Circuit {
     let mut out = Circuit::new(n_phys, suffix.num_clbits);
     out.extend(prefix.gates.iter().copied());
-    for i in 0..steps {
-        out.extend(step.block(i).gates.iter().copied());
-        out.global_phase += step.block(i).global_phase;
+    for piece in step.pieces(steps) {
+        out.extend(piece.gates.iter().copied());
+        out.global_phase += piece.global_phase;
     }
     out.extend(suffix.gates.iter().copied());
     crate::circuit::cancel::cancel_inverses(&mut out);

@@ -2,26 +2,40 @@
 //!
 //! In: a Pauli sum (for planning), logical circuits (system qubits `0..n`, the Hadamard-test
 //! ancilla `n` if any) and a [`Device`]. Out: [`Routed`] circuits on physical qubits with native
-//! gates only, every two-qubit gate on a coupled pair, plus the initial and final layouts.
+//! gates only, every two-qubit gate on a coupled pair, plus the initial and final layouts; for a
+//! campaign, each circuit's OpenQASM 3 text directly ([`campaign`]).
 //!
-//! Two steps, because the CNOT ladders must be chosen before synthesis:
+//! The layout and the CNOT ladders must be chosen before synthesis:
 //!
-//! 1. [`plan_target`] (once per campaign) picks the initial layout and, with it, how each
-//!    rotation's ladder runs ([`TargetPlan::ladder`]): the root is the support qubit nearest the
-//!    ancilla, so the controlled `rz` meets the ancilla without SWAPs where the layout allows, and
-//!    the rest of the ladder follows nearest neighbours back from the root. Layout candidates
-//!    (greedy around the centre, seeded random, each annealed; see [`layout`]) are scored
-//!    by routing a one-Strang-step skeleton of the campaign, refined by bidirectional passes
-//!    (route forward, route the reversed circuit from the final layout, start again from where
-//!    it ends), with and without a preference for moving the ancilla (see [`swap`]), and, with
-//!    an ancilla, with the terms in the device-aware order of [`order`] (each commuting group
-//!    swept so the ancilla walks a short path, ladders rooted where the walk meets each term,
-//!    or nearest the ancilla's initial site) or in the default order; the one with the fewest
-//!    SWAPs wins. All circuits of a campaign then share that initial layout, which plan.json
-//!    records once, and follow [`TargetPlan::terms`], which computes exactly what
-//!    `formula::order_terms` would (a permutation inside commuting groups).
-//! 2. [`to_device`] (per circuit): SWAP insertion ([`swap`]), lowering to native gates with
-//!    fusion and cancellation ([`crate::lower`]), `verify_ir` after each pass.
+//! 1. [`plan_and_route_step`] (once per campaign; [`plan_target`] is the same scored on one
+//!    Strang step of length 1) picks the initial layout and, with it, how each rotation's
+//!    ladder runs ([`TargetPlan::ladder`]): the root is the support qubit nearest the ancilla,
+//!    so the controlled `rz` meets the ancilla without SWAPs where the layout allows, and the
+//!    rest of the ladder follows nearest neighbours back from the root. Layout candidates
+//!    (greedy around the centre, seeded random, each annealed; see [`layout`]) are scored by
+//!    routing one Trotter step of the campaign, refined by bidirectional passes (route forward,
+//!    route the reversed circuit from the final layout, start again from where it ends), with
+//!    and without a preference for moving the ancilla (see [`swap`]), and, with an ancilla,
+//!    with the terms in the device-aware order of [`order`] (each commuting group swept so the
+//!    ancilla walks a short path, ladders rooted where the walk meets each term, or nearest the
+//!    ancilla's initial site) or in the default order; the one with the fewest SWAPs wins, and
+//!    its routing of the step is kept. All circuits of a campaign share that initial layout,
+//!    which plan.json records once, and follow [`TargetPlan::terms`], which computes exactly
+//!    what `formula::order_terms` would (a permutation inside commuting groups).
+//! 2. The kept step is reused by every circuit ([`reuse`]: alternating with its mirror image
+//!    for symmetric formulas, with the SWAPs home for Lie–Trotter), and [`campaign`] lowers it
+//!    once and assembles each circuit from it, its own state preparation and its readout.
+//!    [`to_device`] routes and lowers any single logical circuit from scratch (tests,
+//!    benchmarks).
+//!
+//! **Scale.** The search above routes the step up to `trials × 2 × 3 × (2·rounds + 1)` times
+//! (240 with the defaults). It is held to [`PLAN_BUDGET`] units of routing work (two-qubit
+//! gates plus SWAPs per routing, measured on the first routing; about 1 µs per unit on the
+//! 2-core benchmark machine, so a few seconds): when the full search would exceed it, it steps
+//! down through `SEARCH_LEVELS` (fewer candidates, one refinement round, one ancilla factor,
+//! then a single annealed greedy layout). Deterministic: the level depends only on the inputs.
+//! On a 100-qubit, 1,000-term step on 127 qubits that means 48 routings instead of 240; at
+//! 10⁴ terms and more, one.
 //!
 //! Invariant: `Routed::circuit` applied to a logical state placed by `initial_layout` equals the
 //! logical circuit's result placed by `final_layout`, global phase included ([`check`] verifies
@@ -34,14 +48,13 @@ pub mod order;
 pub mod reuse;
 pub mod swap;
 
-use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Qubit};
 use crate::device::{Device, UNREACHABLE};
-use crate::formula::{order_terms, step, term_groups, Order, Rotation};
+use crate::formula::{order_terms, term_groups, Order, Rotation};
 use crate::lower::lower_to_native;
 use crate::pauli::{PauliString, PauliSum};
-use crate::synth::{default_ladder, pauli_rotation_along};
+use crate::synth::default_ladder;
 pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
 pub use order::{device_order, order_for_device, DeviceOrder};
@@ -57,7 +70,7 @@ pub struct RouteConfig {
     /// Bidirectional refinement rounds per candidate.
     pub refine_rounds: usize,
     /// Also refine the layout per circuit in [`to_device`] (then circuits may start from
-    /// different layouts; off by default so the campaign shares one).
+    /// different layouts; off by default; campaigns, which reuse one routed step, ignore it).
     pub refine_per_circuit: bool,
     /// Lookahead window: number of upcoming two-qubit gates scored beside the front.
     pub extended_size: usize,
@@ -125,6 +138,9 @@ pub struct TargetPlan {
     pub ancilla_swap_factor: f64,
     /// The device-aware term order and ladder roots, if the plan uses one ([`order`]).
     pub order: Option<DeviceOrder>,
+    /// Length of the first commuting group of the plan's term order, whose halves meet at the
+    /// seams of reused symmetric steps ([`reuse::step_parts`]); 0: the step is not split.
+    pub edge_terms: usize,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -175,6 +191,7 @@ impl TargetPlan {
             ancilla: ancilla.then_some(num_system as u32),
             ancilla_swap_factor: 1.0,
             order: None,
+            edge_terms: 0,
             dist,
         })
     }
@@ -290,26 +307,20 @@ pub struct Routed {
 }
 
 /// The logical circuit of one step of `order` and length `dt` over `terms`, each rotation
-/// along the plan's ladder and controlled by the ancilla if any, after peephole cancellation:
-/// what layout candidates are scored on, and what [`reuse::route_step`] routes.
+/// along the plan's ladder and controlled by the ancilla if any, after peephole cancellation
+/// (split as [`reuse::step_parts`] says, which keeps the operator).
 pub fn step_circuit(
     terms: &[(PauliString, f64)],
     plan: &TargetPlan,
     order: Order,
     dt: f64,
 ) -> Circuit {
-    let n = plan.initial_layout.len();
-    let mut c = Circuit::new(n, 0);
-    for r in &step(terms, order, dt) {
-        c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
-    }
-    cancel_inverses(&mut c);
-    c
+    reuse::step_parts(terms, plan, order, dt).circuit
 }
 
 /// Work allowed to the layout search, in routed two-qubit gates plus inserted SWAPs summed over
-/// every skeleton routing (a routing costs about that many units; ~0.1 µs each on the
-/// benchmark machine). Below it the full search runs; above it [`SEARCH_LEVELS`] step down.
+/// every routing of the step (a routing costs about that many units, ~1 µs each on the 2-core
+/// benchmark machine). Below it the full search runs; above it `SEARCH_LEVELS` step down.
 pub const PLAN_BUDGET: usize = 4_000_000;
 
 /// How much of the layout search runs: layout candidates, ancilla SWAP factors, term orders and
@@ -366,11 +377,17 @@ pub fn plan_and_route_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, fwd, sk) = plan_on_step(h, true, dev, cfg, order, dt)?;
+    let (plan, routed) = plan_on_step(h, true, dev, cfg, order, dt)?;
     let params = plan_swap_params(&plan, cfg);
-    let step = match fwd {
-        Some(fwd) => reuse::step_from_routing(fwd, &plan, dev, order != Order::First),
-        None => reuse::route_step(&sk, &plan, dev, &params, order != Order::First),
+    let symmetric = order != Order::First;
+    let step = match routed {
+        Some((parts, fwd, marks)) => {
+            reuse::route_from(&parts, fwd, marks, &plan, dev, &params, symmetric)
+        }
+        None => {
+            let parts = reuse::step_parts(&plan.terms(h), &plan, order, dt);
+            reuse::route_step(&parts, &plan, dev, &params, symmetric)
+        }
     };
     Ok((plan, step))
 }
@@ -383,7 +400,11 @@ fn plan_swap_params(plan: &TargetPlan, cfg: &RouteConfig) -> SwapParams {
     params
 }
 
-type Planned = (TargetPlan, Option<swap::SwapOutcome>, Circuit);
+/// A plan and, when it was routed, its step's parts, routing and marks at the cuts.
+type Planned = (
+    TargetPlan,
+    Option<(reuse::StepParts, swap::SwapOutcome, Vec<swap::Mark>)>,
+);
 
 fn plan_on_step(
     h: &PauliSum,
@@ -408,7 +429,7 @@ fn plan_on_step(
     }
     if n == 0 {
         let plan = TargetPlan::with_layout(0, false, dev, Vec::new())?;
-        return Ok((plan, None, Circuit::new(0, 0)));
+        return Ok((plan, None));
     }
     let comps = dev.components();
     let comp = match comps.first() {
@@ -425,6 +446,11 @@ fn plan_on_step(
     let w = layout::interaction_weights(h, ancilla);
     let groups = term_groups(h);
     let default_terms: Vec<(PauliString, f64)> = groups.concat();
+    let edge_terms = if groups.len() >= 2 && order != Order::First {
+        groups[0].len()
+    } else {
+        0
+    };
     let candidate = |t: usize| -> Vec<u32> {
         let trial_seed = cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64);
         let mut l = if t == 0 {
@@ -470,27 +496,40 @@ fn plan_on_step(
             default_terms.clone()
         };
         plan.ancilla_swap_factor = factor;
+        plan.edge_terms = edge_terms;
         params.hub_factor = factor;
-        let sk = step_circuit(&terms, &plan, order, dt);
-        let fwd = insert_swaps(&sk, l, dev, params);
-        Ok::<_, String>((plan, sk, fwd))
+        let parts = reuse::step_parts(&terms, &plan, order, dt);
+        let (fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
+        Ok::<_, String>((plan, parts, fwd, marks))
     };
     let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| (fwd.swaps, layout::layout_cost(&w, l, dev));
     let mut best: Option<((usize, f64), Planned)> = None;
-    let mut consider =
-        |key: (usize, f64), plan: TargetPlan, fwd: &swap::SwapOutcome, sk: &Circuit| {
-            let better = best
-                .as_ref()
-                .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
-            if better {
-                best = Some((key, (plan, Some(fwd.clone()), sk.clone())));
-            }
-        };
+    let mut consider = |key: (usize, f64),
+                        plan: TargetPlan,
+                        parts: &reuse::StepParts,
+                        fwd: &swap::SwapOutcome,
+                        marks: &[swap::Mark]| {
+        let better = best
+            .as_ref()
+            .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
+        if better {
+            best = Some((
+                key,
+                (plan, Some((parts.clone(), fwd.clone(), marks.to_vec()))),
+            ));
+        }
+    };
     // The first routing of the full search measures the work of one routing.
     let first_layout = candidate(0);
-    let (plan0, sk0, fwd0) =
-        evaluate(&first_layout, full.factors[0], full.choices[0], &mut params)?;
-    let unit = sk0.gates.iter().filter(|g| g.is_two_qubit()).count() + fwd0.swaps;
+    let first_eval = evaluate(&first_layout, full.factors[0], full.choices[0], &mut params)?;
+    let unit = first_eval
+        .1
+        .circuit
+        .gates
+        .iter()
+        .filter(|g| g.is_two_qubit())
+        .count()
+        + first_eval.2.swaps;
     let allowed = (PLAN_BUDGET / unit.max(1)).max(1);
     let search = std::iter::once(full)
         .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
@@ -517,7 +556,7 @@ fn plan_on_step(
             candidates.push(l);
         }
     }
-    let mut first = Some((plan0, sk0, fwd0));
+    let mut first = Some(first_eval);
     for (&factor, &choice) in search
         .factors
         .iter()
@@ -530,7 +569,7 @@ fn plan_on_step(
                     && *start == first_layout
                     && factor == full.factors[0]
                     && choice == full.choices[0];
-                let (plan, sk, fwd) = match (reuse_first, first.take()) {
+                let (plan, parts, fwd, marks) = match (reuse_first, first.take()) {
                     (true, Some(f)) => f,
                     (_, f) => {
                         first = f;
@@ -538,18 +577,19 @@ fn plan_on_step(
                         evaluate(&l, factor, choice, &mut params)?
                     }
                 };
-                consider(key_of(&fwd, &l), plan, &fwd, &sk);
+                consider(key_of(&fwd, &l), plan, &parts, &fwd, &marks);
                 if round == search.rounds {
                     break;
                 }
                 params.hub_factor = factor;
-                l = insert_swaps(&reversed(&sk), &fwd.final_layout, dev, &params).final_layout;
+                l = insert_swaps(&reversed(&parts.circuit), &fwd.final_layout, dev, &params)
+                    .final_layout;
             }
         }
     }
-    if let Some((plan, sk, fwd)) = first {
+    if let Some((plan, parts, fwd, marks)) = first {
         // The measuring routing was not part of the chosen search: it still competes.
-        consider(key_of(&fwd, &first_layout), plan, &fwd, &sk);
+        consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
     }
     Ok(best.expect("at least one candidate").1)
 }

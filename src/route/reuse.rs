@@ -1,13 +1,14 @@
 //! One routed Trotter step, reused for every step of every circuit of a campaign.
 //!
-//! In: the logical circuit of one product-formula step `S(δ)` (controlled rotations, ancilla
+//! In: one product-formula step `S(δ)` as logical [`StepParts`] (controlled rotations, ancilla
 //! last, no measurements), the campaign's [`TargetPlan`] and the [`Device`]. Out: a
-//! [`RoutedStep`], two physical circuits (with `swap` gates, not yet lowered) whose alternation
-//! implements `S(δ)^r` for any `r`, and the layouts between them; [`super::campaign`] then
-//! builds each circuit of the campaign from its own prefix (state preparation), `r` blocks and
-//! its suffix (bases, measurements). Invariant: block `i` starts from the layout block `i − 1` ended on,
-//! and the first starts from the plan's initial layout `L0`; every block implements `S(δ)`
-//! exactly (global phase included) under those layouts.
+//! [`RoutedStep`], a few physical circuits (with `swap` gates, not yet lowered) whose sequence
+//! ([`RoutedStep::pieces`]) implements `S(δ)^r` for any `r`, and the layouts between them;
+//! [`super::campaign`] then builds each circuit of the campaign from its own prefix (state
+//! preparation), those pieces and its suffix (bases, measurements). Invariant: each piece
+//! starts from the layout the one before it ended on, the first from the plan's initial layout
+//! `L0`, and the sequence for `r` steps implements `S(δ)^r` exactly (global phase included)
+//! from `L0` to [`RoutedStep::layout_after`]`(r)`.
 //!
 //! ## The idea
 //!
@@ -26,6 +27,18 @@
 //!   SWAPs undone in reverse order. A circuit of `r` steps is `C, mirror(C), C, …`; at every
 //!   junction the last rotation of one block meets its own mirror image and the peephole pass
 //!   ([`crate::circuit::cancel`]) folds the pair into one controlled rotation.
+//! - **The seams.** The formula itself does better at a seam: the last half-group of one Strang
+//!   step and the first of the next are the same commuting group `G`, and
+//!   `formula::evolution` merges them (`G/2 · G/2 = G`), while the peephole pass only folds
+//!   the one rotation that meets its image. So a symmetric step is split ([`step_parts`]) as
+//!   `E · M · E'`, with `E` the edge `G` at its half angle and `E'` the same reversed, and
+//!   routed in one pass with barriers between the parts (`swap::insert_swaps_cut`; the
+//!   lookahead still sees across them): `E : L0 → La`, `M : La → Lb`, `E' : Lb → L1`. A circuit
+//!   of `r` steps is then `E · M · J_b · mirror(M) · J_a · M · … · (E' or mirror(E))`, where
+//!   each seam `J` is the cheaper, in two-qubit gates after cancellation, of the mirrored pair
+//!   (`E'·mirror(E')` at `Lb`, `mirror(E)·E` at `La`, which is what alternating `C` and
+//!   `mirror(C)` gives) and the merged group `G` at the full angle routed afresh from the seam's
+//!   layout, followed by the SWAPs back to it. Both are exactly `G`, since its factors commute.
 //! - **Lie–Trotter (order 1)** is not symmetric (the mirror would apply the terms in reverse
 //!   order, another operator). The second block is then the SWAPs that take `L1` back to `L0`
 //!   ([`permutation_swaps`]) followed by `C` again: `C, P·C, P·C, …`.
@@ -44,12 +57,17 @@
 //! (the classical leaf-by-leaf argument for token swapping on trees).
 //!
 //! Cost: one routing of one step per campaign (the layout search's own routing of it is kept,
-//! see `route::plan_and_route_step`), plus the SWAPs back after a routed state preparation.
+//! see `route::plan_and_route_step`), one routing of the merged group per seam (two), plus the
+//! SWAPs back after a routed state preparation.
 
-use super::swap::{insert_swaps, Adjacency, SwapOutcome, SwapParams};
+use super::swap::{insert_swaps, insert_swaps_cut, Adjacency, Mark, SwapOutcome, SwapParams};
 use super::TargetPlan;
+use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
+use crate::formula::{step, Order, Rotation};
+use crate::pauli::PauliString;
+use crate::synth::pauli_rotation_along;
 
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
@@ -200,21 +218,132 @@ pub fn permutation_swaps(from: &[u32], to: &[u32], dev: &Device) -> Vec<(u32, u3
     swaps
 }
 
-/// A routed step and how its blocks alternate (see the module essay).
+/// The logical circuit of one step (controlled rotations along the plan's ladders, each part
+/// cancelled on its own) and where it splits for reuse.
+#[derive(Clone, Debug)]
+pub struct StepParts {
+    /// The whole step.
+    pub circuit: Circuit,
+    /// Empty, or two indices into `circuit.gates`: the end of the leading edge and the start of
+    /// the trailing one (see the module essay).
+    pub cuts: Vec<usize>,
+    /// With cuts: the first group at twice the edge's angle (both edges of a seam merged).
+    pub merged_edge: Option<Circuit>,
+}
+
+fn controlled(rotations: &[Rotation], plan: &TargetPlan) -> Circuit {
+    let mut c = Circuit::new(plan.initial_layout.len(), 0);
+    for r in rotations {
+        c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
+    }
+    cancel_inverses(&mut c);
+    c
+}
+
+/// The first `plan.edge_terms` terms (a commuting group, the first of the order) with each
+/// coefficient times `factor`: one edge of a symmetric step.
+fn edge(terms: &[(PauliString, f64)], factor: f64) -> Vec<Rotation> {
+    terms
+        .iter()
+        .map(|(p, c)| Rotation {
+            pauli: p.clone(),
+            theta: c * factor,
+        })
+        .collect()
+}
+
+/// One step of `order` and length `dt` over `terms` as [`StepParts`]. For a symmetric order and
+/// a plan whose `edge_terms` names a first commuting group `G` short of all the terms, the step
+/// is written `E · M · E'`: order 2, `E = G(δ/2)` and `M = S₂` over the other terms; order 4,
+/// `E = G(pδ/2)` and `M = K(p) G(2p) K(p) G(1−3p) K(1−4p) G(1−3p) K(p) G(2p) K(p)` with
+/// `K(x) = S₂(xδ)` over the other terms and `G(x)` the group at `xδ/2` (the Suzuki product
+/// `S₂(pδ)² S₂((1−4p)δ) S₂(pδ)²` with the group's halves that meet merged, which is exact since
+/// they commute); `E'` is `E` reversed. Otherwise one part, `formula::step`.
+pub fn step_parts(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+) -> StepParts {
+    let e = plan.edge_terms;
+    if order == Order::First || e == 0 || e >= terms.len() {
+        return StepParts {
+            circuit: controlled(&step(terms, order, dt), plan),
+            cuts: Vec::new(),
+            merged_edge: None,
+        };
+    }
+    let (group, rest) = terms.split_at(e);
+    let (lead, middle, merged) = match order {
+        Order::Second => (
+            edge(group, dt / 2.0),
+            step(rest, Order::Second, dt),
+            edge(group, dt),
+        ),
+        _ => {
+            let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
+            let k = |x: f64| step(rest, Order::Second, x * dt);
+            let g = |x: f64| edge(group, x * dt / 2.0);
+            let middle = [
+                k(p),
+                g(2.0 * p),
+                k(p),
+                g(1.0 - 3.0 * p),
+                k(1.0 - 4.0 * p),
+                g(1.0 - 3.0 * p),
+                k(p),
+                g(2.0 * p),
+                k(p),
+            ]
+            .concat();
+            (g(p), middle, g(2.0 * p))
+        }
+    };
+    let mut trail = lead.clone();
+    trail.reverse();
+    let parts = [
+        controlled(&lead, plan),
+        controlled(&middle, plan),
+        controlled(&trail, plan),
+    ];
+    let a = parts[0].gates.len();
+    let b = a + parts[1].gates.len();
+    let mut circuit = Circuit::new(plan.initial_layout.len(), 0);
+    for part in parts {
+        circuit.extend(part.gates);
+    }
+    StepParts {
+        circuit,
+        cuts: vec![a, b],
+        merged_edge: Some(controlled(&merged, plan)),
+    }
+}
+
+/// A routed step, cut into the pieces a circuit of `r` steps is made of (see the module essay):
+/// `head · core₀ · join₀₁ · core₁ · join₁₀ · core₀ · … · core_b · tail_b`, with `core_b` the
+/// core of the last step. All physical (`dev.num_qubits` qubits), `swap` gates kept, not
+/// lowered; unused pieces are empty.
 #[derive(Clone, Debug)]
 pub struct RoutedStep {
-    /// `C : start → end`, physical qubits, `swap` gates kept, not lowered.
-    pub forward: Circuit,
-    /// Symmetric formulas: `mirror(C) : end → start`; order 1: `P·C : end → end`.
-    pub back: Circuit,
+    /// Layout before the first step.
     pub start: Vec<u32>,
-    pub end: Vec<u32>,
+    /// Before the first core.
+    pub head: Circuit,
+    /// `cores[0]` implements the first step's core, `cores[1]` each later one in turn.
+    pub cores: [Circuit; 2],
+    /// `joins[a][b]`: between `cores[a]` and `cores[b]`.
+    pub joins: [[Circuit; 2]; 2],
+    /// `tails[b]`: after the last core when it is `cores[b]`.
+    pub tails: [Circuit; 2],
+    /// `ends[b]`: the layout after `tails[b]`.
+    pub ends: [Vec<u32>; 2],
+    /// Mirror alternation (orders 2, 4) rather than SWAPs home (order 1).
     pub symmetric: bool,
 }
 
 impl RoutedStep {
-    /// Which block implements step `i` (counting from 0): 0 for `forward`, 1 for `back`.
-    pub fn block_index(&self, i: usize) -> usize {
+    /// Which core implements step `i` (counting from 0).
+    pub fn core_index(&self, i: usize) -> usize {
         if i == 0 || (self.symmetric && i.is_multiple_of(2)) {
             0
         } else {
@@ -222,64 +351,160 @@ impl RoutedStep {
         }
     }
 
-    /// The block that implements step `i` (counting from 0).
-    pub fn block(&self, i: usize) -> &Circuit {
-        if self.block_index(i) == 0 {
-            &self.forward
+    /// The layout after `steps` steps.
+    pub fn layout_after(&self, steps: usize) -> &[u32] {
+        if steps == 0 {
+            &self.start
         } else {
-            &self.back
+            &self.ends[self.core_index(steps - 1)]
         }
     }
 
-    /// The layout after `steps` blocks.
-    pub fn layout_after(&self, steps: usize) -> &[u32] {
-        if steps == 0 || (self.symmetric && steps.is_multiple_of(2)) {
-            &self.start
-        } else {
-            &self.end
+    /// The unlowered pieces of `steps` steps, in order (none for zero steps).
+    pub fn pieces(&self, steps: usize) -> Vec<&Circuit> {
+        let mut out = Vec::new();
+        if steps == 0 {
+            return out;
         }
+        out.push(&self.head);
+        for i in 0..steps {
+            let b = self.core_index(i);
+            out.push(&self.cores[b]);
+            if i + 1 < steps {
+                out.push(&self.joins[b][self.core_index(i + 1)]);
+            } else {
+                out.push(&self.tails[b]);
+            }
+        }
+        out
     }
 }
 
-/// Routes the logical step `step` (qubits `0..n`, ancilla last) once from the plan's initial
-/// layout and builds the block that follows it: its mirror when `symmetric`, else the SWAPs
-/// back to the initial layout followed by the step again.
+/// Two-qubit gates a physical circuit costs after peephole cancellation (a SWAP counts 3).
+fn two_qubit_cost(c: &Circuit) -> usize {
+    let mut c = c.clone();
+    cancel_inverses(&mut c);
+    c.gates
+        .iter()
+        .map(|g| match g {
+            Gate::Swap(..) => 3,
+            g if g.is_two_qubit() => 1,
+            _ => 0,
+        })
+        .sum()
+}
+
+fn physical(n_phys: usize, gates: &[Gate]) -> Circuit {
+    let mut c = Circuit::new(n_phys, 0);
+    c.extend(gates.iter().copied());
+    c
+}
+
+/// The two ways to implement a seam at layout `at` (both from `at` back to `at`): the mirrored
+/// pair of edges as given, and the merged group `merged` (logical) routed from `at` followed by
+/// the SWAPs home.
+pub(crate) fn seam_options(
+    pair: Circuit,
+    merged: &Circuit,
+    at: &[u32],
+    dev: &Device,
+    params: &SwapParams,
+) -> [Circuit; 2] {
+    let fresh = insert_swaps(merged, at, dev, params);
+    let mut alt = fresh.circuit;
+    alt.extend(
+        permutation_swaps(&fresh.final_layout, at, dev)
+            .into_iter()
+            .map(|(a, b)| Gate::Swap(a, b)),
+    );
+    [pair, alt]
+}
+
+/// Routes the step's parts once from the plan's initial layout (see [`route_from`]).
 pub fn route_step(
-    step: &Circuit,
+    parts: &StepParts,
     plan: &TargetPlan,
     dev: &Device,
     params: &SwapParams,
     symmetric: bool,
 ) -> RoutedStep {
-    let start = &plan.initial_layout[..step.num_qubits];
-    step_from_routing(insert_swaps(step, start, dev, params), plan, dev, symmetric)
+    let start = &plan.initial_layout[..parts.circuit.num_qubits];
+    let (fwd, marks) = insert_swaps_cut(&parts.circuit, start, dev, params, &parts.cuts);
+    route_from(parts, fwd, marks, plan, dev, params, symmetric)
 }
 
-/// [`route_step`] from a routing of the step already made from the plan's initial layout.
-pub fn step_from_routing(
+/// The [`RoutedStep`] of a routing of `parts` (with its marks at the cuts) made from the plan's
+/// initial layout: without cuts, `C` and its mirror (or the SWAPs home and `C` again, order 1);
+/// with cuts `E|M|E'`, the head `E`, the cores `M` and `mirror(M)`, the tails `E'` and
+/// `mirror(E)`, and at each seam the cheaper (in two-qubit gates after cancellation) of the
+/// mirrored edge pair and the merged group routed afresh followed by the SWAPs home.
+pub fn route_from(
+    parts: &StepParts,
     fwd: SwapOutcome,
+    marks: Vec<Mark>,
     plan: &TargetPlan,
     dev: &Device,
+    params: &SwapParams,
     symmetric: bool,
 ) -> RoutedStep {
+    let n_phys = dev.num_qubits;
     let start = plan.initial_layout[..fwd.final_layout.len()].to_vec();
-    let back = if symmetric {
-        mirror(&fwd.circuit)
-    } else {
-        let mut c = Circuit::new(fwd.circuit.num_qubits, 0);
-        c.extend(
-            permutation_swaps(&fwd.final_layout, &start, dev)
-                .into_iter()
-                .map(|(a, b)| Gate::Swap(a, b)),
-        );
-        c.extend(fwd.circuit.gates.iter().copied());
-        c
+    let empty = || Circuit::new(n_phys, 0);
+    let Some(merged) = parts.merged_edge.as_ref().filter(|_| marks.len() == 2) else {
+        let back = if symmetric {
+            mirror(&fwd.circuit)
+        } else {
+            let mut c = physical(n_phys, &[]);
+            c.extend(
+                permutation_swaps(&fwd.final_layout, &start, dev)
+                    .into_iter()
+                    .map(|(a, b)| Gate::Swap(a, b)),
+            );
+            c.extend(fwd.circuit.gates.iter().copied());
+            c
+        };
+        let end = fwd.final_layout.clone();
+        let ends = if symmetric {
+            [end, start.clone()]
+        } else {
+            [end.clone(), end]
+        };
+        return RoutedStep {
+            start,
+            head: empty(),
+            cores: [fwd.circuit, back],
+            joins: [[empty(), empty()], [empty(), empty()]],
+            tails: [empty(), empty()],
+            ends,
+            symmetric,
+        };
     };
+    let g = &fwd.circuit.gates;
+    let lead = physical(n_phys, &g[..marks[0].at]);
+    let middle = physical(n_phys, &g[marks[0].at..marks[1].at]);
+    let trail = physical(n_phys, &g[marks[1].at..]);
+    // A seam at layout `at`: the mirrored pair of edges, or the merged group and the way back.
+    let seam = |pair: Circuit, at: &[u32]| -> Circuit {
+        let [pair, alt] = seam_options(pair, merged, at, dev, params);
+        if two_qubit_cost(&alt) < two_qubit_cost(&pair) {
+            alt
+        } else {
+            pair
+        }
+    };
+    let mut pair_b = trail.clone();
+    pair_b.extend(mirror(&trail).gates);
+    let mut pair_a = mirror(&lead);
+    pair_a.extend(lead.gates.iter().copied());
+    let join_b = seam(pair_b, &marks[1].layout);
+    let join_a = seam(pair_a, &marks[0].layout);
     RoutedStep {
-        forward: fwd.circuit,
-        back,
+        head: lead.clone(),
+        cores: [middle.clone(), mirror(&middle)],
+        joins: [[empty(), join_b], [join_a, empty()]],
+        tails: [trail, mirror(&lead)],
+        ends: [fwd.final_layout, start.clone()],
         start,
-        end: fwd.final_layout,
         symmetric,
     }
 }
@@ -331,6 +556,115 @@ mod tests {
                     }
                 }
                 assert_eq!(at, to);
+            }
+        }
+    }
+
+    /// A 4-qubit Heisenberg chain with fields (XX, YY and ZZ groups, so the step splits) on a
+    /// 3×3 grid, its plan with the ancilla, and its split Strang step.
+    fn split_case() -> (Device, TargetPlan, StepParts, SwapParams) {
+        use crate::pauli::{Pauli, PauliSum};
+        let mut h = PauliSum::new(4);
+        for q in 0..4 {
+            h.add(PauliString::single(q, Pauli::Z), 0.3 + 0.1 * q as f64);
+            if q < 3 {
+                for p in [Pauli::X, Pauli::Y, Pauli::Z] {
+                    h.add(PauliString::from_factors(&[(q, p), (q + 1, p)]).1, 0.8);
+                }
+            }
+        }
+        let dev = Device::new(
+            "grid",
+            9,
+            &lattice::grid(3, 3),
+            NativeSet::rz_sx_x_cx(),
+            Calibration::default(),
+        );
+        let mut plan = TargetPlan::with_layout(4, true, &dev, vec![0, 4, 8, 2, 6]).unwrap();
+        let groups = crate::formula::term_groups(&h);
+        assert!(groups.len() >= 2);
+        plan.edge_terms = groups[0].len();
+        let parts = step_parts(&groups.concat(), &plan, Order::Second, 0.35);
+        let params = SwapParams {
+            extended_size: 20,
+            extended_weight: 0.5,
+            decay_step: 0.001,
+            decay_reset: 5,
+            seed: 1,
+            stall_limit: None,
+            hub: plan.ancilla,
+            hub_factor: 0.9,
+        };
+        (dev, plan, parts, params)
+    }
+
+    fn routed(circuit: Circuit, from: &[u32], to: &[u32]) -> crate::route::Routed {
+        crate::route::Routed {
+            circuit,
+            initial_layout: from.to_vec(),
+            final_layout: to.to_vec(),
+            swaps: 0,
+        }
+    }
+
+    #[test]
+    fn cut_routing_splits_into_segments_that_each_implement_their_part() {
+        let (dev, plan, parts, params) = split_case();
+        assert_eq!(parts.cuts.len(), 2);
+        let (fwd, marks) = insert_swaps_cut(
+            &parts.circuit,
+            &plan.initial_layout,
+            &dev,
+            &params,
+            &parts.cuts,
+        );
+        let bounds = [0, parts.cuts[0], parts.cuts[1], parts.circuit.gates.len()];
+        let outs = [0, marks[0].at, marks[1].at, fwd.circuit.gates.len()];
+        let layouts = [
+            plan.initial_layout.clone(),
+            marks[0].layout.clone(),
+            marks[1].layout.clone(),
+            fwd.final_layout.clone(),
+        ];
+        for i in 0..3 {
+            let mut logical = Circuit::new(5, 0);
+            logical.extend(
+                parts.circuit.gates[bounds[i]..bounds[i + 1]]
+                    .iter()
+                    .copied(),
+            );
+            let seg = physical(9, &fwd.circuit.gates[outs[i]..outs[i + 1]]);
+            let err =
+                crate::route::routing_error(&logical, &routed(seg, &layouts[i], &layouts[i + 1]))
+                    .unwrap();
+            assert!(err < 1e-9, "segment {i}: {err}");
+        }
+    }
+
+    #[test]
+    fn both_seam_options_are_the_merged_group() {
+        // At each seam the mirrored edge pair and the freshly routed merged group (plus the
+        // SWAPs home) must both equal the first group at the full angle, layouts applied.
+        let (dev, plan, parts, params) = split_case();
+        let (fwd, marks) = insert_swaps_cut(
+            &parts.circuit,
+            &plan.initial_layout,
+            &dev,
+            &params,
+            &parts.cuts,
+        );
+        let merged = parts.merged_edge.clone().unwrap();
+        let g = &fwd.circuit.gates;
+        let lead = physical(9, &g[..marks[0].at]);
+        let trail = physical(9, &g[marks[1].at..]);
+        let mut pair_b = trail.clone();
+        pair_b.extend(mirror(&trail).gates);
+        let mut pair_a = mirror(&lead);
+        pair_a.extend(lead.gates.iter().copied());
+        for (pair, at) in [(pair_b, &marks[1].layout), (pair_a, &marks[0].layout)] {
+            for option in seam_options(pair, &merged, at, &dev, &params) {
+                let err = crate::route::routing_error(&merged, &routed(option, at, at)).unwrap();
+                assert!(err < 1e-9, "{err}");
             }
         }
     }

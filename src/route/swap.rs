@@ -196,6 +196,10 @@ struct Router<'a> {
     /// The front gate on each logical qubit, or `NONE`.
     front_of: Vec<u32>,
     heap: BinaryHeap<Reverse<u32>>,
+    /// Gates from this index on wait for the ones before it (a cut, see [`insert_swaps_cut`]).
+    barrier: u32,
+    deferred: Vec<u32>,
+    done_count: usize,
     layout: Layout,
     decay: Vec<f64>,
     decay_epoch: Vec<u32>,
@@ -256,6 +260,10 @@ impl Router<'_> {
         let mut ran_two = false;
         while let Some(Reverse(g)) = self.heap.pop() {
             let gi = g as usize;
+            if g >= self.barrier {
+                self.deferred.push(g);
+                continue;
+            }
             if self.done[gi] || !self.ready(g) {
                 continue;
             }
@@ -280,6 +288,7 @@ impl Router<'_> {
             let l2p = &self.layout.l2p;
             self.out.push(gate.map_qubits(|q| l2p[q as usize]));
             self.done[gi] = true;
+            self.done_count += 1;
             for q in gate.qubits() {
                 let q = q as usize;
                 self.head[q] += 1;
@@ -482,6 +491,28 @@ impl Router<'_> {
 /// `initial[l]` is the physical qubit of logical qubit `l` (`initial.len() ≥ c.num_qubits`, all
 /// distinct, and every pair of them connected in the coupling graph).
 pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) -> SwapOutcome {
+    insert_swaps_cut(c, initial, dev, p, &[]).0
+}
+
+/// Where a cut fell in the routed output: the number of output gates before it, and the layout
+/// (logical → physical) there.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Mark {
+    pub at: usize,
+    pub layout: Vec<u32>,
+}
+
+/// [`insert_swaps`] with *cuts*: ascending indices into `c`'s unitary gates; every gate before a
+/// cut runs (with its SWAPs) before any gate after it, so the output splits at the returned
+/// [`Mark`]s into circuits that each implement their segment of `c` between the layouts there.
+/// The lookahead window still sees past a cut, so routing a segment prepares for the next.
+pub fn insert_swaps_cut(
+    c: &Circuit,
+    initial: &[u32],
+    dev: &Device,
+    p: &SwapParams,
+    cuts: &[usize],
+) -> (SwapOutcome, Vec<Mark>) {
     let n_log = c.num_qubits;
     let n_phys = dev.num_qubits;
     let gates: Vec<Gate> = c.unitary_gates().copied().collect();
@@ -517,6 +548,9 @@ pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) 
         front: Vec::new(),
         front_of: vec![NONE; n_log],
         heap,
+        barrier: cuts.first().map_or(u32::MAX, |&c| c as u32),
+        deferred: Vec::new(),
+        done_count: 0,
         layout: Layout::new(&initial[..n_log], n_phys),
         decay: vec![1.0; n_phys],
         decay_epoch: vec![0; n_phys],
@@ -537,8 +571,25 @@ pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) 
     let guard = p.stall_limit.unwrap_or(n_phys.max(8));
     let mut since_progress = 0usize;
     let mut since_reset = 0usize;
+    let mut marks = Vec::with_capacity(cuts.len());
     r.drain();
-    while !r.front.is_empty() {
+    loop {
+        while r.front.is_empty() && marks.len() < cuts.len() && r.done_count == cuts[marks.len()] {
+            marks.push(Mark {
+                at: r.out.len(),
+                layout: r.layout.l2p[..n_log].to_vec(),
+            });
+            r.barrier = cuts.get(marks.len()).map_or(u32::MAX, |&c| c as u32);
+            let waiting = std::mem::take(&mut r.deferred);
+            r.heap.extend(waiting.into_iter().map(Reverse));
+            r.drain();
+            since_progress = 0;
+            since_reset = 0;
+            r.reset_decay();
+        }
+        if r.front.is_empty() {
+            break;
+        }
         if since_progress >= guard {
             r.force_progress();
             since_progress = 0;
@@ -571,11 +622,15 @@ pub fn insert_swaps(c: &Circuit, initial: &[u32], dev: &Device, p: &SwapParams) 
     for (q, bit) in c.measurements() {
         out.push(Gate::Measure(final_layout[q as usize], bit));
     }
-    SwapOutcome {
-        circuit: out,
-        final_layout,
-        swaps: r.swaps,
-    }
+    debug_assert_eq!(marks.len(), cuts.len(), "every cut was reached");
+    (
+        SwapOutcome {
+            circuit: out,
+            final_layout,
+            swaps: r.swaps,
+        },
+        marks,
+    )
 }
 
 /// The circuit's unitary gates in reverse order, measurements dropped: the input of the backward
