@@ -149,6 +149,9 @@ pub fn check_plan_with(
 ) -> Result<Vec<CircuitCheck>, String> {
     let h = plan_hamiltonian(plan)?;
     let n = h.num_qubits;
+    // The references hold statevectors of the Hamiltonian's width (and its exact propagator):
+    // refuse before allocating when they cannot fit.
+    crate::sim::check_fits(n, 2)?;
     let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
     let terms = order_terms(&h);
     let strings: Vec<PauliString> = h.terms.keys().cloned().collect();

@@ -97,4 +97,12 @@ fn a_120_qubit_chain_on_the_127_qubit_heavy_hexagon_chip_is_native_coupled_and_p
     assert!(v.status.success());
     let json: serde_json::Value = serde_json::from_slice(&v.stdout).unwrap();
     assert_eq!(json["method"], "tableau");
+    // Asking for simulation at this width is refused with the other check named, not a crash.
+    let v = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args(["verify", out.to_str().unwrap(), "--method", "statevector"])
+        .output()
+        .unwrap();
+    assert_eq!(v.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&v.stderr).contains("verify --method tableau"));
 }
