@@ -5,6 +5,7 @@
 //! a closed stdout (the reader of a pipe stopped early) is a quiet exit with status 0.
 
 use crate::circuit::verify::IrError;
+use crate::lang::codes::Code;
 use crate::lang::diag::{render_all, Diagnostic};
 use std::fmt;
 
@@ -14,6 +15,7 @@ pub enum Error {
     Input(Vec<Diagnostic>),
     /// A bad command-line value or an input problem without a position in a file.
     Usage {
+        code: Code,
         message: String,
         hint: Option<String>,
     },
@@ -32,8 +34,9 @@ pub enum Error {
 }
 
 impl Error {
-    pub fn usage(message: impl Into<String>, hint: Option<&str>) -> Error {
+    pub fn usage(code: Code, message: impl Into<String>, hint: Option<&str>) -> Error {
         Error::Usage {
+            code,
             message: message.into(),
             hint: hint.map(str::to_string),
         }
@@ -41,6 +44,17 @@ impl Error {
 
     pub fn input(d: Diagnostic) -> Error {
         Error::Input(vec![d])
+    }
+
+    /// The catalogue code of the problem (the first diagnostic's, for input errors).
+    pub fn code(&self) -> Option<Code> {
+        match self {
+            Error::Input(ds) => ds.first().map(|d| d.code),
+            Error::Usage { code, .. } => Some(*code),
+            Error::Io { .. } => Some(Code::FileAccess),
+            Error::Ir(_) | Error::Internal(_) => Some(Code::Internal),
+            Error::BrokenPipe => None,
+        }
     }
 
     /// 2 for bad input, 1 for internal failure.
@@ -63,13 +77,23 @@ impl Error {
 impl fmt::Display for Error {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            Error::Input(ds) => write!(f, "{}", render_all(ds)),
-            Error::Usage { message, hint } => {
-                writeln!(f, "error: {message}")?;
+            Error::Input(ds) => {
+                write!(f, "{}", render_all(ds))?;
+                if let Some(d) = ds.first() {
+                    writeln!(f, "(`phasewright explain {}` says more)", d.code)?;
+                }
+                Ok(())
+            }
+            Error::Usage {
+                code,
+                message,
+                hint,
+            } => {
+                writeln!(f, "error {code}: {message}")?;
                 if let Some(h) = hint {
                     writeln!(f, "hint: {h}")?;
                 }
-                Ok(())
+                writeln!(f, "(`phasewright explain {code}` says more)")
             }
             Error::Io {
                 path,
@@ -81,13 +105,16 @@ impl fmt::Display for Error {
                 } else {
                     "cannot write"
                 };
-                writeln!(f, "error: {verb} {path}: {source}")
+                let code = Code::FileAccess;
+                writeln!(f, "error {code}: {verb} {path}: {source}")?;
+                writeln!(f, "(`phasewright explain {code}` says more)")
             }
             Error::Ir(e) => writeln!(
                 f,
-                "internal error (a phasewright bug, please report it): {e}"
+                "internal error {} (a phasewright bug, please report it): {e}",
+                Code::Internal
             ),
-            Error::Internal(m) => writeln!(f, "internal error: {m}"),
+            Error::Internal(m) => writeln!(f, "internal error {}: {m}", Code::Internal),
             Error::BrokenPipe => Ok(()),
         }
     }

@@ -11,8 +11,21 @@ fn main() -> ExitCode {
     let cli = match phasewright::app::Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
-            // Help and version go to stdout, usage errors to stderr; a closed stream is ignored.
-            let _ = e.print();
+            // Help and version go to stdout, usage errors to stderr with their catalogue code;
+            // a closed stream is ignored.
+            match phasewright::app::usage_code(e.kind()) {
+                None => {
+                    let _ = e.print();
+                }
+                Some(code) => {
+                    let text = e.render().to_string();
+                    let body = text.strip_prefix("error: ").unwrap_or(&text);
+                    let _ = writeln!(
+                        std::io::stderr(),
+                        "error {code}: {body}(`phasewright explain {code}` says more)"
+                    );
+                }
+            }
             return ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2));
         }
     };

@@ -65,10 +65,12 @@ impl From<CompileError> for crate::error::Error {
     fn from(e: CompileError) -> crate::error::Error {
         match e {
             CompileError::DoesNotFit(m) => crate::error::Error::usage(
+                crate::lang::codes::Code::UsageInput,
                 m,
                 Some("choose a larger device, or one whose coupling graph is connected"),
             ),
             CompileError::TooLarge(m) => crate::error::Error::usage(
+                crate::lang::codes::Code::UsageLimit,
                 m,
                 Some("use fewer --points or --steps, a lower --order, or fewer terms (a cutoff on small coefficients)"),
             ),

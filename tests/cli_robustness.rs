@@ -723,10 +723,20 @@ fn keyword_typos_get_a_suggestion_and_the_other_language_is_named() {
         &err,
         "this file describes a device (.dev), not a Hamiltonian",
     );
-    assert_eq!(err.matches("error:").count(), 1, "{err}");
+    assert_eq!(err.matches("error H103: ").count(), 1, "{err}");
+    assert_eq!(
+        err.lines().filter(|l| l.starts_with("error ")).count(),
+        1,
+        "{err}"
+    );
     let (code, _, err) = compile(&good, Some(Path::new("examples/mixed_field4.ham")));
     assert_bad_input(code, &err, "holds a Hamiltonian (.ham), not a device");
-    assert_eq!(err.matches("error:").count(), 1, "{err}");
+    assert_eq!(err.matches("error D103: ").count(), 1, "{err}");
+    assert_eq!(
+        err.lines().filter(|l| l.starts_with("error ")).count(),
+        1,
+        "{err}"
+    );
 }
 
 #[test]

@@ -354,7 +354,7 @@ fn the_rendered_diagnostic_matches_grammar_device_md() {
     let e = parse_device("chip.dev", &format!("{GOOD_HEAD}link 2 6\n")).unwrap_err();
     assert_eq!(
         e[0].to_string(),
-        "error: chip.dev:4:8: qubit 6 does not exist (the device has 6 qubits)\n  |\n4 | link 2 6\n  |        ^\nhint: qubits are numbered from 0; declare more with `qubits N`\n"
+        "error D104: chip.dev:4:8: qubit 6 does not exist (the device has 6 qubits)\n  |\n4 | link 2 6\n  |        ^\nhint: qubits are numbered from 0; declare more with `qubits N`\n"
     );
 }
 

@@ -1145,8 +1145,9 @@ fn run_binary(args: &[&str], file: &Path, text: &[u8]) -> Result<i32, String> {
     let prefix = format!("{}:", file.display());
     for l in err.lines() {
         let Some(rest) = l
-            .strip_prefix("error: ")
-            .and_then(|r| r.strip_prefix(&prefix))
+            .strip_prefix("error ")
+            .and_then(|r| r.split_once(": "))
+            .and_then(|(_, r)| r.strip_prefix(&prefix))
         else {
             continue;
         };

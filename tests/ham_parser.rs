@@ -37,7 +37,7 @@ fn unknown_factor_renders_with_caret_and_hint() {
     let d = errors("qubits 4\n0.25 X0 Q1\n");
     assert_eq!(
         d[0].to_string(),
-        "error: t.ham:2:9: unknown factor `Q1`\n  |\n2 | 0.25 X0 Q1\n  |         ^^\n\
+        "error H103: t.ham:2:9: unknown factor `Q1`\n  |\n2 | 0.25 X0 Q1\n  |         ^^\n\
          hint: factors are X, Y, Z (Pauli) or cr, an, n (fermionic) glued to an index, e.g. `X3`, `Z{i+1}`, `cr{k}`\n"
     );
 }
@@ -490,7 +490,7 @@ fn non_hermitian_product() {
             "the Hamiltonian is not Hermitian: `Z0` has merged coefficient 1i"
         )
     );
-    assert_eq!(d[0].width, "1.0 X0 Y0".len());
+    assert_eq!(d[0].width, "1.0 X0 Y0".len() as u32);
 }
 
 #[test]

@@ -5,6 +5,7 @@ use crate::error::{Error, Result};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
+use crate::lang::codes::Code;
 use crate::lang::diag::Diagnostic;
 use crate::pipeline::{compile_for, Compiled, Target};
 use crate::report::table::Table;
@@ -138,7 +139,7 @@ fn check_size(size: CampaignSize, args: &CompileArgs) -> Result<()> {
     if size.circuits <= MAX_CIRCUITS && size.rotations <= MAX_ROTATIONS {
         return Ok(());
     }
-    Err(Error::usage(
+    Err(Error::usage(Code::UsageLimit,
         format!(
             "--points {} --steps {} would emit {} circuits holding about {} controlled rotations (≈ {}); the limits are {} circuits and {} rotations",
             args.points,
@@ -175,7 +176,7 @@ fn human_bytes(b: f64) -> String {
 fn check_state(state: &str, n: usize) -> Result<()> {
     if let Err(b) = state_prep(state) {
         let offset = state.char_indices().nth(b.index).map_or(0, |(i, _)| i);
-        return Err(Error::input(Diagnostic::at(
+        return Err(Error::input(Diagnostic::at(Code::UsageOption,
             "--state",
             state,
             offset,
@@ -187,6 +188,7 @@ fn check_state(state: &str, n: usize) -> Result<()> {
     let len = state.chars().count();
     if len != n {
         return Err(Error::input(Diagnostic::at(
+            Code::UsageOption,
             "--state",
             state,
             0,
@@ -201,24 +203,27 @@ fn check_state(state: &str, n: usize) -> Result<()> {
 pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let order = Order::from_number(args.order).ok_or_else(|| {
         Error::usage(
+            Code::UsageOption,
             format!("--order {} is not supported", args.order),
             Some("use 1 (Lie–Trotter), 2 (Strang) or 4 (Suzuki)"),
         )
     })?;
     if !(args.dt.is_finite() && args.dt > 0.0) {
         return Err(Error::usage(
+            Code::UsageOption,
             format!("--dt {} must be a positive number", args.dt),
             None,
         ));
     }
     if args.points < 2 {
         return Err(Error::usage(
+            Code::UsageOption,
             "--points must be at least 2 (k = 0 and at least one evolved point)",
             None,
         ));
     }
     if args.points > crate::family::plan::MAX_POINTS {
-        return Err(Error::usage(
+        return Err(Error::usage(Code::UsageLimit,
             format!(
                 "--points {} is more than the {} time points a campaign may have",
                 args.points,
@@ -228,7 +233,11 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         ));
     }
     if args.steps == 0 {
-        return Err(Error::usage("--steps must be at least 1", None));
+        return Err(Error::usage(
+            Code::UsageOption,
+            "--steps must be at least 1",
+            None,
+        ));
     }
     super::io::check_out_folder(&args.out, args.force)?;
     let opts = super::convert::LoadOptions {
@@ -240,13 +249,14 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         ("--device", args.device.as_deref()),
     ])?;
     if args.measure == MeasureKind::Trace && args.state.is_some() {
-        return Err(Error::usage(
+        return Err(Error::usage(Code::UsageConflict,
             "--state has no effect with --measure trace, which draws --samples random product states from --seed",
             Some("drop --state, or use --measure overlap or krylov for one reference state"),
         ));
     }
     if args.measure != MeasureKind::Trace && args.samples.is_some() {
         return Err(Error::usage(
+            Code::UsageConflict,
             "--samples applies to --measure trace only",
             Some("drop --samples, or add --measure trace"),
         ));
@@ -255,6 +265,7 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
+            Code::UsageInput,
             format!(
                 "{} has no non-identity term: there is nothing to evolve",
                 super::io::display_name(&args.hamiltonian)
@@ -272,20 +283,25 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         MeasureKind::Trace => {
             let samples = args.samples.unwrap_or(DEFAULT_SAMPLES);
             if samples == 0 {
-                return Err(Error::usage("--samples must be at least 1", None));
+                return Err(Error::usage(
+                    Code::UsageOption,
+                    "--samples must be at least 1",
+                    None,
+                ));
             }
             (Family::Trace, random_states(n, samples, args.seed))
         }
         kind => {
             let mut state = args.state.clone().ok_or_else(|| {
                 Error::usage(
+                    Code::UsageConflict,
                     "--state is required for this campaign",
                     Some("e.g. --state 0101 (one letter per qubit, qubit 0 first)"),
                 )
             })?;
             if state == "hf" {
                 state = chem.as_ref().map(|c| c.hf_state.clone()).ok_or_else(|| {
-                    Error::usage(
+                    Error::usage(Code::UsageConflict,
                         "--state hf needs an integral (FCIDUMP) input, which says how many electrons there are",
                         Some("give the determinant explicitly, e.g. --state 1100"),
                     )

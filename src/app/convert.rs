@@ -9,6 +9,7 @@ use crate::app::io::read_text;
 use crate::error::{Error, Result};
 use crate::fermion::fcidump::{self, ActiveSpace};
 use crate::fermion::{qubit_hamiltonian_from_integrals, ChemInfo, Encoding};
+use crate::lang::codes::Code;
 use crate::lang::ham::write_hamiltonian;
 use crate::pauli::PauliSum;
 use clap::Args;
@@ -98,6 +99,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
     if fcidump::looks_like_fcidump(&src) {
         let Some(enc) = opts.encoding else {
             return Err(Error::usage(
+                Code::UsageInput,
                 format!("{name} is an integral file: choose the encoding"),
                 Some("pass --encoding jw (Jordan–Wigner) or --encoding bk (Bravyi–Kitaev)"),
             ));
@@ -106,14 +108,18 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
         let (ints, frozen) = match opts.active {
             Some(space) => (
                 fcidump::restrict(&ints, space).map_err(|m| {
-                    Error::usage(m, Some("--active FIRST-LAST counts orbitals from 1"))
+                    Error::usage(
+                        Code::UsageOption,
+                        m,
+                        Some("--active FIRST-LAST counts orbitals from 1"),
+                    )
                 })?,
                 space.frozen,
             ),
             None => (ints, 0),
         };
         let (h, info) = qubit_hamiltonian_from_integrals(&ints, enc, frozen)
-            .map_err(|m| Error::usage(format!("{name}: {m}"), None))?;
+            .map_err(|m| Error::usage(Code::FciValue, format!("{name}: {m}"), None))?;
         let loaded = Loaded {
             encoding: Some(enc),
             terms_read: 0,
@@ -123,6 +129,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
     }
     if opts.active.is_some() {
         return Err(Error::usage(
+            Code::UsageConflict,
             "--active applies to integral files only",
             Some("select orbitals in an FCIDUMP input"),
         ));
@@ -141,6 +148,7 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
     let to_stdout = crate::app::io::is_stdio(&args.output);
     if to_stdout && g.json {
         return Err(Error::usage(
+            Code::OutputPath,
             "-o - and --json both want stdout",
             Some("write the .ham to a file, or drop --json"),
         ));

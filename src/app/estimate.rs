@@ -12,6 +12,7 @@ use crate::estimate::{
     self, Analysis, Config, DosReport, EnergyReport, KrylovKind, DEFAULT_BOOTSTRAP,
 };
 use crate::family::plan::Plan;
+use crate::lang::codes::Code;
 use crate::report::plot;
 use clap::{Args, ValueEnum};
 use serde_json::{json, Value};
@@ -105,6 +106,7 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     let plot_to_stdout = args.plot.as_deref().is_some_and(super::io::is_stdio);
     if plot_to_stdout && g.json {
         return Err(Error::usage(
+            Code::OutputPath,
             "--plot - and --json both want stdout",
             Some("write the plot to a .svg file, or drop --json"),
         ));
@@ -124,6 +126,7 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     if args.undo_loss {
         estimate::sanity::calibrated_loss(&plan).map_err(|m| {
             Error::usage(
+                Code::UsageConflict,
                 format!("--undo-loss: {m}"),
                 Some("compile the campaign with --device D.dev, or drop --undo-loss"),
             )
@@ -138,8 +141,13 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         undo_loss: args.undo_loss,
         ..Config::default()
     };
-    let analysis = estimate::analyse(&plan, &counts, &cfg)
-        .map_err(|m| Error::usage(m, Some("check that the counts answer this plan")))?;
+    let analysis = estimate::analyse(&plan, &counts, &cfg).map_err(|m| {
+        Error::usage(
+            Code::CountsPlan,
+            m,
+            Some("check that the counts answer this plan"),
+        )
+    })?;
     if let Some(path) = &args.plot {
         let svg = match &analysis {
             Analysis::Energies(r) => plot::energy_svg(r, &plan.energy_label()),

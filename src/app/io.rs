@@ -5,6 +5,7 @@
 
 use crate::error::{Error, Result};
 use crate::family::plan::{PathStep, Plan, PLAN_FORMAT};
+use crate::lang::codes::Code;
 use crate::lang::diag::Diagnostic;
 use crate::lang::json_span::{locate, Step};
 use std::io::Write;
@@ -65,6 +66,7 @@ pub fn read_text(path: &Path) -> Result<String> {
     })?;
     String::from_utf8(bytes).map_err(|e| {
         Error::input(Diagnostic::whole_file(
+            Code::UsageInput,
             &name,
             format!(
                 "not a text file (invalid UTF-8 at byte {})",
@@ -84,6 +86,7 @@ pub fn one_stdin(inputs: &[(&str, Option<&Path>)]) -> Result<()> {
         .collect();
     if from_stdin.len() > 1 {
         return Err(Error::usage(
+            Code::UsageConflict,
             format!("{} cannot all read stdin (`-`)", from_stdin.join(" and ")),
             Some("at most one input can come from stdin; give the others as files"),
         ));
@@ -122,6 +125,7 @@ pub fn check_out_file(
             Ok(())
         } else {
             Err(Error::usage(
+                Code::OutputPath,
                 format!("{option} - (stdout) is not available here"),
                 Some("name a file"),
             ))
@@ -129,6 +133,7 @@ pub fn check_out_file(
     }
     if path.is_dir() {
         return Err(Error::usage(
+            Code::OutputPath,
             format!("{option} `{}` is a folder", path.display()),
             Some("name a file inside it"),
         ));
@@ -140,6 +145,7 @@ pub fn check_out_file(
             .is_some_and(|e| e.eq_ignore_ascii_case(ext));
         if !ok {
             return Err(Error::usage(
+                Code::OutputPath,
                 format!(
                     "{option} `{}`: phasewright writes {} files only",
                     path.display(),
@@ -153,6 +159,7 @@ pub fn check_out_file(
     if let Some(p) = parent {
         if !p.is_dir() {
             return Err(Error::usage(
+                Code::OutputPath,
                 format!(
                     "{option} `{}`: the folder `{}` does not exist",
                     path.display(),
@@ -214,6 +221,7 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
             offset = crate::lang::json_span::token_start(&text, offset);
         }
         Error::input(Diagnostic::at(
+            Code::PlanSyntax,
             &name,
             &text,
             offset,
@@ -231,6 +239,7 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
         let shown = format.map_or_else(|| "none".to_string(), |f| format!("`{f}`"));
         let span = locate(&text, &[Step::Key("format")]).map_or((0, 1), |s| s.value);
         return Err(Error::input(Diagnostic::at(
+            Code::PlanSyntax,
             &name,
             &text,
             span.0,
@@ -264,9 +273,9 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
                 match locate(&text, &steps) {
                     Some(span) => {
                         let (o, l) = span.value;
-                        Diagnostic::at(&name, &text, o, l, p.message, hint)
+                        Diagnostic::at(Code::PlanInconsistent, &name, &text, o, l, p.message, hint)
                     }
-                    None => Diagnostic::whole_file(&name, p.message, hint),
+                    None => Diagnostic::whole_file(Code::PlanInconsistent, &name, p.message, hint),
                 }
             })
             .collect(),
@@ -286,7 +295,7 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
                 return Err(Error::input(d));
             }
             let text = String::from_utf8(bytes).map_err(|_| {
-                Error::input(Diagnostic::whole_file(
+                Error::input(Diagnostic::whole_file(Code::QasmSyntax,
                     &path.display().to_string(),
                     "not a text file",
                     Some("a circuit file is OpenQASM 3 text; recompile the campaign".into()),
@@ -296,7 +305,7 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
             let prog = crate::qasm::read(&name, &text).map_err(Error::input)?;
             let c = prog.circuit;
             if c.num_clbits != e.num_clbits || c.num_qubits > e.num_qubits {
-                return Err(Error::input(Diagnostic::whole_file(
+                return Err(Error::input(Diagnostic::whole_file(Code::QasmPlan,
                     &name,
                     format!(
                         "uses {} qubits and {} classical bits, but plan.json gives circuit `{}` {} and {}",
@@ -312,7 +321,7 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
                 .flat_map(|r| &r.bits)
                 .find(|b| !measured.contains(b))
             {
-                return Err(Error::input(Diagnostic::whole_file(
+                return Err(Error::input(Diagnostic::whole_file(Code::QasmPlan,
                     &name,
                     format!(
                         "never measures classical bit {b}, which plan.json reads for circuit `{}`",
@@ -355,6 +364,7 @@ fn changed_file(
     let got = sha256_hex(bytes);
     (got != want).then(|| {
         Diagnostic::whole_file(
+            Code::PlanFiles,
             &dir.join(&e.file).display().to_string(),
             format!(
                 "changed since it was compiled: its SHA-256 is {}…, plan.json records {}…",
@@ -378,6 +388,7 @@ fn campaign_file(
     std::fs::read(&path).map_err(|source| {
         if source.kind() == std::io::ErrorKind::NotFound {
             Error::input(Diagnostic::whole_file(
+                Code::PlanFiles,
                 &path.display().to_string(),
                 format!("missing: plan.json lists it for circuit `{}`", e.id),
                 Some("the campaign folder is incomplete; recompile it".into()),
@@ -484,12 +495,14 @@ pub fn inspect_out_folder(dir: &Path) -> Result<OutFolder> {
 pub fn check_out_folder(dir: &Path, force: bool) -> Result<()> {
     if dir.as_os_str() == "-" {
         return Err(Error::usage(
+            Code::OutputPath,
             "a campaign is a folder of files and cannot go to stdout (`-o -`)",
             Some("name a folder, e.g. -o out/campaign"),
         ));
     }
     if dir.file_name().is_none() {
         return Err(Error::usage(
+            Code::OutputPath,
             format!("`{}` cannot be replaced by a campaign", dir.display()),
             Some("name a folder of its own, e.g. -o out/campaign"),
         ));
@@ -497,6 +510,7 @@ pub fn check_out_folder(dir: &Path, force: bool) -> Result<()> {
     match inspect_out_folder(dir)? {
         OutFolder::Absent | OutFolder::Replaceable => Ok(()),
         OutFolder::NotAFolder => Err(Error::usage(
+            Code::OutputPath,
             format!("`{}` exists and is not a folder", dir.display()),
             Some("-o names the campaign folder; choose a new name or remove the file"),
         )),
@@ -508,7 +522,7 @@ pub fn check_out_folder(dir: &Path, force: bool) -> Result<()> {
             } else {
                 String::new()
             };
-            Err(Error::usage(
+            Err(Error::usage(Code::OutputPath,
                 format!(
                     "`{}` holds {}{more}, which is not part of an older phasewright campaign; refusing to replace it",
                     dir.display(),

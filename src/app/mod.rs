@@ -9,6 +9,7 @@
 pub mod compile;
 pub mod convert;
 pub mod estimate;
+pub mod explain;
 pub mod io;
 pub mod rehearse;
 pub mod verify;
@@ -93,9 +94,26 @@ pub enum Command {
     /// Turn measured counts into energies or a density of states.
     #[command(long_about = estimate::ESTIMATE_HELP)]
     Estimate(estimate::EstimateArgs),
+    /// Explain a diagnostic code (the `H104` of `error H104: …`), or list them all.
+    #[command(after_help = explain::EXAMPLES)]
+    Explain(explain::ExplainArgs),
     #[command(alias = "sample")]
     Rehearse(rehearse::RehearseArgs),
     Verify(verify::VerifyArgs),
+}
+
+/// The catalogue code of a command-line error found by the argument parser; `None` for help
+/// and version requests, which are not errors.
+pub fn usage_code(kind: clap::error::ErrorKind) -> Option<crate::lang::codes::Code> {
+    use crate::lang::codes::Code;
+    use clap::error::ErrorKind as K;
+    match kind {
+        K::DisplayHelp | K::DisplayVersion | K::DisplayHelpOnMissingArgumentOrSubcommand => None,
+        K::ArgumentConflict | K::MissingRequiredArgument | K::MissingSubcommand => {
+            Some(Code::UsageConflict)
+        }
+        _ => Some(Code::UsageOption),
+    }
 }
 
 /// Runs one command.
@@ -105,6 +123,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Compile(a) => compile::run(&a, &g),
         Command::Convert(a) => convert::run(a, &g),
         Command::Estimate(a) => estimate::run(&a, &g),
+        Command::Explain(a) => explain::run(&a, &g),
         Command::Rehearse(a) => rehearse::run(&a, &g),
         Command::Verify(a) => verify::run(&a, &g),
     }

@@ -7,6 +7,7 @@
 
 use super::io::{read_plan, read_plan_circuits};
 use crate::error::{Error, Result};
+use crate::lang::codes::Code;
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::Args;
@@ -58,7 +59,11 @@ fn mix(mut z: u64) -> u64 {
 
 pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     if args.shots == 0 {
-        return Err(Error::usage("--shots must be at least 1", None));
+        return Err(Error::usage(
+            Code::UsageOption,
+            "--shots must be at least 1",
+            None,
+        ));
     }
     let out = args
         .out
@@ -67,6 +72,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     let to_stdout = super::io::is_stdio(&out);
     if to_stdout && g.json {
         return Err(Error::usage(
+            Code::OutputPath,
             "-o - and --json both want stdout",
             Some("write the counts to a file, or drop --json"),
         ));
@@ -75,6 +81,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     let plan = read_plan(&args.dir)?;
     if args.noise && plan.device.is_none() {
         return Err(Error::usage(
+            Code::UsageConflict,
             "--noise needs calibrated costs, but this plan was compiled without --device",
             Some("compile with --device D.dev, or drop --noise"),
         ));
@@ -92,7 +99,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
         .map(|(i, (e, c))| {
             let (small, _) = c.compacted();
             check_fits(small.num_qubits, 2)
-                .map_err(|m| Error::usage(format!("{}: {m}", e.id), None))?;
+                .map_err(|m| Error::usage(Code::UsageLimit, format!("{}: {m}", e.id), None))?;
             let state = sim::run(&small, State::zero(small.num_qubits));
             let mut p = measured_distribution(&small, &state);
             if args.noise {

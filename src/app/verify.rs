@@ -10,6 +10,7 @@ use crate::check::{
 };
 use crate::error::{Error, Result};
 use crate::family::plan::{Family, Plan};
+use crate::lang::codes::Code;
 use crate::report::table::{sci, Table};
 use clap::{Args, ValueEnum};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
@@ -142,6 +143,7 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     sims.finish_and_clear();
     let checks = checked.map_err(|m| {
         Error::usage(
+            Code::UsageLimit,
             m,
             Some("the plan or a circuit file does not fit this machine or is inconsistent"),
         )
@@ -154,7 +156,7 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     let opt = |v: Option<f64>, f: &dyn Fn(f64) -> String| v.map_or("skipped".to_string(), f);
     let ok = worst <= args.tolerance;
     let trace = if plan.family == Family::Trace {
-        trace_summary(&plan, &checks).map_err(|m| Error::usage(m, None))?
+        trace_summary(&plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
     } else {
         None
     };

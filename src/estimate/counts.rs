@@ -27,7 +27,7 @@
 //! a file always says which convention it uses.
 
 use crate::family::plan::Plan;
-use crate::lang::diag::Diagnostic;
+use crate::lang::diag::{Code, Diagnostic};
 use crate::lang::json_span::{locate, Step};
 use serde::de::{Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
@@ -126,8 +126,8 @@ pub fn parse(
     plan: &Plan,
     order_override: Option<BitOrder>,
 ) -> Result<CountsFile, Vec<Diagnostic>> {
-    let here = |offset: usize, len: usize, msg: String, hint: Option<&str>| {
-        Diagnostic::at(file, src, offset, len, msg, hint.map(str::to_string))
+    let here = |code: Code, offset: usize, len: usize, msg: String, hint: Option<&str>| {
+        Diagnostic::at(code, file, src, offset, len, msg, hint.map(str::to_string))
     };
     // Stage 1: syntax, and the one shape we accept.
     let value: serde_json::Value = match serde_json::from_str(src) {
@@ -135,6 +135,7 @@ pub fn parse(
         Err(e) => {
             let off = crate::lang::diag::offset_of(src, e.line(), e.column());
             return Err(vec![here(
+                Code::CountsSyntax,
                 off,
                 1,
                 format!("not valid JSON: {}", strip_position(&e.to_string())),
@@ -146,6 +147,7 @@ pub fn parse(
         serde_json::Value::Object(m) if m.contains_key("format") => {}
         serde_json::Value::Object(_) => {
             return Err(vec![Diagnostic::whole_file(
+                Code::CountsSyntax,
                 file,
                 "no `format` key: this is not a phasewright counts file",
                 Some(SHAPE_HINT.to_string()),
@@ -153,6 +155,7 @@ pub fn parse(
         }
         _ => {
             return Err(vec![Diagnostic::whole_file(
+                Code::CountsSyntax,
                 file,
                 "the top level must be a JSON object",
                 Some(SHAPE_HINT.to_string()),
@@ -167,6 +170,7 @@ pub fn parse(
                 off = crate::lang::json_span::token_start(src, off);
             }
             return Err(vec![here(
+                Code::CountsSyntax,
                 off,
                 1,
                 strip_position(&e.to_string()),
@@ -185,14 +189,16 @@ pub fn parse(
         }
         locate(src, &st).map(|s| s.key_or_value())
     };
-    let at_or_file = |span: Option<(usize, usize)>, msg: String, hint: Option<&str>| match span {
-        Some((o, l)) => here(o, l, msg, hint),
-        None => Diagnostic::whole_file(file, msg, hint.map(str::to_string)),
-    };
+    let at_or_file =
+        |code: Code, span: Option<(usize, usize)>, msg: String, hint: Option<&str>| match span {
+            Some((o, l)) => here(code, o, l, msg, hint),
+            None => Diagnostic::whole_file(code, file, msg, hint.map(str::to_string)),
+        };
 
     // Stage 2: header keys.
     if raw.format.as_str() != Some(COUNTS_FORMAT) {
         diags.push(at_or_file(
+            Code::CountsSyntax,
             value_at(&["format"]),
             format!("unsupported format {}", raw.format),
             Some("this version reads \"phasewright-counts/1\""),
@@ -205,6 +211,7 @@ pub fn parse(
             Some("last") => Some(BitOrder::Last),
             _ => {
                 diags.push(at_or_file(
+                    Code::CountsSyntax,
                     value_at(&["bit_order"]),
                     format!("unknown bit order {v}"),
                     Some("use \"first\" (leftmost character is classical bit 0) or \"last\""),
@@ -220,6 +227,7 @@ pub fn parse(
             Some(n) => Some(n),
             None => {
                 diags.push(at_or_file(
+                    Code::CountsSyntax,
                     value_at(&["shots"]),
                     format!("`shots` must be a positive integer, found {v}"),
                     None,
@@ -246,6 +254,7 @@ pub fn parse(
         };
         let Some(&ci) = index.get(id.as_str()) else {
             diags.push(at_or_file(
+                Code::CountsEntry,
                 key_at(&["counts", id]),
                 format!("unknown circuit `{id}`: the plan has no circuit with this id"),
                 Some("counts must answer the circuits of this campaign's plan.json"),
@@ -254,6 +263,7 @@ pub fn parse(
         };
         if occurrence > 0 {
             diags.push(at_or_file(
+                Code::CountsEntry,
                 nth_key_at(&["counts", id], occurrence),
                 format!("circuit `{id}` appears more than once"),
                 Some("merge its counts into one entry"),
@@ -273,6 +283,7 @@ pub fn parse(
             };
             if occurrence > 0 {
                 diags.push(at_or_file(
+                    Code::CountsEntry,
                     nth_key_at(&["counts", id, bits], occurrence),
                     format!("circuit `{id}`: bitstring `{bits}` appears more than once"),
                     Some("each outcome is listed once with its total count"),
@@ -283,7 +294,7 @@ pub fn parse(
             let mask = match bitstring_mask(bits, nbits, bit_order) {
                 Ok(m) => m,
                 Err(msg) => {
-                    diags.push(at_or_file(
+                    diags.push(at_or_file(Code::CountsEntry,
                         kspan(),
                         format!("circuit `{id}`: {msg}"),
                         Some(&format!(
@@ -307,6 +318,7 @@ pub fn parse(
                         format!("a count that is not a positive integer ({count})")
                     };
                     diags.push(at_or_file(
+                        Code::CountsEntry,
                         value_at(&["counts", id, bits]),
                         format!("circuit `{id}`: bitstring `{bits}` has {what}"),
                         Some("counts are positive integers; leave out outcomes never seen"),
@@ -329,6 +341,7 @@ pub fn parse(
             .try_fold(0u64, |sum, &(_, n)| sum.checked_add(n))
         else {
             diags.push(at_or_file(
+                Code::CountsEntry,
                 key_at(&["counts", id]),
                 format!(
                     "circuit `{id}`: the counts add up to more than {} shots",
@@ -340,6 +353,7 @@ pub fn parse(
         };
         if total == 0 {
             diags.push(at_or_file(
+                Code::CountsEntry,
                 key_at(&["counts", id]),
                 format!("circuit `{id}` has no shots"),
                 Some("every circuit of the plan needs measured outcomes"),
@@ -349,6 +363,7 @@ pub fn parse(
         if let Some(n) = shots {
             if total != n {
                 diags.push(at_or_file(
+                    Code::CountsEntry,
                     key_at(&["counts", id]),
                     format!("circuit `{id}` has {total} shots but the file says `shots`: {n}"),
                     Some("drop the `shots` key if circuits were run with different shot counts"),
@@ -373,6 +388,7 @@ pub fn parse(
             String::new()
         };
         diags.push(at_or_file(
+            Code::CountsPlan,
             key_at(&["counts"]),
             format!(
                 "{} circuit{} of the plan {} no counts: {}{more}",

@@ -15,7 +15,7 @@
 //! diagnostics with line and column.
 
 use super::{FermionOp, Ladder};
-use crate::lang::diag::Diagnostic;
+use crate::lang::diag::{Code, Diagnostic};
 use num_complex::Complex64;
 
 /// One- and two-electron integrals over `norb` spatial orbitals (Hartree).
@@ -122,12 +122,13 @@ fn parse_f64(t: &str) -> Option<f64> {
 
 /// Reads an FCIDUMP file. `file` is only used in diagnostics.
 pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>> {
-    let diag = |off: usize, len: usize, msg: String, hint: &str| {
-        Diagnostic::at(file, src, off, len, msg, Some(hint.to_string()))
+    let diag = |code: Code, off: usize, len: usize, msg: String, hint: &str| {
+        Diagnostic::at(code, file, src, off, len, msg, Some(hint.to_string()))
     };
     let lead = src.len() - src.trim_start().len();
     if !looks_like_fcidump(src) {
         return Err(vec![diag(
+            Code::FciSyntax,
             lead,
             4,
             "not an FCIDUMP file: it must start with `&FCI`".into(),
@@ -138,6 +139,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     let head_from = lead + 4;
     let Some((head_to, end_len)) = header_end(src, head_from) else {
         return Err(vec![diag(
+            Code::FciSyntax,
             src.len(),
             0,
             "truncated file: the `&FCI` header never ends".into(),
@@ -158,6 +160,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
             k += 1;
         } else {
             errors.push(diag(
+                Code::FciSyntax,
                 toks[k].offset,
                 toks[k].text.len(),
                 format!("unexpected `{}` in the header", toks[k].text),
@@ -171,7 +174,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
         match field(name) {
             None => {
                 if required {
-                    errors.push(diag(
+                    errors.push(diag(Code::FciSyntax,
                         lead,
                         4,
                         format!("missing header field {name}"),
@@ -185,6 +188,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
                     Ok(x) => Some(x),
                     Err(_) => {
                         errors.push(diag(
+                            Code::FciValue,
                             v.offset,
                             v.text.len(),
                             format!("{name} must be an integer, found `{}`", v.text),
@@ -195,6 +199,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
                 },
                 None => {
                     errors.push(diag(
+                        Code::FciSyntax,
                         *off,
                         name.len(),
                         format!("header field {name} has no value"),
@@ -216,6 +221,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
             });
             if on {
                 errors.push(diag(
+                    Code::FciSyntax,
                     *off,
                     n.len(),
                     "unrestricted (spin-separated) integral files are not supported".into(),
@@ -231,6 +237,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     let norb_off = field("NORB").map_or(lead, |f| f.2[0].offset);
     if norb < 1 || norb as usize > MAX_NORB {
         errors.push(diag(
+            Code::FciLimit,
             norb_off,
             norb.to_string().len(),
             format!("NORB = {norb} is outside 1..={MAX_NORB}"),
@@ -242,6 +249,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     let nelec_off = field("NELEC").map_or(lead, |f| f.2[0].offset);
     if nelec < 0 || nelec as usize > 2 * norb || (nelec + ms2) % 2 != 0 || ms2.abs() > nelec {
         errors.push(diag(
+            Code::FciValue,
             nelec_off,
             nelec.to_string().len(),
             format!("NELEC = {nelec} with MS2 = {ms2} does not fit {norb} orbitals"),
@@ -252,6 +260,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     if let Some((_, off, vals)) = field("ORBSYM") {
         if vals.len() != norb {
             errors.push(diag(
+                Code::FciValue,
                 *off,
                 6,
                 format!("ORBSYM lists {} orbitals but NORB = {norb}", vals.len()),
@@ -301,12 +310,19 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
             } else {
                 "too many fields: an integral line is a value and four orbital indices".into()
             };
-            errors.push(diag(off, t.len(), msg, "each line reads `value i j k l`"));
+            errors.push(diag(
+                Code::FciSyntax,
+                off,
+                t.len(),
+                msg,
+                "each line reads `value i j k l`",
+            ));
             continue;
         }
         let (voff, vtext) = toks[0];
         let Some(value) = parse_f64(vtext) else {
             errors.push(diag(
+                Code::FciSyntax,
                 voff,
                 vtext.len(),
                 format!("not a number: `{vtext}`"),
@@ -321,6 +337,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
                 Ok(v) if v >= 0 && v as usize <= norb => *slot = v as usize,
                 Ok(v) => {
                     errors.push(diag(
+                        Code::FciValue,
                         off,
                         t.len(),
                         format!("orbital index {v} is outside 0..={norb} (NORB = {norb})"),
@@ -330,6 +347,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
                 }
                 Err(_) => {
                     errors.push(diag(
+                        Code::FciValue,
                         off,
                         t.len(),
                         format!("orbital index must be an integer, found `{t}`"),
@@ -367,7 +385,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
             }
             (false, false, false, false) => ints.core_energy = value,
             (true, false, false, false) => {} // orbital energy
-            _ => errors.push(diag(
+            _ => errors.push(diag(Code::FciValue,
                 toks[1].0,
                 line.trim_end().len() - (toks[1].0 - line_off),
                 format!("index pattern `{i} {j} {k} {l}` is not an FCIDUMP entry"),
@@ -377,6 +395,7 @@ pub fn parse_fcidump(file: &str, src: &str) -> Result<Integrals, Vec<Diagnostic>
     }
     if lines_read == 0 && errors.is_empty() {
         errors.push(diag(
+            Code::FciSyntax,
             src.len(),
             0,
             "truncated file: no integrals after the header".into(),

@@ -14,7 +14,7 @@
 use crate::device::lattice::{self, Lattice, ShapeError};
 use crate::device::native::{gate_arity, is_standard_gate, STDGATES};
 use crate::device::{Calibration, Device, Link, NativeSet};
-use crate::lang::diag::{Diagnostic, LineIndex};
+use crate::lang::diag::{Code, Diagnostic, LineIndex};
 use crate::lang::suggest::{closest, DEV_STATEMENTS};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
@@ -218,10 +218,11 @@ impl<'s> Ctx<'s> {
         (s.as_ptr() as usize).saturating_sub(self.src.as_ptr() as usize)
     }
 
-    fn err(&mut self, at: &str, msg: impl Into<String>, hint: Option<&str>) {
+    fn err(&mut self, code: Code, at: &str, msg: impl Into<String>, hint: Option<&str>) {
         let offset = self.offset(at);
         let lines = self.lines.get_or_insert_with(|| LineIndex::new(self.src));
         let d = Diagnostic::at_indexed(
+            code,
             self.file,
             self.src,
             lines,
@@ -237,7 +238,12 @@ impl<'s> Ctx<'s> {
         match s.parse::<u64>() {
             Ok(v) if v <= u32::MAX as u64 => Some(v as u32),
             _ => {
-                self.err(s, format!("{what} `{s}` is too large"), None);
+                self.err(
+                    Code::DevLimit,
+                    s,
+                    format!("{what} `{s}` is too large"),
+                    None,
+                );
                 None
             }
         }
@@ -284,6 +290,7 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
                 let at_word = ident(text.trim_start()).map(|(_, w)| w).ok();
                 match (e.expected, at_word) {
                     (_, Some(w)) if e.at.as_ptr() == text.trim_start().as_ptr() => cx.err(
+                        Code::DevUnknownWord,
                         w,
                         format!("unknown statement `{w}`{}", did_you_mean(w, DEV_STATEMENTS)),
                         Some("statements are: name qubits native lattice link cut error time"),
@@ -297,7 +304,7 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
                             format!("expected {what}, found `{found}`")
                         };
                         let width = e.at.find(char::is_whitespace).unwrap_or(e.at.len());
-                        cx.err(&e.at[..width], msg, None);
+                        cx.err(Code::DevSyntax, &e.at[..width], msg, None);
                     }
                 }
             }
@@ -320,19 +327,35 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
         match s {
             Stmt::Name(n) => {
                 if name.is_some() {
-                    cx.err(text.trim(), "the device name is given twice", None);
+                    cx.err(
+                        Code::DevDeclare,
+                        text.trim(),
+                        "the device name is given twice",
+                        None,
+                    );
                 }
                 name = Some(n.to_string());
             }
             Stmt::Qubits(n) => {
                 if declared.is_some() {
-                    cx.err(text.trim(), "`qubits` is given twice", None);
+                    cx.err(
+                        Code::DevDeclare,
+                        text.trim(),
+                        "`qubits` is given twice",
+                        None,
+                    );
                 }
                 if let Some(v) = cx.uint(n, "qubit count") {
                     if v == 0 {
-                        cx.err(n, "a device needs at least one qubit", None);
+                        cx.err(
+                            Code::DevDeclare,
+                            n,
+                            "a device needs at least one qubit",
+                            None,
+                        );
                     } else if v as u64 > MAX_DEVICE_QUBITS {
                         cx.err(
+                            Code::DevLimit,
                             n,
                             format!("{v} qubits is more than phasewright handles"),
                             Some(&format!("at most {MAX_DEVICE_QUBITS} qubits")),
@@ -345,6 +368,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             Stmt::Native(gates) => {
                 if native.is_some() {
                     cx.err(
+                        Code::DevDeclare,
                         text.trim(),
                         "`native` is given twice",
                         Some("list every native gate on one line"),
@@ -357,6 +381,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                         names.push(c.to_string());
                     } else {
                         cx.err(
+                            Code::DevUnknownWord,
                             g,
                             format!("unknown gate name `{g}`{}", did_you_mean(g, STDGATES)),
                             Some(GATE_HINT),
@@ -386,6 +411,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     Err(ShapeError::UnknownKind) => {
                         let names: Vec<&str> = lattice::KINDS.iter().map(|k| k.0).collect();
                         cx.err(
+                            Code::DevUnknownWord,
                             kind,
                             format!("unknown lattice `{kind}`{}", did_you_mean(kind, &names)),
                             Some(&kinds_hint),
@@ -395,6 +421,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                     Err(ShapeError::Arity { expected }) => {
                         let at = sizes.last().copied().unwrap_or(kind);
                         cx.err(
+                            Code::DevValue,
                             at,
                             format!(
                                 "`{kind}` takes {expected} size{}",
@@ -410,13 +437,14 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                         hint,
                     }) => {
                         let at = sizes.get(index).copied().unwrap_or(kind);
-                        cx.err(at, message, Some(&hint));
+                        cx.err(Code::DevValue, at, message, Some(&hint));
                         continue;
                     }
                 };
                 let total = lat.qubits();
                 if total > MAX_DEVICE_QUBITS {
                     cx.err(
+                        Code::DevLimit,
                         kind,
                         format!("a {total}-qubit lattice is more than phasewright handles"),
                         Some(&format!("at most {MAX_DEVICE_QUBITS} qubits")),
@@ -426,6 +454,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                 if let Some((v, at)) = declared {
                     if total > v as u64 {
                         cx.err(
+                            Code::DevValue,
                             kind,
                             format!("this lattice has {total} qubits but the device declares {v}"),
                             Some(&format!(
@@ -451,6 +480,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             for (q, t) in [(qa, a), (qb, b)] {
                 if q as u64 >= size {
                     cx.err(
+                        Code::DevQubitRange,
                         t,
                         format!("qubit {q} does not exist (the device has {size} qubits)"),
                         Some("qubits are numbered from 0; declare more with `qubits N`"),
@@ -463,7 +493,12 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             }
             if qa == qb {
                 let whole = &cx.src[cx.offset(a)..cx.offset(b) + b.len()];
-                cx.err(whole, format!("qubit {qa} is linked to itself"), None);
+                cx.err(
+                    Code::DevQubitRange,
+                    whole,
+                    format!("qubit {qa} is linked to itself"),
+                    None,
+                );
                 continue;
             }
             let l = (qa.min(qb), qa.max(qb));
@@ -472,6 +507,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
             } else if !couplings.remove(&l) {
                 let whole = &cx.src[cx.offset(a)..cx.offset(b) + b.len()];
                 cx.err(
+                    Code::DevQubitRange,
                     whole,
                     format!("there is no coupling {}-{} to cut", l.0, l.1),
                     None,
@@ -481,6 +517,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
     }
     if couplings.len() > MAX_DEVICE_LINKS {
         cx.diags.push(Diagnostic::whole_file(
+            Code::DevLimit,
             cx.file,
             format!(
                 "the device has {} couplings, more than phasewright handles",
@@ -494,6 +531,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
         .any(|(_, s)| matches!(s, Stmt::Lattice(..) | Stmt::Qubits(..)));
     if size == 0 && declared.is_none() && !syntax_errors && !size_given {
         cx.diags.push(Diagnostic::whole_file(
+            Code::DevDeclare,
             cx.file,
             "the device declares no qubits",
             Some("add `qubits N` or a `lattice` line".into()),
@@ -503,6 +541,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
         None => {
             if !syntax_errors {
                 cx.diags.push(Diagnostic::whole_file(
+                    Code::DevDeclare,
                     cx.file,
                     "the device lists no native gates",
                     Some("add a line such as `native rz sx x cx`".into()),
@@ -517,7 +556,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                 Err(reason) => {
                     // With a misspelt name the set is judged once the name is fixed.
                     if names.len() == native_listed {
-                        cx.err(at, reason, Some(SETS_HINT));
+                        cx.err(Code::DevDeclare, at, reason, Some(SETS_HINT));
                     }
                     None
                 }
@@ -556,6 +595,7 @@ fn check_calibrated_gate(
 ) -> bool {
     if !is_standard_gate(canonical_name) {
         cx.err(
+            Code::DevUnknownWord,
             gate,
             format!("unknown gate name `{gate}`{}", did_you_mean(gate, STDGATES)),
             Some(GATE_HINT),
@@ -564,6 +604,7 @@ fn check_calibrated_gate(
     }
     if !native.iter().any(|n| n == canonical_name) {
         cx.err(
+            Code::DevUnknownWord,
             gate,
             format!("`{gate}` is not a native gate of this device"),
             Some(hint),
@@ -602,6 +643,7 @@ fn calibration(
                     Ok(r) if (0.0..=1.0).contains(&r) => r,
                     _ => {
                         cx.err(
+                            Code::DevValue,
                             rate_text,
                             format!("error rate {rate_text} is outside [0, 1]"),
                             Some("an error rate is a probability, e.g. 0.008"),
@@ -616,7 +658,12 @@ fn calibration(
                     Some(Target::Link(_, a, b)) => format!("{g} {a}-{b}"),
                 };
                 if seen.insert(key, ()).is_some() {
-                    cx.err(text.trim(), "this error rate is given twice", None);
+                    cx.err(
+                        Code::DevDeclare,
+                        text.trim(),
+                        "this error rate is given twice",
+                        None,
+                    );
                     continue;
                 }
                 match target {
@@ -627,6 +674,7 @@ fn calibration(
                     Some(Target::Qubit(t)) => {
                         if two {
                             cx.err(
+                                Code::DevValue,
                                 t,
                                 format!("`{gate}` acts on two qubits: name a link such as `3-9`"),
                                 None,
@@ -638,6 +686,7 @@ fn calibration(
                         };
                         if q >= size {
                             cx.err(
+                                Code::DevQubitRange,
                                 t,
                                 format!("qubit {q} does not exist (the device has {size} qubits)"),
                                 None,
@@ -653,6 +702,7 @@ fn calibration(
                     Some(Target::Link(whole, a, b)) => {
                         if !two {
                             cx.err(
+                                Code::DevValue,
                                 whole,
                                 format!("`{gate}` acts on one qubit: name a qubit, not a link"),
                                 None,
@@ -665,7 +715,7 @@ fn calibration(
                         };
                         let l = (qa.min(qb), qa.max(qb));
                         if !couplings.contains(&l) {
-                            cx.err(
+                            cx.err(Code::DevQubitRange,
                                 whole,
                                 format!("qubits {qa} and {qb} are not coupled"),
                                 Some("error overrides apply to existing couplings (see `lattice`, `link`, `cut`)"),
@@ -695,6 +745,7 @@ fn calibration(
                     "us" => 1000.0,
                     _ => {
                         cx.err(
+                            Code::DevUnknownWord,
                             unit,
                             format!("unknown time unit `{unit}`"),
                             Some("use ns or us"),
@@ -706,6 +757,7 @@ fn calibration(
                     Ok(v) if v >= 0.0 && v.is_finite() => v,
                     _ => {
                         cx.err(
+                            Code::DevValue,
                             value,
                             format!("duration {value} must be a non-negative number"),
                             None,
@@ -715,6 +767,7 @@ fn calibration(
                 };
                 if cal.time_ns.insert(g.to_string(), v * scale).is_some() {
                     cx.err(
+                        Code::DevDeclare,
                         text.trim(),
                         format!("the time of `{g}` is given twice"),
                         None,

@@ -5,11 +5,14 @@
 //! program, after the source is gone. Line and column are computed only here, from the offset
 //! (columns count characters, 1-based).
 
+pub use super::codes::Code;
 use std::fmt;
 
 /// One problem in one input file.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Diagnostic {
+    /// The kind of problem, from the catalogue (`phasewright explain CODE`).
+    pub code: Code,
     pub file: String,
     /// 1-based line.
     pub line: usize,
@@ -18,7 +21,7 @@ pub struct Diagnostic {
     /// The offending source line, without its newline.
     pub excerpt: String,
     /// Caret width in characters (at least 1).
-    pub width: usize,
+    pub width: u32,
     pub message: String,
     pub hint: Option<String>,
 }
@@ -28,6 +31,7 @@ impl Diagnostic {
     /// `src` up to `offset`; a reader that may report many problems in one file uses
     /// [`Diagnostic::at_indexed`] instead.
     pub fn at(
+        code: Code,
         file: &str,
         src: &str,
         offset: usize,
@@ -38,12 +42,16 @@ impl Diagnostic {
         let offset = floor_char_boundary(src, offset.min(src.len()));
         let line_start = src[..offset].rfind('\n').map_or(0, |i| i + 1);
         let line = src[..offset].matches('\n').count() + 1;
-        Diagnostic::on_line(file, src, offset, len, line, line_start, message, hint)
+        Diagnostic::on_line(
+            code, file, src, offset, len, line, line_start, message, hint,
+        )
     }
 
     /// The same as [`Diagnostic::at`], with the line found by binary search in `lines` (built
     /// once from `src`), so `k` diagnostics cost `O(k log lines)` instead of `O(k · src)`.
+    #[allow(clippy::too_many_arguments)]
     pub fn at_indexed(
+        code: Code,
         file: &str,
         src: &str,
         lines: &LineIndex,
@@ -56,13 +64,16 @@ impl Diagnostic {
         // Number of line starts at or before `offset` (the first is 0).
         let line = lines.starts.partition_point(|&s| s <= offset);
         let line_start = lines.starts[line - 1];
-        Diagnostic::on_line(file, src, offset, len, line, line_start, message, hint)
+        Diagnostic::on_line(
+            code, file, src, offset, len, line, line_start, message, hint,
+        )
     }
 
     /// A diagnostic at `offset`, which lies on the 1-based line `line` starting at byte
     /// `line_start`.
     #[allow(clippy::too_many_arguments)]
     fn on_line(
+        code: Code,
         file: &str,
         src: &str,
         offset: usize,
@@ -76,8 +87,9 @@ impl Diagnostic {
         let column = src[line_start..offset].chars().count() + 1;
         let excerpt = src[line_start..line_end].trim_end_matches('\r').to_string();
         let end = floor_char_boundary(src, (offset + len).min(line_end));
-        let width = src[offset..end].chars().count().max(1);
+        let width = u32::try_from(src[offset..end].chars().count().max(1)).unwrap_or(u32::MAX);
         Diagnostic {
+            code,
             file: file.to_string(),
             line,
             column,
@@ -89,8 +101,14 @@ impl Diagnostic {
     }
 
     /// A diagnostic about a whole file (no position inside it).
-    pub fn whole_file(file: &str, message: impl Into<String>, hint: Option<String>) -> Diagnostic {
+    pub fn whole_file(
+        code: Code,
+        file: &str,
+        message: impl Into<String>,
+        hint: Option<String>,
+    ) -> Diagnostic {
         Diagnostic {
+            code,
             file: file.to_string(),
             line: 0,
             column: 0,
@@ -140,12 +158,12 @@ fn floor_char_boundary(s: &str, mut i: usize) -> usize {
 impl fmt::Display for Diagnostic {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         if self.line == 0 {
-            writeln!(f, "error: {}: {}", self.file, self.message)?;
+            writeln!(f, "error {}: {}: {}", self.code, self.file, self.message)?;
         } else {
             writeln!(
                 f,
-                "error: {}:{}:{}: {}",
-                self.file, self.line, self.column, self.message
+                "error {}: {}:{}:{}: {}",
+                self.code, self.file, self.line, self.column, self.message
             )?;
             let gutter = self.line.to_string().len();
             writeln!(f, "{:gutter$} |", "")?;
@@ -155,7 +173,7 @@ impl fmt::Display for Diagnostic {
                 "{:gutter$} | {}{}",
                 "",
                 " ".repeat(self.column - 1),
-                "^".repeat(self.width)
+                "^".repeat(self.width as usize)
             )?;
         }
         if let Some(h) = &self.hint {
@@ -181,6 +199,7 @@ mod tests {
     fn caret_sits_under_the_offending_text() {
         let src = "qubits 4\nZ0 Q1\n";
         let d = Diagnostic::at(
+            Code::HamUnknownWord,
             "a.ham",
             src,
             12,
@@ -190,7 +209,7 @@ mod tests {
         );
         assert_eq!((d.line, d.column), (2, 4));
         let text = d.to_string();
-        assert_eq!(text, "error: a.ham:2:4: unknown factor `Q1`\n  |\n2 | Z0 Q1\n  |    ^^\nhint: use X, Y or Z\n");
+        assert_eq!(text, "error H103: a.ham:2:4: unknown factor `Q1`\n  |\n2 | Z0 Q1\n  |    ^^\nhint: use X, Y or Z\n");
     }
 
     #[test]
@@ -199,12 +218,21 @@ mod tests {
         let lines = LineIndex::new(src);
         for offset in 0..=src.len() + 2 {
             for len in [0, 1, 3] {
-                let scan = Diagnostic::at("f", src, offset, len, "m", None);
-                let indexed = Diagnostic::at_indexed("f", src, &lines, offset, len, "m", None);
+                let scan = Diagnostic::at(Code::HamSyntax, "f", src, offset, len, "m", None);
+                let indexed = Diagnostic::at_indexed(
+                    Code::HamSyntax,
+                    "f",
+                    src,
+                    &lines,
+                    offset,
+                    len,
+                    "m",
+                    None,
+                );
                 assert_eq!(scan, indexed, "offset {offset}, len {len}");
             }
         }
-        let d = Diagnostic::at_indexed("f", src, &lines, 7, 1, "m", None);
+        let d = Diagnostic::at_indexed(Code::HamSyntax, "f", src, &lines, 7, 1, "m", None);
         assert_eq!((d.line, d.column, d.excerpt.as_str()), (3, 4, "bé c"));
     }
 }
@@ -222,7 +250,7 @@ pub const MAX_OPERATORS_PER_LINE: usize = 1024;
 /// operators on one line. Text after `comment` on a line is ignored. Returns the diagnostic for
 /// the first offence: at the bracket that goes one level too deep, or at the line's first
 /// operator past the bound.
-pub fn depth_guard(file: &str, src: &str, comment: &str) -> Option<Diagnostic> {
+pub fn depth_guard(kind: Code, file: &str, src: &str, comment: &str) -> Option<Diagnostic> {
     let mut depth = 0usize;
     let mut offset = 0usize;
     for line in src.split_inclusive('\n') {
@@ -234,6 +262,7 @@ pub fn depth_guard(file: &str, src: &str, comment: &str) -> Option<Diagnostic> {
                     depth += 1;
                     if depth > MAX_NESTING {
                         return Some(Diagnostic::at(
+                            kind,
                             file,
                             src,
                             offset + i,
@@ -248,6 +277,7 @@ pub fn depth_guard(file: &str, src: &str, comment: &str) -> Option<Diagnostic> {
                     ops += 1;
                     if ops > MAX_OPERATORS_PER_LINE {
                         return Some(Diagnostic::at(
+                            kind,
                             file,
                             src,
                             offset + i,
@@ -272,13 +302,13 @@ mod guard_tests {
     #[test]
     fn deep_nesting_and_long_chains_are_diagnosed_at_their_place() {
         let deep = format!("qubits 1\n{}1{} Z0\n", "(".repeat(70), ")".repeat(70));
-        let d = depth_guard("t.ham", &deep, "#").expect("too deep");
+        let d = depth_guard(Code::HamLimit, "t.ham", &deep, "#").expect("too deep");
         assert_eq!((d.line, d.column), (2, MAX_NESTING + 1));
         let long = format!("qubits 1\n1{} Z0\n", "+1".repeat(2000));
-        let d = depth_guard("t.ham", &long, "#").expect("too long");
+        let d = depth_guard(Code::HamLimit, "t.ham", &long, "#").expect("too long");
         assert_eq!((d.line, d.column), (2, 2 * MAX_OPERATORS_PER_LINE + 2));
         // Brackets and operators inside comments do not count; ordinary files pass.
         let fine = format!("qubits 1\n0.5 Z0 # {}\n", "(".repeat(200));
-        assert!(depth_guard("t.ham", &fine, "#").is_none());
+        assert!(depth_guard(Code::HamLimit, "t.ham", &fine, "#").is_none());
     }
 }

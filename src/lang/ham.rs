@@ -20,7 +20,7 @@
 
 use crate::fermion::encode::{map_product, Encoding};
 use crate::fermion::{adjoint_ops, Ladder, LadderOp, ROUNDOFF_REL_TOL};
-use crate::lang::diag::Diagnostic;
+use crate::lang::diag::{Code, Diagnostic};
 use crate::pauli::{Pauli, PauliString, PauliSum};
 use nom::character::complete::{char, digit1};
 use nom::combinator::cut;
@@ -84,14 +84,113 @@ pub fn parse_hamiltonian_with(
     src: &str,
     encoding: Option<Encoding>,
 ) -> Result<HamRead, Vec<Diagnostic>> {
-    if let Some(d) = crate::lang::diag::depth_guard(file, src, "#") {
+    if let Some(d) = crate::lang::diag::depth_guard(Code::HamLimit, file, src, "#") {
         return Err(vec![d]);
+    }
+    if let Some(read) = plain_lines(file, src, encoding) {
+        return Ok(read);
     }
     let stmts = parse_statements(file, src)?;
     let mut ev = Evaluator::new(file, src);
     ev.flag_encoding = encoding;
     ev.run(&stmts);
     ev.finish()
+}
+
+/// The fast path for the files that programs write (`convert`, generated sums): `qubits N`,
+/// then lines that are each an optional plain decimal coefficient and Pauli factors such as
+/// `-0.25 X0 Y1 Z3`, with `#` comments. Such a line means exactly what the grammar says it
+/// means, so it goes straight to the evaluator's accumulator (same merging, same checks in
+/// `finish`) without a syntax tree. Anything else in the file (names, sums, expressions,
+/// fermionic factors, an index out of range, a line that would need a diagnostic) returns
+/// `None` and the whole file takes the full reader, which also owns every diagnostic.
+fn plain_lines(file: &str, src: &str, encoding: Option<Encoding>) -> Option<HamRead> {
+    let mut ev = Evaluator::new(file, src);
+    ev.flag_encoding = encoding;
+    let mut factors: Vec<(usize, Pauli)> = Vec::with_capacity(8);
+    let mut offset = 0usize;
+    let mut declared = false;
+    for raw in src.split_inclusive('\n') {
+        let start = offset;
+        offset += raw.len();
+        let code = raw.split('#').next().unwrap_or("");
+        let line = code.trim();
+        if line.is_empty() {
+            continue;
+        }
+        if !declared {
+            let n: usize = line.strip_prefix("qubits ")?.trim().parse().ok()?;
+            if n == 0 || n > MAX_HAM_QUBITS || !line[7..].trim().bytes().all(|b| b.is_ascii_digit())
+            {
+                return None;
+            }
+            ev.num_qubits = n;
+            declared = true;
+            continue;
+        }
+        if ev.terms_read >= MAX_TERMS {
+            return None;
+        }
+        let mut words = line.split_ascii_whitespace().peekable();
+        let first = *words.peek()?;
+        let coeff = if first.as_bytes()[0].is_ascii_alphabetic() {
+            1.0
+        } else {
+            words.next();
+            let digits = first.strip_prefix('-').unwrap_or(first);
+            // Only what the grammar's number rule reads: digits, `.`, an exponent.
+            if digits.is_empty()
+                || !digits.as_bytes()[0].is_ascii_digit()
+                || !digits
+                    .bytes()
+                    .all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'e' | b'E' | b'+' | b'-'))
+            {
+                return None;
+            }
+            let v: f64 = first.parse().ok()?;
+            if !v.is_finite() {
+                return None;
+            }
+            v
+        };
+        factors.clear();
+        for w in words {
+            let b = w.as_bytes();
+            let p = match b[0] {
+                b'X' => Pauli::X,
+                b'Y' => Pauli::Y,
+                b'Z' => Pauli::Z,
+                _ => return None,
+            };
+            let digits = &w[1..];
+            if digits.is_empty()
+                || (digits.len() > 1 && digits.starts_with('0'))
+                || !digits.bytes().all(|d| d.is_ascii_digit())
+            {
+                return None;
+            }
+            let q: usize = digits.parse().ok()?;
+            if q >= ev.num_qubits {
+                return None;
+            }
+            factors.push((q, p));
+        }
+        let lead = raw.len() - raw.trim_start().len();
+        let span = Span {
+            start: start + lead,
+            end: start + lead + line.len(),
+        };
+        ev.terms_read += 1;
+        if !factors.is_empty() && ev.first_pauli_term.is_none() {
+            ev.first_pauli_term = Some(span);
+        }
+        let (phase, p) = PauliString::from_factors(&factors);
+        ev.add(p, Complex64::new(coeff, 0.0) * phase, span, true);
+    }
+    if !declared {
+        return None;
+    }
+    ev.finish().ok()
 }
 
 /// Writes `h` in the `.ham` language: `header_comment` as `#` lines, `qubits N`, the constant
@@ -296,7 +395,7 @@ impl Stmt {
 struct PErr<'a> {
     at: &'a str,
     expected: Option<&'static str>,
-    custom: Option<(String, Option<String>, usize)>,
+    custom: Option<(Code, String, Option<String>, usize)>,
 }
 
 impl<'a> ParseError<&'a str> for PErr<'a> {
@@ -331,11 +430,17 @@ impl<'a> ContextError<&'a str> for PErr<'a> {
 
 type PResult<'a, T> = IResult<&'a str, T, PErr<'a>>;
 
-fn fail<'a, T>(at: &'a str, len: usize, msg: impl Into<String>, hint: &str) -> PResult<'a, T> {
+fn fail<'a, T>(
+    code: Code,
+    at: &'a str,
+    len: usize,
+    msg: impl Into<String>,
+    hint: &str,
+) -> PResult<'a, T> {
     Err(nom::Err::Failure(PErr {
         at,
         expected: None,
-        custom: Some((msg.into(), Some(hint.to_string()), len)),
+        custom: Some((code, msg.into(), Some(hint.to_string()), len)),
     }))
 }
 
@@ -792,6 +897,7 @@ impl<'a> Parser<'a> {
         let (r, name) = context(label, cut(ident))(i)?;
         if KEYWORDS.contains(&name) {
             return fail(
+                Code::HamName,
                 i,
                 name.len(),
                 format!("`{name}` is a keyword and cannot be used as a name"),
@@ -800,6 +906,7 @@ impl<'a> Parser<'a> {
         }
         if is_factor_name(name) {
             return fail(
+                Code::HamName,
                 i,
                 name.len(),
                 format!("`{name}` is spelled like a factor and cannot be used as a name"),
@@ -832,6 +939,7 @@ impl<'a> Parser<'a> {
             Ok(e) => e,
             Err(_) => {
                 return fail(
+                    Code::HamUnknownWord,
                     at,
                     word.len(),
                     format!("unknown encoding `{word}`"),
@@ -871,6 +979,7 @@ impl<'a> Parser<'a> {
         let (r, word) = context(L_IN, cut(ident))(at)?;
         if word != "in" {
             return fail(
+                Code::HamSyntax,
                 at,
                 word.len(),
                 format!("expected {L_IN}, found `{word}`"),
@@ -911,6 +1020,7 @@ impl<'a> Parser<'a> {
                     at: open,
                     expected: None,
                     custom: Some((
+                        Code::HamSyntax,
                         "unclosed `{`: the sum body never ends".into(),
                         Some("close the sum body with `}`".into()),
                         1,
@@ -945,6 +1055,7 @@ impl<'a> Parser<'a> {
                 "qubits" if top => return self.qubits(i, r),
                 "qubits" => {
                     return fail(
+                        Code::HamSyntax,
                         i,
                         word.len(),
                         "`qubits` cannot appear inside a sum",
@@ -954,6 +1065,7 @@ impl<'a> Parser<'a> {
                 "encoding" if top => return self.encoding(i, r),
                 "encoding" => {
                     return fail(
+                        Code::HamSyntax,
                         i,
                         word.len(),
                         "`encoding` cannot appear inside a sum",
@@ -990,15 +1102,23 @@ impl<'a> Parser<'a> {
         let c = j.chars().next().unwrap_or(' ');
         let err = if c == ';' {
             fail::<()>(
+                Code::HamSyntax,
                 j,
                 1,
                 "`;` separates terms only inside a sum body",
                 "put each top-level term on its own line",
             )
         } else if c == '}' {
-            fail(j, 1, "unmatched `}`", "a `}` closes a `sum ... {` body")
+            fail(
+                Code::HamSyntax,
+                j,
+                1,
+                "unmatched `}`",
+                "a `}` closes a `sum ... {` body",
+            )
         } else if c == '*' || c == '/' || number(j).is_ok() {
             fail(
+                Code::HamSyntax,
                 j,
                 len,
                 format!("unexpected {found} after the factors"),
@@ -1006,13 +1126,14 @@ impl<'a> Parser<'a> {
             )
         } else if c == '+' || c == '-' {
             fail(
+                Code::HamSyntax,
                 j,
                 len,
                 format!("unexpected {found}: one term per line"),
                 "write each term on its own line (inside a sum, `;` also separates terms)",
             )
         } else if ident_len(j) > 0 {
-            fail(
+            fail(Code::HamUnknownWord,
                 j,
                 len,
                 format!("unknown factor {found}"),
@@ -1020,6 +1141,7 @@ impl<'a> Parser<'a> {
             )
         } else {
             fail(
+                Code::HamSyntax,
                 j,
                 len,
                 format!("unexpected {found}"),
@@ -1083,13 +1205,14 @@ fn recover_in_body(at: &str) -> &str {
 fn perr_to_diag(file: &str, src: &str, e: &PErr<'_>) -> Diagnostic {
     let offset = src.offset(e.at);
     match &e.custom {
-        Some((msg, hint, len)) => {
-            Diagnostic::at(file, src, offset, *len, msg.clone(), hint.clone())
+        Some((code, msg, hint, len)) => {
+            Diagnostic::at(*code, file, src, offset, *len, msg.clone(), hint.clone())
         }
         None => {
             let (found, len) = describe(e.at);
             match e.expected {
                 Some(label) => Diagnostic::at(
+                    Code::HamSyntax,
                     file,
                     src,
                     offset,
@@ -1098,6 +1221,7 @@ fn perr_to_diag(file: &str, src: &str, e: &PErr<'_>) -> Diagnostic {
                     Some(hint_for(label).to_string()),
                 ),
                 None => Diagnostic::at(
+                    Code::HamSyntax,
                     file,
                     src,
                     offset,
@@ -1145,14 +1269,14 @@ enum Val {
 /// An evaluation error; `None` message means "already reported, stay silent".
 struct EvalErr {
     span: Span,
-    msg: Option<(String, String)>,
+    msg: Option<(Code, String, String)>,
 }
 
 impl EvalErr {
-    fn new(span: Span, msg: impl Into<String>, hint: impl Into<String>) -> EvalErr {
+    fn new(code: Code, span: Span, msg: impl Into<String>, hint: impl Into<String>) -> EvalErr {
         EvalErr {
             span,
-            msg: Some((msg.into(), hint.into())),
+            msg: Some((code, msg.into(), hint.into())),
         }
     }
     fn silent(span: Span) -> EvalErr {
@@ -1237,9 +1361,10 @@ impl<'s> Evaluator<'s> {
 
     fn report(&mut self, e: EvalErr) {
         self.errors += 1;
-        if let Some((msg, hint)) = e.msg {
+        if let Some((code, msg, hint)) = e.msg {
             if self.reported.insert(e.span.start) {
                 let d = Diagnostic::at(
+                    code,
                     self.file,
                     self.src,
                     e.span.start,
@@ -1289,7 +1414,12 @@ impl<'s> Evaluator<'s> {
                 )
             }
         };
-        EvalErr::new(span, format!("undefined name `{name}`"), hint)
+        EvalErr::new(
+            Code::HamName,
+            span,
+            format!("undefined name `{name}`"),
+            hint,
+        )
     }
 
     /// Evaluates a coefficient expression.
@@ -1325,6 +1455,7 @@ impl<'s> Evaluator<'s> {
                     Op::Div => {
                         if b == Complex64::new(0.0, 0.0) {
                             return Err(EvalErr::new(
+                                Code::HamValue,
                                 rhs.span(),
                                 format!("division by zero: `{}` is 0", self.text(rhs.span())),
                                 "check the divisor; `let` values are exact numbers",
@@ -1338,6 +1469,7 @@ impl<'s> Evaluator<'s> {
                     }
                     Op::Rem => {
                         return Err(EvalErr::new(
+                            Code::HamValue,
                             *op_span,
                             "`%` is only for qubit indices",
                             "coefficients use + - * / and parentheses",
@@ -1352,6 +1484,7 @@ impl<'s> Evaluator<'s> {
     fn index(&self, e: &Expr) -> Result<i64, EvalErr> {
         let overflow = |s: Span| {
             EvalErr::new(
+                Code::HamValue,
                 s,
                 "index arithmetic overflows 64-bit integers",
                 "qubit indices are small integers",
@@ -1366,6 +1499,7 @@ impl<'s> Evaluator<'s> {
             } => {
                 if *imag || !*integer {
                     return Err(EvalErr::new(
+                        Code::HamValue,
                         *span,
                         format!("an index must be an integer, found `{}`", self.text(*span)),
                         "indices are integers built with + - * % and parentheses",
@@ -1383,6 +1517,7 @@ impl<'s> Evaluator<'s> {
                         c.re as i64
                     } else {
                         return Err(EvalErr::new(
+                            Code::HamValue,
                             *span,
                             format!(
                                 "an index must be an integer, but `{name}` is {}",
@@ -1408,6 +1543,7 @@ impl<'s> Evaluator<'s> {
             } => {
                 if *op == Op::Div {
                     return Err(EvalErr::new(
+                        Code::HamValue,
                         *op_span,
                         "`/` is not allowed in an index",
                         "indices are integers built with + - * % and parentheses",
@@ -1423,6 +1559,7 @@ impl<'s> Evaluator<'s> {
                     Op::Rem => {
                         if b == 0 {
                             return Err(EvalErr::new(
+                                Code::HamValue,
                                 rhs.span(),
                                 format!("division by zero: `{}` is 0", self.text(rhs.span())),
                                 "the right side of `%` must be a nonzero integer",
@@ -1440,6 +1577,7 @@ impl<'s> Evaluator<'s> {
     fn run(&mut self, stmts: &[Stmt]) {
         let Some(first) = stmts.first() else {
             self.report(EvalErr::new(
+                Code::HamHeader,
                 Span { start: 0, end: 0 },
                 "empty Hamiltonian: no `qubits N` line",
                 "start the file with e.g. `qubits 8`",
@@ -1460,6 +1598,7 @@ impl<'s> Evaluator<'s> {
                         )
                     };
                     self.report(EvalErr::new(
+                        Code::HamHeader,
                         *count_span,
                         msg,
                         format!("use 1 to {MAX_HAM_QUBITS}"),
@@ -1470,6 +1609,7 @@ impl<'s> Evaluator<'s> {
             }
             other => {
                 self.report(EvalErr::new(
+                    Code::HamHeader,
                     other.span(),
                     "the file must start with `qubits N`",
                     "declare the number of qubits before anything else, e.g. `qubits 8`",
@@ -1482,6 +1622,7 @@ impl<'s> Evaluator<'s> {
             if let Stmt::Qubits { span, .. } = s {
                 let line = self.line_of(first_span);
                 self.report(EvalErr::new(
+                    Code::HamHeader,
                     *span,
                     "`qubits` is declared twice",
                     format!("the number of qubits is declared once, at line {line}"),
@@ -1499,6 +1640,7 @@ impl<'s> Evaluator<'s> {
         if let Some((_, prev)) = self.lookup(name) {
             let line = self.line_of(prev);
             self.report(EvalErr::new(
+                Code::HamName,
                 span,
                 format!("`{name}` is already defined"),
                 format!("it was defined at line {line}; names are constants, pick another name"),
@@ -1513,6 +1655,7 @@ impl<'s> Evaluator<'s> {
         self.steps += 1;
         if self.steps > MAX_STEPS {
             self.report(EvalErr::new(
+                Code::HamLimit,
                 s.span(),
                 format!("the file expands to more than {MAX_STEPS} statements"),
                 "reduce the ranges of the sums",
@@ -1526,6 +1669,7 @@ impl<'s> Evaluator<'s> {
                 if let Some((_, prev)) = self.file_encoding {
                     let line = self.line_of(prev);
                     self.report(EvalErr::new(
+                        Code::HamMeaning,
                         *span,
                         "`encoding` is declared twice",
                         format!("the encoding is declared once, at line {line}"),
@@ -1544,6 +1688,7 @@ impl<'s> Evaluator<'s> {
                     Ok(c) if c.re.is_finite() && c.im.is_finite() => Val::Num(c),
                     Ok(_) => {
                         self.report(EvalErr::new(
+                            Code::HamValue,
                             value.span(),
                             format!("`{name}` is not a finite number"),
                             "check for overflow in the expression",
@@ -1575,6 +1720,7 @@ impl<'s> Evaluator<'s> {
                 let range = lo.span().to(hi.span());
                 if b <= a {
                     self.report(EvalErr::new(
+                        Code::HamValue,
                         range,
                         format!("empty range `{}`: {a}..{b} has no values", self.text(range)),
                         "`A..B` runs over A, A+1, ..., B-1, so B must be larger than A",
@@ -1600,6 +1746,7 @@ impl<'s> Evaluator<'s> {
             Stmt::Term(t) => {
                 if self.terms_read >= MAX_TERMS {
                     self.report(EvalErr::new(
+                        Code::HamLimit,
                         t.span,
                         format!("the file expands to more than {MAX_TERMS} terms"),
                         "reduce the ranges of the sums",
@@ -1620,6 +1767,7 @@ impl<'s> Evaluator<'s> {
                 let c = self.coeff(e)?;
                 if !(c.re.is_finite() && c.im.is_finite()) {
                     return Err(EvalErr::new(
+                        Code::HamValue,
                         e.span(),
                         format!(
                             "coefficient `{}` is not a finite number",
@@ -1645,6 +1793,7 @@ impl<'s> Evaluator<'s> {
                     "mode"
                 };
                 return Err(EvalErr::new(
+                    Code::HamQubitRange,
                     f.index.span(),
                     format!(
                         "{unit} index {q} in `{}` is {what}: the file declares `qubits {n}`",
@@ -1669,6 +1818,7 @@ impl<'s> Evaluator<'s> {
         }
         if !paulis.is_empty() && !ladders.is_empty() {
             return Err(EvalErr::new(
+                Code::HamMeaning,
                 t.span,
                 "a term mixes Pauli and fermionic factors",
                 "write the Pauli part and the fermionic part as separate terms",
@@ -1707,6 +1857,7 @@ impl<'s> Evaluator<'s> {
         let enc = match (self.file_encoding, self.flag_encoding) {
             (Some((a, span)), Some(b)) if a != b => {
                 self.report(EvalErr::new(
+                    Code::HamMeaning,
                     span,
                     format!(
                         "the file says `encoding {}` but the command asks for `{}`",
@@ -1719,7 +1870,7 @@ impl<'s> Evaluator<'s> {
             }
             (Some((a, _)), _) => a,
             (None, _) if self.first_pauli_term.is_some() => {
-                self.report(EvalErr::new(
+                self.report(EvalErr::new(Code::HamMeaning,
                     first,
                     "this file mixes Pauli and fermionic terms but does not say which encoding applies",
                     "the Pauli terms are written for one encoding: add `encoding jw` or `encoding bk` after `qubits`",
@@ -1728,7 +1879,7 @@ impl<'s> Evaluator<'s> {
             }
             (None, Some(b)) => b,
             (None, None) => {
-                self.report(EvalErr::new(
+                self.report(EvalErr::new(Code::HamMeaning,
                     first,
                     "fermionic terms need an encoding",
                     "add a line `encoding jw` (Jordan–Wigner) or `encoding bk` (Bravyi–Kitaev), or pass `--encoding jw|bk`",
@@ -1785,7 +1936,7 @@ impl<'s> Evaluator<'s> {
                     } else {
                         format!("`{p}`")
                     };
-                    self.report(EvalErr::new(
+                    self.report(EvalErr::new(Code::HamMeaning,
                         a.first,
                         format!(
                             "the Hamiltonian is not Hermitian: {what} has merged coefficient {}",
@@ -2015,5 +2166,82 @@ mod tests {
             "# line one\n#\n# line three\nqubits 3\n-1.5\n-3 Z0\n1e-20 Z2\n0.30000000000000004 X0 Y1\n"
         );
         assert_eq!(read(&text).sum, h);
+    }
+
+    /// The full reader alone (syntax tree and evaluator), for comparing with the fast path.
+    fn read_full(src: &str) -> Result<HamRead, Vec<Diagnostic>> {
+        let stmts = parse_statements("t.ham", src)?;
+        let mut ev = Evaluator::new("t.ham", src);
+        ev.run(&stmts);
+        ev.finish()
+    }
+
+    #[test]
+    fn plain_lines_take_the_fast_path_only_when_it_means_the_same() {
+        // Plain: taken, and equal to the full reader.
+        for src in [
+            "qubits 3\n0.5 X0 Z1\n-1.5\nZ2\n# c\n  -2.5e-3 Y0 Y1 # tail\n0.5 X0 Z1\n",
+            "# header\n\nqubits 2\n1 X0 X0\n0 Z1\n",
+        ] {
+            let fast = plain_lines("t.ham", src, None).expect("plain file");
+            assert_eq!(Ok(fast), read_full(src), "{src}");
+        }
+        // Not plain (or needing a diagnostic): left to the full reader.
+        for src in [
+            "qubits 2\nlet J = 1\nJ * Z0\n",
+            "qubits 2\nsum i in 0..2 { Z{i} }\n",
+            "qubits 2\n0.5 X0 Y0\n",
+            "qubits 2\n0.5 Z2\n",
+            "qubits 2\n+0.5 Z1\n",
+            "qubits 2\n0.5i Z1\n",
+            "qubits 2\n0.5 Z01\n",
+            "qubits 2\n1e400 Z1\n",
+            "qubits 2\n0.5 Z0; 0.5 Z1\n",
+            "qubits 2\nqubits 2\n",
+            "Z0\n",
+        ] {
+            assert!(plain_lines("t.ham", src, None).is_none(), "{src}");
+        }
+    }
+
+    proptest::proptest! {
+        /// Random plain files (repeats, same-qubit products, zeros, constants, comments) read
+        /// the same by the fast path and the full reader, errors included.
+        #[test]
+        fn the_fast_path_equals_the_full_reader(
+            n in 1usize..6,
+            lines in proptest::collection::vec(
+                (
+                    proptest::option::of(-3i32..4),
+                    proptest::collection::vec((0usize..8, 0usize..3), 0..4),
+                    proptest::bool::ANY,
+                ),
+                0..12,
+            ),
+        ) {
+            let mut src = format!("qubits {n}\n");
+            for (c, fs, comment) in &lines {
+                let mut line = match c {
+                    Some(c) => format!("{}", f64::from(*c) * 0.25),
+                    None => String::new(),
+                };
+                for (q, p) in fs {
+                    line.push_str(&format!(" {}{q}", ['X', 'Y', 'Z'][*p]));
+                }
+                if *comment {
+                    line.push_str(" # note");
+                }
+                src.push_str(line.trim_start());
+                src.push('\n');
+            }
+            let full = read_full(&src);
+            match plain_lines("t.ham", &src, None) {
+                Some(fast) => proptest::prop_assert_eq!(Ok(fast), full),
+                None => proptest::prop_assert!(
+                    full.is_err(),
+                    "declined a plain file that reads fine:\n{}", src
+                ),
+            }
+        }
     }
 }

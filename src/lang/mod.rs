@@ -4,6 +4,7 @@
 //! In: source text and its file name. Out: a value (Pauli sum, device) or a list of
 //! [`diag::Diagnostic`]s; parsers never panic and never print.
 
+pub mod codes;
 pub mod dev;
 pub mod diag;
 pub mod ham;

@@ -8,7 +8,7 @@
 //! cascade. Invariant: only failed reads are rewritten, never a file that parsed, and a
 //! suggestion is made only within a small edit distance (Damerau–Levenshtein, via `strsim`).
 
-use crate::lang::diag::Diagnostic;
+use crate::lang::diag::{Code, Diagnostic};
 
 /// Words that start a statement of the `.ham` language (`in` appears inside `sum`).
 pub const HAM_KEYWORDS: &[&str] = &["qubits", "let", "sum", "in", "encoding"];
@@ -116,6 +116,7 @@ pub fn hamiltonian_hints(file: &str, src: &str, diags: Vec<Diagnostic>) -> Vec<D
     if let (Language::Device, Some(at)) = sniff(src) {
         let w = first_word(&src[at..]);
         return vec![Diagnostic::at(
+            Code::HamUnknownWord,
             file,
             src,
             at,
@@ -133,6 +134,7 @@ pub fn device_hints(file: &str, src: &str, diags: Vec<Diagnostic>) -> Vec<Diagno
     if let (Language::Hamiltonian, Some(at)) = sniff(src) {
         let line_end = src[at..].find('\n').map_or(src.len(), |i| at + i);
         return vec![Diagnostic::at(
+            Code::DevUnknownWord,
             file,
             src,
             at,
@@ -176,6 +178,7 @@ fn keyword_hints(
                     rewritten_lines.push(d.line);
                     let at = line_start + (line.len() - line.trim_start().len());
                     out.push(Diagnostic::at(
+                        Code::HamUnknownWord,
                         file,
                         src,
                         at,
@@ -222,7 +225,15 @@ mod tests {
     #[test]
     fn a_misspelt_keyword_line_becomes_one_diagnostic_under_the_word() {
         let src = "qbits 8\nZ0 Z1\n";
-        let d = Diagnostic::at("a.ham", src, 6, 1, "unexpected `8` after the factors", None);
+        let d = Diagnostic::at(
+            Code::HamSyntax,
+            "a.ham",
+            src,
+            6,
+            1,
+            "unexpected `8` after the factors",
+            None,
+        );
         let out = hamiltonian_hints("a.ham", src, vec![d]);
         assert_eq!(out.len(), 1);
         assert_eq!((out[0].line, out[0].column, out[0].width), (1, 1, 5));
@@ -236,7 +247,7 @@ mod tests {
     #[test]
     fn let_bound_names_are_not_corrected() {
         let src = "qubits 2\nlet sun = 1\nsun Z0 *\n";
-        let d = Diagnostic::at("a.ham", src, 28, 1, "unexpected `*`", None);
+        let d = Diagnostic::at(Code::HamSyntax, "a.ham", src, 28, 1, "unexpected `*`", None);
         let out = hamiltonian_hints("a.ham", src, vec![d.clone()]);
         assert_eq!(out, vec![d]);
     }

@@ -5,7 +5,7 @@
 //! an unknown gate or an out-of-range qubit or bit, at that name or operand.
 
 use crate::circuit::{Circuit, Gate};
-use crate::lang::diag::Diagnostic;
+use crate::lang::diag::{Code, Diagnostic};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{char, digit1, multispace0};
@@ -230,7 +230,7 @@ fn blank_comments(src: &str) -> String {
 
 /// Parses a program in the writer's subset.
 pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
-    if let Some(d) = crate::lang::diag::depth_guard(file, src, "//") {
+    if let Some(d) = crate::lang::diag::depth_guard(Code::QasmSyntax, file, src, "//") {
         return Err(d);
     }
     let text = blank_comments(src);
@@ -250,6 +250,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
         }
         let err = |msg: String, hint: &str| {
             Diagnostic::at(
+                Code::QasmSyntax,
                 file,
                 src,
                 start,
@@ -261,7 +262,15 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
         // A diagnostic under `needle` where it first appears in the statement (else the
         // statement's start).
         let err_at = |needle: &str, msg: String, hint: &str| match stmt_text.find(needle) {
-            Some(i) => Diagnostic::at(file, src, start + i, needle.len(), msg, Some(hint.into())),
+            Some(i) => Diagnostic::at(
+                Code::QasmSyntax,
+                file,
+                src,
+                start + i,
+                needle.len(),
+                msg,
+                Some(hint.into()),
+            ),
             None => err(msg, hint),
         };
         if !stmt_text.ends_with(';') {
@@ -346,6 +355,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
     }
     if !seen_header {
         return Err(Diagnostic::whole_file(
+            Code::QasmSyntax,
             file,
             "empty program: missing `OPENQASM 3.0;`",
             None,

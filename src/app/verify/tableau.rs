@@ -10,6 +10,7 @@ use super::{phase_bar, VerifyArgs};
 use crate::app::io::read_text;
 use crate::error::{Error, Result};
 use crate::family::plan::{CircuitEntry, Plan};
+use crate::lang::codes::Code;
 use crate::lang::diag::Diagnostic;
 use crate::report::table::Table;
 use crate::tableau::equiv::{CannotCheck, Claim, Proof, Verdict};
@@ -27,15 +28,18 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
     let name = path.display().to_string();
     let text = read_text(&path)?;
     let prog = crate::qasm::read(&name, &text).map_err(Error::input)?;
-    let at = |gate: Option<usize>, message: String, hint: &str| match gate
+    let at = |code: Code, gate: Option<usize>, message: String, hint: &str| match gate
         .and_then(|g| prog.spans.get(g))
     {
-        Some(&(off, len)) => Diagnostic::at(&name, &text, off, len, message, Some(hint.into())),
-        None => Diagnostic::whole_file(&name, message, Some(hint.into())),
+        Some(&(off, len)) => {
+            Diagnostic::at(code, &name, &text, off, len, message, Some(hint.into()))
+        }
+        None => Diagnostic::whole_file(code, &name, message, Some(hint.into())),
     };
     match claim.check(e, &prog.circuit) {
         Ok(Verdict::Equivalent(p)) => Ok(Outcome::Proved(p)),
         Ok(Verdict::Differs(r)) => Ok(Outcome::Refuted(at(
+            Code::QasmPlan,
             r.gate,
             format!("{}: {}", e.id, r.message),
             "the file does not implement the circuit plan.json claims; recompile the campaign",
@@ -44,6 +48,7 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
             gate: Some(g),
             message,
         }) => Err(Error::input(at(
+            Code::QasmSyntax,
             Some(g),
             message,
             "the tableau method takes the OpenQASM 3 subset phasewright writes",
@@ -52,6 +57,7 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
             gate: None,
             message,
         }) => Err(Error::usage(
+            Code::PlanSyntax,
             format!("{}: {message}", e.id),
             Some("plan.json does not describe a campaign phasewright wrote"),
         )),
@@ -61,6 +67,7 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
 pub fn run(args: &VerifyArgs, g: &crate::app::Global, plan: &Plan) -> Result<()> {
     let claim = Claim::from_plan(plan).map_err(|m| {
         Error::usage(
+            Code::PlanSyntax,
             m,
             Some("plan.json does not describe a campaign phasewright wrote"),
         )
