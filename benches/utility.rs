@@ -113,6 +113,13 @@ fn exponent(points: &[(f64, f64)]) -> f64 {
 
 fn main() {
     let quick = std::env::var_os("PHASEWRIGHT_BENCH_QUICK").is_some();
+    // `cargo bench --bench utility -- parse terms` runs only those sections (parse, compile,
+    // terms, qubits); cargo itself passes `--bench`, which is not a section.
+    let sections: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|a| !a.starts_with("--"))
+        .collect();
+    let want = |name: &str| sections.is_empty() || sections.iter().any(|s| s == name);
     let scratch = tempfile::tempdir().expect("scratch folder");
     println!(
         "utility benchmark: {} cores, rayon threads {}",
@@ -121,42 +128,51 @@ fn main() {
     );
 
     // 1. parse + write back vs read + write the same bytes.
-    let m_parse = if quick { 100_000 } else { 1_000_000 };
-    let text = random_ham_text(200, m_parse, 1);
-    let src = scratch.path().join("in.ham");
-    std::fs::write(&src, &text).unwrap();
-    let t = Instant::now();
-    let read = std::fs::read_to_string(&src).unwrap();
-    std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
-    let io_s = t.elapsed().as_secs_f64();
-    let t = Instant::now();
-    let read = std::fs::read_to_string(&src).unwrap();
-    let h = parse(&read);
-    let out = write_hamiltonian(&h, "bench");
-    std::fs::write(scratch.path().join("out.ham"), &out).unwrap();
-    let conv_s = t.elapsed().as_secs_f64();
-    println!(
+    if want("parse") {
+        let m_parse = if quick { 100_000 } else { 1_000_000 };
+        let text = random_ham_text(200, m_parse, 1);
+        let src = scratch.path().join("in.ham");
+        std::fs::write(&src, &text).unwrap();
+        let t = Instant::now();
+        let read = std::fs::read_to_string(&src).unwrap();
+        std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
+        let io_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let read = std::fs::read_to_string(&src).unwrap();
+        let h = parse(&read);
+        let parse_s = t.elapsed().as_secs_f64();
+        let out = write_hamiltonian(&h, "bench");
+        std::fs::write(scratch.path().join("out.ham"), &out).unwrap();
+        let conv_s = t.elapsed().as_secs_f64();
+        println!(
+            "  read + parse {parse_s:.2} s, write back {:.2} s",
+            conv_s - parse_s
+        );
+        println!(
         "parse   {m_parse} terms on 200 qubits ({:.1} MB): convert {conv_s:.2} s, read+write {io_s:.3} s, ratio {:.0} (target <= 10)",
         text.len() as f64 / 1e6,
         conv_s / io_s
     );
-    drop((text, read, h, out));
+        drop((text, read, h, out));
+    }
 
     // 2. compile 10^5 terms on 120 qubits vs writing the same bytes.
-    let m_comp = if quick { 10_000 } else { 100_000 };
-    let h = parse(&random_ham_text(120, m_comp, 2));
-    let (comp_s, bytes) = compile_and_write(&h, 5, &scratch.path().join("campaign"));
-    let c = compile(&h, "bench.ham", &spec(120, 5)).expect("compiles");
-    let t = Instant::now();
-    write_all(&scratch.path().join("copy"), &c.programs);
-    let write_s = t.elapsed().as_secs_f64();
-    drop(c);
-    println!(
+    if want("compile") {
+        let m_comp = if quick { 10_000 } else { 100_000 };
+        let h = parse(&random_ham_text(120, m_comp, 2));
+        let (comp_s, bytes) = compile_and_write(&h, 5, &scratch.path().join("campaign"));
+        let c = compile(&h, "bench.ham", &spec(120, 5)).expect("compiles");
+        let t = Instant::now();
+        write_all(&scratch.path().join("copy"), &c.programs);
+        let write_s = t.elapsed().as_secs_f64();
+        drop(c);
+        println!(
         "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {:.0} MB",
         bytes as f64 / 1e6,
         comp_s / write_s,
         peak_rss_mb()
     );
+    }
 
     // 3. scaling in terms (120 qubits) and in qubits (100 terms per qubit).
     let term_sizes: &[usize] = if quick {
@@ -165,7 +181,7 @@ fn main() {
         &[1_000, 10_000, 100_000, 1_000_000]
     };
     let mut pts = Vec::new();
-    for &m in term_sizes {
+    for &m in term_sizes.iter().filter(|_| want("terms")) {
         let h = parse(&random_ham_text(120, m, 3));
         let (s, bytes) = compile_and_write(&h, 2, &scratch.path().join(format!("t{m}")));
         std::fs::remove_dir_all(scratch.path().join(format!("t{m}"))).ok();
@@ -175,17 +191,19 @@ fn main() {
         );
         pts.push((m as f64, s));
     }
-    println!(
-        "scaling in terms: exponent {:.2} (target <= 1.15)",
-        exponent(&pts)
-    );
+    if want("terms") {
+        println!(
+            "scaling in terms: exponent {:.2} (target <= 1.15)",
+            exponent(&pts)
+        );
+    }
     let widths: &[usize] = if quick {
         &[64, 128, 256]
     } else {
         &[64, 128, 256, 1024]
     };
     let mut pts = Vec::new();
-    for &n in widths {
+    for &n in widths.iter().filter(|_| want("qubits")) {
         let h = parse(&random_ham_text(n, 100 * n, 4));
         let (s, bytes) = compile_and_write(&h, 2, &scratch.path().join(format!("q{n}")));
         std::fs::remove_dir_all(scratch.path().join(format!("q{n}"))).ok();
@@ -196,8 +214,10 @@ fn main() {
         );
         pts.push((n as f64, s));
     }
-    println!(
-        "scaling in qubits (100 terms per qubit): exponent {:.2} (target <= 1.3)",
-        exponent(&pts)
-    );
+    if want("qubits") {
+        println!(
+            "scaling in qubits (100 terms per qubit): exponent {:.2} (target <= 1.3)",
+            exponent(&pts)
+        );
+    }
 }

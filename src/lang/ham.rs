@@ -107,6 +107,9 @@ pub fn parse_hamiltonian_with(
 fn plain_lines(file: &str, src: &str, encoding: Option<Encoding>) -> Option<HamRead> {
     let mut ev = Evaluator::new(file, src);
     ev.flag_encoding = encoding;
+    // About one term per line: size the accumulator once instead of rehashing as it grows.
+    let lines = src.bytes().filter(|&b| b == b'\n').count();
+    ev.acc.reserve(lines.min(MAX_TERMS));
     let mut factors: Vec<(usize, Pauli)> = Vec::with_capacity(8);
     let mut offset = 0usize;
     let mut declared = false;
@@ -225,15 +228,28 @@ pub fn write_hamiltonian(h: &PauliSum, header_comment: &str) -> String {
         .collect();
     terms.sort_unstable_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
     out.reserve(terms.len() * 24);
+    let mut digits = itoa::Buffer::new();
     for (key, _, c) in &terms {
-        out.push_str(&format_coefficient(*c));
+        push_coefficient(&mut out, *c);
         for (q, letter) in key {
-            use std::fmt::Write;
-            let _ = write!(out, " {letter}{q}");
+            out.push(' ');
+            out.push(*letter);
+            out.push_str(digits.format(*q));
         }
         out.push('\n');
     }
     out
+}
+
+/// Appends [`format_coefficient`]'s text for `c` to `out` without an intermediate string.
+fn push_coefficient(out: &mut String, c: f64) {
+    use std::fmt::Write;
+    let a = c.abs();
+    let _ = if c != 0.0 && !(1e-4..1e15).contains(&a) {
+        write!(out, "{c:e}")
+    } else {
+        write!(out, "{c}")
+    };
 }
 
 /// Shortest round-trip text of a coefficient; scientific notation outside `[1e-4, 1e15)`.
@@ -1929,7 +1945,7 @@ impl<'s> Evaluator<'s> {
             // Diagnostics are ordered by their offset below, whatever the order here.
             let acc = std::mem::take(&mut self.acc);
             let mut kept = Vec::with_capacity(acc.len());
-            for (p, a) in &acc {
+            for (p, a) in acc {
                 if a.sum.im.abs() > HERMITIAN_REL_TOL * a.magnitude {
                     let what = if p.is_identity() {
                         "the constant term".to_string()
@@ -1958,9 +1974,11 @@ impl<'s> Evaluator<'s> {
                 } else if p.is_identity() {
                     sum.constant = re;
                 } else {
-                    kept.push((p.clone(), re));
+                    kept.push((p, re));
                 }
             }
+            // Keys are distinct: an unstable sort, then the map is built from sorted input.
+            kept.sort_unstable_by(|a, b| a.0.cmp(&b.0));
             sum.terms = kept.into_iter().collect();
         }
         if !self.diags.is_empty() {
