@@ -133,10 +133,17 @@ fn main() {
         let text = random_ham_text(200, m_parse, 1);
         let src = scratch.path().join("in.ham");
         std::fs::write(&src, &text).unwrap();
-        let t = Instant::now();
-        let read = std::fs::read_to_string(&src).unwrap();
-        std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
-        let io_s = t.elapsed().as_secs_f64();
+        // The plain copy is short and noisy (page cache, a shared disk): the median of three.
+        let mut copies: Vec<f64> = (0..3)
+            .map(|_| {
+                let t = Instant::now();
+                let read = std::fs::read_to_string(&src).unwrap();
+                std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
+                t.elapsed().as_secs_f64()
+            })
+            .collect();
+        copies.sort_by(f64::total_cmp);
+        let io_s = copies[1];
         let t = Instant::now();
         let read = std::fs::read_to_string(&src).unwrap();
         let h = parse(&read);

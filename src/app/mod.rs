@@ -12,6 +12,7 @@ pub mod estimate;
 pub mod explain;
 pub mod io;
 pub mod rehearse;
+pub mod shell;
 pub mod verify;
 
 use crate::error::{Error, Result};
@@ -97,6 +98,12 @@ pub enum Command {
     /// Explain a diagnostic code (the `H104` of `error H104: …`), or list them all.
     #[command(after_help = explain::EXAMPLES)]
     Explain(explain::ExplainArgs),
+    /// Print a shell completion script for phasewright.
+    #[command(after_help = shell::COMPLETION_EXAMPLES)]
+    Completions(shell::CompletionsArgs),
+    /// Write man pages for phasewright and each of its commands.
+    #[command(after_help = shell::MANUAL_EXAMPLES)]
+    Manual(shell::ManualArgs),
     #[command(alias = "sample")]
     Rehearse(rehearse::RehearseArgs),
     Verify(verify::VerifyArgs),
@@ -124,6 +131,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Convert(a) => convert::run(a, &g),
         Command::Estimate(a) => estimate::run(&a, &g),
         Command::Explain(a) => explain::run(&a, &g),
+        Command::Completions(a) => shell::completions(&a, &g),
+        Command::Manual(a) => shell::manual(&a, &g),
         Command::Rehearse(a) => rehearse::run(&a, &g),
         Command::Verify(a) => verify::run(&a, &g),
     }
