@@ -87,7 +87,7 @@ pub struct CompileArgs {
 pub const DEFAULT_SAMPLES: usize = 8;
 
 /// Most controlled rotations one campaign may hold, summed over its circuits. A rotation costs
-/// about [`BYTES_PER_ROTATION`] bytes of OpenQASM, so this caps a campaign near 6 GB; the
+/// about `BYTES_PER_ROTATION` bytes of OpenQASM, so this caps a campaign near 6 GB; the
 /// memory the machine has is checked separately (`pipeline::predicted_memory`).
 pub const MAX_ROTATIONS: f64 = 1e8;
 

@@ -1,6 +1,6 @@
 //! `phasewright verify DIR`: read every circuit file back and check it against the plan, by
 //! statevector simulation (compared with the ideal product formula and the exact evolution) or
-//! by the exact tableau equivalence proof ([`tableau`], any width).
+//! by the exact tableau equivalence proof (`verify::tableau`, any width).
 
 mod tableau;
 

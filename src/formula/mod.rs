@@ -78,7 +78,7 @@ pub fn order_terms(h: &PauliSum) -> Vec<(PauliString, f64)> {
 }
 
 /// Longest walk back, in rotations, when a rotation is not merged by the commuting-run
-/// shortcut of [`Builder::push`].
+/// shortcut of `Builder::push`.
 pub const MERGE_WINDOW: usize = 256;
 
 const NONE: usize = usize::MAX;

@@ -27,6 +27,7 @@ use nom::combinator::cut;
 use nom::error::{context, ContextError, ErrorKind, ParseError};
 use nom::{IResult, Offset};
 use num_complex::Complex64;
+use rayon::slice::ParallelSliceMut;
 use std::cell::RefCell;
 use std::collections::HashSet;
 
@@ -87,7 +88,7 @@ pub fn parse_hamiltonian_with(
     if let Some(d) = crate::lang::diag::depth_guard(Code::HamLimit, file, src, "#") {
         return Err(vec![d]);
     }
-    if let Some(read) = plain_lines(file, src, encoding) {
+    if let Some(read) = plain_lines(src) {
         return Ok(read);
     }
     let stmts = parse_statements(file, src)?;
@@ -104,34 +105,34 @@ pub fn parse_hamiltonian_with(
 /// `finish`) without a syntax tree. Anything else in the file (names, sums, expressions,
 /// fermionic factors, an index out of range, a line that would need a diagnostic) returns
 /// `None` and the whole file takes the full reader, which also owns every diagnostic.
-fn plain_lines(file: &str, src: &str, encoding: Option<Encoding>) -> Option<HamRead> {
-    let mut ev = Evaluator::new(file, src);
-    ev.flag_encoding = encoding;
-    // About one term per line: size the accumulator once instead of rehashing as it grows.
+fn plain_lines(src: &str) -> Option<HamRead> {
+    let mut num_qubits = 0usize;
+    // One entry per line; equal strings are merged after a stable sort, which keeps the lines'
+    // order among equals, so every sum is accumulated in file order exactly as the evaluator's
+    // map does (0 + c₁ + c₂ + …), bit for bit.
     let lines = src.bytes().filter(|&b| b == b'\n').count();
-    ev.acc.reserve(lines.min(MAX_TERMS));
+    let mut terms: Vec<(PauliString, f64)> = Vec::with_capacity(lines.min(MAX_TERMS) + 1);
     let mut factors: Vec<(usize, Pauli)> = Vec::with_capacity(8);
-    let mut offset = 0usize;
     let mut declared = false;
-    for raw in src.split_inclusive('\n') {
-        let start = offset;
-        offset += raw.len();
+    for raw in src.split('\n') {
         let code = raw.split('#').next().unwrap_or("");
         let line = code.trim();
         if line.is_empty() {
             continue;
         }
         if !declared {
-            let n: usize = line.strip_prefix("qubits ")?.trim().parse().ok()?;
-            if n == 0 || n > MAX_HAM_QUBITS || !line[7..].trim().bytes().all(|b| b.is_ascii_digit())
-            {
+            let count = line.strip_prefix("qubits ")?.trim();
+            if !count.bytes().all(|b| b.is_ascii_digit()) {
                 return None;
             }
-            ev.num_qubits = n;
+            num_qubits = count.parse().ok()?;
+            if num_qubits == 0 || num_qubits > MAX_HAM_QUBITS {
+                return None;
+            }
             declared = true;
             continue;
         }
-        if ev.terms_read >= MAX_TERMS {
+        if terms.len() >= MAX_TERMS {
             return None;
         }
         let mut words = line.split_ascii_whitespace().peekable();
@@ -173,27 +174,53 @@ fn plain_lines(file: &str, src: &str, encoding: Option<Encoding>) -> Option<HamR
                 return None;
             }
             let q: usize = digits.parse().ok()?;
-            if q >= ev.num_qubits {
+            if q >= num_qubits {
                 return None;
             }
             factors.push((q, p));
         }
-        let lead = raw.len() - raw.trim_start().len();
-        let span = Span {
-            start: start + lead,
-            end: start + lead + line.len(),
-        };
-        ev.terms_read += 1;
-        if !factors.is_empty() && ev.first_pauli_term.is_none() {
-            ev.first_pauli_term = Some(span);
-        }
         let (phase, p) = PauliString::from_factors(&factors);
-        ev.add(p, Complex64::new(coeff, 0.0) * phase, span, true);
+        // A product on one qubit with a phase ±i: the merged coefficient may or may not be
+        // real, which the evaluator decides (with a diagnostic when it is not).
+        if phase != Complex64::new(1.0, 0.0) {
+            return None;
+        }
+        terms.push((p, coeff));
     }
     if !declared {
         return None;
     }
-    ev.finish().ok()
+    let terms_read = terms.len();
+    terms.par_sort_by(|a, b| a.0.cmp(&b.0));
+    let mut sum = PauliSum::new(num_qubits);
+    let mut dropped_zero = 0;
+    let mut kept: Vec<(PauliString, f64)> = Vec::with_capacity(terms.len());
+    let mut it = terms.into_iter().peekable();
+    while let Some((p, c)) = it.next() {
+        let mut total = 0.0 + c;
+        while it.peek().is_some_and(|(q, _)| *q == p) {
+            total += it.next().map_or(0.0, |(_, c)| c);
+        }
+        if total == 0.0 {
+            if !p.is_identity() {
+                dropped_zero += 1;
+            }
+        } else if p.is_identity() {
+            sum.constant = total;
+        } else {
+            kept.push((p, total));
+        }
+    }
+    sum.terms = kept.into_iter().collect();
+    Some(HamRead {
+        ham: HamFile {
+            sum,
+            dropped_zero,
+            terms_read,
+        },
+        encoding: None,
+        fermionic_terms: 0,
+    })
 }
 
 /// Writes `h` in the `.ham` language: `header_comment` as `#` lines, `qubits N`, the constant
@@ -2201,7 +2228,7 @@ mod tests {
             "qubits 3\n0.5 X0 Z1\n-1.5\nZ2\n# c\n  -2.5e-3 Y0 Y1 # tail\n0.5 X0 Z1\n",
             "# header\n\nqubits 2\n1 X0 X0\n0 Z1\n",
         ] {
-            let fast = plain_lines("t.ham", src, None).expect("plain file");
+            let fast = plain_lines(src).expect("plain file");
             assert_eq!(Ok(fast), read_full(src), "{src}");
         }
         // Not plain (or needing a diagnostic): left to the full reader.
@@ -2218,7 +2245,7 @@ mod tests {
             "qubits 2\nqubits 2\n",
             "Z0\n",
         ] {
-            assert!(plain_lines("t.ham", src, None).is_none(), "{src}");
+            assert!(plain_lines(src).is_none(), "{src}");
         }
     }
 
@@ -2253,7 +2280,7 @@ mod tests {
                 src.push('\n');
             }
             let full = read_full(&src);
-            match plain_lines("t.ham", &src, None) {
+            match plain_lines(&src) {
                 Some(fast) => proptest::prop_assert_eq!(Ok(fast), full),
                 None => proptest::prop_assert!(
                     full.is_err(),

@@ -180,8 +180,8 @@ impl Summary {
 /// Splits a term list into maximal runs of pairwise commuting strings, greedily from the
 /// front: `run[i]` is the run of string `i`, non-decreasing from 0.
 ///
-/// Cost: a run is tested like a group ([`Summary`]) up to [`GROUP_CAP`] members; beyond, it
-/// switches to a GF(2) basis of its symplectic vectors in echelon form ([`Echelon`]), whose
+/// Cost: a run is tested like a group (`Summary`) up to [`GROUP_CAP`] members; beyond, it
+/// switches to a GF(2) basis of its symplectic vectors in echelon form (`Echelon`), whose
 /// rank a commuting set keeps at most `n`, so a test costs at most `n` word-popcounts over
 /// the newcomer's words. Linear in the number of terms for a fixed width.
 pub fn commuting_runs<'a>(strings: impl Iterator<Item = &'a PauliString>) -> Vec<u32> {

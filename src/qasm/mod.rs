@@ -8,7 +8,7 @@
 //! A non-zero global phase is written with the built-in `gphase`.
 //!
 //! In (reader): text in that subset (plus `pi`/`π` arithmetic in angles, `//` comments,
-//! `barrier`). Out: a [`Circuit`] or a [`Diagnostic`] pointing at the first unsupported
+//! `barrier`). Out: a [`Circuit`] or a [`Diagnostic`](crate::lang::diag::Diagnostic) pointing at the first unsupported
 //! statement. Reference: OpenQASM 3 specification, "Gates" and "Built-in quantum instructions"
 //! (openqasm.com, v3.0/v3.1), for the gate names and `U`/`gphase` semantics.
 
@@ -39,7 +39,7 @@ pub fn write(c: &Circuit, addressing: Addressing, comments: &[String]) -> String
     String::from_utf8(out).expect("the writer emits UTF-8")
 }
 
-/// Streams the program of [`write`] into `w` (a buffered file, say), gate by gate, without
+/// Streams the program of [`write()`] into `w` (a buffered file, say), gate by gate, without
 /// building the text in memory first.
 pub fn write_to(
     w: &mut impl std::io::Write,
