@@ -367,6 +367,7 @@ fn finish(
         energy_unit: None,
         points: spec.points,
         device,
+        shard: None,
         circuits: entries,
     };
     Compiled {

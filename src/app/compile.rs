@@ -81,6 +81,10 @@ pub struct CompileArgs {
     /// Replace the output folder whole even if it holds files phasewright did not write.
     #[arg(long)]
     pub force: bool,
+    /// Write only share I of N of the campaign (circuit j goes to share j mod N + 1), for the
+    /// tasks of a job array; `phasewright merge` joins the N folders into the one campaign.
+    #[arg(long, value_name = "I/N", value_parser = super::shard::parse_shard)]
+    pub shard: Option<(usize, usize)>,
 }
 
 /// Random product states of a trace campaign without --samples.
@@ -367,6 +371,9 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     if chem.is_some() {
         // FCIDUMP integrals are in hartree by the format's convention.
         compiled.plan.energy_unit = Some("hartree".into());
+    }
+    if let Some((index, count)) = args.shard {
+        super::shard::keep_share(&mut compiled, index, count);
     }
     super::io::check_out_folder(&args.out, args.force)?;
     write_campaign(&args.out, &mut compiled)?;

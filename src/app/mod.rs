@@ -12,6 +12,7 @@ pub mod estimate;
 pub mod explain;
 pub mod io;
 pub mod rehearse;
+pub mod shard;
 pub mod shell;
 pub mod verify;
 
@@ -101,6 +102,9 @@ pub enum Command {
     /// Print a shell completion script for phasewright.
     #[command(after_help = shell::COMPLETION_EXAMPLES)]
     Completions(shell::CompletionsArgs),
+    /// Join the share folders of `compile --shard I/N` into one campaign folder.
+    #[command(after_help = shard::MERGE_EXAMPLES)]
+    Merge(shard::MergeArgs),
     /// Write man pages for phasewright and each of its commands.
     #[command(after_help = shell::MANUAL_EXAMPLES)]
     Manual(shell::ManualArgs),
@@ -133,6 +137,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Explain(a) => explain::run(&a, &g),
         Command::Completions(a) => shell::completions(&a, &g),
         Command::Manual(a) => shell::manual(&a, &g),
+        Command::Merge(a) => shard::merge(&a, &g),
         Command::Rehearse(a) => rehearse::run(&a, &g),
         Command::Verify(a) => verify::run(&a, &g),
     }

@@ -546,6 +546,7 @@ pub(crate) mod tests {
             energy_unit: None,
             points: 2,
             device: None,
+            shard: None,
             circuits: vec![circuit("k1_re", 1, Part::Re), circuit("k1_im", 1, Part::Im)],
         }
     }

@@ -48,7 +48,22 @@ pub struct Plan {
     pub points: usize,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub device: Option<DeviceInfo>,
+    /// Present when this plan is one share of a campaign split for a job array
+    /// (`compile --shard I/N`): it lists only that share's circuits.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shard: Option<ShardInfo>,
     pub circuits: Vec<CircuitEntry>,
+}
+
+/// Which share of a split campaign a plan holds: circuit `j` of the whole campaign (plan order)
+/// belongs to share `j mod count + 1`, so shares are balanced across time points.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct ShardInfo {
+    /// 1-based share number.
+    pub index: usize,
+    pub count: usize,
+    /// Circuits in the whole campaign.
+    pub campaign_circuits: usize,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]

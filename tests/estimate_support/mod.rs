@@ -295,6 +295,7 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
         energy_unit: None,
         points,
         device: None,
+        shard: None,
         circuits: circuits.iter().map(|c| c.entry.clone()).collect(),
     };
     Campaign { plan, circuits }
