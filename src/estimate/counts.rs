@@ -493,12 +493,12 @@ pub(crate) mod tests {
             file: format!("{id}.qasm"),
             k,
             time: 0.5 * k as f64,
-            part,
+            part: Some(part),
             state: 0,
             group: None,
             num_qubits: 3,
             num_clbits: 3,
-            ancilla_bit: 2,
+            ancilla_bit: Some(2),
             reads: vec![Read {
                 target: Target::Overlap,
                 bits: vec![2],
@@ -529,6 +529,7 @@ pub(crate) mod tests {
             seed: None,
             energy_unit: None,
             points: 2,
+            control: crate::family::control::Control::Evolution,
             device: None,
             circuits: vec![circuit("k1_re", 1, Part::Re), circuit("k1_im", 1, Part::Im)],
         }
