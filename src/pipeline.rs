@@ -341,16 +341,13 @@ pub fn compile_for(
     }
 }
 
-/// The system qubits a controlled state preparation of any of `states` touches (letters other
-/// than `0`), ascending.
+/// The system qubits the ancilla meets in the controlled state preparation of any of `states`
+/// (`family::control::ancilla_partners`), ascending.
 fn prep_partners(states: &[String]) -> Vec<usize> {
     let mut touched: Vec<usize> = states
         .iter()
         .flat_map(|s| {
-            s.chars()
-                .enumerate()
-                .filter(|&(_, c)| c != '0')
-                .map(|(q, _)| q)
+            crate::family::control::ancilla_partners(s, s.chars().count() as crate::circuit::Qubit)
         })
         .collect();
     touched.sort_unstable();

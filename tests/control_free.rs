@@ -382,3 +382,133 @@ fn prep_and_evolution_campaigns_reach_the_same_energies() {
         );
     }
 }
+
+/// `--measure evolution`: plain circuits without an ancilla, one per k = 0..K-1, every qubit
+/// measured into its own bit; `verify` compares each file's whole output distribution with the
+/// ideal formula (to 1e-9) and exact evolution; `rehearse` samples them; `estimate` refuses
+/// them (exit 2) and says what they are for.
+#[test]
+fn plain_evolution_circuits_verify_and_estimate_refuses_them() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("ev");
+    let d = dir.display().to_string();
+    run(&[
+        "compile",
+        "examples/hubbard_ring4.ham",
+        "--state",
+        "10100101",
+        "--dt",
+        "0.2",
+        "--points",
+        "3",
+        "--measure",
+        "evolution",
+        "-o",
+        &d,
+    ]);
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("plan.json")).unwrap()).unwrap();
+    assert_eq!(plan["family"], "evolution");
+    let circuits = plan["circuits"].as_array().unwrap();
+    assert_eq!(circuits.len(), 3);
+    for (k, e) in circuits.iter().enumerate() {
+        assert_eq!(e["k"], k);
+        assert_eq!(e["qubit_count"], 8);
+        assert_eq!(e["bit_count"], 8);
+        assert!(e.get("part").is_none() && e.get("ancilla_bit").is_none());
+        // Every qubit q measured into bit q, and no ancilla in the file.
+        let text = std::fs::read_to_string(dir.join(e["file"].as_str().unwrap())).unwrap();
+        let c = qasm::read("f.qasm", &text).unwrap().circuit;
+        assert_eq!(c.num_qubits, 8);
+        let mut m = c.measurements();
+        m.sort();
+        assert_eq!(m, (0..8).map(|q| (q, q)).collect::<Vec<_>>());
+    }
+    let v: serde_json::Value = serde_json::from_str(&run(&["verify", "--json", &d])).unwrap();
+    assert_eq!(v["ok"], true);
+    let counts = dir.join("counts.json").display().to_string();
+    run(&[
+        "rehearse", &d, "--shots", "1000", "--seed", "3", "-o", &counts,
+    ]);
+    let r = bin()
+        .args(["estimate", &d, "--counts", &counts])
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&r.stderr).contains("plain time-evolution campaign"));
+}
+
+/// The distribution check of `verify` can fail: a plain evolution file whose rotation angle is
+/// changed is reported above the 1e-9 tolerance.
+#[test]
+fn a_changed_evolution_file_is_caught_by_its_distribution() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("ev");
+    let d = dir.display().to_string();
+    run(&[
+        "compile",
+        "examples/heisenberg_chain6.ham",
+        "--state",
+        "+10101",
+        "--dt",
+        "0.3",
+        "--points",
+        "2",
+        "--measure",
+        "evolution",
+        "-o",
+        &d,
+    ]);
+    let plan_text = std::fs::read_to_string(dir.join("plan.json")).unwrap();
+    let mut plan = phasewright::family::plan::Plan::from_json(&plan_text).unwrap();
+    let text = std::fs::read_to_string(dir.join("k01-ev.qasm")).unwrap();
+    let changed = text.replacen("rz(0.3)", "rz(0.31)", 1);
+    assert_ne!(text, changed);
+    let circuits = vec![
+        qasm::read(
+            "a",
+            &std::fs::read_to_string(dir.join("k00-ev.qasm")).unwrap(),
+        )
+        .unwrap()
+        .circuit,
+        qasm::read("b", &changed).unwrap().circuit,
+    ];
+    plan.circuits.iter_mut().for_each(|e| e.sha256 = None);
+    let checks = check_plan(&plan, &circuits).unwrap();
+    assert!(checks[0].compile_error <= 1e-9);
+    assert!(
+        checks[1].compile_error > 1e-4,
+        "{}",
+        checks[1].compile_error
+    );
+}
+
+/// A plan written in the earlier schema `phasewright-plan/2` (no `control`) is still read, as
+/// the controlled form.
+#[test]
+fn plans_of_the_previous_schema_are_still_read() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("old");
+    let d = dir.display().to_string();
+    run(&[
+        "compile",
+        "examples/tfim_chain8.ham",
+        "--state",
+        "00000000",
+        "--dt",
+        "0.1",
+        "--points",
+        "2",
+        "-o",
+        &d,
+    ]);
+    let path = dir.join("plan.json");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let old = text
+        .replace("phasewright-plan/3", "phasewright-plan/2")
+        .replace("  \"control\": \"evolution\",\n", "");
+    assert!(!old.contains("control"));
+    std::fs::write(&path, old).unwrap();
+    let v: serde_json::Value = serde_json::from_str(&run(&["verify", "--json", &d])).unwrap();
+    assert_eq!(v["ok"], true);
+}

@@ -35,7 +35,11 @@
 //!
 //! `W` is built from gates in which the ancilla appears only as the control of `cx(anc, q)`;
 //! `V` is the same list with each such `cx(anc, q)` replaced by `x(q)`, so `V` equals `W`'s
-//! action on the |1⟩ branch by construction. Per reference letter, `V` is the reflection
+//! action on the |1⟩ branch by construction, and `W` restricted to the |0⟩ branch keeps
+//! |0…0⟩ (checked by the tests below). The control of each step is the *source*: the ancilla,
+//! or the last qubit a `1` letter has set, which holds 1 on the |1⟩ branch and 0 on the |0⟩
+//! branch just as the ancilla does; so a basis state is a chain `cx(anc, s₁) cx(s₁, s₂) …`
+//! through its set bits, and on a device the ancilla meets only the first of them. Per reference letter, `V` is the reflection
 //! `n·σ` whose axis `n` bisects +z and the state's Bloch vector, so `V = R X R†` and
 //! `W = R · cx(anc, q) · R†` with `R` a rotation taking x to `n`; the singlet `ss` uses a
 //! controlled `h`, a controlled `z`, an uncontrolled `cx` (it acts on |00⟩ as the identity)
@@ -151,10 +155,12 @@ pub fn controlled_prep(state: &str, anc: Qubit) -> Vec<Gate> {
     use std::f64::consts::FRAC_PI_4;
     let letters: Vec<char> = state.chars().collect();
     let mut out = Vec::new();
-    // R† · cx(anc, q) · R for the reflection about the axis R takes x to.
-    let reflect = |q: Qubit, pre: &[Gate], post: &[Gate], out: &mut Vec<Gate>| {
+    // The source: 1 on the |1⟩ branch, 0 on the |0⟩ branch (see the module essay).
+    let mut src = anc;
+    // R† · cx(src, q) · R for the reflection about the axis R takes x to.
+    let reflect = |src: Qubit, q: Qubit, pre: &[Gate], post: &[Gate], out: &mut Vec<Gate>| {
         out.extend_from_slice(pre);
-        out.push(Gate::Cx(anc, q));
+        out.push(Gate::Cx(src, q));
         out.extend_from_slice(post);
     };
     let mut i = 0;
@@ -163,6 +169,7 @@ pub fn controlled_prep(state: &str, anc: Qubit) -> Vec<Gate> {
         match letters[i] {
             // x → (x + z)/√2 by ry(−π/4): the reflection is (X + Z)/√2 = H, and H|0⟩ = |+⟩.
             '+' => reflect(
+                src,
                 q,
                 &[Gate::Ry(q, FRAC_PI_4)],
                 &[Gate::Ry(q, -FRAC_PI_4)],
@@ -170,6 +177,7 @@ pub fn controlled_prep(state: &str, anc: Qubit) -> Vec<Gate> {
             ),
             // x → (z − x)/√2 by ry(−3π/4): (Z − X)/√2 |0⟩ = |−⟩.
             '-' => reflect(
+                src,
                 q,
                 &[Gate::Ry(q, 3.0 * FRAC_PI_4)],
                 &[Gate::Ry(q, -3.0 * FRAC_PI_4)],
@@ -177,6 +185,7 @@ pub fn controlled_prep(state: &str, anc: Qubit) -> Vec<Gate> {
             ),
             // x → (x + z)/√2 → (y + z)/√2 (ry(−π/4), then s): (Y + Z)/√2 |0⟩ = |+i⟩.
             'r' => reflect(
+                src,
                 q,
                 &[Gate::Sdg(q), Gate::Ry(q, FRAC_PI_4)],
                 &[Gate::Ry(q, -FRAC_PI_4), Gate::S(q)],
@@ -184,22 +193,27 @@ pub fn controlled_prep(state: &str, anc: Qubit) -> Vec<Gate> {
             ),
             // x → (x + z)/√2 → (z − y)/√2 (ry(−π/4), then sdg): (Z − Y)/√2 |0⟩ = |−i⟩.
             'l' => reflect(
+                src,
                 q,
                 &[Gate::S(q), Gate::Ry(q, FRAC_PI_4)],
                 &[Gate::Ry(q, -FRAC_PI_4), Gate::Sdg(q)],
                 &mut out,
             ),
-            '1' => out.push(Gate::Cx(anc, q)),
+            '1' => {
+                out.push(Gate::Cx(src, q));
+                src = q;
+            }
             's' => {
                 // The singlet's h, z, cx(i, i+1), x(i+1), with h, z and x controlled.
                 reflect(
+                    src,
                     q,
                     &[Gate::Ry(q, FRAC_PI_4)],
                     &[Gate::Ry(q, -FRAC_PI_4)],
                     &mut out,
                 );
-                out.extend([Gate::H(q), Gate::Cx(anc, q), Gate::H(q)]);
-                out.extend([Gate::Cx(q, q + 1), Gate::Cx(anc, q + 1)]);
+                out.extend([Gate::H(q), Gate::Cx(src, q), Gate::H(q)]);
+                out.extend([Gate::Cx(q, q + 1), Gate::Cx(src, q + 1)]);
                 i += 1;
             }
             _ => {}
@@ -225,6 +239,21 @@ pub fn inverse(w: &[Gate]) -> Vec<Gate> {
         .rev()
         .map(|g| g.inverse().expect("a preparation has no measurement"))
         .collect()
+}
+
+/// The system qubits `W` for `state` couples to the ancilla `anc` directly (the ones the
+/// ancilla must reach on a device).
+pub fn ancilla_partners(state: &str, anc: Qubit) -> Vec<usize> {
+    let mut out: Vec<usize> = controlled_prep(state, anc)
+        .iter()
+        .filter_map(|g| match *g {
+            Gate::Cx(a, q) if a == anc => Some(q as usize),
+            _ => None,
+        })
+        .collect();
+    out.sort_unstable();
+    out.dedup();
+    out
 }
 
 /// Two-qubit gates of `W` (the same for `W†`): one per set bit of a basis state.
