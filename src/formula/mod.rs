@@ -111,6 +111,10 @@ fn flip_units(strings: &[PauliString]) -> Vec<Vec<usize>> {
         .collect()
 }
 
+/// A group being built by [`unit_groups`]: its members, and for every qubit the members
+/// touching it.
+type UnitGroup = (Vec<usize>, std::collections::HashMap<usize, Vec<usize>>);
+
 fn keeps_units(groups: &[Vec<usize>], units: &[Vec<usize>], m: usize) -> bool {
     let mut group_of = vec![0usize; m];
     for (g, members) in groups.iter().enumerate() {
@@ -156,10 +160,9 @@ fn unit_groups(strings: &[PauliString], units: &[Vec<usize>]) -> Vec<Vec<usize>>
     }
     let mut order: Vec<usize> = (0..vertices.len()).collect();
     order.sort_by(|&a, &b| degree[b].cmp(&degree[a]).then(a.cmp(&b)));
-    // Per group: its members, and for every qubit the members touching it.
-    let mut groups: Vec<(Vec<usize>, std::collections::HashMap<usize, Vec<usize>>)> = Vec::new();
+    let mut groups: Vec<UnitGroup> = Vec::new();
     for v in order {
-        let fits = |g: &(Vec<usize>, std::collections::HashMap<usize, Vec<usize>>)| {
+        let fits = |g: &UnitGroup| {
             vertices[v].iter().all(|&i| {
                 strings[i].support_iter().all(|q| {
                     g.1.get(&q)
