@@ -37,7 +37,7 @@ use crate::family::plan::Family;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, frames, Spec};
+use crate::family::{build_jobs, frames_with, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{
@@ -302,7 +302,9 @@ pub fn compile_for(
                 initial_layout: tp.initial_layout.clone(),
             };
             let campaign = DeviceCampaign::new(step, &tp, device, config)?;
-            let done = frames(h, spec)
+            // On a device the controlled preparation joins set bits through their index
+            // neighbours (`family::control::Joins`).
+            let done = frames_with(h, spec, crate::family::control::Joins::Neighbours)
                 .into_par_iter()
                 .map(|f| {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));

@@ -310,6 +310,14 @@ fn device_prep_campaign_verifies_and_is_cheaper() {
         assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
         let v: serde_json::Value = serde_json::from_slice(&r.stdout).unwrap();
         assert_eq!(v["ok"], true);
+        // The tableau method rebuilds the claimed circuits (controlled preparation included)
+        // and proves every routed file equal to them.
+        let r = bin()
+            .args(["verify", "--method", "tableau"])
+            .arg(&out)
+            .output()
+            .unwrap();
+        assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stdout));
     }
     assert!(
         totals[1] < totals[0],
@@ -438,8 +446,8 @@ fn plain_evolution_circuits_verify_and_estimate_refuses_them() {
     assert!(String::from_utf8_lossy(&r.stderr).contains("plain time-evolution campaign"));
 }
 
-/// The distribution check of `verify` can fail: a plain evolution file whose rotation angle is
-/// changed is reported above the 1e-9 tolerance.
+/// The distribution check of `verify` can fail: a plain evolution file whose rotation angles
+/// are changed is reported above the 1e-9 tolerance.
 #[test]
 fn a_changed_evolution_file_is_caught_by_its_distribution() {
     let tmp = tempfile::tempdir().unwrap();
@@ -462,7 +470,8 @@ fn a_changed_evolution_file_is_caught_by_its_distribution() {
     let plan_text = std::fs::read_to_string(dir.join("plan.json")).unwrap();
     let mut plan = phasewright::family::plan::Plan::from_json(&plan_text).unwrap();
     let text = std::fs::read_to_string(dir.join("k01-ev.qasm")).unwrap();
-    let changed = text.replacen("rz(0.3)", "rz(0.31)", 1);
+    // Every rotation by 0.3 (the XX, YY and ZZ rotations of the step) turned by 0.35 instead.
+    let changed = text.replace("rz(0.3)", "rz(0.35)");
     assert_ne!(text, changed);
     let circuits = vec![
         qasm::read(

@@ -171,6 +171,7 @@ pub fn hadamard_test_in(
     basis: Option<&PauliString>,
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     form: Control,
+    joins: control::Joins,
 ) -> Result<Circuit, BadStateLetter> {
     let prep = state_prep(state)?;
     if form == Control::Evolution {
@@ -179,11 +180,11 @@ pub fn hadamard_test_in(
     let nbits = if basis.is_some() { n + 1 } else { 1 };
     let mut c = Circuit::new(n + 1, nbits);
     let phi0 = control::zero_phase(program);
-    c.extend(prep_prefix(n, state, phi0));
+    c.extend(prep_prefix(n, state, phi0, joins));
     for r in program {
         c.extend(crate::synth::pauli_rotation_along(r, None, &ladder(r)));
     }
-    c.extend(prep_suffix(n, state, part, basis));
+    c.extend(prep_suffix(n, state, part, basis, joins));
     cancel_inverses(&mut c);
     Ok(c)
 }
@@ -192,7 +193,7 @@ pub fn hadamard_test_in(
 /// to |+⟩, the phase `e^{−iφ₀}` of |0…0⟩ removed from its |1⟩ branch in advance
 /// (`rz(−φ₀)`, which multiplies |1⟩ by `e^{−iφ₀}` relative to |0⟩), and the controlled
 /// preparation of `state` ([`control::controlled_prep`]).
-pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64) -> Vec<Gate> {
+pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64, joins: control::Joins) -> Vec<Gate> {
     let anc = n as Qubit;
     let mut out = vec![Gate::H(anc)];
     // rz is 2π-periodic up to a global phase; keep the angle small for readable files.
@@ -201,16 +202,22 @@ pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64) -> Vec<Gate> {
     if angle != 0.0 {
         out.push(Gate::Rz(anc, angle));
     }
-    out.extend(control::controlled_prep(state, anc));
+    out.extend(control::controlled_prep(state, anc, joins));
     out
 }
 
 /// The gates of a control-free Hadamard test after the uncontrolled evolution: the controlled
 /// preparation undone, and, when system qubits are measured, the reference prepared on both
 /// branches (which brings the |0⟩ branch to |ψ⟩), then [`hadamard_suffix`].
-pub fn prep_suffix(n: usize, state: &str, part: Part, basis: Option<&PauliString>) -> Vec<Gate> {
+pub fn prep_suffix(
+    n: usize,
+    state: &str,
+    part: Part,
+    basis: Option<&PauliString>,
+    joins: control::Joins,
+) -> Vec<Gate> {
     let anc = n as Qubit;
-    let w = control::controlled_prep(state, anc);
+    let w = control::controlled_prep(state, anc, joins);
     let mut out = control::inverse(&w);
     if basis.is_some() {
         out.extend(control::uncontrolled(&w, anc));
@@ -333,8 +340,13 @@ pub fn step_zero_phase(h: &PauliSum, spec: &Spec) -> f64 {
 }
 
 /// Every circuit of the campaign, in a fixed order (k, then state, then group, then part),
-/// without its evolution.
+/// without its evolution (controlled preparations with [`control::Joins::Direct`]).
 pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
+    frames_with(h, spec, control::Joins::Direct)
+}
+
+/// [`frames`] with the given joins of the controlled preparations (`Neighbours` on a device).
+pub fn frames_with(h: &PauliSum, spec: &Spec, joins: control::Joins) -> Vec<Frame> {
     use rayon::prelude::*;
     let n = h.num_qubits;
     if spec.family == Family::Evolution {
@@ -417,8 +429,13 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
                     hadamard_suffix(n, d.part, basis.as_ref()),
                 ),
                 Control::Prep => (
-                    prep_prefix(n, state, phi_step * (d.k * spec.steps_per_dt.max(1)) as f64),
-                    prep_suffix(n, state, d.part, basis.as_ref()),
+                    prep_prefix(
+                        n,
+                        state,
+                        phi_step * (d.k * spec.steps_per_dt.max(1)) as f64,
+                        joins,
+                    ),
+                    prep_suffix(n, state, d.part, basis.as_ref(), joins),
                 ),
             };
             Frame {

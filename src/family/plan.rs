@@ -495,9 +495,17 @@ impl Plan {
                 Some(d) => e.num_qubits >= width && e.num_qubits <= d,
                 None => e.num_qubits == width,
             };
+            // A missing key has no place of its own in the text: point at the circuit.
+            let at_key_or_circuit = |present: bool, key| {
+                if present {
+                    at_circuit(i, key)
+                } else {
+                    vec![Key("circuits"), Index(i)]
+                }
+            };
             if plain != e.part.is_none() {
                 bad(
-                    at_circuit(i, "part"),
+                    at_key_or_circuit(e.part.is_some(), "part"),
                     format!(
                         "circuit `{}`: {}",
                         e.id,
@@ -512,7 +520,7 @@ impl Plan {
             }
             if plain != e.ancilla_bit.is_none() {
                 bad(
-                    at_circuit(i, "ancilla_bit"),
+                    at_key_or_circuit(e.ancilla_bit.is_some(), "ancilla_bit"),
                     format!(
                         "circuit `{}`: {}",
                         e.id,
