@@ -149,6 +149,14 @@ pub fn zero_phase(program: &[Rotation]) -> f64 {
         .sum()
 }
 
+/// The whole shape of a Hadamard test: what the ancilla controls and, in the control-free
+/// form, how its controlled preparation is joined.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Form {
+    pub control: Control,
+    pub joins: Joins,
+}
+
 /// How the controlled preparation joins one set bit of a basis reference to the next.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Joins {

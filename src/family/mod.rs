@@ -170,11 +170,11 @@ pub fn hadamard_test_in(
     part: Part,
     basis: Option<&PauliString>,
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
-    form: Control,
-    joins: control::Joins,
+    form: control::Form,
 ) -> Result<Circuit, BadStateLetter> {
     let prep = state_prep(state)?;
-    if form == Control::Evolution {
+    let joins = form.joins;
+    if form.control == Control::Evolution {
         return Ok(hadamard_test(n, &prep, program, part, basis, ladder));
     }
     let nbits = if basis.is_some() { n + 1 } else { 1 };

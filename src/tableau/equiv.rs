@@ -225,12 +225,14 @@ impl Claim {
             part,
             basis.as_ref(),
             &ladder,
-            self.control,
-            // As `pipeline` builds them: joined through index neighbours on a device.
-            if self.device.is_some() {
-                crate::family::control::Joins::Neighbours
-            } else {
-                crate::family::control::Joins::Direct
+            crate::family::control::Form {
+                control: self.control,
+                // As `pipeline` builds them: joined through index neighbours on a device.
+                joins: if self.device.is_some() {
+                    crate::family::control::Joins::Neighbours
+                } else {
+                    crate::family::control::Joins::Direct
+                },
             },
         )
         .map_err(|b| format!("{}: bad state letter `{}`", e.id, b.letter))?;
