@@ -4,7 +4,7 @@
 //!
 //! For an invented 12-qubit Heisenberg (XXZ at Δ = 1) chain with a field and an invented
 //! 6-site Hubbard chain (12 modes, Jordan–Wigner), each with a half-filled basis reference,
-//! on a 4×4 grid, a 4×4 brick wall and a 29-qubit heavy hexagon (`bridgedhex 3 7`), it
+//! on a 4×4 grid, a 4×4 brick wall and a 23-qubit heavy hexagon (`bridgedhex 3 7`), it
 //! compiles the overlap campaign at K = 2 (one Strang step of dt = 0.1) three ways and prints
 //! the two-qubit gates of the real-part circuit at k = 1:
 //!

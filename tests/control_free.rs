@@ -521,3 +521,32 @@ fn plans_of_the_previous_schema_are_still_read() {
     let v: serde_json::Value = serde_json::from_str(&run(&["verify", "--json", &d])).unwrap();
     assert_eq!(v["ok"], true);
 }
+
+/// `--state hf` on an integral file: the Hartree–Fock determinant is a basis state and the
+/// Jordan–Wigner Hamiltonian conserves the number of electrons, so `auto` picks `prep`, and
+/// `verify` agrees with the ideal formula.
+#[test]
+fn hartree_fock_references_use_the_control_free_form() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("hf");
+    let d = dir.display().to_string();
+    let said = run(&[
+        "compile",
+        "examples/toy_chain3.fcidump",
+        "--encoding",
+        "jw",
+        "--state",
+        "hf",
+        "--dt",
+        "0.2",
+        "--points",
+        "3",
+        "--measure",
+        "krylov",
+        "-o",
+        &d,
+    ]);
+    assert!(said.contains("Control: prep"), "{said}");
+    let v: serde_json::Value = serde_json::from_str(&run(&["verify", "--json", &d])).unwrap();
+    assert_eq!(v["ok"], true);
+}
