@@ -79,6 +79,7 @@ fn main() {
         h.terms.len()
     );
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Overlap,
         order: Order::Second,
         dt: 0.1,

@@ -70,6 +70,7 @@ fn peak_rss_mb() -> f64 {
 
 fn spec(n: usize, points: usize) -> Spec {
     Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Overlap,
         order: Order::Second,
         dt: 0.1,

@@ -125,6 +125,7 @@ fn run_case(i: usize) {
     let dev: Device =
         phasewright::lang::dev::parse_device("hexchip127.dev", &dev_text).expect("example parses");
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Overlap,
         order: case.order,
         dt: 0.1,

@@ -14,6 +14,13 @@
 //!    `k·R` times); `route::DeviceCampaign` lowers the step's pieces to the native gates once
 //!    (fusion and cancellation, verified), and `family::frames` gives each circuit's
 //!    preparation and readout, which it routes and stitches around the pieces;
+//!
+//! With `Spec::control = Prep` (`family::control`: |0…0⟩ shown to be an eigenstate of every
+//! factor of the formula) the evolution is synthesised without a control and the ancilla meets
+//! only the controlled state preparation in each circuit's prefix and suffix; on a device
+//! `route::plan_and_route_free_step` routes that uncontrolled step. The `evolution` family has
+//! no ancilla at all (`route::plan_and_route_plain_step`).
+//!
 //! 4. `qasm::write` (logical `q[k]` on all-to-all); on a device each piece's text is written
 //!    once and every program is assembled from those texts (`route::campaign`), so `costs.swaps`
 //!    there counts the SWAPs routing inserted (the step's once per step), before the peephole
@@ -25,13 +32,18 @@ use crate::circuit::metrics::counts;
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
+use crate::family::control::Control;
+use crate::family::plan::Family;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, frames, Spec};
+use crate::family::{build_jobs, frames_with, Spec};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
-use crate::route::{plan_and_route_step, DeviceCampaign, RouteConfig};
+use crate::route::{
+    plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
+    RouteConfig,
+};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -168,7 +180,7 @@ struct Finished {
     id: String,
     k: usize,
     time: f64,
-    part: crate::family::plan::Part,
+    part: Option<crate::family::plan::Part>,
     state: usize,
     group: Option<usize>,
     reads: Vec<crate::family::plan::Read>,
@@ -188,22 +200,30 @@ enum Output {
 /// The leading comment lines of a circuit's program.
 fn header_comments(
     id: &str,
-    part: crate::family::plan::Part,
+    part: Option<crate::family::plan::Part>,
     k: usize,
     time: f64,
     device: Option<&DeviceInfo>,
 ) -> Vec<String> {
-    let part = if part == crate::family::plan::Part::Re {
-        "real"
-    } else {
-        "imaginary"
+    let mut comments = match part {
+        Some(part) => {
+            let part = if part == crate::family::plan::Part::Re {
+                "real"
+            } else {
+                "imaginary"
+            };
+            vec![
+                format!(
+                    "phasewright circuit {id}: {part} part of the Hadamard test at k = {k}, t = {time}"
+                ),
+                "bit 0 is the ancilla; see plan.json for what each bit reads".to_string(),
+            ]
+        }
+        None => vec![
+            format!("phasewright circuit {id}: time evolution at k = {k}, t = {time}"),
+            "bit q holds qubit q of the Hamiltonian (no ancilla)".to_string(),
+        ],
     };
-    let mut comments = vec![
-        format!(
-            "phasewright circuit {id}: {part} part of the Hadamard test at k = {k}, t = {time}"
-        ),
-        "bit 0 is the ancilla; see plan.json for what each bit reads".to_string(),
-    ];
     if let Some(d) = device {
         comments.push(format!(
             "device {}: physical qubits, native gates {}",
@@ -263,8 +283,20 @@ pub fn compile_for(
             // One step of length dt / R, routed once (while the layout is chosen) and reused by
             // every circuit: time point k runs k·R blocks of it (`route::reuse`).
             let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
-            let (tp, step) = plan_and_route_step(h, device, config, spec.order, step_dt)
-                .map_err(CompileError::DoesNotFit)?;
+            let (tp, step) = match spec.control {
+                // Plain evolution circuits have no ancilla at all.
+                _ if spec.family == Family::Evolution => {
+                    plan_and_route_plain_step(h, device, config, spec.order, step_dt)
+                }
+                Control::Evolution => plan_and_route_step(h, device, config, spec.order, step_dt),
+                // The control-free form routes an uncontrolled step; the ancilla meets only the
+                // qubits its controlled state preparation touches, at the start and the end.
+                Control::Prep => {
+                    let partners = prep_partners(&spec.states);
+                    plan_and_route_free_step(h, &partners, device, config, spec.order, step_dt)
+                }
+            }
+            .map_err(CompileError::DoesNotFit)?;
             let info = DeviceInfo {
                 name: device.name.clone(),
                 num_qubits: device.num_qubits,
@@ -272,7 +304,9 @@ pub fn compile_for(
                 initial_layout: tp.initial_layout.clone(),
             };
             let campaign = DeviceCampaign::new(step, &tp, device, config)?;
-            let done = frames(h, spec)
+            // On a device the controlled preparation joins set bits through their index
+            // neighbours (`family::control::Joins`).
+            let done = frames_with(h, spec, crate::family::control::Joins::Neighbours)
                 .into_par_iter()
                 .map(|f| {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
@@ -311,6 +345,20 @@ pub fn compile_for(
     }
 }
 
+/// The system qubits the ancilla meets in the controlled state preparation of any of `states`
+/// (`family::control::ancilla_partners`), ascending.
+fn prep_partners(states: &[String]) -> Vec<usize> {
+    let mut touched: Vec<usize> = states
+        .iter()
+        .flat_map(|s| {
+            crate::family::control::ancilla_partners(s, s.chars().count() as crate::circuit::Qubit)
+        })
+        .collect();
+    touched.sort_unstable();
+    touched.dedup();
+    touched
+}
+
 fn finish(
     h: &PauliSum,
     source: &str,
@@ -343,7 +391,7 @@ fn finish(
             group: f.group,
             num_qubits: f.num_qubits,
             num_clbits: f.num_clbits,
-            ancilla_bit: 0,
+            ancilla_bit: f.part.map(|_| 0),
             reads: f.reads,
             costs: f.costs,
             final_layout: f.final_layout,
@@ -366,6 +414,7 @@ fn finish(
         seed: None,
         energy_unit: None,
         points: spec.points,
+        control: spec.control,
         device,
         shard: None,
         circuits: entries,

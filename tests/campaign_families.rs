@@ -45,6 +45,7 @@ fn krylov_elements_from_the_circuits_rebuild_s_and_h() {
     let h = model6();
     let state = "01+0r1".to_string();
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Krylov,
         order: Order::Second,
         dt: 0.15,
@@ -65,18 +66,28 @@ fn krylov_elements_from_the_circuits_rebuild_s_and_h() {
     let mut h_sim = vec![Complex64::new(0.0, 0.0); k_max];
     s_sim[0] = Complex64::new(1.0, 0.0);
     let coeffs: Vec<f64> = h.terms.values().copied().collect();
+    // S_k is read from the ancilla of every group circuit at k ≥ 1: average those reads.
+    let mut s_reads = vec![[0usize; 2]; k_max];
     for (e, c) in compiled.plan.circuits.iter().zip(&checks) {
         for (rd, rc) in e.reads.iter().zip(&c.reads) {
-            let v = if e.part == Part::Re {
+            let v = if e.part == Some(Part::Re) {
                 Complex64::new(rc.simulated, 0.0)
             } else {
                 Complex64::new(0.0, rc.simulated)
             };
             match rd.target {
-                Target::Overlap => s_sim[e.k] += v,
+                Target::Overlap => {
+                    s_sim[e.k] += v;
+                    s_reads[e.k][usize::from(e.part == Some(Part::Im))] += 1;
+                }
                 Target::Term { term } => h_sim[e.k] += v * coeffs[term],
             }
         }
+    }
+    for k in 1..k_max {
+        let [re, im] = s_reads[k];
+        assert!(re > 0 && im > 0, "S_{k} is read");
+        s_sim[k] = Complex64::new(s_sim[k].re / re as f64, s_sim[k].im / im as f64);
     }
     // Direct computation: ⟨ψ|H S(dt)^k|ψ⟩ with the ideal product formula, and with e^{-iHt}.
     let psi = prepared(&state);
@@ -263,6 +274,7 @@ fn trace_campaign_lists_its_states_and_each_is_exact() {
     let h = model6();
     let states = random_states(6, 4, 11);
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Trace,
         order: Order::First,
         dt: 0.2,

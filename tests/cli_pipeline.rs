@@ -104,7 +104,7 @@ fn compile_writes_the_plan_and_one_file_per_circuit() {
     );
     let plan: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
-    assert_eq!(plan["format"], "phasewright-plan/2");
+    assert_eq!(plan["format"], "phasewright-plan/3");
     assert_eq!(plan["formula"]["order"], 4);
     assert_eq!(plan["hamiltonian"]["constant"], -1.5);
     let circuits = plan["circuits"].as_array().unwrap();

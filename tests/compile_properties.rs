@@ -60,7 +60,7 @@ proptest! {
     #[test]
     fn emitted_files_match_the_ideal_product_formula((h, state, order, steps, dt, family) in case()) {
         prop_assume!(!h.terms.is_empty());
-        let spec = Spec { family, order, dt, points: 3, steps_per_dt: steps, states: vec![state] };
+        let spec = Spec { control: phasewright::family::control::Control::Evolution, family, order, dt, points: 3, steps_per_dt: steps, states: vec![state] };
         let compiled = compile(&h, "random", &spec).unwrap();
         let mut read_back = Vec::new();
         for (text, c) in compiled.programs.iter().zip(&compiled.circuits) {

@@ -132,6 +132,7 @@ fn stitched_files_for_100_qubits_on_127_are_native_and_coupled() {
         .unwrap()
         .sum;
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Overlap,
         order: Order::Second,
         dt: 0.1,
@@ -165,6 +166,7 @@ fn device_campaign_bytes_do_not_depend_on_the_thread_count() {
         .unwrap()
         .sum;
     let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
         family: Family::Overlap,
         order: Order::Fourth,
         dt: 0.1,

@@ -226,7 +226,7 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
                         phasewright::family::plan::Target::Overlap => None,
                         phasewright::family::plan::Target::Term { term } => Some(term),
                     },
-                    part: c.part,
+                    part: c.part.unwrap(),
                 };
                 let est = q[&key];
                 reads += 1;

@@ -158,7 +158,7 @@ const CASES: &[Case] = &[
     case(Plan, "            0\n          ]\u{0}            3\n          ]", Some(("            3\n          ]", 12)), "uses bit 3", "P301"),
     case(Plan, "\"pauli\": \"Z0 Z1\"\u{0}\"pauli\": \"Z0 Q1\"", Some(("{\n        \"pauli\": \"Z0 Q1\"", 0)), "not a Pauli string", "P301"),
     case(Plan, "\"coeff\": -1.0\u{0}\"coeff\": 0.0", Some(("{\n        \"pauli\": \"Z0 Z1\"", 0)), "must be finite and non-zero", "P301"),
-    case(Plan, "\"format\": \"phasewright-plan/2\"\u{0}\"format\": \"phasewright-plan/9\"", Some(("\"phasewright-plan/9\"", 0)), "unsupported plan format", "P101"),
+    case(Plan, "\"format\": \"phasewright-plan/3\"\u{0}\"format\": \"phasewright-plan/9\"", Some(("\"phasewright-plan/9\"", 0)), "unsupported plan format", "P101"),
     case(Plan, "\"family\": \"overlap\"\u{0}\"family\": \"sideways\"", Some(("\"sideways\"", 0)), "unknown variant `sideways`", "P101"),
     case(Plan, "\"points\": 2\u{0}\"points\": 2,\n  \"points\": 3", Some(("\"points\": 3", 0)), "duplicate field `points`", "P101"),
 ];

@@ -145,7 +145,7 @@ proptest! {
             Family::Trace => random_states(n, 2, seed),
             _ => vec![random_state(n, &mut rng)],
         };
-        let spec = Spec { family, order, dt: 0.3, points: 3, steps_per_dt, states };
+        let spec = Spec { control: phasewright::family::control::Control::Evolution, family, order, dt: 0.3, points: 3, steps_per_dt, states };
         let cfg = RouteConfig {
             seed,
             stitch_min_gates: if stitched { 0 } else { usize::MAX },
@@ -166,6 +166,7 @@ fn many_steps_alternate_blocks_correctly_on_both_paths() {
         let dev = random_device(kind, 7, 1, &mut rng);
         for stitch_min_gates in [usize::MAX, 0] {
             let spec = Spec {
+                control: phasewright::family::control::Control::Evolution,
                 family: Family::Overlap,
                 order,
                 dt: 0.2,

@@ -65,7 +65,7 @@ proptest! {
         let state_small: String = letters[..n].iter().map(|&i| ['0', '1', '+', 'r'][i]).collect();
         let state_wide = format!("{}{state_small}", "0".repeat(offset));
         let wide = placed(&small, offset);
-        let spec = Spec {
+        let spec = Spec { control: phasewright::family::control::Control::Evolution,
             family: Family::Overlap,
             order,
             dt: 0.3,
@@ -102,7 +102,7 @@ proptest! {
                 evolved.apply_pauli_rotation(&r.pauli, r.theta);
             }
             let s: Complex64 = psi.inner(&evolved);
-            let want = if entry.part == Part::Re { s.re } else { s.im };
+            let want = if entry.part == Some(Part::Re) { s.re } else { s.im };
             prop_assert!((got - want).abs() < 1e-9, "{}: {got} vs {want}", entry.id);
         }
     }

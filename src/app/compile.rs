@@ -2,6 +2,7 @@
 //! with a cost table on stdout.
 
 use crate::error::{Error, Result};
+use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
@@ -21,6 +22,23 @@ pub enum MeasureKind {
     Krylov,
     /// tr U(k·dt)/2^n from random product states (stochastic trace estimation).
     Trace,
+    /// Plain time-evolution circuits without an ancilla: state preparation, U(k·dt) for
+    /// k = 0..K-1, every qubit measured (bit q = qubit q, bit 0 first in bitstrings), for
+    /// sampling configurations or your own analysis (`estimate` does not read them).
+    Evolution,
+}
+
+/// What the Hadamard-test ancilla controls.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum ControlChoice {
+    /// Every rotation of the evolution is controlled by the ancilla.
+    Evolution,
+    /// Only the state preparation is controlled; the evolution runs uncontrolled. Needs
+    /// |0…0⟩ to be an eigenstate of every factor of the product formula (number-conserving
+    /// models); refused otherwise, naming the first term that breaks it.
+    Prep,
+    /// `prep` when the compiler can show it is exact, else `evolution`.
+    Auto,
 }
 
 /// Compile a Hamiltonian into Hadamard-test circuits for real-time evolution, one OpenQASM 3
@@ -64,6 +82,11 @@ pub struct CompileArgs {
     /// Which campaign to emit.
     #[arg(long, value_enum, default_value_t = MeasureKind::Overlap)]
     pub measure: MeasureKind,
+    /// What the Hadamard-test ancilla controls: the whole evolution, only the state
+    /// preparation (control-free evolution, for models that conserve the number of ones), or
+    /// the cheaper of the two that is exact.
+    #[arg(long, value_enum, default_value_t = ControlChoice::Auto)]
+    pub control: ControlChoice,
     /// Number of random product states for `--measure trace` [default: 8].
     #[arg(long)]
     pub samples: Option<usize>,
@@ -313,10 +336,10 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
             }
             check_state(&state, n)?;
             (
-                if kind == MeasureKind::Krylov {
-                    Family::Krylov
-                } else {
-                    Family::Overlap
+                match kind {
+                    MeasureKind::Krylov => Family::Krylov,
+                    MeasureKind::Evolution => Family::Evolution,
+                    _ => Family::Overlap,
                 },
                 vec![state],
             )
@@ -325,21 +348,27 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let terms = h.terms.len();
     let size = match family {
         Family::Overlap => campaign_size(order, terms, args.points, args.steps, 2, 0),
+        Family::Evolution => campaign_size(order, terms, args.points, args.steps, 1, 1),
         Family::Trace => campaign_size(order, terms, args.points, args.steps, 2 * states.len(), 0),
         Family::Krylov => {
             let groups = crate::family::krylov_groups(&h).len();
-            campaign_size(
-                order,
-                terms,
-                args.points,
-                args.steps,
-                2 + 2 * groups,
-                groups,
-            )
+            campaign_size(order, terms, args.points, args.steps, 2 * groups, groups)
         }
     };
     check_size(size, args)?;
+    let (control, why_not_prep) = if family == Family::Evolution {
+        if args.control == ControlChoice::Prep {
+            return Err(Error::usage(Code::UsageConflict,
+                "--control prep applies to Hadamard-test campaigns; --measure evolution has no ancilla",
+                Some("drop --control"),
+            ));
+        }
+        (Control::Evolution, None)
+    } else {
+        choose_control(&h, args.control)?
+    };
     let spec = Spec {
+        control,
         family,
         order,
         dt: args.dt,
@@ -380,19 +409,33 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
     if g.json {
         let mut v = cost_json(&compiled.plan);
+        v["control"] = serde_json::json!(control);
+        if let Some(w) = &why_not_prep {
+            v["control_reason"] = serde_json::json!(w.to_string());
+        }
         if let Some(gs) = &grouping {
             v["grouping"] = serde_json::json!(gs);
         }
         return g.json(&v);
     }
     let mut text = cost_table(&compiled.plan);
-    text += &format!(
-        "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
-        compiled.plan.circuits.len(),
-        args.out.display(),
-        n,
-        h.constant
-    );
+    if family == Family::Evolution {
+        text += &format!(
+            "\n{} plain time-evolution circuits written to {} ({} qubits, no ancilla; bit q holds qubit q, bit 0 first in bitstrings). They are for sampling and your own analysis: estimate does not read them.\n",
+            compiled.plan.circuits.len(),
+            args.out.display(),
+            n
+        );
+    } else {
+        text += &control_line(control, why_not_prep.as_ref());
+        text += &format!(
+            "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
+            compiled.plan.circuits.len(),
+            args.out.display(),
+            n,
+            h.constant
+        );
+    }
     if let Some(c) = &chem {
         text += &format!(
             "Integral file: {} electrons in {} active orbitals ({} frozen), {} encoding; Hartree-Fock state {} (qubit 0 first), E_HF = {:.10} Ha.\n",
@@ -407,6 +450,35 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
     g.say(&text)
+}
+
+/// Resolves `--control`: the control form to compile and, when `auto` fell back to the
+/// controlled evolution, why. `prep` where |0…0⟩ is not shown to be an eigenstate of every
+/// factor of the product formula is a usage error (exit 2) naming the first offending term.
+pub fn choose_control(
+    h: &crate::pauli::PauliSum,
+    choice: ControlChoice,
+) -> Result<(Control, Option<NotAnEigenstate>)> {
+    if choice == ControlChoice::Evolution {
+        return Ok((Control::Evolution, None));
+    }
+    match zero_state_check(&crate::formula::term_groups(h)) {
+        Ok(()) => Ok((Control::Prep, None)),
+        Err(e) if choice == ControlChoice::Auto => Ok((Control::Evolution, Some(e))),
+        Err(e) => Err(Error::usage(Code::UsageInput,
+            format!("--control prep needs |0…0⟩ to be an eigenstate of every factor of the product formula; {e}"),
+            Some("the control-free form applies to models that conserve the number of ones (XX + YY hopping, ZZ, Z); use --control evolution or auto"),
+        )),
+    }
+}
+
+/// The line of the compile summary that says which control form was chosen.
+fn control_line(control: Control, why_not: Option<&NotAnEigenstate>) -> String {
+    match (control, why_not) {
+        (Control::Prep, _) => "Control: prep (the ancilla controls only the state preparation; the evolution runs uncontrolled and the known phase of |0…0⟩ is removed on the ancilla).\n".into(),
+        (Control::Evolution, Some(e)) => format!("Control: evolution (the ancilla controls every rotation; prep does not apply: {e}).\n"),
+        (Control::Evolution, None) => "Control: evolution (the ancilla controls every rotation).\n".into(),
+    }
 }
 
 /// How much the grouped readout of the Krylov family saves.
@@ -475,7 +547,8 @@ pub fn cost_table(plan: &Plan) -> String {
             e.id.clone(),
             e.k.to_string(),
             format!("{:.4}", e.time),
-            format!("{:?}", e.part).to_lowercase(),
+            e.part
+                .map_or("-".to_string(), |p| format!("{p:?}").to_lowercase()),
             c.depth.to_string(),
             c.two_qubit.to_string(),
             c.one_qubit.to_string(),

@@ -115,6 +115,12 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         super::io::check_out_file(p, "--plot", Some("svg"), true)?;
     }
     let plan = super::io::read_plan(&args.dir)?;
+    if plan.family == crate::family::plan::Family::Evolution {
+        return Err(Error::usage(Code::UsageInput,
+            crate::estimate::EVOLUTION_REFUSAL,
+            Some("use rehearse or your own device runs to sample them; compile --measure overlap, krylov or trace for estimate"),
+        ));
+    }
     super::io::check_campaign_files(&args.dir, &plan)?;
     let text = read_text(&args.counts)?;
     let order = args.bit_order.map(|b| match b {

@@ -4,7 +4,7 @@
 //! name in the target folder and renamed into place.
 
 use crate::error::{Error, Result};
-use crate::family::plan::{PathStep, Plan, PLAN_FORMAT};
+use crate::family::plan::{PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
 use crate::lang::codes::Code;
 use crate::lang::diag::Diagnostic;
 use crate::lang::json_span::{locate, Step};
@@ -235,7 +235,7 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
     };
     let value: serde_json::Value = serde_json::from_str(&text).map_err(not_a_plan)?;
     let format = value.get("format").and_then(|f| f.as_str());
-    if format != Some(PLAN_FORMAT) {
+    if !format.is_some_and(|f| READABLE_PLAN_FORMATS.contains(&f)) {
         let shown = format.map_or_else(|| "none".to_string(), |f| format!("`{f}`"));
         let span = locate(&text, &[Step::Key("format")]).map_or((0, 1), |s| s.value);
         return Err(Error::input(Diagnostic::at(

@@ -122,19 +122,25 @@ impl ReadTable {
             .zip(counts)
             .map(|(c, cc)| CircuitReads {
                 outcomes: cc.outcomes.iter().map(|(o, _)| *o).collect(),
-                ancilla: c.group.filter(|_| c.ancilla_bit < 128).map(|group| {
-                    let a = GroupAncilla {
-                        state: c.state,
-                        k: c.k,
-                        part: c.part,
-                        group,
-                    };
-                    (a, 1u128 << c.ancilla_bit)
-                }),
+                // An evolution circuit (no part, no ancilla) reads nothing.
+                ancilla: c
+                    .group
+                    .zip(c.part)
+                    .zip(c.ancilla_bit.filter(|&b| b < 128))
+                    .map(|((group, part), bit)| {
+                        let a = GroupAncilla {
+                            state: c.state,
+                            k: c.k,
+                            part,
+                            group,
+                        };
+                        (a, 1u128 << bit)
+                    }),
                 reads: c
                     .reads
                     .iter()
-                    .map(|r| {
+                    .filter_map(|r| c.part.map(|part| (r, part)))
+                    .map(|(r, part)| {
                         let term = match r.target {
                             Target::Overlap => None,
                             Target::Term { term } => Some(term),
@@ -149,7 +155,7 @@ impl ReadTable {
                                 state: c.state,
                                 k: c.k,
                                 term,
-                                part: c.part,
+                                part,
                             },
                             mask,
                         )
@@ -323,7 +329,7 @@ pub fn group_terms(plan: &Plan) -> BTreeMap<usize, Vec<usize>> {
     for c in plan
         .circuits
         .iter()
-        .filter(|c| c.k == 0 && c.part == Part::Re)
+        .filter(|c| c.k == 0 && c.part == Some(Part::Re))
     {
         if let Some(g) = c.group {
             let terms = out.entry(g).or_default();
@@ -422,7 +428,7 @@ mod tests {
     #[test]
     fn pooling_is_shot_weighted() {
         let mut plan = crate::estimate::counts::tests::tiny_plan();
-        plan.circuits[1].part = Part::Re;
+        plan.circuits[1].part = Some(Part::Re);
         // Ancilla is classical bit 2.
         let counts = vec![
             CircuitCounts {

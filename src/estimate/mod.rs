@@ -174,6 +174,9 @@ pub enum Analysis {
 /// Runs the estimators the plan's family calls for. Errors are plain messages (a plan that
 /// lacks a needed circuit, an invalid option).
 pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysis, String> {
+    if plan.family == Family::Evolution {
+        return Err(EVOLUTION_REFUSAL.into());
+    }
     if plan.points < 1 {
         return Err("the plan has no time points".into());
     }
@@ -202,6 +205,7 @@ pub fn analyse(plan: &Plan, counts: &CountsFile, cfg: &Config) -> Result<Analysi
             energies(plan, &table, &weights, cfg).map(Analysis::Energies)
         }
         Family::Trace => density(plan, &table, &weights, cfg).map(Analysis::Dos),
+        Family::Evolution => Err(EVOLUTION_REFUSAL.into()),
     }?;
     // Bit order: count the violated bounds under both readings of the bitstrings.
     let given = implausibility(plan, &table, &weights, cfg);
@@ -290,6 +294,7 @@ fn implausibility(
             }
             v
         }
+        Family::Evolution => Vec::new(),
         Family::Trace => {
             let q = table.evaluate(weights);
             (0..plan.states.len())
@@ -772,5 +777,9 @@ pub fn family_name(f: Family) -> &'static str {
         Family::Overlap => "overlap",
         Family::Krylov => "krylov",
         Family::Trace => "trace",
+        Family::Evolution => "evolution",
     }
 }
+
+/// Why `estimate` does not read a plain time-evolution campaign.
+pub const EVOLUTION_REFUSAL: &str = "this is a plain time-evolution campaign (--measure evolution): its counts are samples of |⟨b|U(k·dt)|ψ⟩|² for your own analysis, not Hadamard-test reads, so estimate has nothing to estimate from them";

@@ -10,9 +10,16 @@
 //! `⟨X_anc ⊗ P⟩ = Re⟨ψ|P U|ψ⟩`, `⟨Y_anc ⊗ P⟩ = Im⟨ψ|P U|ψ⟩`. X is read with `h`, Y with `sdg`
 //! then `h` before measuring Z. Only the `rz` of each rotation is controlled (see `synth`).
 //!
+//! With [`control::Control::Prep`] the ancilla controls only the state preparation and the
+//! evolution runs uncontrolled (see [`control`] for why the reads keep their meaning).
+//!
+//! A Krylov campaign reads `S_k` from the ancilla of its group circuits (the ancilla's bit
+//! alone is the Hadamard test of `U`), so it compiles no separate overlap circuit.
+//!
 //! Invariant: every job's reads refer to classical bits the circuit measures, and the ancilla
 //! is always measured into bit 0.
 
+pub mod control;
 pub mod plan;
 
 use crate::circuit::cancel::cancel_inverses;
@@ -20,6 +27,7 @@ use crate::circuit::{Circuit, Gate, Qubit};
 use crate::formula::{evolution, Order, Rotation};
 use crate::pauli::group::{colour_groups, Compat};
 use crate::pauli::{Pauli, PauliString, PauliSum};
+use control::Control;
 use plan::{Family, Part, Read, Target};
 use rand::Rng;
 use rand::SeedableRng;
@@ -37,6 +45,9 @@ pub struct Spec {
     pub steps_per_dt: usize,
     /// Reference states (`0 1 + - r l`, qubit 0 first): one for overlap/krylov, N for trace.
     pub states: Vec<String>,
+    /// Whether the ancilla controls the evolution or only the state preparation (the caller
+    /// has checked with [`control::zero_state_check`] that `Prep` is exact).
+    pub control: Control,
 }
 
 /// One circuit to emit.
@@ -45,7 +56,8 @@ pub struct Job {
     pub id: String,
     pub k: usize,
     pub time: f64,
-    pub part: Part,
+    /// `None` for a plain evolution circuit ([`Family::Evolution`]).
+    pub part: Option<Part>,
     pub state: usize,
     pub group: Option<usize>,
     pub reads: Vec<Read>,
@@ -148,6 +160,72 @@ pub fn hadamard_test(
     c
 }
 
+/// [`hadamard_test`] in either control form: with [`Control::Prep`] the state `state` is
+/// prepared on the ancilla's |1⟩ branch, `program` runs uncontrolled and the phase
+/// `zero_phase(program)` of |0…0⟩ is removed on the ancilla ([`control`]).
+pub fn hadamard_test_in(
+    n: usize,
+    state: &str,
+    program: &[Rotation],
+    part: Part,
+    basis: Option<&PauliString>,
+    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+    form: control::Form,
+) -> Result<Circuit, BadStateLetter> {
+    let prep = state_prep(state)?;
+    let joins = form.joins;
+    if form.control == Control::Evolution {
+        return Ok(hadamard_test(n, &prep, program, part, basis, ladder));
+    }
+    let nbits = if basis.is_some() { n + 1 } else { 1 };
+    let mut c = Circuit::new(n + 1, nbits);
+    let phi0 = control::zero_phase(program);
+    c.extend(prep_prefix(n, state, phi0, joins));
+    for r in program {
+        c.extend(crate::synth::pauli_rotation_along(r, None, &ladder(r)));
+    }
+    c.extend(prep_suffix(n, state, part, basis, joins));
+    cancel_inverses(&mut c);
+    Ok(c)
+}
+
+/// The gates of a control-free Hadamard test before the uncontrolled evolution: the ancilla
+/// to |+⟩, the phase `e^{−iφ₀}` of |0…0⟩ removed from its |1⟩ branch in advance
+/// (`rz(−φ₀)`, which multiplies |1⟩ by `e^{−iφ₀}` relative to |0⟩), and the controlled
+/// preparation of `state` ([`control::controlled_prep`]).
+pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64, joins: control::Joins) -> Vec<Gate> {
+    let anc = n as Qubit;
+    let mut out = vec![Gate::H(anc)];
+    // rz is 2π-periodic up to a global phase; keep the angle small for readable files.
+    let angle =
+        (-phi0_rad + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU) - std::f64::consts::PI;
+    if angle != 0.0 {
+        out.push(Gate::Rz(anc, angle));
+    }
+    out.extend(control::controlled_prep(state, anc, joins));
+    out
+}
+
+/// The gates of a control-free Hadamard test after the uncontrolled evolution: the controlled
+/// preparation undone, and, when system qubits are measured, the reference prepared on both
+/// branches (which brings the |0⟩ branch to |ψ⟩), then [`hadamard_suffix`].
+pub fn prep_suffix(
+    n: usize,
+    state: &str,
+    part: Part,
+    basis: Option<&PauliString>,
+    joins: control::Joins,
+) -> Vec<Gate> {
+    let anc = n as Qubit;
+    let w = control::controlled_prep(state, anc, joins);
+    let mut out = control::inverse(&w);
+    if basis.is_some() {
+        out.extend(control::uncontrolled(&w, anc));
+    }
+    out.extend(hadamard_suffix(n, part, basis));
+    out
+}
+
 /// The gates of a Hadamard test before the controlled evolution: the state preparation, then
 /// the ancilla (qubit `n`) to |+⟩.
 pub fn hadamard_prefix(n: usize, prep: &[Gate]) -> Vec<Gate> {
@@ -211,7 +289,8 @@ pub struct Frame {
     pub id: String,
     pub k: usize,
     pub time: f64,
-    pub part: Part,
+    /// `None` for a plain evolution circuit ([`Family::Evolution`]).
+    pub part: Option<Part>,
     pub state: usize,
     pub group: Option<usize>,
     pub reads: Vec<Read>,
@@ -219,17 +298,61 @@ pub struct Frame {
     pub num_qubits: usize,
     /// Bit 0 = ancilla; bit q+1 = system qubit q when the circuit reads a group of terms.
     pub num_clbits: usize,
-    /// State preparation, ancilla to |+⟩.
+    /// State preparation, ancilla to |+⟩ (controlled form); or ancilla to |+⟩, the phase of
+    /// |0…0⟩ removed, the controlled preparation ([`prep_prefix`]).
     pub prefix: Vec<Gate>,
-    /// Ancilla basis, measurement basis, measurements.
+    /// Ancilla basis, measurement basis, measurements (after [`prep_suffix`]'s undoing of the
+    /// controlled preparation in the control-free form).
     pub suffix: Vec<Gate>,
 }
 
+/// The reads of a group circuit: each member term's parity, and at `k ≥ 1` the ancilla alone
+/// for `S_k` (at k = 0, `S_0 = 1` exactly).
+pub fn group_reads(members: &[usize], strings: &[PauliString], k: usize) -> Vec<Read> {
+    let mut reads: Vec<Read> = members
+        .iter()
+        .map(|&i| Read {
+            target: Target::Term { term: i },
+            bits: term_bits(&strings[i]),
+        })
+        .collect();
+    if k > 0 {
+        reads.push(Read {
+            target: Target::Overlap,
+            bits: vec![0],
+        });
+    }
+    reads
+}
+
+/// `φ₀` of one Trotter step of `spec` over `h` (`U(k·dt)|0…0⟩ = e^{−i k R φ₀}|0…0⟩`, the step
+/// repeated `k·R` times); 0 for the controlled form, which needs none.
+pub fn step_zero_phase(h: &PauliSum, spec: &Spec) -> f64 {
+    if spec.control == Control::Evolution {
+        return 0.0;
+    }
+    let r = spec.steps_per_dt.max(1);
+    control::zero_phase(&crate::formula::step(
+        &crate::formula::order_terms(h),
+        spec.order,
+        spec.dt / r as f64,
+    ))
+}
+
 /// Every circuit of the campaign, in a fixed order (k, then state, then group, then part),
-/// without its evolution.
+/// without its evolution (controlled preparations with [`control::Joins::Direct`]).
 pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
+    frames_with(h, spec, control::Joins::Direct)
+}
+
+/// [`frames`] with the given joins of the controlled preparations (`Neighbours` on a device).
+pub fn frames_with(h: &PauliSum, spec: &Spec, joins: control::Joins) -> Vec<Frame> {
     use rayon::prelude::*;
     let n = h.num_qubits;
+    if spec.family == Family::Evolution {
+        return evolution_frames(n, spec);
+    }
+    let phi_step = step_zero_phase(h, spec);
     let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
     let groups = if spec.family == Family::Krylov {
         krylov_groups(h)
@@ -254,7 +377,7 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
                     String::new()
                 };
                 let ptag = if part == Part::Re { "re" } else { "im" };
-                if k > 0 {
+                if k > 0 && spec.family != Family::Krylov {
                     descs.push(Desc {
                         id: format!("{state_tag}k{k:02}-{ptag}"),
                         k,
@@ -280,8 +403,8 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
     descs
         .into_par_iter()
         .map(|d| {
-            let prep =
-                state_prep(&spec.states[d.state]).expect("states are validated before building");
+            let state = &spec.states[d.state];
+            let prep = state_prep(state).expect("states are validated before building");
             let (basis, reads) = match d.group {
                 None => (
                     None,
@@ -297,31 +420,71 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
                         basis.x.or_assign(&strings[i].x);
                         basis.z.or_assign(&strings[i].z);
                     }
-                    let reads = members
-                        .iter()
-                        .map(|&i| Read {
-                            target: Target::Term { term: i },
-                            bits: term_bits(&strings[i]),
-                        })
-                        .collect();
-                    (Some(basis), reads)
+                    (Some(basis), group_reads(members, &strings, d.k))
                 }
+            };
+            let (prefix, suffix) = match spec.control {
+                Control::Evolution => (
+                    hadamard_prefix(n, &prep),
+                    hadamard_suffix(n, d.part, basis.as_ref()),
+                ),
+                Control::Prep => (
+                    prep_prefix(
+                        n,
+                        state,
+                        phi_step * (d.k * spec.steps_per_dt.max(1)) as f64,
+                        joins,
+                    ),
+                    prep_suffix(n, state, d.part, basis.as_ref(), joins),
+                ),
             };
             Frame {
                 id: d.id,
                 k: d.k,
                 time: d.k as f64 * spec.dt,
-                part: d.part,
+                part: Some(d.part),
                 state: d.state,
                 group: d.group,
                 reads,
                 num_qubits: n + 1,
                 num_clbits: if basis.is_some() { n + 1 } else { 1 },
-                prefix: hadamard_prefix(n, &prep),
-                suffix: hadamard_suffix(n, d.part, basis.as_ref()),
+                prefix,
+                suffix,
             }
         })
         .collect()
+}
+
+/// Plain time-evolution circuits ([`Family::Evolution`]): for every k = 0..K and state, the
+/// state preparation, `U(k·dt)` (uncontrolled; filled in by the target) and a measurement of
+/// every system qubit q into bit q. No ancilla.
+fn evolution_frames(n: usize, spec: &Spec) -> Vec<Frame> {
+    let mut out = Vec::new();
+    for k in 0..spec.points {
+        for (s, state) in spec.states.iter().enumerate() {
+            let tag = if spec.states.len() > 1 {
+                format!("s{s:03}-")
+            } else {
+                String::new()
+            };
+            out.push(Frame {
+                id: format!("{tag}k{k:02}-ev"),
+                k,
+                time: k as f64 * spec.dt,
+                part: None,
+                state: s,
+                group: None,
+                reads: Vec::new(),
+                num_qubits: n,
+                num_clbits: n,
+                prefix: state_prep(state).expect("states are validated before building"),
+                suffix: (0..n)
+                    .map(|q| Gate::Measure(q as Qubit, q as u32))
+                    .collect(),
+            });
+        }
+    }
+    out
 }
 
 /// [`build_jobs`] with the product formulas over `terms`, a reordering of
@@ -334,7 +497,8 @@ pub fn build_jobs_with_terms(
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
 ) -> Vec<Job> {
     use rayon::prelude::*;
-    let anc = h.num_qubits as Qubit;
+    let anc = (spec.control == Control::Evolution && spec.family != Family::Evolution)
+        .then_some(h.num_qubits as Qubit);
     // One rotation program per time point, shared by every circuit at that point.
     let programs: Vec<Vec<Rotation>> = (0..spec.points)
         .into_par_iter()
@@ -346,7 +510,7 @@ pub fn build_jobs_with_terms(
             let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
             circuit.extend(f.prefix);
             for r in &programs[f.k] {
-                circuit.extend(crate::synth::pauli_rotation_along(r, Some(anc), &ladder(r)));
+                circuit.extend(crate::synth::pauli_rotation_along(r, anc, &ladder(r)));
             }
             circuit.extend(f.suffix);
             cancel_inverses(&mut circuit);

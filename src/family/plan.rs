@@ -5,8 +5,13 @@
 //! `estimate`. Invariant: the plan alone says how to recombine counts: every circuit lists its
 //! [`Read`]s, each naming the quantity it estimates and the classical bits whose parity gives it.
 //!
-//! Schema `phasewright-plan/2` (documented in README):
-//! - `family`: `overlap` | `krylov` | `trace`;
+//! Schema `phasewright-plan/3` (documented in README; a `phasewright-plan/2` plan is a valid
+//! `/3` plan and is read as one):
+//! - `family`: `overlap` | `krylov` | `trace` | `evolution` (plain time-evolution circuits: no
+//!   ancilla, no `part`, no `ancilla_bit`, no reads; bit q holds system qubit q, and the counts
+//!   sample `|⟨b|U(k·dt)|ψ⟩|²` for the user's own analysis);
+//! - `control` (new in `/3`, `evolution` when absent): what the Hadamard-test ancilla controls,
+//!   `evolution` or `prep` (see `family::control`);
 //! - `hamiltonian`: `qubit_count`, constant (identity coefficient, never a gate), one-norm, terms;
 //! - `formula`: order, Trotter steps per unit of `k`, `dt`;
 //! - `states`: reference states (`0 1 + - r l`, qubit 0 first); one for overlap/krylov, N for trace;
@@ -27,7 +32,11 @@ use crate::circuit::metrics::Counts;
 use serde::{Deserialize, Serialize};
 
 /// Identifies the schema in `plan.json`.
-pub const PLAN_FORMAT: &str = "phasewright-plan/2";
+pub const PLAN_FORMAT: &str = "phasewright-plan/3";
+
+/// Every schema this reader accepts: the current one and `/2`, which differs only by lacking
+/// `control` (read as `evolution`) and the `evolution` family.
+pub const READABLE_PLAN_FORMATS: [&str; 2] = [PLAN_FORMAT, "phasewright-plan/2"];
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Plan {
@@ -46,6 +55,10 @@ pub struct Plan {
     pub energy_unit: Option<String>,
     /// Number of time points K: k runs over 0..K.
     pub points: usize,
+    /// What the ancilla controls: `evolution` (every rotation) or `prep` (only the state
+    /// preparation; the evolution runs uncontrolled). Absent in older plans: `evolution`.
+    #[serde(default = "default_control")]
+    pub control: crate::family::control::Control,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub device: Option<DeviceInfo>,
     /// Present when this plan is one share of a campaign split for a job array
@@ -66,12 +79,18 @@ pub struct ShardInfo {
     pub campaign_circuits: usize,
 }
 
+fn default_control() -> crate::family::control::Control {
+    crate::family::control::Control::Evolution
+}
+
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]
 #[serde(rename_all = "lowercase")]
 pub enum Family {
     Overlap,
     Krylov,
     Trace,
+    /// Plain time evolution, every qubit measured (no Hadamard test).
+    Evolution,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -144,7 +163,9 @@ pub struct CircuitEntry {
     pub file: String,
     pub k: usize,
     pub time: f64,
-    pub part: Part,
+    /// Which part of the Hadamard test (absent for the `evolution` family).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub part: Option<Part>,
     /// Index into `Plan::states`.
     pub state: usize,
     /// Measurement group (krylov family), if any.
@@ -156,8 +177,9 @@ pub struct CircuitEntry {
     /// Classical bits the file declares (the length of every bitstring of its counts).
     #[serde(rename = "bit_count")]
     pub num_clbits: usize,
-    /// Classical bit holding the Hadamard-test ancilla.
-    pub ancilla_bit: u32,
+    /// Classical bit holding the Hadamard-test ancilla (absent for the `evolution` family).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ancilla_bit: Option<u32>,
     pub reads: Vec<Read>,
     pub costs: Costs,
     /// `end_placement[l]` = physical qubit holding logical qubit l when the circuit ends, after
@@ -401,13 +423,16 @@ impl Plan {
                     None,
                 );
             }
-            if d.initial_layout.len() != n + 1 {
+            let width = n + usize::from(self.family != Family::Evolution);
+            if d.initial_layout.len() != width {
                 bad(
                     vec![Key("device"), Key("start_placement")],
                     format!(
-                        "the start placement lists {} qubits; the Hamiltonian and the ancilla need {}",
+                        "the start placement lists {} qubits; the Hamiltonian{} need{} {}",
                         d.initial_layout.len(),
-                        n + 1
+                        if width > n { " and the ancilla" } else { "" },
+                        if width > n { "" } else { "s" },
+                        width
                     ),
                     None,
                 );
@@ -479,10 +504,60 @@ impl Plan {
                     Some("`state` indexes `states`, counting from 0"),
                 );
             }
+            let plain = self.family == Family::Evolution;
+            let width = n + usize::from(!plain);
             let qubits_ok = match device_qubits {
-                Some(d) => e.num_qubits > n && e.num_qubits <= d,
-                None => e.num_qubits == n + 1,
+                Some(d) => e.num_qubits >= width && e.num_qubits <= d,
+                None => e.num_qubits == width,
             };
+            // A missing key has no place of its own in the text: point at the circuit.
+            let at_key_or_circuit = |present: bool, key| {
+                if present {
+                    at_circuit(i, key)
+                } else {
+                    vec![Key("circuits"), Index(i)]
+                }
+            };
+            if plain != e.part.is_none() {
+                bad(
+                    at_key_or_circuit(e.part.is_some(), "part"),
+                    format!(
+                        "circuit `{}`: {}",
+                        e.id,
+                        if plain {
+                            "an evolution circuit has no Hadamard-test part"
+                        } else {
+                            "a Hadamard-test circuit needs `part` (`re` or `im`)"
+                        }
+                    ),
+                    None,
+                );
+            }
+            if plain != e.ancilla_bit.is_none() {
+                bad(
+                    at_key_or_circuit(e.ancilla_bit.is_some(), "ancilla_bit"),
+                    format!(
+                        "circuit `{}`: {}",
+                        e.id,
+                        if plain {
+                            "an evolution circuit has no ancilla"
+                        } else {
+                            "a Hadamard-test circuit needs `ancilla_bit`"
+                        }
+                    ),
+                    None,
+                );
+            }
+            if plain && e.num_clbits != n {
+                bad(
+                    at_circuit(i, "bit_count"),
+                    format!(
+                        "circuit `{}`: an evolution circuit measures all {n} qubits, not {}",
+                        e.id, e.num_clbits
+                    ),
+                    None,
+                );
+            }
             if !qubits_ok {
                 bad(
                     at_circuit(i, "qubit_count"),
@@ -501,17 +576,17 @@ impl Plan {
                     None,
                 );
             }
-            if e.ancilla_bit as usize >= e.num_clbits {
+            if let Some(a) = e.ancilla_bit.filter(|&a| a as usize >= e.num_clbits) {
                 bad(
                     at_circuit(i, "ancilla_bit"),
                     format!(
                         "circuit `{}`: ancilla bit {} is outside its {} classical bits",
-                        e.id, e.ancilla_bit, e.num_clbits
+                        e.id, a, e.num_clbits
                     ),
                     None,
                 );
             }
-            if e.reads.is_empty() {
+            if e.reads.is_empty() && !plain {
                 bad(
                     at_circuit(i, "reads"),
                     format!("circuit `{}` has no read", e.id),

@@ -63,12 +63,134 @@ impl Order {
 /// factors of one group commute, and Strang and Suzuki apply a group forward then reversed,
 /// which is again a product of commuting factors. A target may therefore reorder inside groups
 /// (see `route::order_for_device`) but never across them.
+///
+/// Flip units. Terms that flip the same qubits of a basis state (equal `x` masks, e.g. `X0 X1`
+/// and `Y0 Y1`, or the two halves of a Jordan–Wigner hopping term) and commute are kept in one
+/// group: only together can they conserve the number of ones, so a formula that splits them
+/// breaks that symmetry (and `family::control` could no longer show |0…0⟩ to be an
+/// eigenstate). When the plain colouring already keeps every such unit whole it is used as is;
+/// otherwise the units are coloured as wholes ([`unit_groups`]).
 pub fn term_groups(h: &PauliSum) -> Vec<Vec<(PauliString, f64)>> {
     let terms = h.term_list();
     let strings: Vec<PauliString> = terms.iter().map(|t| t.0.clone()).collect();
-    colour_groups(&strings, Compat::Commuting)
+    let plain = colour_groups(&strings, Compat::Commuting);
+    let units = flip_units(&strings);
+    let groups = if keeps_units(&plain, &units, strings.len()) {
+        plain
+    } else {
+        unit_groups(&strings, &units)
+    };
+    groups
         .into_iter()
         .map(|g| g.into_iter().map(|i| terms[i].clone()).collect())
+        .collect()
+}
+
+/// The flip units of `strings` with more than one member: per non-zero `x` mask, its terms in
+/// index order split greedily into mutually commuting sets.
+fn flip_units(strings: &[PauliString]) -> Vec<Vec<usize>> {
+    let mut by_mask: std::collections::BTreeMap<&crate::pauli::Bits, Vec<Vec<usize>>> =
+        Default::default();
+    for (i, p) in strings.iter().enumerate() {
+        if p.x.is_empty() {
+            continue;
+        }
+        let sets = by_mask.entry(&p.x).or_default();
+        match sets
+            .iter_mut()
+            .find(|s| s.iter().all(|&j| strings[j].commutes_with(p)))
+        {
+            Some(s) => s.push(i),
+            None => sets.push(vec![i]),
+        }
+    }
+    by_mask
+        .into_values()
+        .flatten()
+        .filter(|u| u.len() > 1)
+        .collect()
+}
+
+/// A group being built by [`unit_groups`]: its members, and for every qubit the members
+/// touching it.
+type UnitGroup = (Vec<usize>, std::collections::HashMap<usize, Vec<usize>>);
+
+fn keeps_units(groups: &[Vec<usize>], units: &[Vec<usize>], m: usize) -> bool {
+    let mut group_of = vec![0usize; m];
+    for (g, members) in groups.iter().enumerate() {
+        for &i in members {
+            group_of[i] = g;
+        }
+    }
+    units
+        .iter()
+        .all(|u| u.iter().all(|&i| group_of[i] == group_of[u[0]]))
+}
+
+/// Colours the terms with every unit of `units` (and every other term on its own) as one
+/// vertex: largest conflict degree first (degrees counted below
+/// `pauli::group::EXACT_COLOURING_MAX` terms, else index order), each into the first group
+/// whose members it commutes with, testing only the members that share a qubit with it.
+/// Members inside a group are sorted by index; groups in order of creation. Deterministic.
+fn unit_groups(strings: &[PauliString], units: &[Vec<usize>]) -> Vec<Vec<usize>> {
+    let m = strings.len();
+    let mut in_unit = vec![false; m];
+    let mut vertices: Vec<Vec<usize>> = units.to_vec();
+    for u in units {
+        for &i in u {
+            in_unit[i] = true;
+        }
+    }
+    vertices.extend((0..m).filter(|&i| !in_unit[i]).map(|i| vec![i]));
+    vertices.sort_by_key(|v| v[0]);
+    let conflict = |a: &[usize], b: &[usize]| {
+        a.iter()
+            .any(|&i| b.iter().any(|&j| !strings[i].commutes_with(&strings[j])))
+    };
+    let mut degree = vec![0usize; vertices.len()];
+    if m <= crate::pauli::group::EXACT_COLOURING_MAX {
+        for a in 0..vertices.len() {
+            for b in a + 1..vertices.len() {
+                if conflict(&vertices[a], &vertices[b]) {
+                    degree[a] += 1;
+                    degree[b] += 1;
+                }
+            }
+        }
+    }
+    let mut order: Vec<usize> = (0..vertices.len()).collect();
+    order.sort_by(|&a, &b| degree[b].cmp(&degree[a]).then(a.cmp(&b)));
+    let mut groups: Vec<UnitGroup> = Vec::new();
+    for v in order {
+        let fits = |g: &UnitGroup| {
+            vertices[v].iter().all(|&i| {
+                strings[i].support_iter().all(|q| {
+                    g.1.get(&q)
+                        .is_none_or(|ms| ms.iter().all(|&j| strings[i].commutes_with(&strings[j])))
+                })
+            })
+        };
+        let slot = match groups.iter().position(fits) {
+            Some(k) => k,
+            None => {
+                groups.push(Default::default());
+                groups.len() - 1
+            }
+        };
+        let g = &mut groups[slot];
+        for &i in &vertices[v] {
+            g.0.push(i);
+            for q in strings[i].support_iter() {
+                g.1.entry(q).or_default().push(i);
+            }
+        }
+    }
+    groups
+        .into_iter()
+        .map(|(mut members, _)| {
+            members.sort_unstable();
+            members
+        })
         .collect()
 }
 

@@ -96,6 +96,22 @@ pub fn interaction_weights(h: &PauliSum, ancilla: bool) -> Weights {
     Weights { rows }
 }
 
+/// [`interaction_weights`] without the ancilla's ties to every term, plus an ancilla (the last
+/// qubit) tied with weight 1 to each of `partners` only: the control-free Hadamard test, whose
+/// ancilla meets just the qubits its controlled state preparation touches.
+pub fn interaction_weights_with_partners(h: &PauliSum, partners: &[usize]) -> Weights {
+    let mut w = interaction_weights(h, false);
+    let anc = h.num_qubits as u32;
+    let mut row = Vec::new();
+    for &q in partners {
+        // The ancilla's index is the largest, so each row stays sorted.
+        w.rows[q].push((anc, 1.0));
+        row.push((q as u32, 1.0));
+    }
+    w.rows.push(row);
+    w
+}
+
 /// `Σ_{i<j} W[i][j] · d(layout[i], layout[j])`.
 pub fn layout_cost(w: &Weights, layout: &[u32], dev: &Device) -> f64 {
     let mut c = 0.0;

@@ -365,7 +365,7 @@ pub fn plan_target(
     dev: &Device,
     cfg: &RouteConfig,
 ) -> Result<TargetPlan, String> {
-    Ok(plan_on_step(h, ancilla, dev, cfg, Order::Second, 1.0)?.0)
+    Ok(plan_on_step(h, ancilla, None, dev, cfg, Order::Second, 1.0)?.0)
 }
 
 /// [`plan_target`] scoring on the campaign's own step (`order`, length `dt`) and returning the
@@ -377,7 +377,47 @@ pub fn plan_and_route_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, routed) = plan_on_step(h, true, dev, cfg, order, dt)?;
+    let (plan, routed) = plan_on_step(h, true, None, dev, cfg, order, dt)?;
+    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+}
+
+/// [`plan_and_route_step`] for the control-free Hadamard test (`family::control`): the layout
+/// still places the ancilla (last logical qubit), tied only to `partners` (the qubits its
+/// controlled state preparation touches), but the step's rotations are not controlled, so the
+/// plan has no ancilla for the ladders and the SWAP router (`TargetPlan::ancilla` is `None`).
+pub fn plan_and_route_free_step(
+    h: &PauliSum,
+    partners: &[usize],
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> Result<(TargetPlan, RoutedStep), String> {
+    let (plan, routed) = plan_on_step(h, true, Some(partners), dev, cfg, order, dt)?;
+    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+}
+
+/// [`plan_and_route_step`] for circuits without an ancilla (plain time evolution).
+pub fn plan_and_route_plain_step(
+    h: &PauliSum,
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> Result<(TargetPlan, RoutedStep), String> {
+    let (plan, routed) = plan_on_step(h, false, None, dev, cfg, order, dt)?;
+    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+}
+
+fn route_planned(
+    h: &PauliSum,
+    plan: TargetPlan,
+    routed: Option<(reuse::StepParts, swap::SwapOutcome, Vec<swap::Mark>)>,
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> (TargetPlan, RoutedStep) {
     let params = plan_swap_params(&plan, cfg);
     let symmetric = order != Order::First;
     let step = match routed {
@@ -389,7 +429,7 @@ pub fn plan_and_route_step(
             reuse::route_step(&parts, &plan, dev, &params, symmetric)
         }
     };
-    Ok((plan, step))
+    (plan, step)
 }
 
 /// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
@@ -406,9 +446,12 @@ type Planned = (
     Option<(reuse::StepParts, swap::SwapOutcome, Vec<swap::Mark>)>,
 );
 
+/// `free_ancilla`: `Some(partners)` places the ancilla without letting it control the step
+/// (see [`plan_and_route_free_step`]).
 fn plan_on_step(
     h: &PauliSum,
     ancilla: bool,
+    free_ancilla: Option<&[usize]>,
     dev: &Device,
     cfg: &RouteConfig,
     order: Order,
@@ -443,7 +486,12 @@ fn plan_on_step(
             ))
         }
     };
-    let w = layout::interaction_weights(h, ancilla);
+    // `controls`: the ancilla controls the step's rotations (the usual Hadamard test).
+    let controls = ancilla && free_ancilla.is_none();
+    let w = match free_ancilla {
+        Some(partners) if ancilla => layout::interaction_weights_with_partners(h, partners),
+        _ => layout::interaction_weights(h, ancilla),
+    };
     let groups = term_groups(h);
     let default_terms: Vec<(PauliString, f64)> = groups.concat();
     let edge_terms = if groups.len() >= 2 && order != Order::First {
@@ -454,7 +502,7 @@ fn plan_on_step(
     let candidate = |t: usize| -> Vec<u32> {
         let trial_seed = cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64);
         let mut l = if t == 0 {
-            layout::greedy_layout(&w, n, &comp, dev, ancilla)
+            layout::greedy_layout(&w, n, &comp, dev, controls)
         } else {
             layout::random_layout(n, &comp, trial_seed)
         };
@@ -462,15 +510,15 @@ fn plan_on_step(
         l
     };
     let mut params = cfg.swap_params();
-    params.hub = ancilla.then_some(n_sys as u32);
+    params.hub = controls.then_some(n_sys as u32);
     let full = Search {
         trials: cfg.layout_trials.max(1),
-        factors: if ancilla {
+        factors: if controls {
             &ANCILLA_SWAP_FACTORS
         } else {
             &[1.0]
         },
-        choices: if cfg.device_order && ancilla {
+        choices: if cfg.device_order && controls {
             &ORDER_CHOICES
         } else {
             &[OrderChoice::Default]
@@ -481,6 +529,9 @@ fn plan_on_step(
     let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
     let mut evaluate = |l: &[u32], factor: f64, choice: OrderChoice, params: &mut SwapParams| {
         let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
+        if !controls {
+            plan.ancilla = None;
+        }
         let terms = if choice != OrderChoice::Default {
             let mut o = orders
                 .entry(l.to_vec())
@@ -534,8 +585,8 @@ fn plan_on_step(
     let search = std::iter::once(full)
         .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
             trials: t.min(full.trials),
-            factors: if ancilla { f } else { &[1.0] },
-            choices: if cfg.device_order && ancilla {
+            factors: if controls { f } else { &[1.0] },
+            choices: if cfg.device_order && controls {
                 c
             } else {
                 &[OrderChoice::Default]
@@ -545,7 +596,7 @@ fn plan_on_step(
         .find(|s| s.routings() <= allowed)
         .unwrap_or(Search {
             trials: 1,
-            factors: if ancilla { &[0.9] } else { &[1.0] },
+            factors: if controls { &[0.9] } else { &[1.0] },
             choices: full.choices[..1].as_ref(),
             rounds: 0,
         });

@@ -29,8 +29,9 @@
 use super::normal::{self, DiffKind};
 use super::{canonicalise, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
+use crate::family::control::Control;
 use crate::family::plan::{CircuitEntry, Family, Plan, Read, Target};
-use crate::family::{hadamard_test, krylov_groups, state_prep, term_bits};
+use crate::family::{group_reads, hadamard_test_in, krylov_groups, state_prep};
 use crate::formula::{evolution, order_terms, Order};
 use crate::pauli::PauliString;
 use serde::Serialize;
@@ -50,6 +51,7 @@ pub struct Claim {
     groups: Vec<Vec<usize>>,
     /// Device qubits and initial layout, for device campaigns.
     device: Option<(usize, Vec<u32>)>,
+    control: Control,
 }
 
 /// The sizes of a successful proof.
@@ -144,6 +146,7 @@ impl Claim {
                 Vec::new()
             },
             device,
+            control: plan.control,
         })
     }
 
@@ -158,7 +161,7 @@ impl Claim {
                 self.states.len()
             )
         })?;
-        let prep = state_prep(state).map_err(|b| {
+        state_prep(state).map_err(|b| {
             format!(
                 "{}: bad state letter `{}` at {}: {}",
                 e.id, b.letter, b.index, b.reason
@@ -192,14 +195,7 @@ impl Claim {
                     basis.x.or_assign(&self.strings[i].x);
                     basis.z.or_assign(&self.strings[i].z);
                 }
-                let reads = members
-                    .iter()
-                    .map(|&i| Read {
-                        target: Target::Term { term: i },
-                        bits: term_bits(&self.strings[i]),
-                    })
-                    .collect();
-                (Some(basis), reads)
+                (Some(basis), group_reads(members, &self.strings, e.k))
             }
             (_, Some(_)) => {
                 return Err(format!(
@@ -216,7 +212,30 @@ impl Claim {
             ),
         };
         let ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
-        let c = hadamard_test(self.n, &prep, &program, e.part, basis.as_ref(), &ladder);
+        let part = e.part.ok_or_else(|| {
+            format!(
+                "{}: the tableau method proves Hadamard-test circuits; use --method statevector for plain evolution circuits",
+                e.id
+            )
+        })?;
+        let c = hadamard_test_in(
+            self.n,
+            state,
+            &program,
+            part,
+            basis.as_ref(),
+            &ladder,
+            crate::family::control::Form {
+                control: self.control,
+                // As `pipeline` builds them: joined through index neighbours on a device.
+                joins: if self.device.is_some() {
+                    crate::family::control::Joins::Neighbours
+                } else {
+                    crate::family::control::Joins::Direct
+                },
+            },
+        )
+        .map_err(|b| format!("{}: bad state letter `{}`", e.id, b.letter))?;
         Ok((c, reads))
     }
 
@@ -525,6 +544,7 @@ mod tests {
                 vec!["0+r".to_string()]
             };
             let spec = Spec {
+                control: crate::family::control::Control::Evolution,
                 family,
                 order: Order::Second,
                 dt: 0.3,
@@ -549,6 +569,7 @@ mod tests {
     #[test]
     fn a_flipped_angle_is_found_at_its_gate() {
         let spec = Spec {
+            control: crate::family::control::Control::Evolution,
             family: Family::Overlap,
             order: Order::First,
             dt: 0.2,
