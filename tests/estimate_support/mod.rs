@@ -54,8 +54,24 @@ pub fn heisenberg(n: usize, j: f64, constant: f64) -> PauliSum {
 /// A product state from letters `0 1 + - r l`, qubit 0 first (qubit k = bit k of the index).
 pub fn product_state(spec: &str) -> DVector<Complex64> {
     let s = std::f64::consts::FRAC_1_SQRT_2;
+    let letters: Vec<char> = spec.chars().collect();
     let mut v = DVector::from_element(1, c64(1.0, 0.0));
-    for (q, ch) in spec.chars().enumerate() {
+    let mut q = 0;
+    while q < letters.len() {
+        let ch = letters[q];
+        if ch == 's' {
+            // Singlet (|01⟩ − |10⟩)/√2 on qubits (q, q+1), qubit q first, as src/family's
+            // state preparation writes it.
+            let dim = v.len();
+            let mut w = DVector::from_element(4 * dim, c64(0.0, 0.0));
+            for i in 0..dim {
+                w[i | (1 << (q + 1))] = v[i] * c64(s, 0.0);
+                w[i | (1 << q)] = v[i] * c64(-s, 0.0);
+            }
+            v = w;
+            q += 2;
+            continue;
+        }
         let (a0, a1) = match ch {
             '0' => (c64(1.0, 0.0), c64(0.0, 0.0)),
             '1' => (c64(0.0, 0.0), c64(1.0, 0.0)),
@@ -72,6 +88,7 @@ pub fn product_state(spec: &str) -> DVector<Complex64> {
             w[i | (1 << q)] = v[i] * a1;
         }
         v = w;
+        q += 1;
     }
     v
 }
@@ -192,6 +209,46 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
 
 /// Builds an ideal campaign for `h` (family `kind`) with `points` time points `dt` apart.
 pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usize) -> Campaign {
+    campaign_formula(h, states, kind, dt, points, None)
+}
+
+/// `S(dt/r)^{r·k} ψ` for the product formula phasewright compiles (`formula::evolution` over
+/// `formula::order_terms`, the identity coefficient dropped), applied exactly to the state.
+pub fn trotter_evolve(
+    h: &PauliSum,
+    psi: &DVector<Complex64>,
+    dt: f64,
+    k: usize,
+    order: u32,
+    steps: usize,
+) -> DVector<Complex64> {
+    let mut hp = h.clone();
+    hp.constant = 0.0;
+    let terms = phasewright::formula::order_terms(&hp);
+    let prog = phasewright::formula::evolution(
+        &terms,
+        phasewright::formula::Order::from_number(order).expect("order 1, 2 or 4"),
+        k as f64 * dt,
+        k * steps,
+    );
+    let mut st = phasewright::sim::State {
+        n: h.num_qubits,
+        amps: psi.iter().copied().collect(),
+    };
+    phasewright::formula::apply_program(&mut st, &prog);
+    DVector::from_vec(st.amps)
+}
+
+/// As [`campaign`]; with `formula = Some((order, steps_per_dt))` the time evolution is the
+/// compiled product formula (see [`trotter_evolve`]) instead of the exact `e^{−iH'kdt}`.
+pub fn campaign_formula(
+    h: &PauliSum,
+    states: &[&str],
+    kind: Kind,
+    dt: f64,
+    points: usize,
+    formula: Option<(u32, usize)>,
+) -> Campaign {
     let n = h.num_qubits;
     let ex = Exact::new(h);
     let terms = h.term_list();
@@ -209,7 +266,10 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
         let psi = product_state(spec);
         let k0 = if kind == Kind::Krylov { 0 } else { 1 };
         for k in k0..points {
-            let phi = ex.evolve(&psi, k as f64 * dt);
+            let phi = match formula {
+                None => ex.evolve(&psi, k as f64 * dt),
+                Some((order, steps)) => trotter_evolve(h, &psi, dt, k, order, steps),
+            };
             for part in [Part::Re, Part::Im] {
                 if k == 0 && part == Part::Im {
                     continue;
@@ -286,8 +346,8 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
                 .collect(),
         },
         formula: FormulaInfo {
-            order: 2,
-            steps_per_dt: 1,
+            order: formula.map_or(2, |f| f.0),
+            steps_per_dt: formula.map_or(1, |f| f.1),
             dt,
         },
         states: states.iter().map(|s| s.to_string()).collect(),
