@@ -23,6 +23,7 @@
 //! deviation of the replicates. Replicate `b` uses ChaCha8 stream `b` of the seed, so results
 //! do not depend on the thread count.
 
+pub mod answer;
 pub mod counts;
 pub mod dos;
 pub mod expect;
@@ -30,6 +31,7 @@ pub mod krylov;
 pub mod overlap_only;
 pub mod resample;
 pub mod sanity;
+pub mod trotter;
 
 use crate::family::plan::{Family, Plan};
 use crate::pauli::{Pauli, PauliSum};
@@ -66,6 +68,8 @@ pub struct Config {
     pub dos_points: usize,
     /// Divide each circuit's reads by its calibrated success probability (`--undo-loss`).
     pub undo_loss: bool,
+    /// Requested accuracy of the final answer (`--accuracy`); a warning when missed.
+    pub accuracy: Option<f64>,
 }
 
 impl Default for Config {
@@ -78,6 +82,7 @@ impl Default for Config {
             exact: None,
             dos_points: DEFAULT_DOS_POINTS,
             undo_loss: false,
+            accuracy: None,
         }
     }
 }
@@ -132,6 +137,11 @@ pub struct EnergyReport {
     pub gram_min: (f64, f64),
     /// How signal loss was undone, when it was.
     pub loss_method: Option<&'static str>,
+    /// The recommended dimension, threshold and energy with σ_stat and σ_sys.
+    pub answer: Option<answer::Answer>,
+    /// Trotter bias of the ground energy: bound, and the computed shift for small plans.
+    pub trotter: Option<trotter::TrotterBias>,
+    pub accuracy: Option<f64>,
     pub warnings: Vec<String>,
 }
 
@@ -454,8 +464,9 @@ fn energies(
         ));
     }
 
-    // Bootstrap replicates: each a vector over dimensions of (krylov, pencil).
-    let reps: Vec<Vec<Replicate>> = (0..cfg.bootstrap)
+    // Bootstrap replicates: each a vector over dimensions of (krylov, pencil), and the
+    // replicate's overlap series for the final answer.
+    let both: Vec<(Vec<Replicate>, Option<Series>)> = (0..cfg.bootstrap)
         .into_par_iter()
         .map(|b| {
             let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -469,21 +480,26 @@ fn energies(
                 })
                 .collect();
             match energy_inputs(plan, table, &w) {
-                Ok((s2, h2)) => point_estimates_shifted(
-                    &s2,
-                    h2.as_ref().map(|(h, mu)| (h, *mu)),
-                    dt,
-                    &eps,
-                    noise,
-                    center,
-                )
-                .into_iter()
-                .map(|(k, p)| (k.map(|r| r.energy), p))
-                .collect(),
-                Err(_) => Vec::new(),
+                Ok((s2, h2)) => (
+                    point_estimates_shifted(
+                        &s2,
+                        h2.as_ref().map(|(h, mu)| (h, *mu)),
+                        dt,
+                        &eps,
+                        noise,
+                        center,
+                    )
+                    .into_iter()
+                    .map(|(k, p)| (k.map(|r| r.energy), p))
+                    .collect(),
+                    Some(s2),
+                ),
+                Err(_) => (Vec::new(), None),
             }
         })
         .collect();
+    let (reps, rep_series): (Vec<Vec<Replicate>>, Vec<Option<Series>>) = both.into_iter().unzip();
+    let rep_series: Vec<Series> = rep_series.into_iter().flatten().collect();
     let spread = |pick: &dyn Fn(&Replicate) -> Option<f64>, d: usize| {
         let xs: Vec<f64> = reps
             .iter()
@@ -548,6 +564,27 @@ fn energies(
             None => (None, None),
         },
     };
+    // One final answer from the consistent (unitary) pencil, with its systematic parts.
+    let trot = trotter::plan_bias(plan).ok();
+    let ans = trot.as_ref().and_then(|tb| {
+        answer::recommend(&answer::Inputs {
+            s: &s,
+            replicates: &rep_series,
+            dt,
+            shift: center,
+            constant: c,
+            trotter: tb,
+            seed: cfg.seed,
+        })
+    });
+    match &ans {
+        Some(a) => warnings.extend(answer::warnings(a, cfg.accuracy)),
+        None => warnings.push(
+            "no final answer: the unitary pencil kept no Ritz value at any dimension (the \
+             overlaps are too noisy or the plan has fewer than 2 time points)"
+                .into(),
+        ),
+    }
     // Reported as an estimate of h_k itself: (h_k − μS_k) + μS_k.
     let h_reported = h.map(|(h, mu)| unshift(&h, &s, mu));
     Ok(EnergyReport {
@@ -565,6 +602,9 @@ fn energies(
         bound,
         gram_min,
         loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
+        answer: ans,
+        trotter: trot,
+        accuracy: cfg.accuracy,
         warnings,
     })
 }
