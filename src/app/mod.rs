@@ -6,6 +6,7 @@
 //! or the standard streams**; every write to stdout goes through [`Global::say`] /
 //! [`Global::json`], so a closed pipe is a quiet exit, never a panic.
 
+pub mod budget;
 pub mod compile;
 pub mod convert;
 pub mod estimate;
@@ -86,6 +87,7 @@ impl Global {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
+    Budget(budget::BudgetArgs),
     Compile(compile::CompileArgs),
     /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
     #[command(after_help = convert::EXAMPLES)]
@@ -102,6 +104,7 @@ pub enum Command {
 pub fn run(cli: Cli) -> Result<()> {
     let g = cli.global;
     match cli.command {
+        Command::Budget(a) => budget::run(&a, &g),
         Command::Compile(a) => compile::run(&a, &g),
         Command::Convert(a) => convert::run(a, &g),
         Command::Estimate(a) => estimate::run(&a, &g),

@@ -24,11 +24,13 @@
 //! do not depend on the thread count.
 
 pub mod answer;
+pub mod budget;
 pub mod counts;
 pub mod dos;
 pub mod expect;
 pub mod krylov;
 pub mod overlap_only;
+pub mod reference;
 pub mod resample;
 pub mod sanity;
 pub mod trotter;
