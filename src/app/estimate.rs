@@ -506,6 +506,7 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
             "bootstrap": r.bootstrap,
             "seed": r.seed,
             "answer": answer_json(r),
+            "reference_ground_weight": r.reference_weight,
             "energies": r.rows.iter().map(|row| json!({
                 "dimension": row.dimension,
                 "threshold": row.threshold,

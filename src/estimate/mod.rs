@@ -143,6 +143,8 @@ pub struct EnergyReport {
     pub answer: Option<answer::Answer>,
     /// Trotter bias of the ground energy: bound, and the computed shift for small plans.
     pub trotter: Option<trotter::TrotterBias>,
+    /// `|⟨ψ|E0⟩|²` of the reference state, when computable (≤ 14 qubits).
+    pub reference_weight: Option<f64>,
     pub accuracy: Option<f64>,
     pub warnings: Vec<String>,
 }
@@ -566,6 +568,26 @@ fn energies(
             None => (None, None),
         },
     };
+    // A reference without ground-state weight cannot show E0: say so rather than print a number
+    // that looks like it.
+    let reference_weight = plan
+        .states
+        .first()
+        .and_then(|st| Some((st, plan_hamiltonian(plan).ok()?)))
+        .and_then(|(st, h)| reference::ground_weight(&h, st));
+    if let Some(w) = &reference_weight {
+        if w.weight < reference::LOW_WEIGHT {
+            warnings.push(format!(
+                "the reference state {} has ground-state weight |⟨ψ|E0⟩|² = {:.4} < {} ({}): \
+                 the energies below converge slowly or to an excited state, whatever their \
+                 error bars say; recompile with a better --state (e.g. --state auto)",
+                plan.states[0],
+                w.weight,
+                reference::LOW_WEIGHT,
+                w.method
+            ));
+        }
+    }
     // One final answer from the consistent (unitary) pencil, with its systematic parts.
     let trot = trotter::plan_bias(plan).ok();
     let ans = trot.as_ref().and_then(|tb| {
@@ -606,6 +628,7 @@ fn energies(
         loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
         answer: ans,
         trotter: trot,
+        reference_weight: reference_weight.map(|w| w.weight),
         accuracy: cfg.accuracy,
         warnings,
     })
