@@ -30,9 +30,7 @@ fn proposed_campaign_meets_the_target_on_an_eight_qubit_chain() {
     let d = dir.display().to_string();
     let ham = "examples/tfim_chain8.ham";
     let acc = 1.6e-3;
-    let (b, _) = run(&[
-        "budget", ham, "--accuracy", "0.0016", "--out", &d, "--json",
-    ]);
+    let (b, _) = run(&["budget", ham, "--accuracy", "0.0016", "--out", &d, "--json"]);
     let b: serde_json::Value = serde_json::from_str(&b).unwrap();
     let cmd = b["compile_command"].as_str().unwrap().to_string();
     eprintln!("budget: {b}");
@@ -42,9 +40,17 @@ fn proposed_campaign_meets_the_target_on_an_eight_qubit_chain() {
     run(&words);
     let shots = b["shots"].as_u64().unwrap().to_string();
     let counts = dir.join("counts.json").display().to_string();
-    run(&["rehearse", &d, "--shots", &shots, "--seed", "3", "-o", &counts]);
+    run(&[
+        "rehearse", &d, "--shots", &shots, "--seed", "3", "-o", &counts,
+    ]);
     let (e, _) = run(&[
-        "estimate", &d, "--counts", &counts, "--json", "--accuracy", "0.0016",
+        "estimate",
+        &d,
+        "--counts",
+        &counts,
+        "--json",
+        "--accuracy",
+        "0.0016",
     ]);
     let e: serde_json::Value = serde_json::from_str(&e).unwrap();
     let a = &e["answer"];

@@ -81,7 +81,11 @@ fn auto_state_names_its_choice_and_method() {
 
 #[test]
 fn auto_state_of_an_integral_file_is_hartree_fock() {
-    let (v, _) = compile_json("tests/data/h2_sto3g_r1.4.fcidump", "auto", &["--encoding", "jw"]);
+    let (v, _) = compile_json(
+        "tests/data/h2_sto3g_r1.4.fcidump",
+        "auto",
+        &["--encoding", "jw"],
+    );
     // Jordan–Wigner HF determinant of 2 electrons in 4 spin orbitals: modes 0 and 1 occupied.
     assert_eq!(v["reference"]["state"], "1100");
     assert!(v["reference"]["auto"].as_str().unwrap().contains("Hartree"));

@@ -160,20 +160,44 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
         g.warn(w);
     }
     let mut s = String::new();
-    let _ = writeln!(s, "target accuracy {:.3e}; error budget split evenly between shots and Trotter bias", b.accuracy);
-    let _ = writeln!(s, "reference state {state} ({state_note}); ground-state weight {}",
-        if b.weight_known { format!("{:.4}", b.weight) } else { format!("unknown (more than {} qubits; {} assumed)", reference::WEIGHT_MAX_QUBITS, budget::UNKNOWN_WEIGHT) });
+    let _ = writeln!(
+        s,
+        "target accuracy {:.3e}; error budget split evenly between shots and Trotter bias",
+        b.accuracy
+    );
+    let _ = writeln!(
+        s,
+        "reference state {state} ({state_note}); ground-state weight {}",
+        if b.weight_known {
+            format!("{:.4}", b.weight)
+        } else {
+            format!(
+                "unknown (more than {} qubits; {} assumed)",
+                reference::WEIGHT_MAX_QUBITS,
+                budget::UNKNOWN_WEIGHT
+            )
+        }
+    );
     let _ = writeln!(s, "dt = {:.6}: π/(2·Σ|c_j|) with Σ|c_j| = {:.6} (spectral-range bound |E − c| ≤ Σ|c_j|, so no eigenphase wraps)", b.dt, b.one_norm);
     let _ = writeln!(s, "order 2, {} step(s) per dt: commutator-scaling Trotter bound b = {:.3e} on the ground-energy shift (Childs, Su, Tran, Wiebe & Zhu, PRX 11, 011020 (2021)), b/√3 ≤ accuracy/2", b.steps, b.trotter_bound);
     let _ = writeln!(s, "{} time points ({} circuits of an overlap campaign): the plateau of estimate's scan settles by d ≈ 19 at twice this dt on the survey models", b.points, b.circuits);
     let _ = writeln!(s, "{} shots per circuit: σ_stat ≈ {}/(w²·dt·√N) = {:.3e} ≤ accuracy/2 (an empirical rule fitted on the survey, not a bound)", b.shots, budget::STAT_CONSTANT, b.sigma_stat);
     let _ = writeln!(s, "total shots {}", b.circuits as u64 * b.shots);
     match device_time_s {
-        Some(t) => { let _ = writeln!(s, "device time ≈ {:.1} s (Σ circuit durations from the device calibration, extrapolated linearly in k from k = 1, 2, × shots; no reset or readout overhead)", t); }
-        None => { let _ = writeln!(s, "device time: not estimated (give --device D.dev)"); }
+        Some(t) => {
+            let _ = writeln!(s, "device time ≈ {:.1} s (Σ circuit durations from the device calibration, extrapolated linearly in k from k = 1, 2, × shots; no reset or readout overhead)", t);
+        }
+        None => {
+            let _ = writeln!(s, "device time: not estimated (give --device D.dev)");
+        }
     }
     let _ = writeln!(s, "\n  {command}");
-    let _ = writeln!(s, "  phasewright estimate {} --counts COUNTS.json --accuracy {}", args.out.display(), b.accuracy);
+    let _ = writeln!(
+        s,
+        "  phasewright estimate {} --counts COUNTS.json --accuracy {}",
+        args.out.display(),
+        b.accuracy
+    );
     g.say(&s)
 }
 

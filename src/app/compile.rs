@@ -422,7 +422,11 @@ struct ReferenceReport {
     warnings: Vec<String>,
 }
 
-fn reference_report(h: &crate::pauli::PauliSum, state: &str, auto: Option<&str>) -> ReferenceReport {
+fn reference_report(
+    h: &crate::pauli::PauliSum,
+    state: &str,
+    auto: Option<&str>,
+) -> ReferenceReport {
     use crate::estimate::reference;
     let mean = reference::mean_energy(h, state);
     let weight = reference::ground_weight(h, state);
@@ -433,7 +437,9 @@ fn reference_report(h: &crate::pauli::PauliSum, state: &str, auto: Option<&str>)
     }
     text += &format!(
         "Reference state {state}: ⟨ψ|H|ψ⟩ = {}",
-        mean.map_or("not computed (too wide with singlets)".into(), |e| format!("{e:.10}"))
+        mean.map_or("not computed (too wide with singlets)".into(), |e| format!(
+            "{e:.10}"
+        ))
     );
     match &weight {
         Some(w) => {
@@ -467,7 +473,11 @@ fn reference_report(h: &crate::pauli::PauliSum, state: &str, auto: Option<&str>)
         "weight_method": weight.as_ref().map(|w| w.method),
         "low_weight": weight.as_ref().map(|w| w.weight < reference::LOW_WEIGHT),
     });
-    ReferenceReport { text, json, warnings }
+    ReferenceReport {
+        text,
+        json,
+        warnings,
+    }
 }
 
 /// How much the grouped readout of the Krylov family saves.

@@ -315,7 +315,10 @@ pub fn answer_text(r: &EnergyReport) -> String {
         s,
         "  σ_stat: {}",
         if r.bootstrap >= 2 {
-            format!("bootstrap over {} replicates (percentile width)", r.bootstrap)
+            format!(
+                "bootstrap over {} replicates (percentile width)",
+                r.bootstrap
+            )
         } else {
             "off (--bootstrap 0)".to_string()
         }

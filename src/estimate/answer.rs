@@ -91,7 +91,11 @@ impl Answer {
 
 /// Mean spectral norm of `d×d` Hermitian Toeplitz noise with the series' standard errors.
 pub fn noise_norm(std_errors: &[(f64, f64)], d: usize, seed: u64) -> f64 {
-    if std_errors.iter().take(d).all(|&(a, b)| a == 0.0 && b == 0.0) {
+    if std_errors
+        .iter()
+        .take(d)
+        .all(|&(a, b)| a == 0.0 && b == 0.0)
+    {
         return 0.0;
     }
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
@@ -190,7 +194,11 @@ pub fn recommend(inp: &Inputs) -> Option<Answer> {
                 .flatten()
                 .copied()
                 .fold(f64::INFINITY, f64::min);
-            let seen = if later.is_finite() { (e - later).max(0.0) } else { 0.0 };
+            let seen = if later.is_finite() {
+                (e - later).max(0.0)
+            } else {
+                0.0
+            };
             Some(seen + tail)
         })
         .collect();
@@ -208,9 +216,8 @@ pub fn recommend(inp: &Inputs) -> Option<Answer> {
     let best = scan
         .iter()
         .filter_map(|r| {
-            let v = r.sigma_stat?.powi(2)
-                + r.threshold_sensitivity?.powi(2)
-                + r.unconverged?.powi(2);
+            let v =
+                r.sigma_stat?.powi(2) + r.threshold_sensitivity?.powi(2) + r.unconverged?.powi(2);
             Some((r, v))
         })
         .min_by(|a, b| a.1.total_cmp(&b.1).then(a.0.dimension.cmp(&b.0.dimension)))?

@@ -76,11 +76,7 @@ pub fn propose(h: &PauliSum, accuracy: f64, weight: Option<f64>) -> Budget {
     let target_b = 3f64.sqrt() * accuracy / 2.0;
     let mut warnings = Vec::new();
     let bound_at = |r: usize| {
-        trotter::energy_bound(
-            trotter::step_error_bound(&groups, 2, dt / r as f64),
-            r,
-            dt,
-        )
+        trotter::energy_bound(trotter::step_error_bound(&groups, 2, dt / r as f64), r, dt)
     };
     // The bound falls like 1/r²: start from that estimate and walk up to the first r that meets it.
     let b1 = bound_at(1);
@@ -140,8 +136,14 @@ mod tests {
     #[test]
     fn proposal_meets_its_own_shares() {
         let mut h = PauliSum::new(3);
-        h.add(PauliString::from_factors(&[(0, Pauli::Z), (1, Pauli::Z)]).1, -1.0);
-        h.add(PauliString::from_factors(&[(1, Pauli::Z), (2, Pauli::Z)]).1, -1.0);
+        h.add(
+            PauliString::from_factors(&[(0, Pauli::Z), (1, Pauli::Z)]).1,
+            -1.0,
+        );
+        h.add(
+            PauliString::from_factors(&[(1, Pauli::Z), (2, Pauli::Z)]).1,
+            -1.0,
+        );
         for q in 0..3 {
             h.add(PauliString::single(q, Pauli::X), -0.8);
         }

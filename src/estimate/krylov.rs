@@ -170,7 +170,13 @@ pub const MIN_UNITARY_MODULUS: f64 = 0.9;
 /// `shift` (μ, e.g. the reference state's mean energy) centres the phases on 0, away from the
 /// branch cut of `arg` at ±π. Ritz values with `|λ| <` [`MIN_UNITARY_MODULUS`] are skipped.
 /// Needs `s_0..s_d`. `None` when nothing is kept.
-pub fn unitary_ritz(s: &[Complex64], dt: f64, d: usize, threshold: f64, shift: f64) -> Option<Ritz> {
+pub fn unitary_ritz(
+    s: &[Complex64],
+    dt: f64,
+    d: usize,
+    threshold: f64,
+    shift: f64,
+) -> Option<Ritz> {
     if s.len() <= d || d == 0 {
         return None;
     }
@@ -301,7 +307,10 @@ mod tests {
         // d = 1: the single Ritz value is S_1 itself, of modulus |cos((E1−E0)dt/2)| ≈ 0.95.
         let r1 = unitary_ritz(&s, dt, 1, 1e-10, 0.0).unwrap();
         assert!((r1.energy - (-s[1].arg() / dt)).abs() < 1e-12);
-        assert!(unitary_ritz(&s, dt, 4, 1e-10, 0.0).is_none(), "needs s_0..s_d");
+        assert!(
+            unitary_ritz(&s, dt, 4, 1e-10, 0.0).is_none(),
+            "needs s_0..s_d"
+        );
     }
 
     #[test]

@@ -225,7 +225,13 @@ pub fn auto_state(h: &PauliSum) -> AutoState {
             .collect();
         let e = |b: u64| -> f64 {
             diag.iter()
-                .map(|(m, c)| if (b & m).count_ones() % 2 == 1 { -c } else { *c })
+                .map(|(m, c)| {
+                    if (b & m).count_ones() % 2 == 1 {
+                        -c
+                    } else {
+                        *c
+                    }
+                })
                 .sum()
         };
         let best = (0u64..1 << n)
@@ -329,7 +335,11 @@ mod tests {
             .norm_sqr();
         assert!((e - dense.ground_energy).abs() < 1e-9, "{e}");
         assert!((w - dense.weight).abs() < 1e-6, "{w} vs {}", dense.weight);
-        assert!(dense.weight > 0.05 && dense.weight < 1.0, "{}", dense.weight);
+        assert!(
+            dense.weight > 0.05 && dense.weight < 1.0,
+            "{}",
+            dense.weight
+        );
     }
 
     #[test]

@@ -261,8 +261,7 @@ mod tests {
                     let mut ex = st.clone();
                     formula::apply_program(&mut st, &prog);
                     // e^{−iτH}|col⟩ from the spectrum.
-                    let c = exact.vectors.adjoint()
-                        * nalgebra::DVector::from_vec(ex.amps.clone());
+                    let c = exact.vectors.adjoint() * nalgebra::DVector::from_vec(ex.amps.clone());
                     let mut c2 = c.clone();
                     for (i, e) in exact.values.iter().enumerate() {
                         c2[i] *= Complex64::from_polar(1.0, -e * tau);
@@ -279,10 +278,16 @@ mod tests {
                     worst = worst.max(d);
                 }
                 let bound = step_error_bound(&groups, order, tau);
-                assert!(worst <= bound + 1e-12, "order {order} τ {tau}: {worst} > {bound}");
+                assert!(
+                    worst <= bound + 1e-12,
+                    "order {order} τ {tau}: {worst} > {bound}"
+                );
                 let shift = computed_shift(&h, order, steps, dt).unwrap();
                 let b = energy_bound(bound, steps, dt);
-                assert!(shift.abs() <= b + 1e-9, "order {order}: shift {shift} > {b}");
+                assert!(
+                    shift.abs() <= b + 1e-9,
+                    "order {order}: shift {shift} > {b}"
+                );
             }
         }
     }
@@ -290,7 +295,10 @@ mod tests {
     #[test]
     fn commuting_terms_have_no_trotter_bias() {
         let mut h = PauliSum::new(2);
-        h.add(PauliString::from_factors(&[(0, Pauli::Z), (1, Pauli::Z)]).1, 1.0);
+        h.add(
+            PauliString::from_factors(&[(0, Pauli::Z), (1, Pauli::Z)]).1,
+            1.0,
+        );
         h.add(PauliString::single(0, Pauli::Z), 0.5);
         let groups = formula::term_groups(&h);
         assert_eq!(step_error_bound(&groups, 2, 0.4), 0.0);

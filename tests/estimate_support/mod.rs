@@ -437,10 +437,16 @@ pub fn tfim_grid(rows: usize, cols: usize, j: f64, h: f64) -> PauliSum {
         for c in 0..cols {
             let q = r * cols + c;
             if c + 1 < cols {
-                s.add(PauliString::from_factors(&[(q, Pauli::Z), (q + 1, Pauli::Z)]).1, -j);
+                s.add(
+                    PauliString::from_factors(&[(q, Pauli::Z), (q + 1, Pauli::Z)]).1,
+                    -j,
+                );
             }
             if r + 1 < rows {
-                s.add(PauliString::from_factors(&[(q, Pauli::Z), (q + cols, Pauli::Z)]).1, -j);
+                s.add(
+                    PauliString::from_factors(&[(q, Pauli::Z), (q + cols, Pauli::Z)]).1,
+                    -j,
+                );
             }
             s.add(PauliString::single(q, Pauli::X), -h);
         }
@@ -477,7 +483,10 @@ pub fn random_sum(n: usize, terms: usize, seed: u64) -> PauliSum {
         if factors.is_empty() {
             continue;
         }
-        s.add(PauliString::from_factors(&factors).1, rng.gen_range(-1.0..1.0));
+        s.add(
+            PauliString::from_factors(&factors).1,
+            rng.gen_range(-1.0..1.0),
+        );
     }
     s
 }
@@ -586,8 +595,11 @@ pub fn survey_models() -> Vec<Model> {
     use phasewright::fermion::Encoding;
     let root = env!("CARGO_MANIFEST_DIR");
     let load = |p: &str| {
-        load_qubit_hamiltonian(&std::path::Path::new(root).join(p), Some(Encoding::JordanWigner))
-            .unwrap_or_else(|e| panic!("{p}: {e}"))
+        load_qubit_hamiltonian(
+            &std::path::Path::new(root).join(p),
+            Some(Encoding::JordanWigner),
+        )
+        .unwrap_or_else(|e| panic!("{p}: {e}"))
     };
     let (hub, _) = load("examples/hubbard_ring4.ham");
     let (ising8, _) = load("examples/tfim_chain8.ham");
