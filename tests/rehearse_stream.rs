@@ -55,7 +55,9 @@ fn streamed_counts_equal_the_whole_document_printer() {
     // More circuits than one chunk, so the chunk seams are exercised.
     assert!(v["counts"].as_object().unwrap().len() > 64);
     // No temporary file is left in the folder.
-    assert!(std::fs::read_dir(&dir)
+    assert!(std::fs::read_dir(&dir).unwrap().all(|e| !e
         .unwrap()
-        .all(|e| !e.unwrap().file_name().to_string_lossy().ends_with(".tmp")));
+        .file_name()
+        .to_string_lossy()
+        .ends_with(".tmp")));
 }

@@ -415,6 +415,27 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
     );
     let _ = writeln!(
         s,
+        "random-state sampling: {}",
+        match (r.sampling_relative, r.states_for_ten_percent) {
+            (Some(x), Some(n)) => format!(
+                "{:.1}% of ρ at its maximum from the spread over {} states (inside the band); \
+                 about {n} states give 10%",
+                100.0 * x,
+                r.num_states
+            ),
+            _ => "unknown with one state (use compile --samples N, N ≥ 2)".into(),
+        }
+    );
+    let _ = writeln!(
+        s,
+        "Trotter: {} (not in the band; a bound from the commutator-scaling step error)",
+        match r.trotter_band {
+            Some(b) => format!("|ρ_formula − ρ_H| ≤ {b:.3e} at every E"),
+            None => "unbounded at this dt".into(),
+        }
+    );
+    let _ = writeln!(
+        s,
         "E in {}; ρ in states per unit energy (integrates to 2^{} = {})",
         plan.energy_unit
             .as_deref()
@@ -546,6 +567,9 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
             "resolution_limit": r.resolution,
             "quadrature": "rectangle rule on t_k = k*dt, |k| <= K-1",
             "band": r.band_source,
+            "trotter_band": r.trotter_band,
+            "sampling_relative_at_peak": r.sampling_relative,
+            "states_for_ten_percent": r.states_for_ten_percent,
             "signal_loss": r.loss_method,
             "trace": series_json(&r.trace),
             "dos": (0..r.energies.len()).map(|i| json!({

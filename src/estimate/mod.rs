@@ -174,9 +174,29 @@ pub struct DosReport {
     /// Exact broadened spectrum when the plan is small enough to diagonalise.
     pub exact: Option<Vec<f64>>,
     pub band_source: &'static str,
+    /// Bound on the density change from the product formula at every energy (see
+    /// [`dos_trotter_band`]); `None` when the Trotter bound is vacuous.
+    pub trotter_band: Option<f64>,
+    /// Relative random-state sampling error at the density's maximum (spread over states /
+    /// √N over the density), with two or more states.
+    pub sampling_relative: Option<f64>,
+    /// Random states needed for a 10% sampling error at the maximum (`N·(r/0.1)²`).
+    pub states_for_ten_percent: Option<usize>,
     /// How signal loss was undone, when it was.
     pub loss_method: Option<&'static str>,
     pub warnings: Vec<String>,
+}
+
+/// Bound on `|ρ_σ^eff(E) − ρ_σ(E)|` from the Trotter bound `b`: the formula's quasi-energies can
+/// be matched one to one with the eigenvalues of `H`, each pair within `b` (Bhatia & Davis 1984,
+/// see [`trotter`]), and the normalised Gaussian `g_σ` changes by at most
+/// `b·max|g_σ'| = b/(σ²√(2πe))` per state, so the broadened density (which counts `2ⁿ` states)
+/// moves by at most `2ⁿ·b/(σ²√(2πe))`.
+pub fn dos_trotter_band(num_qubits: usize, bound: f64, sigma: f64) -> Option<f64> {
+    bound.is_finite().then(|| {
+        2f64.powi(num_qubits as i32) * bound
+            / (sigma * sigma * (2.0 * std::f64::consts::PI * std::f64::consts::E).sqrt())
+    })
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -701,7 +721,7 @@ fn density(
         .map(|&e| grid.density(&trace.values, e))
         .collect();
     let (std_error, band_source) = if n_states >= 2 {
-        let se = energies
+        let se: Vec<f64> = energies
             .iter()
             .map(|&e| {
                 let xs: Vec<f64> = per_state
@@ -734,6 +754,31 @@ fn density(
             .collect()
     });
     let mut warnings = Vec::new();
+    let trotter_band = trotter::plan_bias(plan)
+        .ok()
+        .and_then(|t| dos_trotter_band(plan.hamiltonian.num_qubits, t.energy_bound, sigma));
+    let peak = (0..density.len()).max_by(|&a, &b| density[a].total_cmp(&density[b]));
+    let sampling_relative = match peak {
+        Some(i) if n_states >= 2 && density[i] > 0.0 => Some(std_error[i] / density[i]),
+        _ => None,
+    };
+    let states_for_ten_percent =
+        sampling_relative.map(|r| ((n_states as f64) * (r / 0.1).powi(2)).ceil().max(1.0) as usize);
+    if n_states < 2 {
+        warnings.push(
+            "one random state: the band holds shot noise only; the random-state sampling error \
+             (often the largest) needs two or more states (compile --samples N)"
+                .into(),
+        );
+    } else if let (Some(r), Some(n)) = (sampling_relative, states_for_ten_percent) {
+        if r > 0.1 {
+            warnings.push(format!(
+                "the random-state sampling error at the density's maximum is {:.0}%; about {n} \
+                 states would bring it to 10% (it falls like 1/√N)",
+                100.0 * r
+            ));
+        }
+    }
     if let Some(w) = sanity::gram_warning(&trace, "the state-averaged trace series") {
         warnings.push(w);
     }
@@ -764,6 +809,9 @@ fn density(
         quadrature_bound,
         exact,
         band_source,
+        trotter_band,
+        sampling_relative,
+        states_for_ten_percent,
         loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
         warnings,
     })
