@@ -10,7 +10,6 @@
 //! `cargo bench --bench trust_survey` (SEEDS=n to change the seed count).
 
 #[path = "../tests/estimate_support/mod.rs"]
-#[allow(dead_code)]
 mod estimate_support;
 
 use estimate_support::*;

@@ -43,7 +43,7 @@ pub struct BudgetArgs {
     #[arg(long)]
     pub device: Option<PathBuf>,
     /// Output folder named in the printed compile command.
-    #[arg(long, default_value = "campaign")]
+    #[arg(short = 'o', long = "out", default_value = "campaign")]
     pub out: PathBuf,
 }
 

@@ -302,7 +302,7 @@ pub fn warnings(a: &Answer, accuracy: Option<f64>) -> Vec<String> {
     }
     if let Some(acc) = accuracy {
         let total = a.sigma_total();
-        if !(total <= acc) {
+        if total.is_nan() || total > acc {
             out.push(format!(
                 "the total error √(σ_stat² + σ_sys²) = {total:.2e} exceeds the requested \
                  accuracy {acc:.2e} (largest systematic part: {main})"
