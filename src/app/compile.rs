@@ -58,7 +58,9 @@ pub struct CompileArgs {
     pub hamiltonian: PathBuf,
     /// Reference state, one letter per qubit from `0 1 + - r l` (`ss`: a singlet on two
     /// neighbouring qubits), qubit 0 first; or `hf` for the
-    /// Hartree–Fock determinant of an integral file under the chosen encoding.
+    /// Hartree–Fock determinant of an integral file under the chosen encoding; or `auto`: the
+    /// Hartree–Fock determinant for integral files, else the lowest-energy product state found
+    /// (the method is printed).
     #[arg(long, allow_hyphen_values = true)]
     pub state: Option<String>,
     /// Fermion-to-qubit encoding for integral files and fermionic .ham files: jw or bk.
@@ -306,6 +308,7 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
             "one Trotter step spans Σ|c_j|·dt/steps = {step_angle:.3} rad (more than 2π): the product formula is far from e^(-iH·dt/steps), and energies more than π/dt apart cannot be told apart; use a smaller --dt or more --steps"
         ));
     }
+    let mut auto_note: Option<String> = None;
     let (family, states) = match args.measure {
         MeasureKind::Trace => {
             let samples = args.samples.unwrap_or(DEFAULT_SAMPLES);
@@ -326,7 +329,20 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
                     Some("e.g. --state 0101 (one letter per qubit, qubit 0 first)"),
                 )
             })?;
-            if state == "hf" {
+            if state == "auto" {
+                let (chosen, how) = match &chem {
+                    Some(c) => (
+                        c.hf_state.clone(),
+                        "the Hartree–Fock determinant of the integral file".to_string(),
+                    ),
+                    None => {
+                        let a = crate::estimate::reference::auto_state(&h);
+                        (a.state, a.method)
+                    }
+                };
+                auto_note = Some(format!("--state auto chose {chosen}: {how}"));
+                state = chosen;
+            } else if state == "hf" {
                 state = chem.as_ref().map(|c| c.hf_state.clone()).ok_or_else(|| {
                     Error::usage(Code::UsageConflict,
                         "--state hf needs an integral (FCIDUMP) input, which says how many electrons there are",
@@ -407,6 +423,13 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     super::io::check_out_folder(&args.out, args.force)?;
     write_campaign(&args.out, &mut compiled)?;
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
+    let reference = (family != Family::Trace)
+        .then(|| reference_report(&h, &compiled.plan.states[0], auto_note.as_deref()));
+    if let Some(r) = &reference {
+        for w in &r.warnings {
+            g.warn(w);
+        }
+    }
     if g.json {
         let mut v = cost_json(&compiled.plan);
         v["control"] = serde_json::json!(control);
@@ -415,6 +438,9 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         }
         if let Some(gs) = &grouping {
             v["grouping"] = serde_json::json!(gs);
+        }
+        if let Some(r) = &reference {
+            v["reference"] = r.json.clone();
         }
         return g.json(&v);
     }
@@ -448,6 +474,9 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
             gs.terms, gs.groups, gs.circuits, gs.circuits_one_term_each
         );
     }
+    if let Some(r) = &reference {
+        text += &r.text;
+    }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
     g.say(&text)
 }
@@ -478,6 +507,71 @@ fn control_line(control: Control, why_not: Option<&NotAnEigenstate>) -> String {
         (Control::Prep, _) => "Control: prep (the ancilla controls only the state preparation; the evolution runs uncontrolled and the known phase of |0…0⟩ is removed on the ancilla).\n".into(),
         (Control::Evolution, Some(e)) => format!("Control: evolution (the ancilla controls every rotation; prep does not apply: {e}).\n"),
         (Control::Evolution, None) => "Control: evolution (the ancilla controls every rotation).\n".into(),
+    }
+}
+
+/// What `compile` says about the reference state.
+struct ReferenceReport {
+    text: String,
+    json: serde_json::Value,
+    warnings: Vec<String>,
+}
+
+fn reference_report(
+    h: &crate::pauli::PauliSum,
+    state: &str,
+    auto: Option<&str>,
+) -> ReferenceReport {
+    use crate::estimate::reference;
+    let mean = reference::mean_energy(h, state);
+    let weight = reference::ground_weight(h, state);
+    let mut text = String::new();
+    let mut warnings = Vec::new();
+    if let Some(a) = auto {
+        text += &format!("{a}.\n");
+    }
+    text += &format!(
+        "Reference state {state}: ⟨ψ|H|ψ⟩ = {}",
+        mean.map_or("not computed (too wide with singlets)".into(), |e| format!(
+            "{e:.10}"
+        ))
+    );
+    match &weight {
+        Some(w) => {
+            text += &format!(
+                "; ground-state weight |⟨ψ|E0⟩|² = {:.4} (E0 = {:.10}, {}).\n",
+                w.weight, w.ground_energy, w.method
+            );
+            if w.weight < reference::LOW_WEIGHT {
+                warnings.push(format!(
+                    "the reference state {state} has ground-state weight {:.4} < {}: a Krylov \
+                     estimate converges slowly or to an excited state; try --state auto or a \
+                     state closer to the ground state",
+                    w.weight,
+                    reference::LOW_WEIGHT
+                ));
+            }
+        }
+        None => {
+            text += &format!(
+                "; ground-state weight not computed (more than {} qubits).\n",
+                reference::WEIGHT_MAX_QUBITS
+            )
+        }
+    }
+    let json = serde_json::json!({
+        "state": state,
+        "auto": auto,
+        "mean_energy": mean,
+        "ground_weight": weight.as_ref().map(|w| w.weight),
+        "ground_energy": weight.as_ref().map(|w| w.ground_energy),
+        "weight_method": weight.as_ref().map(|w| w.method),
+        "low_weight": weight.as_ref().map(|w| w.weight < reference::LOW_WEIGHT),
+    });
+    ReferenceReport {
+        text,
+        json,
+        warnings,
     }
 }
 

@@ -18,7 +18,7 @@ pub fn emit(text: &str) -> Result<()> {
 }
 
 /// [`emit`] for bytes.
-fn emit_bytes(bytes: &[u8]) -> Result<()> {
+pub fn emit_bytes(bytes: &[u8]) -> Result<()> {
     let mut out = std::io::stdout().lock();
     out.write_all(bytes)
         .and_then(|()| out.flush())
@@ -288,14 +288,26 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
     check_campaign_files(dir, plan)?;
     plan.circuits
         .iter()
-        .map(|e| {
+        .map(|e| read_plan_circuit(dir, e))
+        .collect()
+}
+
+/// Reads, checks and parses one circuit file of a plan (as [`read_plan_circuits`] does for
+/// each; call [`check_campaign_files`] first), so callers can hold one circuit at a time.
+pub fn read_plan_circuit(
+    dir: &Path,
+    e: &crate::family::plan::CircuitEntry,
+) -> Result<crate::circuit::Circuit> {
+    {
+        {
             let path = dir.join(&e.file);
             let bytes = campaign_file(dir, e)?;
             if let Some(d) = changed_file(dir, e, &bytes) {
                 return Err(Error::input(d));
             }
             let text = String::from_utf8(bytes).map_err(|_| {
-                Error::input(Diagnostic::whole_file(Code::QasmSyntax,
+                Error::input(Diagnostic::whole_file(
+                    Code::QasmSyntax,
                     &path.display().to_string(),
                     "not a text file",
                     Some("a circuit file is OpenQASM 3 text; recompile the campaign".into()),
@@ -321,18 +333,21 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
                 .flat_map(|r| &r.bits)
                 .find(|b| !measured.contains(b))
             {
-                return Err(Error::input(Diagnostic::whole_file(Code::QasmPlan,
+                return Err(Error::input(Diagnostic::whole_file(
+                    Code::QasmPlan,
                     &name,
                     format!(
                         "never measures classical bit {b}, which plan.json reads for circuit `{}`",
                         e.id
                     ),
-                    Some("the file and the plan come from different compilations; recompile".into()),
+                    Some(
+                        "the file and the plan come from different compilations; recompile".into(),
+                    ),
                 )));
             }
             Ok(c)
-        })
-        .collect()
+        }
+    }
 }
 
 /// Reads and parses a `.dev` device file (`-`: stdin); problems are diagnostics (exit 2),

@@ -6,6 +6,7 @@
 //! or the standard streams**; every write to stdout goes through [`Global::say`] /
 //! [`Global::json`], so a closed pipe is a quiet exit, never a panic.
 
+pub mod budget;
 pub mod compile;
 pub mod convert;
 pub mod estimate;
@@ -89,6 +90,7 @@ impl Global {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
+    Budget(budget::BudgetArgs),
     Compile(compile::CompileArgs),
     /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
     #[command(after_help = convert::EXAMPLES)]
@@ -131,6 +133,7 @@ pub fn usage_code(kind: clap::error::ErrorKind) -> Option<crate::lang::codes::Co
 pub fn run(cli: Cli) -> Result<()> {
     let g = cli.global;
     match cli.command {
+        Command::Budget(a) => budget::run(&a, &g),
         Command::Compile(a) => compile::run(&a, &g),
         Command::Convert(a) => convert::run(a, &g),
         Command::Estimate(a) => estimate::run(&a, &g),

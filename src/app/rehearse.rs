@@ -3,9 +3,11 @@
 //! older scripts).
 //!
 //! In: a validated plan and its unchanged circuit files. Out: one counts file (or stdout), the
-//! same bytes for the same seed whatever the number of threads.
+//! same bytes for the same seed whatever the number of threads. Circuits are streamed a chunk
+//! at a time (read, simulated, sampled, written in plan order), so memory does not grow with
+//! the number of circuits.
 
-use super::io::{read_plan, read_plan_circuits};
+use super::io::{read_plan, read_plan_circuit};
 use crate::error::{Error, Result};
 use crate::lang::codes::Code;
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
@@ -49,6 +51,112 @@ pub struct RehearseArgs {
     pub out: Option<PathBuf>,
 }
 
+/// Fewest circuits sampled per streamed chunk.
+pub const CHUNK_MIN: usize = 16;
+
+/// One circuit's entry of the counts document as serde_json's pretty printer writes it inside
+/// `"counts"` (four spaces before the id, six before each bitstring), with the separator.
+pub fn circuit_text(id: &str, counts: &BTreeMap<String, u64>, first: bool) -> String {
+    let key = serde_json::to_string(id).expect("a string serialises");
+    let mut s = String::with_capacity(32 + 24 * counts.len());
+    s.push_str(if first { "\n    " } else { ",\n    " });
+    s.push_str(&key);
+    if counts.is_empty() {
+        s.push_str(": {}");
+        return s;
+    }
+    s.push_str(": {");
+    for (i, (b, n)) in counts.iter().enumerate() {
+        s.push_str(if i == 0 { "\n      " } else { ",\n      " });
+        s.push_str(&serde_json::to_string(b).expect("a string serialises"));
+        s.push_str(": ");
+        s.push_str(&n.to_string());
+    }
+    s.push_str("\n    }");
+    s
+}
+
+/// Where the streamed counts go: stdout, or a temporary file renamed into place at the end
+/// (so no half-written counts file is left behind).
+enum Sink {
+    Stdout,
+    File {
+        tmp: PathBuf,
+        w: std::io::BufWriter<std::fs::File>,
+    },
+}
+
+impl Sink {
+    fn open(out: &std::path::Path, to_stdout: bool) -> Result<Sink> {
+        if to_stdout {
+            return Ok(Sink::Stdout);
+        }
+        let dir = out
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(std::path::Path::new("."));
+        let name = out
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+        let f = std::fs::File::create(&tmp).map_err(|source| Error::Io {
+            path: out.display().to_string(),
+            source,
+            reading: false,
+        })?;
+        Ok(Sink::File {
+            tmp,
+            w: std::io::BufWriter::new(f),
+        })
+    }
+
+    fn write(&mut self, text: &str) -> Result<()> {
+        match self {
+            Sink::Stdout => super::io::emit_bytes(text.as_bytes()),
+            Sink::File { tmp, w } => {
+                use std::io::Write;
+                w.write_all(text.as_bytes()).map_err(|source| {
+                    let _ = std::fs::remove_file(&*tmp);
+                    Error::Io {
+                        path: tmp.display().to_string(),
+                        source,
+                        reading: false,
+                    }
+                })
+            }
+        }
+    }
+
+    /// Removes the temporary file after a failure.
+    fn abort(self) {
+        if let Sink::File { tmp, w } = self {
+            drop(w);
+            let _ = std::fs::remove_file(tmp);
+        }
+    }
+
+    fn finish(self, out: &std::path::Path) -> Result<()> {
+        match self {
+            Sink::Stdout => Ok(()),
+            Sink::File { tmp, w } => {
+                let werr = |source| Error::Io {
+                    path: out.display().to_string(),
+                    source,
+                    reading: false,
+                };
+                let f = w.into_inner().map_err(|e| werr(e.into_error()))?;
+                f.sync_all().map_err(werr)?;
+                drop(f);
+                std::fs::rename(&tmp, out).map_err(|source| {
+                    let _ = std::fs::remove_file(&tmp);
+                    werr(source)
+                })
+            }
+        }
+    }
+}
+
 /// SplitMix64 finaliser: decorrelates per-circuit seeds derived from one user seed.
 fn mix(mut z: u64) -> u64 {
     z = z.wrapping_add(0x9e37_79b9_7f4a_7c15);
@@ -86,50 +194,68 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
             Some("compile with --device D.dev, or drop --noise"),
         ));
     }
-    let circuits = read_plan_circuits(&args.dir, &plan)?;
+    super::io::check_campaign_files(&args.dir, &plan)?;
     let bar = g.progress(
-        circuits.len(),
+        plan.circuits.len(),
         "sampling {bar:40} {pos}/{len} circuits ({eta})",
     );
-    let results: Vec<Result<(String, BTreeMap<String, u64>)>> = plan
-        .circuits
-        .par_iter()
-        .zip(circuits.par_iter())
-        .enumerate()
-        .map(|(i, (e, c))| {
-            let (small, _) = c.compacted();
-            check_fits(small.num_qubits, 2)
-                .map_err(|m| Error::usage(Code::UsageLimit, format!("{}: {m}", e.id), None))?;
-            let state = sim::run(&small, State::zero(small.num_qubits));
-            let mut p = measured_distribution(&small, &state);
-            if args.noise {
-                p = depolarise(&p, e.costs.success_probability.unwrap_or(1.0));
-            }
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(i as u64)));
-            let counts = sample_counts(&p, args.shots, &mut rng)
-                .into_iter()
-                .map(|(k, n)| (bitstring(k, small.num_clbits), n))
+    // Streamed: circuits are read, simulated and sampled a chunk at a time (in parallel inside
+    // the chunk) and their counts written in plan order before the next chunk is read, so
+    // memory holds one chunk, not the campaign. The text is the same bytes serde_json's
+    // pretty printer gives for the whole document (two-space indent, plan order, bitstrings
+    // sorted), which the test of this module checks.
+    let mut sink = Sink::open(&out, to_stdout)?;
+    let streamed = (|| -> Result<()> {
+        sink.write(&format!(
+        "{{\n  \"format\": \"phasewright-counts/1\",\n  \"bit_order\": \"first\",\n  \"shots\": {},\n  \"counts\": {}",
+        args.shots,
+        if plan.circuits.is_empty() { "{}" } else { "{" }
+    ))?;
+        let chunk = (4 * rayon::current_num_threads()).max(CHUNK_MIN);
+        for (ci, entries) in plan.circuits.chunks(chunk).enumerate() {
+            let texts: Vec<Result<String>> = entries
+                .par_iter()
+                .enumerate()
+                .map(|(j, e)| {
+                    let i = ci * chunk + j;
+                    let c = read_plan_circuit(&args.dir, e)?;
+                    let (small, _) = c.compacted();
+                    check_fits(small.num_qubits, 2).map_err(|m| {
+                        Error::usage(Code::UsageLimit, format!("{}: {m}", e.id), None)
+                    })?;
+                    let state = sim::run(&small, State::zero(small.num_qubits));
+                    let mut p = measured_distribution(&small, &state);
+                    if args.noise {
+                        p = depolarise(&p, e.costs.success_probability.unwrap_or(1.0));
+                    }
+                    let mut rng =
+                        rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(i as u64)));
+                    let counts: BTreeMap<String, u64> = sample_counts(&p, args.shots, &mut rng)
+                        .into_iter()
+                        .map(|(k, n)| (bitstring(k, small.num_clbits), n))
+                        .collect();
+                    bar.inc(1);
+                    Ok(circuit_text(&e.id, &counts, i == 0))
+                })
                 .collect();
-            bar.inc(1);
-            Ok((e.id.clone(), counts))
+            for t in texts {
+                sink.write(&t?)?;
+            }
+        }
+        sink.write(if plan.circuits.is_empty() {
+            "\n}\n"
+        } else {
+            "\n  }\n}\n"
         })
-        .collect();
+    })();
     bar.finish_and_clear();
-    let mut all = serde_json::Map::new();
-    for r in results {
-        let (id, counts) = r?;
-        all.insert(id, serde_json::to_value(counts).expect("serialisable"));
+    match streamed {
+        Ok(()) => sink.finish(&out)?,
+        Err(e) => {
+            sink.abort();
+            return Err(e);
+        }
     }
-    let doc = serde_json::json!({
-        "format": "phasewright-counts/1",
-        "bit_order": "first",
-        "shots": args.shots,
-        "counts": all,
-    });
-    super::io::write_output(
-        &out,
-        (serde_json::to_string_pretty(&doc).expect("serialisable") + "\n").as_bytes(),
-    )?;
     if to_stdout {
         return Ok(());
     }

@@ -143,6 +143,72 @@ pub fn sine_energies(s: &[Complex64], dt: f64, threshold: f64, shift: f64) -> Ve
         .collect()
 }
 
+/// Smallest modulus `|λ|` a Ritz value of the unitary pencil needs to count as an energy
+/// (see [`unitary_ritz`]). A compression of a unitary has its Ritz values inside the unit
+/// disk; one close to an eigenvector of `U` has `|λ| ≈ 1`, while `|λ| ≪ 1` means the Ritz
+/// vector mixes widely separated phases and its argument names no energy. The value is a
+/// choice of ours (a mixture of two phases `Δ` apart has `|λ| = |cos(Δ/2)|`, so 0.9 admits
+/// mixtures within ±26° of one phase).
+pub const MIN_UNITARY_MODULUS: f64 = 0.9;
+
+/// Lowest quasi-energy of the *compiled* step `U` in dimension `d`, from overlaps alone: the
+/// unitary pencil `(T, S)` with `S_{jk} = S_{k−j}` and `T_{jk} = ⟨φ_j|U|φ_k⟩ = S_{k−j+1}`.
+///
+/// Why it is consistent: `S_k = ⟨ψ|U^k|ψ⟩` holds for whatever unitary the circuits apply, so
+/// after thresholding (`W = V_ε Λ_ε^{−1/2}`, orthonormal Krylov directions) `W†TW` is the
+/// compression of `U` itself to the kept subspace; no commutation of `H` with `U` is assumed,
+/// unlike the Toeplitz `(H, S)` form. Its eigenvalues `λ` lie in the numerical range of `U`,
+/// the convex hull of its eigenvalues `e^{−iε_l dt}`; when those occupy an arc shorter than
+/// `π` (quasi-energy width below `π/dt`), `arg λ` lies inside the arc, so the quasi-energy
+/// `ε = μ − arg(λ e^{iμdt})/dt` is never below the lowest quasi-energy of `U` (with exact
+/// data). Quasi-energies are the eigenvalues of the formula's effective Hamiltonian
+/// `H_eff = i·log(U)/dt`; how far they sit from those of `H` is the Trotter bias, bounded in
+/// [`super::trotter`]. The unitary Krylov pencil is that of Cortes & Gray, "Quantum Krylov
+/// subspace algorithms for ground- and excited-state energy estimation", Phys. Rev. A 105,
+/// 022417 (2022), and Klymko et al., PRX Quantum 3, 020323 (2022) (cited from memory).
+///
+/// `shift` (μ, e.g. the reference state's mean energy) centres the phases on 0, away from the
+/// branch cut of `arg` at ±π. Ritz values with `|λ| <` [`MIN_UNITARY_MODULUS`] are skipped.
+/// Needs `s_0..s_d`. `None` when nothing is kept.
+pub fn unitary_ritz(
+    s: &[Complex64],
+    dt: f64,
+    d: usize,
+    threshold: f64,
+    shift: f64,
+) -> Option<Ritz> {
+    if s.len() <= d || d == 0 {
+        return None;
+    }
+    let shifted: Vec<Complex64> = s[..=d]
+        .iter()
+        .enumerate()
+        .map(|(k, x)| x * Complex64::from_polar(1.0, shift * k as f64 * dt))
+        .collect();
+    let gram = toeplitz(&shifted, d);
+    let gram = (&gram + gram.adjoint()) * Complex64::new(0.5, 0.0);
+    let eig = gram.symmetric_eigen();
+    let kept: Vec<usize> = (0..d).filter(|&i| eig.eigenvalues[i] > threshold).collect();
+    if kept.is_empty() {
+        return None;
+    }
+    let w = DMatrix::from_fn(d, kept.len(), |r, c| {
+        eig.eigenvectors[(r, kept[c])] / eig.eigenvalues[kept[c]].sqrt()
+    });
+    let t = DMatrix::from_fn(d, d, |j, k| at(&shifted, k as i64 - j as i64 + 1));
+    let a = w.adjoint() * t * &w;
+    let lambdas = a.schur().eigenvalues()?;
+    let low = lambdas
+        .iter()
+        .filter(|l| l.norm() >= MIN_UNITARY_MODULUS)
+        .map(|l| shift - l.arg() / dt)
+        .fold(f64::INFINITY, f64::min);
+    low.is_finite().then_some(Ritz {
+        energy: low,
+        kept: kept.len(),
+    })
+}
+
 /// Default threshold `ε = max(σ̄·d, 1e-10)` for dimension `d`, where `σ̄` is the root mean
 /// square of the standard errors `|δS_k|` (complex, both parts) over `k ≥ 1`.
 ///
@@ -219,6 +285,32 @@ mod tests {
         assert!((sine[1].unwrap().energy - e0).abs() < 1e-10);
         let sine = sine_energies(&s, dt, 1e-10, 0.7);
         assert!((sine[1].unwrap().energy - e0).abs() < 1e-10);
+    }
+
+    #[test]
+    fn unitary_pencil_recovers_two_quasi_energies_and_needs_no_commutation() {
+        // |ψ⟩ = (|E0⟩ + |E1⟩)/√2 of any unitary with eigenphases −E·dt: S_k = ½(e^{−iE0 k dt}
+        // + e^{−iE1 k dt}). Two Krylov vectors span both eigenvectors, so the compression is
+        // exact and the lowest quasi-energy is E0 (to rounding, 1e-10).
+        let dt = 0.3;
+        let (e0, e1) = (-1.2f64, 0.9f64);
+        let s: Vec<Complex64> = (0..4)
+            .map(|k| {
+                let t = k as f64 * dt;
+                0.5 * (Complex64::from_polar(1.0, -e0 * t) + Complex64::from_polar(1.0, -e1 * t))
+            })
+            .collect();
+        for shift in [0.0, -0.15, 0.4] {
+            let r = unitary_ritz(&s, dt, 2, 1e-10, shift).unwrap();
+            assert!((r.energy - e0).abs() < 1e-10, "shift {shift}: {}", r.energy);
+        }
+        // d = 1: the single Ritz value is S_1 itself, of modulus |cos((E1−E0)dt/2)| ≈ 0.95.
+        let r1 = unitary_ritz(&s, dt, 1, 1e-10, 0.0).unwrap();
+        assert!((r1.energy - (-s[1].arg() / dt)).abs() < 1e-12);
+        assert!(
+            unitary_ritz(&s, dt, 4, 1e-10, 0.0).is_none(),
+            "needs s_0..s_d"
+        );
     }
 
     #[test]

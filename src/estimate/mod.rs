@@ -23,13 +23,17 @@
 //! deviation of the replicates. Replicate `b` uses ChaCha8 stream `b` of the seed, so results
 //! do not depend on the thread count.
 
+pub mod answer;
+pub mod budget;
 pub mod counts;
 pub mod dos;
 pub mod expect;
 pub mod krylov;
 pub mod overlap_only;
+pub mod reference;
 pub mod resample;
 pub mod sanity;
+pub mod trotter;
 
 use crate::family::plan::{Family, Plan};
 use crate::pauli::{Pauli, PauliSum};
@@ -66,6 +70,8 @@ pub struct Config {
     pub dos_points: usize,
     /// Divide each circuit's reads by its calibrated success probability (`--undo-loss`).
     pub undo_loss: bool,
+    /// Requested accuracy of the final answer (`--accuracy`); a warning when missed.
+    pub accuracy: Option<f64>,
 }
 
 impl Default for Config {
@@ -78,6 +84,7 @@ impl Default for Config {
             exact: None,
             dos_points: DEFAULT_DOS_POINTS,
             undo_loss: false,
+            accuracy: None,
         }
     }
 }
@@ -132,6 +139,13 @@ pub struct EnergyReport {
     pub gram_min: (f64, f64),
     /// How signal loss was undone, when it was.
     pub loss_method: Option<&'static str>,
+    /// The recommended dimension, threshold and energy with σ_stat and σ_sys.
+    pub answer: Option<answer::Answer>,
+    /// Trotter bias of the ground energy: bound, and the computed shift for small plans.
+    pub trotter: Option<trotter::TrotterBias>,
+    /// `|⟨ψ|E0⟩|²` of the reference state, when computable (≤ 14 qubits).
+    pub reference_weight: Option<f64>,
+    pub accuracy: Option<f64>,
     pub warnings: Vec<String>,
 }
 
@@ -160,9 +174,29 @@ pub struct DosReport {
     /// Exact broadened spectrum when the plan is small enough to diagonalise.
     pub exact: Option<Vec<f64>>,
     pub band_source: &'static str,
+    /// Bound on the density change from the product formula at every energy (see
+    /// [`dos_trotter_band`]); `None` when the Trotter bound is vacuous.
+    pub trotter_band: Option<f64>,
+    /// Relative random-state sampling error at the density's maximum (spread over states /
+    /// √N over the density), with two or more states.
+    pub sampling_relative: Option<f64>,
+    /// Random states needed for a 10% sampling error at the maximum (`N·(r/0.1)²`).
+    pub states_for_ten_percent: Option<usize>,
     /// How signal loss was undone, when it was.
     pub loss_method: Option<&'static str>,
     pub warnings: Vec<String>,
+}
+
+/// Bound on `|ρ_σ^eff(E) − ρ_σ(E)|` from the Trotter bound `b`: the formula's quasi-energies can
+/// be matched one to one with the eigenvalues of `H`, each pair within `b` (Bhatia & Davis 1984,
+/// see [`trotter`]), and the normalised Gaussian `g_σ` changes by at most
+/// `b·max|g_σ'| = b/(σ²√(2πe))` per state, so the broadened density (which counts `2ⁿ` states)
+/// moves by at most `2ⁿ·b/(σ²√(2πe))`.
+pub fn dos_trotter_band(num_qubits: usize, bound: f64, sigma: f64) -> Option<f64> {
+    bound.is_finite().then(|| {
+        2f64.powi(num_qubits as i32) * bound
+            / (sigma * sigma * (2.0 * std::f64::consts::PI * std::f64::consts::E).sqrt())
+    })
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -459,8 +493,9 @@ fn energies(
         ));
     }
 
-    // Bootstrap replicates: each a vector over dimensions of (krylov, pencil).
-    let reps: Vec<Vec<Replicate>> = (0..cfg.bootstrap)
+    // Bootstrap replicates: each a vector over dimensions of (krylov, pencil), and the
+    // replicate's overlap series for the final answer.
+    let both: Vec<(Vec<Replicate>, Option<Series>)> = (0..cfg.bootstrap)
         .into_par_iter()
         .map(|b| {
             let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -474,21 +509,26 @@ fn energies(
                 })
                 .collect();
             match energy_inputs(plan, table, &w) {
-                Ok((s2, h2)) => point_estimates_shifted(
-                    &s2,
-                    h2.as_ref().map(|(h, mu)| (h, *mu)),
-                    dt,
-                    &eps,
-                    noise,
-                    center,
-                )
-                .into_iter()
-                .map(|(k, p)| (k.map(|r| r.energy), p))
-                .collect(),
-                Err(_) => Vec::new(),
+                Ok((s2, h2)) => (
+                    point_estimates_shifted(
+                        &s2,
+                        h2.as_ref().map(|(h, mu)| (h, *mu)),
+                        dt,
+                        &eps,
+                        noise,
+                        center,
+                    )
+                    .into_iter()
+                    .map(|(k, p)| (k.map(|r| r.energy), p))
+                    .collect(),
+                    Some(s2),
+                ),
+                Err(_) => (Vec::new(), None),
             }
         })
         .collect();
+    let (reps, rep_series): (Vec<Vec<Replicate>>, Vec<Option<Series>>) = both.into_iter().unzip();
+    let rep_series: Vec<Series> = rep_series.into_iter().flatten().collect();
     let spread = |pick: &dyn Fn(&Replicate) -> Option<f64>, d: usize| {
         let xs: Vec<f64> = reps
             .iter()
@@ -553,6 +593,47 @@ fn energies(
             None => (None, None),
         },
     };
+    // A reference without ground-state weight cannot show E0: say so rather than print a number
+    // that looks like it.
+    let reference_weight = plan
+        .states
+        .first()
+        .and_then(|st| Some((st, plan_hamiltonian(plan).ok()?)))
+        .and_then(|(st, h)| reference::ground_weight(&h, st));
+    if let Some(w) = &reference_weight {
+        if w.weight < reference::LOW_WEIGHT {
+            warnings.push(format!(
+                "the reference state {} has ground-state weight |⟨ψ|E0⟩|² = {:.4} < {} ({}): \
+                 the energies below converge slowly or to an excited state, whatever their \
+                 error bars say; recompile with a better --state (e.g. --state auto)",
+                plan.states[0],
+                w.weight,
+                reference::LOW_WEIGHT,
+                w.method
+            ));
+        }
+    }
+    // One final answer from the consistent (unitary) pencil, with its systematic parts.
+    let trot = trotter::plan_bias(plan).ok();
+    let ans = trot.as_ref().and_then(|tb| {
+        answer::recommend(&answer::Inputs {
+            s: &s,
+            replicates: &rep_series,
+            dt,
+            shift: center,
+            constant: c,
+            trotter: tb,
+            seed: cfg.seed,
+        })
+    });
+    match &ans {
+        Some(a) => warnings.extend(answer::warnings(a, cfg.accuracy)),
+        None => warnings.push(
+            "no final answer: the unitary pencil kept no Ritz value at any dimension (the \
+             overlaps are too noisy or the plan has fewer than 2 time points)"
+                .into(),
+        ),
+    }
     // Reported as an estimate of h_k itself: (h_k − μS_k) + μS_k.
     let h_reported = h.map(|(h, mu)| unshift(&h, &s, mu));
     Ok(EnergyReport {
@@ -570,6 +651,10 @@ fn energies(
         bound,
         gram_min,
         loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
+        answer: ans,
+        trotter: trot,
+        reference_weight: reference_weight.map(|w| w.weight),
+        accuracy: cfg.accuracy,
         warnings,
     })
 }
@@ -641,7 +726,7 @@ fn density(
         .map(|&e| grid.density(&trace.values, e))
         .collect();
     let (std_error, band_source) = if n_states >= 2 {
-        let se = energies
+        let se: Vec<f64> = energies
             .iter()
             .map(|&e| {
                 let xs: Vec<f64> = per_state
@@ -674,6 +759,31 @@ fn density(
             .collect()
     });
     let mut warnings = Vec::new();
+    let trotter_band = trotter::plan_bias(plan)
+        .ok()
+        .and_then(|t| dos_trotter_band(plan.hamiltonian.num_qubits, t.energy_bound, sigma));
+    let peak = (0..density.len()).max_by(|&a, &b| density[a].total_cmp(&density[b]));
+    let sampling_relative = match peak {
+        Some(i) if n_states >= 2 && density[i] > 0.0 => Some(std_error[i] / density[i]),
+        _ => None,
+    };
+    let states_for_ten_percent =
+        sampling_relative.map(|r| ((n_states as f64) * (r / 0.1).powi(2)).ceil().max(1.0) as usize);
+    if n_states < 2 {
+        warnings.push(
+            "one random state: the band holds shot noise only; the random-state sampling error \
+             (often the largest) needs two or more states (compile --samples N)"
+                .into(),
+        );
+    } else if let (Some(r), Some(n)) = (sampling_relative, states_for_ten_percent) {
+        if r > 0.1 {
+            warnings.push(format!(
+                "the random-state sampling error at the density's maximum is {:.0}%; about {n} \
+                 states would bring it to 10% (it falls like 1/√N)",
+                100.0 * r
+            ));
+        }
+    }
     if let Some(w) = sanity::gram_warning(&trace, "the state-averaged trace series") {
         warnings.push(w);
     }
@@ -704,6 +814,9 @@ fn density(
         quadrature_bound,
         exact,
         band_source,
+        trotter_band,
+        sampling_relative,
+        states_for_ten_percent,
         loss_method: cfg.undo_loss.then_some(LOSS_CALIBRATED),
         warnings,
     })

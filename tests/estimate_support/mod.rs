@@ -54,8 +54,24 @@ pub fn heisenberg(n: usize, j: f64, constant: f64) -> PauliSum {
 /// A product state from letters `0 1 + - r l`, qubit 0 first (qubit k = bit k of the index).
 pub fn product_state(spec: &str) -> DVector<Complex64> {
     let s = std::f64::consts::FRAC_1_SQRT_2;
+    let letters: Vec<char> = spec.chars().collect();
     let mut v = DVector::from_element(1, c64(1.0, 0.0));
-    for (q, ch) in spec.chars().enumerate() {
+    let mut q = 0;
+    while q < letters.len() {
+        let ch = letters[q];
+        if ch == 's' {
+            // Singlet (|01⟩ − |10⟩)/√2 on qubits (q, q+1), qubit q first, as src/family's
+            // state preparation writes it.
+            let dim = v.len();
+            let mut w = DVector::from_element(4 * dim, c64(0.0, 0.0));
+            for i in 0..dim {
+                w[i | (1 << (q + 1))] = v[i] * c64(s, 0.0);
+                w[i | (1 << q)] = v[i] * c64(-s, 0.0);
+            }
+            v = w;
+            q += 2;
+            continue;
+        }
         let (a0, a1) = match ch {
             '0' => (c64(1.0, 0.0), c64(0.0, 0.0)),
             '1' => (c64(0.0, 0.0), c64(1.0, 0.0)),
@@ -72,6 +88,7 @@ pub fn product_state(spec: &str) -> DVector<Complex64> {
             w[i | (1 << q)] = v[i] * a1;
         }
         v = w;
+        q += 1;
     }
     v
 }
@@ -192,6 +209,46 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
 
 /// Builds an ideal campaign for `h` (family `kind`) with `points` time points `dt` apart.
 pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usize) -> Campaign {
+    campaign_formula(h, states, kind, dt, points, None)
+}
+
+/// `S(dt/r)^{r·k} ψ` for the product formula phasewright compiles (`formula::evolution` over
+/// `formula::order_terms`, the identity coefficient dropped), applied exactly to the state.
+pub fn trotter_evolve(
+    h: &PauliSum,
+    psi: &DVector<Complex64>,
+    dt: f64,
+    k: usize,
+    order: u32,
+    steps: usize,
+) -> DVector<Complex64> {
+    let mut hp = h.clone();
+    hp.constant = 0.0;
+    let terms = phasewright::formula::order_terms(&hp);
+    let prog = phasewright::formula::evolution(
+        &terms,
+        phasewright::formula::Order::from_number(order).expect("order 1, 2 or 4"),
+        k as f64 * dt,
+        k * steps,
+    );
+    let mut st = phasewright::sim::State {
+        n: h.num_qubits,
+        amps: psi.iter().copied().collect(),
+    };
+    phasewright::formula::apply_program(&mut st, &prog);
+    DVector::from_vec(st.amps)
+}
+
+/// As [`campaign`]; with `formula = Some((order, steps_per_dt))` the time evolution is the
+/// compiled product formula (see [`trotter_evolve`]) instead of the exact `e^{−iH'kdt}`.
+pub fn campaign_formula(
+    h: &PauliSum,
+    states: &[&str],
+    kind: Kind,
+    dt: f64,
+    points: usize,
+    formula: Option<(u32, usize)>,
+) -> Campaign {
     let n = h.num_qubits;
     let ex = Exact::new(h);
     let terms = h.term_list();
@@ -209,7 +266,10 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
         let psi = product_state(spec);
         let k0 = if kind == Kind::Krylov { 0 } else { 1 };
         for k in k0..points {
-            let phi = ex.evolve(&psi, k as f64 * dt);
+            let phi = match formula {
+                None => ex.evolve(&psi, k as f64 * dt),
+                Some((order, steps)) => trotter_evolve(h, &psi, dt, k, order, steps),
+            };
             for part in [Part::Re, Part::Im] {
                 if k == 0 && part == Part::Im {
                     continue;
@@ -286,8 +346,8 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
                 .collect(),
         },
         formula: FormulaInfo {
-            order: 2,
-            steps_per_dt: 1,
+            order: formula.map_or(2, |f| f.0),
+            steps_per_dt: formula.map_or(1, |f| f.1),
             dt,
         },
         states: states.iter().map(|s| s.to_string()).collect(),
@@ -368,4 +428,211 @@ pub fn exact_series(
 /// Exact ground energy of `h` (constant included).
 pub fn ground_energy(h: &PauliSum) -> f64 {
     phasewright::sim::exact::spectrum(h).values[0]
+}
+
+/// Transverse-field Ising model on an `rows × cols` open grid (qubit `r·cols + c`),
+/// `H = −J Σ_⟨ij⟩ Z_i Z_j − h Σ X_i`.
+pub fn tfim_grid(rows: usize, cols: usize, j: f64, h: f64) -> PauliSum {
+    let n = rows * cols;
+    let mut s = PauliSum::new(n);
+    for r in 0..rows {
+        for c in 0..cols {
+            let q = r * cols + c;
+            if c + 1 < cols {
+                s.add(
+                    PauliString::from_factors(&[(q, Pauli::Z), (q + 1, Pauli::Z)]).1,
+                    -j,
+                );
+            }
+            if r + 1 < rows {
+                s.add(
+                    PauliString::from_factors(&[(q, Pauli::Z), (q + cols, Pauli::Z)]).1,
+                    -j,
+                );
+            }
+            s.add(PauliString::single(q, Pauli::X), -h);
+        }
+    }
+    s
+}
+
+/// Open XXZ chain `H = J Σ (X_i X_{i+1} + Y_i Y_{i+1} + Δ Z_i Z_{i+1})`.
+pub fn xxz(n: usize, j: f64, delta: f64) -> PauliSum {
+    let mut s = PauliSum::new(n);
+    for i in 0..n - 1 {
+        for (p, f) in [(Pauli::X, 1.0), (Pauli::Y, 1.0), (Pauli::Z, delta)] {
+            s.add(PauliString::from_factors(&[(i, p), (i + 1, p)]).1, j * f);
+        }
+    }
+    s
+}
+
+/// An invented random Pauli sum: `terms` strings on `n` qubits with uniformly random letters
+/// and coefficients uniform in [−1, 1], from ChaCha8 seed `seed`.
+pub fn random_sum(n: usize, terms: usize, seed: u64) -> PauliSum {
+    use rand::Rng;
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut s = PauliSum::new(n);
+    while s.terms.len() < terms {
+        let factors: Vec<(usize, Pauli)> = (0..n)
+            .filter_map(|q| match rng.gen_range(0..4) {
+                1 => Some((q, Pauli::X)),
+                2 => Some((q, Pauli::Y)),
+                3 => Some((q, Pauli::Z)),
+                _ => None,
+            })
+            .collect();
+        if factors.is_empty() {
+            continue;
+        }
+        s.add(
+            PauliString::from_factors(&factors).1,
+            rng.gen_range(-1.0..1.0),
+        );
+    }
+    s
+}
+
+/// The computational basis state of lowest `⟨b|H|b⟩` (exhaustive), as a letter string.
+pub fn best_basis_state(h: &PauliSum) -> String {
+    let n = h.num_qubits;
+    let diag: Vec<(PauliString, f64)> = h
+        .term_list()
+        .into_iter()
+        .filter(|(p, _)| (0..n).all(|q| matches!(p.get(q), Pauli::I | Pauli::Z)))
+        .collect();
+    let best = (0u64..1 << n)
+        .min_by(|&a, &b| {
+            let e = |x: u64| {
+                diag.iter()
+                    .map(|(p, c)| {
+                        let odd = (0..n)
+                            .filter(|&q| p.get(q) == Pauli::Z && (x >> q) & 1 == 1)
+                            .count()
+                            % 2;
+                        if odd == 1 {
+                            -c
+                        } else {
+                            *c
+                        }
+                    })
+                    .sum::<f64>()
+            };
+            e(a).total_cmp(&e(b))
+        })
+        .unwrap();
+    (0..n)
+        .map(|q| if (best >> q) & 1 == 1 { '1' } else { '0' })
+        .collect()
+}
+
+/// `|⟨ψ|E0⟩|²` for the ground state of `h` (summed over a degenerate ground space, 1e-9).
+pub fn ground_weight(h: &PauliSum, state: &str) -> f64 {
+    let sp = phasewright::sim::exact::spectrum(h);
+    let psi = product_state(state);
+    let e0 = sp.values[0];
+    (0..sp.values.len())
+        .take_while(|&i| sp.values[i] - e0 < 1e-9)
+        .map(|i| sp.vectors.column(i).dotc(&psi).norm_sqr())
+        .sum()
+}
+
+/// The computational basis state with the largest ground-state weight (a good reference by
+/// construction, for the survey; the tool's own `--state auto` cannot know the weights).
+pub fn heaviest_basis_state(h: &PauliSum) -> String {
+    let sp = phasewright::sim::exact::spectrum(h);
+    let n = h.num_qubits;
+    let best = (0..1usize << n)
+        .max_by(|&a, &b| {
+            sp.vectors[(a, 0)]
+                .norm_sqr()
+                .total_cmp(&sp.vectors[(b, 0)].norm_sqr())
+        })
+        .unwrap();
+    (0..n)
+        .map(|q| if (best >> q) & 1 == 1 { '1' } else { '0' })
+        .collect()
+}
+
+/// The product state over the letters `0 1 + - r l` with the largest ground-state weight,
+/// searched exhaustively (6ⁿ states; small `n` only).
+pub fn heaviest_product_state(h: &PauliSum) -> String {
+    let sp = phasewright::sim::exact::spectrum(h);
+    let n = h.num_qubits;
+    let letters = ['0', '1', '+', '-', 'r', 'l'];
+    let mut best = (String::new(), -1.0);
+    for code in 0..6usize.pow(n as u32) {
+        let spec: String = (0..n)
+            .map(|q| letters[code / 6usize.pow(q as u32) % 6])
+            .collect();
+        let w = sp.vectors.column(0).dotc(&product_state(&spec)).norm_sqr();
+        if w > best.1 {
+            best = (spec, w);
+        }
+    }
+    best.0
+}
+
+/// `Σ|c_j|·dt` of the survey campaigns.
+pub const DT_NORM: f64 = std::f64::consts::PI;
+
+/// Time points of the survey campaigns.
+pub const SURVEY_POINTS: usize = 20;
+
+/// One model of the accuracy survey (issue figures): Hamiltonian, reference state, settings.
+pub struct Model {
+    pub name: &'static str,
+    pub h: PauliSum,
+    pub state: String,
+    pub dt: f64,
+    pub order: u32,
+    pub steps: usize,
+    pub points: usize,
+}
+
+/// The eight survey models with good references: 2×3 Ising, XXZ-6, Hubbard-4, random-5,
+/// Ising-8, Heisenberg-6, H2 and H4 (integral files from tests/data).
+pub fn survey_models() -> Vec<Model> {
+    use phasewright::app::convert::load_qubit_hamiltonian;
+    use phasewright::fermion::Encoding;
+    let root = env!("CARGO_MANIFEST_DIR");
+    let load = |p: &str| {
+        load_qubit_hamiltonian(
+            &std::path::Path::new(root).join(p),
+            Some(Encoding::JordanWigner),
+        )
+        .unwrap_or_else(|e| panic!("{p}: {e}"))
+    };
+    let (hub, _) = load("examples/hubbard_ring4.ham");
+    let (ising8, _) = load("examples/tfim_chain8.ham");
+    let (heis6, _) = load("examples/heisenberg_chain6.ham");
+    let (h2, h2i) = load("tests/data/h2_sto3g_r1.4.fcidump");
+    let (h4, h4i) = load("tests/data/h4_sto3g_r1.0.fcidump");
+    let rnd = random_sum(5, 20, 5);
+    let hub_state = heaviest_basis_state(&hub);
+    let rnd_state = heaviest_product_state(&rnd);
+    let m = |name, h: PauliSum, state: String| {
+        // dt from the one-norm: Σ|c_j|·dt = π/2 keeps every phase of U within ±π/2 of the
+        // reference's mean (the spectral-range bound `budget` uses).
+        let dt = DT_NORM / h.one_norm();
+        Model {
+            name,
+            h,
+            state,
+            dt,
+            order: 2,
+            steps: 1,
+            points: SURVEY_POINTS,
+        }
+    };
+    vec![
+        m("ising-2x3", tfim_grid(2, 3, 1.0, 2.0), "++++++".into()),
+        m("xxz-6", xxz(6, 1.0, 0.5), "ssssss".into()),
+        m("hubbard-4", hub, hub_state),
+        m("random-5", rnd, rnd_state),
+        m("ising-8", ising8, "++++++++".into()),
+        m("heisenberg-6", heis6, "ssssss".into()),
+        m("h2", h2, h2i.unwrap().hf_state),
+        m("h4", h4, h4i.unwrap().hf_state),
+    ]
 }
