@@ -6,7 +6,7 @@ use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
 use crate::lang::diag::Diagnostic;
-use crate::pipeline::{compile_for, Compiled, Target};
+use crate::pipeline::{compile_at, Compiled, OptLevel, Target};
 use crate::report::table::Table;
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -80,6 +80,12 @@ pub struct CompileArgs {
     /// Replace the output folder whole even if it holds files phasewright did not write.
     #[arg(long)]
     pub force: bool,
+    /// Optimisation level: 0 the textbook pipeline (one CNOT ladder per rotation of the
+    /// unmerged formula, one greedy layout, plain SWAP routing, nothing cancelled); 1 merges
+    /// and cancels; 2 searches layouts and term orders; 3 also schedules the rotations by
+    /// non-commutation, tries exact embeddings and uses balanced parity trees.
+    #[arg(long = "opt", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=3))]
+    pub opt: u8,
 }
 
 /// Random product states of a trace campaign without --samples.
@@ -344,7 +350,8 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         None => Target::AllToAll,
     };
     let source = super::io::display_name(&args.hamiltonian);
-    let mut compiled = compile_for(&h, &source, &spec, &target)?;
+    let level = OptLevel::new(args.opt).expect("clap keeps --opt in 0..=3");
+    let mut compiled = compile_at(&h, &source, &spec, &target, level)?;
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }

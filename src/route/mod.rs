@@ -43,10 +43,13 @@
 
 pub mod campaign;
 pub mod check;
+pub mod embed;
+pub mod hub;
 pub mod layout;
 pub mod order;
 pub mod reuse;
 pub mod swap;
+pub mod sweep;
 
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Qubit};
@@ -59,6 +62,7 @@ pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
 pub use order::{device_order, order_for_device, DeviceOrder};
 pub use reuse::RoutedStep;
+// (StepForm is defined here)
 use swap::{insert_swaps, reversed, SwapParams};
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
@@ -88,6 +92,19 @@ pub struct RouteConfig {
     pub stitch_min_gates: usize,
     /// Gates at each end of a lowered block that are lowered again with their neighbour.
     pub stitch_window: usize,
+    /// Try both ancilla SWAP factors (`ANCILLA_SWAP_FACTORS`); off: neutral only.
+    pub hub_factors: bool,
+    /// Peephole cancellation of each synthesised step (off at `--opt 0`).
+    pub cancel: bool,
+    /// The step is the unmerged textbook expansion (`formula::textbook_evolution`, `--opt 0`).
+    pub textbook: bool,
+    /// Also score the sweep schedule of [`sweep`] (any order the non-commuting pairs allow).
+    pub sweep: bool,
+    /// Also score exact embeddings of the interaction graph ([`embed`]) as layouts.
+    pub embed: bool,
+    /// Score candidates by the two-qubit gates of the routed step (SWAP = 3, after peephole
+    /// cancellation) rather than by SWAPs; on with `sweep` or `embed` (`--opt 3`).
+    pub score_two_qubit: bool,
 }
 
 impl Default for RouteConfig {
@@ -106,6 +123,12 @@ impl Default for RouteConfig {
             device_order: true,
             stitch_min_gates: campaign::STITCH_MIN_GATES,
             stitch_window: campaign::STITCH_WINDOW,
+            hub_factors: true,
+            cancel: true,
+            textbook: false,
+            sweep: true,
+            embed: true,
+            score_two_qubit: true,
         }
     }
 }
@@ -141,6 +164,8 @@ pub struct TargetPlan {
     /// Length of the first commuting group of the plan's term order, whose halves meet at the
     /// seams of reused symmetric steps ([`reuse::step_parts`]); 0: the step is not split.
     pub edge_terms: usize,
+    /// How the step's program is written ([`reuse::step_parts`]).
+    pub step_form: StepForm,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -192,6 +217,7 @@ impl TargetPlan {
             ancilla_swap_factor: 1.0,
             order: None,
             edge_terms: 0,
+            step_form: StepForm::default(),
             dist,
         })
     }
@@ -268,6 +294,18 @@ impl TargetPlan {
     }
 }
 
+/// How [`reuse::step_parts`] writes one step: which program, in which order, cancelled or not.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct StepForm {
+    /// The unmerged textbook expansion (`--opt 0`) instead of `formula::step`.
+    pub textbook: bool,
+    /// No peephole cancellation of the synthesised step (`--opt 0`).
+    pub uncancelled: bool,
+    /// The program reordered by [`sweep::schedule`] (ladders rooted where the walk meets each
+    /// rotation); the step is then not split at seams.
+    pub sweep: bool,
+}
+
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
 /// ancilla (on `benches/routing.rs`, 0.9 lowers the SWAP count in most cases and 1.0 in a few,
 /// so both are scored on the skeleton).
@@ -283,6 +321,8 @@ enum OrderChoice {
     Walk,
     /// [`device_order`]'s terms with roots nearest the ancilla's initial site.
     WalkNearestRoots,
+    /// The default terms' program in the order of [`sweep::schedule`], not split at seams.
+    Sweep,
 }
 
 /// On `benches/routing.rs` the walk's roots win on most pairs and the initial-site roots on a
@@ -292,6 +332,19 @@ const ORDER_CHOICES: [OrderChoice; 3] = [
     OrderChoice::WalkNearestRoots,
     OrderChoice::Default,
 ];
+
+/// [`ORDER_CHOICES`] and the sweep schedule (`--opt 3`).
+const ORDER_CHOICES_SWEEP: [OrderChoice; 4] = [
+    OrderChoice::Walk,
+    OrderChoice::WalkNearestRoots,
+    OrderChoice::Default,
+    OrderChoice::Sweep,
+];
+
+/// Steps of more (logical, controlled) gates are not scored with the sweep schedule: its
+/// graph and walk are bounded ([`sweep`]), but scoring one more order costs a routing per
+/// layout candidate.
+const SWEEP_MAX_GATES: usize = 200_000;
 
 /// A circuit on the device.
 #[derive(Clone, Debug)]
@@ -463,25 +516,33 @@ fn plan_on_step(
     };
     let mut params = cfg.swap_params();
     params.hub = ancilla.then_some(n_sys as u32);
+    let factors: &'static [f64] = if ancilla && cfg.hub_factors {
+        &ANCILLA_SWAP_FACTORS
+    } else {
+        &[1.0]
+    };
+    let choices: &'static [OrderChoice] = match (cfg.device_order && ancilla, cfg.sweep) {
+        (true, true) => &ORDER_CHOICES_SWEEP,
+        (true, false) => &ORDER_CHOICES,
+        (false, true) => &[OrderChoice::Default, OrderChoice::Sweep],
+        (false, false) => &[OrderChoice::Default],
+    };
+    let form = StepForm {
+        textbook: cfg.textbook,
+        uncancelled: !cfg.cancel,
+        sweep: false,
+    };
     let full = Search {
         trials: cfg.layout_trials.max(1),
-        factors: if ancilla {
-            &ANCILLA_SWAP_FACTORS
-        } else {
-            &[1.0]
-        },
-        choices: if cfg.device_order && ancilla {
-            &ORDER_CHOICES
-        } else {
-            &[OrderChoice::Default]
-        },
+        factors,
+        choices,
         rounds: cfg.refine_rounds,
     };
     // The device order depends only on the layout: computed once per layout tried.
     let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
     let mut evaluate = |l: &[u32], factor: f64, choice: OrderChoice, params: &mut SwapParams| {
         let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
-        let terms = if choice != OrderChoice::Default {
+        let terms = if !matches!(choice, OrderChoice::Default | OrderChoice::Sweep) {
             let mut o = orders
                 .entry(l.to_vec())
                 .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
@@ -496,13 +557,35 @@ fn plan_on_step(
             default_terms.clone()
         };
         plan.ancilla_swap_factor = factor;
-        plan.edge_terms = edge_terms;
+        plan.edge_terms = if choice == OrderChoice::Sweep {
+            0
+        } else {
+            edge_terms
+        };
+        plan.step_form = StepForm {
+            sweep: choice == OrderChoice::Sweep,
+            ..form
+        };
         params.hub_factor = factor;
-        let parts = reuse::step_parts(&terms, &plan, order, dt);
-        let (fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
+        let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
+        let (mut fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
+        if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
+            // The swept order is the walk: the in-order hub router follows it (`hub`).
+            let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
+            if reuse::two_qubit_cost(&walked.circuit) < reuse::two_qubit_cost(&fwd.circuit) {
+                fwd = walked;
+            }
+        }
         Ok::<_, String>((plan, parts, fwd, marks))
     };
-    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| (fwd.swaps, layout::layout_cost(&w, l, dev));
+    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| {
+        let first = if cfg.score_two_qubit {
+            reuse::two_qubit_cost(&fwd.circuit)
+        } else {
+            fwd.swaps
+        };
+        (first, layout::layout_cost(&w, l, dev))
+    };
     let mut best: Option<((usize, f64), Planned)> = None;
     let mut consider = |key: (usize, f64),
                         plan: TargetPlan,
@@ -534,7 +617,11 @@ fn plan_on_step(
     let search = std::iter::once(full)
         .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
             trials: t.min(full.trials),
-            factors: if ancilla { f } else { &[1.0] },
+            factors: if ancilla && cfg.hub_factors {
+                f
+            } else {
+                &[1.0]
+            },
             choices: if cfg.device_order && ancilla {
                 c
             } else {
@@ -556,12 +643,30 @@ fn plan_on_step(
             candidates.push(l);
         }
     }
+    if cfg.embed {
+        for l in embed::embedding_layouts(h, ancilla, &comp, dev) {
+            if !candidates.contains(&l) {
+                candidates.push(l);
+            }
+        }
+    }
+    // The sweep schedule is scored at the search's own levels while its work stays bounded.
+    let sweep_ok =
+        cfg.sweep && search.trials > 1 && first_eval.1.circuit.gates.len() <= SWEEP_MAX_GATES;
+    let extra: &[OrderChoice] = if sweep_ok && !search.choices.contains(&OrderChoice::Sweep) {
+        &[OrderChoice::Sweep]
+    } else {
+        &[]
+    };
     let mut first = Some(first_eval);
-    for (&factor, &choice) in search
-        .factors
-        .iter()
-        .flat_map(|f| search.choices.iter().map(move |c| (f, c)))
-    {
+    for (&factor, &choice) in search.factors.iter().flat_map(|f| {
+        search
+            .choices
+            .iter()
+            .chain(extra)
+            .filter(move |&&c| c != OrderChoice::Sweep || sweep_ok)
+            .map(move |c| (f, c))
+    }) {
         for start in &candidates {
             let mut l = start.clone();
             for round in 0..=search.rounds {
