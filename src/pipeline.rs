@@ -96,6 +96,8 @@ impl OptLevel {
             c.hub_factors = false;
         }
         c.cancel = self.0 >= 1;
+        c.textbook = self.0 == 0;
+        c.score_two_qubit = true;
         c.sweep = self.0 >= 3;
         c.embed = self.0 >= 3;
         c
@@ -133,14 +135,16 @@ pub fn run_passes(c: &mut Circuit, passes: &[Pass], rules: &Rules) -> Result<(),
     Ok(())
 }
 
-/// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through the
-/// level's strategy, controlled by the ancilla `n`), `readout`, and `cancel` from level 1.
+/// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
+/// balanced trees if `tree`, else chains, controlled by the ancilla `control`), `readout`, and
+/// `cancel` from level 1.
 pub fn all_to_all_passes<'a>(
     prefix: &'a [Gate],
     program: &'a [Rotation],
     control: crate::circuit::Qubit,
     suffix: &'a [Gate],
     level: OptLevel,
+    tree: bool,
 ) -> Vec<Pass<'a>> {
     let mut passes = vec![
         Pass {
@@ -156,7 +160,7 @@ pub fn all_to_all_passes<'a>(
                     distance: None,
                 };
                 let ladder = |r: &Rotation| crate::synth::default_ladder(r);
-                if level >= OptLevel(3) {
+                if tree {
                     Tree.synthesize(&block, &mut c.gates)
                 } else {
                     Chain { ladder: &ladder }.synthesize(&block, &mut c.gates)
@@ -394,15 +398,33 @@ pub fn compile_at(
             let done = frames(h, spec)
                 .into_par_iter()
                 .map(|f| {
-                    let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
-                    let passes = all_to_all_passes(
-                        &f.prefix,
-                        &programs[f.k],
-                        n as crate::circuit::Qubit,
-                        &f.suffix,
-                        level,
-                    );
-                    run_passes(&mut circuit, &passes, &Rules::default())?;
+                    let run = |tree: bool| -> Result<Circuit, IrError> {
+                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+                        let passes = all_to_all_passes(
+                            &f.prefix,
+                            &programs[f.k],
+                            n as crate::circuit::Qubit,
+                            &f.suffix,
+                            level,
+                            tree,
+                        );
+                        run_passes(&mut circuit, &passes, &Rules::default())?;
+                        Ok(circuit)
+                    };
+                    let mut circuit = run(false)?;
+                    if level >= OptLevel(3) {
+                        // Trees are shallower but may cancel less between neighbouring
+                        // rotations: the emitted circuit with fewer two-qubit gates (then the
+                        // lower depth) is kept, so level 3 never emits more than level 2.
+                        let tree = run(true)?;
+                        let key = |c: &Circuit| {
+                            let k = counts(c);
+                            (k.two_qubit, k.depth)
+                        };
+                        if key(&tree) < key(&circuit) {
+                            circuit = tree;
+                        }
+                    }
                     Ok(Finished {
                         costs: counts(&circuit).into(),
                         id: f.id,

@@ -333,14 +333,6 @@ const ORDER_CHOICES: [OrderChoice; 3] = [
     OrderChoice::Default,
 ];
 
-/// [`ORDER_CHOICES`] and the sweep schedule (`--opt 3`).
-const ORDER_CHOICES_SWEEP: [OrderChoice; 4] = [
-    OrderChoice::Walk,
-    OrderChoice::WalkNearestRoots,
-    OrderChoice::Default,
-    OrderChoice::Sweep,
-];
-
 /// Steps of more (logical, controlled) gates are not scored with the sweep schedule: its
 /// graph and walk are bounded ([`sweep`]), but scoring one more order costs a routing per
 /// layout candidate.
@@ -521,11 +513,12 @@ fn plan_on_step(
     } else {
         &[1.0]
     };
-    let choices: &'static [OrderChoice] = match (cfg.device_order && ancilla, cfg.sweep) {
-        (true, true) => &ORDER_CHOICES_SWEEP,
-        (true, false) => &ORDER_CHOICES,
-        (false, true) => &[OrderChoice::Default, OrderChoice::Sweep],
-        (false, false) => &[OrderChoice::Default],
+    // The sweep schedule is not among these: it is scored on top of the search a level
+    // below would run (`extra` below), so adding it never changes what else is tried.
+    let choices: &'static [OrderChoice] = if cfg.device_order && ancilla {
+        &ORDER_CHOICES
+    } else {
+        &[OrderChoice::Default]
     };
     let form = StepForm {
         textbook: cfg.textbook,
@@ -540,47 +533,49 @@ fn plan_on_step(
     };
     // The device order depends only on the layout: computed once per layout tried.
     let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
-    let mut evaluate = |l: &[u32], factor: f64, choice: OrderChoice, params: &mut SwapParams| {
-        let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
-        let terms = if !matches!(choice, OrderChoice::Default | OrderChoice::Sweep) {
-            let mut o = orders
-                .entry(l.to_vec())
-                .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
-                .clone();
-            if choice == OrderChoice::WalkNearestRoots {
-                o.roots.clear();
+    let mut evaluate =
+        |l: &[u32], factor: f64, choice: OrderChoice, form: StepForm, params: &mut SwapParams| {
+            let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
+            let terms = if !matches!(choice, OrderChoice::Default | OrderChoice::Sweep) {
+                let mut o = orders
+                    .entry(l.to_vec())
+                    .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
+                    .clone();
+                if choice == OrderChoice::WalkNearestRoots {
+                    o.roots.clear();
+                }
+                let terms = o.terms.clone();
+                plan.order = Some(o);
+                terms
+            } else {
+                default_terms.clone()
+            };
+            plan.ancilla_swap_factor = factor;
+            plan.edge_terms = if choice == OrderChoice::Sweep {
+                0
+            } else {
+                edge_terms
+            };
+            plan.step_form = StepForm {
+                sweep: choice == OrderChoice::Sweep,
+                ..form
+            };
+            params.hub_factor = factor;
+            let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
+            let (mut fwd, marks) =
+                swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
+            if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
+                // The swept order is the walk: the in-order hub router follows it (`hub`).
+                let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
+                if emitted_two_qubit(&walked.circuit, dev) < emitted_two_qubit(&fwd.circuit, dev) {
+                    fwd = walked;
+                }
             }
-            let terms = o.terms.clone();
-            plan.order = Some(o);
-            terms
-        } else {
-            default_terms.clone()
+            Ok::<_, String>((plan, parts, fwd, marks))
         };
-        plan.ancilla_swap_factor = factor;
-        plan.edge_terms = if choice == OrderChoice::Sweep {
-            0
-        } else {
-            edge_terms
-        };
-        plan.step_form = StepForm {
-            sweep: choice == OrderChoice::Sweep,
-            ..form
-        };
-        params.hub_factor = factor;
-        let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
-        let (mut fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
-        if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
-            // The swept order is the walk: the in-order hub router follows it (`hub`).
-            let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
-            if reuse::two_qubit_cost(&walked.circuit) < reuse::two_qubit_cost(&fwd.circuit) {
-                fwd = walked;
-            }
-        }
-        Ok::<_, String>((plan, parts, fwd, marks))
-    };
     let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| {
         let first = if cfg.score_two_qubit {
-            reuse::two_qubit_cost(&fwd.circuit)
+            emitted_two_qubit(&fwd.circuit, dev)
         } else {
             fwd.swaps
         };
@@ -604,7 +599,13 @@ fn plan_on_step(
     };
     // The first routing of the full search measures the work of one routing.
     let first_layout = candidate(0);
-    let first_eval = evaluate(&first_layout, full.factors[0], full.choices[0], &mut params)?;
+    let first_eval = evaluate(
+        &first_layout,
+        full.factors[0],
+        full.choices[0],
+        form,
+        &mut params,
+    )?;
     let unit = first_eval
         .1
         .circuit
@@ -679,7 +680,7 @@ fn plan_on_step(
                     (_, f) => {
                         first = f;
                         params.hub_factor = factor;
-                        evaluate(&l, factor, choice, &mut params)?
+                        evaluate(&l, factor, choice, form, &mut params)?
                     }
                 };
                 consider(key_of(&fwd, &l), plan, &parts, &fwd, &marks);
@@ -696,7 +697,34 @@ fn plan_on_step(
         // The measuring routing was not part of the chosen search: it still competes.
         consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
     }
+    if cfg.score_two_qubit && !cfg.textbook {
+        // What the level-0 pipeline would emit (unmerged, uncancelled, first layout) competes
+        // too, so a level never keeps a step that costs more than the textbook one.
+        let textbook = StepForm {
+            textbook: true,
+            uncancelled: true,
+            sweep: false,
+        };
+        let (plan, parts, fwd, marks) = evaluate(
+            &first_layout,
+            1.0,
+            OrderChoice::Default,
+            textbook,
+            &mut params,
+        )?;
+        consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
+    }
     Ok(best.expect("at least one candidate").1)
+}
+
+/// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native
+/// gates with fusion and cancellation: what the campaign will emit for it.
+fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
+    lower_to_native(c, &dev.native)
+        .gates
+        .iter()
+        .filter(|g| g.is_two_qubit())
+        .count()
 }
 
 /// SWAP insertion, lowering, fusion and cancellation of one logical circuit; `verify_ir` after
