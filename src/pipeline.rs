@@ -550,6 +550,7 @@ fn finish(
         states: spec.states.clone(),
         seed: None,
         energy_unit: None,
+        coefficient_cutoff: None,
         points: spec.points,
         device,
         circuits: entries,

@@ -373,3 +373,56 @@ fn an_ising_chain_step_on_a_line_meets_the_one_sweep_target() {
     assert!(two_qubit <= 162, "{two_qubit}");
     check_compiled(&best, Some(&dev), "ising12 line");
 }
+
+#[test]
+fn round_off_below_the_cutoff_is_dropped_and_recorded() {
+    // Two strings at 1e-12 (integral round-off) beside real terms: convert and compile drop
+    // them at the default cutoff 1e-10, say so, and the plan records the cutoff; --cutoff 0
+    // keeps them.
+    use assert_cmd::Command;
+    let tmp = tempfile::tempdir().unwrap();
+    let ham = tmp.path().join("h.ham");
+    std::fs::write(
+        &ham,
+        "qubits 3\n0.5 * Z{0} Z{1}\n0.25 * X{2}\n1e-12 * X{0} X{1}\n-3e-12 * Y{1} Y{2}\n",
+    )
+    .unwrap();
+    let out = tmp.path().join("c.ham");
+    let r = Command::cargo_bin("phasewright")
+        .unwrap()
+        .args(["convert"])
+        .arg(&ham)
+        .arg("-o")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let said = String::from_utf8_lossy(&r.stdout);
+    assert!(
+        said.contains("2 strings with |coefficient| < 1e-10 dropped"),
+        "{said}"
+    );
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(text.contains("coefficient cutoff"), "{text}");
+    for (cutoff, strings) in [(None, 2usize), (Some("0"), 4)] {
+        let dir = tmp.path().join(format!("camp{strings}"));
+        let mut cmd = Command::cargo_bin("phasewright").unwrap();
+        cmd.arg("compile")
+            .arg(&ham)
+            .args(["--state", "000", "--dt", "0.1", "--points", "2", "-o"])
+            .arg(&dir);
+        if let Some(c) = cutoff {
+            cmd.args(["--cutoff", c]);
+        }
+        let r = cmd.output().unwrap();
+        assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+        let plan: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(dir.join("plan.json")).unwrap()).unwrap();
+        assert_eq!(
+            plan["hamiltonian"]["terms"].as_array().unwrap().len(),
+            strings
+        );
+        let want = if cutoff.is_some() { 0.0 } else { 1e-10 };
+        assert_eq!(plan["coefficient_cutoff"].as_f64(), Some(want));
+    }
+}

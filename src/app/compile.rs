@@ -86,6 +86,10 @@ pub struct CompileArgs {
     /// non-commutation, tries exact embeddings and uses balanced parity trees.
     #[arg(long = "opt", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=3))]
     pub opt: u8,
+    /// Drop Pauli strings whose |coefficient| is below this before compiling (integral
+    /// round-off; 0 keeps all). Recorded in plan.json.
+    #[arg(long, default_value_t = super::convert::DEFAULT_CUTOFF, value_parser = super::convert::parse_cutoff)]
+    pub cutoff: f64,
 }
 
 /// Random product states of a trace campaign without --samples.
@@ -257,7 +261,8 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
             Some("drop --samples, or add --measure trace"),
         ));
     }
-    let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
+    let (mut h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
+    let cut = super::convert::drop_below(&mut h, args.cutoff);
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
@@ -355,6 +360,7 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
+    compiled.plan.coefficient_cutoff = Some(args.cutoff);
     if chem.is_some() {
         // FCIDUMP integrals are in hartree by the format's convention.
         compiled.plan.energy_unit = Some("hartree".into());
@@ -387,6 +393,12 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         text += &format!(
             "{} terms read in {} qubit-wise commuting groups: {} circuits, against {} with one term per circuit.\n",
             gs.terms, gs.groups, gs.circuits, gs.circuits_one_term_each
+        );
+    }
+    if cut > 0 {
+        text += &format!(
+            "{cut} strings with |coefficient| < {:e} dropped before compiling (--cutoff; recorded in plan.json).\n",
+            args.cutoff
         );
     }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";

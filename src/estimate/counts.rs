@@ -528,6 +528,7 @@ pub(crate) mod tests {
             states: vec!["00".into()],
             seed: None,
             energy_unit: None,
+            coefficient_cutoff: None,
             points: 2,
             device: None,
             circuits: vec![circuit("k1_re", 1, Part::Re), circuit("k1_im", 1, Part::Im)],

@@ -293,6 +293,7 @@ pub fn campaign(h: &PauliSum, states: &[&str], kind: Kind, dt: f64, points: usiz
         states: states.iter().map(|s| s.to_string()).collect(),
         seed: None,
         energy_unit: None,
+        coefficient_cutoff: None,
         points,
         device: None,
         circuits: circuits.iter().map(|c| c.entry.clone()).collect(),
