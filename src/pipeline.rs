@@ -53,7 +53,7 @@ use crate::formula::{evolution, order_terms, textbook_evolution, Rotation};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{plan_and_route_step, DeviceCampaign, RouteConfig};
-use crate::synth::{Block, Chain, Strategy, Tree};
+use crate::synth::{Block, Chain, Sharing, Strategy, Tree};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -135,16 +135,26 @@ pub fn run_passes(c: &mut Circuit, passes: &[Pass], rules: &Rules) -> Result<(),
     Ok(())
 }
 
+/// Which `synth::Strategy` writes the rotations on the all-to-all target.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Synthesis {
+    /// `synth::Chain` with ascending ladders (levels 0–2).
+    Chain,
+    /// `synth::Tree`, balanced parity trees.
+    Tree,
+    /// `synth::Sharing`, chains starting on what the previous rotation shares.
+    Sharing,
+}
+
 /// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
-/// balanced trees if `tree`, else chains, controlled by the ancilla `control`), `readout`, and
-/// `cancel` from level 1.
+/// `synthesis`, controlled by the ancilla `control`), `readout`, and `cancel` from level 1.
 pub fn all_to_all_passes<'a>(
     prefix: &'a [Gate],
     program: &'a [Rotation],
     control: crate::circuit::Qubit,
     suffix: &'a [Gate],
     level: OptLevel,
-    tree: bool,
+    synthesis: Synthesis,
 ) -> Vec<Pass<'a>> {
     let mut passes = vec![
         Pass {
@@ -160,10 +170,10 @@ pub fn all_to_all_passes<'a>(
                     distance: None,
                 };
                 let ladder = |r: &Rotation| crate::synth::default_ladder(r);
-                if tree {
-                    Tree.synthesize(&block, &mut c.gates)
-                } else {
-                    Chain { ladder: &ladder }.synthesize(&block, &mut c.gates)
+                match synthesis {
+                    Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
+                    Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
+                    Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
                 }
             }),
         },
@@ -395,34 +405,49 @@ pub fn compile_at(
                     }
                 })
                 .collect();
+            // Level 3 also tries each program in the order that lets neighbours share
+            // (`route::sweep::schedule_by_agreement`: the same product exactly).
+            let agreeing: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
+                programs
+                    .par_iter()
+                    .map(|p| crate::route::sweep::schedule_by_agreement(p))
+                    .collect()
+            } else {
+                vec![None; programs.len()]
+            };
             let done = frames(h, spec)
                 .into_par_iter()
                 .map(|f| {
-                    let run = |tree: bool| -> Result<Circuit, IrError> {
+                    let run = |program: &[Rotation], synthesis: Synthesis| {
                         let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
                         let passes = all_to_all_passes(
                             &f.prefix,
-                            &programs[f.k],
+                            program,
                             n as crate::circuit::Qubit,
                             &f.suffix,
                             level,
-                            tree,
+                            synthesis,
                         );
-                        run_passes(&mut circuit, &passes, &Rules::default())?;
-                        Ok(circuit)
+                        run_passes(&mut circuit, &passes, &Rules::default()).map(|_| circuit)
                     };
-                    let mut circuit = run(false)?;
+                    let mut circuit = run(&programs[f.k], Synthesis::Chain)?;
                     if level >= OptLevel(3) {
                         // Trees are shallower but may cancel less between neighbouring
-                        // rotations: the emitted circuit with fewer two-qubit gates (then the
-                        // lower depth) is kept, so level 3 never emits more than level 2.
-                        let tree = run(true)?;
+                        // rotations, and the agreeing order cancels more but may be deeper:
+                        // the emitted circuit with fewer two-qubit gates (then the lower
+                        // depth) is kept, so level 3 never emits more than level 2.
                         let key = |c: &Circuit| {
                             let k = counts(c);
                             (k.two_qubit, k.depth)
                         };
-                        if key(&tree) < key(&circuit) {
-                            circuit = tree;
+                        let mut others = vec![run(&programs[f.k], Synthesis::Tree)?];
+                        if let Some(p) = &agreeing[f.k] {
+                            others.push(run(p, Synthesis::Sharing)?);
+                        }
+                        for c in others {
+                            if key(&c) < key(&circuit) {
+                                circuit = c;
+                            }
                         }
                     }
                     Ok(Finished {
@@ -450,6 +475,21 @@ pub fn compile_at(
             let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
             let (tp, step) = plan_and_route_step(h, device, config, spec.order, step_dt)
                 .map_err(CompileError::DoesNotFit)?;
+            if cfg!(debug_assertions) {
+                // Pass `plan and route the step`: every piece on coupled pairs (pieces of two
+                // and three steps between them hold every distinct piece).
+                let coupled = |a: u32, b: u32| device.coupled(a, b);
+                let rules = Rules {
+                    coupled: Some(&coupled),
+                    native: None,
+                };
+                for piece in step.pieces(2).into_iter().chain(step.pieces(3)) {
+                    verify_ir(piece, &rules).map_err(|e| IrError {
+                        message: format!("after pass `plan and route the step`: {}", e.message),
+                        ..e
+                    })?;
+                }
+            }
             let info = DeviceInfo {
                 name: device.name.clone(),
                 num_qubits: device.num_qubits,

@@ -28,6 +28,9 @@ use super::swap::{Adjacency, SwapOutcome};
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 
+/// A candidate SWAP's rank: lookahead score, then "does not move the hub", then its sites.
+type MoveKey = (f64, bool, u32, u32);
+
 /// Upcoming two-qubit gates that score each SWAP.
 pub const LOOKAHEAD: usize = 12;
 
@@ -81,7 +84,7 @@ pub fn insert_swaps_in_order(
                     break;
                 }
                 // Moves that bring the pair one hop closer, from either end.
-                let mut best: Option<((f64, bool, u32, u32), (u32, u32))> = None;
+                let mut best: Option<(MoveKey, (u32, u32))> = None;
                 for (from, to) in [(pa, pb), (pb, pa)] {
                     for &(nb, _) in adj.of(from) {
                         if dev.distance(nb, to) + 1 != d {
