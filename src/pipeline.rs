@@ -469,7 +469,16 @@ pub fn compile_at(
             Ok(finish(h, source, spec, done, None, Addressing::Logical))
         }
         Target::Device { device, config } => {
-            let config = &level.route_config(config);
+            let mut config = level.route_config(config);
+            let all_frames = frames(h, spec);
+            config.campaign_weights = Some((
+                all_frames.iter().filter(|f| f.k > 0).count() as f64,
+                all_frames
+                    .iter()
+                    .map(|f| (f.k * spec.steps_per_dt) as f64)
+                    .sum(),
+            ));
+            let config = &config;
             // One step of length dt / R, routed once (while the layout is chosen) and reused by
             // every circuit: time point k runs k·R blocks of it (`route::reuse`).
             let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
@@ -497,7 +506,7 @@ pub fn compile_at(
                 initial_layout: tp.initial_layout.clone(),
             };
             let campaign = DeviceCampaign::new(step, &tp, device, config)?;
-            let done = frames(h, spec)
+            let done = all_frames
                 .into_par_iter()
                 .map(|f| {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));

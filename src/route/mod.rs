@@ -102,9 +102,13 @@ pub struct RouteConfig {
     pub sweep: bool,
     /// Also score exact embeddings of the interaction graph ([`embed`]) as layouts.
     pub embed: bool,
-    /// Score candidates by the two-qubit gates of the routed step (SWAP = 3, after peephole
-    /// cancellation) rather than by SWAPs; on with `sweep` or `embed` (`--opt 3`).
+    /// Score candidates by the two-qubit gates of the routed step once lowered (what is
+    /// emitted) rather than by SWAPs.
     pub score_two_qubit: bool,
+    /// The campaign's circuits and their total number of Trotter steps, if known: the best
+    /// swept and the best split step are then compared on the whole campaign
+    /// ([`plan_and_route_step`]); `None`: on one step.
+    pub campaign_weights: Option<(f64, f64)>,
 }
 
 impl Default for RouteConfig {
@@ -129,6 +133,7 @@ impl Default for RouteConfig {
             sweep: true,
             embed: true,
             score_two_qubit: true,
+            campaign_weights: None,
         }
     }
 }
@@ -410,7 +415,7 @@ pub fn plan_target(
     dev: &Device,
     cfg: &RouteConfig,
 ) -> Result<TargetPlan, String> {
-    Ok(plan_on_step(h, ancilla, dev, cfg, Order::Second, 1.0)?.0)
+    Ok(plan_on_step(h, ancilla, dev, cfg, Order::Second, 1.0)?.0 .0)
 }
 
 /// [`plan_target`] scoring on the campaign's own step (`order`, length `dt`) and returning the
@@ -422,19 +427,45 @@ pub fn plan_and_route_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, routed) = plan_on_step(h, true, dev, cfg, order, dt)?;
-    let params = plan_swap_params(&plan, cfg);
+    let (winner, other) = plan_on_step(h, true, dev, cfg, order, dt)?;
     let symmetric = order != Order::First;
-    let step = match routed {
-        Some((parts, fwd, marks)) => {
-            reuse::route_from(&parts, fwd, marks, &plan, dev, &params, symmetric)
-        }
-        None => {
-            let parts = reuse::step_parts(&plan.terms(h), &plan, order, dt);
-            reuse::route_step(&parts, &plan, dev, &params, symmetric)
-        }
+    let build = |(plan, routed): Planned| {
+        let params = plan_swap_params(&plan, cfg);
+        let step = match routed {
+            Some((parts, fwd, marks)) => {
+                reuse::route_from(&parts, fwd, marks, &plan, dev, &params, symmetric)
+            }
+            None => {
+                let parts = reuse::step_parts(&plan.terms(h), &plan, order, dt);
+                reuse::route_step(&parts, &plan, dev, &params, symmetric)
+            }
+        };
+        (plan, step)
     };
-    Ok((plan, step))
+    let first = build(winner);
+    let (Some((circuits, steps)), Some(other)) = (cfg.campaign_weights, other) else {
+        return Ok(first);
+    };
+    // One step decides the search; the campaign decides between a swept step (one sweep, no
+    // merged seams) and a split one (seams merged): each circuit of r steps costs about
+    // a + b·r two-qubit gates, with a and b from one and two steps as emitted.
+    let second = build(other);
+    let cost = |step: &RoutedStep| {
+        let emitted = |r: usize| {
+            let mut c = Circuit::new(dev.num_qubits, 0);
+            for piece in step.pieces(r) {
+                c.extend(piece.gates.iter().copied());
+            }
+            emitted_two_qubit(&c, dev) as f64
+        };
+        let (c1, c2) = (emitted(1), emitted(2));
+        circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
+    };
+    Ok(if cost(&second.1) < cost(&first.1) {
+        second
+    } else {
+        first
+    })
 }
 
 /// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
@@ -458,7 +489,7 @@ fn plan_on_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<Planned, String> {
+) -> Result<(Planned, Option<Planned>), String> {
     let n_sys = h.num_qubits;
     let n = n_sys + ancilla as usize;
     let with_anc = if ancilla {
@@ -474,7 +505,7 @@ fn plan_on_step(
     }
     if n == 0 {
         let plan = TargetPlan::with_layout(0, false, dev, Vec::new())?;
-        return Ok((plan, None));
+        return Ok(((plan, None), None));
     }
     let comps = dev.components();
     let comp = match comps.first() {
@@ -581,17 +612,20 @@ fn plan_on_step(
         };
         (first, layout::layout_cost(&w, l, dev))
     };
-    let mut best: Option<((usize, f64), Planned)> = None;
+    // The best plan with a split (or plain) step, and the best swept one: they differ in how
+    // later steps join (`reuse`), so `plan_and_route_step` may compare them on the campaign.
+    let mut bests: [Option<((usize, f64), Planned)>; 2] = [None, None];
     let mut consider = |key: (usize, f64),
                         plan: TargetPlan,
                         parts: &reuse::StepParts,
                         fwd: &swap::SwapOutcome,
                         marks: &[swap::Mark]| {
+        let best = &mut bests[plan.step_form.sweep as usize];
         let better = best
             .as_ref()
             .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
         if better {
-            best = Some((
+            *best = Some((
                 key,
                 (plan, Some((parts.clone(), fwd.clone(), marks.to_vec()))),
             ));
@@ -714,7 +748,15 @@ fn plan_on_step(
         )?;
         consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
     }
-    Ok(best.expect("at least one candidate").1)
+    let [plain, swept] = bests;
+    Ok(match (plain, swept) {
+        (Some(a), Some(b)) if b.0 .0 < a.0 .0 || (b.0 .0 == a.0 .0 && b.0 .1 < a.0 .1 - 1e-12) => {
+            (b.1, Some(a.1))
+        }
+        (Some(a), b) => (a.1, b.map(|b| b.1)),
+        (None, Some(b)) => (b.1, None),
+        (None, None) => unreachable!("at least one candidate"),
+    })
 }
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native
