@@ -339,12 +339,12 @@ const ORDER_CHOICES: [OrderChoice; 3] = [
 ];
 
 /// Steps whose first routing costs more units (two-qubit gates plus SWAPs) than this are not
-/// scored with the sweep schedule, and candidates are scored by the peephole count rather
-/// than by lowering: both cost about one more routing per candidate, which at utility scale
+/// scored with the sweep schedule, exact embeddings or the textbook step, and candidates are
+/// scored by the peephole count rather than by lowering: both cost about one more routing per candidate, which at utility scale
 /// (a 1,000-term step on 127 qubits, ~40,000 units) tripled the layout search's time on the
 /// `utility_device` benchmark. The swept step's gain is largest on lattice models, whose
 /// steps are small.
-const EXTRAS_MAX_UNIT: usize = 20_000;
+pub const EXTRAS_MAX_UNIT: usize = 20_000;
 
 /// A circuit on the device.
 #[derive(Clone, Debug)]
@@ -688,7 +688,7 @@ fn plan_on_step(
             candidates.push(l);
         }
     }
-    if cfg.embed {
+    if cfg.embed && small {
         for l in embed::embedding_layouts(h, ancilla, &comp, dev) {
             if !candidates.contains(&l) {
                 candidates.push(l);
@@ -740,7 +740,7 @@ fn plan_on_step(
         // The measuring routing was not part of the chosen search: it still competes.
         consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
     }
-    if cfg.score_two_qubit && !cfg.textbook {
+    if cfg.score_two_qubit && !cfg.textbook && small {
         // What the level-0 pipeline would emit (unmerged, uncancelled, first layout) competes
         // too, so a level never keeps a step that costs more than the textbook one.
         let textbook = StepForm {
