@@ -22,6 +22,14 @@
 //!    its routing of the step is kept. All circuits of a campaign share that initial layout,
 //!    which plan.json records once, and follow [`TargetPlan::terms`], which computes exactly
 //!    what `formula::order_terms` would (a permutation inside commuting groups).
+//!    With the extras of `--opt 3` (`RouteConfig::sweep`, `embed`; on steps whose first
+//!    routing stays under [`EXTRAS_MAX_UNIT`]) the candidates also include exact embeddings of
+//!    the interaction graph ([`embed`]) and the step in the order of [`sweep`] (any order the
+//!    non-commuting pairs allow, the ancilla crossing the chip once), routed both by the
+//!    lookahead router and in order with the ancilla as hub ([`hub`]); candidates are scored by
+//!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`), and the best
+//!    swept and the best split step are finally compared on the whole campaign
+//!    ([`plan_and_route_step`]).
 //! 2. The kept step is reused by every circuit ([`reuse`]: alternating with its mirror image
 //!    for symmetric formulas, with the SWAPs home for Lie–Trotter), and [`campaign`] lowers it
 //!    once and assembles each circuit from it, its own state preparation and its readout.
