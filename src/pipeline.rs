@@ -1,19 +1,35 @@
 //! The map of the compiler: the passes, in order, from a Pauli sum to OpenQASM 3 text.
 //!
-//! In: a [`PauliSum`], a [`Spec`] and a target. Out: a [`Compiled`] campaign: the plan and one
-//! program text per circuit, in plan order. Passes (each a free function, verified after it in
-//! tests and debug builds):
+//! In: a [`PauliSum`], a [`Spec`], a target and an optimisation level ([`OptLevel`]). Out: a
+//! [`Compiled`] campaign: the plan and one program text per circuit, in plan order. Each pass
+//! is a free function over one value; a small driver ([`run_passes`]) runs a target's list in
+//! order and, in tests and debug builds, calls `verify_ir` after every pass with the rules that
+//! hold at that point (structure before routing; coupling after routing; coupling and native
+//! names after lowering). Release builds verify the final circuits only.
 //!
-//! 1. `formula::order_terms` + `formula::evolution`: the rotation program per time point;
-//! 2. all-to-all target: `family::build_jobs`: Hadamard-test circuits (synthesis by `synth`,
-//!    clean-up by `circuit::cancel`), logical qubits, ancilla last; `verify_ir`, done;
-//! 3. device target: `route::plan_and_route_step` chooses the layout, the term order inside
-//!    commuting groups (`TargetPlan::terms`, which leaves every formula exactly equal) and the
-//!    ladders, scoring candidates on one Trotter step of the campaign, and keeps the winner's
-//!    routing of that step (`route::reuse`: it and its mirror image, or the SWAPs home, repeat
-//!    `k·R` times); `route::DeviceCampaign` lowers the step's pieces to the native gates once
-//!    (fusion and cancellation, verified), and `family::frames` gives each circuit's
-//!    preparation and readout, which it routes and stitches around the pieces;
+//! **All-to-all**, per circuit ([`all_to_all_passes`]):
+//! 1. `prepare`: state preparation, ancilla to |+⟩ (`family::frames` gives the gates);
+//! 2. `synthesize`: the rotation program of the time point (`formula::evolution`, or at level 0
+//!    the unmerged textbook expansion) through one `synth::Strategy`: `Chain` ladders below
+//!    level 3, balanced `Tree`s at level 3;
+//! 3. `readout`: ancilla basis, measurement basis, measurements;
+//! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
+//! 5. `qasm::write` with logical `q[k]`.
+//!
+//! **Device**, once per campaign then per circuit:
+//! 1. `plan and route the step` (`route::plan_and_route_step`): layout candidates (greedy,
+//!    random, annealed, and at level 3 exact embeddings of the interaction graph,
+//!    `route::embed`), term orders (inside commuting groups, `route::order`, and at level 3 any
+//!    order the non-commuting pairs allow, `route::sweep`), SWAP insertion with lookahead, all
+//!    scored on one Trotter step of the campaign; the winner's routing of that step is kept
+//!    (`route::reuse`: it and its mirror image, or the SWAPs home, repeat `k·R` times).
+//!    Verified: every piece on coupled pairs;
+//! 2. `lower` (`route::DeviceCampaign`): the step's pieces to native gates once (fusion and
+//!    cancellation), verified with coupling and native rules;
+//! 3. `assemble`: per circuit, `family::frames` gives preparation and readout, routed and
+//!    stitched around the pieces, written as text from the pieces' texts (`route::campaign`),
+//!    so `costs.swaps` counts the SWAPs routing inserted (the step's once per step), before the
+//!    peephole pass folds the mirror seams.
 //!
 //! With `Spec::control = Prep` (`family::control`: |0…0⟩ shown to be an eigenstate of every
 //! factor of the formula) the evolution is synthesised without a control and the ancilla meets
@@ -21,10 +37,15 @@
 //! `route::plan_and_route_free_step` routes that uncontrolled step. The `evolution` family has
 //! no ancilla at all (`route::plan_and_route_plain_step`).
 //!
-//! 4. `qasm::write` (logical `q[k]` on all-to-all); on a device each piece's text is written
-//!    once and every program is assembled from those texts (`route::campaign`), so `costs.swaps`
-//!    there counts the SWAPs routing inserted (the step's once per step), before the peephole
-//!    pass folds the mirror seams.
+//! The levels (`compile --opt`): 0 is the textbook pipeline (one ladder per rotation of the
+//! unmerged formula in term order, one greedy layout, plain SWAP routing, nothing cancelled
+//! beyond what lowering to native gates must do); 1 merges the formula and cancels; 2 adds the
+//! layout search and the device-aware order inside commuting groups; 3 (the default) adds
+//! trees, the sweep schedule and exact embeddings, each as one more candidate scored by the
+//! two-qubit gates it emits, so that on a device a level never keeps a worse candidate than
+//! the level below it found. At utility scale (a first routing above 20,000 two-qubit gates
+//! plus SWAPs, `route::EXTRAS_MAX_UNIT`) the extras are skipped and levels 2 and 3 coincide:
+//! each would cost about one more routing per candidate.
 //!
 //! Nothing here does I/O; the command layer writes the files.
 
@@ -37,13 +58,15 @@ use crate::family::plan::Family;
 use crate::family::plan::{
     CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
 };
-use crate::family::{build_jobs, frames_with, Spec};
+use crate::family::{frames, frames_with, Spec};
+use crate::formula::{evolution, order_terms, textbook_evolution, Rotation};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
     RouteConfig,
 };
+use crate::synth::{Block, Chain, Sharing, Strategy, Tree};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -55,6 +78,131 @@ pub enum Target<'a> {
         device: &'a Device,
         config: &'a RouteConfig,
     },
+}
+
+/// How much work the compiler does to lower the two-qubit count (`compile --opt`; see the
+/// module header). Higher levels only add candidates or clean-ups to the level below.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord)]
+pub struct OptLevel(u8);
+
+impl OptLevel {
+    pub const TEXTBOOK: OptLevel = OptLevel(0);
+    pub const MAX: OptLevel = OptLevel(3);
+
+    /// Levels 0 to 3.
+    pub fn new(level: u8) -> Option<OptLevel> {
+        (level <= 3).then_some(OptLevel(level))
+    }
+
+    pub fn number(self) -> u8 {
+        self.0
+    }
+
+    /// The SWAP-insertion and layout-search settings of this level, from a base config (its
+    /// seed and stitching kept).
+    pub fn route_config(self, base: &RouteConfig) -> RouteConfig {
+        let mut c = base.clone();
+        if self.0 <= 1 {
+            c.layout_trials = 1;
+            c.refine_rounds = 0;
+            c.device_order = false;
+            c.hub_factors = false;
+        }
+        c.cancel = self.0 >= 1;
+        c.textbook = self.0 == 0;
+        c.score_two_qubit = true;
+        c.sweep = self.0 >= 3;
+        c.embed = self.0 >= 3;
+        c
+    }
+}
+
+impl Default for OptLevel {
+    fn default() -> OptLevel {
+        OptLevel::MAX
+    }
+}
+
+/// One pass of a target's list: its name (for the verifier's report) and what it does.
+pub struct Pass<'a> {
+    pub name: &'static str,
+    pub run: Box<dyn Fn(&mut Circuit) + Sync + 'a>,
+}
+
+/// Runs `passes` over `c` in order; in tests and debug builds `verify_ir` checks `rules`
+/// after every pass, in release builds after the last. A failure names the pass (a compiler
+/// bug, reported with the offending gate).
+pub fn run_passes(c: &mut Circuit, passes: &[Pass], rules: &Rules) -> Result<(), IrError> {
+    let check = |c: &Circuit, name: &str| {
+        verify_ir(c, rules).map_err(|e| IrError {
+            message: format!("after pass `{name}`: {}", e.message),
+            ..e
+        })
+    };
+    for (i, p) in passes.iter().enumerate() {
+        (p.run)(c);
+        if cfg!(debug_assertions) || i + 1 == passes.len() {
+            check(c, p.name)?;
+        }
+    }
+    Ok(())
+}
+
+/// Which `synth::Strategy` writes the rotations on the all-to-all target.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Synthesis {
+    /// `synth::Chain` with ascending ladders (levels 0–2).
+    Chain,
+    /// `synth::Tree`, balanced parity trees.
+    Tree,
+    /// `synth::Sharing`, chains starting on what the previous rotation shares.
+    Sharing,
+}
+
+/// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
+/// `synthesis`, controlled by the ancilla `control` when there is one), `readout`, and `cancel`
+/// from level 1.
+pub fn all_to_all_passes<'a>(
+    prefix: &'a [Gate],
+    program: &'a [Rotation],
+    control: Option<crate::circuit::Qubit>,
+    suffix: &'a [Gate],
+    level: OptLevel,
+    synthesis: Synthesis,
+) -> Vec<Pass<'a>> {
+    let mut passes = vec![
+        Pass {
+            name: "prepare",
+            run: Box::new(move |c: &mut Circuit| c.extend(prefix.iter().copied())),
+        },
+        Pass {
+            name: "synthesize",
+            run: Box::new(move |c: &mut Circuit| {
+                let block = Block {
+                    rotations: program,
+                    control,
+                    distance: None,
+                };
+                let ladder = |r: &Rotation| crate::synth::default_ladder(r);
+                match synthesis {
+                    Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
+                    Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
+                    Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
+                }
+            }),
+        },
+        Pass {
+            name: "readout",
+            run: Box::new(move |c: &mut Circuit| c.extend(suffix.iter().copied())),
+        },
+    ];
+    if level >= OptLevel(1) {
+        passes.push(Pass {
+            name: "cancel",
+            run: Box::new(crate::circuit::cancel::cancel_inverses),
+        });
+    }
+    passes
 }
 
 /// Why compilation stopped: the problem does not fit the target (bad input), or a pass broke
@@ -175,6 +323,16 @@ pub fn compile(h: &PauliSum, source: &str, spec: &Spec) -> Result<Compiled, Comp
     compile_for(h, source, spec, &Target::AllToAll)
 }
 
+/// Runs the passes for any target at the default (best) level.
+pub fn compile_for(
+    h: &PauliSum,
+    source: &str,
+    spec: &Spec,
+    target: &Target,
+) -> Result<Compiled, CompileError> {
+    compile_at(h, source, spec, target, OptLevel::default())
+}
+
 /// One circuit after the target-specific passes, with what the plan says about it.
 struct Finished {
     id: String,
@@ -234,12 +392,13 @@ fn header_comments(
     comments
 }
 
-/// Runs the passes for any target.
-pub fn compile_for(
+/// Runs the passes for any target at optimisation level `level`.
+pub fn compile_at(
     h: &PauliSum,
     source: &str,
     spec: &Spec,
     target: &Target,
+    level: OptLevel,
 ) -> Result<Compiled, CompileError> {
     let predicted = predicted_memory(h, spec, matches!(target, Target::Device { .. }));
     if let Some(avail) = crate::sim::available_memory_bytes() {
@@ -256,23 +415,75 @@ pub fn compile_for(
     }
     match target {
         Target::AllToAll => {
-            let default_ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
-            let done = build_jobs(h, spec, &default_ladder)
+            let terms = order_terms(h);
+            let n = h.num_qubits;
+            // The ancilla controls the rotations only in the textbook Hadamard test.
+            let control = (spec.control == Control::Evolution && spec.family != Family::Evolution)
+                .then_some(n as crate::circuit::Qubit);
+            // One rotation program per time point, shared by every circuit at that point.
+            let programs: Vec<Vec<Rotation>> = (0..spec.points)
                 .into_par_iter()
-                .map(|j| {
-                    verify_ir(&j.circuit, &Rules::default())?;
+                .map(|k| {
+                    let (t, r) = (k as f64 * spec.dt, k * spec.steps_per_dt);
+                    if level == OptLevel::TEXTBOOK {
+                        textbook_evolution(&terms, spec.order, t, r)
+                    } else {
+                        evolution(&terms, spec.order, t, r)
+                    }
+                })
+                .collect();
+            // Level 3 also tries each program in the order that lets neighbours share
+            // (`route::sweep::schedule_by_agreement`: the same product exactly).
+            let agreeing: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
+                programs
+                    .par_iter()
+                    .map(|p| crate::route::sweep::schedule_by_agreement(p))
+                    .collect()
+            } else {
+                vec![None; programs.len()]
+            };
+            let done = frames(h, spec)
+                .into_par_iter()
+                .map(|f| {
+                    let run = |program: &[Rotation], synthesis: Synthesis| {
+                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+                        let passes = all_to_all_passes(
+                            &f.prefix, program, control, &f.suffix, level, synthesis,
+                        );
+                        run_passes(&mut circuit, &passes, &Rules::default()).map(|_| circuit)
+                    };
+                    let mut circuit = run(&programs[f.k], Synthesis::Chain)?;
+                    if level >= OptLevel(3) {
+                        // Trees are shallower but may cancel less between neighbouring
+                        // rotations, and the agreeing order cancels more but may be deeper:
+                        // the emitted circuit with fewer two-qubit gates (then the lower
+                        // depth) is kept, so level 3 never emits more than level 2.
+                        let key = |c: &Circuit| {
+                            let k = counts(c);
+                            (k.two_qubit, k.depth)
+                        };
+                        let mut others = vec![run(&programs[f.k], Synthesis::Tree)?];
+                        if let Some(p) = &agreeing[f.k] {
+                            others.push(run(p, Synthesis::Sharing)?);
+                        }
+                        for c in others {
+                            if key(&c) < key(&circuit) {
+                                circuit = c;
+                            }
+                        }
+                    }
                     Ok(Finished {
-                        costs: counts(&j.circuit).into(),
-                        id: j.id,
-                        k: j.k,
-                        time: j.time,
-                        part: j.part,
-                        state: j.state,
-                        group: j.group,
-                        reads: j.reads,
-                        num_qubits: j.circuit.num_qubits,
-                        num_clbits: j.circuit.num_clbits,
-                        output: Output::Circuit(j.circuit),
+                        costs: counts(&circuit).into(),
+                        id: f.id,
+                        k: f.k,
+                        time: f.time,
+                        part: f.part,
+                        state: f.state,
+                        group: f.group,
+                        reads: f.reads,
+                        num_qubits: circuit.num_qubits,
+                        num_clbits: circuit.num_clbits,
+                        output: Output::Circuit(circuit),
                         final_layout: Vec::new(),
                     })
                 })
@@ -280,6 +491,18 @@ pub fn compile_for(
             Ok(finish(h, source, spec, done, None, Addressing::Logical))
         }
         Target::Device { device, config } => {
+            let mut config = level.route_config(config);
+            // On a device the controlled preparation joins set bits through their index
+            // neighbours (`family::control::Joins`).
+            let all_frames = frames_with(h, spec, crate::family::control::Joins::Neighbours);
+            config.campaign_weights = Some((
+                all_frames.iter().filter(|f| f.k > 0).count() as f64,
+                all_frames
+                    .iter()
+                    .map(|f| (f.k * spec.steps_per_dt) as f64)
+                    .sum(),
+            ));
+            let config = &config;
             // One step of length dt / R, routed once (while the layout is chosen) and reused by
             // every circuit: time point k runs k·R blocks of it (`route::reuse`).
             let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
@@ -297,6 +520,21 @@ pub fn compile_for(
                 }
             }
             .map_err(CompileError::DoesNotFit)?;
+            if cfg!(debug_assertions) {
+                // Pass `plan and route the step`: every piece on coupled pairs (pieces of two
+                // and three steps between them hold every distinct piece).
+                let coupled = |a: u32, b: u32| device.coupled(a, b);
+                let rules = Rules {
+                    coupled: Some(&coupled),
+                    native: None,
+                };
+                for piece in step.pieces(2).into_iter().chain(step.pieces(3)) {
+                    verify_ir(piece, &rules).map_err(|e| IrError {
+                        message: format!("after pass `plan and route the step`: {}", e.message),
+                        ..e
+                    })?;
+                }
+            }
             let info = DeviceInfo {
                 name: device.name.clone(),
                 num_qubits: device.num_qubits,
@@ -304,9 +542,7 @@ pub fn compile_for(
                 initial_layout: tp.initial_layout.clone(),
             };
             let campaign = DeviceCampaign::new(step, &tp, device, config)?;
-            // On a device the controlled preparation joins set bits through their index
-            // neighbours (`family::control::Joins`).
-            let done = frames_with(h, spec, crate::family::control::Joins::Neighbours)
+            let done = all_frames
                 .into_par_iter()
                 .map(|f| {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
@@ -413,6 +649,7 @@ fn finish(
         states: spec.states.clone(),
         seed: None,
         energy_unit: None,
+        coefficient_cutoff: None,
         points: spec.points,
         control: spec.control,
         device,

@@ -8,7 +8,7 @@ use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
 use crate::lang::codes::Code;
 use crate::lang::diag::Diagnostic;
-use crate::pipeline::{compile_for, Compiled, Target};
+use crate::pipeline::{compile_at, Compiled, OptLevel, Target};
 use crate::report::table::Table;
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -110,6 +110,16 @@ pub struct CompileArgs {
     /// tasks of a job array; `phasewright merge` joins the N folders into the one campaign.
     #[arg(long, value_name = "I/N", value_parser = super::shard::parse_shard)]
     pub shard: Option<(usize, usize)>,
+    /// Optimisation level: 0 the textbook pipeline (one CNOT ladder per rotation of the
+    /// unmerged formula, one greedy layout, plain SWAP routing, nothing cancelled); 1 merges
+    /// and cancels; 2 searches layouts and term orders; 3 also schedules the rotations by
+    /// non-commutation, tries exact embeddings and uses balanced parity trees.
+    #[arg(long = "opt", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=3))]
+    pub opt: u8,
+    /// Drop Pauli strings whose |coefficient| is below this before compiling (integral
+    /// round-off; 0 keeps all). Recorded in plan.json.
+    #[arg(long, default_value_t = super::convert::DEFAULT_CUTOFF, value_parser = super::convert::parse_cutoff)]
+    pub cutoff: f64,
 }
 
 /// Random product states of a trace campaign without --samples.
@@ -290,7 +300,8 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
             Some("drop --samples, or add --measure trace"),
         ));
     }
-    let (h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
+    let (mut h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
+    let cut = super::convert::drop_below(&mut h, args.cutoff);
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(
@@ -409,10 +420,12 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         None => Target::AllToAll,
     };
     let source = super::io::display_name(&args.hamiltonian);
-    let mut compiled = compile_for(&h, &source, &spec, &target)?;
+    let level = OptLevel::new(args.opt).expect("clap keeps --opt in 0..=3");
+    let mut compiled = compile_at(&h, &source, &spec, &target, level)?;
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
+    compiled.plan.coefficient_cutoff = Some(args.cutoff);
     if chem.is_some() {
         // FCIDUMP integrals are in hartree by the format's convention.
         compiled.plan.energy_unit = Some("hartree".into());
@@ -476,6 +489,12 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     }
     if let Some(r) = &reference {
         text += &r.text;
+    }
+    if cut > 0 {
+        text += &format!(
+            "{cut} strings with |coefficient| < {:e} dropped before compiling (--cutoff; recorded in plan.json).\n",
+            args.cutoff
+        );
     }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
     g.say(&text)

@@ -45,6 +45,29 @@ pub struct ConvertArgs {
     /// orbitals are frozen doubly occupied, higher ones dropped. Example: --active 2-5
     #[arg(long, value_parser = parse_active)]
     pub active: Option<ActiveSpace>,
+    /// Drop Pauli strings whose |coefficient| is below this (integral round-off; 0 keeps all).
+    #[arg(long, default_value_t = DEFAULT_CUTOFF, value_parser = parse_cutoff)]
+    pub cutoff: f64,
+}
+
+/// Default of `--cutoff` (in the input's units, hartree for integral files): far below
+/// chemical accuracy (1.6e-3 Ha) and any Trotter error a campaign can resolve, and above the
+/// round-off of double-precision integral transformations (about 1e-14 relative).
+pub const DEFAULT_CUTOFF: f64 = 1e-10;
+
+/// A non-negative finite `--cutoff`.
+pub fn parse_cutoff(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(x) if x.is_finite() && x >= 0.0 => Ok(x),
+        _ => Err(format!("`{s}` is not a non-negative number")),
+    }
+}
+
+/// Drops the non-identity strings of `h` with `|coefficient| < cutoff`; returns how many.
+pub fn drop_below(h: &mut PauliSum, cutoff: f64) -> usize {
+    let before = h.terms.len();
+    h.terms.retain(|_, c| c.abs() >= cutoff);
+    before - h.terms.len()
 }
 
 fn parse_encoding(s: &str) -> std::result::Result<Encoding, String> {
@@ -154,13 +177,14 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
         ));
     }
     crate::app::io::check_out_file(&args.output, "-o", None, true)?;
-    let (h, info, loaded) = load(
+    let (mut h, info, loaded) = load(
         &args.input,
         LoadOptions {
             encoding: args.encoding,
             active: args.active,
         },
     )?;
+    let cut = drop_below(&mut h, args.cutoff);
     let input = if crate::app::io::is_stdio(&args.input) {
         "<stdin>".to_string()
     } else {
@@ -186,6 +210,10 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
             i.norb, i.nelec, i.ms2, i.frozen_orbitals, i.core_energy_ha, i.hf_state, i.hf_energy_ha
         ));
     }
+    header.push_str(&format!(
+        "coefficient cutoff: strings with |c| < {:e} dropped ({cut} of them)\n",
+        args.cutoff
+    ));
     let text = write_hamiltonian(&h, &header);
     crate::app::io::write_output(&args.output, text.as_bytes())?;
     if to_stdout {
@@ -206,6 +234,10 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
             loaded.terms_read, loaded.dropped_zero
         ));
     }
+    summary.push_str(&format!(
+        "; {cut} strings with |coefficient| < {:e} dropped (--cutoff)",
+        args.cutoff
+    ));
     summary.push('\n');
     if let Some(i) = &info {
         summary += &format!(
@@ -221,6 +253,8 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
         "encoding": loaded.encoding.map(|e| e.short_name()),
         "terms_read": info.is_none().then_some(loaded.terms_read),
         "dropped_zero": loaded.dropped_zero,
+        "coefficient_cutoff": args.cutoff,
+        "dropped_below_cutoff": cut,
         "hartree_fock": info.as_ref().map(|i| serde_json::json!({
             "state": i.hf_state,
             "energy_ha": i.hf_energy_ha,

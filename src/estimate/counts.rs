@@ -544,6 +544,7 @@ pub(crate) mod tests {
             states: vec!["00".into()],
             seed: None,
             energy_unit: None,
+            coefficient_cutoff: None,
             points: 2,
             control: crate::family::control::Control::Evolution,
             device: None,

@@ -53,6 +53,10 @@ pub struct Plan {
     /// of its coefficients.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub energy_unit: Option<String>,
+    /// Strings with `|coefficient|` below this were dropped from the input as round-off
+    /// before compiling (`compile --cutoff`); absent in plans written before the option.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub coefficient_cutoff: Option<f64>,
     /// Number of time points K: k runs over 0..K.
     pub points: usize,
     /// What the ancilla controls: `evolution` (every rotation) or `prep` (only the state

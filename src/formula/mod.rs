@@ -372,6 +372,46 @@ pub fn evolution(
     b.finish()
 }
 
+/// The textbook expansion of the formula over `terms`: every factor of every step, in term
+/// order, nothing merged (the textbook pipeline, `compile --opt 0`). The same operator as `formula::evolution`, which merges
+/// only factors that commute past each other.
+pub fn textbook_evolution(
+    terms: &[(PauliString, f64)],
+    order: Order,
+    t: f64,
+    steps: usize,
+) -> Vec<Rotation> {
+    let mut out = Vec::new();
+    if steps == 0 {
+        return out;
+    }
+    let dt = t / steps as f64;
+    let strang = |out: &mut Vec<Rotation>, dt: f64| {
+        for (p, c) in terms.iter().chain(terms.iter().rev()) {
+            out.push(Rotation {
+                pauli: p.clone(),
+                theta: c * dt / 2.0,
+            });
+        }
+    };
+    for _ in 0..steps {
+        match order {
+            Order::First => out.extend(terms.iter().map(|(p, c)| Rotation {
+                pauli: p.clone(),
+                theta: c * dt,
+            })),
+            Order::Second => strang(&mut out, dt),
+            Order::Fourth => {
+                let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
+                for f in [p, p, 1.0 - 4.0 * p, p, p] {
+                    strang(&mut out, f * dt);
+                }
+            }
+        }
+    }
+    out
+}
+
 /// Applies a rotation program to a state exactly (the ideal product-formula evolution).
 pub fn apply_program(state: &mut State, program: &[Rotation]) {
     for r in program {

@@ -22,6 +22,14 @@
 //!    its routing of the step is kept. All circuits of a campaign share that initial layout,
 //!    which plan.json records once, and follow [`TargetPlan::terms`], which computes exactly
 //!    what `formula::order_terms` would (a permutation inside commuting groups).
+//!    With the extras of `--opt 3` (`RouteConfig::sweep`, `embed`; on steps whose first
+//!    routing stays under [`EXTRAS_MAX_UNIT`]) the candidates also include exact embeddings of
+//!    the interaction graph ([`embed`]) and the step in the order of [`sweep`] (any order the
+//!    non-commuting pairs allow, the ancilla crossing the chip once), routed both by the
+//!    lookahead router and in order with the ancilla as hub ([`hub`]); candidates are scored by
+//!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`), and the best
+//!    swept and the best split step are finally compared on the whole campaign
+//!    ([`plan_and_route_step`]).
 //! 2. The kept step is reused by every circuit ([`reuse`]: alternating with its mirror image
 //!    for symmetric formulas, with the SWAPs home for Lie–Trotter), and [`campaign`] lowers it
 //!    once and assembles each circuit from it, its own state preparation and its readout.
@@ -43,10 +51,13 @@
 
 pub mod campaign;
 pub mod check;
+pub mod embed;
+pub mod hub;
 pub mod layout;
 pub mod order;
 pub mod reuse;
 pub mod swap;
+pub mod sweep;
 
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Qubit};
@@ -59,6 +70,7 @@ pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
 pub use order::{device_order, order_for_device, DeviceOrder};
 pub use reuse::RoutedStep;
+// (StepForm is defined here)
 use swap::{insert_swaps, reversed, SwapParams};
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
@@ -88,6 +100,23 @@ pub struct RouteConfig {
     pub stitch_min_gates: usize,
     /// Gates at each end of a lowered block that are lowered again with their neighbour.
     pub stitch_window: usize,
+    /// Try both ancilla SWAP factors (`ANCILLA_SWAP_FACTORS`); off: neutral only.
+    pub hub_factors: bool,
+    /// Peephole cancellation of each synthesised step (off at `--opt 0`).
+    pub cancel: bool,
+    /// The step is the unmerged textbook expansion (`formula::textbook_evolution`, `--opt 0`).
+    pub textbook: bool,
+    /// Also score the sweep schedule of [`sweep`] (any order the non-commuting pairs allow).
+    pub sweep: bool,
+    /// Also score exact embeddings of the interaction graph ([`embed`]) as layouts.
+    pub embed: bool,
+    /// Score candidates by the two-qubit gates of the routed step once lowered (what is
+    /// emitted) rather than by SWAPs.
+    pub score_two_qubit: bool,
+    /// The campaign's circuits and their total number of Trotter steps, if known: the best
+    /// swept and the best split step are then compared on the whole campaign
+    /// ([`plan_and_route_step`]); `None`: on one step.
+    pub campaign_weights: Option<(f64, f64)>,
 }
 
 impl Default for RouteConfig {
@@ -106,6 +135,13 @@ impl Default for RouteConfig {
             device_order: true,
             stitch_min_gates: campaign::STITCH_MIN_GATES,
             stitch_window: campaign::STITCH_WINDOW,
+            hub_factors: true,
+            cancel: true,
+            textbook: false,
+            sweep: true,
+            embed: true,
+            score_two_qubit: true,
+            campaign_weights: None,
         }
     }
 }
@@ -141,6 +177,8 @@ pub struct TargetPlan {
     /// Length of the first commuting group of the plan's term order, whose halves meet at the
     /// seams of reused symmetric steps ([`reuse::step_parts`]); 0: the step is not split.
     pub edge_terms: usize,
+    /// How the step's program is written ([`reuse::step_parts`]).
+    pub step_form: StepForm,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -192,6 +230,7 @@ impl TargetPlan {
             ancilla_swap_factor: 1.0,
             order: None,
             edge_terms: 0,
+            step_form: StepForm::default(),
             dist,
         })
     }
@@ -268,6 +307,18 @@ impl TargetPlan {
     }
 }
 
+/// How [`reuse::step_parts`] writes one step: which program, in which order, cancelled or not.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct StepForm {
+    /// The unmerged textbook expansion (`--opt 0`) instead of `formula::step`.
+    pub textbook: bool,
+    /// No peephole cancellation of the synthesised step (`--opt 0`).
+    pub uncancelled: bool,
+    /// The program reordered by [`sweep::schedule`] (ladders rooted where the walk meets each
+    /// rotation); the step is then not split at seams.
+    pub sweep: bool,
+}
+
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
 /// ancilla (on `benches/routing.rs`, 0.9 lowers the SWAP count in most cases and 1.0 in a few,
 /// so both are scored on the skeleton).
@@ -283,6 +334,8 @@ enum OrderChoice {
     Walk,
     /// [`device_order`]'s terms with roots nearest the ancilla's initial site.
     WalkNearestRoots,
+    /// The default terms' program in the order of [`sweep::schedule`], not split at seams.
+    Sweep,
 }
 
 /// On `benches/routing.rs` the walk's roots win on most pairs and the initial-site roots on a
@@ -292,6 +345,14 @@ const ORDER_CHOICES: [OrderChoice; 3] = [
     OrderChoice::WalkNearestRoots,
     OrderChoice::Default,
 ];
+
+/// Steps whose first routing costs more units (two-qubit gates plus SWAPs) than this are not
+/// scored with the sweep schedule, exact embeddings or the textbook step, and candidates are
+/// scored by the peephole count rather than by lowering: both cost about one more routing per candidate, which at utility scale
+/// (a 1,000-term step on 127 qubits, ~40,000 units) tripled the layout search's time on the
+/// `utility_device` benchmark. The swept step's gain is largest on lattice models, whose
+/// steps are small.
+pub const EXTRAS_MAX_UNIT: usize = 20_000;
 
 /// A circuit on the device.
 #[derive(Clone, Debug)]
@@ -365,7 +426,11 @@ pub fn plan_target(
     dev: &Device,
     cfg: &RouteConfig,
 ) -> Result<TargetPlan, String> {
-    Ok(plan_on_step(h, ancilla, None, dev, cfg, Order::Second, 1.0)?.0)
+    Ok(
+        plan_on_step(h, ancilla, None, dev, cfg, Order::Second, 1.0)?
+            .0
+             .0,
+    )
 }
 
 /// [`plan_target`] scoring on the campaign's own step (`order`, length `dt`) and returning the
@@ -377,8 +442,7 @@ pub fn plan_and_route_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, routed) = plan_on_step(h, true, None, dev, cfg, order, dt)?;
-    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+    route_with(h, true, None, dev, cfg, order, dt)
 }
 
 /// [`plan_and_route_step`] for the control-free Hadamard test (`family::control`): the layout
@@ -393,8 +457,7 @@ pub fn plan_and_route_free_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, routed) = plan_on_step(h, true, Some(partners), dev, cfg, order, dt)?;
-    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+    route_with(h, true, Some(partners), dev, cfg, order, dt)
 }
 
 /// [`plan_and_route_step`] for circuits without an ancilla (plain time evolution).
@@ -405,31 +468,57 @@ pub fn plan_and_route_plain_step(
     order: Order,
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), String> {
-    let (plan, routed) = plan_on_step(h, false, None, dev, cfg, order, dt)?;
-    Ok(route_planned(h, plan, routed, dev, cfg, order, dt))
+    route_with(h, false, None, dev, cfg, order, dt)
 }
 
-fn route_planned(
+fn route_with(
     h: &PauliSum,
-    plan: TargetPlan,
-    routed: Option<(reuse::StepParts, swap::SwapOutcome, Vec<swap::Mark>)>,
+    ancilla: bool,
+    free_ancilla: Option<&[usize]>,
     dev: &Device,
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> (TargetPlan, RoutedStep) {
-    let params = plan_swap_params(&plan, cfg);
+) -> Result<(TargetPlan, RoutedStep), String> {
+    let (winner, other) = plan_on_step(h, ancilla, free_ancilla, dev, cfg, order, dt)?;
     let symmetric = order != Order::First;
-    let step = match routed {
-        Some((parts, fwd, marks)) => {
-            reuse::route_from(&parts, fwd, marks, &plan, dev, &params, symmetric)
-        }
-        None => {
-            let parts = reuse::step_parts(&plan.terms(h), &plan, order, dt);
-            reuse::route_step(&parts, &plan, dev, &params, symmetric)
-        }
+    let build = |(plan, routed): Planned| {
+        let params = plan_swap_params(&plan, cfg);
+        let step = match routed {
+            Some((parts, fwd, marks)) => {
+                reuse::route_from(&parts, fwd, marks, &plan, dev, &params, symmetric)
+            }
+            None => {
+                let parts = reuse::step_parts(&plan.terms(h), &plan, order, dt);
+                reuse::route_step(&parts, &plan, dev, &params, symmetric)
+            }
+        };
+        (plan, step)
     };
-    (plan, step)
+    let first = build(winner);
+    let (Some((circuits, steps)), Some(other)) = (cfg.campaign_weights, other) else {
+        return Ok(first);
+    };
+    // One step decides the search; the campaign decides between a swept step (one sweep, no
+    // merged seams) and a split one (seams merged): each circuit of r steps costs about
+    // a + b·r two-qubit gates, with a and b from one and two steps as emitted.
+    let second = build(other);
+    let cost = |step: &RoutedStep| {
+        let emitted = |r: usize| {
+            let mut c = Circuit::new(dev.num_qubits, 0);
+            for piece in step.pieces(r) {
+                c.extend(piece.gates.iter().copied());
+            }
+            emitted_two_qubit(&c, dev) as f64
+        };
+        let (c1, c2) = (emitted(1), emitted(2));
+        circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
+    };
+    Ok(if cost(&second.1) < cost(&first.1) {
+        second
+    } else {
+        first
+    })
 }
 
 /// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
@@ -456,7 +545,7 @@ fn plan_on_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<Planned, String> {
+) -> Result<(Planned, Option<Planned>), String> {
     let n_sys = h.num_qubits;
     let n = n_sys + ancilla as usize;
     let with_anc = if ancilla {
@@ -472,7 +561,7 @@ fn plan_on_step(
     }
     if n == 0 {
         let plan = TargetPlan::with_layout(0, false, dev, Vec::new())?;
-        return Ok((plan, None));
+        return Ok(((plan, None), None));
     }
     let comps = dev.components();
     let comp = match comps.first() {
@@ -511,60 +600,101 @@ fn plan_on_step(
     };
     let mut params = cfg.swap_params();
     params.hub = controls.then_some(n_sys as u32);
+    let factors: &'static [f64] = if controls && cfg.hub_factors {
+        &ANCILLA_SWAP_FACTORS
+    } else {
+        &[1.0]
+    };
+    // The sweep schedule is not among these: it is scored on top of the search a level
+    // below would run (`extra` below), so adding it never changes what else is tried.
+    let choices: &'static [OrderChoice] = if cfg.device_order && controls {
+        &ORDER_CHOICES
+    } else {
+        &[OrderChoice::Default]
+    };
+    let form = StepForm {
+        textbook: cfg.textbook,
+        uncancelled: !cfg.cancel,
+        sweep: false,
+    };
     let full = Search {
         trials: cfg.layout_trials.max(1),
-        factors: if controls {
-            &ANCILLA_SWAP_FACTORS
-        } else {
-            &[1.0]
-        },
-        choices: if cfg.device_order && controls {
-            &ORDER_CHOICES
-        } else {
-            &[OrderChoice::Default]
-        },
+        factors,
+        choices,
         rounds: cfg.refine_rounds,
     };
     // The device order depends only on the layout: computed once per layout tried.
     let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
-    let mut evaluate = |l: &[u32], factor: f64, choice: OrderChoice, params: &mut SwapParams| {
-        let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
-        if !controls {
-            plan.ancilla = None;
-        }
-        let terms = if choice != OrderChoice::Default {
-            let mut o = orders
-                .entry(l.to_vec())
-                .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
-                .clone();
-            if choice == OrderChoice::WalkNearestRoots {
-                o.roots.clear();
+    let mut evaluate =
+        |l: &[u32], factor: f64, choice: OrderChoice, form: StepForm, params: &mut SwapParams| {
+            let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
+            if !controls {
+                plan.ancilla = None;
             }
-            let terms = o.terms.clone();
-            plan.order = Some(o);
-            terms
-        } else {
-            default_terms.clone()
+            let terms = if !matches!(choice, OrderChoice::Default | OrderChoice::Sweep) {
+                let mut o = orders
+                    .entry(l.to_vec())
+                    .or_insert_with(|| order::device_order_in(&groups, &plan, dev))
+                    .clone();
+                if choice == OrderChoice::WalkNearestRoots {
+                    o.roots.clear();
+                }
+                let terms = o.terms.clone();
+                plan.order = Some(o);
+                terms
+            } else {
+                default_terms.clone()
+            };
+            plan.ancilla_swap_factor = factor;
+            plan.edge_terms = if choice == OrderChoice::Sweep {
+                0
+            } else {
+                edge_terms
+            };
+            plan.step_form = StepForm {
+                sweep: choice == OrderChoice::Sweep,
+                ..form
+            };
+            params.hub_factor = factor;
+            let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
+            let (mut fwd, marks) =
+                swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
+            if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
+                // The swept order is the walk: the in-order hub router follows it (`hub`).
+                let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
+                if emitted_two_qubit(&walked.circuit, dev) < emitted_two_qubit(&fwd.circuit, dev) {
+                    fwd = walked;
+                }
+            }
+            Ok::<_, String>((plan, parts, fwd, marks))
         };
-        plan.ancilla_swap_factor = factor;
-        plan.edge_terms = edge_terms;
-        params.hub_factor = factor;
-        let parts = reuse::step_parts(&terms, &plan, order, dt);
-        let (fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, params, &parts.cuts);
-        Ok::<_, String>((plan, parts, fwd, marks))
+    // Lowering every candidate is exact but costs about a routing; above `EXTRAS_MAX_UNIT`
+    // the peephole count (SWAP = 3) stands in for it.
+    let lowered_score = std::cell::Cell::new(cfg.score_two_qubit);
+    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| {
+        let first = if lowered_score.get() {
+            emitted_two_qubit(&fwd.circuit, dev)
+        } else if cfg.score_two_qubit {
+            reuse::two_qubit_cost(&fwd.circuit)
+        } else {
+            fwd.swaps
+        };
+        (first, layout::layout_cost(&w, l, dev))
     };
-    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| (fwd.swaps, layout::layout_cost(&w, l, dev));
-    let mut best: Option<((usize, f64), Planned)> = None;
+    // The best plan with a split (or plain) step, and the best swept one: they differ in how
+    // later steps join (`reuse`), so `plan_and_route_step` may compare them on the campaign.
+    let mut bests: [Option<((usize, f64), Planned)>; 2] = [None, None];
     let mut consider = |key: (usize, f64),
                         plan: TargetPlan,
                         parts: &reuse::StepParts,
                         fwd: &swap::SwapOutcome,
                         marks: &[swap::Mark]| {
+        let best = &mut bests[plan.step_form.sweep as usize];
         let better = best
             .as_ref()
             .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
         if better {
-            best = Some((
+            *best = Some((
                 key,
                 (plan, Some((parts.clone(), fwd.clone(), marks.to_vec()))),
             ));
@@ -572,7 +702,13 @@ fn plan_on_step(
     };
     // The first routing of the full search measures the work of one routing.
     let first_layout = candidate(0);
-    let first_eval = evaluate(&first_layout, full.factors[0], full.choices[0], &mut params)?;
+    let first_eval = evaluate(
+        &first_layout,
+        full.factors[0],
+        full.choices[0],
+        form,
+        &mut params,
+    )?;
     let unit = first_eval
         .1
         .circuit
@@ -582,10 +718,16 @@ fn plan_on_step(
         .count()
         + first_eval.2.swaps;
     let allowed = (PLAN_BUDGET / unit.max(1)).max(1);
+    let small = unit <= EXTRAS_MAX_UNIT;
+    lowered_score.set(cfg.score_two_qubit && small);
     let search = std::iter::once(full)
         .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
             trials: t.min(full.trials),
-            factors: if controls { f } else { &[1.0] },
+            factors: if controls && cfg.hub_factors {
+                f
+            } else {
+                &[1.0]
+            },
             choices: if cfg.device_order && controls {
                 c
             } else {
@@ -607,12 +749,29 @@ fn plan_on_step(
             candidates.push(l);
         }
     }
+    if cfg.embed && small {
+        for l in embed::embedding_layouts(h, ancilla, &comp, dev) {
+            if !candidates.contains(&l) {
+                candidates.push(l);
+            }
+        }
+    }
+    // The sweep schedule is scored at the search's own levels while its work stays bounded.
+    let sweep_ok = cfg.sweep && controls && search.trials > 1 && small;
+    let extra: &[OrderChoice] = if sweep_ok && !search.choices.contains(&OrderChoice::Sweep) {
+        &[OrderChoice::Sweep]
+    } else {
+        &[]
+    };
     let mut first = Some(first_eval);
-    for (&factor, &choice) in search
-        .factors
-        .iter()
-        .flat_map(|f| search.choices.iter().map(move |c| (f, c)))
-    {
+    for (&factor, &choice) in search.factors.iter().flat_map(|f| {
+        search
+            .choices
+            .iter()
+            .chain(extra)
+            .filter(move |&&c| c != OrderChoice::Sweep || sweep_ok)
+            .map(move |c| (f, c))
+    }) {
         for start in &candidates {
             let mut l = start.clone();
             for round in 0..=search.rounds {
@@ -625,7 +784,7 @@ fn plan_on_step(
                     (_, f) => {
                         first = f;
                         params.hub_factor = factor;
-                        evaluate(&l, factor, choice, &mut params)?
+                        evaluate(&l, factor, choice, form, &mut params)?
                     }
                 };
                 consider(key_of(&fwd, &l), plan, &parts, &fwd, &marks);
@@ -642,7 +801,42 @@ fn plan_on_step(
         // The measuring routing was not part of the chosen search: it still competes.
         consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
     }
-    Ok(best.expect("at least one candidate").1)
+    if cfg.score_two_qubit && !cfg.textbook && small {
+        // What the level-0 pipeline would emit (unmerged, uncancelled, first layout) competes
+        // too, so a level never keeps a step that costs more than the textbook one.
+        let textbook = StepForm {
+            textbook: true,
+            uncancelled: true,
+            sweep: false,
+        };
+        let (plan, parts, fwd, marks) = evaluate(
+            &first_layout,
+            1.0,
+            OrderChoice::Default,
+            textbook,
+            &mut params,
+        )?;
+        consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
+    }
+    let [plain, swept] = bests;
+    Ok(match (plain, swept) {
+        (Some(a), Some(b)) if b.0 .0 < a.0 .0 || (b.0 .0 == a.0 .0 && b.0 .1 < a.0 .1 - 1e-12) => {
+            (b.1, Some(a.1))
+        }
+        (Some(a), b) => (a.1, b.map(|b| b.1)),
+        (None, Some(b)) => (b.1, None),
+        (None, None) => unreachable!("at least one candidate"),
+    })
+}
+
+/// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native
+/// gates with fusion and cancellation: what the campaign will emit for it.
+fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
+    lower_to_native(c, &dev.native)
+        .gates
+        .iter()
+        .filter(|g| g.is_two_qubit())
+        .count()
 }
 
 /// SWAP insertion, lowering, fusion and cancellation of one logical circuit; `verify_ir` after

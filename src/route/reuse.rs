@@ -236,8 +236,41 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan) -> Circuit {
     for r in rotations {
         c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
     }
-    cancel_inverses(&mut c);
+    if !plan.step_form.uncancelled {
+        cancel_inverses(&mut c);
+    }
     c
+}
+
+/// The step's program as [`StepForm`] asks: the textbook expansion or `formula::step`.
+fn program(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+) -> Vec<Rotation> {
+    if plan.step_form.textbook {
+        crate::formula::textbook_evolution(terms, order, dt, 1)
+    } else {
+        step(terms, order, dt)
+    }
+}
+
+/// The step in the order of [`super::sweep::schedule`], each ladder a nearest-neighbour chain
+/// ending at the scheduled root; `None` when the schedule's work bound is exceeded.
+fn swept(rotations: &[Rotation], plan: &TargetPlan, dev: &Device) -> Option<Circuit> {
+    let s = super::sweep::schedule(rotations, plan, dev)?;
+    let mut c = Circuit::new(plan.initial_layout.len(), 0);
+    for (r, &root) in s.rotations.iter().zip(&s.roots) {
+        let support: Vec<u32> = crate::synth::default_ladder(r);
+        let (mut chain, _) = plan.chain_from(root, &support);
+        chain.reverse();
+        c.extend(pauli_rotation_along(r, plan.ancilla, &chain));
+    }
+    if !plan.step_form.uncancelled {
+        cancel_inverses(&mut c);
+    }
+    Some(c)
 }
 
 /// The first `plan.edge_terms` terms (a commuting group, the first of the order) with each
@@ -259,16 +292,40 @@ fn edge(terms: &[(PauliString, f64)], factor: f64) -> Vec<Rotation> {
 /// `K(x) = S₂(xδ)` over the other terms and `G(x)` the group at `xδ/2` (the Suzuki product
 /// `S₂(pδ)² S₂((1−4p)δ) S₂(pδ)²` with the group's halves that meet merged, which is exact since
 /// they commute); `E'` is `E` reversed. Otherwise one part, `formula::step`.
+///
+/// With [`StepForm::sweep`] (and a device to measure the walk on) the program of one part is
+/// reordered by [`super::sweep::schedule`] and never split.
 pub fn step_parts(
     terms: &[(PauliString, f64)],
     plan: &TargetPlan,
     order: Order,
     dt: f64,
 ) -> StepParts {
+    step_parts_on(terms, plan, order, dt, None)
+}
+
+/// [`step_parts`] with the device a sweep schedule walks on.
+pub fn step_parts_on(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+    dev: Option<&Device>,
+) -> StepParts {
     let e = plan.edge_terms;
-    if order == Order::First || e == 0 || e >= terms.len() {
+    if let (true, Some(dev)) = (plan.step_form.sweep, dev) {
+        let rotations = program(terms, plan, order, dt);
+        if let Some(circuit) = swept(&rotations, plan, dev) {
+            return StepParts {
+                circuit,
+                cuts: Vec::new(),
+                merged_edge: None,
+            };
+        }
+    }
+    if order == Order::First || e == 0 || e >= terms.len() || plan.step_form.textbook {
         return StepParts {
-            circuit: controlled(&step(terms, order, dt), plan),
+            circuit: controlled(&program(terms, plan, order, dt), plan),
             cuts: Vec::new(),
             merged_edge: None,
         };
@@ -381,7 +438,7 @@ impl RoutedStep {
 }
 
 /// Two-qubit gates a physical circuit costs after peephole cancellation (a SWAP counts 3).
-fn two_qubit_cost(c: &Circuit) -> usize {
+pub(crate) fn two_qubit_cost(c: &Circuit) -> usize {
     let mut c = c.clone();
     cancel_inverses(&mut c);
     c.gates

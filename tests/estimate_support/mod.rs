@@ -353,6 +353,7 @@ pub fn campaign_formula(
         states: states.iter().map(|s| s.to_string()).collect(),
         seed: None,
         energy_unit: None,
+        coefficient_cutoff: None,
         points,
         control: phasewright::family::control::Control::Evolution,
         device: None,
