@@ -22,7 +22,7 @@ use std::path::PathBuf;
 /// distribution, as if the files had been run.
 ///
 /// Writes a counts file: {"format": "phasewright-counts/1", "bit_order": "first", "shots": N,
-/// "counts": {"<circuit id>": {"<bitstring>": count}}}. Bitstrings list classical bit 0 first
+/// "counts": `{"<circuit id>": {"<bitstring>": count}}}`. Bitstrings list classical bit 0 first
 /// (leftmost). Each circuit gets its own random stream derived from --seed, so the file does
 /// not depend on the number of threads.
 ///

@@ -290,21 +290,7 @@ fn descend(h: &PauliSum, mut s: Vec<char>, alphabet: &[char]) -> Vec<char> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::pauli::PauliString;
-
-    fn tfim(n: usize, j: f64, g: f64) -> PauliSum {
-        let mut h = PauliSum::new(n);
-        for q in 0..n - 1 {
-            h.add(
-                PauliString::from_factors(&[(q, Pauli::Z), (q + 1, Pauli::Z)]).1,
-                -j,
-            );
-        }
-        for q in 0..n {
-            h.add(PauliString::single(q, Pauli::X), -g);
-        }
-        h
-    }
+    use crate::formula::tests::tfim;
 
     #[test]
     fn mean_energy_of_product_states_matches_the_statevector() {

@@ -36,6 +36,7 @@
 //! ≈1e-12 in the phase, i.e. ≈1e-12/dt in energy.
 
 use crate::family::plan::Plan;
+use crate::formula::suzuki_stages;
 use crate::formula::{self, Order};
 use crate::pauli::{PauliString, PauliSum};
 use crate::sim::State;
@@ -132,12 +133,6 @@ fn coefficients(groups: &[Vec<(PauliString, f64)>], exact: bool) -> (f64, f64) {
         c2 += norm1(&commutator(&g[i], &commutator(&g[i], &t[i]))) / 24.0;
     }
     (c1, c2)
-}
-
-/// Suzuki's fourth-order stage lengths `p, p, 1 − 4p, p, p` with `p = 1/(4 − 4^{1/3})`.
-fn suzuki_stages() -> [f64; 5] {
-    let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
-    [p, p, 1.0 - 4.0 * p, p, p]
 }
 
 /// Bound on `‖S(τ) − e^{−iτH'}‖` for one step of the given order over the commuting groups.

@@ -37,6 +37,13 @@ pub enum Order {
     Fourth,
 }
 
+/// The stage lengths of Suzuki's fourth-order formula in units of the step: `p, p, 1 − 4p, p, p`
+/// with `p = 1/(4 − 4^{1/3})`, each stage a Strang step (Suzuki, Phys. Lett. A 146, 319 (1990)).
+pub fn suzuki_stages() -> [f64; 5] {
+    let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
+    [p, p, 1.0 - 4.0 * p, p, p]
+}
+
 impl Order {
     pub fn from_number(k: u32) -> Option<Order> {
         match k {
@@ -69,7 +76,7 @@ impl Order {
 /// group: only together can they conserve the number of ones, so a formula that splits them
 /// breaks that symmetry (and `family::control` could no longer show |0…0⟩ to be an
 /// eigenstate). When the plain colouring already keeps every such unit whole it is used as is;
-/// otherwise the units are coloured as wholes ([`unit_groups`]).
+/// otherwise the units are coloured as wholes (`unit_groups`).
 pub fn term_groups(h: &PauliSum) -> Vec<Vec<(PauliString, f64)>> {
     let terms = h.term_list();
     let strings: Vec<PauliString> = terms.iter().map(|t| t.0.clone()).collect();
@@ -330,8 +337,7 @@ impl<'a> Builder<'a> {
             }
             Order::Second => self.strang(dt),
             Order::Fourth => {
-                let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
-                for f in [p, p, 1.0 - 4.0 * p, p, p] {
+                for f in suzuki_stages() {
                     self.strang(f * dt);
                 }
             }
@@ -402,8 +408,7 @@ pub fn textbook_evolution(
             })),
             Order::Second => strang(&mut out, dt),
             Order::Fourth => {
-                let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
-                for f in [p, p, 1.0 - 4.0 * p, p, p] {
+                for f in suzuki_stages() {
                     strang(&mut out, f * dt);
                 }
             }
@@ -420,11 +425,12 @@ pub fn apply_program(state: &mut State, program: &[Rotation]) {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::pauli::Pauli;
 
-    fn tfim(n: usize, j: f64, g: f64) -> PauliSum {
+    /// A transverse-field Ising chain `-j Σ Z_q Z_(q+1) - g Σ X_q` (test model).
+    pub(crate) fn tfim(n: usize, j: f64, g: f64) -> PauliSum {
         let mut h = PauliSum::new(n);
         for q in 0..n - 1 {
             h.add(
@@ -588,8 +594,7 @@ mod tests {
                 }
                 Order::Second => strang(&mut out, dt),
                 Order::Fourth => {
-                    let p = 1.0 / (4.0 - 4f64.powf(1.0 / 3.0));
-                    for f in [p, p, 1.0 - 4.0 * p, p, p] {
+                    for f in suzuki_stages() {
                         strang(&mut out, f * dt);
                     }
                 }

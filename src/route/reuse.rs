@@ -293,7 +293,7 @@ fn edge(terms: &[(PauliString, f64)], factor: f64) -> Vec<Rotation> {
 /// `S₂(pδ)² S₂((1−4p)δ) S₂(pδ)²` with the group's halves that meet merged, which is exact since
 /// they commute); `E'` is `E` reversed. Otherwise one part, `formula::step`.
 ///
-/// With [`StepForm::sweep`] (and a device to measure the walk on) the program of one part is
+/// With `StepForm::sweep` (and a device to measure the walk on) the program of one part is
 /// reordered by [`super::sweep::schedule`] and never split.
 pub fn step_parts(
     terms: &[(PauliString, f64)],
