@@ -23,10 +23,9 @@
 //! support comes closest to that position (ties to the earlier rotation of the program); its
 //! root is the support qubit that comes closest. On a chain this is one sweep: `ZZ₀₁/2, X₀,
 //! ZZ₁₂/2, X₁, ZZ₀₁/2, ZZ₂₃/2, X₂, ZZ₁₂/2, …`, with the ancilla moving one site per term.
-//! This is the commutation-aware scheduling of 2-local Hamiltonians (Lao & Browne, "2QAN:
-//! a quantum compiler for 2-local qubit Hamiltonian simulation algorithms", ISCA 2022) and of
-//! Pauli blocks (Li, Ding & Xie et al., "Paulihedral: a generalized block-wise compiler
-//! optimization framework for quantum simulation kernels", ASPLOS 2022) applied to the
+//! This is the commutation-aware scheduling of 2-local Hamiltonians (Lao & Browne, ISCA 2022,
+//! on compiling 2-local Hamiltonian simulation) and the block-wise scheduling of Pauli strings
+//! (Li, Ding & Xie et al., ASPLOS 2022, on simulation kernels) applied to the
 //! ancilla's walk; both citations from memory. `route::plan_target` scores the result against
 //! the grouped orders by the two-qubit gates it emits after routing, so it is kept only where
 //! it wins.
