@@ -29,69 +29,8 @@ use proptest::prelude::*;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
-const NATIVE_SETS: [&[&str]; 4] = [
-    &["rz", "sx", "x", "cx"],
-    &["rz", "sx", "x", "cz"],
-    &["rz", "rx", "ry", "cz"],
-    &["U", "cx"],
-];
-
-/// A random connected device with at least `min_qubits` qubits: line, ring, grid, brick wall
-/// or a random tree with a few extra links.
-fn random_device(kind: u8, min_qubits: usize, native: usize, rng: &mut ChaCha8Rng) -> Device {
-    let n = (min_qubits + rng.gen_range(0..4)) as u32;
-    let links = match kind % 5 {
-        0 => lattice::line(n),
-        1 => lattice::ring(n),
-        2 => lattice::grid(n.div_ceil(3), 3),
-        3 => lattice::brickwall(n.div_ceil(3), 3),
-        _ => {
-            let mut v: Vec<(u32, u32)> = (1..n).map(|k| (rng.gen_range(0..k), k)).collect();
-            for _ in 0..rng.gen_range(0..3) {
-                let (a, b) = (rng.gen_range(0..n), rng.gen_range(0..n));
-                if a != b {
-                    v.push((a, b));
-                }
-            }
-            v
-        }
-    };
-    let size = links.iter().map(|&(a, b)| a.max(b) + 1).max().unwrap_or(1) as usize;
-    Device::new(
-        "random",
-        size.max(n as usize),
-        &links,
-        NativeSet::from_names(NATIVE_SETS[native]).unwrap(),
-        Calibration::default(),
-    )
-}
-
-fn random_hamiltonian(n: usize, terms: usize, rng: &mut ChaCha8Rng) -> PauliSum {
-    let mut h = PauliSum::new(n);
-    let mask = (1u64 << n) - 1;
-    while h.terms.is_empty() {
-        for _ in 0..terms {
-            let p = PauliString::from_masks(rng.gen::<u64>() & mask, rng.gen::<u64>() & mask);
-            if !p.is_identity() {
-                h.add(p, rng.gen_range(-1.0..1.0));
-            }
-        }
-    }
-    h
-}
-
-/// A reference state: random letters, with a singlet pair `ss` sometimes (its CNOT makes the
-/// state preparation itself need routing, and the SWAPs back to the plan's layout).
-fn random_state(n: usize, rng: &mut ChaCha8Rng) -> String {
-    let letters = ['0', '1', '+', '-', 'r', 'l'];
-    let mut s: Vec<char> = (0..n).map(|_| letters[rng.gen_range(0..6)]).collect();
-    if n >= 2 && rng.gen_bool(0.4) {
-        let i = rng.gen_range(0..n - 1);
-        s[i] = 's';
-        s[i + 1] = 's';
-    }
-    s.into_iter().collect()
-}
+mod route_support;
+use route_support::{random_device, random_hamiltonian, random_state};
 
 fn compile(h: &PauliSum, spec: &Spec, dev: Option<&Device>, level: u8) -> Compiled {
     let cfg = RouteConfig::default();
