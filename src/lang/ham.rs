@@ -27,7 +27,8 @@ use nom::combinator::cut;
 use nom::error::{context, ContextError, ErrorKind, ParseError};
 use nom::{IResult, Offset};
 use num_complex::Complex64;
-use rayon::slice::ParallelSliceMut;
+use rayon::iter::{IntoParallelRefIterator, ParallelIterator};
+use rayon::slice::{ParallelSlice, ParallelSliceMut};
 use std::cell::RefCell;
 use std::collections::HashSet;
 
@@ -106,33 +107,108 @@ pub fn parse_hamiltonian_with(
 /// fermionic factors, an index out of range, a line that would need a diagnostic) returns
 /// `None` and the whole file takes the full reader, which also owns every diagnostic.
 fn plain_lines(src: &str) -> Option<HamRead> {
+    // The header: the first line with code on it must be `qubits N`.
     let mut num_qubits = 0usize;
-    // One entry per line; equal strings are merged after a stable sort, which keeps the lines'
-    // order among equals, so every sum is accumulated in file order exactly as the evaluator's
-    // map does (0 + c₁ + c₂ + …), bit for bit.
-    let lines = src.bytes().filter(|&b| b == b'\n').count();
-    let mut terms: Vec<(PauliString, f64)> = Vec::with_capacity(lines.min(MAX_TERMS) + 1);
+    let mut body_start = None;
+    let mut offset = 0;
+    for raw in src.split_inclusive('\n') {
+        offset += raw.len();
+        let line = raw.split('#').next().unwrap_or("").trim();
+        if line.is_empty() {
+            continue;
+        }
+        let count = line.strip_prefix("qubits ")?.trim();
+        if !count.bytes().all(|b| b.is_ascii_digit()) {
+            return None;
+        }
+        num_qubits = count.parse().ok()?;
+        if num_qubits == 0 || num_qubits > MAX_HAM_QUBITS {
+            return None;
+        }
+        body_start = Some(offset);
+        break;
+    }
+    let body = &src[body_start?..];
+    // Lines are independent, so the body is read in pieces cut at line ends, one per task, and
+    // the pieces are joined in file order: the same list as one pass would give.
+    let parts: Vec<Vec<(PauliString, f64)>> = line_chunks(body, 1 << 18)
+        .par_iter()
+        .map(|chunk| plain_chunk(chunk, num_qubits))
+        .collect::<Option<_>>()?;
+    let terms_read: usize = parts.iter().map(Vec::len).sum();
+    if terms_read > MAX_TERMS {
+        return None;
+    }
+    let mut terms: Vec<(PauliString, f64)> = Vec::with_capacity(terms_read);
+    for part in parts {
+        terms.extend(part);
+    }
+    crate::pauli::order::sort_by_string(&mut terms);
+    let mut sum = PauliSum::new(num_qubits);
+    let mut dropped_zero = 0;
+    let mut kept: Vec<(PauliString, f64)> = Vec::with_capacity(terms.len());
+    let mut it = terms.into_iter().peekable();
+    while let Some((p, c)) = it.next() {
+        let mut total = 0.0 + c;
+        while it.peek().is_some_and(|(q, _)| *q == p) {
+            total += it.next().map_or(0.0, |(_, c)| c);
+        }
+        if total == 0.0 {
+            if !p.is_identity() {
+                dropped_zero += 1;
+            }
+        } else if p.is_identity() {
+            sum.constant = total;
+        } else {
+            kept.push((p, total));
+        }
+    }
+    sum.terms = kept.into_iter().collect();
+    Some(HamRead {
+        ham: HamFile {
+            sum,
+            dropped_zero,
+            terms_read,
+        },
+        encoding: None,
+        fermionic_terms: 0,
+    })
+}
+
+/// `text` cut into pieces of about `size` bytes, each ending at a line end (or the end of
+/// `text`); the pieces concatenated give `text` back.
+fn line_chunks(text: &str, size: usize) -> Vec<&str> {
+    let mut chunks = Vec::with_capacity(text.len() / size + 1);
+    let mut rest = text;
+    while !rest.is_empty() {
+        let cut = if rest.len() <= size {
+            rest.len()
+        } else {
+            // Bytes, not chars: a cut lands just after a `\n`, always a char boundary.
+            rest.as_bytes()[size..]
+                .iter()
+                .position(|&b| b == b'\n')
+                .map_or(rest.len(), |i| size + i + 1)
+        };
+        let (head, tail) = rest.split_at(cut);
+        chunks.push(head);
+        rest = tail;
+    }
+    chunks
+}
+
+/// The terms of the plain lines in `chunk` (after the header), in line order; `None` when a
+/// line is not plain (see [`plain_lines`]).
+fn plain_chunk(chunk: &str, num_qubits: usize) -> Option<Vec<(PauliString, f64)>> {
+    let mut terms = Vec::with_capacity(chunk.len() / 16 + 1);
     let mut factors: Vec<(usize, Pauli)> = Vec::with_capacity(8);
-    let mut declared = false;
-    for raw in src.split('\n') {
+    for raw in chunk.split('\n') {
         let code = raw.split('#').next().unwrap_or("");
         let line = code.trim();
         if line.is_empty() {
             continue;
         }
-        if !declared {
-            let count = line.strip_prefix("qubits ")?.trim();
-            if !count.bytes().all(|b| b.is_ascii_digit()) {
-                return None;
-            }
-            num_qubits = count.parse().ok()?;
-            if num_qubits == 0 || num_qubits > MAX_HAM_QUBITS {
-                return None;
-            }
-            declared = true;
-            continue;
-        }
-        if terms.len() >= MAX_TERMS {
+        if terms.len() > MAX_TERMS {
             return None;
         }
         let mut words = line.split_ascii_whitespace().peekable();
@@ -187,40 +263,7 @@ fn plain_lines(src: &str) -> Option<HamRead> {
         }
         terms.push((p, coeff));
     }
-    if !declared {
-        return None;
-    }
-    let terms_read = terms.len();
-    terms.par_sort_by(|a, b| a.0.cmp(&b.0));
-    let mut sum = PauliSum::new(num_qubits);
-    let mut dropped_zero = 0;
-    let mut kept: Vec<(PauliString, f64)> = Vec::with_capacity(terms.len());
-    let mut it = terms.into_iter().peekable();
-    while let Some((p, c)) = it.next() {
-        let mut total = 0.0 + c;
-        while it.peek().is_some_and(|(q, _)| *q == p) {
-            total += it.next().map_or(0.0, |(_, c)| c);
-        }
-        if total == 0.0 {
-            if !p.is_identity() {
-                dropped_zero += 1;
-            }
-        } else if p.is_identity() {
-            sum.constant = total;
-        } else {
-            kept.push((p, total));
-        }
-    }
-    sum.terms = kept.into_iter().collect();
-    Some(HamRead {
-        ham: HamFile {
-            sum,
-            dropped_zero,
-            terms_read,
-        },
-        encoding: None,
-        fermionic_terms: 0,
-    })
+    Some(terms)
 }
 
 /// Writes `h` in the `.ham` language: `header_comment` as `#` lines, `qubits N`, the constant
@@ -244,26 +287,38 @@ pub fn write_hamiltonian(h: &PauliSum, header_comment: &str) -> String {
     }
     // Readable order: by weight, then by (qubit, letter) sequence. Strings are distinct, so an
     // unstable sort gives the same order.
-    type Keyed<'a> = (smallvec::SmallVec<[(usize, char); 4]>, &'a PauliString, f64);
+    type Keyed = (smallvec::SmallVec<[(usize, char); 4]>, f64);
     let mut terms: Vec<Keyed> = h
         .terms
         .iter()
         .map(|(p, c)| {
             let key = p.support_iter().map(|q| (q, p.get(q).letter())).collect();
-            (key, p, *c)
+            (key, *c)
         })
         .collect();
-    terms.sort_unstable_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
-    out.reserve(terms.len() * 24);
-    let mut digits = itoa::Buffer::new();
-    for (key, _, c) in &terms {
-        push_coefficient(&mut out, *c);
-        for (q, letter) in key {
-            out.push(' ');
-            out.push(*letter);
-            out.push_str(digits.format(*q));
-        }
-        out.push('\n');
+    terms.par_sort_unstable_by(|a, b| a.0.len().cmp(&b.0.len()).then_with(|| a.0.cmp(&b.0)));
+    // Lines are formatted in pieces, one per task, and joined in order: the same text as one
+    // pass would write.
+    let pieces: Vec<String> = terms
+        .par_chunks(1 << 14)
+        .map(|chunk| {
+            let mut piece = String::with_capacity(chunk.len() * 24);
+            let mut digits = itoa::Buffer::new();
+            for (key, c) in chunk {
+                push_coefficient(&mut piece, *c);
+                for (q, letter) in key {
+                    piece.push(' ');
+                    piece.push(*letter);
+                    piece.push_str(digits.format(*q));
+                }
+                piece.push('\n');
+            }
+            piece
+        })
+        .collect();
+    out.reserve(pieces.iter().map(String::len).sum());
+    for piece in &pieces {
+        out.push_str(piece);
     }
     out
 }
@@ -2247,6 +2302,37 @@ mod tests {
         ] {
             assert!(plain_lines(src).is_none(), "{src}");
         }
+    }
+
+    #[test]
+    fn line_chunks_cut_only_after_line_ends() {
+        // Multi-byte characters near every cut: a cut inside one would panic.
+        let text: String = (0..500).map(|i| format!("{i} é ü # ß\n")).collect();
+        for size in [1, 7, 64, 1000, 1 << 20] {
+            let chunks = line_chunks(&text, size);
+            assert_eq!(chunks.concat(), text, "size {size}");
+            assert!(chunks[..chunks.len() - 1].iter().all(|c| c.ends_with('\n')));
+        }
+        assert!(line_chunks("", 8).is_empty());
+    }
+
+    #[test]
+    fn the_fast_path_reads_files_of_many_pieces_like_the_full_reader() {
+        // About 1 MB, so the body is read in several pieces (cut every 2^18 bytes); repeated
+        // strings sit in different pieces, so their sums cross the cuts.
+        let mut src = String::from("# many pieces\nqubits 150\n");
+        for i in 0..60_000u64 {
+            let q = (i * 7919) % 150;
+            let r = (i * 104_729 + 3) % 150;
+            let c = ((i % 17) as f64 - 8.0) * 0.125;
+            src.push_str(&format!(
+                "{c} X{q} Z{r}\n",
+                r = if r == q { (r + 1) % 150 } else { r }
+            ));
+        }
+        assert!(line_chunks(&src, 1 << 18).len() >= 4);
+        let fast = plain_lines(&src).expect("plain file");
+        assert_eq!(Ok(fast), read_full(&src));
     }
 
     proptest::proptest! {
