@@ -164,10 +164,10 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
         check_campaign_files(&args.dir, plan)?;
         return tableau::check(args, g, plan);
     }
-    let circuits = read_plan_circuits(&args.dir, &plan)?;
+    let circuits = read_plan_circuits(&args.dir, plan)?;
     let refs = phase_bar(
         g,
-        reference_count(&plan),
+        reference_count(plan),
         if args.skip_exact {
             "ideal references"
         } else {
@@ -176,7 +176,7 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
     );
     let sims = phase_bar(g, circuits.len(), "simulating");
     let checked = check_plan_with(
-        &plan,
+        plan,
         &circuits,
         CheckOptions {
             exact: !args.skip_exact,
@@ -207,8 +207,9 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
         .try_fold(0.0, |m: f64, e| e.map(|e| m.max(e)));
     let opt = |v: Option<f64>, f: &dyn Fn(f64) -> String| v.map_or("skipped".to_string(), f);
     let ok = worst <= args.tolerance;
-    let trace = if plan.family == Family::Trace {
-        trace_summary(&plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
+    // The trace averages over every state's circuits: a share holds only some of them.
+    let trace = if plan.family == Family::Trace && plan.shard.is_none() {
+        trace_summary(plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
     } else {
         None
     };
@@ -247,6 +248,9 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
         out += "(the exact evolution was skipped: --skip-exact)\n";
     }
     out += "(for circuits with several reads the first is shown; errors are the largest over all reads)\n";
+    if plan.family == Family::Trace && plan.shard.is_some() {
+        out += "(the normalised trace needs every circuit of the campaign: verify the merged folder for it)\n";
+    }
     if let Some(rows) = &trace {
         out += &format!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace\n", plan.states.len());
         let mut t = Table::new([
