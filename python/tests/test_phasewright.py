@@ -204,6 +204,11 @@ def test_bad_input_raises_with_the_diagnostic_code(tmp_path):
     [
         # an option value the command line refuses (--order is 1, 2 or 4)
         (lambda d: pw.compile(EXAMPLES / "mixed_field4.ham", d / "o", state="0000", dt=0.1, points=3, order=3), "U101"),
+        # not a number where one is needed, and a request far beyond the limits
+        (lambda d: pw.compile(EXAMPLES / "mixed_field4.ham", d / "o", state="0000", dt=float("nan"), points=3), "U101"),
+        (lambda d: pw.compile(EXAMPLES / "mixed_field4.ham", d / "o", state="0000", dt=0.1, points=10**9), "U401"),
+        # a device file given as the Hamiltonian
+        (lambda d: pw.compile(EXAMPLES / "line8.dev", d / "o", state="0000", dt=0.1, points=3), "H103"),
         # a state of the wrong length
         (lambda d: pw.compile(EXAMPLES / "mixed_field4.ham", d / "o", state="00", dt=0.1, points=3), "U101"),
         # a folder that holds no campaign
@@ -226,9 +231,12 @@ def test_every_bad_input_is_a_phasewright_error(tmp_path, call, code):
     assert str(info.value).startswith(f"error {code}")
 
 
-def test_an_edited_circuit_is_named(tmp_path):
+def test_warnings_arrive_and_an_edited_circuit_is_named(tmp_path):
     out = tmp_path / "c"
-    pw.compile(EXAMPLES / "mixed_field4.ham", out, state="0000", dt=0.1, points=3)
+    # The warning the command prints on stderr arrives as a Python warning, and in the result.
+    with pytest.warns(pw.PhasewrightWarning, match="ground-state weight 0.0006"):
+        result = pw.compile(EXAMPLES / "mixed_field4.ham", out, state="0000", dt=0.1, points=3)
+    assert len(result["warnings"]) == 1 and "0.0006" in result["warnings"][0]
     f = out / "k01-re.qasm"
     f.write_text(f.read_text() + "// edited\n")
     with pytest.raises(pw.PhasewrightError) as info:
