@@ -329,3 +329,43 @@ fn merge_refuses_overlapping_missing_and_mismatched_share_counts() {
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("the counts of share 2/2 are missing"), "{err}");
 }
+
+/// A hand-edited share mark is a plan problem with its place (P301, exit 2), never a panic of
+/// the index arithmetic that derives each circuit's global index from it.
+#[test]
+fn an_edited_share_mark_is_refused_with_its_place() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("s");
+    compile(&dir, &["--shard", "2/3"]);
+    let plan = dir.join("plan.json");
+    let text = std::fs::read_to_string(&plan).unwrap();
+    for (from, to, words) in [
+        (
+            "\"index\": 2",
+            "\"index\": 0",
+            "share 0 of 3 does not exist",
+        ),
+        (
+            "\"index\": 2",
+            "\"index\": 4",
+            "share 4 of 3 does not exist",
+        ),
+        (
+            "\"campaign_circuits\": 10",
+            "\"campaign_circuits\": 30",
+            "holds 10, but the plan lists 3",
+        ),
+    ] {
+        assert!(text.contains(from), "{text}");
+        std::fs::write(&plan, text.replace(from, to)).unwrap();
+        for args in [vec!["rehearse", p(&dir)], vec!["verify", p(&dir)]] {
+            let o = run(&args);
+            let err = String::from_utf8_lossy(&o.stderr);
+            assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+            assert!(
+                err.starts_with("error P301:") && err.contains(words),
+                "{err}"
+            );
+        }
+    }
+}
