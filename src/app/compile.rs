@@ -1,5 +1,9 @@
 //! `phasewright compile`: Hamiltonian (+ device) → folder of OpenQASM 3 files and plan.json,
 //! with a cost table on stdout.
+//!
+//! In: validated arguments. Out: the campaign folder (written whole, plan last) and a
+//! [`CompileOutcome`] (the plan written, the `--json` report and the summary for people);
+//! [`compile_campaign`] is the library entry point, [`run`] renders it.
 
 use crate::error::{Error, Result};
 use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
@@ -239,7 +243,28 @@ fn check_state(state: &str, n: usize) -> Result<()> {
     Ok(())
 }
 
+/// What `compile` wrote and reports: the plan (as in `DIR/plan.json`), the `--json` document
+/// and the summary printed for people.
+#[derive(Clone, Debug)]
+pub struct CompileOutcome {
+    pub plan: Plan,
+    pub json: serde_json::Value,
+    pub text: String,
+}
+
+/// Runs `phasewright compile`.
 pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
+    let outcome = compile_campaign(args, &|w| g.warn(w))?;
+    if g.json {
+        g.json(&outcome.json)
+    } else {
+        g.say(&outcome.text)
+    }
+}
+
+/// Compiles the campaign and writes its folder; warnings go to `warn` as they arise. The
+/// library entry point of `compile` (the command line and the Python module call it).
+pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<CompileOutcome> {
     let order = Order::from_number(args.order).ok_or_else(|| {
         Error::usage(
             Code::UsageOption,
@@ -315,7 +340,7 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
     }
     let step_angle = h.one_norm() * args.dt / args.steps as f64;
     if step_angle > 2.0 * std::f64::consts::PI {
-        g.warn(&format!(
+        warn(&format!(
             "one Trotter step spans Σ|c_j|·dt/steps = {step_angle:.3} rad (more than 2π): the product formula is far from e^(-iH·dt/steps), and energies more than π/dt apart cannot be told apart; use a smaller --dt or more --steps"
         ));
     }
@@ -440,22 +465,19 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         .then(|| reference_report(&h, &compiled.plan.states[0], auto_note.as_deref()));
     if let Some(r) = &reference {
         for w in &r.warnings {
-            g.warn(w);
+            warn(w);
         }
     }
-    if g.json {
-        let mut v = cost_json(&compiled.plan);
-        v["control"] = serde_json::json!(control);
-        if let Some(w) = &why_not_prep {
-            v["control_reason"] = serde_json::json!(w.to_string());
-        }
-        if let Some(gs) = &grouping {
-            v["grouping"] = serde_json::json!(gs);
-        }
-        if let Some(r) = &reference {
-            v["reference"] = r.json.clone();
-        }
-        return g.json(&v);
+    let mut json = cost_json(&compiled.plan);
+    json["control"] = serde_json::json!(control);
+    if let Some(w) = &why_not_prep {
+        json["control_reason"] = serde_json::json!(w.to_string());
+    }
+    if let Some(gs) = &grouping {
+        json["grouping"] = serde_json::json!(gs);
+    }
+    if let Some(r) = &reference {
+        json["reference"] = r.json.clone();
     }
     let mut text = cost_table(&compiled.plan);
     if family == Family::Evolution {
@@ -497,7 +519,11 @@ pub fn run(args: &CompileArgs, g: &super::Global) -> Result<()> {
         );
     }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
-    g.say(&text)
+    Ok(CompileOutcome {
+        plan: compiled.plan,
+        json,
+        text,
+    })
 }
 
 /// Resolves `--control`: the control form to compile and, when `auto` fell back to the

@@ -109,6 +109,15 @@ fn finite_f64(s: &str) -> std::result::Result<f64, String> {
     }
 }
 
+/// What `estimate` found: the `--json` document (`phasewright-estimate/1`), the table for
+/// people and the warnings (also inside the document).
+#[derive(Clone, Debug)]
+pub struct EstimateOutcome {
+    pub json: Value,
+    pub text: String,
+    pub warnings: Vec<String>,
+}
+
 /// Runs `phasewright estimate`.
 pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
     let plot_to_stdout = args.plot.as_deref().is_some_and(super::io::is_stdio);
@@ -119,6 +128,26 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
             Some("write the plot to a .svg file, or drop --json"),
         ));
     }
+    let outcome = estimate_campaign(args, None)?;
+    if plot_to_stdout {
+        return Ok(());
+    }
+    for w in &outcome.warnings {
+        g.warn(w);
+    }
+    if g.json {
+        return g.json(&outcome.json);
+    }
+    g.say(&outcome.text)
+}
+
+/// Reads the plan and the counts (the file `args.counts`, or `counts_text` when given, named
+/// by `args.counts` in diagnostics), estimates, and writes the plot if one is asked for. The
+/// library entry point of `estimate` (the command line and the Python module call it).
+pub fn estimate_campaign(
+    args: &EstimateArgs,
+    counts_text: Option<&str>,
+) -> Result<EstimateOutcome> {
     if let Some(p) = &args.plot {
         super::io::check_out_file(p, "--plot", Some("svg"), true)?;
     }
@@ -130,7 +159,10 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         ));
     }
     super::io::check_campaign_files(&args.dir, &plan)?;
-    let text = read_text(&args.counts)?;
+    let text = match counts_text {
+        Some(t) => t.to_string(),
+        None => read_text(&args.counts)?,
+    };
     let order = args.bit_order.map(|b| match b {
         BitOrderArg::First => BitOrder::First,
         BitOrderArg::Last => BitOrder::Last,
@@ -170,23 +202,18 @@ pub fn run(args: &EstimateArgs, g: &super::Global) -> Result<()> {
         }
         .map_err(Error::Internal)?;
         super::io::write_output(path, svg.as_bytes())?;
-        if plot_to_stdout {
-            return Ok(());
-        }
     }
     let warnings = match &analysis {
-        Analysis::Energies(r) => &r.warnings,
-        Analysis::Dos(r) => &r.warnings,
+        Analysis::Energies(r) => r.warnings.clone(),
+        Analysis::Dos(r) => r.warnings.clone(),
     };
-    for w in warnings {
-        g.warn(w);
-    }
-    if g.json {
-        return g.json(&to_json(&analysis, &plan, counts.bit_order));
-    }
-    g.say(&match &analysis {
-        Analysis::Energies(r) => energy_table(r, &plan),
-        Analysis::Dos(r) => dos_table(r, &plan),
+    Ok(EstimateOutcome {
+        json: to_json(&analysis, &plan, counts.bit_order),
+        text: match &analysis {
+            Analysis::Energies(r) => energy_table(r, &plan),
+            Analysis::Dos(r) => dos_table(r, &plan),
+        },
+        warnings,
     })
 }
 

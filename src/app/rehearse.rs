@@ -2,8 +2,11 @@
 //! the same format that hardware results are expected in (`sample` is a hidden alias kept for
 //! older scripts).
 //!
-//! In: a validated plan and its unchanged circuit files. Out: one counts file (or stdout), the
-//! same bytes for the same seed whatever the number of threads. Circuits are streamed a chunk
+//! In: a validated plan and its unchanged circuit files (all of them, or one share with
+//! `--shard I/N` or in a share folder of `compile --shard`). Out: one counts file (or stdout),
+//! the same bytes for the same seed whatever the number of threads. Each circuit's random
+//! stream derives from the seed and the circuit's index in the whole campaign, so the counts of
+//! N shares joined by `merge` are byte for byte those of one run. Circuits are streamed a chunk
 //! at a time (read, simulated, sampled, written in plan order), so memory does not grow with
 //! the number of circuits.
 
@@ -23,8 +26,12 @@ use std::path::PathBuf;
 ///
 /// Writes a counts file: {"format": "phasewright-counts/1", "bit_order": "first", "shots": N,
 /// "counts": `{"<circuit id>": {"<bitstring>": count}}}`. Bitstrings list classical bit 0 first
-/// (leftmost). Each circuit gets its own random stream derived from --seed, so the file does
-/// not depend on the number of threads.
+/// (leftmost). Each circuit gets its own random stream derived from --seed and its index in the
+/// whole campaign, so the file depends neither on the number of threads nor on sharding.
+///
+/// --shard I/N samples only share I of N of the circuits (circuit j goes to share j mod N + 1,
+/// as with `compile --shard`); the file is then marked as that share (a "shard" key) and
+/// `phasewright merge` joins the N files into the one a single run writes, byte for byte.
 ///
 /// --noise applies a global depolarising channel per circuit whose fidelity is the circuit's
 /// estimated success probability from the device calibration. This is a crude model: real
@@ -32,7 +39,7 @@ use std::path::PathBuf;
 #[derive(Args, Debug)]
 #[command(
     allow_negative_numbers = true,
-    after_help = "Example:\n  phasewright rehearse out/ising --shots 100000 --seed 7 -o out/ising-counts.json\n  phasewright estimate out/ising --counts out/ising-counts.json"
+    after_help = "Example:\n  phasewright rehearse out/ising --shots 100000 --seed 7 -o out/ising-counts.json\n  phasewright estimate out/ising --counts out/ising-counts.json\n\nAs task $TASK of a job array of 4, then one merge:\n  phasewright rehearse out/ising --seed 7 --shard $TASK/4 -o counts-$TASK.json\n  phasewright merge counts-1.json counts-2.json counts-3.json counts-4.json -o counts.json"
 )]
 pub struct RehearseArgs {
     /// Folder written by `phasewright compile`.
@@ -49,6 +56,10 @@ pub struct RehearseArgs {
     /// Counts file to write (default: DIR/counts.json; `-`: stdout).
     #[arg(short = 'o', long = "out")]
     pub out: Option<PathBuf>,
+    /// Sample only share I of N of the circuits (circuit j goes to share j mod N + 1), for the
+    /// tasks of a job array; `phasewright merge` joins the N counts files.
+    #[arg(long, value_name = "I/N", value_parser = super::shard::parse_shard)]
+    pub shard: Option<(usize, usize)>,
 }
 
 /// Fewest circuits sampled per streamed chunk.
@@ -165,7 +176,88 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// The opening of a counts document up to `"counts": ` (with `{` or, for no circuit, `{}`), as
+/// serde_json's pretty printer writes it; a share's file carries its `shard` mark.
+fn counts_head(
+    shots: u64,
+    shard: Option<&super::shard::CountsShard>,
+    empty: bool,
+) -> Result<String> {
+    let mut head = serde_json::json!({
+        "format": crate::estimate::counts::COUNTS_FORMAT,
+        "bit_order": "first",
+        "shots": shots,
+    });
+    if let Some(s) = shard {
+        head["shard"] = serde_json::to_value(s)
+            .map_err(|e| Error::Internal(format!("cannot serialise a shard mark: {e}")))?;
+    }
+    let text = serde_json::to_string_pretty(&head)
+        .map_err(|e| Error::Internal(format!("cannot serialise a counts header: {e}")))?;
+    let open = text.strip_suffix("\n}").unwrap_or(&text);
+    Ok(format!(
+        "{open},\n  \"counts\": {}",
+        if empty { "{}" } else { "{" }
+    ))
+}
+
+/// The closing of a counts document opened by [`counts_head`].
+fn counts_tail(empty: bool) -> &'static str {
+    if empty {
+        "\n}\n"
+    } else {
+        "\n  }\n}\n"
+    }
+}
+
+/// A whole counts document in the layout `rehearse` streams: `entries` in order (bitstrings
+/// sorted), so that `merge` writes the same bytes one run writes.
+pub fn counts_document(
+    shots: Option<u64>,
+    bit_order: &str,
+    entries: &[(String, BTreeMap<String, u64>)],
+) -> Result<String> {
+    let mut head = serde_json::json!({
+        "format": crate::estimate::counts::COUNTS_FORMAT,
+        "bit_order": bit_order,
+    });
+    if let Some(n) = shots {
+        head["shots"] = serde_json::json!(n);
+    }
+    let text = serde_json::to_string_pretty(&head)
+        .map_err(|e| Error::Internal(format!("cannot serialise a counts header: {e}")))?;
+    let open = text.strip_suffix("\n}").unwrap_or(&text);
+    let empty = entries.is_empty();
+    let mut out = format!("{open},\n  \"counts\": {}", if empty { "{}" } else { "{" });
+    for (i, (id, counts)) in entries.iter().enumerate() {
+        out += &circuit_text(id, counts, i == 0);
+    }
+    out += counts_tail(empty);
+    Ok(out)
+}
+
+/// Runs `phasewright rehearse`.
 pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
+    let Some(summary) = rehearse(args, g)? else {
+        return Ok(());
+    };
+    g.json(&summary)?;
+    g.say(&format!(
+        "{} circuits x {} shots written to {}{}\n",
+        summary["circuits"],
+        args.shots,
+        summary["out"].as_str().unwrap_or_default(),
+        match args.shard {
+            Some((i, n)) => format!(" (share {i}/{n}; `phasewright merge` joins the shares)"),
+            None => String::new(),
+        }
+    ))
+}
+
+/// Samples the campaign (or its share) and writes the counts file; returns the summary that
+/// `--json` prints, or `None` when the counts went to stdout. The library entry point of
+/// `rehearse` (the command line and the Python module call it).
+pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_json::Value>> {
     if args.shots == 0 {
         return Err(Error::usage(
             Code::UsageOption,
@@ -186,7 +278,8 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
         ));
     }
     super::io::check_out_file(&out, "-o", None, true)?;
-    let plan = read_plan(&args.dir)?;
+    let mut plan = read_plan(&args.dir)?;
+    super::shard::select_share(&mut plan, args.shard, &args.dir)?;
     if args.noise && plan.device.is_none() {
         return Err(Error::usage(
             Code::UsageConflict,
@@ -195,6 +288,14 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
         ));
     }
     super::io::check_campaign_files(&args.dir, &plan)?;
+    let mark = plan.shard.map(|s| super::shard::CountsShard {
+        index: s.index,
+        count: s.count,
+        campaign_circuits: s.campaign_circuits,
+        campaign: super::shard::campaign_id(&plan),
+        seed: Some(args.seed),
+        noise: Some(args.noise),
+    });
     let bar = g.progress(
         plan.circuits.len(),
         "sampling {bar:40} {pos}/{len} circuits ({eta})",
@@ -205,12 +306,9 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     // pretty printer gives for the whole document (two-space indent, plan order, bitstrings
     // sorted), which the test of this module checks.
     let mut sink = Sink::open(&out, to_stdout)?;
+    let empty = plan.circuits.is_empty();
     let streamed = (|| -> Result<()> {
-        sink.write(&format!(
-        "{{\n  \"format\": \"phasewright-counts/1\",\n  \"bit_order\": \"first\",\n  \"shots\": {},\n  \"counts\": {}",
-        args.shots,
-        if plan.circuits.is_empty() { "{}" } else { "{" }
-    ))?;
+        sink.write(&counts_head(args.shots, mark.as_ref(), empty)?)?;
         let chunk = (4 * rayon::current_num_threads()).max(CHUNK_MIN);
         for (ci, entries) in plan.circuits.chunks(chunk).enumerate() {
             let texts: Vec<Result<String>> = entries
@@ -218,6 +316,9 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
                 .enumerate()
                 .map(|(j, e)| {
                     let i = ci * chunk + j;
+                    // The stream of a circuit depends on its place in the whole campaign, not
+                    // in this share, so shares sample what one run samples.
+                    let global = plan.shard.map_or(i, |s| s.global_index(i));
                     let c = read_plan_circuit(&args.dir, e)?;
                     let (small, _) = c.compacted();
                     check_fits(small.num_qubits, 2).map_err(|m| {
@@ -229,7 +330,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
                         p = depolarise(&p, e.costs.success_probability.unwrap_or(1.0));
                     }
                     let mut rng =
-                        rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(i as u64)));
+                        rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(global as u64)));
                     let counts: BTreeMap<String, u64> = sample_counts(&p, args.shots, &mut rng)
                         .into_iter()
                         .map(|(k, n)| (bitstring(k, small.num_clbits), n))
@@ -242,11 +343,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
                 sink.write(&t?)?;
             }
         }
-        sink.write(if plan.circuits.is_empty() {
-            "\n}\n"
-        } else {
-            "\n  }\n}\n"
-        })
+        sink.write(counts_tail(empty))
     })();
     bar.finish_and_clear();
     match streamed {
@@ -257,19 +354,18 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
         }
     }
     if to_stdout {
-        return Ok(());
+        return Ok(None);
     }
-    g.json(&serde_json::json!({
+    let mut summary = serde_json::json!({
         "circuits": plan.circuits.len(),
         "shots": args.shots,
         "seed": args.seed,
         "noise": args.noise,
         "out": out.display().to_string(),
-    }))?;
-    g.say(&format!(
-        "{} circuits x {} shots written to {}\n",
-        plan.circuits.len(),
-        args.shots,
-        out.display()
-    ))
+    });
+    if let Some(m) = &mark {
+        summary["shard"] = serde_json::to_value(m)
+            .map_err(|e| Error::Internal(format!("cannot serialise a shard mark: {e}")))?;
+    }
+    Ok(Some(summary))
 }

@@ -1,6 +1,11 @@
 //! `phasewright verify DIR`: read every circuit file back and check it against the plan, by
 //! statevector simulation (compared with the ideal product formula and the exact evolution) or
 //! by the exact tableau equivalence proof (`verify::tableau`, any width).
+//!
+//! In: a campaign folder (whole, one share folder, or with `--shard I/N` the share of a whole
+//! one, the same circuits `compile --shard I/N` writes). Out: a [`VerifyReport`] (the `--json`
+//! document, the table, the diagnostics of files that differ, and the failure that makes the
+//! command exit 1), rendered by [`run`]; [`check`] is the library entry point.
 
 mod tableau;
 
@@ -61,6 +66,20 @@ pub struct VerifyArgs {
     /// Largest accepted |simulated − ideal| (statevector method; a non-negative number).
     #[arg(long, default_value_t = COMPILE_TOLERANCE, allow_negative_numbers = true, value_parser = non_negative_f64)]
     pub tolerance: f64,
+    /// Check only share I of N of the circuits (circuit j goes to share j mod N + 1, as with
+    /// `compile --shard`), for the tasks of a job array.
+    #[arg(long, value_name = "I/N", value_parser = super::shard::parse_shard)]
+    pub shard: Option<(usize, usize)>,
+}
+
+/// What `verify` found: the `--json` document, the table for people, the rendered diagnostic
+/// of every file that differs (stderr), and the failure the command exits 1 with, if any.
+#[derive(Debug)]
+pub struct VerifyReport {
+    pub json: serde_json::Value,
+    pub text: String,
+    pub diagnostics: Vec<String>,
+    pub failure: Option<Error>,
 }
 
 /// A finite number ≥ 0 (refuses `-1`, `nan`, `inf` with a message).
@@ -101,21 +120,54 @@ fn fits_statevector(plan: &Plan) -> bool {
     crate::sim::check_fits(plan.hamiltonian.num_qubits + 1, 2).is_ok()
 }
 
+/// Runs `phasewright verify`.
 pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
-    let plan = read_plan(&args.dir)?;
-    let method = args.method.unwrap_or(if fits_statevector(&plan) {
+    let report = check(args, g)?;
+    if g.json {
+        g.json(&report.json)?;
+    } else {
+        g.say(&report.text)?;
+    }
+    for d in &report.diagnostics {
+        eprint!("{d}");
+    }
+    match report.failure {
+        None => Ok(()),
+        Some(e) => Err(e),
+    }
+}
+
+/// Checks the campaign (or its share) and reports; the library entry point of `verify` (the
+/// command line and the Python module call it). Bad input is an `Err`; files that fail the
+/// check are in the report's `failure`.
+pub fn check(args: &VerifyArgs, g: &super::Global) -> Result<VerifyReport> {
+    let mut plan = read_plan(&args.dir)?;
+    super::shard::select_share(&mut plan, args.shard, &args.dir)?;
+    let mut report = check_plan(args, g, &plan)?;
+    if let (Some(s), Some((_, _))) = (plan.shard, args.shard) {
+        report.json["shard"] = serde_json::json!(s);
+        report.text += &format!(
+            "(share {}/{} of a campaign of {} circuits)\n",
+            s.index, s.count, s.campaign_circuits
+        );
+    }
+    Ok(report)
+}
+
+fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<VerifyReport> {
+    let method = args.method.unwrap_or(if fits_statevector(plan) {
         Method::Statevector
     } else {
         Method::Tableau
     });
     if method == Method::Tableau {
-        check_campaign_files(&args.dir, &plan)?;
-        return tableau::run(args, g, &plan);
+        check_campaign_files(&args.dir, plan)?;
+        return tableau::check(args, g, plan);
     }
-    let circuits = read_plan_circuits(&args.dir, &plan)?;
+    let circuits = read_plan_circuits(&args.dir, plan)?;
     let refs = phase_bar(
         g,
-        reference_count(&plan),
+        reference_count(plan),
         if args.skip_exact {
             "ideal references"
         } else {
@@ -124,7 +176,7 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     );
     let sims = phase_bar(g, circuits.len(), "simulating");
     let checked = check_plan_with(
-        &plan,
+        plan,
         &circuits,
         CheckOptions {
             exact: !args.skip_exact,
@@ -155,85 +207,86 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
         .try_fold(0.0, |m: f64, e| e.map(|e| m.max(e)));
     let opt = |v: Option<f64>, f: &dyn Fn(f64) -> String| v.map_or("skipped".to_string(), f);
     let ok = worst <= args.tolerance;
-    let trace = if plan.family == Family::Trace {
-        trace_summary(&plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
+    // The trace averages over every state's circuits: a share holds only some of them.
+    let trace = if plan.family == Family::Trace && plan.shard.is_none() {
+        trace_summary(plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
     } else {
         None
     };
-    if g.json {
-        let v = serde_json::json!({ "method": "statevector", "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
-        g.json(&v)?;
-    } else {
-        let mut out = String::new();
-        let mut t = Table::new([
-            "circuit",
-            "reads",
-            "simulated",
-            "ideal",
-            "exact",
-            "compile err",
-            "trotter err",
+    let json = serde_json::json!({ "method": "statevector", "ok": ok, "tolerance": args.tolerance, "max_compile_error": worst, "max_trotter_error": worst_trotter, "circuits": checks, "trace": trace });
+    let mut out = String::new();
+    let mut t = Table::new([
+        "circuit",
+        "reads",
+        "simulated",
+        "ideal",
+        "exact",
+        "compile err",
+        "trotter err",
+    ]);
+    for c in &checks {
+        let first = &c.reads[0];
+        t.row([
+            c.id.clone(),
+            c.reads.len().to_string(),
+            format!("{:.9}", first.simulated),
+            format!("{:.9}", first.ideal),
+            opt(first.exact, &|x| format!("{x:.9}")),
+            sci(c.compile_error),
+            opt(c.trotter_error, &sci),
         ]);
-        for c in &checks {
-            let first = &c.reads[0];
+    }
+    out += &t.render();
+    out += &format!(
+        "\n{} circuits checked by statevector simulation; largest compile error {} (tolerance {}), largest Trotter error {}.\n",
+        checks.len(),
+        sci(worst),
+        sci(args.tolerance),
+        opt(worst_trotter, &sci)
+    );
+    if args.skip_exact {
+        out += "(the exact evolution was skipped: --skip-exact)\n";
+    }
+    out += "(for circuits with several reads the first is shown; errors are the largest over all reads)\n";
+    if plan.family == Family::Trace && plan.shard.is_some() {
+        out += "(the normalised trace needs every circuit of the campaign: verify the merged folder for it)\n";
+    }
+    if let Some(rows) = &trace {
+        out += &format!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace\n", plan.states.len());
+        let mut t = Table::new([
+            "k",
+            "time",
+            "mean re",
+            "mean im",
+            "std err",
+            "ideal re",
+            "ideal im",
+            "exact re",
+            "exact im",
+            "|dev|/err",
+        ]);
+        for r in rows {
             t.row([
-                c.id.clone(),
-                c.reads.len().to_string(),
-                format!("{:.9}", first.simulated),
-                format!("{:.9}", first.ideal),
-                opt(first.exact, &|x| format!("{x:.9}")),
-                sci(c.compile_error),
-                opt(c.trotter_error, &sci),
+                r.k.to_string(),
+                format!("{:.4}", r.time),
+                format!("{:.6}", r.mean_re),
+                format!("{:.6}", r.mean_im),
+                format!("{:.6}", r.std_error),
+                format!("{:.6}", r.ideal_re),
+                format!("{:.6}", r.ideal_im),
+                format!("{:.6}", r.exact_re),
+                format!("{:.6}", r.exact_im),
+                format!("{:.2}", r.z_score),
             ]);
         }
         out += &t.render();
-        out += &format!(
-            "\n{} circuits checked by statevector simulation; largest compile error {} (tolerance {}), largest Trotter error {}.\n",
-            checks.len(),
-            sci(worst),
-            sci(args.tolerance),
-            opt(worst_trotter, &sci)
-        );
-        if args.skip_exact {
-            out += "(the exact evolution was skipped: --skip-exact)\n";
-        }
-        out += "(for circuits with several reads the first is shown; errors are the largest over all reads)\n";
-        if let Some(rows) = &trace {
-            out += &format!("\nNormalised trace tr U/2^n: average over the {} listed states against the exact trace\n", plan.states.len());
-            let mut t = Table::new([
-                "k",
-                "time",
-                "mean re",
-                "mean im",
-                "std err",
-                "ideal re",
-                "ideal im",
-                "exact re",
-                "exact im",
-                "|dev|/err",
-            ]);
-            for r in rows {
-                t.row([
-                    r.k.to_string(),
-                    format!("{:.4}", r.time),
-                    format!("{:.6}", r.mean_re),
-                    format!("{:.6}", r.mean_im),
-                    format!("{:.6}", r.std_error),
-                    format!("{:.6}", r.ideal_re),
-                    format!("{:.6}", r.ideal_im),
-                    format!("{:.6}", r.exact_re),
-                    format!("{:.6}", r.exact_im),
-                    format!("{:.2}", r.z_score),
-                ]);
-            }
-            out += &t.render();
-            out += "(ideal = the product formula the circuits implement; deviations of a few standard errors are sampling spread, not compile errors)\n";
-        }
-        g.say(&out)?;
+        out += "(ideal = the product formula the circuits implement; deviations of a few standard errors are sampling spread, not compile errors)\n";
     }
-    if ok {
-        Ok(())
-    } else {
-        Err(Error::Internal(format!("compile error {} exceeds the tolerance {}: the emitted circuits do not implement the product formula", sci(worst), sci(args.tolerance))))
-    }
+    let failure = (!ok).then(|| Error::Internal(format!("compile error {} exceeds the tolerance {}: the emitted circuits do not implement the product formula", sci(worst), sci(args.tolerance))));
+    Ok(VerifyReport {
+        json,
+        text: out,
+        diagnostics: Vec::new(),
+        failure,
+    })
 }

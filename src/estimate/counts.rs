@@ -113,6 +113,10 @@ struct RawFile {
     bit_order: Option<serde_json::Value>,
     #[serde(default)]
     shots: Option<serde_json::Value>,
+    /// Marks the counts of one share of a campaign (`rehearse --shard I/N`); only `merge`
+    /// takes such a file, so it is refused against a whole plan.
+    #[serde(default)]
+    shard: Option<serde_json::Value>,
     counts: Entries<Entries<serde_json::Value>>,
 }
 
@@ -236,6 +240,20 @@ pub fn parse(
             }
         },
     };
+
+    if let (Some(mark), None) = (&raw.shard, &plan.shard) {
+        let share = match (mark.get("index"), mark.get("count")) {
+            (Some(i), Some(n)) => format!("share {i}/{n}"),
+            _ => "one share".to_string(),
+        };
+        diags.push(at_or_file(
+            Code::CountsPlan,
+            key_at(&["shard"]),
+            format!("these are the counts of {share} of a campaign, not of the whole plan"),
+            Some("join the counts files of every share with `phasewright merge` first"),
+        ));
+        return Err(diags);
+    }
 
     // Stage 3: circuits.
     let index: BTreeMap<&str, usize> = plan

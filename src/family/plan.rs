@@ -83,6 +83,29 @@ pub struct ShardInfo {
     pub campaign_circuits: usize,
 }
 
+impl ShardInfo {
+    /// Does circuit `j` of the whole campaign (plan order, from 0) belong to share `index` of
+    /// `count`? The one partition rule of `compile`, `verify`, `rehearse` and `merge`.
+    pub fn holds(index: usize, count: usize, j: usize) -> bool {
+        count > 0 && j % count + 1 == index
+    }
+
+    /// The campaign-wide index (plan order, from 0) of this share's `local`-th circuit.
+    pub fn global_index(&self, local: usize) -> usize {
+        local * self.count + (self.index - 1)
+    }
+
+    /// How many circuits this share holds.
+    pub fn len(&self) -> usize {
+        (self.campaign_circuits + self.count - self.index) / self.count
+    }
+
+    /// Does this share hold no circuit (more shares than circuits)?
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+}
+
 fn default_control() -> crate::family::control::Control {
     crate::family::control::Control::Evolution
 }
@@ -392,6 +415,31 @@ impl Plan {
         }
         if self.states.is_empty() {
             bad(vec![Key("states")], "the plan lists no state".into(), None);
+        }
+        if let Some(sh) = &self.shard {
+            if sh.count == 0 || sh.index == 0 || sh.index > sh.count {
+                bad(
+                    vec![Key("shard")],
+                    format!(
+                        "share {} of {} does not exist: shares are numbered 1 to the count",
+                        sh.index, sh.count
+                    ),
+                    None,
+                );
+            } else if sh.len() != self.circuits.len() {
+                bad(
+                    vec![Key("shard")],
+                    format!(
+                        "share {}/{} of a campaign of {} circuits holds {}, but the plan lists {}",
+                        sh.index,
+                        sh.count,
+                        sh.campaign_circuits,
+                        sh.len(),
+                        self.circuits.len()
+                    ),
+                    None,
+                );
+            }
         }
         for (s, st) in self.states.iter().enumerate() {
             let path = vec![Key("states"), Index(s)];

@@ -146,7 +146,9 @@ overlap and Krylov ones), and some need another (--noise needs a plan compiled f
 The hint says which option to add or drop.";
     UsageInput = "U301", "an input of the wrong kind or that does not fit the target",
         "The input is not a text file, is a file of the other language, has nothing to evolve, \
-or does not fit on the device (too few or disconnected qubits).";
+or does not fit on the device (too few or disconnected qubits). For `merge`: the shares given \
+do not make one whole campaign (a share missing or given twice, shares of different campaigns \
+or rehearsals, a circuit counted twice); give every share of one job array once.";
     UsageLimit = "U401", "the request exceeds a limit or the machine's memory",
         "Points, steps and circuits are bounded so that a typing slip cannot fill the disk; the \
 peak memory of a compile is predicted before any work and refused when it exceeds the machine. \

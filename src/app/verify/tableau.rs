@@ -6,7 +6,7 @@
 //! and what differs, and the command exits with status 1. A plan or file the check cannot take
 //! is bad input (status 2). No overlap values are computed: the method proves equivalence only.
 
-use super::{phase_bar, VerifyArgs};
+use super::{phase_bar, VerifyArgs, VerifyReport};
 use crate::app::io::read_text;
 use crate::error::{Error, Result};
 use crate::family::plan::{CircuitEntry, Plan};
@@ -64,7 +64,8 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
     }
 }
 
-pub fn run(args: &VerifyArgs, g: &crate::app::Global, plan: &Plan) -> Result<()> {
+/// Proves every file of `plan` (a whole campaign or one share); the report says which differ.
+pub fn check(args: &VerifyArgs, g: &crate::app::Global, plan: &Plan) -> Result<VerifyReport> {
     let claim = Claim::from_plan(plan).map_err(|m| {
         Error::usage(
             Code::PlanSyntax,
@@ -93,82 +94,78 @@ pub fn run(args: &VerifyArgs, g: &crate::app::Global, plan: &Plan) -> Result<()>
         })
         .collect();
     let ok = refuted.is_empty();
-    if g.json {
-        let circuits: Vec<serde_json::Value> = plan
-            .circuits
-            .iter()
-            .zip(&outcomes)
-            .map(|(e, o)| match o {
-                Outcome::Proved(p) => serde_json::json!({
-                    "id": e.id, "file": e.file, "verdict": "equivalent",
-                    "gates": p.gates, "rotations": p.rotations,
-                    "canonical_rotations": p.canonical_rotations, "layers": p.layers,
-                }),
-                Outcome::Refuted(d) => serde_json::json!({
-                    "id": e.id, "file": e.file, "verdict": "differs",
-                    "line": d.line, "column": d.column, "message": d.message,
-                }),
-            })
-            .collect();
-        let v = serde_json::json!({
-            "method": "tableau",
-            "ok": ok,
-            "overlaps": "not computed: the tableau method proves equivalence only",
-            "circuits": circuits,
-        });
-        g.json(&v)?;
-    } else {
-        let mut t = Table::new([
-            "circuit",
-            "gates",
-            "rotations",
-            "canonical",
-            "layers",
-            "verdict",
-        ]);
-        for (e, o) in plan.circuits.iter().zip(&outcomes) {
-            match o {
-                Outcome::Proved(p) => t.row([
-                    e.id.clone(),
-                    p.gates.to_string(),
-                    p.rotations.to_string(),
-                    p.canonical_rotations.to_string(),
-                    p.layers.to_string(),
-                    "equivalent".to_string(),
-                ]),
-                Outcome::Refuted(d) => t.row([
-                    e.id.clone(),
-                    String::new(),
-                    String::new(),
-                    String::new(),
-                    String::new(),
-                    format!("differs at line {}", d.line),
-                ]),
-            }
+    let circuits: Vec<serde_json::Value> = plan
+        .circuits
+        .iter()
+        .zip(&outcomes)
+        .map(|(e, o)| match o {
+            Outcome::Proved(p) => serde_json::json!({
+                "id": e.id, "file": e.file, "verdict": "equivalent",
+                "gates": p.gates, "rotations": p.rotations,
+                "canonical_rotations": p.canonical_rotations, "layers": p.layers,
+            }),
+            Outcome::Refuted(d) => serde_json::json!({
+                "id": e.id, "file": e.file, "verdict": "differs",
+                "line": d.line, "column": d.column, "message": d.message,
+            }),
+        })
+        .collect();
+    let json = serde_json::json!({
+        "method": "tableau",
+        "ok": ok,
+        "overlaps": "not computed: the tableau method proves equivalence only",
+        "circuits": circuits,
+    });
+    let mut t = Table::new([
+        "circuit",
+        "gates",
+        "rotations",
+        "canonical",
+        "layers",
+        "verdict",
+    ]);
+    for (e, o) in plan.circuits.iter().zip(&outcomes) {
+        match o {
+            Outcome::Proved(p) => t.row([
+                e.id.clone(),
+                p.gates.to_string(),
+                p.rotations.to_string(),
+                p.canonical_rotations.to_string(),
+                p.layers.to_string(),
+                "equivalent".to_string(),
+            ]),
+            Outcome::Refuted(d) => t.row([
+                e.id.clone(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                format!("differs at line {}", d.line),
+            ]),
         }
-        let mut out = t.render();
-        out += &format!(
-            "\n{} of {} circuits proved equivalent to the circuits plan.json claims (tableau \
-             method: exact, up to a global phase, rotation angles to 1e-12 relative).\n",
-            outcomes.len() - refuted.len(),
-            outcomes.len()
-        );
-        out += "(rotations: met in the file after splitting off quarter turns; canonical: after \
-             merging; layers: of mutually commuting rotations)\n";
-        out += "Ideal and exact overlaps are not computed by this method: it proves equivalence \
-             only (use --method statevector on circuits that fit the simulator).\n";
-        g.say(&out)?;
     }
-    for d in &refuted {
-        eprint!("{d}");
-    }
-    if ok {
-        Ok(())
-    } else {
-        Err(Error::Internal(format!(
+    let mut text = t.render();
+    text += &format!(
+        "\n{} of {} circuits proved equivalent to the circuits plan.json claims (tableau \
+         method: exact, up to a global phase, rotation angles to 1e-12 relative).\n",
+        outcomes.len() - refuted.len(),
+        outcomes.len()
+    );
+    text += "(rotations: met in the file after splitting off quarter turns; canonical: after \
+         merging; layers: of mutually commuting rotations)\n";
+    text += "Ideal and exact overlaps are not computed by this method: it proves equivalence \
+         only (use --method statevector on circuits that fit the simulator).\n";
+    let failure = (!ok).then(|| {
+        Error::Internal(format!(
             "{} of {} circuits differ from the circuits plan.json claims",
             refuted.len(),
             outcomes.len()
-        )))
-    }
+        ))
+    });
+    Ok(VerifyReport {
+        json,
+        text,
+        diagnostics: refuted.iter().map(|d| d.to_string()).collect(),
+        failure,
+    })
 }
