@@ -26,6 +26,9 @@ use std::path::PathBuf;
 /// (leftmost). Each circuit gets its own random stream derived from --seed, so the file does
 /// not depend on the number of threads.
 ///
+/// Without --shots, a plan whose shots were shared by `phasewright allot` gets each circuit's
+/// own share (the file then has no top-level "shots").
+///
 /// --noise applies a global depolarising channel per circuit whose fidelity is the circuit's
 /// estimated success probability from the device calibration. This is a crude model: real
 /// devices have coherent, correlated and readout-specific errors it does not capture.
@@ -37,9 +40,10 @@ use std::path::PathBuf;
 pub struct RehearseArgs {
     /// Folder written by `phasewright compile`.
     pub dir: PathBuf,
-    /// Shots per circuit.
-    #[arg(long, default_value_t = 10_000)]
-    pub shots: u64,
+    /// Shots per circuit [default: each circuit's share from plan.json when `phasewright
+    /// allot` wrote one, else 10000].
+    #[arg(long)]
+    pub shots: Option<u64>,
     /// Seed of the shot sampler.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
@@ -165,8 +169,11 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// Default shots per circuit without --shots or an allotment.
+pub const DEFAULT_SHOTS: u64 = 10_000;
+
 pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
-    if args.shots == 0 {
+    if args.shots == Some(0) {
         return Err(Error::usage(
             Code::UsageOption,
             "--shots must be at least 1",
@@ -195,6 +202,22 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
         ));
     }
     super::io::check_campaign_files(&args.dir, &plan)?;
+    // Shots per circuit: --shots for all, else the plan's allotment, else the default.
+    let allotted = plan.circuits.iter().all(|e| e.shots.is_some()) && !plan.circuits.is_empty();
+    let per_circuit: Vec<u64> = plan
+        .circuits
+        .iter()
+        .map(|e| match (args.shots, allotted) {
+            (Some(n), _) => n,
+            (None, true) => e.shots.unwrap_or(DEFAULT_SHOTS),
+            (None, false) => DEFAULT_SHOTS,
+        })
+        .collect();
+    let uniform = match args.shots {
+        Some(n) => Some(n),
+        None if allotted => None,
+        None => Some(DEFAULT_SHOTS),
+    };
     let bar = g.progress(
         plan.circuits.len(),
         "sampling {bar:40} {pos}/{len} circuits ({eta})",
@@ -207,10 +230,10 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     let mut sink = Sink::open(&out, to_stdout)?;
     let streamed = (|| -> Result<()> {
         sink.write(&format!(
-        "{{\n  \"format\": \"phasewright-counts/1\",\n  \"bit_order\": \"first\",\n  \"shots\": {},\n  \"counts\": {}",
-        args.shots,
-        if plan.circuits.is_empty() { "{}" } else { "{" }
-    ))?;
+            "{{\n  \"format\": \"phasewright-counts/1\",\n  \"bit_order\": \"first\",\n{}  \"counts\": {}",
+            uniform.map_or(String::new(), |n| format!("  \"shots\": {n},\n")),
+            if plan.circuits.is_empty() { "{}" } else { "{" }
+        ))?;
         let chunk = (4 * rayon::current_num_threads()).max(CHUNK_MIN);
         for (ci, entries) in plan.circuits.chunks(chunk).enumerate() {
             let texts: Vec<Result<String>> = entries
@@ -230,7 +253,7 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
                     }
                     let mut rng =
                         rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(i as u64)));
-                    let counts: BTreeMap<String, u64> = sample_counts(&p, args.shots, &mut rng)
+                    let counts: BTreeMap<String, u64> = sample_counts(&p, per_circuit[i], &mut rng)
                         .into_iter()
                         .map(|(k, n)| (bitstring(k, small.num_clbits), n))
                         .collect();
@@ -259,17 +282,25 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     if to_stdout {
         return Ok(());
     }
+    let total: u64 = per_circuit.iter().sum();
     g.json(&serde_json::json!({
         "circuits": plan.circuits.len(),
-        "shots": args.shots,
+        "shots": uniform,
+        "total_shots": total,
         "seed": args.seed,
         "noise": args.noise,
         "out": out.display().to_string(),
     }))?;
-    g.say(&format!(
-        "{} circuits x {} shots written to {}\n",
-        plan.circuits.len(),
-        args.shots,
-        out.display()
-    ))
+    g.say(&match uniform {
+        Some(n) => format!(
+            "{} circuits x {n} shots written to {}\n",
+            plan.circuits.len(),
+            out.display()
+        ),
+        None => format!(
+            "{} circuits, {total} shots shared as plan.json allots them, written to {}\n",
+            plan.circuits.len(),
+            out.display()
+        ),
+    })
 }
