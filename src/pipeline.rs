@@ -632,6 +632,7 @@ fn finish(
             costs: f.costs,
             final_layout: f.final_layout,
             sha256: None,
+            shots: None,
         });
         if let Output::Circuit(c) = f.output {
             circuits.push(c);

@@ -290,7 +290,9 @@ fn bad_input_exits_with_status_2_and_a_caret() {
 
 #[test]
 fn every_command_has_help_with_an_example() {
-    for cmd in ["compile", "verify", "rehearse", "estimate", "convert"] {
+    for cmd in [
+        "compile", "verify", "rehearse", "estimate", "convert", "budget", "allot",
+    ] {
         let text = stdout_of(phasewright().args([cmd, "--help"]));
         assert!(
             text.contains("Example"),

@@ -100,13 +100,11 @@ fn accuracy_request_warns_when_missed() {
 fn survey_three_seeds() {
     // Three seeds of the survey (10⁶ shots): prints the figures. For the six models whose
     // reference has weight ≥ 0.5, every seed must reach chemical accuracy (|error| ≤ 1.6e-3,
-    // 1 kcal/mol, customary), and the ±2σ_total interval must cover the exact energy in at
-    // least 14 of their 18 runs (a guard at the level measured once the formula keeps XX + YY
-    // pairs in one commuting group, which moved one Heisenberg-6 seed just outside its interval;
-    // the target of 90% coverage is not met). Known shortfall (measured, see benches/trust_survey.rs): on H4
-    // the answer sits 6–7e-4 above E0 with σ_total ≈ 2e-4 — a regularisation/convergence bias
-    // the plateau analysis does not see — so H4 is covered in none of these seeds.
-    let (mut good_runs, mut good_cover) = (0, 0);
+    // 1 kcal/mol, customary); over all eight models the ±2σ_total interval must cover the
+    // exact energy in at least 22 of the 24 runs (the 90%, rounded up). Before the
+    // contamination estimate (answer.rs) H4 sat 6–7e-4 above E0 with σ_total ≈ 2e-4 and was
+    // covered in none of these seeds; the random 5-qubit sum sat 8e-3 above.
+    let (mut runs, mut covered) = (0, 0);
     for m in survey_models() {
         let e0 = ground_energy(&m.h);
         let w = ground_weight(&m.h, &m.state);
@@ -144,11 +142,9 @@ fn survey_three_seeds() {
             );
         }
         eprintln!("{line} cover {cover}/3");
-        if w >= 0.5 {
-            good_runs += 3;
-            good_cover += cover;
-        }
+        runs += 3;
+        covered += cover;
     }
-    assert_eq!(good_runs, 18);
-    assert!(good_cover >= 14, "covered {good_cover} of {good_runs}");
+    assert_eq!(runs, 24);
+    assert!(covered >= 22, "covered {covered} of {runs}");
 }

@@ -12,6 +12,7 @@ use nalgebra::DMatrix;
 use num_complex::Complex64;
 use phasewright::estimate::expect::{ReadTable, Series};
 use phasewright::estimate::*;
+use phasewright::family::plan::Part;
 
 /// The regularised Krylov problem computed the long way: Krylov vectors as dense states,
 /// `S = Φ†Φ`, kept directions `Q = Φ V_ε Λ_ε^{−1/2}` (orthonormal in Hilbert space), then the
@@ -272,4 +273,65 @@ fn overlap_plans_use_the_sine_pencil_and_reach_the_ground_energy_without_noise()
     assert!((last - e0).abs() < 1e-6, "{last} vs {e0}");
     // Variational: never below the ground energy (up to rounding).
     assert!(r.iter().all(|x| x.unwrap().energy >= e0 - 1e-9));
+}
+
+#[test]
+fn every_group_circuit_ancilla_read_is_pooled_into_the_overlaps() {
+    // A Krylov campaign reads S_k from the ancilla of every measurement-group circuit (G of
+    // them per k and part) and no overlap circuit. With N shots each, the pooled mean is the
+    // plain mean of the G ancilla means, and its standard error is √(Σ se_i²)/G ≈ se/√G
+    // (shot-weighted pooling of independent binomial means; any statistics text, e.g. Rice,
+    // Mathematical Statistics and Data Analysis, 3rd ed. 2007, §7.3). Checked against each
+    // circuit's own ancilla parity, computed here from its histogram.
+    let h = heisenberg(4, 1.0, 0.0);
+    let (dt, k) = (0.3, 4);
+    let camp = campaign(&h, &["0101"], Kind::Krylov, dt, k);
+    let counts = camp.sample(20_000, 5);
+    let table = ReadTable::new(&camp.plan, &counts.circuits);
+    let weights = ReadTable::weights_of(&counts.circuits);
+    let q = table.evaluate(&weights);
+    let s = phasewright::estimate::expect::overlap_series(&q, 0, k).unwrap();
+    let groups = camp
+        .plan
+        .circuits
+        .iter()
+        .filter_map(|c| c.group)
+        .max()
+        .unwrap()
+        + 1;
+    assert!(groups >= 3, "X, Y and Z groups at least");
+    for kk in 1..k {
+        for (part, pick) in [(Part::Re, 0), (Part::Im, 1)] {
+            let mut means = Vec::new();
+            let mut var = 0.0;
+            for (c, cc) in camp.plan.circuits.iter().zip(&counts.circuits) {
+                if c.k != kk || c.part != Some(part) {
+                    continue;
+                }
+                let anc = 1u128 << c.ancilla_bit.unwrap();
+                let n: u64 = cc.shots();
+                let m = cc
+                    .outcomes
+                    .iter()
+                    .map(|&(o, w)| if o & anc == 0 { w as f64 } else { -(w as f64) })
+                    .sum::<f64>()
+                    / n as f64;
+                var += (1.0 - m * m) / (n - 1) as f64;
+                means.push(m);
+            }
+            assert_eq!(means.len(), groups, "k = {kk}: one ancilla read per group");
+            let mean = means.iter().sum::<f64>() / groups as f64;
+            let se = var.sqrt() / groups as f64;
+            let (got, got_se) = if pick == 0 {
+                (s.values[kk].re, s.std_errors[kk].0)
+            } else {
+                (s.values[kk].im, s.std_errors[kk].1)
+            };
+            assert!((got - mean).abs() < 1e-12, "k = {kk}: {got} vs {mean}");
+            assert!(
+                (got_se - se).abs() < 1e-12 * se.max(1e-300) + 1e-15,
+                "k = {kk}: {got_se} vs {se}"
+            );
+        }
+    }
 }

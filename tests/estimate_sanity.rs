@@ -136,6 +136,13 @@ fn energies_outside_the_one_norm_bound_are_flagged_and_named() {
                 }
             }
         }
+        // The final answer is checked against the same bound.
+        if let Some(e) = v["answer"]["energy"].as_f64() {
+            let outside = e < lo || e > hi;
+            assert_eq!(v["answer"]["outside_bound"].as_bool(), Some(outside));
+            assert_eq!(err.contains("the final answer"), outside, "{err}");
+            any |= outside;
+        }
         assert_eq!(any, expect_out, "{out}");
         assert_eq!(v["outside_bound"].as_bool(), Some(any));
         assert!(

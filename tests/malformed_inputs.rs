@@ -152,6 +152,7 @@ const CASES: &[Case] = &[
     case(Plan, "\"points\": 2\u{0}\"points\": 1", Some(("\"points\": 1", 10)), "a plan has 2 to 4096", "P301"),
     case(Plan, "\"id\": \"k01-im\"\u{0}\"id\": \"k01-re\"", Some(("\"k01-re\",\n      \"file\": \"k01-im", 0)), "empty or repeated", "P301"),
     case(Plan, "\"bit_count\": 1\u{0}\"bit_count\": 0", Some(("\"bit_count\": 0", 13)), "0 classical bits", "P301"),
+    case(Plan, "\"bit_count\": 1\u{0}\"bit_count\": 1,\n      \"shots\": 0", Some(("\"shots\": 0", 9)), "0 planned shots", "P301"),
     case(Plan, "\"ancilla_bit\": 0\u{0}\"ancilla_bit\": 4", Some(("\"ancilla_bit\": 4", 15)), "ancilla bit 4 is outside", "P301"),
     case(Plan, "\"qubit_count\": 9\u{0}\"qubit_count\": 5", Some(("\"qubit_count\": 5", 15)), "5 qubits does not fit", "P301"),
     case(Plan, "\"target\": \"overlap\"\u{0}\"target\": \"term\", \"term\": 40", Some(("\"term\": 40", 8)), "names term 40 but the Hamiltonian lists 17", "P301"),

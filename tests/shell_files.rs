@@ -4,6 +4,8 @@
 use assert_cmd::Command;
 
 const COMMANDS: &[&str] = &[
+    "allot",
+    "budget",
     "compile",
     "convert",
     "estimate",

@@ -44,8 +44,9 @@ the file's own \"bit_order\" key.
 For overlap and krylov plans the first lines give one final answer, E = … ± σ_stat ± σ_sys: \
 the lowest quasi-energy of the compiled product formula from the unitary pencil on the \
 overlaps, at a dimension and threshold recommended by a plateau analysis, with the \
-systematic part split into threshold sensitivity, unconverged dimension and Trotter bias \
-(--accuracy E warns when the total exceeds E). The table below it gives the lowest Krylov energy for every dimension \
+systematic part split into threshold sensitivity, unconverged dimension, contamination of \
+the Ritz vector (a Temple-type estimate of the bias thresholding leaves, half of which is \
+removed) and Trotter bias (--accuracy E warns when the total exceeds E). The table below it gives the lowest Krylov energy for every dimension \
 1..K, with ±1σ (one bootstrap standard error, as the plot's error bars), beside the \
 matrix-pencil estimate from the overlaps alone. Energies are in hartree for integral-file \
 input, otherwise in the units of the .ham coefficients. For trace plans it gives the Gaussian-broadened density of states with a ±2σ band and \
@@ -337,7 +338,9 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
 pub const ANSWER_METHOD: &str = "unitary pencil (T, S), T_jk = S_(k-j+1), on the overlaps: \
      quasi-energies of the compiled product formula itself (no commutation of H with the \
      formula assumed; Cortes & Gray 2022); threshold 2× the noise norm of S; dimension from \
-     the plateau of the scan (Epperly, Lin & Nakatsukasa 2022; Kirby 2024)";
+     the plateau of the scan (Epperly, Lin & Nakatsukasa 2022; Kirby 2024); the Ritz value's \
+     upward bias estimated from its own spread, 1 − |λ|², by Temple's inequality (Temple \
+     1928), half of it removed";
 
 /// The final-answer block of the energy table.
 pub fn answer_text(r: &EnergyReport) -> String {
@@ -357,8 +360,9 @@ pub fn answer_text(r: &EnergyReport) -> String {
         "  σ_stat: {}",
         if r.bootstrap >= 2 {
             format!(
-                "bootstrap over {} replicates (percentile width)",
-                r.bootstrap
+                "bootstrap over {} replicates (percentile width), each redoing the choice of \
+                 dimension: {:.2e} at d = {} fixed, {:.2e} for the whole procedure; the larger",
+                r.bootstrap, a.sigma_fixed, a.dimension, a.sigma_selection
             )
         } else {
             "off (--bootstrap 0)".to_string()
@@ -377,10 +381,24 @@ pub fn answer_text(r: &EnergyReport) -> String {
         ),
         None => "unknown (the commutator bound is vacuous at this dt)".to_string(),
     };
+    let contamination = if a.contamination > 0.0 {
+        format!(
+            "{:.2e} (= β/√12: the Ritz vector's spread (1 − |λ|²)/dt² = {:.2e} over the gap \
+             {} gives a bias β = {:.2e}; β/2 was subtracted)",
+            a.contamination_sigma(),
+            (1.0 - a.ritz_modulus * a.ritz_modulus) / (r.dt * r.dt),
+            a.gap
+                .map_or("(none: β = √V)".to_string(), |g| format!("{g:.3e}")),
+            a.contamination
+        )
+    } else {
+        "0 (the Ritz vector's spread 1 − |λ|² is within its shot noise)".to_string()
+    };
     let _ = writeln!(
         s,
-        "  σ_sys = √(threshold² + dimension² + Trotter²): threshold sensitivity {:.2e} (ε/2, \
-         2ε), unconverged dimension {:.2e} (drops still to come), Trotter {trotter}",
+        "  σ_sys = √(threshold² + dimension² + contamination² + Trotter²): threshold \
+         sensitivity {:.2e} (ε/2, 2ε), unconverged dimension {:.2e} (drops still to come), \
+         contamination {contamination}, Trotter {trotter}",
         a.threshold_sensitivity, a.unconverged
     );
     if let Some(acc) = r.accuracy {
@@ -402,13 +420,20 @@ fn answer_json(r: &EnergyReport) -> Value {
             "energy": a.energy,
             "sigma_stat": a.sigma_stat,
             "sigma_sys": a.sigma_sys,
+            "sigma_fixed_dimension": a.sigma_fixed,
+            "sigma_selection": a.sigma_selection,
             "sigma_total": a.sigma_total(),
             "dimension": a.dimension,
             "threshold": a.threshold,
+            "outside_bound": estimate::sanity::outside(a.energy, r.bound),
             "method": ANSWER_METHOD,
             "systematic": {
                 "threshold_sensitivity": a.threshold_sensitivity,
                 "unconverged_dimension": a.unconverged,
+                "contamination": a.contamination_sigma(),
+                "contamination_bias": a.contamination,
+                "ritz_modulus": a.ritz_modulus,
+                "gap": a.gap,
                 "trotter": a.trotter_sigma,
                 "trotter_correction": a.trotter_correction,
                 "trotter_bound": if a.trotter_bound.is_finite() { Some(a.trotter_bound) } else { None },
@@ -423,6 +448,9 @@ fn answer_json(r: &EnergyReport) -> Value {
                 "sigma_stat": x.sigma_stat,
                 "threshold_sensitivity": x.threshold_sensitivity,
                 "unconverged": x.unconverged,
+                "ritz": x.ritz,
+                "contamination_bias": x.contamination,
+                "ritz_modulus": x.ritz_modulus,
             })).collect::<Vec<_>>(),
         }),
     }
@@ -587,7 +615,8 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
                 "rule": "c +- sum|c_j| (triangle inequality)"},
             "gram_min_eigenvalue": r.gram_min.0,
             "gram_noise_scale": r.gram_min.1,
-            "outside_bound": r.rows.iter().any(|x| x.krylov_outside_bound || x.pencil_outside_bound),
+            "outside_bound": r.rows.iter().any(|x| x.krylov_outside_bound || x.pencil_outside_bound)
+                || r.answer.as_ref().is_some_and(|a| estimate::sanity::outside(a.energy, r.bound)),
             "signal_loss": r.loss_method,
             "exact": r.exact,
             "exact_source": r.exact_source,

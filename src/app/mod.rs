@@ -6,6 +6,7 @@
 //! or the standard streams**; every write to stdout goes through [`Global::say`] /
 //! [`Global::json`], so a closed pipe is a quiet exit, never a panic.
 
+pub mod allot;
 pub mod budget;
 pub mod compile;
 pub mod convert;
@@ -90,6 +91,7 @@ impl Global {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
+    Allot(allot::AllotArgs),
     Budget(budget::BudgetArgs),
     Compile(compile::CompileArgs),
     /// Map a fermionic .ham file or an FCIDUMP integral file to a qubit Hamiltonian (.ham).
@@ -133,6 +135,7 @@ pub fn usage_code(kind: clap::error::ErrorKind) -> Option<crate::lang::codes::Co
 pub fn run(cli: Cli) -> Result<()> {
     let g = cli.global;
     match cli.command {
+        Command::Allot(a) => allot::run(&a, &g),
         Command::Budget(a) => budget::run(&a, &g),
         Command::Compile(a) => compile::run(&a, &g),
         Command::Convert(a) => convert::run(a, &g),

@@ -33,6 +33,9 @@ use std::path::PathBuf;
 /// as with `compile --shard`); the file is then marked as that share (a "shard" key) and
 /// `phasewright merge` joins the N files into the one a single run writes, byte for byte.
 ///
+/// Without --shots, a plan whose shots were shared by `phasewright allot` gets each circuit's
+/// own share (the file then has no top-level "shots").
+///
 /// --noise applies a global depolarising channel per circuit whose fidelity is the circuit's
 /// estimated success probability from the device calibration. This is a crude model: real
 /// devices have coherent, correlated and readout-specific errors it does not capture.
@@ -44,9 +47,10 @@ use std::path::PathBuf;
 pub struct RehearseArgs {
     /// Folder written by `phasewright compile`.
     pub dir: PathBuf,
-    /// Shots per circuit.
-    #[arg(long, default_value_t = 10_000)]
-    pub shots: u64,
+    /// Shots per circuit [default: each circuit's share from plan.json when `phasewright
+    /// allot` wrote one, else 10000].
+    #[arg(long)]
+    pub shots: Option<u64>,
     /// Seed of the shot sampler.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
@@ -179,15 +183,17 @@ fn mix(mut z: u64) -> u64 {
 /// The opening of a counts document up to `"counts": ` (with `{` or, for no circuit, `{}`), as
 /// serde_json's pretty printer writes it; a share's file carries its `shard` mark.
 fn counts_head(
-    shots: u64,
+    shots: Option<u64>,
     shard: Option<&super::shard::CountsShard>,
     empty: bool,
 ) -> Result<String> {
     let mut head = serde_json::json!({
         "format": crate::estimate::counts::COUNTS_FORMAT,
         "bit_order": "first",
-        "shots": shots,
     });
+    if let Some(n) = shots {
+        head["shots"] = serde_json::json!(n);
+    }
     if let Some(s) = shard {
         head["shard"] = serde_json::to_value(s)
             .map_err(|e| Error::Internal(format!("cannot serialise a shard mark: {e}")))?;
@@ -236,29 +242,37 @@ pub fn counts_document(
     Ok(out)
 }
 
+/// Default shots per circuit without --shots or an allotment.
+pub const DEFAULT_SHOTS: u64 = 10_000;
+
 /// Runs `phasewright rehearse`.
 pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
     let Some(summary) = rehearse(args, g)? else {
         return Ok(());
     };
     g.json(&summary)?;
-    g.say(&format!(
-        "{} circuits x {} shots written to {}{}\n",
-        summary["circuits"],
-        args.shots,
-        summary["out"].as_str().unwrap_or_default(),
-        match args.shard {
-            Some((i, n)) => format!(" (share {i}/{n}; `phasewright merge` joins the shares)"),
-            None => String::new(),
-        }
-    ))
+    let out = summary["out"].as_str().unwrap_or_default();
+    let share = match args.shard {
+        Some((i, n)) => format!(" (share {i}/{n}; `phasewright merge` joins the shares)"),
+        None => String::new(),
+    };
+    g.say(&match summary["shots"].as_u64() {
+        Some(n) => format!(
+            "{} circuits x {n} shots written to {out}{share}\n",
+            summary["circuits"]
+        ),
+        None => format!(
+            "{} circuits, {} shots shared as plan.json allots them, written to {out}{share}\n",
+            summary["circuits"], summary["total_shots"]
+        ),
+    })
 }
 
 /// Samples the campaign (or its share) and writes the counts file; returns the summary that
 /// `--json` prints, or `None` when the counts went to stdout. The library entry point of
 /// `rehearse` (the command line and the Python module call it).
 pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_json::Value>> {
-    if args.shots == 0 {
+    if args.shots == Some(0) {
         return Err(Error::usage(
             Code::UsageOption,
             "--shots must be at least 1",
@@ -296,6 +310,22 @@ pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_j
         seed: Some(args.seed),
         noise: Some(args.noise),
     });
+    // Shots per circuit: --shots for all, else the plan's allotment, else the default.
+    let allotted = plan.circuits.iter().all(|e| e.shots.is_some()) && !plan.circuits.is_empty();
+    let per_circuit: Vec<u64> = plan
+        .circuits
+        .iter()
+        .map(|e| match (args.shots, allotted) {
+            (Some(n), _) => n,
+            (None, true) => e.shots.unwrap_or(DEFAULT_SHOTS),
+            (None, false) => DEFAULT_SHOTS,
+        })
+        .collect();
+    let uniform = match args.shots {
+        Some(n) => Some(n),
+        None if allotted => None,
+        None => Some(DEFAULT_SHOTS),
+    };
     let bar = g.progress(
         plan.circuits.len(),
         "sampling {bar:40} {pos}/{len} circuits ({eta})",
@@ -308,7 +338,7 @@ pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_j
     let mut sink = Sink::open(&out, to_stdout)?;
     let empty = plan.circuits.is_empty();
     let streamed = (|| -> Result<()> {
-        sink.write(&counts_head(args.shots, mark.as_ref(), empty)?)?;
+        sink.write(&counts_head(uniform, mark.as_ref(), empty)?)?;
         let chunk = (4 * rayon::current_num_threads()).max(CHUNK_MIN);
         for (ci, entries) in plan.circuits.chunks(chunk).enumerate() {
             let texts: Vec<Result<String>> = entries
@@ -331,7 +361,7 @@ pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_j
                     }
                     let mut rng =
                         rand_chacha::ChaCha8Rng::seed_from_u64(mix(args.seed ^ mix(global as u64)));
-                    let counts: BTreeMap<String, u64> = sample_counts(&p, args.shots, &mut rng)
+                    let counts: BTreeMap<String, u64> = sample_counts(&p, per_circuit[i], &mut rng)
                         .into_iter()
                         .map(|(k, n)| (bitstring(k, small.num_clbits), n))
                         .collect();
@@ -356,9 +386,11 @@ pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_j
     if to_stdout {
         return Ok(None);
     }
+    let total: u64 = per_circuit.iter().sum();
     let mut summary = serde_json::json!({
         "circuits": plan.circuits.len(),
-        "shots": args.shots,
+        "shots": uniform,
+        "total_shots": total,
         "seed": args.seed,
         "noise": args.noise,
         "out": out.display().to_string(),

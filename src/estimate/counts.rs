@@ -540,6 +540,7 @@ pub(crate) mod tests {
             costs: Costs::default(),
             final_layout: vec![],
             sha256: None,
+            shots: None,
         };
         Plan {
             format: PLAN_FORMAT.into(),

@@ -177,8 +177,51 @@ pub fn unitary_ritz(
     threshold: f64,
     shift: f64,
 ) -> Option<Ritz> {
+    unitary_ritz_detail(s, dt, d, threshold, shift).map(|r| Ritz {
+        energy: r.energy,
+        kept: r.kept,
+    })
+}
+
+/// The lowest admissible Ritz value of the unitary pencil (see [`unitary_ritz`]) with what
+/// the contamination estimate of `super::answer` needs.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct UnitaryRitz {
+    /// Quasi-energy `μ − arg(λ e^{iμdt})/dt` of the lowest admissible Ritz value `λ`.
+    pub energy: f64,
+    /// Directions of the Gram matrix kept above the threshold.
+    pub kept: usize,
+    /// `|λ|`. For exact data `1 − |λ|² = ‖(U − λ)x‖²` for the unit Ritz vector `x`: the
+    /// spread of `x` over the eigenvalues of `U` (0 only for an eigenvector).
+    pub modulus: f64,
+    /// Quasi-energy of the next admissible Ritz value above `energy`, if any.
+    pub next: Option<f64>,
+}
+
+/// As [`unitary_ritz`], with the modulus of the Ritz value and the next admissible one.
+pub fn unitary_ritz_detail(
+    s: &[Complex64],
+    dt: f64,
+    d: usize,
+    threshold: f64,
+    shift: f64,
+) -> Option<UnitaryRitz> {
+    unitary_ritz_thresholds(s, dt, d, &[threshold], shift)
+        .pop()
+        .flatten()
+}
+
+/// [`unitary_ritz_detail`] at several thresholds of one dimension: the Gram matrix is
+/// diagonalised once, and thresholds that keep the same directions share one result.
+pub fn unitary_ritz_thresholds(
+    s: &[Complex64],
+    dt: f64,
+    d: usize,
+    thresholds: &[f64],
+    shift: f64,
+) -> Vec<Option<UnitaryRitz>> {
     if s.len() <= d || d == 0 {
-        return None;
+        return vec![None; thresholds.len()];
     }
     let shifted: Vec<Complex64> = s[..=d]
         .iter()
@@ -188,24 +231,51 @@ pub fn unitary_ritz(
     let gram = toeplitz(&shifted, d);
     let gram = (&gram + gram.adjoint()) * Complex64::new(0.5, 0.0);
     let eig = gram.symmetric_eigen();
-    let kept: Vec<usize> = (0..d).filter(|&i| eig.eigenvalues[i] > threshold).collect();
+    let t = DMatrix::from_fn(d, d, |j, k| at(&shifted, k as i64 - j as i64 + 1));
+    let mut done: Vec<(Vec<usize>, Option<UnitaryRitz>)> = Vec::new();
+    thresholds
+        .iter()
+        .map(|&threshold| {
+            let kept: Vec<usize> = (0..d).filter(|&i| eig.eigenvalues[i] > threshold).collect();
+            if let Some((_, r)) = done.iter().find(|(k, _)| *k == kept) {
+                return *r;
+            }
+            let r = compressed_ritz(&eig, &t, &kept, dt, shift);
+            done.push((kept, r));
+            r
+        })
+        .collect()
+}
+
+/// The lowest admissible Ritz value of `W†TW`, `W = V_kept Λ_kept^{−1/2}`.
+fn compressed_ritz(
+    eig: &nalgebra::linalg::SymmetricEigen<Complex64, nalgebra::Dyn>,
+    t: &DMatrix<Complex64>,
+    kept: &[usize],
+    dt: f64,
+    shift: f64,
+) -> Option<UnitaryRitz> {
     if kept.is_empty() {
         return None;
     }
+    let d = t.nrows();
     let w = DMatrix::from_fn(d, kept.len(), |r, c| {
         eig.eigenvectors[(r, kept[c])] / eig.eigenvalues[kept[c]].sqrt()
     });
-    let t = DMatrix::from_fn(d, d, |j, k| at(&shifted, k as i64 - j as i64 + 1));
     let a = w.adjoint() * t * &w;
     let lambdas = a.schur().eigenvalues()?;
-    let low = lambdas
+    let mut admissible: Vec<(f64, f64)> = lambdas
         .iter()
         .filter(|l| l.norm() >= MIN_UNITARY_MODULUS)
-        .map(|l| shift - l.arg() / dt)
-        .fold(f64::INFINITY, f64::min);
-    low.is_finite().then_some(Ritz {
-        energy: low,
+        .map(|l| (shift - l.arg() / dt, l.norm()))
+        .collect();
+    admissible.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let &(energy, modulus) = admissible.first()?;
+    energy.is_finite().then_some(UnitaryRitz {
+        energy,
         kept: kept.len(),
+        modulus,
+        next: admissible.get(1).map(|x| x.0),
     })
 }
 

@@ -8,10 +8,11 @@
 //! bound. Invariant: the identity coefficient `c` of `H` is never compiled, so every energy
 //! here is computed for `H' = H − c` and `c` is added back exactly once, in this module.
 //!
-//! Submodules, in data order: [`counts`] (file → histograms), [`expect`] (histograms → parity
-//! expectations ± binomial error → series), [`krylov`] (Toeplitz pencil, thresholding),
-//! [`overlap_only`] (matrix pencil), [`dos`] (density of states), [`resample`] (exact
-//! multinomial draws for the bootstrap).
+//! Submodules, in data order: [`allot`] (shots per circuit, before a run), [`counts`] (file →
+//! histograms), [`expect`] (histograms → parity expectations ± binomial error → series),
+//! [`krylov`] (Toeplitz pencil, thresholding), [`answer`] (one final answer with its
+//! systematic parts), [`overlap_only`] (matrix pencil), [`dos`] (density of states),
+//! [`resample`] (exact multinomial draws for the bootstrap).
 //!
 //! Stochastic trace (trace plans): `tr U/2ⁿ` is the mean of `⟨ψ_s|U|ψ_s⟩` over random states
 //! whose average projector is `I/2ⁿ` (Hutchinson, Commun. Stat. Simul. Comput. 18, 1059
@@ -23,6 +24,7 @@
 //! deviation of the replicates. Replicate `b` uses ChaCha8 stream `b` of the seed, so results
 //! do not depend on the thread count.
 
+pub mod allot;
 pub mod answer;
 pub mod budget;
 pub mod counts;
@@ -620,13 +622,19 @@ fn energies(
             s: &s,
             replicates: &rep_series,
             dt,
-            shift: center,
+            shift: answer::phase_centre(center, plan.hamiltonian.one_norm, dt),
             constant: c,
             trotter: tb,
             seed: cfg.seed,
         })
     });
     match &ans {
+        Some(a) if sanity::outside(a.energy, bound) => warnings.push(format!(
+            "the final answer {:.6} lies outside [{:.6}, {:.6}], the bound c ± Σ|c_j| that every \
+             eigenvalue of H obeys: it is not an energy of H (counts in the other bit order, \
+             counts of another campaign, or a phase aliased by too large a dt)",
+            a.energy, bound.0, bound.1
+        )),
         Some(a) => warnings.extend(answer::warnings(a, cfg.accuracy)),
         None => warnings.push(
             "no final answer: the unitary pencil kept no Ritz value at any dimension (the \

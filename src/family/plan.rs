@@ -18,7 +18,8 @@
 //! - `device` (absent on all-to-all): name, `qubit_count`, native gates, `start_placement`;
 //! - `circuits`: id, file, `k`, time, part (`re`/`im`), state index, optional group,
 //!   `qubit_count`, `bit_count`, ancilla bit, reads, costs, `end_placement` (on a device), and
-//!   the file's SHA-256 (the plan is written after every file it lists).
+//!   the file's SHA-256 (the plan is written after every file it lists), and optionally the
+//!   shots planned for it (`shots`, written by `phasewright allot`).
 //!
 //! The Rust field names (`num_qubits`, `num_clbits`, `initial_layout`, `final_layout`) are
 //! those the compiler passes use; the JSON keys are the plan's own words.
@@ -221,6 +222,10 @@ pub struct CircuitEntry {
     /// every reader of the campaign refuses a missing or changed file.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sha256: Option<String>,
+    /// Shots planned for this circuit (`phasewright allot`); `rehearse` draws this many when
+    /// no `--shots` is given. Absent when no allocation was made.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shots: Option<u64>,
 }
 
 /// Costs of one circuit as recorded in the plan.
@@ -678,6 +683,16 @@ impl Plan {
                         );
                     }
                 }
+            }
+            if e.shots == Some(0) {
+                bad(
+                    at_circuit(i, "shots"),
+                    format!(
+                        "circuit `{}`: 0 planned shots; a circuit needs at least 1",
+                        e.id
+                    ),
+                    Some("rerun `phasewright allot` rather than editing plan.json"),
+                );
             }
             if let Some(h) = &e.sha256 {
                 if h.len() != 64

@@ -204,6 +204,7 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
         costs: Costs::default(),
         final_layout: Vec::new(),
         sha256: None,
+        shots: None,
     }
 }
 
