@@ -9,13 +9,20 @@
 //! a wrong state preparation, a wrong qubit permutation or a wrong measurement wire all show up.
 //! With [`CheckOptions::exact`] off the exact evolution (the slow part on wide circuits) is not
 //! computed and the exact values and Trotter errors are `None`.
+//!
+//! Errors are [`CheckError`]s: a plan that does not describe a campaign, a circuit file that
+//! does not measure what its plan entry reads, or a simulation too large for this machine — all
+//! bad input (exit 2); a compile error above tolerance is not an error here but a verdict.
 
 use crate::circuit::Circuit;
+use crate::error::{Blame, LayerError};
 use crate::family::plan::{CircuitEntry, Part, Plan, Target};
 use crate::family::state_prep;
 use crate::formula::{apply_program, evolution, order_terms, Order};
+use crate::lang::codes::Code;
 use crate::pauli::{PauliString, PauliSum};
 use crate::sim::exact::Propagator;
+use crate::sim::SimError;
 use crate::sim::{run, State};
 use num_complex::Complex64;
 use rayon::prelude::*;
@@ -24,6 +31,73 @@ use serde::Serialize;
 /// Largest acceptable `|simulated − ideal|`: rounding in ~10⁵ gates stays near 1e-12, so 1e-9
 /// leaves three orders of margin while any real compile bug is far larger.
 pub const COMPILE_TOLERANCE: f64 = 1e-9;
+
+/// Why a plan and its circuits cannot be checked.
+#[derive(Clone, Debug, PartialEq)]
+pub enum CheckError {
+    /// The plan does not describe a campaign: a term that does not parse, an unknown formula
+    /// order, a bad state letter, a read of a term the plan does not list. (`Plan::validate`
+    /// reports these with their place first; a plan built in code can still reach them.)
+    Plan(String),
+    /// A read of circuit `circuit` names a classical bit its file never measures.
+    UnmeasuredBit { circuit: Option<String>, bit: u32 },
+    /// The simulation (of circuit `circuit`, or of the references) does not fit this machine.
+    TooLarge {
+        circuit: Option<String>,
+        source: SimError,
+    },
+}
+
+impl CheckError {
+    /// The same error, said of circuit `id`.
+    fn in_circuit(self, id: &str) -> CheckError {
+        match self {
+            CheckError::UnmeasuredBit { bit, .. } => CheckError::UnmeasuredBit {
+                circuit: Some(id.to_string()),
+                bit,
+            },
+            CheckError::TooLarge { source, .. } => CheckError::TooLarge {
+                circuit: Some(id.to_string()),
+                source,
+            },
+            CheckError::Plan(m) => CheckError::Plan(format!("{id}: {m}")),
+        }
+    }
+}
+
+impl std::fmt::Display for CheckError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let at = |c: &Option<String>| c.as_ref().map_or(String::new(), |id| format!("{id}: "));
+        match self {
+            CheckError::Plan(m) => f.write_str(m),
+            CheckError::UnmeasuredBit { circuit, bit } => {
+                write!(f, "{}classical bit {bit} is never measured", at(circuit))
+            }
+            CheckError::TooLarge { circuit, source } => write!(f, "{}{source}", at(circuit)),
+        }
+    }
+}
+
+impl std::error::Error for CheckError {}
+
+impl LayerError for CheckError {
+    fn blame(&self) -> Blame {
+        match self {
+            CheckError::Plan(_) => Blame::Input(Code::PlanInconsistent),
+            CheckError::UnmeasuredBit { .. } => Blame::Input(Code::QasmPlan),
+            CheckError::TooLarge { .. } => Blame::Input(Code::UsageLimit),
+        }
+    }
+}
+
+impl From<SimError> for CheckError {
+    fn from(source: SimError) -> CheckError {
+        CheckError::TooLarge {
+            circuit: None,
+            source,
+        }
+    }
+}
 
 /// The verdict on one read of one circuit.
 #[derive(Clone, Debug, Serialize)]
@@ -77,21 +151,28 @@ pub fn reference_count(plan: &Plan) -> usize {
 }
 
 /// The compiled Hamiltonian: the plan's terms without the constant, which is never a gate.
-pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, String> {
-    let mut h = plan.pauli_sum()?;
+pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, CheckError> {
+    let mut h = plan.pauli_sum().map_err(CheckError::Plan)?;
     h.constant = 0.0;
     Ok(h)
 }
 
 /// Parity expectation `⟨Π Z⟩` over the physical qubits measured into `bits`.
-pub fn parity_expectation(c: &Circuit, final_state: &State, bits: &[u32]) -> Result<f64, String> {
+pub fn parity_expectation(
+    c: &Circuit,
+    final_state: &State,
+    bits: &[u32],
+) -> Result<f64, CheckError> {
     let meas = c.measurements();
     let mut mask = 0u64;
     for b in bits {
         let (q, _) = meas
             .iter()
             .find(|(_, bit)| bit == b)
-            .ok_or_else(|| format!("classical bit {b} is never measured"))?;
+            .ok_or(CheckError::UnmeasuredBit {
+                circuit: None,
+                bit: *b,
+            })?;
         mask |= 1u64 << q;
     }
     Ok(final_state.expect_z_mask(mask))
@@ -104,12 +185,12 @@ struct References {
     psi: State,
 }
 
-fn prepared(n: usize, state: &str) -> Result<State, String> {
+fn prepared(n: usize, state: &str) -> Result<State, CheckError> {
     let prep = state_prep(state).map_err(|b| {
-        format!(
+        CheckError::Plan(format!(
             "bad state letter `{}` at {}: {}",
             b.letter, b.index, b.reason
-        )
+        ))
     })?;
     let mut s = State::zero(n);
     for g in &prep {
@@ -119,7 +200,7 @@ fn prepared(n: usize, state: &str) -> Result<State, String> {
 }
 
 /// Checks every circuit of a plan. `circuits[i]` belongs to `plan.circuits[i]`.
-pub fn check_plan(plan: &Plan, circuits: &[Circuit]) -> Result<Vec<CircuitCheck>, String> {
+pub fn check_plan(plan: &Plan, circuits: &[Circuit]) -> Result<Vec<CircuitCheck>, CheckError> {
     check_plan_with_progress(plan, circuits, &|| {})
 }
 
@@ -128,7 +209,7 @@ pub fn check_plan_with_progress(
     plan: &Plan,
     circuits: &[Circuit],
     tick: &(dyn Fn() + Sync),
-) -> Result<Vec<CircuitCheck>, String> {
+) -> Result<Vec<CircuitCheck>, CheckError> {
     check_plan_with(
         plan,
         circuits,
@@ -146,13 +227,14 @@ pub fn check_plan_with(
     circuits: &[Circuit],
     opts: CheckOptions,
     progress: &Progress,
-) -> Result<Vec<CircuitCheck>, String> {
+) -> Result<Vec<CircuitCheck>, CheckError> {
     let h = plan_hamiltonian(plan)?;
     let n = h.num_qubits;
     // The references hold statevectors of the Hamiltonian's width (and its exact propagator):
     // refuse before allocating when they cannot fit.
     crate::sim::check_fits(n, 2)?;
-    let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
+    let order = Order::from_number(plan.formula.order)
+        .ok_or_else(|| CheckError::Plan("plan.json: unknown formula order".into()))?;
     let terms = order_terms(&h);
     let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
     // References per (state, k), computed once and shared by all circuits that need them.
@@ -206,9 +288,10 @@ fn check_circuit(
     c: &Circuit,
     r: &References,
     strings: &[PauliString],
-) -> Result<CircuitCheck, String> {
+) -> Result<CircuitCheck, CheckError> {
     let (small, _) = c.compacted();
-    crate::sim::check_fits(small.num_qubits, 2).map_err(|m| format!("{}: {m}", e.id))?;
+    crate::sim::check_fits(small.num_qubits, 2)
+        .map_err(|m| CheckError::from(m).in_circuit(&e.id))?;
     let out = run(&small, State::zero(small.num_qubits));
     let Some(part) = e.part else {
         return Ok(check_outcomes(e, &small, &out, r));
@@ -217,7 +300,7 @@ fn check_circuit(
     let mut reads = Vec::new();
     for rd in &e.reads {
         let simulated =
-            parity_expectation(&small, &out, &rd.bits).map_err(|m| format!("{}: {m}", e.id))?;
+            parity_expectation(&small, &out, &rd.bits).map_err(|m| m.in_circuit(&e.id))?;
         let (label, ideal, exact) = match rd.target {
             Target::Overlap => (
                 "overlap".to_string(),
@@ -225,9 +308,9 @@ fn check_circuit(
                 r.exact.as_ref().map(|x| r.psi.inner(x)),
             ),
             Target::Term { term } => {
-                let p = strings
-                    .get(term)
-                    .ok_or_else(|| format!("{}: term {term} not in the plan", e.id))?;
+                let p = strings.get(term).ok_or_else(|| {
+                    CheckError::Plan(format!("{}: term {term} not in the plan", e.id))
+                })?;
                 // ⟨ψ|P U|ψ⟩ = ⟨Pψ|Uψ⟩ (P is Hermitian).
                 let ppsi = r.psi.pauli_applied(p);
                 (
@@ -344,13 +427,14 @@ pub const TRACE_EXACT_MAX_QUBITS: usize = 10;
 pub fn trace_summary(
     plan: &Plan,
     checks: &[CircuitCheck],
-) -> Result<Option<Vec<TraceRow>>, String> {
+) -> Result<Option<Vec<TraceRow>>, CheckError> {
     let h = plan_hamiltonian(plan)?;
     let n = h.num_qubits;
     if n > TRACE_EXACT_MAX_QUBITS {
         return Ok(None);
     }
-    let order = Order::from_number(plan.formula.order).ok_or("plan.json: unknown formula order")?;
+    let order = Order::from_number(plan.formula.order)
+        .ok_or_else(|| CheckError::Plan("plan.json: unknown formula order".into()))?;
     let terms = order_terms(&h);
     let spectrum = crate::sim::exact::spectrum(&h);
     let dim = 1usize << n;

@@ -3,6 +3,11 @@
 //! In: errors of each layer (diagnostics from the parsers, I/O failures, broken IR invariants).
 //! Out: one value rendered once by the binary. Bad input exits with 2, internal failures with 1;
 //! a closed stdout (the reader of a pipe stopped early) is a quiet exit with status 0.
+//!
+//! The library layers without source text (`check`, `estimate`, `sim`, `fermion`, `report`)
+//! each have their own error enum implementing [`LayerError`]: every variant says whether it is
+//! bad input (with its catalogue code) or a phasewright bug, so the command layer converts it
+//! with [`Error::from_layer`] / [`Error::layer_in`] and never picks an exit status itself.
 
 use crate::circuit::verify::IrError;
 use crate::lang::codes::Code;
@@ -33,7 +38,64 @@ pub enum Error {
     BrokenPipe,
 }
 
+/// Who a layer's failure is due to, which fixes the exit status.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Blame {
+    /// Bad input (a file, a plan, an option): exit 2, reported under this catalogue code.
+    Input(Code),
+    /// A phasewright bug: exit 1, reported as an internal failure.
+    Bug,
+}
+
+/// An error of one library layer: its message (`Display`), who is to blame, and perhaps a hint.
+pub trait LayerError: fmt::Display {
+    fn blame(&self) -> Blame;
+    /// How to fix it, when the layer knows.
+    fn hint(&self) -> Option<&str> {
+        None
+    }
+}
+
+/// `impl From<$t> for Error` through [`LayerError`], for the layers' error enums.
+macro_rules! from_layer {
+    ($($t:ty),* $(,)?) => {
+        $(impl From<$t> for Error {
+            fn from(e: $t) -> Error {
+                Error::from_layer(&e)
+            }
+        })*
+    };
+}
+
+from_layer!(
+    crate::check::CheckError,
+    crate::estimate::EstimateError,
+    crate::sim::SimError,
+    crate::fermion::FermionError,
+    crate::report::plot::PlotError,
+);
+
 impl Error {
+    /// A layer's error as it is: its message, its blame's code and exit status, its hint.
+    pub fn from_layer(e: &dyn LayerError) -> Error {
+        Error::layer_in(e, "", None)
+    }
+
+    /// A layer's error with context added by the caller: `context` is put before the message
+    /// (e.g. the circuit or option it concerns) and `hint`, when given, replaces the layer's.
+    /// The code and exit status still come from the layer's [`Blame`].
+    pub fn layer_in(e: &dyn LayerError, context: &str, hint: Option<&str>) -> Error {
+        let message = format!("{context}{e}");
+        match e.blame() {
+            Blame::Input(code) => Error::Usage {
+                code,
+                message,
+                hint: hint.or(e.hint()).map(str::to_string),
+            },
+            Blame::Bug => Error::Internal(message),
+        }
+    }
+
     pub fn usage(code: Code, message: impl Into<String>, hint: Option<&str>) -> Error {
         Error::Usage {
             code,

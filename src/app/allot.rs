@@ -110,10 +110,10 @@ pub fn run(args: &AllotArgs, g: &super::Global) -> Result<()> {
                 .map(|e| {
                     let c = read_plan_circuit(&args.dir, e)?;
                     let (small, _) = c.compacted();
-                    check_fits(small.num_qubits, 2).map_err(|msg| {
-                        Error::usage(
-                            Code::UsageLimit,
-                            format!("{}: {msg}", e.id),
+                    check_fits(small.num_qubits, 2).map_err(|err| {
+                        Error::layer_in(
+                            &err,
+                            &format!("{}: ", e.id),
                             Some("measure the deviations on a pilot run instead: --counts PILOT"),
                         )
                     })?;
@@ -136,8 +136,7 @@ pub fn run(args: &AllotArgs, g: &super::Global) -> Result<()> {
     };
     let sd = match args.shots_by {
         ShotsBy::Equal => vec![1.0; plan.circuits.len()],
-        ShotsBy::Spread => allot::per_shot_sd(&plan, &dists)
-            .map_err(|msg| Error::usage(Code::UsageInput, msg, None))?,
+        ShotsBy::Spread => allot::per_shot_sd(&plan, &dists)?,
     };
     let rule = match args.shots_by {
         ShotsBy::Spread => Rule::Spread,

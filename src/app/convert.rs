@@ -70,11 +70,11 @@ pub fn drop_below(h: &mut PauliSum, cutoff: f64) -> usize {
     before - h.terms.len()
 }
 
-fn parse_encoding(s: &str) -> std::result::Result<Encoding, String> {
+fn parse_encoding(s: &str) -> std::result::Result<Encoding, crate::fermion::FermionError> {
     s.parse()
 }
 
-fn parse_active(s: &str) -> std::result::Result<ActiveSpace, String> {
+fn parse_active(s: &str) -> std::result::Result<ActiveSpace, crate::fermion::FermionError> {
     ActiveSpace::parse(s)
 }
 
@@ -129,20 +129,11 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
         };
         let ints = fcidump::parse_fcidump(&name, &src).map_err(Error::Input)?;
         let (ints, frozen) = match opts.active {
-            Some(space) => (
-                fcidump::restrict(&ints, space).map_err(|m| {
-                    Error::usage(
-                        Code::UsageOption,
-                        m,
-                        Some("--active FIRST-LAST counts orbitals from 1"),
-                    )
-                })?,
-                space.frozen,
-            ),
+            Some(space) => (fcidump::restrict(&ints, space)?, space.frozen),
             None => (ints, 0),
         };
         let (h, info) = qubit_hamiltonian_from_integrals(&ints, enc, frozen)
-            .map_err(|m| Error::usage(Code::FciValue, format!("{name}: {m}"), None))?;
+            .map_err(|e| Error::layer_in(&e, &format!("{name}: "), None))?;
         let loaded = Loaded {
             encoding: Some(enc),
             terms_read: 0,

@@ -154,10 +154,7 @@ pub fn estimate_campaign(
     }
     let plan = super::io::read_plan(&args.dir)?;
     if plan.family == crate::family::plan::Family::Evolution {
-        return Err(Error::usage(Code::UsageInput,
-            crate::estimate::EVOLUTION_REFUSAL,
-            Some("use rehearse or your own device runs to sample them; compile --measure overlap, krylov or trace for estimate"),
-        ));
+        return Err(crate::estimate::EstimateError::Evolution.into());
     }
     super::io::check_campaign_files(&args.dir, &plan)?;
     let text = match counts_text {
@@ -171,13 +168,8 @@ pub fn estimate_campaign(
     let name = super::io::display_name(&args.counts);
     let counts = counts::parse(&text, &name, &plan, order).map_err(Error::Input)?;
     if args.undo_loss {
-        estimate::sanity::calibrated_loss(&plan).map_err(|m| {
-            Error::usage(
-                Code::UsageConflict,
-                format!("--undo-loss: {m}"),
-                Some("compile the campaign with --device D.dev, or drop --undo-loss"),
-            )
-        })?;
+        estimate::sanity::calibrated_loss(&plan)
+            .map_err(|e| Error::layer_in(&e, "--undo-loss: ", None))?;
     }
     let cfg = Config {
         threshold: args.threshold,
@@ -189,19 +181,12 @@ pub fn estimate_campaign(
         accuracy: args.accuracy,
         ..Config::default()
     };
-    let analysis = estimate::analyse(&plan, &counts, &cfg).map_err(|m| {
-        Error::usage(
-            Code::CountsPlan,
-            m,
-            Some("check that the counts answer this plan"),
-        )
-    })?;
+    let analysis = estimate::analyse(&plan, &counts, &cfg)?;
     if let Some(path) = &args.plot {
         let svg = match &analysis {
             Analysis::Energies(r) => plot::energy_svg(r, &plan.energy_label()),
             Analysis::Dos(r) => plot::dos_svg(r, &plan.energy_label()),
-        }
-        .map_err(Error::Internal)?;
+        }?;
         super::io::write_output(path, svg.as_bytes())?;
     }
     let warnings = match &analysis {

@@ -351,9 +351,8 @@ pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_j
                     let global = plan.shard.map_or(i, |s| s.global_index(i));
                     let c = read_plan_circuit(&args.dir, e)?;
                     let (small, _) = c.compacted();
-                    check_fits(small.num_qubits, 2).map_err(|m| {
-                        Error::usage(Code::UsageLimit, format!("{}: {m}", e.id), None)
-                    })?;
+                    check_fits(small.num_qubits, 2)
+                        .map_err(|m| Error::layer_in(&m, &format!("{}: ", e.id), None))?;
                     let state = sim::run(&small, State::zero(small.num_qubits));
                     let mut p = measured_distribution(&small, &state);
                     if args.noise {

@@ -15,7 +15,6 @@ use crate::check::{
 };
 use crate::error::{Error, Result};
 use crate::family::plan::{Family, Plan};
-use crate::lang::codes::Code;
 use crate::report::table::{sci, Table};
 use clap::{Args, ValueEnum};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
@@ -193,10 +192,10 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
     );
     refs.finish_and_clear();
     sims.finish_and_clear();
-    let checks = checked.map_err(|m| {
-        Error::usage(
-            Code::UsageLimit,
-            m,
+    let checks = checked.map_err(|e| {
+        Error::layer_in(
+            &e,
+            "",
             Some("the plan or a circuit file does not fit this machine or is inconsistent"),
         )
     })?;
@@ -209,7 +208,7 @@ fn check_plan(args: &VerifyArgs, g: &super::Global, plan: &Plan) -> Result<Verif
     let ok = worst <= args.tolerance;
     // The trace averages over every state's circuits: a share holds only some of them.
     let trace = if plan.family == Family::Trace && plan.shard.is_none() {
-        trace_summary(plan, &checks).map_err(|m| Error::usage(Code::PlanInconsistent, m, None))?
+        trace_summary(plan, &checks)?
     } else {
         None
     };

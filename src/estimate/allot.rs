@@ -33,6 +33,7 @@
 //! bound); the real shares are then rounded by largest remainders (ties to the earlier
 //! circuit), so the total is met exactly and the result is deterministic.
 
+use super::EstimateError;
 use crate::family::plan::{Family, Part, Plan, Target};
 use std::collections::BTreeMap;
 
@@ -91,13 +92,9 @@ fn moments(dist: &Distribution, value: impl Fn(u128) -> f64) -> (f64, f64) {
 
 /// Per-shot standard deviation of what every circuit contributes (see the module header);
 /// `dists[i]` is circuit `i`'s distribution, in plan order. `Err` for a plan without reads.
-pub fn per_shot_sd(plan: &Plan, dists: &[Vec<(u128, f64)>]) -> Result<Vec<f64>, String> {
+pub fn per_shot_sd(plan: &Plan, dists: &[Vec<(u128, f64)>]) -> Result<Vec<f64>, EstimateError> {
     if plan.family == Family::Evolution {
-        return Err(
-            "a plain time-evolution campaign reads nothing: there is no estimator \
-                    whose variance an allocation could lower"
-                .into(),
-        );
+        return Err(EstimateError::NothingToAllot);
     }
     let coeffs: Vec<f64> = plan.hamiltonian.terms.iter().map(|t| t.coeff).collect();
     let term_reads = |i: usize| -> Vec<(usize, u128)> {

@@ -28,6 +28,7 @@
 //! `E − μ`, which is small when the reference state's energy is near the answer.
 
 use super::counts::CircuitCounts;
+use super::EstimateError;
 use crate::family::plan::{Part, Plan, Target};
 use num_complex::Complex64;
 use std::collections::BTreeMap;
@@ -258,12 +259,12 @@ impl Series {
     }
 }
 
-fn need(q: &BTreeMap<Quantity, Estimate>, key: Quantity) -> Result<Estimate, String> {
+fn need(q: &BTreeMap<Quantity, Estimate>, key: Quantity) -> Result<Estimate, EstimateError> {
     q.get(&key).copied().ok_or_else(|| {
-        format!(
+        EstimateError::Missing(format!(
             "the plan has no circuit reading {}; it cannot be estimated",
             key.describe()
-        )
+        ))
     })
 }
 
@@ -272,7 +273,7 @@ pub fn overlap_series(
     q: &BTreeMap<Quantity, Estimate>,
     state: usize,
     points: usize,
-) -> Result<Series, String> {
+) -> Result<Series, EstimateError> {
     let mut values = vec![Complex64::new(1.0, 0.0)];
     let mut std_errors = vec![(0.0, 0.0)];
     for k in 1..points {
@@ -296,7 +297,7 @@ pub fn energy_series(
     coeffs: &[f64],
     state: usize,
     points: usize,
-) -> Result<Series, String> {
+) -> Result<Series, EstimateError> {
     let mut values = Vec::with_capacity(points);
     let mut std_errors = Vec::with_capacity(points);
     for k in 0..points {
@@ -353,7 +354,7 @@ pub fn shifted_energy_series(
     groups: &BTreeMap<usize, Vec<usize>>,
     state: usize,
     points: usize,
-) -> Result<(Series, f64), String> {
+) -> Result<(Series, f64), EstimateError> {
     let h = energy_series(q, coeffs, state, points)?;
     let term = |k, j, part| {
         need(
@@ -384,7 +385,9 @@ pub fn shifted_energy_series(
                 group,
             })
             .copied()
-            .ok_or_else(|| format!("the plan has no group-{group} circuit at k = {k}"))
+            .ok_or_else(|| {
+                EstimateError::Missing(format!("the plan has no group-{group} circuit at k = {k}"))
+            })
     };
     let mut values = h.values.clone();
     for (k, v) in values.iter_mut().enumerate() {

@@ -155,20 +155,15 @@ pub fn reversed(counts: &CountsFile) -> CountsFile {
 
 /// Per-circuit signal-loss factors from the calibrated success probabilities recorded in the
 /// plan's costs (`compile --device`). Errors name the first circuit without one.
-pub fn calibrated_loss(plan: &Plan) -> Result<Vec<f64>, String> {
+pub fn calibrated_loss(plan: &Plan) -> Result<Vec<f64>, super::EstimateError> {
     plan.circuits
         .iter()
         .map(|c| match c.costs.success_probability {
             Some(f) if f.is_finite() && f > 0.0 && f <= 1.0 => Ok(f),
-            Some(f) => Err(format!(
-                "circuit `{}` records success probability {f}, not in (0, 1]",
-                c.id
-            )),
-            None => Err(format!(
-                "circuit `{}` records no calibrated success probability (the plan was \
-                 compiled without --device)",
-                c.id
-            )),
+            found => Err(super::EstimateError::NoCalibration {
+                circuit: c.id.clone(),
+                found,
+            }),
         })
         .collect()
 }

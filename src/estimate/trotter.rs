@@ -159,8 +159,8 @@ pub fn energy_bound(step_bound: f64, steps: usize, dt: f64) -> f64 {
 }
 
 /// The Trotter bias of the plan's ground energy: bound always, computed shift when small.
-pub fn plan_bias(plan: &Plan) -> Result<TrotterBias, String> {
-    let mut h = plan.pauli_sum()?;
+pub fn plan_bias(plan: &Plan) -> Result<TrotterBias, super::EstimateError> {
+    let mut h = super::plan_hamiltonian(plan)?;
     h.constant = 0.0;
     let order = plan.formula.order;
     let steps = plan.formula.steps_per_dt.max(1);

@@ -48,14 +48,12 @@ impl fmt::Display for Encoding {
 }
 
 impl FromStr for Encoding {
-    type Err = String;
-    fn from_str(s: &str) -> Result<Encoding, String> {
+    type Err = super::FermionError;
+    fn from_str(s: &str) -> Result<Encoding, super::FermionError> {
         match s {
             "jw" => Ok(Encoding::JordanWigner),
             "bk" => Ok(Encoding::BravyiKitaev),
-            other => Err(format!(
-                "unknown encoding `{other}`: use `jw` (Jordan–Wigner) or `bk` (Bravyi–Kitaev)"
-            )),
+            other => Err(super::FermionError::Encoding(other.to_string())),
         }
     }
 }

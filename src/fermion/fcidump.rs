@@ -419,9 +419,9 @@ pub struct ActiveSpace {
 
 impl ActiveSpace {
     /// Parses `FIRST-LAST`: orbitals FIRST..=LAST (numbered from 1 as in the file) are active.
-    pub fn parse(s: &str) -> Result<ActiveSpace, String> {
+    pub fn parse(s: &str) -> Result<ActiveSpace, super::FermionError> {
         let err = || {
-            format!("bad active space `{s}`: write FIRST-LAST, orbitals numbered from 1 as in the integral file, e.g. `2-5`")
+            super::FermionError::ActiveSpace(format!("bad active space `{s}`: write FIRST-LAST, orbitals numbered from 1 as in the integral file, e.g. `2-5`"))
         };
         let (a, b) = s.split_once('-').ok_or_else(err)?;
         let a: usize = a.trim().parse().map_err(|_| err())?;
@@ -442,17 +442,18 @@ impl ActiveSpace {
 /// frozen-core expressions, e.g. Helgaker, Jørgensen & Olsen, Molecular Electronic-Structure
 /// Theory (2000), Sec. 10.8 — recalled from memory, checked against the PySCF CASCI energy in
 /// tests).
-pub fn restrict(ints: &Integrals, space: ActiveSpace) -> Result<Integrals, String> {
+pub fn restrict(ints: &Integrals, space: ActiveSpace) -> Result<Integrals, super::FermionError> {
     let ActiveSpace { frozen, active } = space;
+    let refuse = |m: String| Err(super::FermionError::ActiveSpace(m));
     if frozen + active > ints.norb {
-        return Err(format!(
+        return refuse(format!(
             "active space reaches orbital {} but the file has NORB = {}",
             frozen + active,
             ints.norb
         ));
     }
     if 2 * frozen > ints.nelec {
-        return Err(format!(
+        return refuse(format!(
             "{frozen} frozen orbitals need {} electrons but NELEC = {}",
             2 * frozen,
             ints.nelec
@@ -461,7 +462,7 @@ pub fn restrict(ints: &Integrals, space: ActiveSpace) -> Result<Integrals, Strin
     let nelec = ints.nelec - 2 * frozen;
     let (na, nb) = alpha_beta(nelec, ints.ms2);
     if na > active || nb > active {
-        return Err(format!(
+        return refuse(format!(
             "{nelec} active electrons (MS2 = {}) do not fit {active} active orbitals",
             ints.ms2
         ));

@@ -10,6 +10,10 @@
 //!
 //! Spin-orbital convention for integral files ([`fcidump`]): spatial orbital `p` (counted from
 //! 0 inside the active space) gives mode `2p` (spin α) and mode `2p + 1` (spin β).
+//!
+//! Errors are [`FermionError`]s, all bad input: electrons that do not fit the orbitals, an
+//! integral file whose mapped Hamiltonian is not Hermitian, an active space or encoding that
+//! cannot be used.
 
 pub mod encode;
 pub mod fcidump;
@@ -17,6 +21,8 @@ pub mod sector;
 
 pub use encode::Encoding;
 
+use crate::error::{Blame, LayerError};
+use crate::lang::codes::Code;
 use crate::pauli::{PauliString, PauliSum};
 use encode::ComplexPauliMap;
 use num_complex::Complex64;
@@ -26,6 +32,64 @@ use std::collections::BTreeMap;
 /// times the sum of the magnitudes of its contributions is cancellation noise (the same bound
 /// as `.ham` files use for Hermiticity).
 pub const ROUNDOFF_REL_TOL: f64 = 1e-12;
+
+/// Why an integral file or a fermionic option cannot be turned into a qubit Hamiltonian.
+#[derive(Clone, Debug, PartialEq)]
+pub enum FermionError {
+    /// The electron count and spin do not fit the spin orbitals (or exceed
+    /// [`MAX_SPIN_ORBITALS`] for a reference determinant).
+    Electrons(String),
+    /// More spatial orbitals than integral-file import supports.
+    TooManyOrbitals { norb: usize },
+    /// The mapped Hamiltonian has an imaginary part beyond round-off on this string.
+    NotHermitian { pauli: String, coeff: Complex64 },
+    /// An active space (`--active FIRST-LAST`) that does not parse or does not fit the file.
+    ActiveSpace(String),
+    /// An encoding name other than `jw` and `bk`.
+    Encoding(String),
+}
+
+impl std::fmt::Display for FermionError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            FermionError::Electrons(m) | FermionError::ActiveSpace(m) => f.write_str(m),
+            FermionError::TooManyOrbitals { norb } => write!(
+                f,
+                "{norb} spatial orbitals need {} qubits; integral files are imported up to \
+                 {MAX_SPIN_ORBITALS} spin orbitals",
+                2 * norb
+            ),
+            FermionError::NotHermitian { pauli, coeff } => write!(
+                f,
+                "the mapped Hamiltonian is not Hermitian: `{pauli}` has coefficient {coeff} (are \
+                 the integrals symmetric?)"
+            ),
+            FermionError::Encoding(other) => write!(
+                f,
+                "unknown encoding `{other}`: use `jw` (Jordan–Wigner) or `bk` (Bravyi–Kitaev)"
+            ),
+        }
+    }
+}
+
+impl std::error::Error for FermionError {}
+
+impl LayerError for FermionError {
+    fn blame(&self) -> Blame {
+        Blame::Input(match self {
+            FermionError::Electrons(_) | FermionError::NotHermitian { .. } => Code::FciValue,
+            FermionError::TooManyOrbitals { .. } => Code::FciLimit,
+            FermionError::ActiveSpace(_) | FermionError::Encoding(_) => Code::UsageOption,
+        })
+    }
+
+    fn hint(&self) -> Option<&str> {
+        match self {
+            FermionError::ActiveSpace(_) => Some("--active FIRST-LAST counts orbitals from 1"),
+            _ => None,
+        }
+    }
+}
 
 /// What an integral file said about the electrons, for reports and for `--state hf`.
 #[derive(Clone, Debug, PartialEq)]
@@ -71,23 +135,25 @@ pub fn hf_occupation(nelec: usize, ms2: i64) -> u64 {
 }
 
 /// Checks that a Hartree–Fock determinant exists for these counts.
-pub fn check_hf_inputs(nelec: usize, ms2: i64, n_spin_orbitals: usize) -> Result<(), String> {
+pub fn check_hf_inputs(nelec: usize, ms2: i64, n_spin_orbitals: usize) -> Result<(), FermionError> {
     let n = nelec as i64;
     if n + ms2 < 0 || n - ms2 < 0 || (n + ms2) % 2 != 0 {
-        return Err(format!("{nelec} electrons cannot have MS2 = {ms2}"));
+        return Err(FermionError::Electrons(format!(
+            "{nelec} electrons cannot have MS2 = {ms2}"
+        )));
     }
     let (na, nb) = fcidump::alpha_beta(nelec, ms2);
     let orbitals = n_spin_orbitals / 2;
     if n_spin_orbitals > MAX_SPIN_ORBITALS {
-        return Err(format!(
+        return Err(FermionError::Electrons(format!(
             "{n_spin_orbitals} spin orbitals: reference determinants are built for at most \
              {MAX_SPIN_ORBITALS} (64-bit occupation words)"
-        ));
+        )));
     }
     if na > orbitals || nb > orbitals {
-        return Err(format!(
+        return Err(FermionError::Electrons(format!(
             "{na} α and {nb} β electrons do not fit {n_spin_orbitals} spin orbitals"
-        ));
+        )));
     }
     Ok(())
 }
@@ -141,21 +207,19 @@ pub fn qubit_hamiltonian_from_integrals(
     ints: &fcidump::Integrals,
     encoding: Encoding,
     frozen_orbitals: usize,
-) -> Result<(PauliSum, ChemInfo), String> {
+) -> Result<(PauliSum, ChemInfo), FermionError> {
     let n = 2 * ints.norb;
     if n > MAX_SPIN_ORBITALS {
-        return Err(format!(
-            "{} spatial orbitals need {n} qubits; integral files are imported up to \
-             {MAX_SPIN_ORBITALS} spin orbitals",
-            ints.norb
-        ));
+        return Err(FermionError::TooManyOrbitals { norb: ints.norb });
     }
     check_hf_inputs(ints.nelec, ints.ms2, n)?;
     let op = fcidump::spin_orbital_hamiltonian(ints);
     let map = encode::map_operator(encoding, &op);
-    let (h, dropped) = hermitian_part(&map, n).map_err(|(p, c)| {
-        format!("the mapped Hamiltonian is not Hermitian: `{p}` has coefficient {c} (are the integrals symmetric?)")
-    })?;
+    let (h, dropped) =
+        hermitian_part(&map, n).map_err(|(p, coeff)| FermionError::NotHermitian {
+            pauli: p.to_string(),
+            coeff,
+        })?;
     let hf = hf_state(ints.nelec, ints.ms2, n, encoding);
     let hf_bits = encode::encode_occupation(encoding, n, hf_occupation(ints.nelec, ints.ms2));
     let info = ChemInfo {

@@ -18,8 +18,45 @@ const PENCIL_COLOR: RGBColor = RGBColor(196, 92, 22);
 const EXACT_COLOR: RGBColor = RGBColor(40, 40, 40);
 const BAND_COLOR: RGBColor = RGBColor(150, 185, 225);
 
-fn err<E: std::fmt::Display>(e: E) -> String {
-    format!("cannot draw the plot: {e}")
+/// Why a plot could not be drawn.
+#[derive(Clone, Debug, PartialEq)]
+pub enum PlotError {
+    /// The report holds nothing to draw (every energy rejected, fewer than two DOS points):
+    /// the options asked for an empty plot.
+    Empty(&'static str),
+    /// The drawing library failed on a well-formed report: a phasewright bug.
+    Drawing(String),
+}
+
+impl std::fmt::Display for PlotError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PlotError::Empty(what) => write!(f, "there is no {what} to plot"),
+            PlotError::Drawing(m) => write!(f, "cannot draw the plot: {m}"),
+        }
+    }
+}
+
+impl std::error::Error for PlotError {}
+
+impl crate::error::LayerError for PlotError {
+    fn blame(&self) -> crate::error::Blame {
+        match self {
+            PlotError::Empty(_) => crate::error::Blame::Input(crate::lang::codes::Code::UsageInput),
+            PlotError::Drawing(_) => crate::error::Blame::Bug,
+        }
+    }
+
+    fn hint(&self) -> Option<&str> {
+        match self {
+            PlotError::Empty(_) => Some("the table has no value to draw: drop --plot"),
+            PlotError::Drawing(_) => None,
+        }
+    }
+}
+
+fn err<E: std::fmt::Display>(e: E) -> PlotError {
+    PlotError::Drawing(e.to_string())
 }
 
 /// One plotted series of `(x, y, half-width of the error bar)`.
@@ -46,7 +83,7 @@ fn with_bars(
 
 /// Energy against Krylov dimension, both estimators, with ±1σ error bars (one bootstrap
 /// standard error, the `±1σ` columns of the table). `energy_label` names the axis and its unit.
-pub fn energy_svg(r: &EnergyReport, energy_label: &str) -> Result<String, String> {
+pub fn energy_svg(r: &EnergyReport, energy_label: &str) -> Result<String, PlotError> {
     let krylov_label = match r.kind {
         KrylovKind::Hamiltonian => "Krylov (H, S)",
         KrylovKind::Sine => "Krylov (sin(H dt)/dt, S)",
@@ -80,7 +117,7 @@ pub fn energy_svg(r: &EnergyReport, energy_label: &str) -> Result<String, String
         hi = hi.max(x);
     }
     if !lo.is_finite() || !hi.is_finite() {
-        return Err("there is no energy to plot".into());
+        return Err(PlotError::Empty("energy"));
     }
     let pad = ((hi - lo) * 0.08).max(1e-6);
     let (lo, hi) = (lo - pad, hi + pad);
@@ -157,10 +194,10 @@ pub fn energy_svg(r: &EnergyReport, energy_label: &str) -> Result<String, String
 
 /// The broadened density of states with its ±2σ band (and the exact curve when known).
 /// `energy_label` names the energy axis and its unit.
-pub fn dos_svg(r: &DosReport, energy_label: &str) -> Result<String, String> {
+pub fn dos_svg(r: &DosReport, energy_label: &str) -> Result<String, PlotError> {
     let n = r.energies.len();
     if n < 2 {
-        return Err("there is no density of states to plot".into());
+        return Err(PlotError::Empty("density of states"));
     }
     let (x0, x1) = (r.energies[0], r.energies[n - 1]);
     let mut lo: f64 = 0.0;

@@ -44,22 +44,63 @@ pub fn available_memory_bytes() -> Option<u128> {
 pub const SIM_HINT: &str =
     "`verify --method tableau` proves wide circuits equivalent without simulating them";
 
+/// Why a simulation was refused before allocating (bad input: a request beyond this machine).
+#[derive(Clone, Debug, PartialEq)]
+pub enum SimError {
+    /// More than 40 qubits: the statevector index would not fit the kernels' words.
+    TooWide { qubits: usize },
+    /// The statevectors need more memory than `/proc/meminfo` reports available.
+    OutOfMemory {
+        qubits: usize,
+        need_bytes: u128,
+        available_bytes: u128,
+    },
+}
+
+impl std::fmt::Display for SimError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let gib = |b: u128| b as f64 / (1u128 << 30) as f64;
+        match self {
+            SimError::TooWide { qubits } => write!(
+                f,
+                "a {qubits}-qubit statevector cannot be simulated on this machine ({SIM_HINT})"
+            ),
+            SimError::OutOfMemory {
+                qubits,
+                need_bytes,
+                available_bytes,
+            } => write!(
+                f,
+                "simulating {qubits} qubits needs about {:.1} GiB but only {:.1} GiB is available \
+                 ({SIM_HINT})",
+                gib(*need_bytes),
+                gib(*available_bytes)
+            ),
+        }
+    }
+}
+
+impl std::error::Error for SimError {}
+
+impl crate::error::LayerError for SimError {
+    fn blame(&self) -> crate::error::Blame {
+        crate::error::Blame::Input(crate::lang::codes::Code::UsageLimit)
+    }
+}
+
 /// Checks that `copies` statevectors on `n` qubits fit in memory; the error says how much is needed.
-pub fn check_fits(n: usize, copies: u128) -> Result<(), String> {
+pub fn check_fits(n: usize, copies: u128) -> Result<(), SimError> {
     if n > 40 {
-        return Err(format!(
-            "a {n}-qubit statevector cannot be simulated on this machine ({SIM_HINT})"
-        ));
+        return Err(SimError::TooWide { qubits: n });
     }
     let need = statevector_bytes(n) * copies;
     if let Some(avail) = available_memory_bytes() {
         if need > avail {
-            return Err(format!(
-                "simulating {n} qubits needs about {:.1} GiB but only {:.1} GiB is available \
-                 ({SIM_HINT})",
-                need as f64 / (1u128 << 30) as f64,
-                avail as f64 / (1u128 << 30) as f64
-            ));
+            return Err(SimError::OutOfMemory {
+                qubits: n,
+                need_bytes: need,
+                available_bytes: avail,
+            });
         }
     }
     Ok(())
@@ -231,19 +272,6 @@ impl State {
         }
     }
 
-    /// `⟨P⟩` for a Pauli string.
-    pub fn expect_pauli(&self, p: &PauliString) -> Complex64 {
-        let f = |(b, a): (usize, &Complex64)| {
-            let (ph, b2) = p.apply_to_basis(b as u64);
-            self.amps[b2 as usize].conj() * ph * a
-        };
-        if self.n >= PAR_MIN_QUBITS {
-            self.amps.par_iter().enumerate().map(f).sum()
-        } else {
-            self.amps.iter().enumerate().map(f).sum()
-        }
-    }
-
     /// `⟨Π_{q ∈ mask} Z_q⟩`.
     pub fn expect_z_mask(&self, mask: u64) -> f64 {
         let f = |(b, a): (usize, &Complex64)| {
@@ -395,10 +423,10 @@ mod tests {
     #[test]
     fn circuits_too_large_for_memory_are_refused_with_the_size_needed() {
         assert!(check_fits(10, 2).is_ok());
-        let too_many = check_fits(41, 2).unwrap_err();
+        let too_many = check_fits(41, 2).unwrap_err().to_string();
         assert!(too_many.contains("41-qubit"), "{too_many}");
         // 2 × 2^38 amplitudes × 16 bytes = 8 TiB: more than any machine this runs on.
-        let too_big = check_fits(38, 2).unwrap_err();
+        let too_big = check_fits(38, 2).unwrap_err().to_string();
         assert!(too_big.contains("needs about 8192.0 GiB"), "{too_big}");
     }
 

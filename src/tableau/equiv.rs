@@ -100,7 +100,7 @@ impl CannotCheck {
 impl Claim {
     /// Reads the shared claim from a plan. Errors name what is inconsistent.
     pub fn from_plan(plan: &Plan) -> Result<Claim, String> {
-        let h = crate::check::plan_hamiltonian(plan)?;
+        let h = crate::check::plan_hamiltonian(plan).map_err(|e| e.to_string())?;
         let order = Order::from_number(plan.formula.order)
             .ok_or_else(|| format!("plan.json: unknown formula order {}", plan.formula.order))?;
         let n = h.num_qubits;
