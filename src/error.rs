@@ -191,3 +191,79 @@ impl From<IrError> for Error {
 }
 
 pub type Result<T> = std::result::Result<T, Error>;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::check::CheckError;
+    use crate::estimate::EstimateError;
+    use crate::fermion::FermionError;
+    use crate::report::plot::PlotError;
+    use crate::sim::SimError;
+
+    /// (exit status, code, rendered text) of a converted layer error.
+    fn shown(e: Error) -> (u8, Option<Code>, String) {
+        (e.exit_code(), e.code(), e.to_string())
+    }
+
+    #[test]
+    fn layer_errors_keep_their_blame_through_the_conversion() {
+        let too_wide = SimError::TooWide { qubits: 41 };
+        let (exit, code, text) = shown(too_wide.clone().into());
+        assert_eq!((exit, code), (2, Some(Code::UsageLimit)));
+        assert!(
+            text.starts_with("error U401: a 41-qubit statevector"),
+            "{text}"
+        );
+
+        // Context goes before the message; the code still comes from the layer.
+        let check = CheckError::from(too_wide);
+        let (exit, code, text) = shown(Error::layer_in(&check, "", Some("a hint")));
+        assert_eq!((exit, code), (2, Some(Code::UsageLimit)));
+        assert!(text.contains("\nhint: a hint\n"), "{text}");
+        let unmeasured = CheckError::UnmeasuredBit {
+            circuit: Some("k01-re".into()),
+            bit: 3,
+        };
+        let (exit, code, text) = shown(unmeasured.into());
+        assert_eq!((exit, code), (2, Some(Code::QasmPlan)));
+        assert!(
+            text.contains("k01-re: classical bit 3 is never measured"),
+            "{text}"
+        );
+
+        let (exit, code, text) = shown(EstimateError::Missing("no k = 3 circuit".into()).into());
+        assert_eq!((exit, code), (2, Some(Code::CountsPlan)));
+        assert!(
+            text.contains("hint: check that the counts answer this plan"),
+            "{text}"
+        );
+        let loss = EstimateError::NoCalibration {
+            circuit: "k01-re".into(),
+            found: None,
+        };
+        let (exit, code, text) = shown(Error::layer_in(&loss, "--undo-loss: ", None));
+        assert_eq!((exit, code), (2, Some(Code::UsageConflict)));
+        assert!(
+            text.starts_with("error U201: --undo-loss: circuit `k01-re`"),
+            "{text}"
+        );
+        assert!(
+            text.contains("hint: compile the campaign with --device"),
+            "{text}"
+        );
+
+        let (exit, code, _) = shown(FermionError::Encoding("xy".into()).into());
+        assert_eq!((exit, code), (2, Some(Code::UsageOption)));
+
+        // A drawing failure on a well-formed report is phasewright's fault: exit 1.
+        let (exit, code, text) = shown(PlotError::Drawing("backend".into()).into());
+        assert_eq!((exit, code), (1, Some(Code::Internal)));
+        assert!(
+            text.starts_with("internal error X101: cannot draw the plot"),
+            "{text}"
+        );
+        let (exit, _, _) = shown(PlotError::Empty("energy").into());
+        assert_eq!(exit, 2);
+    }
+}
