@@ -15,8 +15,8 @@
 //! pencil) and [`answer`] (one final answer with its systematic parts); [`trace`] (series →
 //! density of states, for trace plans) built on [`dos`] (the quadrature); [`results`] (the two
 //! reports), [`plan_facts`] (the Hamiltonian and reference energies read off a plan),
-//! [`sanity`], [`trotter`], [`reference`] (checks and bounds), [`resample`] (multinomial
-//! draws for the bootstrap), [`error`] (the layer's error). This file holds [`analyse`], which
+//! [`sanity`], [`trotter`], [`reference`](mod@reference) (checks and bounds), [`resample`]
+//! (multinomial draws for the bootstrap), [`error`] (the layer's error). This file holds [`analyse`], which
 //! picks the stages for the plan's family and looks for a swapped bit order.
 //!
 //! Stochastic trace (trace plans): `tr U/2ⁿ` is the mean of `⟨ψ_s|U|ψ_s⟩` over random states
