@@ -21,7 +21,7 @@
 //! Where each part lives: `syntax` (the tree), `parse` (text to tree, syntax diagnostics),
 //! `eval` (tree to sum, meaning diagnostics), [`plain`] (the fast path for plain files, which
 //! skips the tree), [`flat`] (merged sums in writing order, the fast path's output and the
-//! writer's input), [`write`] (sum to text). This file holds the entry points.
+//! writer's input), [`write`](mod@write) (sum to text). This file holds the entry points.
 
 mod eval;
 pub mod flat;
