@@ -1,7 +1,10 @@
 //! Utility-scale figures, each a ratio measured in the same run (never an absolute time alone):
 //!
 //! 1. parse: a generated 10⁶-term `.ham` on 200 qubits, parse + write back (what `convert`
-//!    does) ÷ (read the file + write the same bytes);
+//!    does: read the file, read it into the writer's flat form, write the text, write the
+//!    file; median of three) ÷ (read the file + write the same bytes; median of three), then
+//!    the stages of one more run (read, scan, sort+merge, format, write) as multiples of that
+//!    copy, and the time to read the same file into a `PauliSum` as the other commands do;
 //! 2. compile: a 10⁵-term, 120-qubit Hamiltonian, one second-order step per point, overlap
 //!    family, 5 points, all-to-all: compile + write the files ÷ write the same bytes; peak
 //!    resident memory of the process (VmHWM) printed beside it;
@@ -15,7 +18,7 @@
 use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
-use phasewright::lang::ham::{parse_hamiltonian, write_hamiltonian};
+use phasewright::lang::ham::{parse_hamiltonian, plain, read_flat, write_flat};
 use phasewright::pauli::PauliSum;
 use phasewright::pipeline::compile;
 use rand::{Rng, SeedableRng};
@@ -55,6 +58,80 @@ fn parse(text: &str) -> PauliSum {
     parse_hamiltonian("bench.ham", text)
         .unwrap_or_else(|d| panic!("generated text parses: {}", d[0].message))
         .sum
+}
+
+/// The median of three runs of `f`, in seconds (the machine is shared: single runs are noisy).
+fn median3(mut f: impl FnMut()) -> f64 {
+    let mut runs: Vec<f64> = (0..3)
+        .map(|_| {
+            let t = Instant::now();
+            f();
+            t.elapsed().as_secs_f64()
+        })
+        .collect();
+    runs.sort_by(f64::total_cmp);
+    runs[1]
+}
+
+/// Section 1: `convert` of a generated file (what the command does: read the file, read it
+/// into the writer's flat form, write the text, write the file) against reading and writing
+/// the same bytes; then the same work stage by stage, each stage as a share of the copy.
+fn parse_section(quick: bool, dir: &Path) {
+    let m = if quick { 100_000 } else { 1_000_000 };
+    let text = random_ham_text(200, m, 1);
+    let src = dir.join("in.ham");
+    std::fs::write(&src, &text).unwrap();
+    let io_s = median3(|| {
+        let read = std::fs::read_to_string(&src).unwrap();
+        std::fs::write(dir.join("copy.ham"), &read).unwrap();
+    });
+    let mut out_len = 0;
+    let conv_s = median3(|| {
+        let read = std::fs::read_to_string(&src).unwrap();
+        let flat = read_flat("bench.ham", &read, None).expect("generated text parses");
+        let out = write_flat(&flat.sum, "bench");
+        std::fs::write(dir.join("out.ham"), &out).unwrap();
+        out_len = out.len();
+    });
+    println!(
+        "parse   {m} terms on 200 qubits ({:.1} MB in, {:.1} MB out): convert {conv_s:.3} s, read+write {io_s:.3} s, ratio {:.1} (target <= 10)",
+        text.len() as f64 / 1e6,
+        out_len as f64 / 1e6,
+        conv_s / io_s
+    );
+    // Stage by stage (one more run), each as a multiple of the plain copy.
+    let t = Instant::now();
+    let read = std::fs::read_to_string(&src).unwrap();
+    let t_read = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let lines = plain::scan(&read).expect("a plain file");
+    let t_scan = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let (flat, _) = lines.merge();
+    let t_merge = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let out = write_flat(&flat, "bench");
+    let t_format = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    std::fs::write(dir.join("out.ham"), &out).unwrap();
+    let t_write = t.elapsed().as_secs_f64();
+    println!(
+        "  stages / copy: read file {:.2}, scan lines {:.2}, sort+merge {:.2}, format {:.2}, write file {:.2}",
+        t_read / io_s,
+        t_scan / io_s,
+        t_merge / io_s,
+        t_format / io_s,
+        t_write / io_s
+    );
+    drop((lines, flat, out));
+    // What the other commands pay: the same file read into a `PauliSum` (a `BTreeMap`).
+    let sum_s = median3(|| {
+        std::hint::black_box(parse(&read));
+    });
+    println!(
+        "  read into a PauliSum (compile, verify, …): {sum_s:.3} s, {:.1}x the copy",
+        sum_s / io_s
+    );
 }
 
 fn peak_rss_mb() -> f64 {
@@ -130,38 +207,7 @@ fn main() {
 
     // 1. parse + write back vs read + write the same bytes.
     if want("parse") {
-        let m_parse = if quick { 100_000 } else { 1_000_000 };
-        let text = random_ham_text(200, m_parse, 1);
-        let src = scratch.path().join("in.ham");
-        std::fs::write(&src, &text).unwrap();
-        // The plain copy is short and noisy (page cache, a shared disk): the median of three.
-        let mut copies: Vec<f64> = (0..3)
-            .map(|_| {
-                let t = Instant::now();
-                let read = std::fs::read_to_string(&src).unwrap();
-                std::fs::write(scratch.path().join("copy.ham"), &read).unwrap();
-                t.elapsed().as_secs_f64()
-            })
-            .collect();
-        copies.sort_by(f64::total_cmp);
-        let io_s = copies[1];
-        let t = Instant::now();
-        let read = std::fs::read_to_string(&src).unwrap();
-        let h = parse(&read);
-        let parse_s = t.elapsed().as_secs_f64();
-        let out = write_hamiltonian(&h, "bench");
-        std::fs::write(scratch.path().join("out.ham"), &out).unwrap();
-        let conv_s = t.elapsed().as_secs_f64();
-        println!(
-            "  read + parse {parse_s:.2} s, write back {:.2} s",
-            conv_s - parse_s
-        );
-        println!(
-        "parse   {m_parse} terms on 200 qubits ({:.1} MB): convert {conv_s:.2} s, read+write {io_s:.3} s, ratio {:.0} (target <= 10)",
-        text.len() as f64 / 1e6,
-        conv_s / io_s
-    );
-        drop((text, read, h, out));
+        parse_section(quick, scratch.path());
     }
 
     // 2. compile 10^5 terms on 120 qubits vs writing the same bytes.

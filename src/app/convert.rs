@@ -10,7 +10,7 @@ use crate::error::{Error, Result};
 use crate::fermion::fcidump::{self, ActiveSpace};
 use crate::fermion::{qubit_hamiltonian_from_integrals, ChemInfo, Encoding};
 use crate::lang::codes::Code;
-use crate::lang::ham::write_hamiltonian;
+use crate::lang::ham::{write_flat, FlatSum};
 use crate::pauli::PauliSum;
 use clap::Args;
 use std::path::{Path, PathBuf};
@@ -119,7 +119,44 @@ struct Loaded {
 fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, Loaded)> {
     let name = crate::app::io::display_name(path);
     let src = read_text(path)?;
-    if fcidump::looks_like_fcidump(&src) {
+    if let Some((h, info, loaded)) = load_integrals(&name, &src, opts)? {
+        return Ok((h, Some(info), loaded));
+    }
+    let read = crate::app::io::parse_hamiltonian_text(&name, &src, opts.encoding)?;
+    let loaded = Loaded {
+        encoding: read.encoding,
+        terms_read: read.ham.terms_read,
+        dropped_zero: read.ham.dropped_zero,
+    };
+    Ok((read.ham.sum, None, loaded))
+}
+
+/// [`load`] for `convert`, which only writes the sum back: a `.ham` input goes to the
+/// writer's flat form directly ([`crate::lang::ham::read_flat`]), with the same diagnostics.
+fn load_flat(path: &Path, opts: LoadOptions) -> Result<(FlatSum, Option<ChemInfo>, Loaded)> {
+    let name = crate::app::io::display_name(path);
+    let src = read_text(path)?;
+    if let Some((h, info, loaded)) = load_integrals(&name, &src, opts)? {
+        return Ok((FlatSum::from_sum(&h), Some(info), loaded));
+    }
+    let read = crate::lang::ham::read_flat(&name, &src, opts.encoding)
+        .map_err(|d| Error::Input(crate::lang::suggest::hamiltonian_hints(&name, &src, d)))?;
+    let loaded = Loaded {
+        encoding: read.encoding,
+        terms_read: read.terms_read,
+        dropped_zero: read.dropped_zero,
+    };
+    Ok((read.sum, None, loaded))
+}
+
+/// The qubit Hamiltonian of an FCIDUMP text (`None` for any other text, which must then not
+/// ask for an active space).
+fn load_integrals(
+    name: &str,
+    src: &str,
+    opts: LoadOptions,
+) -> Result<Option<(PauliSum, ChemInfo, Loaded)>> {
+    if fcidump::looks_like_fcidump(src) {
         let Some(enc) = opts.encoding else {
             return Err(Error::usage(
                 Code::UsageInput,
@@ -127,7 +164,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
                 Some("pass --encoding jw (Jordan–Wigner) or --encoding bk (Bravyi–Kitaev)"),
             ));
         };
-        let ints = fcidump::parse_fcidump(&name, &src).map_err(Error::Input)?;
+        let ints = fcidump::parse_fcidump(name, src).map_err(Error::Input)?;
         let (ints, frozen) = match opts.active {
             Some(space) => (fcidump::restrict(&ints, space)?, space.frozen),
             None => (ints, 0),
@@ -139,7 +176,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
             terms_read: 0,
             dropped_zero: info.dropped_roundoff,
         };
-        return Ok((h, Some(info), loaded));
+        return Ok(Some((h, info, loaded)));
     }
     if opts.active.is_some() {
         return Err(Error::usage(
@@ -148,13 +185,7 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
             Some("select orbitals in an FCIDUMP input"),
         ));
     }
-    let read = crate::app::io::parse_hamiltonian_text(&name, &src, opts.encoding)?;
-    let loaded = Loaded {
-        encoding: read.encoding,
-        terms_read: read.ham.terms_read,
-        dropped_zero: read.ham.dropped_zero,
-    };
-    Ok((read.ham.sum, None, loaded))
+    Ok(None)
 }
 
 /// Runs `phasewright convert`.
@@ -168,14 +199,17 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
         ));
     }
     crate::app::io::check_out_file(&args.output, "-o", None, true)?;
-    let (mut h, info, loaded) = load(
+    let (mut h, info, loaded) = load_flat(
         &args.input,
         LoadOptions {
             encoding: args.encoding,
             active: args.active,
         },
     )?;
-    let cut = drop_below(&mut h, args.cutoff);
+    let before = h.terms.len();
+    let cutoff = args.cutoff;
+    h.terms.retain(|c| c.abs() >= cutoff);
+    let cut = before - h.terms.len();
     let input = if crate::app::io::is_stdio(&args.input) {
         "<stdin>".to_string()
     } else {
@@ -205,7 +239,7 @@ pub fn run(args: ConvertArgs, g: &super::Global) -> Result<()> {
         "coefficient cutoff: strings with |c| < {:e} dropped ({cut} of them)\n",
         args.cutoff
     ));
-    let text = write_hamiltonian(&h, &header);
+    let text = write_flat(&h, &header);
     crate::app::io::write_output(&args.output, text.as_bytes())?;
     if to_stdout {
         return Ok(());
