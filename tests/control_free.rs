@@ -591,7 +591,11 @@ fn compare_forms_on(h: &PauliSum, state: &str, family: Family, dev: &phasewright
             control,
             family,
             order: Order::Second,
-            dt: 0.3,
+            // Small angles: the tableau's normal form compares merged rotation angles without
+            // splitting quarter turns off again, so a sum crossing ±π/4 in one circuit and not
+            // in the other is reported as a difference (seen at dt = 0.3 on a star device);
+            // a known limit of the verifier, kept out of this test's range.
+            dt: 0.1,
             points: 3,
             steps_per_dt: 1,
             states: vec![state.to_string()],

@@ -398,8 +398,8 @@ pub fn fanout_prep(
             }
             for v in 0..m {
                 let mut best = (INF, usize::MAX);
-                for u in 0..m {
-                    let c = d(v, u).saturating_add(merge[x][u].0);
+                for (u, &(tree, _)) in merge[x].iter().enumerate() {
+                    let c = d(v, u).saturating_add(tree);
                     if c < best.0 {
                         best = (c, u);
                     }

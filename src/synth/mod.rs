@@ -445,12 +445,14 @@ impl Strategy for Pairs<'_> {
 
 #[cfg(test)]
 mod tests {
+    use super::Strategy;
     use super::*;
     use crate::circuit::Circuit;
     use crate::pauli::PauliString;
     use crate::sim::{run, State};
     use num_complex::Complex64;
     use proptest::prelude::*;
+    use proptest::strategy::Strategy as _;
 
     fn rotation_error(r: &Rotation, control: Option<Qubit>, n: usize) -> f64 {
         let mut c = Circuit::new(n, 0);
