@@ -11,7 +11,8 @@
 //! 1. `prepare`: state preparation, ancilla to |+⟩ (`family::frames` gives the gates);
 //! 2. `synthesize`: the rotation program of the time point (`formula::evolution`, or at level 0
 //!    the unmerged textbook expansion) through one `synth::Strategy`: `Chain` ladders below
-//!    level 3, balanced `Tree`s at level 3;
+//!    level 3; at level 3 also balanced `Tree`s and hopping `Pairs`, the emitted circuit with
+//!    the fewest two-qubit gates kept;
 //! 3. `readout`: ancilla basis, measurement basis, measurements;
 //! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
 //! 5. `qasm::write` with logical `q[k]`.
@@ -34,8 +35,14 @@
 //! With `Spec::control = Prep` (`family::control`: |0…0⟩ shown to be an eigenstate of every
 //! factor of the formula) the evolution is synthesised without a control and the ancilla meets
 //! only the controlled state preparation in each circuit's prefix and suffix; on a device
-//! `route::plan_and_route_free_step` routes that uncontrolled step. The `evolution` family has
-//! no ancilla at all (`route::plan_and_route_plain_step`).
+//! `route::plan_and_route_free_step` routes that uncontrolled step, and once its layouts are
+//! known each basis-state preparation becomes the cheapest fan-out tree on the coupled pairs
+//! of the layout it meets (`family::control::fanout_prep`; recorded per circuit in the plan,
+//! `CircuitEntry::fanout`, so `verify --method tableau` rebuilds the same claim). The
+//! `evolution` family has no ancilla at all (`route::plan_and_route_plain_step`).
+//!
+//! At level 3 the step is also synthesised with hopping pairs diagonalised together
+//! (`synth::Pairs`) on every target, as one more candidate scored by what is emitted.
 //!
 //! The levels (`compile --opt`): 0 is the textbook pipeline (one ladder per rotation of the
 //! unmerged formula in term order, one greedy layout, plain SWAP routing, nothing cancelled
@@ -56,9 +63,10 @@ use crate::device::Device;
 use crate::family::control::Control;
 use crate::family::plan::Family;
 use crate::family::plan::{
-    CircuitEntry, Costs, DeviceInfo, FormulaInfo, HamiltonianInfo, Plan, TermInfo, PLAN_FORMAT,
+    CircuitEntry, Costs, DeviceInfo, FanOut, FormulaInfo, HamiltonianInfo, Plan, TermInfo,
+    PLAN_FORMAT,
 };
-use crate::family::{frames, frames_with, Spec};
+use crate::family::{frames, frames_by, frames_with, PrepAt, Spec};
 use crate::formula::{evolution, order_terms, textbook_evolution, Rotation};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
@@ -66,7 +74,7 @@ use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
     RouteConfig,
 };
-use crate::synth::{Block, Chain, Sharing, Strategy, Tree};
+use crate::synth::{Block, Chain, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -113,6 +121,7 @@ impl OptLevel {
         c.score_two_qubit = true;
         c.sweep = self.0 >= 3;
         c.embed = self.0 >= 3;
+        c.pairs = self.0 >= 3;
         c
     }
 }
@@ -157,6 +166,8 @@ pub enum Synthesis {
     Tree,
     /// `synth::Sharing`, chains starting on what the previous rotation shares.
     Sharing,
+    /// `synth::Pairs`, hopping pairs diagonalised together, ascending ladders otherwise.
+    Pairs,
 }
 
 /// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
@@ -187,6 +198,7 @@ pub fn all_to_all_passes<'a>(
                 match synthesis {
                     Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
                     Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
+                    Synthesis::Pairs => Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates),
                     Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
                 }
             }),
@@ -347,6 +359,7 @@ struct Finished {
     output: Output,
     costs: Costs,
     final_layout: Vec<u32>,
+    fanout: Option<FanOut>,
 }
 
 /// What a target hands to emission: the circuit (written here) or its finished text.
@@ -442,6 +455,15 @@ pub fn compile_at(
             } else {
                 vec![None; programs.len()]
             };
+            // Programs with hopping pairs also try `synth::Pairs` at level 3.
+            let paired: Vec<bool> = if level >= OptLevel(3) {
+                programs
+                    .par_iter()
+                    .map(|p| crate::synth::has_hopping_pairs(p))
+                    .collect()
+            } else {
+                vec![false; programs.len()]
+            };
             let done = frames(h, spec)
                 .into_par_iter()
                 .map(|f| {
@@ -463,6 +485,9 @@ pub fn compile_at(
                             (k.two_qubit, k.depth)
                         };
                         let mut others = vec![run(&programs[f.k], Synthesis::Tree)?];
+                        if paired[f.k] {
+                            others.push(run(&programs[f.k], Synthesis::Pairs)?);
+                        }
                         if let Some(p) = &agreeing[f.k] {
                             others.push(run(p, Synthesis::Sharing)?);
                         }
@@ -473,6 +498,7 @@ pub fn compile_at(
                         }
                     }
                     Ok(Finished {
+                        fanout: None,
                         costs: counts(&circuit).into(),
                         id: f.id,
                         k: f.k,
@@ -541,6 +567,35 @@ pub fn compile_at(
                 native: device.native.names.clone(),
                 initial_layout: tp.initial_layout.clone(),
             };
+            // The control-free form's controlled preparations, rebuilt as fan-out trees on
+            // the layouts they meet (`family::control::fanout_prep`), when that is cheaper.
+            let preps = (spec.control == Control::Prep && spec.family != Family::Evolution)
+                .then(|| FanOuts::new(&spec.states, h.num_qubits, &step, device));
+            let all_frames = match &preps {
+                Some(p) => frames_by(h, spec, &|state: &str, at: PrepAt| p.get(state, at)),
+                None => all_frames,
+            };
+            // What the plan records of them: the CNOTs, when they are not the chain the
+            // plan's form implies (`tableau::equiv` rebuilds the claim from them).
+            let fanout_of = |state: &str, k: usize| -> Option<FanOut> {
+                let p = preps.as_ref()?;
+                let chain = crate::family::control::controlled_prep(
+                    state,
+                    h.num_qubits as crate::circuit::Qubit,
+                    crate::family::control::Joins::Neighbours,
+                );
+                let before = p.get(state, PrepAt::Start);
+                let after = p.get(
+                    state,
+                    PrepAt::End {
+                        steps: k * spec.steps_per_dt.max(1),
+                    },
+                );
+                if before == chain && after == chain {
+                    return None;
+                }
+                FanOut::of(&before, &after)
+            };
             let campaign = DeviceCampaign::new(step, &tp, device, config)?;
             let done = all_frames
                 .into_par_iter()
@@ -554,6 +609,7 @@ pub fn compile_at(
                         &comments,
                     )?;
                     Ok(Finished {
+                        fanout: fanout_of(&spec.states[f.state], f.k),
                         id: f.id,
                         k: f.k,
                         time: f.time,
@@ -578,6 +634,70 @@ pub fn compile_at(
                 Addressing::Physical,
             ))
         }
+    }
+}
+
+/// The controlled preparations of a control-free campaign on a device, per state and per
+/// layout a preparation meets (the step's start, and its end after the first or the second
+/// core, [`crate::route::RoutedStep::layout_after`]): a fan-out tree on the coupled pairs of
+/// that layout (`family::control::fanout_prep`) when it emits fewer CNOTs than the
+/// index-neighbour chain, or the chain is not on coupled pairs (it would need SWAPs); the
+/// chain otherwise.
+struct FanOuts {
+    /// `(state, layout index) → W`; layout 0 is the start, 1 + b the end after core b.
+    preps: std::collections::BTreeMap<(String, usize), Vec<Gate>>,
+    step_symmetric: bool,
+}
+
+impl FanOuts {
+    fn new(
+        states: &[String],
+        n: usize,
+        step: &crate::route::RoutedStep,
+        device: &Device,
+    ) -> FanOuts {
+        use crate::family::control::{controlled_prep, fanout_prep, Joins};
+        let anc = n as crate::circuit::Qubit;
+        let layouts = [&step.start, &step.ends[0], &step.ends[1]];
+        let mut preps = std::collections::BTreeMap::new();
+        for state in states {
+            for (i, layout) in layouts.iter().enumerate() {
+                let chain = controlled_prep(state, anc, Joins::Neighbours);
+                let w = if layout.len() == n + 1 {
+                    let adjacent = |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
+                        device.coupled(layout[a as usize], layout[b as usize])
+                    };
+                    let two = |g: &[Gate]| g.iter().filter(|g| g.is_two_qubit()).count();
+                    let chain_coupled = chain.iter().all(|g| match *g {
+                        Gate::Cx(a, b) => adjacent(a, b),
+                        _ => true,
+                    });
+                    match fanout_prep(state, anc, &adjacent) {
+                        Some(tree) if !chain_coupled || two(&tree) < two(&chain) => tree,
+                        _ => chain,
+                    }
+                } else {
+                    chain
+                };
+                preps.insert((state.clone(), i), w);
+            }
+        }
+        FanOuts {
+            preps,
+            step_symmetric: step.symmetric,
+        }
+    }
+
+    fn get(&self, state: &str, at: PrepAt) -> Vec<Gate> {
+        let i = match at {
+            PrepAt::Start | PrepAt::End { steps: 0 } => 0,
+            // `RoutedStep::core_index(steps − 1)`.
+            PrepAt::End { steps } => {
+                let last = steps - 1;
+                1 + usize::from(last != 0 && !(self.step_symmetric && last.is_multiple_of(2)))
+            }
+        };
+        self.preps[&(state.to_string(), i)].clone()
     }
 }
 
@@ -633,6 +753,7 @@ fn finish(
             final_layout: f.final_layout,
             sha256: None,
             shots: None,
+            fanout: f.fanout,
         });
         if let Output::Circuit(c) = f.output {
             circuits.push(c);

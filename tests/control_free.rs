@@ -550,3 +550,116 @@ fn hartree_fock_references_use_the_control_free_form() {
     let v: serde_json::Value = serde_json::from_str(&run(&["verify", "--json", &d])).unwrap();
     assert_eq!(v["ok"], true);
 }
+
+/// A random connected device of `size` qubits: a random tree (qubit i joined to a random
+/// earlier qubit) plus random extra links.
+fn random_device(size: u32, parents: &[u32], extra: &[(u32, u32)]) -> phasewright::device::Device {
+    use phasewright::device::{Calibration, Device, NativeSet};
+    let mut links: Vec<(u32, u32)> = (1..size)
+        .map(|i| (parents[i as usize - 1] % i, i))
+        .collect();
+    for &(a, b) in extra {
+        let (a, b) = (a % size, b % size);
+        if a != b && !links.contains(&(a, b)) && !links.contains(&(b, a)) {
+            links.push((a, b));
+        }
+    }
+    Device::new(
+        "random",
+        size as usize,
+        &links,
+        NativeSet::rz_sx_x_cx(),
+        Calibration::default(),
+    )
+}
+
+/// [`compare_forms`] on a device: every prep read equals the ideal formula and the controlled
+/// form's simulated value to 1e-9 (statevector, layouts applied), and the tableau method
+/// proves every prep file equal to the circuit its plan claims (fan-out trees included).
+fn compare_forms_on(h: &PauliSum, state: &str, family: Family, dev: &phasewright::device::Device) {
+    use phasewright::pipeline::{compile_for, Target as Where};
+    use phasewright::route::RouteConfig;
+    use phasewright::tableau::equiv::{Claim, Verdict};
+    zero_state_check(&term_groups(h)).expect("a number-conserving model passes the check");
+    let cfg = RouteConfig {
+        layout_trials: 2,
+        refine_rounds: 1,
+        ..RouteConfig::default()
+    };
+    let run = |control| {
+        let spec = Spec {
+            control,
+            family,
+            order: Order::Second,
+            // Small angles: the tableau's normal form compares merged rotation angles without
+            // splitting quarter turns off again, so a sum crossing ±π/4 in one circuit and not
+            // in the other is reported as a difference (seen at dt = 0.3 on a star device);
+            // a known limit of the verifier, kept out of this test's range.
+            dt: 0.1,
+            points: 3,
+            steps_per_dt: 1,
+            states: vec![state.to_string()],
+        };
+        let target = Where::Device {
+            device: dev,
+            config: &cfg,
+        };
+        let c = compile_for(h, "random.ham", &spec, &target).unwrap();
+        let circuits: Vec<_> = c
+            .programs
+            .iter()
+            .map(|t| qasm::read("c.qasm", t).unwrap().circuit)
+            .collect();
+        let checks = check_plan(&c.plan, &circuits).unwrap();
+        (c.plan, circuits, checks)
+    };
+    let (_, _, ce) = run(Control::Evolution);
+    let (pp, files, cp) = run(Control::Prep);
+    let claim = Claim::from_plan(&pp).unwrap();
+    for ((e, p), (entry, file)) in ce.iter().zip(&cp).zip(pp.circuits.iter().zip(&files)) {
+        assert_eq!(e.id, p.id);
+        assert!(p.compile_error <= 1e-9, "{}: {}", p.id, p.compile_error);
+        for (a, b) in e.reads.iter().zip(&p.reads) {
+            assert!(
+                (a.simulated - b.simulated).abs() <= 1e-9,
+                "{}: evolution {} prep {}",
+                p.id,
+                a.simulated,
+                b.simulated
+            );
+        }
+        match claim.check(entry, file).unwrap() {
+            Verdict::Equivalent(_) => {}
+            Verdict::Differs(r) => panic!("{}: {}", entry.id, r.message),
+        }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(10))]
+
+    // Random number-conserving models (XXZ bonds or Jordan–Wigner hopping and densities),
+    // random basis references and random small devices: the control-free circuits with their
+    // fan-out preparations agree with the ideal formula and with the controlled form.
+    #[test]
+    fn random_models_on_random_devices_agree_in_both_forms(
+        bonds in proptest::collection::vec((0usize..5, 0usize..5, -1.0f64..1.0, -1.0f64..1.0), 1..5),
+        hops in proptest::collection::vec((0usize..5, 0usize..5, -1.0f64..1.0), 1..4),
+        fermions in any::<bool>(),
+        bits in 0u32..32,
+        size in 6u32..9,
+        parents in proptest::collection::vec(0u32..8, 8),
+        extra in proptest::collection::vec((0u32..8, 0u32..8), 0..4),
+        krylov in any::<bool>(),
+    ) {
+        let h = if fermions {
+            fermionic(5, &hops, &[(0, 1, 0.5), (2, 2, -0.3)])
+        } else {
+            xxz(5, &bonds, &[0.2, -0.1])
+        };
+        prop_assume!(h.terms.keys().any(|p| !p.x.is_empty()));
+        let dev = random_device(size, &parents, &extra);
+        let family = if krylov { Family::Krylov } else { Family::Overlap };
+        compare_forms_on(&h, &basis_state(5, bits), family, &dev);
+    }
+}

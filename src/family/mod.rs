@@ -177,16 +177,38 @@ pub fn hadamard_test_in(
     if form.control == Control::Evolution {
         return Ok(hadamard_test(n, &prep, program, part, basis, ladder));
     }
+    let w = control::controlled_prep(state, n as Qubit, joins);
+    Ok(prep_hadamard_test(
+        n,
+        program,
+        part,
+        basis,
+        ladder,
+        (&w, &w),
+    ))
+}
+
+/// The control-free Hadamard test with its controlled preparations given: `w.0` before the
+/// uncontrolled `program`, `w.1` (undone) after it; both must prepare the same reference on
+/// the ancilla's |1⟩ branch (as [`control::controlled_prep`] and [`control::fanout_prep`] do).
+pub fn prep_hadamard_test(
+    n: usize,
+    program: &[Rotation],
+    part: Part,
+    basis: Option<&PauliString>,
+    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+    w: (&[Gate], &[Gate]),
+) -> Circuit {
     let nbits = if basis.is_some() { n + 1 } else { 1 };
     let mut c = Circuit::new(n + 1, nbits);
     let phi0 = control::zero_phase(program);
-    c.extend(prep_prefix(n, state, phi0, joins));
+    c.extend(prep_prefix_with(n, phi0, w.0));
     for r in program {
         c.extend(crate::synth::pauli_rotation_along(r, None, &ladder(r)));
     }
-    c.extend(prep_suffix(n, state, part, basis, joins));
+    c.extend(prep_suffix_with(n, w.1, part, basis));
     cancel_inverses(&mut c);
-    Ok(c)
+    c
 }
 
 /// The gates of a control-free Hadamard test before the uncontrolled evolution: the ancilla
@@ -194,6 +216,13 @@ pub fn hadamard_test_in(
 /// (`rz(−φ₀)`, which multiplies |1⟩ by `e^{−iφ₀}` relative to |0⟩), and the controlled
 /// preparation of `state` ([`control::controlled_prep`]).
 pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64, joins: control::Joins) -> Vec<Gate> {
+    let w = control::controlled_prep(state, n as Qubit, joins);
+    prep_prefix_with(n, phi0_rad, &w)
+}
+
+/// [`prep_prefix`] with the controlled preparation `w` given (ancilla `n`; see
+/// [`control::fanout_prep`] for one built on a coupling graph).
+pub fn prep_prefix_with(n: usize, phi0_rad: f64, w: &[Gate]) -> Vec<Gate> {
     let anc = n as Qubit;
     let mut out = vec![Gate::H(anc)];
     // rz is 2π-periodic up to a global phase; keep the angle small for readable files.
@@ -202,7 +231,7 @@ pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64, joins: control::Joins) 
     if angle != 0.0 {
         out.push(Gate::Rz(anc, angle));
     }
-    out.extend(control::controlled_prep(state, anc, joins));
+    out.extend_from_slice(w);
     out
 }
 
@@ -216,11 +245,21 @@ pub fn prep_suffix(
     basis: Option<&PauliString>,
     joins: control::Joins,
 ) -> Vec<Gate> {
+    let w = control::controlled_prep(state, n as Qubit, joins);
+    prep_suffix_with(n, &w, part, basis)
+}
+
+/// [`prep_suffix`] with the controlled preparation `w` given (ancilla `n`).
+pub fn prep_suffix_with(
+    n: usize,
+    w: &[Gate],
+    part: Part,
+    basis: Option<&PauliString>,
+) -> Vec<Gate> {
     let anc = n as Qubit;
-    let w = control::controlled_prep(state, anc, joins);
-    let mut out = control::inverse(&w);
+    let mut out = control::inverse(w);
     if basis.is_some() {
-        out.extend(control::uncontrolled(&w, anc));
+        out.extend(control::uncontrolled(w, anc));
     }
     out.extend(hadamard_suffix(n, part, basis));
     out
@@ -347,6 +386,28 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
 
 /// [`frames`] with the given joins of the controlled preparations (`Neighbours` on a device).
 pub fn frames_with(h: &PauliSum, spec: &Spec, joins: control::Joins) -> Vec<Frame> {
+    let anc = h.num_qubits as Qubit;
+    frames_by(h, spec, &|state: &str, _: PrepAt| {
+        control::controlled_prep(state, anc, joins)
+    })
+}
+
+/// Where a controlled preparation of a control-free circuit stands: before the evolution, or
+/// after `steps` Trotter steps (a device's layout may differ there).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PrepAt {
+    Start,
+    End { steps: usize },
+}
+
+/// [`frames`] with the controlled preparation `W` of each state given by `controlled` (ancilla
+/// qubit `n`, gates of the kind [`control::controlled_prep`] makes: the ancilla only as the
+/// control of `cx(anc, q)`, `W|0⟩|0…0⟩ = |0⟩|0…0⟩`).
+pub fn frames_by(
+    h: &PauliSum,
+    spec: &Spec,
+    controlled: &(dyn Fn(&str, PrepAt) -> Vec<Gate> + Sync),
+) -> Vec<Frame> {
     use rayon::prelude::*;
     let n = h.num_qubits;
     if spec.family == Family::Evolution {
@@ -428,15 +489,22 @@ pub fn frames_with(h: &PauliSum, spec: &Spec, joins: control::Joins) -> Vec<Fram
                     hadamard_prefix(n, &prep),
                     hadamard_suffix(n, d.part, basis.as_ref()),
                 ),
-                Control::Prep => (
-                    prep_prefix(
-                        n,
-                        state,
-                        phi_step * (d.k * spec.steps_per_dt.max(1)) as f64,
-                        joins,
-                    ),
-                    prep_suffix(n, state, d.part, basis.as_ref(), joins),
-                ),
+                Control::Prep => {
+                    let steps = d.k * spec.steps_per_dt.max(1);
+                    (
+                        prep_prefix_with(
+                            n,
+                            phi_step * steps as f64,
+                            &controlled(state, PrepAt::Start),
+                        ),
+                        prep_suffix_with(
+                            n,
+                            &controlled(state, PrepAt::End { steps }),
+                            d.part,
+                            basis.as_ref(),
+                        ),
+                    )
+                }
             };
             Frame {
                 id: d.id,

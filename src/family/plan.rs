@@ -226,6 +226,46 @@ pub struct CircuitEntry {
     /// no `--shots` is given. Absent when no allocation was made.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub shots: Option<u64>,
+    /// Control-free circuits on a device whose controlled preparation is a fan-out tree on the
+    /// coupled pairs of the layout (`family::control::fanout_prep`): its CNOTs as logical
+    /// `[control, target]` pairs (the ancilla is the last qubit), before and after the
+    /// evolution. Absent: the preparation the plan's form implies (`control::Joins`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fanout: Option<FanOut>,
+}
+
+/// The controlled preparations of one control-free circuit, as CNOT lists (see
+/// [`CircuitEntry::fanout`]).
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct FanOut {
+    pub before: Vec<[u32; 2]>,
+    pub after: Vec<[u32; 2]>,
+}
+
+impl FanOut {
+    /// The gates of one list.
+    pub fn gates(cnots: &[[u32; 2]]) -> Vec<crate::circuit::Gate> {
+        cnots
+            .iter()
+            .map(|&[a, b]| crate::circuit::Gate::Cx(a, b))
+            .collect()
+    }
+
+    /// The lists of two preparations made only of CNOTs, or `None`.
+    pub fn of(before: &[crate::circuit::Gate], after: &[crate::circuit::Gate]) -> Option<FanOut> {
+        let pairs = |w: &[crate::circuit::Gate]| -> Option<Vec<[u32; 2]>> {
+            w.iter()
+                .map(|g| match *g {
+                    crate::circuit::Gate::Cx(a, b) => Some([a, b]),
+                    _ => None,
+                })
+                .collect()
+        };
+        Some(FanOut {
+            before: pairs(before)?,
+            after: pairs(after)?,
+        })
+    }
 }
 
 /// Costs of one circuit as recorded in the plan.

@@ -110,6 +110,8 @@ pub struct RouteConfig {
     pub sweep: bool,
     /// Also score exact embeddings of the interaction graph ([`embed`]) as layouts.
     pub embed: bool,
+    /// Also score steps whose hopping pairs are synthesised together (`synth::Pairs`).
+    pub pairs: bool,
     /// Score candidates by the two-qubit gates of the routed step once lowered (what is
     /// emitted) rather than by SWAPs.
     pub score_two_qubit: bool,
@@ -140,6 +142,7 @@ impl Default for RouteConfig {
             textbook: false,
             sweep: true,
             embed: true,
+            pairs: true,
             score_two_qubit: true,
             campaign_weights: None,
         }
@@ -317,6 +320,8 @@ pub struct StepForm {
     /// The program reordered by [`sweep::schedule`] (ladders rooted where the walk meets each
     /// rotation); the step is then not split at seams.
     pub sweep: bool,
+    /// Hopping pairs synthesised together (`synth::Pairs`), the rest as the plan's ladders.
+    pub pairs: bool,
 }
 
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
@@ -616,6 +621,7 @@ fn plan_on_step(
         textbook: cfg.textbook,
         uncancelled: !cfg.cancel,
         sweep: false,
+        pairs: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -684,6 +690,8 @@ fn plan_on_step(
     // The best plan with a split (or plain) step, and the best swept one: they differ in how
     // later steps join (`reuse`), so `plan_and_route_step` may compare them on the campaign.
     let mut bests: [Option<((usize, f64), Planned)>; 2] = [None, None];
+    // The initial layout of the best split (or plain) step so far.
+    let best_layout: std::cell::RefCell<Option<Vec<u32>>> = Default::default();
     let mut consider = |key: (usize, f64),
                         plan: TargetPlan,
                         parts: &reuse::StepParts,
@@ -694,6 +702,9 @@ fn plan_on_step(
             .as_ref()
             .is_none_or(|(k, _)| key.0 < k.0 || (key.0 == k.0 && key.1 < k.1 - 1e-12));
         if better {
+            if !plan.step_form.sweep {
+                *best_layout.borrow_mut() = Some(plan.initial_layout.clone());
+            }
             *best = Some((
                 key,
                 (plan, Some((parts.clone(), fwd.clone(), marks.to_vec()))),
@@ -808,6 +819,7 @@ fn plan_on_step(
             textbook: true,
             uncancelled: true,
             sweep: false,
+            pairs: false,
         };
         let (plan, parts, fwd, marks) = evaluate(
             &first_layout,
@@ -817,6 +829,54 @@ fn plan_on_step(
             &mut params,
         )?;
         consider(key_of(&fwd, &first_layout), plan, &parts, &fwd, &marks);
+    }
+    let has_pairs = || {
+        let t = &default_terms;
+        (0..t.len()).any(|i| {
+            t[i + 1..t.len().min(i + 1 + crate::synth::PAIR_LOOKAHEAD)]
+                .iter()
+                .any(|(q, _)| crate::synth::hopping_pair(&t[i].0, q).is_some())
+        })
+    };
+    if cfg.pairs && !cfg.textbook && small && has_pairs() {
+        // Hopping pairs synthesised together (`synth::Pairs`): the same search again (every
+        // starting layout, the best split step's layout too, every factor and order but the
+        // sweep, with its refinement rounds), each candidate scored by what is emitted.
+        let mut layouts = candidates.clone();
+        let best = best_layout.borrow().clone();
+        if let Some(l) = best {
+            if !layouts.contains(&l) {
+                layouts.push(l);
+            }
+        }
+        let paired = StepForm {
+            pairs: true,
+            ..form
+        };
+        for &factor in search.factors {
+            for &choice in search.choices.iter().filter(|&&c| c != OrderChoice::Sweep) {
+                for start in &layouts {
+                    let mut l = start.clone();
+                    for round in 0..=search.rounds {
+                        params.hub_factor = factor;
+                        let (plan, parts, fwd, marks) =
+                            evaluate(&l, factor, choice, paired, &mut params)?;
+                        consider(key_of(&fwd, &l), plan, &parts, &fwd, &marks);
+                        if round == search.rounds {
+                            break;
+                        }
+                        params.hub_factor = factor;
+                        l = insert_swaps(
+                            &reversed(&parts.circuit),
+                            &fwd.final_layout,
+                            dev,
+                            &params,
+                        )
+                        .final_layout;
+                    }
+                }
+            }
+        }
     }
     let [plain, swept] = bests;
     Ok(match (plain, swept) {

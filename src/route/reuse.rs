@@ -67,7 +67,7 @@ use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 use crate::formula::{step, Order, Rotation};
 use crate::pauli::PauliString;
-use crate::synth::pauli_rotation_along;
+use crate::synth::{pauli_rotation_along, Block, Pairs, Strategy};
 
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
@@ -231,10 +231,29 @@ pub struct StepParts {
     pub merged_edge: Option<Circuit>,
 }
 
-fn controlled(rotations: &[Rotation], plan: &TargetPlan) -> Circuit {
+fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -> Circuit {
     let mut c = Circuit::new(plan.initial_layout.len(), 0);
-    for r in rotations {
-        c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
+    if plan.step_form.pairs {
+        // `synth::Pairs`, with hop distances under the plan's initial layout.
+        let ladder = |r: &Rotation| plan.ladder(r);
+        let layout = &plan.initial_layout;
+        let distance = dev.map(|d| {
+            move |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
+                d.distance(layout[a as usize], layout[b as usize])
+            }
+        });
+        let block = Block {
+            rotations,
+            control: plan.ancilla,
+            distance: distance.as_ref().map(|f| {
+                f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)
+            }),
+        };
+        Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates);
+    } else {
+        for r in rotations {
+            c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));
+        }
     }
     if !plan.step_form.uncancelled {
         cancel_inverses(&mut c);
@@ -325,7 +344,7 @@ pub fn step_parts_on(
     }
     if order == Order::First || e == 0 || e >= terms.len() || plan.step_form.textbook {
         return StepParts {
-            circuit: controlled(&program(terms, plan, order, dt), plan),
+            circuit: controlled(&program(terms, plan, order, dt), plan, dev),
             cuts: Vec::new(),
             merged_edge: None,
         };
@@ -359,9 +378,9 @@ pub fn step_parts_on(
     let mut trail = lead.clone();
     trail.reverse();
     let parts = [
-        controlled(&lead, plan),
-        controlled(&middle, plan),
-        controlled(&trail, plan),
+        controlled(&lead, plan, dev),
+        controlled(&middle, plan, dev),
+        controlled(&trail, plan, dev),
     ];
     let a = parts[0].gates.len();
     let b = a + parts[1].gates.len();
@@ -372,7 +391,7 @@ pub fn step_parts_on(
     StepParts {
         circuit,
         cuts: vec![a, b],
-        merged_edge: Some(controlled(&merged, plan)),
+        merged_edge: Some(controlled(&merged, plan, dev)),
     }
 }
 

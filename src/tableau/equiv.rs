@@ -30,8 +30,8 @@ use super::normal::{self, DiffKind};
 use super::{canonicalise, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
-use crate::family::plan::{CircuitEntry, Family, Plan, Read, Target};
-use crate::family::{group_reads, hadamard_test_in, krylov_groups, state_prep};
+use crate::family::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
+use crate::family::{group_reads, hadamard_test_in, krylov_groups, prep_hadamard_test, state_prep};
 use crate::formula::{evolution, order_terms, Order};
 use crate::pauli::PauliString;
 use serde::Serialize;
@@ -218,6 +218,48 @@ impl Claim {
                 e.id
             )
         })?;
+        if let (Control::Prep, Some(f)) = (self.control, &e.fanout) {
+            // Fan-out trees recorded by `compile`: the claim's preparations are those CNOTs.
+            let m = self.n as u32 + 1;
+            if f.before
+                .iter()
+                .chain(&f.after)
+                .any(|&[a, b]| a >= m || b >= m || a == b)
+            {
+                return Err(format!(
+                    "{}: the fan-out lists a CNOT outside the {m} qubits of the circuit",
+                    e.id
+                ));
+            }
+            // Each list must take |1⟩|0…0⟩ (ancilla set) to |1⟩|reference⟩: CNOTs act on bit
+            // strings, so one pass over the pairs decides it (|0⟩|0…0⟩ is fixed by any CNOTs).
+            for cnots in [&f.before, &f.after] {
+                let mut bits = vec![false; m as usize];
+                bits[self.n] = true;
+                for &[a, b] in cnots {
+                    bits[b as usize] ^= bits[a as usize];
+                }
+                let want = state.chars().map(|c| c == '1');
+                if !bits[..self.n].iter().copied().eq(want)
+                    || state.chars().any(|c| c != '0' && c != '1')
+                {
+                    return Err(format!(
+                        "{}: the fan-out does not prepare the reference `{state}` on the ancilla's |1⟩ branch",
+                        e.id
+                    ));
+                }
+            }
+            let (before, after) = (FanOut::gates(&f.before), FanOut::gates(&f.after));
+            let c = prep_hadamard_test(
+                self.n,
+                &program,
+                part,
+                basis.as_ref(),
+                &ladder,
+                (&before, &after),
+            );
+            return Ok((c, reads));
+        }
         let c = hadamard_test_in(
             self.n,
             state,

@@ -205,6 +205,7 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
         final_layout: Vec::new(),
         sha256: None,
         shots: None,
+        fanout: None,
     }
 }
 

@@ -189,6 +189,7 @@ pub(crate) mod tests {
             final_layout: vec![],
             sha256: None,
             shots: None,
+            fanout: None,
         };
         Plan {
             format: PLAN_FORMAT.into(),
