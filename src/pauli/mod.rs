@@ -358,10 +358,11 @@ impl PauliSum {
         self.terms.values().map(|c| c.abs()).sum()
     }
 
-    /// Drops terms with `|c| ≤ tol`; returns how many were dropped.
-    pub fn chop(&mut self, tol: f64) -> usize {
+    /// Drops the non-identity strings with `|c| < cutoff` (the constant stays); returns how
+    /// many were dropped. `convert --cutoff` and `compile` use it for integral round-off.
+    pub fn drop_below(&mut self, cutoff: f64) -> usize {
         let before = self.terms.len();
-        self.terms.retain(|_, c| c.abs() > tol);
+        self.terms.retain(|_, c| c.abs() >= cutoff);
         before - self.terms.len()
     }
 

@@ -383,7 +383,16 @@ pub fn pair_rotation(
             ]),
         }
     }
-    out.extend([Gate::H(a), Gate::Cx(a, c), Gate::Sxdg(a), Gate::Sxdg(c)]);
+    // sx† = x·sx (sx² = x exactly): `sxdg` is not in stdgates.inc, so the all-to-all files
+    // keep to gates the standard library declares (OpenQASM 3 specification, stdgates.inc).
+    out.extend([
+        Gate::H(a),
+        Gate::Cx(a, c),
+        Gate::Sx(a),
+        Gate::X(a),
+        Gate::Sx(c),
+        Gate::X(c),
+    ]);
     if let Some(b) = root {
         out.push(Gate::Cz(a, b));
     }

@@ -27,7 +27,7 @@
 //! What it does not give: the ideal and exact overlaps (no amplitudes are computed).
 
 use super::normal::{self, DiffKind};
-use super::{canonicalise, Tableau, Tail};
+use super::{canonicalise_into, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
 use crate::family::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
@@ -340,12 +340,12 @@ impl Claim {
                 .map(|g| g.map_qubits(|l| init[l as usize])),
         );
         let mut fb = normal::Builder::new();
-        let ftail = canonicalise(file, width, &mut |r| fb.push(r)).map_err(|u| CannotCheck {
+        let ftail = canonicalise_into(file, width, &mut fb).map_err(|u| CannotCheck {
             gate: Some(u.gate),
             message: u.message,
         })?;
         let mut pb = normal::Builder::new();
-        let ptail = canonicalise(&placed, width, &mut |r| pb.push(r))
+        let ptail = canonicalise_into(&placed, width, &mut pb)
             .map_err(|u| CannotCheck::plan(format!("the plan's own circuit: {}", u.message)))?;
         let (fnf, pnf) = (fb.finish(), pb.finish());
         let names = Names::new(&init, self.n);
