@@ -55,7 +55,7 @@
 //! strings are taken as the Clifford `F` of all runs before it left them (`F P F†`, tracked
 //! row by row like the run's own strings) and reduced from there, so across a whole Trotter
 //! step the network is paid once; at the end `F` is undone by symplectic Gaussian
-//! elimination of its images of `X_q`, `Z_q` ([`uncompute`]), which for `m` qubits costs
+//! elimination of its images of `X_q`, `Z_q` (`uncompute`), which for `m` qubits costs
 //! `O(m²)` CNOTs however long the step was. Elimination fixes `F` only up to a global phase
 //! (a multiple of π/4): it is read off `|0…0⟩` by simulating the Clifford part on `2^m`
 //! amplitudes and cancelled with `(S H)³ = e^{iπ/4}·1`, so the block stays exact with its
