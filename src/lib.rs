@@ -13,8 +13,9 @@
 //! 4. [`synth`] turns rotations into basis changes, CNOT ladders and `rz`; [`route`] places
 //!    qubits and inserts SWAPs; [`lower`] translates to the device's native gates;
 //! 5. [`qasm`] writes OpenQASM 3 and reads back the subset it writes;
-//! 6. [`sim`] simulates the files and compares with the ideal and exact values; [`tableau`]
-//!    proves them equal to the plan's circuit exactly, at any width, without amplitudes;
+//! 6. [`sim`] simulates the files and [`check`] compares them with the ideal and exact values;
+//!    [`tableau`] proves them equal to the plan's circuit exactly, at any width, without
+//!    amplitudes;
 //! 7. [`estimate`] turns counts into overlaps, Krylov energies and densities of states, and
 //!    [`report`] prints tables, JSON and SVG plots.
 //!
@@ -44,8 +45,10 @@
 //! assert!(checks.iter().all(|c| c.compile_error <= 1e-9));
 //! ```
 //!
-//! **Invariant:** only the binary (`main.rs` and [`app`]) does I/O or exits; every other module
-//! is a set of functions from values to values.
+//! **Invariant:** only the command layer ([`app`]) and `main.rs` read or write files and the
+//! standard streams, and only `main.rs` ends the process; every other module is a set
+//! of functions from values to values (one exception: [`sim::available_memory_bytes`] reads
+//! `/proc/meminfo`, so `sim` and `pipeline` can refuse a job larger than the machine).
 
 pub mod app;
 pub mod check;

@@ -54,7 +54,9 @@
 //! plus SWAPs, `route::EXTRAS_MAX_UNIT`) the extras are skipped and levels 2 and 3 coincide:
 //! each would cost about one more routing per candidate.
 //!
-//! Nothing here does I/O; the command layer writes the files.
+//! Nothing here reads or writes files; the command layer does. The one query of the machine is
+//! the available memory (`sim::available_memory_bytes`), so a campaign predicted to need more
+//! is refused before it is built.
 
 use crate::circuit::cancel::Peephole;
 use crate::circuit::metrics::{counts_of, Counts};
