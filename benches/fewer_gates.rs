@@ -21,7 +21,8 @@
 //! - shuffled lattice models: layout edges recovered (terms whose qubits start coupled);
 //! - `d2 ≤ 0.7 × 2q` on the lattice models.
 //!
-//! Run with `cargo bench --bench fewer_gates` (add `-- quick` for levels 2 and 3 only).
+//! Run with `cargo bench --bench fewer_gates` (add `-- quick` for levels 2 and 3 only;
+//! `MODELS=dense12,h4` for some models only, `DEVICES=a2a,grid` for some devices).
 //! Deterministic: fixed seeds throughout.
 
 use phasewright::circuit::{Circuit, Gate};
@@ -146,6 +147,21 @@ fn dense(n: usize, terms: usize, seed: u64) -> PauliSum {
         h.add(PauliString::from_factors(&f).1, rng.gen_range(-1.0..1.0));
     }
     h
+}
+
+/// The Jordan–Wigner qubit Hamiltonian of an integral file, read by the library's own loader
+/// (`fermion::fcidump`), the constant dropped; `None` when the file is missing.
+fn from_integrals(path: &str) -> Option<PauliSum> {
+    let text = std::fs::read_to_string(path).ok()?;
+    let ints =
+        phasewright::fermion::fcidump::parse_fcidump(path, &text).expect("integral file parses");
+    let (h, _) = phasewright::fermion::qubit_hamiltonian_from_integrals(
+        &ints,
+        phasewright::fermion::Encoding::JordanWigner,
+        0,
+    )
+    .expect("integrals map to qubits");
+    Some(h)
 }
 
 /// The same model with qubit `q` renamed `perm[q]`.
@@ -285,7 +301,7 @@ fn main() {
     let quick = std::env::args().any(|a| a == "quick");
     let levels: Vec<u8> = if quick { vec![2, 3] } else { vec![0, 1, 2, 3] };
     let lattice_models = ["ising12", "ising20", "xxz12", "heis4x4", "ising3x4"];
-    let suite: Vec<(&str, PauliSum)> = vec![
+    let mut suite: Vec<(&str, PauliSum)> = vec![
         ("ising12", ising_chain(12)),
         ("ising20", ising_chain(20)),
         ("xxz12", xxz_chain(12)),
@@ -297,19 +313,40 @@ fn main() {
         ("heis4x4~", shuffled(&heisenberg_2d(4, 4, 11), 4)),
         ("ising3x4~", shuffled(&ising_2d(3, 4), 5)),
     ];
+    // Chemistry from integral files: H4 (STO-3G, 8 qubits) and LiH (STO-3G, 12 qubits,
+    // written by `tests/data/make_lih.py` with PySCF).
+    for (name, path) in [
+        ("h4", "tests/data/h4_sto3g_r1.0.fcidump"),
+        ("lih", "tests/data/lih_sto3g_r1.6.fcidump"),
+    ] {
+        match from_integrals(path) {
+            Some(h) => suite.insert(7, (name, h)),
+            None => println!("{name}: {path} is missing"),
+        }
+    }
     let dev_names = ["a2a", "line", "ring", "grid", "brick", "hex127"];
     print!("{:<11}{:<7}", "model", "device");
     for l in &levels {
         print!("{:>8}{:>6}", format!("L{l} 2q"), "d2");
     }
     println!("{:>8}{:>8}{:>7}{:>8}", "ref", "ratio", "goal", "d2/2q");
+    // `MODELS=dense12,hubbard2x3` runs some models only.
+    let only: Option<Vec<String>> = std::env::var("MODELS")
+        .ok()
+        .map(|m| m.split(',').map(str::to_string).collect());
     for (name, h) in &suite {
+        if only.as_ref().is_some_and(|o| !o.iter().any(|m| m == name)) {
+            continue;
+        }
         let base = name.trim_end_matches('~');
         let is_lattice = lattice_models.contains(&base);
         let rotations = step(&order_terms(h), Order::Second, 0.1).len();
         let mut a2a_best = 0usize;
         let mut a2a_l0 = 0usize;
         for (dname, dev) in dev_names.iter().zip(devices(h.num_qubits)) {
+            if std::env::var("DEVICES").is_ok_and(|d| !d.split(',').any(|x| x == *dname)) {
+                continue;
+            }
             if dev.as_ref().is_some_and(|d| d.num_qubits <= h.num_qubits) {
                 continue;
             }
@@ -341,8 +378,8 @@ fn main() {
                 {
                     Some(((uncontrolled(h, d) + 2 * rotations) as f64, 1.2))
                 }
-                (Some(_), "hubbard2x3" | "dense12") => Some((a2a_best as f64, 1.8)),
-                (None, "hubbard2x3" | "dense12") => Some((a2a_l0 as f64, 0.6)),
+                (Some(_), "hubbard2x3" | "dense12" | "h4" | "lih") => Some((a2a_best as f64, 1.8)),
+                (None, "hubbard2x3" | "dense12" | "h4" | "lih") => Some((a2a_l0 as f64, 0.6)),
                 _ => None,
             };
             match target {

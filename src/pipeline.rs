@@ -11,8 +11,8 @@
 //! 1. `prepare`: state preparation, ancilla to |+⟩ (`family::frames` gives the gates);
 //! 2. `synthesize`: the rotation program of the time point (`formula::evolution`, or at level 0
 //!    the unmerged textbook expansion) through one `synth::Strategy`: `Chain` ladders below
-//!    level 3; at level 3 also balanced `Tree`s and hopping `Pairs`, the emitted circuit with
-//!    the fewest two-qubit gates kept;
+//!    level 3; at level 3 also balanced `Tree`s, hopping `Pairs` and commuting-run `Groups`,
+//!    the emitted circuit with the fewest two-qubit gates kept;
 //! 3. `readout`: ancilla basis, measurement basis, measurements;
 //! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
 //! 5. `qasm::write` with logical `q[k]`.
@@ -42,7 +42,8 @@
 //! `evolution` family has no ancilla at all (`route::plan_and_route_plain_step`).
 //!
 //! At level 3 the step is also synthesised with hopping pairs diagonalised together
-//! (`synth::Pairs`) on every target, as one more candidate scored by what is emitted.
+//! (`synth::Pairs`) and with one greedy Clifford network per commuting run (`synth::Groups`)
+//! on every target, each one more candidate scored by what is emitted.
 //!
 //! The levels (`compile --opt`): 0 is the textbook pipeline (one ladder per rotation of the
 //! unmerged formula in term order, one greedy layout, plain SWAP routing, nothing cancelled
@@ -77,7 +78,7 @@ use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
     RouteConfig,
 };
-use crate::synth::{Block, Chain, Pairs, Sharing, Strategy, Tree};
+use crate::synth::{Block, Chain, Groups, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
 
 /// Where the circuits will run.
@@ -171,6 +172,9 @@ pub enum Synthesis {
     Sharing,
     /// `synth::Pairs`, hopping pairs diagonalised together, ascending ladders otherwise.
     Pairs,
+    /// `synth::Groups`, one greedy Clifford network per commuting run, ascending ladders for
+    /// single rotations.
+    Groups,
 }
 
 /// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
@@ -202,6 +206,9 @@ pub fn all_to_all_passes<'a>(
                     Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
                     Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
                     Synthesis::Pairs => Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates),
+                    Synthesis::Groups => {
+                        Groups { ladder: &ladder }.synthesize(&block, &mut c.gates)
+                    }
                     Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
                 }
             }),
@@ -497,6 +504,15 @@ pub fn compile_at(
             } else {
                 vec![false; programs.len()]
             };
+            // Programs whose commuting runs share qubits also try `synth::Groups` at level 3.
+            let grouped: Vec<bool> = if level >= OptLevel(3) {
+                programs
+                    .par_iter()
+                    .map(|p| crate::synth::groups::has_shared_runs(p))
+                    .collect()
+            } else {
+                vec![false; programs.len()]
+            };
             // The circuits of one time point with the same preparation (the real and the
             // imaginary part of one Hadamard test, say) run the same gates up to their readout:
             // each candidate synthesis of that shared body is built, verified and fed to the
@@ -535,6 +551,12 @@ pub fn compile_at(
                         }
                         if let Some(p) = &agreeing[k] {
                             candidates.push((p, Synthesis::Sharing));
+                        }
+                        if grouped[k] {
+                            candidates.push((&programs[k], Synthesis::Groups));
+                            if let Some(p) = &agreeing[k] {
+                                candidates.push((p, Synthesis::Groups));
+                            }
                         }
                     }
                     let bodies: Vec<Body> = candidates

@@ -110,7 +110,8 @@ pub struct RouteConfig {
     pub sweep: bool,
     /// Also score exact embeddings of the interaction graph ([`embed`]) as layouts.
     pub embed: bool,
-    /// Also score steps whose hopping pairs are synthesised together (`synth::Pairs`).
+    /// Also score steps whose hopping pairs are synthesised together (`synth::Pairs`), and
+    /// steps whose commuting runs are synthesised as one network each (`synth::Groups`).
     pub pairs: bool,
     /// Score candidates by the two-qubit gates of the routed step once lowered (what is
     /// emitted) rather than by SWAPs.
@@ -322,6 +323,9 @@ pub struct StepForm {
     pub sweep: bool,
     /// Hopping pairs synthesised together (`synth::Pairs`), the rest as the plan's ladders.
     pub pairs: bool,
+    /// One greedy Clifford network per commuting run (`synth::Groups`, distance-aware under
+    /// the plan's initial layout), single rotations as the plan's ladders.
+    pub groups: bool,
 }
 
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
@@ -622,6 +626,7 @@ fn plan_on_step(
         uncancelled: !cfg.cancel,
         sweep: false,
         pairs: false,
+        groups: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -820,6 +825,7 @@ fn plan_on_step(
             uncancelled: true,
             sweep: false,
             pairs: false,
+            groups: false,
         };
         let (plan, parts, fwd, marks) = evaluate(
             &first_layout,
@@ -838,10 +844,28 @@ fn plan_on_step(
                 .any(|(q, _)| crate::synth::hopping_pair(&t[i].0, q).is_some())
         })
     };
-    if cfg.pairs && !cfg.textbook && small && has_pairs() {
-        // Hopping pairs synthesised together (`synth::Pairs`): the same search again (every
-        // starting layout, the best split step's layout too, every factor and order but the
-        // sweep, with its refinement rounds), each candidate scored by what is emitted.
+    let has_runs =
+        || crate::synth::groups::has_shared_runs(&crate::formula::step(&default_terms, order, dt));
+    // Hopping pairs synthesised together (`synth::Pairs`) and commuting runs as one network
+    // each (`synth::Groups`): the same search again per form (every starting layout, the best
+    // split step's layout too, every factor and order but the sweep, with its refinement
+    // rounds), each candidate scored by what is emitted.
+    let mut forms = Vec::new();
+    if cfg.pairs && !cfg.textbook && small {
+        if has_pairs() {
+            forms.push(StepForm {
+                pairs: true,
+                ..form
+            });
+        }
+        if has_runs() {
+            forms.push(StepForm {
+                groups: true,
+                ..form
+            });
+        }
+    }
+    for paired in forms {
         let mut layouts = candidates.clone();
         let best = best_layout.borrow().clone();
         if let Some(l) = best {
@@ -849,10 +873,6 @@ fn plan_on_step(
                 layouts.push(l);
             }
         }
-        let paired = StepForm {
-            pairs: true,
-            ..form
-        };
         for &factor in search.factors {
             for &choice in search.choices.iter().filter(|&&c| c != OrderChoice::Sweep) {
                 for start in &layouts {

@@ -67,7 +67,7 @@ use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 use crate::formula::{step, Order, Rotation};
 use crate::pauli::PauliString;
-use crate::synth::{pauli_rotation_along, Block, Pairs, Strategy};
+use crate::synth::{pauli_rotation_along, Block, Groups, Pairs, Strategy};
 
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
@@ -233,8 +233,9 @@ pub struct StepParts {
 
 fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -> Circuit {
     let mut c = Circuit::new(plan.initial_layout.len(), 0);
-    if plan.step_form.pairs {
-        // `synth::Pairs`, with hop distances under the plan's initial layout.
+    if plan.step_form.pairs || plan.step_form.groups {
+        // `synth::Pairs` or `synth::Groups`, with hop distances under the plan's initial
+        // layout.
         let ladder = |r: &Rotation| plan.ladder(r);
         let layout = &plan.initial_layout;
         let distance = dev.map(|d| {
@@ -249,7 +250,11 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -
                 f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)
             }),
         };
-        Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates);
+        if plan.step_form.groups {
+            Groups { ladder: &ladder }.synthesize(&block, &mut c.gates);
+        } else {
+            Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates);
+        }
     } else {
         for r in rotations {
             c.extend(pauli_rotation_along(r, plan.ancilla, &plan.ladder(r)));

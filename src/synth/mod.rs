@@ -20,10 +20,20 @@
 //!   the same `w − 1` CNOTs but `⌈log₂ w⌉` deep instead of `w − 1`; with a coupling graph the
 //!   list is first ordered as a greedy nearest-neighbour path, so paired qubits sit close.
 //!
+//! Two strategies write several rotations at once instead: [`Pairs`] (an `X…X`/`Y…Y` hopping
+//! pair diagonalised by one Clifford) and [`Groups`] (module [`groups`]: each run of
+//! consecutive commuting rotations reduced to single-qubit rotations by one greedy Clifford
+//! network, only the `rz` controlled, optionally with the frame carried from run to run and
+//! undone once at the end of the block).
+//!
 //! Cost: `2(w−1)` CNOTs for weight w whatever the tree (Nielsen & Chuang, "Quantum Computation
 //! and Quantum Information", 2010, §4.7.3, for the chain; any spanning tree of the support
 //! computes the same parity), plus 2 for the control. The basis changes and the parity network
 //! need no control: without the `rz` they multiply to the identity.
+
+pub mod groups;
+
+pub use groups::Groups;
 
 use crate::circuit::{Gate, Qubit};
 use crate::formula::Rotation;
