@@ -575,17 +575,21 @@ fn exchange_mutation(h: &PauliSum, c: &Compiled, index: usize, simulate: bool) -
     let m = (j + 1..program.len())
         .find(|&m| !program[j].pauli.commutes_with(&program[m].pauli))
         .expect("a later anticommuting rotation");
-    program.swap(j, m);
     let n = h.num_qubits;
     let prep = phasewright::family::state_prep(&plan.states[e.state]).unwrap();
     let ladder = |r: &Rotation| phasewright::synth::default_ladder(r);
-    let bad =
-        phasewright::family::hadamard_test(n, &prep, &program, e.part.unwrap(), None, &ladder);
+    let part = e.part.unwrap();
+    // The same program written the textbook way (one ladder per rotation) before and after the
+    // exchange: the compiled file may share Clifford networks between commuting rotations and
+    // order them otherwise, so only a twin built like the mutated one locates the exchange.
+    let good = phasewright::family::hadamard_test(n, &prep, &program, part, None, &ladder);
+    program.swap(j, m);
+    let bad = phasewright::family::hadamard_test(n, &prep, &program, part, None, &ladder);
     let text = qasm::write(&bad, qasm::Addressing::Logical, &[]);
     let orig = File::new(&c.programs[index]);
     // Each controlled rotation is two rz. The sequences part at the moved rotation; the first
     // entry whose layer or axis changes lies in the exchanged stretch.
-    let (a, b) = (rotation_sequence(&orig.circuit), rotation_sequence(&bad));
+    let (a, b) = (rotation_sequence(&good), rotation_sequence(&bad));
     let k = (0..b.len())
         .find(|&k| a[k].0 != b[k].0 || a[k].1 != b[k].1)
         .unwrap();
