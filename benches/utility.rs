@@ -193,7 +193,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     use phasewright::circuit::metrics::counts_of;
     use phasewright::circuit::verify::{verify_ir, Rules};
     use phasewright::circuit::Circuit;
-    use phasewright::formula::{evolution, order_terms};
+    use phasewright::formula::{order_terms, Formula};
     use phasewright::pipeline::{all_to_all_passes, run_passes, OptLevel, Synthesis};
     let s = spec(h.num_qubits, points);
     let mut out = Vec::new();
@@ -204,8 +204,9 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     };
     let terms = order_terms(h);
     lap("group+order", &mut out);
+    let formula = Formula::new(&terms);
     let programs: Vec<_> = (0..points)
-        .map(|k| evolution(&terms, s.order, k as f64 * s.dt, k))
+        .map(|k| formula.evolution(s.order, k as f64 * s.dt, k))
         .collect();
     lap("formula", &mut out);
     let agreeing: Vec<_> = programs

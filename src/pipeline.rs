@@ -71,7 +71,7 @@ use crate::family::plan::{
     PLAN_FORMAT,
 };
 use crate::family::{frames, frames_by, frames_with, PrepAt, Spec};
-use crate::formula::{evolution, order_terms, textbook_evolution, Rotation};
+use crate::formula::{order_terms, textbook_evolution, Formula, Rotation};
 use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{
@@ -473,15 +473,16 @@ pub fn compile_at(
             // The ancilla controls the rotations only in the textbook Hadamard test.
             let control = (spec.control == Control::Evolution && spec.family != Family::Evolution)
                 .then_some(n as crate::circuit::Qubit);
-            // One rotation program per time point, shared by every circuit at that point.
+            // One rotation program per time point, shared by every circuit at that point; the
+            // string ids and commuting runs of the term list are found once for all points.
+            let formula = (level != OptLevel::TEXTBOOK).then(|| Formula::new(&terms));
             let programs: Vec<Vec<Rotation>> = (0..spec.points)
                 .into_par_iter()
                 .map(|k| {
                     let (t, r) = (k as f64 * spec.dt, k * spec.steps_per_dt);
-                    if level == OptLevel::TEXTBOOK {
-                        textbook_evolution(&terms, spec.order, t, r)
-                    } else {
-                        evolution(&terms, spec.order, t, r)
+                    match &formula {
+                        None => textbook_evolution(&terms, spec.order, t, r),
+                        Some(f) => f.evolution(spec.order, t, r),
                     }
                 })
                 .collect();
