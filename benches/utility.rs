@@ -12,6 +12,9 @@
 //!    at 10³…10⁶ terms on 120 qubits, and at 64…1,024 qubits with 100 terms per qubit; the
 //!    least-squares exponent of time against size is printed.
 //!
+//! `cargo bench --bench utility -- stages` prints the stages of section 2 at every size of
+//! section 3 (nanoseconds per term), to see which stage grows faster than the term count.
+//!
 //! Sizes can be cut for a quick look: `PHASEWRIGHT_BENCH_QUICK=1 cargo bench --bench utility`
 //! (the largest sizes are dropped). The device figures live in `benches/utility_device.rs`.
 
@@ -179,6 +182,107 @@ fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
     (t.elapsed().as_secs_f64(), bytes)
 }
 
+/// The all-to-all pipeline of [`compile`] at the default level, stage by stage on one thread
+/// (the same calls in the same order, each timed), in seconds: grouping and ordering the
+/// terms, the formula per time point, the agreeing schedule and the pair scan per point, then
+/// per time point and candidate synthesis (with `prepare` and the verifier), the peephole
+/// stream, and per circuit the readout with counts and the final verifier, and formatting the
+/// kept circuit as OpenQASM text.
+fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
+    use phasewright::circuit::cancel::Peephole;
+    use phasewright::circuit::metrics::counts_of;
+    use phasewright::circuit::verify::{verify_ir, Rules};
+    use phasewright::circuit::Circuit;
+    use phasewright::formula::{evolution, order_terms};
+    use phasewright::pipeline::{all_to_all_passes, run_passes, OptLevel, Synthesis};
+    let s = spec(h.num_qubits, points);
+    let mut out = Vec::new();
+    let mut t = Instant::now();
+    let mut lap = |name: &'static str, out: &mut Vec<(&'static str, f64)>| {
+        out.push((name, t.elapsed().as_secs_f64()));
+        t = Instant::now();
+    };
+    let terms = order_terms(h);
+    lap("group+order", &mut out);
+    let programs: Vec<_> = (0..points)
+        .map(|k| evolution(&terms, s.order, k as f64 * s.dt, k))
+        .collect();
+    lap("formula", &mut out);
+    let agreeing: Vec<_> = programs
+        .iter()
+        .map(|p| phasewright::route::sweep::schedule_by_agreement(p))
+        .collect();
+    lap("agreeing order", &mut out);
+    let paired: Vec<bool> = programs
+        .iter()
+        .map(|p| phasewright::synth::has_hopping_pairs(p))
+        .collect();
+    lap("pair scan", &mut out);
+    let frames = phasewright::family::frames(h, &s);
+    lap("frames", &mut out);
+    let (mut synth, mut cancel, mut readout, mut text) = (0.0, 0.0, 0.0, 0.0);
+    let level = OptLevel::default();
+    let control = Some(h.num_qubits as u32);
+    for k in 1..points {
+        let fs: Vec<_> = frames.iter().filter(|f| f.k == k).collect();
+        let mut candidates = vec![
+            (&programs[k][..], Synthesis::Chain),
+            (&programs[k][..], Synthesis::Tree),
+        ];
+        if paired[k] {
+            candidates.push((&programs[k][..], Synthesis::Pairs));
+        }
+        if let Some(p) = &agreeing[k] {
+            candidates.push((&p[..], Synthesis::Sharing));
+        }
+        let mut bodies = Vec::new();
+        for (program, synthesis) in candidates {
+            let t = Instant::now();
+            let mut body = Circuit::new(fs[0].num_qubits, fs[0].num_clbits);
+            let passes = all_to_all_passes(&fs[0].prefix, program, control, &[], level, synthesis);
+            run_passes(&mut body, &passes[..2], &Rules::default()).expect("verified");
+            synth += t.elapsed().as_secs_f64();
+            let t = Instant::now();
+            let mut stream = Peephole::new(body.num_qubits, body.gates.len());
+            for g in body.gates.drain(..) {
+                stream.push(g);
+            }
+            bodies.push(stream);
+            cancel += t.elapsed().as_secs_f64();
+        }
+        for f in &fs {
+            let t = Instant::now();
+            let mut best: Option<(usize, (usize, usize))> = None;
+            for (i, b) in bodies.iter().enumerate() {
+                let n = counts_of(f.num_qubits, b.with_tail(&f.suffix).gates());
+                let key = (n.two_qubit, n.depth);
+                if best.as_ref().is_none_or(|b| key < b.1) {
+                    best = Some((i, key));
+                }
+            }
+            let (i, _) = best.expect("a candidate");
+            let mut c = Circuit::new(f.num_qubits, f.num_clbits);
+            c.gates = bodies[i].with_tail(&f.suffix).to_vec();
+            verify_ir(&c, &Rules::default()).expect("verified");
+            readout += t.elapsed().as_secs_f64();
+            let t = Instant::now();
+            std::hint::black_box(phasewright::qasm::write(
+                &c,
+                phasewright::qasm::Addressing::Logical,
+                &[],
+            ));
+            text += t.elapsed().as_secs_f64();
+        }
+    }
+    out.extend([
+        ("synthesis", synth),
+        ("peephole", cancel),
+        ("readout+counts", readout),
+        ("format", text),
+    ]);
+    out
+}
+
 /// Least-squares slope of ln(time) against ln(size).
 fn exponent(points: &[(f64, f64)]) -> f64 {
     let n = points.len() as f64;
@@ -220,12 +324,25 @@ fn main() {
         write_all(&scratch.path().join("copy"), &c.programs);
         let write_s = t.elapsed().as_secs_f64();
         drop(c);
+        let peak = peak_rss_mb();
         println!(
-        "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {:.0} MB",
+        "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {peak:.0} MB",
         bytes as f64 / 1e6,
         comp_s / write_s,
-        peak_rss_mb()
     );
+        // Where the time goes: the same work stage by stage on one thread (the compile above
+        // runs circuits and candidates on every core), each as a multiple of the write.
+        let parts = stages(&h, 5);
+        let serial: f64 = parts.iter().map(|p| p.1).sum();
+        let list: Vec<String> = parts
+            .iter()
+            .map(|(name, s)| format!("{name} {:.2}", s / write_s))
+            .collect();
+        println!(
+            "  stages on one thread / write: {} (sum {:.1}, {serial:.2} s)",
+            list.join(", "),
+            serial / write_s
+        );
     }
 
     // 3. scaling in terms (120 qubits) and in qubits (100 terms per qubit).
@@ -250,6 +367,18 @@ fn main() {
             "scaling in terms: exponent {:.2} (target <= 1.15)",
             exponent(&pts)
         );
+    }
+    // Opt-in (`-- stages`): every stage at every size of the term scaling, in nanoseconds per
+    // term, to see which one grows faster than the term count.
+    if sections.iter().any(|s| s == "stages") {
+        for &m in term_sizes {
+            let h = parse(&random_ham_text(120, m, 3));
+            let list: Vec<String> = stages(&h, 2)
+                .iter()
+                .map(|(name, s)| format!("{name} {:.0}", s * 1e9 / m as f64))
+                .collect();
+            println!("  stages at {m:>8} terms, ns per term: {}", list.join(", "));
+        }
     }
     let widths: &[usize] = if quick {
         &[64, 128, 256]

@@ -13,13 +13,42 @@
 //! 4. [`synth`] turns rotations into basis changes, CNOT ladders and `rz`; [`route`] places
 //!    qubits and inserts SWAPs; [`lower`] translates to the device's native gates;
 //! 5. [`qasm`] writes OpenQASM 3 and reads back the subset it writes;
-//! 6. [`sim`] simulates the files and compares with the ideal and exact values; [`tableau`]
-//!    proves them equal to the plan's circuit exactly, at any width, without amplitudes;
+//! 6. [`sim`] simulates the files and [`check`] compares them with the ideal and exact values;
+//!    [`tableau`] proves them equal to the plan's circuit exactly, at any width, without
+//!    amplitudes;
 //! 7. [`estimate`] turns counts into overlaps, Krylov energies and densities of states, and
 //!    [`report`] prints tables, JSON and SVG plots.
 //!
-//! **Invariant:** only the binary (`main.rs` and [`app`]) does I/O or exits; every other module
-//! is a set of functions from values to values.
+//! # Example
+//!
+//! A transverse-field Ising pair, compiled into an overlap campaign on the all-to-all target
+//! and checked by simulation: every circuit's reads agree with the ideal product formula.
+//!
+//! ```
+//! use phasewright::family::{control::Control, plan::Family, Spec};
+//! use phasewright::formula::Order;
+//!
+//! let ham = phasewright::lang::ham::parse_hamiltonian("pair.ham", "qubits 2\n1.0 Z0 Z1\n0.5 X0\n0.5 X1\n")
+//!     .expect("a valid .ham file");
+//! let spec = Spec {
+//!     family: Family::Overlap,
+//!     order: Order::Second,
+//!     dt: 0.2,
+//!     points: 3,
+//!     steps_per_dt: 1,
+//!     states: vec!["00".into()],
+//!     control: Control::Evolution,
+//! };
+//! let compiled = phasewright::pipeline::compile(&ham.sum, "pair.ham", &spec).unwrap();
+//! assert_eq!(compiled.programs.len(), compiled.plan.circuits.len());
+//! let checks = phasewright::check::check_plan(&compiled.plan, &compiled.circuits).unwrap();
+//! assert!(checks.iter().all(|c| c.compile_error <= 1e-9));
+//! ```
+//!
+//! **Invariant:** only the command layer ([`app`]) and `main.rs` read or write files and the
+//! standard streams, and only `main.rs` ends the process; every other module is a set
+//! of functions from values to values (one exception: [`sim::available_memory_bytes`] reads
+//! `/proc/meminfo`, so `sim` and `pipeline` can refuse a job larger than the machine).
 
 pub mod app;
 pub mod check;

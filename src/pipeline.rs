@@ -66,9 +66,12 @@
 //! plus SWAPs, `route::EXTRAS_MAX_UNIT`) the extras are skipped and levels 2 and 3 coincide:
 //! each would cost about one more routing per candidate.
 //!
-//! Nothing here does I/O; the command layer writes the files.
+//! Nothing here reads or writes files; the command layer does. The one query of the machine is
+//! the available memory (`sim::available_memory_bytes`), so a campaign predicted to need more
+//! is refused before it is built.
 
-use crate::circuit::metrics::counts;
+use crate::circuit::cancel::Peephole;
+use crate::circuit::metrics::{counts_of, Counts};
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
@@ -381,6 +384,36 @@ enum Output {
     Text(String),
 }
 
+/// The shared gates of the circuits of one time point (preparation and evolution) on the
+/// all-to-all target: fed to the peephole stream (level ≥ 1), or as synthesised (level 0).
+enum Body {
+    Stream(Peephole),
+    Raw(Vec<Gate>),
+}
+
+impl Body {
+    /// The gates of the whole circuit: this body, then `readout`.
+    fn with_readout(&self, readout: &[Gate]) -> Vec<Gate> {
+        match self {
+            Body::Stream(s) => s.with_tail(readout).to_vec(),
+            Body::Raw(gates) => {
+                let mut out = Vec::with_capacity(gates.len() + readout.len());
+                out.extend_from_slice(gates);
+                out.extend_from_slice(readout);
+                out
+            }
+        }
+    }
+
+    /// `counts` of [`Body::with_readout`], without building it.
+    fn counts_with_readout(&self, num_qubits: usize, readout: &[Gate]) -> Counts {
+        match self {
+            Body::Stream(s) => counts_of(num_qubits, s.with_tail(readout).gates()),
+            Body::Raw(gates) => counts_of(num_qubits, gates.iter().chain(readout).copied()),
+        }
+    }
+}
+
 /// The leading comment lines of a circuit's program.
 fn header_comments(
     id: &str,
@@ -477,56 +510,125 @@ pub fn compile_at(
             } else {
                 vec![false; programs.len()]
             };
-            let done = frames(h, spec)
+            // The circuits of one time point with the same preparation (the real and the
+            // imaginary part of one Hadamard test, say) run the same gates up to their readout:
+            // each candidate synthesis of that shared body is built, verified and fed to the
+            // peephole stream once, and only the readouts are run per circuit
+            // (`circuit::cancel::Peephole`: the stream cloned before the readout gives exactly
+            // what cancelling the whole circuit gives).
+            let mut shared: Vec<Vec<crate::family::Frame>> = Vec::new();
+            for f in frames(h, spec) {
+                match shared.last_mut() {
+                    Some(g)
+                        if g[0].k == f.k
+                            && g[0].prefix == f.prefix
+                            && g[0].num_qubits == f.num_qubits =>
+                    {
+                        g.push(f)
+                    }
+                    _ => shared.push(vec![f]),
+                }
+            }
+            let done: Vec<Vec<Finished>> = shared
                 .into_par_iter()
-                .map(|f| {
-                    let run = |program: &[Rotation], synthesis: Synthesis| {
-                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
-                        let passes = all_to_all_passes(
-                            &f.prefix, program, control, &f.suffix, level, synthesis,
-                        );
-                        run_passes(&mut circuit, &passes, &Rules::default()).map(|_| circuit)
-                    };
-                    let mut circuit = run(&programs[f.k], Synthesis::Chain)?;
+                .map(|frames_k| {
+                    let first = &frames_k[0];
+                    let k = first.k;
+                    // Candidates in the order they are compared (ties keep the earlier).
+                    let mut candidates: Vec<(&[Rotation], Synthesis)> =
+                        vec![(&programs[k], Synthesis::Chain)];
                     if level >= OptLevel(3) {
                         // Trees are shallower but may cancel less between neighbouring
                         // rotations, and the agreeing order cancels more but may be deeper:
                         // the emitted circuit with fewer two-qubit gates (then the lower
                         // depth) is kept, so level 3 never emits more than level 2.
-                        let key = |c: &Circuit| {
-                            let k = counts(c);
-                            (k.two_qubit, k.depth)
-                        };
-                        let mut others = vec![run(&programs[f.k], Synthesis::Tree)?];
-                        if paired[f.k] {
-                            others.push(run(&programs[f.k], Synthesis::Pairs)?);
+                        candidates.push((&programs[k], Synthesis::Tree));
+                        if paired[k] {
+                            candidates.push((&programs[k], Synthesis::Pairs));
                         }
-                        if let Some(p) = &agreeing[f.k] {
-                            others.push(run(p, Synthesis::Sharing)?);
-                        }
-                        for c in others {
-                            if key(&c) < key(&circuit) {
-                                circuit = c;
-                            }
+                        if let Some(p) = &agreeing[k] {
+                            candidates.push((p, Synthesis::Sharing));
                         }
                     }
-                    Ok(Finished {
-                        fanout: None,
-                        costs: counts(&circuit).into(),
-                        id: f.id,
-                        k: f.k,
-                        time: f.time,
-                        part: f.part,
-                        state: f.state,
-                        group: f.group,
-                        reads: f.reads,
-                        num_qubits: circuit.num_qubits,
-                        num_clbits: circuit.num_clbits,
-                        output: Output::Circuit(circuit),
-                        final_layout: Vec::new(),
-                    })
+                    let bodies: Vec<Body> = candidates
+                        .par_iter()
+                        .map(|&(program, synthesis)| {
+                            let mut body = Circuit::new(first.num_qubits, first.num_clbits);
+                            let passes = all_to_all_passes(
+                                &first.prefix,
+                                program,
+                                control,
+                                &[],
+                                level,
+                                synthesis,
+                            );
+                            // `prepare` and `synthesize`; the readout and `cancel` follow per
+                            // circuit below.
+                            run_passes(&mut body, &passes[..2], &Rules::default())?;
+                            Ok(if level >= OptLevel(1) {
+                                let mut stream = Peephole::new(body.num_qubits, body.gates.len());
+                                for g in body.gates.drain(..) {
+                                    stream.push(g);
+                                }
+                                Body::Stream(stream)
+                            } else {
+                                Body::Raw(body.gates)
+                            })
+                        })
+                        .collect::<Result<Vec<_>, IrError>>()?;
+                    let mut out = Vec::with_capacity(frames_k.len());
+                    for f in frames_k {
+                        // Each candidate's readout is counted on an overlay of its shared body
+                        // (nothing copied); the first with the fewest two-qubit gates, then the
+                        // lowest depth, is built.
+                        let mut best: Option<(usize, crate::circuit::metrics::Counts)> = None;
+                        for (i, body) in bodies.iter().enumerate() {
+                            let n = body.counts_with_readout(f.num_qubits, &f.suffix);
+                            if cfg!(debug_assertions) {
+                                let mut c = Circuit::new(f.num_qubits, f.num_clbits);
+                                c.gates = body.with_readout(&f.suffix);
+                                verify_ir(&c, &Rules::default()).map_err(|e| IrError {
+                                    message: format!(
+                                        "after passes `readout` and `cancel`: {}",
+                                        e.message
+                                    ),
+                                    ..e
+                                })?;
+                            }
+                            let better = best.as_ref().is_none_or(|b| {
+                                (n.two_qubit, n.depth) < (b.1.two_qubit, b.1.depth)
+                            });
+                            if better {
+                                best = Some((i, n));
+                            }
+                        }
+                        let (i, n) = best.expect("at least the chain candidate");
+                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+                        circuit.gates = bodies[i].with_readout(&f.suffix);
+                        verify_ir(&circuit, &Rules::default()).map_err(|e| IrError {
+                            message: format!("after pass `cancel`: {}", e.message),
+                            ..e
+                        })?;
+                        out.push(Finished {
+                            fanout: None,
+                            costs: n.into(),
+                            id: f.id,
+                            k: f.k,
+                            time: f.time,
+                            part: f.part,
+                            state: f.state,
+                            group: f.group,
+                            reads: f.reads,
+                            num_qubits: circuit.num_qubits,
+                            num_clbits: circuit.num_clbits,
+                            output: Output::Circuit(circuit),
+                            final_layout: Vec::new(),
+                        });
+                    }
+                    Ok(out)
                 })
                 .collect::<Result<Vec<_>, IrError>>()?;
+            let done: Vec<Finished> = done.into_iter().flatten().collect();
             Ok(finish(h, source, spec, done, None, Addressing::Logical))
         }
         Target::Device { device, config } => {

@@ -905,3 +905,49 @@ fn table_and_plot_show_the_same_error_bars_and_the_energy_unit() {
         .unwrap()
         .contains("energy (hartree)"));
 }
+
+/// A file that differs from its plan's claim, with its SHA-256 updated in the plan so that it
+/// reaches the check: `verify --method tableau` points at it and exits 1, also when stderr is
+/// a closed pipe (its diagnostics are then lost, never a panic).
+#[test]
+fn a_differing_file_is_reported_without_a_panic_even_with_stderr_closed() {
+    use sha2::{Digest, Sha256};
+    let (_tmp, dir) = campaign();
+    let file = dir.join("k01-re.qasm");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let measure = "c[0] = measure q[8];";
+    assert!(text.contains(measure), "{text}");
+    let edited = text.replace(measure, &format!("x q[8];\n{measure}"));
+    std::fs::write(&file, &edited).unwrap();
+    let hash: String = Sha256::digest(edited.as_bytes())
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+    edit_plan(&dir, |v| {
+        for c in v["circuits"].as_array_mut().unwrap() {
+            if c["file"] == "k01-re.qasm" {
+                c["sha256"] = serde_json::Value::String(hash.clone());
+            }
+        }
+    });
+    let verify = ["verify", "--method", "tableau"];
+    let (code, _, err) = run(phasewright().args(verify).arg(&dir));
+    assert_eq!(code, 1, "{err}");
+    assert!(err.contains("k01-re.qasm"), "{err}");
+    assert!(!err.contains("panicked"), "{err}");
+
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("phasewright"))
+        .args(verify)
+        .arg(&dir)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stderr.take());
+    let status = child.wait().unwrap();
+    assert_eq!(
+        status.code(),
+        Some(1),
+        "a closed stderr must not turn exit 1 into a panic"
+    );
+}

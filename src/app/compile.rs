@@ -326,7 +326,7 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
         ));
     }
     let (mut h, chem) = super::convert::load_qubit_hamiltonian_with(&args.hamiltonian, opts)?;
-    let cut = super::convert::drop_below(&mut h, args.cutoff);
+    let cut = h.drop_below(args.cutoff);
     let n = h.num_qubits;
     if h.terms.is_empty() {
         return Err(Error::usage(

@@ -63,13 +63,6 @@ pub fn parse_cutoff(s: &str) -> std::result::Result<f64, String> {
     }
 }
 
-/// Drops the non-identity strings of `h` with `|coefficient| < cutoff`; returns how many.
-pub fn drop_below(h: &mut PauliSum, cutoff: f64) -> usize {
-    let before = h.terms.len();
-    h.terms.retain(|_, c| c.abs() >= cutoff);
-    before - h.terms.len()
-}
-
 fn parse_encoding(s: &str) -> std::result::Result<Encoding, crate::fermion::FermionError> {
     s.parse()
 }

@@ -3,8 +3,11 @@
 //!
 //! In: parsed command-line arguments. Out: files in the target folder, text on stdout, or an
 //! [`Error`] for `main` to render once. **Only this module and `main.rs` touch the file system
-//! or the standard streams**; every write to stdout goes through [`Global::say`] /
-//! [`Global::json`], so a closed pipe is a quiet exit, never a panic.
+//! or the standard streams** (the library's one exception is the `/proc/meminfo` query of
+//! [`crate::sim::available_memory_bytes`]); every write to stdout goes through [`io::emit`]
+//! (reports through [`Global::say`] / [`Global::json`]; counts on `-o -`, completion scripts
+//! and man pages directly), so a closed pipe is a quiet exit, never a panic; stderr is written
+//! with `write!` and its error ignored.
 
 pub mod allot;
 pub mod budget;

@@ -127,9 +127,13 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
     } else {
         g.say(&report.text)?;
     }
+    // `eprint!` panics when stderr is a closed pipe; a lost diagnostic must not turn the
+    // verdict (exit 1) into a panic.
+    let mut err = std::io::stderr().lock();
     for d in &report.diagnostics {
-        eprint!("{d}");
+        let _ = std::io::Write::write_all(&mut err, d.as_bytes());
     }
+    drop(err);
     match report.failure {
         None => Ok(()),
         Some(e) => Err(e),

@@ -20,8 +20,16 @@ pub struct Counts {
 
 /// Counts gates and computes the depth.
 pub fn counts(c: &Circuit) -> Counts {
+    counts_of(c.num_qubits, c.gates.iter().copied())
+}
+
+/// [`counts`] of the circuit over `num_qubits` qubits whose gates `gates` yields, in one pass
+/// (the depth is [`critical_path`] with every gate lasting 1, counted in integers).
+pub fn counts_of(num_qubits: usize, gates: impl IntoIterator<Item = Gate>) -> Counts {
     let mut out = Counts::default();
-    for g in &c.gates {
+    let mut ready = vec![0usize; num_qubits];
+    let mut depth = 0usize;
+    for g in gates {
         match g {
             Gate::Measure(..) => out.measurements += 1,
             Gate::Swap(..) => {
@@ -31,8 +39,24 @@ pub fn counts(c: &Circuit) -> Counts {
             g if g.is_two_qubit() => out.two_qubit += 1,
             _ => out.one_qubit += 1,
         }
+        let end = match g {
+            Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => {
+                let end = ready[a as usize].max(ready[b as usize]) + 1;
+                ready[b as usize] = end;
+                end
+            }
+            _ => {
+                let q = g.qubits()[0] as usize;
+                ready[q] += 1;
+                ready[q]
+            }
+        };
+        if let Gate::Cx(a, _) | Gate::Cz(a, _) | Gate::Swap(a, _) = g {
+            ready[a as usize] = end;
+        }
+        depth = depth.max(end);
     }
-    out.depth = critical_path(c, |_| 1.0).round() as usize;
+    out.depth = depth;
     out
 }
 

@@ -1,8 +1,8 @@
 //! The plan: a machine-readable description of a compiled campaign (`DIR/plan.json`).
 //!
 //! In: what the compiler decided (Hamiltonian summary, formula, states, circuits and what each
-//! one reads). Out: a serde model written as JSON and read back by `verify`, `sample` and
-//! `estimate`. Invariant: the plan alone says how to recombine counts: every circuit lists its
+//! one reads). Out: a serde model written as JSON and read back by `verify`, `rehearse`,
+//! `allot`, `merge` and `estimate`. Invariant: the plan alone says how to recombine counts: every circuit lists its
 //! [`Read`]s, each naming the quantity it estimates and the classical bits whose parity gives it.
 //!
 //! Schema `phasewright-plan/3` (documented in README; a `phasewright-plan/2` plan is a valid

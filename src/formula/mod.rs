@@ -244,8 +244,8 @@ struct Builder<'a> {
 
 impl<'a> Builder<'a> {
     fn new(terms: &'a [(PauliString, f64)]) -> Builder<'a> {
-        let mut first: std::collections::HashMap<&PauliString, usize> =
-            std::collections::HashMap::with_capacity(terms.len());
+        let mut first: rustc_hash::FxHashMap<&PauliString, usize> = Default::default();
+        first.reserve(terms.len());
         let canon = terms
             .iter()
             .enumerate()

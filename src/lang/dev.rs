@@ -1,4 +1,5 @@
-//! The `.dev` device language (grammar: `grammar/device.ebnf`, examples: `grammar/device.md`).
+//! The `.dev` device language (grammar: `grammar/device.ebnf`; examples: `grammar/README.md`,
+//! "Device files").
 //!
 //! In: a file name and its text. Out: a [`Device`], or every problem found, each a
 //! [`Diagnostic`] with a caret under the offending text. Two stages: nom productions turn each

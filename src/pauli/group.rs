@@ -27,7 +27,7 @@
 //! groups, which costs gates, never correctness.
 
 use super::{Bits, PauliString};
-use std::collections::HashMap;
+use rustc_hash::FxHashMap as HashMap;
 
 /// Which pairs may share a group.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -119,7 +119,7 @@ impl Summary {
             },
             Compat::Commuting => Summary::Commuting {
                 members: Vec::new(),
-                touching: HashMap::new(),
+                touching: HashMap::default(),
             },
         }
     }

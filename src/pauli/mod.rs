@@ -147,6 +147,20 @@ impl PauliString {
         self.x.or(&self.z)
     }
 
+    /// True when the two strings act on the same qubits (compared word by word, nothing
+    /// built).
+    pub fn same_support(&self, other: &PauliString) -> bool {
+        let word = |v: &[u64], i: usize| v.get(i).copied().unwrap_or(0);
+        let (ax, az, bx, bz) = (
+            self.x.words(),
+            self.z.words(),
+            other.x.words(),
+            other.z.words(),
+        );
+        let n = ax.len().max(az.len()).max(bx.len()).max(bz.len());
+        (0..n).all(|i| word(ax, i) | word(az, i) == word(bx, i) | word(bz, i))
+    }
+
     /// The support in ascending order, without building a mask.
     pub fn support_qubits(&self) -> Vec<usize> {
         self.support_iter().collect()
@@ -358,10 +372,11 @@ impl PauliSum {
         self.terms.values().map(|c| c.abs()).sum()
     }
 
-    /// Drops terms with `|c| ≤ tol`; returns how many were dropped.
-    pub fn chop(&mut self, tol: f64) -> usize {
+    /// Drops the non-identity strings with `|c| < cutoff` (the constant stays); returns how
+    /// many were dropped. `convert --cutoff` and `compile` use it for integral round-off.
+    pub fn drop_below(&mut self, cutoff: f64) -> usize {
         let before = self.terms.len();
-        self.terms.retain(|_, c| c.abs() > tol);
+        self.terms.retain(|_, c| c.abs() >= cutoff);
         before - self.terms.len()
     }
 

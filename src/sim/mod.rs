@@ -4,7 +4,9 @@
 //! (`Vec<Complex64>`, qubit k is bit k of the index) and numbers computed from them. Every
 //! kernel touches each amplitude once per gate; above [`PAR_MIN_QUBITS`] qubits the passes are
 //! split over cores with rayon, in fixed chunks, so results do not depend on the thread count.
-//! `sim` never sees source text or files.
+//! `sim` never sees source text or input files; its one read is `/proc/meminfo`
+//! ([`available_memory_bytes`]), so a simulation larger than the machine's memory is refused
+//! before anything is allocated.
 //!
 //! Tolerance: kernels are exact up to floating-point rounding (≈1e-15 per gate, growing at most
 //! linearly with the gate count), far below the 1e-9 compile-error budget.

@@ -38,9 +38,15 @@ pub fn default_ladder(r: &Rotation) -> Vec<Qubit> {
         .collect()
 }
 
+/// The support of `r` ascending, inline up to 8 qubits (no allocation for local strings).
+fn support_small(r: &Rotation) -> smallvec::SmallVec<[Qubit; 8]> {
+    r.pauli.support_iter().map(|q| q as Qubit).collect()
+}
+
 /// Basis change that maps the factor on each support qubit to Z (step 1).
 pub fn basis_change(r: &Rotation, out: &mut Vec<Gate>) {
-    for q in default_ladder(r) {
+    for q in r.pauli.support_iter() {
+        let q = q as Qubit;
         match r.pauli.get(q as usize) {
             Pauli::X => out.push(Gate::H(q)),
             Pauli::Y => out.extend([Gate::Sdg(q), Gate::H(q)]),
@@ -51,7 +57,7 @@ pub fn basis_change(r: &Rotation, out: &mut Vec<Gate>) {
 
 /// Inverse of [`basis_change`] (step 4).
 pub fn basis_unchange(r: &Rotation, out: &mut Vec<Gate>) {
-    for q in default_ladder(r).into_iter().rev() {
+    for &q in support_small(r).iter().rev() {
         match r.pauli.get(q as usize) {
             Pauli::X => out.push(Gate::H(q)),
             Pauli::Y => out.extend([Gate::H(q), Gate::S(q)]),
@@ -63,8 +69,21 @@ pub fn basis_unchange(r: &Rotation, out: &mut Vec<Gate>) {
 /// Gates for `exp(-iθP)`, controlled by `control` if given, with the CNOT chain visiting
 /// `ladder` (a permutation of the support; its last element is the root).
 pub fn pauli_rotation_along(r: &Rotation, control: Option<Qubit>, ladder: &[Qubit]) -> Vec<Gate> {
-    let network: Vec<(Qubit, Qubit)> = ladder.windows(2).map(|w| (w[0], w[1])).collect();
-    pauli_rotation_network(r, control, &network, ladder.last().copied())
+    let mut out = Vec::new();
+    pauli_rotation_along_into(r, control, ladder, &mut out);
+    out
+}
+
+/// [`pauli_rotation_along`] appended to `out` (no allocation of its own for local strings).
+pub fn pauli_rotation_along_into(
+    r: &Rotation,
+    control: Option<Qubit>,
+    ladder: &[Qubit],
+    out: &mut Vec<Gate>,
+) {
+    let network: smallvec::SmallVec<[(Qubit, Qubit); 8]> =
+        ladder.windows(2).map(|w| (w[0], w[1])).collect();
+    pauli_rotation_network_into(r, control, &network, ladder.last().copied(), out)
 }
 
 /// The CNOTs of a balanced parity tree over `order` (root last): neighbours are paired level
@@ -97,12 +116,24 @@ pub fn pauli_rotation_network(
     network: &[(Qubit, Qubit)],
     root: Option<Qubit>,
 ) -> Vec<Gate> {
-    debug_assert_eq!(network.len() as u32 + 1, r.pauli.weight().max(1));
     let mut out = Vec::new();
+    pauli_rotation_network_into(r, control, network, root, &mut out);
+    out
+}
+
+/// [`pauli_rotation_network`] appended to `out`.
+pub fn pauli_rotation_network_into(
+    r: &Rotation,
+    control: Option<Qubit>,
+    network: &[(Qubit, Qubit)],
+    root: Option<Qubit>,
+    out: &mut Vec<Gate>,
+) {
+    debug_assert_eq!(network.len() as u32 + 1, r.pauli.weight().max(1));
     let Some(root) = root else {
-        return out;
+        return;
     };
-    basis_change(r, &mut out);
+    basis_change(r, out);
     out.extend(network.iter().map(|&(a, b)| Gate::Cx(a, b)));
     let angle = 2.0 * r.theta;
     match control {
@@ -115,8 +146,7 @@ pub fn pauli_rotation_network(
         ]),
     }
     out.extend(network.iter().rev().map(|&(a, b)| Gate::Cx(a, b)));
-    basis_unchange(r, &mut out);
-    out
+    basis_unchange(r, out);
 }
 
 /// Gates for `exp(-iθP)` with the default ladder.
@@ -148,7 +178,7 @@ pub struct Chain<'a> {
 impl Strategy for Chain<'_> {
     fn synthesize(&self, block: &Block, out: &mut Vec<Gate>) {
         for r in block.rotations {
-            out.extend(pauli_rotation_along(r, block.control, &(self.ladder)(r)));
+            pauli_rotation_along_into(r, block.control, &(self.ladder)(r), out);
         }
     }
 }
@@ -191,7 +221,7 @@ impl Strategy for Sharing {
                     }
                 }
             }
-            out.extend(pauli_rotation_along(r, block.control, &chain));
+            pauli_rotation_along_into(r, block.control, &chain, out);
             prev = Some((r, chain));
         }
     }
@@ -205,7 +235,7 @@ pub struct Tree;
 impl Strategy for Tree {
     fn synthesize(&self, block: &Block, out: &mut Vec<Gate>) {
         for r in block.rotations {
-            let mut order = default_ladder(r);
+            let mut order: Vec<Qubit> = default_ladder(r);
             if let (Some(d), true) = (block.distance, order.len() > 2) {
                 let mut path = vec![order.pop().expect("weight above 2")];
                 while !order.is_empty() {
@@ -222,17 +252,12 @@ impl Strategy for Tree {
             }
             // Up to weight 3 a chain is as shallow as any tree (depth w − 1 ≤ ⌈log₂ w⌉ + 1
             // only from w = 4 does the tree win), so the chain is kept there.
-            let network = if order.len() <= 3 {
+            let network: Vec<(Qubit, Qubit)> = if order.len() <= 3 {
                 order.windows(2).map(|w| (w[0], w[1])).collect()
             } else {
                 tree_network(&order)
             };
-            out.extend(pauli_rotation_network(
-                r,
-                block.control,
-                &network,
-                order.last().copied(),
-            ));
+            pauli_rotation_network_into(r, block.control, &network, order.last().copied(), out);
         }
     }
 }
@@ -245,7 +270,9 @@ pub fn hopping_pair(
     p: &crate::pauli::PauliString,
     q: &crate::pauli::PauliString,
 ) -> Option<(Qubit, Qubit)> {
-    if p.weight() != q.weight() || p.weight() < 2 || !p.commutes_with(q) {
+    // Equal supports first: one comparison of the masks rejects almost every pair of a long
+    // program without building anything.
+    if !p.same_support(q) || p.weight() < 2 || !p.commutes_with(q) {
         return None;
     }
     let (sp, sq) = (p.support_qubits(), q.support_qubits());
@@ -383,7 +410,16 @@ pub fn pair_rotation(
             ]),
         }
     }
-    out.extend([Gate::H(a), Gate::Cx(a, c), Gate::Sxdg(a), Gate::Sxdg(c)]);
+    // sx† = x·sx (sx² = x exactly): `sxdg` is not in stdgates.inc, so the all-to-all files
+    // keep to gates the standard library declares (OpenQASM 3 specification, stdgates.inc).
+    out.extend([
+        Gate::H(a),
+        Gate::Cx(a, c),
+        Gate::Sx(a),
+        Gate::X(a),
+        Gate::Sx(c),
+        Gate::X(c),
+    ]);
     if let Some(b) = root {
         out.push(Gate::Cz(a, b));
     }
@@ -433,11 +469,9 @@ impl Strategy for Pairs<'_> {
                         block.distance,
                     ));
                 }
-                None => out.extend(pauli_rotation_along(
-                    &rs[i],
-                    block.control,
-                    &(self.ladder)(&rs[i]),
-                )),
+                None => {
+                    pauli_rotation_along_into(&rs[i], block.control, &(self.ladder)(&rs[i]), out)
+                }
             }
         }
     }

@@ -27,7 +27,7 @@
 //! What it does not give: the ideal and exact overlaps (no amplitudes are computed).
 
 use super::normal::{self, DiffKind};
-use super::{canonicalise, Tableau, Tail};
+use super::{canonicalise_into, canonicalise_turning, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
 use crate::family::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
@@ -370,9 +370,12 @@ impl Claim {
         let mut fb = normal::Builder::new();
         // With control copies, qubits outside the initial layout start in |0⟩: a rotation
         // whose axis holds only Z (or nothing) there acts on them as +1, so those Z factors
-        // are dropped; an X or Y there is a difference (see `zero_input_free`).
+        // are dropped; an X or Y there is a difference (see `zero_input_free`). The quarter
+        // turns a merge hands back carry the stripped axis into the Clifford: every rotation
+        // kept is diagonal on those qubits, so the |0⟩ inputs stay |0⟩ up to that point and the
+        // stripped and unstripped turns agree there.
         let mut unstrippable: Option<(u32, PauliString)> = None;
-        let ftail = canonicalise(file, width, &mut |mut r| {
+        let ftail = canonicalise_turning(file, width, &mut |mut r| {
             if let Some(zero) = &self.zero_inputs {
                 match zero_input_free(&r.axis, zero) {
                     Some(axis) => r.axis = axis,
@@ -380,7 +383,7 @@ impl Claim {
                         if unstrippable.is_none() {
                             unstrippable = Some((r.gate, r.axis.clone()));
                         }
-                        return;
+                        return None;
                     }
                 }
             }
@@ -391,7 +394,7 @@ impl Claim {
             message: u.message,
         })?;
         let mut pb = normal::Builder::new();
-        let ptail = canonicalise(&placed, width, &mut |r| pb.push(r))
+        let ptail = canonicalise_into(&placed, width, &mut pb)
             .map_err(|u| CannotCheck::plan(format!("the plan's own circuit: {}", u.message)))?;
         let (fnf, pnf) = (fb.finish(), pb.finish());
         let names = Names::new(&init, self.n);

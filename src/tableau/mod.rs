@@ -202,6 +202,42 @@ impl Tableau {
         self.sign[dst] = p == 2;
     }
 
+    /// `C ← C·Q` for the quarter turns `Q = exp(−i·k·π/4·P)` (`k` mod 4), `P` a Hermitian
+    /// string in the front frame (the frame of the rotations already moved in front). Each row
+    /// `ρ = C† G C` becomes `Q† ρ Q`: unchanged when `ρ` commutes with `P`; otherwise, from
+    /// `e^{iθP} ρ = ρ e^{−iθP}` for anticommuting `ρ`, `Q† ρ Q = ρ·e^{−2iθP} = ρ·(cos 2θ −
+    /// i·sin 2θ·P)` with `θ = kπ/4`: `−i·ρP` for `k = 1`, `−ρ` for `k = 2`, `i·ρP` for `k = 3`.
+    pub fn turn_front(&mut self, p: &PauliString, k: u8) {
+        let k = k % 4;
+        if k == 0 {
+            return;
+        }
+        for r in 0..2 * self.n {
+            let rho = self.string_of(r);
+            if rho.commutes_with(p) {
+                continue;
+            }
+            if k == 2 {
+                self.flip(r);
+                continue;
+            }
+            let (phase, prod) = rho.mul(p);
+            let i = num_complex::Complex64::new(0.0, 1.0);
+            let v = phase * if k == 1 { -i } else { i } * if self.sign[r] { -1.0 } else { 1.0 };
+            debug_assert!(
+                v.im.abs() < 0.5,
+                "anticommuting Hermitian strings: ρP is ±i·R"
+            );
+            let w = self.words;
+            let (xw, zw) = (prod.x.words(), prod.z.words());
+            for j in 0..w {
+                self.x[r * w + j] = xw.get(j).copied().unwrap_or(0);
+                self.z[r * w + j] = zw.get(j).copied().unwrap_or(0);
+            }
+            self.sign[r] = v.re < 0.0;
+        }
+    }
+
     fn swap_rows(&mut self, a: usize, b: usize) {
         let w = self.words;
         for i in 0..w {
@@ -340,6 +376,32 @@ pub fn canonicalise(
     n: usize,
     sink: &mut dyn FnMut(Rotation),
 ) -> Result<Tail, Unsupported> {
+    canonicalise_turning(c, n, &mut |r| {
+        sink(r);
+        None
+    })
+}
+
+/// [`canonicalise`] into a [`normal::Builder`]: a merge there whose angle leaves `[−π/4, π/4]`
+/// hands its quarter turns back ([`normal::Builder::push`]), and they join the Clifford here
+/// (`C ← C·Q`, [`Tableau::turn_front`]), so every later rotation and the final Clifford see
+/// them. Two circuits that split the same merged rotation differently (one `rz(0.8)` against
+/// two `rz(0.4)`) then reach the same form and the same final Clifford.
+pub fn canonicalise_into(
+    c: &Circuit,
+    n: usize,
+    builder: &mut normal::Builder,
+) -> Result<Tail, Unsupported> {
+    canonicalise_turning(c, n, &mut |r| builder.push(r))
+}
+
+/// The walk behind both: `sink` may return quarter turns `exp(−i·k·π/4·P)` that sit right
+/// after the rotations seen so far (in front of the Cliffords).
+fn canonicalise_turning(
+    c: &Circuit,
+    n: usize,
+    sink: &mut dyn FnMut(Rotation) -> Option<normal::QuarterTurn>,
+) -> Result<Tail, Unsupported> {
     let mut t = Tableau::identity(n);
     let mut measured = vec![false; n];
     let mut measurements = Vec::new();
@@ -377,11 +439,13 @@ pub fn canonicalise(
             let (k, r) = split_angle(angle);
             if r.abs() > ZERO_ANGLE_RAD {
                 let (neg, p) = t.axis_image(axis, a);
-                sink(Rotation {
+                if let Some(q) = sink(Rotation {
                     axis: p,
                     angle: if neg { -r } else { r },
                     gate: i as u32,
-                });
+                }) {
+                    t.turn_front(&q.axis, q.turns);
+                }
             }
             t.quarter_turns(axis, a, k);
             Ok(())
@@ -538,6 +602,110 @@ mod tests {
         fn tableau_agrees_with_dense_conjugation(gates in proptest::collection::vec(clifford_gate(), 0..12)) {
             dense_image_matches(&gates, 3);
         }
+    }
+
+    /// Normal form and final Clifford of a circuit through [`canonicalise_into`].
+    fn form_of(c: &Circuit) -> (normal::NormalForm, Tableau) {
+        let mut b = normal::Builder::new();
+        let tail = canonicalise_into(c, c.num_qubits, &mut b).unwrap();
+        (b.finish(), tail.clifford)
+    }
+
+    /// True when the two forms agree entry by entry (axes exactly, angles to the tolerance).
+    fn forms_agree(a: &normal::NormalForm, b: &normal::NormalForm) -> bool {
+        normal::differences(a, b).is_empty()
+    }
+
+    /// `|⟨U e_j, V e_j⟩|` summed over the basis and compared with `2^n`, plus equal relative
+    /// phases across columns: `U = e^{iφ}·V` exactly when every column overlap is the same
+    /// unit-modulus number.
+    fn equal_up_to_phase(u: &Circuit, v: &Circuit) -> bool {
+        let (cu, cv) = (unitary_columns(u), unitary_columns(v));
+        let first = cv[0].inner(&cu[0]);
+        cu.iter()
+            .zip(&cv)
+            .all(|(a, b)| (b.inner(a) - first).norm() < 1e-9 && (first.norm() - 1.0).abs() < 1e-9)
+    }
+
+    fn rotation_gate() -> impl Strategy<Value = Gate> {
+        (0u32..3, 0usize..3, -1.5f64..1.5).prop_map(|(a, k, v)| match k {
+            0 => Gate::Rz(a, v),
+            1 => Gate::Rx(a, v),
+            _ => Gate::Ry(a, v),
+        })
+    }
+
+    fn mixed_gate() -> impl Strategy<Value = Gate> {
+        prop_oneof![clifford_gate(), rotation_gate()]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 128, .. ProptestConfig::default() })]
+        /// A rotation written whole or as two halves reaches the same normal form and the same
+        /// final Clifford, whatever side of ±π/4 the halves fall on (merged entries split their
+        /// quarter turns off as single rotations do); the unitaries agree by simulation.
+        #[test]
+        fn halving_rotations_keeps_the_form(gates in proptest::collection::vec(mixed_gate(), 0..14)) {
+            let mut whole = Circuit::new(3, 0);
+            let mut halves = Circuit::new(3, 0);
+            for g in &gates {
+                whole.push(*g);
+                match *g {
+                    Gate::Rz(a, v) => halves.extend([Gate::Rz(a, v / 2.0), Gate::Rz(a, v / 2.0)]),
+                    Gate::Rx(a, v) => halves.extend([Gate::Rx(a, v / 2.0), Gate::Rx(a, v / 2.0)]),
+                    Gate::Ry(a, v) => halves.extend([Gate::Ry(a, v / 2.0), Gate::Ry(a, v / 2.0)]),
+                    other => halves.push(other),
+                }
+            }
+            prop_assert!(equal_up_to_phase(&whole, &halves));
+            let (fw, cw) = form_of(&whole);
+            let (fh, ch) = form_of(&halves);
+            prop_assert!(forms_agree(&fw, &fh), "{:?}", normal::differences(&fw, &fh));
+            prop_assert_eq!(cw, ch);
+        }
+
+        /// Soundness: a quarter turn added to one rotation (a different unitary) is never
+        /// reported as the same form and Clifford.
+        #[test]
+        fn an_extra_quarter_turn_is_seen(gates in proptest::collection::vec(mixed_gate(), 1..14), at in 0usize..14) {
+            let rot_idx: Vec<usize> = gates.iter().enumerate()
+                .filter(|(_, g)| matches!(g, Gate::Rz(..) | Gate::Rx(..) | Gate::Ry(..)))
+                .map(|(i, _)| i).collect();
+            prop_assume!(!rot_idx.is_empty());
+            let i = rot_idx[at % rot_idx.len()];
+            let mut a = Circuit::new(3, 0);
+            let mut b = Circuit::new(3, 0);
+            for (j, g) in gates.iter().enumerate() {
+                a.push(*g);
+                let g2 = match (*g, j == i) {
+                    (Gate::Rz(q, v), true) => Gate::Rz(q, v + FRAC_PI_2),
+                    (Gate::Rx(q, v), true) => Gate::Rx(q, v + FRAC_PI_2),
+                    (Gate::Ry(q, v), true) => Gate::Ry(q, v + FRAC_PI_2),
+                    (other, _) => other,
+                };
+                b.push(g2);
+            }
+            prop_assert!(!equal_up_to_phase(&a, &b));
+            let (fa, ca) = form_of(&a);
+            let (fb, cb) = form_of(&b);
+            prop_assert!(!(forms_agree(&fa, &fb) && ca == cb));
+        }
+    }
+
+    #[test]
+    fn two_halves_past_an_eighth_turn_match_the_whole_rotation() {
+        // rz(0.8) against rz(0.4)·rz(0.4), then an anticommuting rx: the whole rotation splits
+        // as s · rz(0.8 − π/2); the halves merge to 0.8 and now split the same way, so the
+        // rx after them is conjugated by the same s (rx → ry) in both.
+        let mut whole = Circuit::new(1, 0);
+        whole.extend([Gate::Rz(0, 0.8), Gate::Rx(0, 0.3)]);
+        let mut halves = Circuit::new(1, 0);
+        halves.extend([Gate::Rz(0, 0.4), Gate::Rz(0, 0.4), Gate::Rx(0, 0.3)]);
+        let (fw, cw) = form_of(&whole);
+        let (fh, ch) = form_of(&halves);
+        assert!(forms_agree(&fw, &fh), "{:?}", normal::differences(&fw, &fh));
+        assert_eq!(cw, ch);
+        assert!((fh.layers[0][0].angle - (0.8 - FRAC_PI_2)).abs() < 1e-12);
     }
 
     #[test]

@@ -5,7 +5,10 @@
 //! gate indices every entry came from. Invariant: two sequences that differ only by exchanging
 //! neighbouring commuting rotations, by splitting or merging rotations about one axis that may
 //! be brought together that way, or by rotations whose angles cancel, have the same normal form;
-//! and the product of the layers, in order, is the product of the input.
+//! and the product of the layers, in order, is the product of the input — times the quarter
+//! turns that [`Builder::push`] hands back when a merged angle leaves `[−π/4, π/4]` (the
+//! caller folds them into its Clifford, so merged entries keep the range that single rotations
+//! have after the split of [`super::split_angle`]).
 //!
 //! ## The idea
 //!
@@ -90,6 +93,13 @@ impl NormalForm {
     }
 }
 
+/// Quarter turns `exp(−i·turns·π/4·axis)` (`turns` in 1..4) split off a merged entry.
+#[derive(Clone, Debug, PartialEq)]
+pub struct QuarterTurn {
+    pub axis: PauliString,
+    pub turns: u8,
+}
+
 struct Slot {
     entry: Entry,
     layer: u32,
@@ -163,19 +173,31 @@ impl Builder {
         Builder::default()
     }
 
-    /// Adds the next rotation in time order.
-    pub fn push(&mut self, r: Rotation) {
+    /// Adds the next rotation in time order. When it merges into an entry whose angle then
+    /// leaves `[−π/4, π/4]`, the entry keeps the residual and the quarter turns are returned:
+    /// they stand right after everything pushed so far (every entry above the merged one
+    /// commutes with its axis, so they move to the top of the form freely), and the caller
+    /// must conjugate every later rotation by them ([`super::canonicalise_into`] does, through
+    /// its Clifford). Entries then keep the range single rotations have after
+    /// [`super::split_angle`], whatever way a circuit split a rotation into gates.
+    pub fn push(&mut self, r: Rotation) -> Option<QuarterTurn> {
         self.input += 1;
-        self.place(Entry {
-            axis: r.axis,
-            angle: r.angle,
-            gates: vec![r.gate],
-        });
+        self.place(
+            Entry {
+                axis: r.axis,
+                angle: r.angle,
+                gates: vec![r.gate],
+            },
+            true,
+        )
     }
 
-    fn place(&mut self, e: Entry) {
+    /// Places `e`; with `split`, a merge beyond `±π/4` gives back its quarter turns. The
+    /// rebuild in [`Builder::finish`] places without splitting (nothing could take the turns
+    /// there; the form stays exact, at worst not canonical).
+    fn place(&mut self, e: Entry, split: bool) -> Option<QuarterTurn> {
         if e.axis.is_identity() || e.angle.abs() <= ZERO_ANGLE_RAD {
-            return;
+            return None;
         }
         let mut target = 0usize;
         for l in (0..self.layers.len()).rev() {
@@ -197,6 +219,17 @@ impl Builder {
             if slot.layer as usize == target {
                 slot.entry.angle += e.angle;
                 slot.entry.gates.extend(e.gates);
+                let mut turned = None;
+                if split {
+                    let (k, r) = super::split_angle(slot.entry.angle);
+                    if k != 0 {
+                        slot.entry.angle = r;
+                        turned = Some(QuarterTurn {
+                            axis: slot.entry.axis.clone(),
+                            turns: k,
+                        });
+                    }
+                }
                 if slot.entry.angle.abs() <= ZERO_ANGLE_RAD {
                     slot.alive = false;
                     let members = &mut self.layers[target].members;
@@ -209,7 +242,7 @@ impl Builder {
                     self.vanished.push(slot.entry.clone());
                     self.cancelled = true;
                 }
-                return;
+                return turned;
             }
         }
         let idx = self.slots.len() as u32;
@@ -223,6 +256,7 @@ impl Builder {
             layer: target as u32,
             alive: true,
         });
+        None
     }
 
     /// The normal form of everything pushed.
@@ -244,14 +278,17 @@ impl Builder {
             for i in order {
                 let s = &mut slots[i as usize];
                 if s.alive {
-                    next.place(std::mem::replace(
-                        &mut s.entry,
-                        Entry {
-                            axis: PauliString::IDENTITY,
-                            angle: 0.0,
-                            gates: Vec::new(),
-                        },
-                    ));
+                    next.place(
+                        std::mem::replace(
+                            &mut s.entry,
+                            Entry {
+                                axis: PauliString::IDENTITY,
+                                angle: 0.0,
+                                gates: Vec::new(),
+                            },
+                        ),
+                        false,
+                    );
                 }
             }
             self = next;
@@ -283,7 +320,17 @@ impl Builder {
 pub fn normal_form(rotations: impl IntoIterator<Item = Rotation>) -> NormalForm {
     let mut b = Builder::new();
     for r in rotations {
-        b.push(r);
+        // Without a Clifford to take quarter turns, merged angles stay whole: the product of
+        // the layers is then exactly the product of the input.
+        b.input += 1;
+        b.place(
+            Entry {
+                axis: r.axis,
+                angle: r.angle,
+                gates: vec![r.gate],
+            },
+            false,
+        );
     }
     b.finish()
 }

@@ -122,7 +122,7 @@ fn push_coefficient(out: &mut Vec<u8>, c: f64, buf: &mut zmij::Buffer) {
 /// The significant digits of a non-negative number printed by `zmij` (any of its layouts:
 /// `123.45`, `0.00012`, `1.5e-7`, `1e20`), without leading or trailing zeros, their count, and
 /// the position of the decimal point: the value is `0.d₁d₂…dₙ × 10^point`.
-fn shortest_digits(s: &str) -> ([u8; 24], usize, i32) {
+pub(crate) fn shortest_digits(s: &str) -> ([u8; 24], usize, i32) {
     let mut digits = [0u8; 24];
     let mut len = 0usize;
     let mut point: i32 = 0;
