@@ -67,8 +67,14 @@ fn check_campaign(plan: &Plan, programs: &[String], dev: &Device) -> usize {
         let (logical, _) = claim.logical_circuit(e).unwrap();
         let m = logical.num_qubits;
         let want = run(&logical, State::zero(m));
-        let got = run(c, State::zero(c.num_qubits));
         let fin = &e.final_layout;
+        // A file names only the physical qubits it touches (a `k = 0` file may leave the
+        // highest placed qubit alone): simulate on at least the placed ones.
+        let mut c = c.clone();
+        c.num_qubits = c
+            .num_qubits
+            .max(fin.iter().map(|&p| p as usize + 1).max().unwrap_or(0));
+        let got = run(&c, State::zero(c.num_qubits));
         assert_eq!(fin.len(), m);
         let mut overlap = Complex64::new(0.0, 0.0);
         for (b, a) in want.amps.iter().enumerate() {
@@ -86,7 +92,7 @@ fn check_campaign(plan: &Plan, programs: &[String], dev: &Device) -> usize {
             e.id,
             overlap.norm()
         );
-        match claim.check(e, c).unwrap() {
+        match claim.check(e, &c).unwrap() {
             Verdict::Equivalent(_) => {}
             Verdict::Differs(r) => panic!("{}: tableau: {}", e.id, r.message),
         }
@@ -388,4 +394,93 @@ fn the_tableau_method_refuses_a_copy_left_set() {
         Verdict::Differs(_) => {}
         Verdict::Equivalent(_) => panic!("a copy left set was not found"),
     }
+}
+
+/// The cost table says where the control is spread: a `copies` column (each circuit's
+/// `costs.control_copies`, at least the fan-out's copies in every circuit with a Trotter step,
+/// none at k = 0) and the most in the total row; the CNOTs of the fan-out and its undoing are
+/// in the `2q gates` count (checked against the file's own two-qubit gates). With the ancilla
+/// alone there is no such column. (The table's layout is the project's own, README "plan.json"
+/// and cost table; nothing outside the project defines it.)
+#[test]
+fn the_cost_table_reports_the_copies() {
+    let mut h = PauliSum::new(3);
+    h.add(two(0, Pauli::Z, 1, Pauli::Z), -1.0);
+    h.add(two(1, Pauli::Z, 2, Pauli::Z), -1.0);
+    for q in 0..3 {
+        h.add(PauliString::single(q, Pauli::X), 0.7);
+    }
+    let dev = device(6, &lattice::grid(2, 3));
+    let spec = Spec {
+        control: Control::Evolution,
+        family: Family::Overlap,
+        order: Order::Second,
+        dt: 0.1,
+        points: 2,
+        steps_per_dt: 1,
+        states: vec!["000".into()],
+    };
+    let compile = |cfg: &RouteConfig| {
+        compile_at(
+            &h,
+            "chain3",
+            &spec,
+            &Target::Device {
+                device: &dev,
+                config: cfg,
+            },
+            OptLevel::MAX,
+        )
+        .unwrap()
+    };
+    let out = compile(&forced());
+    let made = out.plan.device.as_ref().unwrap().copy_placement.len();
+    assert!(made >= 1, "forced: at least one copy");
+    let table = phasewright::app::compile::cost_table(&out.plan);
+    let mut lines = table.lines();
+    let head: Vec<&str> = lines.next().unwrap().split_whitespace().collect();
+    assert_eq!(head.last(), Some(&"copies"), "{table}");
+    for (e, text) in out.plan.circuits.iter().zip(&out.programs) {
+        if e.k == 0 {
+            assert_eq!(e.costs.control_copies, 0, "{}", e.id);
+        } else {
+            assert!(e.costs.control_copies >= made, "{}", e.id);
+        }
+        let row = table
+            .lines()
+            .find(|l| l.split_whitespace().next() == Some(e.id.as_str()))
+            .unwrap();
+        assert_eq!(
+            row.split_whitespace().last(),
+            Some(e.costs.control_copies.to_string().as_str()),
+            "{row}"
+        );
+        let c = phasewright::qasm::read("c.qasm", text).unwrap().circuit;
+        let cx = c.gates.iter().filter(|g| g.is_two_qubit()).count();
+        assert_eq!(cx, e.costs.two_qubit, "{}", e.id);
+    }
+    let most = out
+        .plan
+        .circuits
+        .iter()
+        .map(|e| e.costs.control_copies)
+        .max();
+    let total = table.lines().find(|l| l.starts_with("total")).unwrap();
+    assert!(
+        total.ends_with(&format!("max {}", most.unwrap())),
+        "{total}"
+    );
+    let plain = compile(&RouteConfig {
+        cat: false,
+        ..RouteConfig::default()
+    });
+    let table = phasewright::app::compile::cost_table(&plain.plan);
+    assert!(!table.lines().next().unwrap().contains("copies"), "{table}");
+    assert!(plain
+        .plan
+        .device
+        .as_ref()
+        .unwrap()
+        .copy_placement
+        .is_empty());
 }

@@ -778,7 +778,12 @@ pub fn cost_json(plan: &Plan) -> serde_json::Value {
         "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
         "caution": "estimates depend on the device calibration; validate against trusted methods",
     });
-    let most = plan.circuits.iter().map(|e| e.costs.control_copies).max().unwrap_or(0);
+    let most = plan
+        .circuits
+        .iter()
+        .map(|e| e.costs.control_copies)
+        .max()
+        .unwrap_or(0);
     if most > 0 {
         json["total"]["max_control_copies"] = serde_json::json!(most);
     }

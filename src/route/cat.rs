@@ -245,7 +245,9 @@ impl<'a> Engine<'a> {
             if d <= 1 {
                 return;
             }
-            let mut best: Option<((u32, u32, u32), (u32, u32))> = None;
+            // (cost of the hop, its sites in order) and the hop.
+            type Keyed = ((u32, u32, u32), (u32, u32));
+            let mut best: Option<Keyed> = None;
             for (from, to) in [(pa, pb), (pb, pa)] {
                 for &nb in &self.nbrs[from as usize] {
                     if self.dev.distance(nb, to) + 1 != d {
@@ -899,6 +901,7 @@ fn controls_connected(layout: &[u32], n: usize, dev: &Device) -> bool {
 /// whose controls are not connected are refused (the fan-out runs on coupled pairs). The
 /// temperature falls geometrically from 4 to 0.05 CNOTs over [`ANNEAL_MOVES`] moves (Kirkpatrick,
 /// Gelatt & Vecchi, Science 220, 671 (1983)). Deterministic for a given `seed`.
+#[allow(clippy::too_many_arguments)]
 fn anneal(
     program: &[Rotation],
     n: usize,
@@ -1157,8 +1160,8 @@ mod tests {
                 layout.push(free[rng.gen_range(0..free.len())]);
             }
             let r = assert_exact(&program, n, &layout, &dev);
-            for k in 0..4 {
-                methods[k] += r.methods[k];
+            for (m, k) in methods.iter_mut().zip(r.methods) {
+                *m += k;
             }
         }
         assert!(methods.iter().all(|&m| m > 0), "{methods:?}");
