@@ -21,6 +21,10 @@
 //! - shuffled lattice models: layout edges recovered (terms whose qubits start coupled);
 //! - `d2 ≤ 0.7 × 2q` on the lattice models.
 //!
+//! Level 3 includes the spread control (`route::cat`, copies of the ancilla on unused qubits,
+//! kept only when the campaign emits fewer two-qubit gates); `-- nocat` leaves it out, to
+//! measure what it changes.
+//!
 //! Run with `cargo bench --bench fewer_gates` (add `-- quick` for levels 2 and 3 only;
 //! `MODELS=dense12,h4` for some models only, `DEVICES=a2a,grid` for some devices).
 //! Deterministic: fixed seeds throughout.
@@ -238,7 +242,7 @@ struct Row {
     depth2: usize,
 }
 
-fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel) -> Row {
+fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel, cat: bool) -> Row {
     let spec = Spec {
         family: Family::Overlap,
         order: Order::Second,
@@ -248,7 +252,10 @@ fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel) -> Row {
         states: vec!["0".repeat(h.num_qubits)],
         control: phasewright::family::control::Control::Evolution,
     };
-    let cfg = RouteConfig::default();
+    let cfg = RouteConfig {
+        cat,
+        ..RouteConfig::default()
+    };
     let target = match dev {
         Some(device) => Target::Device {
             device,
@@ -299,6 +306,7 @@ fn edges_recovered(h: &PauliSum, dev: &Device) -> (usize, usize) {
 
 fn main() {
     let quick = std::env::args().any(|a| a == "quick");
+    let cat = !std::env::args().any(|a| a == "nocat");
     let levels: Vec<u8> = if quick { vec![2, 3] } else { vec![0, 1, 2, 3] };
     let lattice_models = ["ising12", "ising20", "xxz12", "heis4x4", "ising3x4"];
     let mut suite: Vec<(&str, PauliSum)> = vec![
@@ -356,7 +364,7 @@ fn main() {
                 depth2: 0,
             };
             for &l in &levels {
-                let r = measure(h, dev.as_ref(), OptLevel::new(l).expect("level"));
+                let r = measure(h, dev.as_ref(), OptLevel::new(l).expect("level"), cat);
                 print!("{:>8}{:>6}", r.two_qubit, r.depth2);
                 if dev.is_none() && l == 0 {
                     a2a_l0 = r.two_qubit;

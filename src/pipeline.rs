@@ -45,11 +45,23 @@
 //! (`synth::Pairs`) and with one greedy Clifford network per commuting run (`synth::Groups`)
 //! on every target, each one more candidate scored by what is emitted.
 //!
+//! At level 3 on a device, controlled campaigns (`Control::Evolution`, Hadamard-test families)
+//! also get the *spread control* candidate (`route::cat`, `route::plan_and_route_cat_step`):
+//! copies of the ancilla on spare qubits (a cat state made by a fan-out after the ancilla's
+//! `h`), each controlled rotation controlled by the copy beside it. Both campaigns are emitted
+//! whole and the one with fewer two-qubit gates in all (then the lower summed depth) is kept,
+//! so the candidate never makes a campaign worse. Its circuits add the fan-out to every prefix
+//! and its undoing (at the layout where the steps end) to every suffix of a circuit with a
+//! step; plan.json lists the copies' sites (`device.copy_placement`), marks that unused qubits
+//! are used (`device.spare_qubits`, which `verify --method tableau` reads as "qubits outside
+//! the placement start in |0⟩") and counts each circuit's copies (`costs.control_copies`).
+//!
 //! The levels (`compile --opt`): 0 is the textbook pipeline (one ladder per rotation of the
 //! unmerged formula in term order, one greedy layout, plain SWAP routing, nothing cancelled
 //! beyond what lowering to native gates must do); 1 merges the formula and cancels; 2 adds the
 //! layout search and the device-aware order inside commuting groups; 3 (the default) adds
-//! trees, the sweep schedule and exact embeddings, each as one more candidate scored by the
+//! trees, the sweep schedule, exact embeddings and the spread control, each as one more
+//! candidate scored by the
 //! two-qubit gates it emits, so that on a device a level never keeps a worse candidate than
 //! the level below it found. At utility scale (a first routing above 20,000 two-qubit gates
 //! plus SWAPs, `route::EXTRAS_MAX_UNIT`) the extras are skipped and levels 2 and 3 coincide:
@@ -126,6 +138,7 @@ impl OptLevel {
         c.sweep = self.0 >= 3;
         c.embed = self.0 >= 3;
         c.pairs = self.0 >= 3;
+        c.cat = self.0 >= 3 && base.cat;
         c
     }
 }
@@ -671,85 +684,37 @@ pub fn compile_at(
                 }
             }
             .map_err(CompileError::DoesNotFit)?;
-            if cfg!(debug_assertions) {
-                // Pass `plan and route the step`: every piece on coupled pairs (pieces of two
-                // and three steps between them hold every distinct piece).
-                let coupled = |a: u32, b: u32| device.coupled(a, b);
-                let rules = Rules {
-                    coupled: Some(&coupled),
-                    native: None,
-                };
-                for piece in step.pieces(2).into_iter().chain(step.pieces(3)) {
-                    verify_ir(piece, &rules).map_err(|e| IrError {
-                        message: format!("after pass `plan and route the step`: {}", e.message),
-                        ..e
-                    })?;
-                }
-            }
-            let info = DeviceInfo {
-                name: device.name.clone(),
-                num_qubits: device.num_qubits,
-                native: device.native.names.clone(),
-                initial_layout: tp.initial_layout.clone(),
-            };
-            // The control-free form's controlled preparations, rebuilt as fan-out trees on
-            // the layouts they meet (`family::control::fanout_prep`), when that is cheaper.
-            let preps = (spec.control == Control::Prep && spec.family != Family::Evolution)
-                .then(|| FanOuts::new(&spec.states, h.num_qubits, &step, device));
-            let all_frames = match &preps {
-                Some(p) => frames_by(h, spec, &|state: &str, at: PrepAt| p.get(state, at)),
-                None => all_frames,
-            };
-            // What the plan records of them: the CNOTs, when they are not the chain the
-            // plan's form implies (`tableau::equiv` rebuilds the claim from them).
-            let fanout_of = |state: &str, k: usize| -> Option<FanOut> {
-                let p = preps.as_ref()?;
-                let chain = crate::family::control::controlled_prep(
-                    state,
-                    h.num_qubits as crate::circuit::Qubit,
-                    crate::family::control::Joins::Neighbours,
-                );
-                let before = p.get(state, PrepAt::Start);
-                let after = p.get(
-                    state,
-                    PrepAt::End {
-                        steps: k * spec.steps_per_dt.max(1),
-                    },
-                );
-                if before == chain && after == chain {
-                    return None;
-                }
-                FanOut::of(&before, &after)
-            };
-            let campaign = DeviceCampaign::new(step, &tp, device, config)?;
-            let done = all_frames
-                .into_par_iter()
-                .map(|f| {
-                    let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
-                    let e = campaign.emit(
-                        &f.prefix,
-                        f.k * spec.steps_per_dt,
-                        &f.suffix,
-                        f.num_clbits,
-                        &comments,
-                    )?;
-                    Ok(Finished {
-                        fanout: fanout_of(&spec.states[f.state], f.k),
-                        id: f.id,
-                        k: f.k,
-                        time: f.time,
-                        part: f.part,
-                        state: f.state,
-                        group: f.group,
-                        reads: f.reads,
-                        num_qubits: device.num_qubits,
-                        num_clbits: f.num_clbits,
-                        output: Output::Text(e.text),
-                        costs: e.costs,
-                        final_layout: e.final_layout,
-                    })
+            // Level 3 also offers the step with the control spread over copies of the ancilla
+            // on spare sites (`route::cat`); it is kept below only if the campaign it emits
+            // has fewer two-qubit gates.
+            let cat = (config.cat
+                && spec.control == Control::Evolution
+                && spec.family != Family::Evolution)
+                .then(|| {
+                    crate::route::plan_and_route_cat_step(
+                        h, device, config, spec.order, step_dt, &tp,
+                    )
                 })
-                .collect::<Result<Vec<_>, IrError>>()?;
+                .flatten();
+            let (info, done) = match cat {
+                None => device_circuits(h, spec, device, config, &tp, step, all_frames)?,
+                Some((cat_tp, cat_step)) => {
+                    let plain =
+                        device_circuits(h, spec, device, config, &tp, step, all_frames.clone())?;
+                    let spread =
+                        device_circuits(h, spec, device, config, &cat_tp, cat_step, all_frames)?;
+                    let total = |d: &[Finished]| -> (usize, usize) {
+                        d.iter()
+                            .map(|f| (f.costs.two_qubit, f.costs.depth))
+                            .fold((0, 0), |a, b| (a.0 + b.0, a.1 + b.1))
+                    };
+                    if config.cat_force || total(&spread.1) < total(&plain.1) {
+                        spread
+                    } else {
+                        plain
+                    }
+                }
+            };
             Ok(finish(
                 h,
                 source,
@@ -760,6 +725,129 @@ pub fn compile_at(
             ))
         }
     }
+}
+
+/// The circuits of a device campaign from its routed step (`route::DeviceCampaign`): each
+/// frame's preparation and readout routed and stitched around the step's pieces; with control
+/// copies (`tp.copies > 0`, `route::cat`) the fan-out follows the ancilla's `h` and its undoing
+/// (at the layout where the steps end) precedes the readout, in every circuit with a step.
+fn device_circuits(
+    h: &PauliSum,
+    spec: &Spec,
+    device: &Device,
+    config: &RouteConfig,
+    tp: &crate::route::TargetPlan,
+    step: crate::route::RoutedStep,
+    all_frames: Vec<crate::family::Frame>,
+) -> Result<(DeviceInfo, Vec<Finished>), IrError> {
+    let n = h.num_qubits;
+    if cfg!(debug_assertions) {
+        // Pass `plan and route the step`: every piece on coupled pairs (pieces of two
+        // and three steps between them hold every distinct piece).
+        let coupled = |a: u32, b: u32| device.coupled(a, b);
+        let rules = Rules {
+            coupled: Some(&coupled),
+            native: None,
+        };
+        for piece in step.pieces(2).into_iter().chain(step.pieces(3)) {
+            verify_ir(piece, &rules).map_err(|e| IrError {
+                message: format!("after pass `plan and route the step`: {}", e.message),
+                ..e
+            })?;
+        }
+    }
+    // The plan places the system qubits and the ancilla; the copies it lists apart.
+    let placed = tp.initial_layout.len() - tp.copies;
+    let info = DeviceInfo {
+        name: device.name.clone(),
+        num_qubits: device.num_qubits,
+        native: device.native.names.clone(),
+        initial_layout: tp.initial_layout[..placed].to_vec(),
+        copy_placement: tp.initial_layout[placed..].to_vec(),
+        spare_qubits: tp.spread,
+    };
+    // The control-free form's controlled preparations, rebuilt as fan-out trees on
+    // the layouts they meet (`family::control::fanout_prep`), when that is cheaper.
+    let preps = (spec.control == Control::Prep && spec.family != Family::Evolution)
+        .then(|| FanOuts::new(&spec.states, h.num_qubits, &step, device));
+    let all_frames = match &preps {
+        Some(p) => frames_by(h, spec, &|state: &str, at: PrepAt| p.get(state, at)),
+        None => all_frames,
+    };
+    // What the plan records of them: the CNOTs, when they are not the chain the
+    // plan's form implies (`tableau::equiv` rebuilds the claim from them).
+    let fanout_of = |state: &str, k: usize| -> Option<FanOut> {
+        let p = preps.as_ref()?;
+        let chain = crate::family::control::controlled_prep(
+            state,
+            h.num_qubits as crate::circuit::Qubit,
+            crate::family::control::Joins::Neighbours,
+        );
+        let before = p.get(state, PrepAt::Start);
+        let after = p.get(
+            state,
+            PrepAt::End {
+                steps: k * spec.steps_per_dt.max(1),
+            },
+        );
+        if before == chain && after == chain {
+            return None;
+        }
+        FanOut::of(&before, &after)
+    };
+    let copies = tp.copies;
+    // The cat's fan-out and its undoing where the steps end, after core 0 or core 1 (logical
+    // qubits: copies follow the ancilla); neither needs a SWAP while the copies stand on a
+    // connected set of sites.
+    let (fan_in, unfans) = if copies > 0 {
+        (
+            crate::route::cat::fanout(&step.start, n, device),
+            [0, 1].map(|b| crate::route::cat::unfan(&step.ends[b], n, device)),
+        )
+    } else {
+        (Vec::new(), [Vec::new(), Vec::new()])
+    };
+    let cat_ends = |steps: usize, last_core: usize| -> (Vec<Gate>, Vec<Gate>) {
+        if copies == 0 || steps == 0 {
+            return (Vec::new(), Vec::new());
+        }
+        (fan_in.clone(), unfans[last_core].clone())
+    };
+    let campaign = DeviceCampaign::new(step, tp, device, config)?;
+    let done = all_frames
+        .into_par_iter()
+        .map(|f| {
+            let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
+            let steps = f.k * spec.steps_per_dt;
+            let (fan, unfan) = cat_ends(steps, campaign.core_index(steps.saturating_sub(1)));
+            let mut prefix = f.prefix;
+            prefix.extend(fan);
+            let suffix: Vec<Gate> = unfan.into_iter().chain(f.suffix).collect();
+            let e = campaign.emit(&prefix, steps, &suffix, f.num_clbits, &comments)?;
+            let mut costs = e.costs;
+            if steps > 0 {
+                costs.control_copies = copies + tp.temporary_copies;
+            }
+            let mut final_layout = e.final_layout;
+            final_layout.truncate(placed);
+            Ok(Finished {
+                fanout: fanout_of(&spec.states[f.state], f.k),
+                id: f.id,
+                k: f.k,
+                time: f.time,
+                part: f.part,
+                state: f.state,
+                group: f.group,
+                reads: f.reads,
+                num_qubits: device.num_qubits,
+                num_clbits: f.num_clbits,
+                output: Output::Text(e.text),
+                costs,
+                final_layout,
+            })
+        })
+        .collect::<Result<Vec<_>, IrError>>()?;
+    Ok((info, done))
 }
 
 /// The controlled preparations of a control-free campaign on a device, per state and per

@@ -489,6 +489,7 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
         );
     } else {
         text += &control_line(control, why_not_prep.as_ref());
+        text += &spread_line(&compiled.plan);
         text += &format!(
             "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
             compiled.plan.circuits.len(),
@@ -553,6 +554,36 @@ fn control_line(control: Control, why_not: Option<&NotAnEigenstate>) -> String {
         (Control::Evolution, Some(e)) => format!("Control: evolution (the ancilla controls every rotation; prep does not apply: {e}).\n"),
         (Control::Evolution, None) => "Control: evolution (the ancilla controls every rotation).\n".into(),
     }
+}
+
+/// The line that says the control is spread over copies of the ancilla (`route::cat`), when
+/// it is; empty otherwise.
+fn spread_line(plan: &Plan) -> String {
+    let Some(d) = plan.device.as_ref().filter(|d| d.spare_qubits) else {
+        return String::new();
+    };
+    let most = plan
+        .circuits
+        .iter()
+        .map(|e| e.costs.control_copies)
+        .max()
+        .unwrap_or(0);
+    let made = &d.copy_placement;
+    let kept = "kept because the campaign emits fewer two-qubit gates (or as many, less deep) than with the ancilla alone";
+    if most == 0 {
+        return format!(
+            "Spread control: rotations away from the ancilla are controlled over a bridge through a neighbouring qubit (or after moving it into an unused qubit) rather than by swapping it there; no copies needed; {kept}.\n"
+        );
+    }
+    format!(
+        "Spread control: up to {most} unused qubit(s) per circuit hold a copy of the ancilla (a cat state: {} made after the ancilla's h{}, cleared again before the readout; any others for one rotation each), so rotations meet a control beside them; {kept} (column `copies`).\n",
+        made.len(),
+        if made.is_empty() {
+            String::new()
+        } else {
+            format!(" on {}", made.iter().map(|p| format!("${p}")).collect::<Vec<_>>().join(" "))
+        },
+    )
 }
 
 /// What `compile` says about the reference state.
@@ -671,11 +702,16 @@ pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
 /// The per-circuit and total cost table.
 pub fn cost_table(plan: &Plan) -> String {
     let dev = plan.device.is_some();
+    // Control copies of the ancilla (`route::cat`): a column only where a circuit uses them.
+    let copies = plan.circuits.iter().any(|e| e.costs.control_copies > 0);
     let mut head = vec![
         "circuit", "k", "time", "part", "depth", "2q gates", "1q gates",
     ];
     if dev {
         head.extend(["swaps", "duration us", "success"]);
+    }
+    if copies {
+        head.push("copies");
     }
     let mut t = Table::new(head);
     let mut tot = crate::family::plan::Costs::default();
@@ -696,6 +732,9 @@ pub fn cost_table(plan: &Plan) -> String {
             row.push(c.swaps.to_string());
             row.push(format!("{:.2}", c.duration_ns.unwrap_or(0.0) / 1000.0));
             row.push(format!("{:.4}", c.success_probability.unwrap_or(1.0)));
+        }
+        if copies {
+            row.push(c.control_copies.to_string());
         }
         t.row(row);
         tot.depth += c.depth;
@@ -720,6 +759,10 @@ pub fn cost_table(plan: &Plan) -> String {
         row.push(format!("{:.2}", dur / 1000.0));
         row.push(format!("min {worst:.4}"));
     }
+    if copies {
+        let most = plan.circuits.iter().map(|e| e.costs.control_copies).max();
+        row.push(format!("max {}", most.unwrap_or(0)));
+    }
     t.row(row);
     t.render()
 }
@@ -730,9 +773,19 @@ pub fn cost_json(plan: &Plan) -> serde_json::Value {
     let sum = |f: fn(&crate::family::plan::Costs) -> usize| {
         plan.circuits.iter().map(|e| f(&e.costs)).sum::<usize>()
     };
-    serde_json::json!({
+    let mut json = serde_json::json!({
         "circuits": circuits,
         "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
         "caution": "estimates depend on the device calibration; validate against trusted methods",
-    })
+    });
+    let most = plan
+        .circuits
+        .iter()
+        .map(|e| e.costs.control_copies)
+        .max()
+        .unwrap_or(0);
+    if most > 0 {
+        json["total"]["max_control_copies"] = serde_json::json!(most);
+    }
+    json
 }

@@ -503,6 +503,7 @@ impl CostWalk<'_> {
             two_qubit: self.two_qubit,
             one_qubit: self.one_qubit,
             swaps,
+            control_copies: 0,
             duration_ns: Some(self.longest_ns),
             success_probability: Some(self.success),
         }

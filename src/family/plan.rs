@@ -159,6 +159,17 @@ pub struct DeviceInfo {
     /// (the ancilla is the last l).
     #[serde(rename = "start_placement")]
     pub initial_layout: Vec<u32>,
+    /// Physical qubits of the ancilla's control copies when every circuit with a Trotter step
+    /// starts (`route::cat`): spare qubits that the fan-out after the ancilla's `h` sets equal
+    /// to it and its undoing returns to |0⟩. Empty (absent) for the usual Hadamard test.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub copy_placement: Vec<u32>,
+    /// The circuits use qubits outside `start_placement` (control copies, temporary copies,
+    /// qubits moved into unused sites by two CNOTs): correct, like every circuit, on a device
+    /// whose qubits all start in |0⟩, and each such qubit ends in |0⟩ again (`route::cat`).
+    /// Absent: false, unused qubits are only moved around by SWAPs.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub spare_qubits: bool,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]
@@ -275,12 +286,22 @@ pub struct Costs {
     pub two_qubit: usize,
     pub one_qubit: usize,
     pub swaps: usize,
+    /// Spare qubits the circuit uses as control copies of the ancilla (`route::cat`): the
+    /// copies made once after the ancilla's `h` (`device.copy_placement`) plus the unused
+    /// qubits set as a copy for one rotation and cleared again. Absent: none, the ancilla alone
+    /// controls the evolution. Their CNOTs are counted in `two_qubit`.
+    #[serde(default, skip_serializing_if = "is_zero")]
+    pub control_copies: usize,
     /// Critical-path duration in ns from the device's gate times (absent without a device).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub duration_ns: Option<f64>,
     /// `Π (1 − error)` over gates and readouts (absent without a device).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub success_probability: Option<f64>,
+}
+
+fn is_zero(v: &usize) -> bool {
+    *v == 0
 }
 
 impl From<Counts> for Costs {
@@ -290,6 +311,7 @@ impl From<Counts> for Costs {
             two_qubit: c.two_qubit,
             one_qubit: c.one_qubit,
             swaps: c.swaps,
+            control_copies: 0,
             duration_ns: None,
             success_probability: None,
         }

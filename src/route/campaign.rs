@@ -176,6 +176,11 @@ impl<'a> DeviceCampaign<'a> {
         Ok(campaign)
     }
 
+    /// Which core of the step implements step `i` ([`RoutedStep::core_index`]).
+    pub fn core_index(&self, i: usize) -> usize {
+        self.step.core_index(i)
+    }
+
     fn rules_check(&self, c: &Circuit) -> Result<(), IrError> {
         let coupled = |a: u32, b: u32| self.dev.coupled(a, b);
         verify_ir(

@@ -80,6 +80,19 @@ fn match_order(adj: &[Vec<u32>]) -> Vec<usize> {
 
 /// Embeddings of `adj` into the sites `comp` of `dev` (see the module essay), at most `limit`.
 pub fn embeddings(adj: &[Vec<u32>], comp: &[u32], dev: &Device, limit: usize) -> Vec<Vec<u32>> {
+    embeddings_from(adj, comp, dev, limit, None, SEARCH_BUDGET)
+}
+
+/// [`embeddings`] with the first qubit of the matching order placed on `first` (if given) and
+/// `budget` backtracking steps; `route::cat` begins a few at every site for variety.
+pub fn embeddings_from(
+    adj: &[Vec<u32>],
+    comp: &[u32],
+    dev: &Device,
+    limit: usize,
+    first: Option<u32>,
+    budget: usize,
+) -> Vec<Vec<u32>> {
     let n = adj.len();
     let mut found = Vec::new();
     if n == 0 || n > comp.len() || limit == 0 {
@@ -104,14 +117,15 @@ pub fn embeddings(adj: &[Vec<u32>], comp: &[u32], dev: &Device, limit: usize) ->
     let order = match_order(adj);
     let mut site = vec![u32::MAX; n];
     let mut used = vec![false; dev.num_qubits];
-    let mut budget = SEARCH_BUDGET;
+    let mut budget = budget;
     // Iterative depth-first search: per depth, the candidate list and the next index to try.
     let candidates_for = |depth: usize, site: &[u32], used: &[bool]| -> Vec<u32> {
         let q = order[depth];
         let anchor = adj[q].iter().find(|&&j| site[j as usize] != u32::MAX);
-        let pool: Vec<u32> = match anchor {
-            Some(&j) => neighbours[site[j as usize] as usize].clone(),
-            None => comp.to_vec(),
+        let pool: Vec<u32> = match (anchor, first) {
+            (Some(&j), _) => neighbours[site[j as usize] as usize].clone(),
+            (None, Some(s)) if depth == 0 => vec![s],
+            (None, _) => comp.to_vec(),
         };
         pool.into_iter()
             .filter(|&p| {

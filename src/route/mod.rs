@@ -30,6 +30,11 @@
 //!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`), and the best
 //!    swept and the best split step are finally compared on the whole campaign
 //!    ([`plan_and_route_step`]).
+//!    With `RouteConfig::cat` (level 3) [`plan_and_route_cat_step`] also routes the step with
+//!    the control spread over copies of the ancilla on spare sites ([`cat`]): layouts grown
+//!    from the winner's and from exact embeddings, copies added where they pay, the step
+//!    routed with each controlled `rz` on the copy nearest its root; the pipeline keeps it only
+//!    when the campaign it emits is cheaper.
 //! 2. The kept step is reused by every circuit ([`reuse`]: alternating with its mirror image
 //!    for symmetric formulas, with the SWAPs home for Lie–Trotter), and [`campaign`] lowers it
 //!    once and assembles each circuit from it, its own state preparation and its readout.
@@ -50,6 +55,7 @@
 //! this by simulation); measured bits read the physical qubit that holds the measured qubit.
 
 pub mod campaign;
+pub mod cat;
 pub mod check;
 pub mod embed;
 pub mod hub;
@@ -113,6 +119,12 @@ pub struct RouteConfig {
     /// Also score steps whose hopping pairs are synthesised together (`synth::Pairs`), and
     /// steps whose commuting runs are synthesised as one network each (`synth::Groups`).
     pub pairs: bool,
+    /// Also offer a step whose control is spread over copies of the ancilla on spare sites
+    /// ([`cat`], [`plan_and_route_cat_step`]).
+    pub cat: bool,
+    /// Tests: give the cat candidate at least one copy and keep it wherever one exists, even
+    /// when it costs more (off everywhere else).
+    pub cat_force: bool,
     /// Score candidates by the two-qubit gates of the routed step once lowered (what is
     /// emitted) rather than by SWAPs.
     pub score_two_qubit: bool,
@@ -144,6 +156,8 @@ impl Default for RouteConfig {
             sweep: true,
             embed: true,
             pairs: true,
+            cat: true,
+            cat_force: false,
             score_two_qubit: true,
             campaign_weights: None,
         }
@@ -183,6 +197,14 @@ pub struct TargetPlan {
     pub edge_terms: usize,
     /// How the step's program is written ([`reuse::step_parts`]).
     pub step_form: StepForm,
+    /// Control copies of the ancilla ([`cat`]): logical qubits `num_system + 1 ..` of
+    /// `initial_layout`; 0 for the usual Hadamard test.
+    pub copies: usize,
+    /// The step was routed with the control spread ([`cat::route_step`]): it may also use
+    /// free sites as temporary copies (`temporary_copies` distinct ones) and move qubits into
+    /// free sites with two CNOTs, so its circuits rely on every unused qubit starting in |0⟩.
+    pub spread: bool,
+    pub temporary_copies: usize,
     /// Row-major hop distances between the initial sites of the logical qubits.
     dist: Vec<u32>,
 }
@@ -235,8 +257,29 @@ impl TargetPlan {
             order: None,
             edge_terms: 0,
             step_form: StepForm::default(),
+            copies: 0,
+            spread: false,
+            temporary_copies: 0,
             dist,
         })
+    }
+
+    /// A plan whose layout places the system qubits, the ancilla and `layout.len() −
+    /// num_system − 1` control copies after it ([`cat`]); checked as [`TargetPlan::with_layout`].
+    pub fn with_copies(
+        num_system: usize,
+        dev: &Device,
+        layout: Vec<u32>,
+    ) -> Result<TargetPlan, String> {
+        let copies = layout.len().checked_sub(num_system + 1).ok_or_else(|| {
+            "the layout places fewer qubits than the system and ancilla".to_string()
+        })?;
+        let mut plan = TargetPlan::with_layout(num_system + copies, true, dev, layout)?;
+        plan.num_system = num_system;
+        plan.ancilla = Some(num_system as u32);
+        plan.copies = copies;
+        plan.spread = true;
+        Ok(plan)
     }
 
     /// The same plan with the device-aware order of `h` on `dev` ([`device_order`]).
@@ -530,8 +573,94 @@ fn route_with(
     })
 }
 
+/// The cat candidate ([`cat`]): the step of `order` and length `dt` routed with control copies
+/// of the ancilla on spare sites, starting from `base`'s layout (the ordinary search's winner)
+/// and from exact embeddings. Each shortlisted layout is routed and scored by the two-qubit
+/// gates emitted for a circuit of one step, fan-out and its undoing included (with
+/// `RouteConfig::campaign_weights`, for the campaign's circuits and steps as
+/// [`plan_and_route_step`] compares its steps). `None` when the device has no spare site, the
+/// step is past [`EXTRAS_MAX_UNIT`] or [`cat::MAX_ROTATIONS`], or no layout gets a copy. The
+/// pipeline keeps it only when the whole campaign it emits is cheaper.
+pub fn plan_and_route_cat_step(
+    h: &PauliSum,
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+    base: &TargetPlan,
+) -> Option<(TargetPlan, RoutedStep)> {
+    let n = h.num_qubits;
+    let comps = dev.components();
+    let comp = comps.first()?;
+    if n == 0 || comp.len() <= n + 1 || base.initial_layout.len() != n + 1 {
+        return None;
+    }
+    let program = crate::formula::step(&order_terms(h), order, dt);
+    let unit: usize = program.iter().map(|r| 4 * r.pauli.weight() as usize).sum();
+    if program.is_empty() || program.len() > cat::MAX_ROTATIONS || unit > EXTRAS_MAX_UNIT {
+        return None;
+    }
+    let symmetric = order != Order::First;
+    let mut best: Option<(f64, TargetPlan, RoutedStep)> = None;
+    let min_copies = usize::from(cfg.cat_force);
+    let bases = [base.initial_layout.clone()];
+    for (_, layout) in cat::candidate_layouts(h, &program, &bases, comp, dev, min_copies) {
+        if layout.len() < n + 1 + min_copies {
+            continue;
+        }
+        let Some(routed) = cat::route_step(&program, n, &layout, dev, cfg.pairs) else {
+            continue;
+        };
+        let Ok(mut plan) = TargetPlan::with_copies(n, dev, layout.clone()) else {
+            continue;
+        };
+        plan.temporary_copies = routed.temporary_copies;
+        let step = reuse::unsplit(routed.circuit, layout, routed.final_layout, dev, symmetric);
+        let cost = |r: usize| {
+            cat_circuit_two_qubit(&step, n, r, dev, &plan_swap_params(&plan, cfg)) as f64
+        };
+        let score = match cfg.campaign_weights {
+            Some((circuits, steps)) => {
+                let (c1, c2) = (cost(1), cost(2));
+                circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
+            }
+            None => cost(1),
+        };
+        if best.as_ref().is_none_or(|(b, _, _)| score < *b) {
+            best = Some((score, plan, step));
+        }
+    }
+    best.map(|(_, plan, step)| (plan, step))
+}
+
+/// Two-qubit gates emitted for `r` steps of a cat `step` between its fan-out and the undoing
+/// of it where the steps end (routed there if the copies have moved apart).
+pub fn cat_circuit_two_qubit(
+    step: &RoutedStep,
+    n: usize,
+    r: usize,
+    dev: &Device,
+    params: &SwapParams,
+) -> usize {
+    let start = &step.start;
+    let mut c = Circuit::new(dev.num_qubits, 0);
+    c.extend(
+        cat::fanout(start, n, dev)
+            .into_iter()
+            .map(|g| g.map_qubits(|q| start[q as usize])),
+    );
+    for piece in step.pieces(r) {
+        c.extend(piece.gates.iter().copied());
+    }
+    let end = step.layout_after(r);
+    let mut undo = Circuit::new(end.len(), 0);
+    undo.extend(cat::unfan(end, n, dev));
+    c.extend(insert_swaps(&undo, end, dev, params).circuit.gates);
+    emitted_two_qubit(&c, dev)
+}
+
 /// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
-fn plan_swap_params(plan: &TargetPlan, cfg: &RouteConfig) -> SwapParams {
+pub fn plan_swap_params(plan: &TargetPlan, cfg: &RouteConfig) -> SwapParams {
     let mut params = cfg.swap_params();
     params.hub = plan.ancilla;
     params.hub_factor = plan.ancilla_swap_factor;
@@ -911,7 +1040,7 @@ fn plan_on_step(
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native
 /// gates with fusion and cancellation: what the campaign will emit for it.
-fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
+pub fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
     lower_to_native(c, &dev.native)
         .gates
         .iter()

@@ -514,6 +514,45 @@ pub fn route_step(
     route_from(parts, fwd, marks, plan, dev, params, symmetric)
 }
 
+/// The [`RoutedStep`] of a step routed whole, `circuit : start → end` (physical): the step and
+/// its mirror in turn (symmetric formulas), or the SWAPs home and the step again (order 1).
+pub fn unsplit(
+    circuit: Circuit,
+    start: Vec<u32>,
+    end: Vec<u32>,
+    dev: &Device,
+    symmetric: bool,
+) -> RoutedStep {
+    let n_phys = dev.num_qubits;
+    let empty = || Circuit::new(n_phys, 0);
+    let back = if symmetric {
+        mirror(&circuit)
+    } else {
+        let mut c = physical(n_phys, &[]);
+        c.extend(
+            permutation_swaps(&end, &start, dev)
+                .into_iter()
+                .map(|(a, b)| Gate::Swap(a, b)),
+        );
+        c.extend(circuit.gates.iter().copied());
+        c
+    };
+    let ends = if symmetric {
+        [end, start.clone()]
+    } else {
+        [end.clone(), end]
+    };
+    RoutedStep {
+        start,
+        head: empty(),
+        cores: [circuit, back],
+        joins: [[empty(), empty()], [empty(), empty()]],
+        tails: [empty(), empty()],
+        ends,
+        symmetric,
+    }
+}
+
 /// The [`RoutedStep`] of a routing of `parts` (with its marks at the cuts) made from the plan's
 /// initial layout: without cuts, `C` and its mirror (or the SWAPs home and `C` again, order 1);
 /// with cuts `E|M|E'`, the head `E`, the cores `M` and `mirror(M)`, the tails `E'` and
@@ -532,33 +571,7 @@ pub fn route_from(
     let start = plan.initial_layout[..fwd.final_layout.len()].to_vec();
     let empty = || Circuit::new(n_phys, 0);
     let Some(merged) = parts.merged_edge.as_ref().filter(|_| marks.len() == 2) else {
-        let back = if symmetric {
-            mirror(&fwd.circuit)
-        } else {
-            let mut c = physical(n_phys, &[]);
-            c.extend(
-                permutation_swaps(&fwd.final_layout, &start, dev)
-                    .into_iter()
-                    .map(|(a, b)| Gate::Swap(a, b)),
-            );
-            c.extend(fwd.circuit.gates.iter().copied());
-            c
-        };
-        let end = fwd.final_layout.clone();
-        let ends = if symmetric {
-            [end, start.clone()]
-        } else {
-            [end.clone(), end]
-        };
-        return RoutedStep {
-            start,
-            head: empty(),
-            cores: [fwd.circuit, back],
-            joins: [[empty(), empty()], [empty(), empty()]],
-            tails: [empty(), empty()],
-            ends,
-            symmetric,
-        };
+        return unsplit(fwd.circuit, start, fwd.final_layout, dev, symmetric);
     };
     let g = &fwd.circuit.gates;
     let lead = physical(n_phys, &g[..marks[0].at]);

@@ -27,7 +27,7 @@
 //! What it does not give: the ideal and exact overlaps (no amplitudes are computed).
 
 use super::normal::{self, DiffKind};
-use super::{canonicalise_into, Tableau, Tail};
+use super::{canonicalise_into, canonicalise_turning, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
 use crate::family::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
@@ -51,6 +51,10 @@ pub struct Claim {
     groups: Vec<Vec<usize>>,
     /// Device qubits and initial layout, for device campaigns.
     device: Option<(usize, Vec<u32>)>,
+    /// With control copies (`route::cat`: the plan's `spare_qubits` or `copy_placement`):
+    /// every physical qubit outside the initial layout, which starts in |0⟩ (see
+    /// [`Claim::check`]); else `None`.
+    zero_inputs: Option<crate::pauli::Bits>,
     control: Control,
 }
 
@@ -131,6 +135,29 @@ impl Claim {
                 Some((d.num_qubits, d.initial_layout.clone()))
             }
         };
+        let zero_inputs = match &plan.device {
+            Some(d) if d.spare_qubits || !d.copy_placement.is_empty() => {
+                let mut all = d.initial_layout.clone();
+                all.extend(&d.copy_placement);
+                if d.copy_placement.iter().any(|&p| p as usize >= d.num_qubits)
+                    || !is_injective(&all)
+                {
+                    return Err(
+                        "plan.json: the copy placement repeats a physical qubit, names one of \
+                         the start placement, or one the device does not have"
+                            .into(),
+                    );
+                }
+                let mut zero = crate::pauli::Bits::default();
+                for p in 0..d.num_qubits {
+                    if !d.initial_layout.contains(&(p as u32)) {
+                        zero.insert(p);
+                    }
+                }
+                Some(zero)
+            }
+            _ => None,
+        };
         Ok(Claim {
             n,
             family: plan.family,
@@ -146,6 +173,7 @@ impl Claim {
                 Vec::new()
             },
             device,
+            zero_inputs,
             control: plan.control,
         })
     }
@@ -340,7 +368,28 @@ impl Claim {
                 .map(|g| g.map_qubits(|l| init[l as usize])),
         );
         let mut fb = normal::Builder::new();
-        let ftail = canonicalise_into(file, width, &mut fb).map_err(|u| CannotCheck {
+        // With control copies, qubits outside the initial layout start in |0⟩: a rotation
+        // whose axis holds only Z (or nothing) there acts on them as +1, so those Z factors
+        // are dropped; an X or Y there is a difference (see `zero_input_free`). The quarter
+        // turns a merge hands back carry the stripped axis into the Clifford: every rotation
+        // kept is diagonal on those qubits, so the |0⟩ inputs stay |0⟩ up to that point and the
+        // stripped and unstripped turns agree there.
+        let mut unstrippable: Option<(u32, PauliString)> = None;
+        let ftail = canonicalise_turning(file, width, &mut |mut r| {
+            if let Some(zero) = &self.zero_inputs {
+                match zero_input_free(&r.axis, zero) {
+                    Some(axis) => r.axis = axis,
+                    None => {
+                        if unstrippable.is_none() {
+                            unstrippable = Some((r.gate, r.axis.clone()));
+                        }
+                        return None;
+                    }
+                }
+            }
+            fb.push(r)
+        })
+        .map_err(|u| CannotCheck {
             gate: Some(u.gate),
             message: u.message,
         })?;
@@ -349,6 +398,17 @@ impl Claim {
             .map_err(|u| CannotCheck::plan(format!("the plan's own circuit: {}", u.message)))?;
         let (fnf, pnf) = (fb.finish(), pb.finish());
         let names = Names::new(&init, self.n);
+        if let Some((gate, axis)) = unstrippable {
+            return Ok(Verdict::Differs(Refutation {
+                gate: Some(gate as usize),
+                message: format!(
+                    "a rotation about {} here acts with X or Y on a qubit that starts in |0⟩ \
+                     outside the plan's placement (a control copy or a free qubit), so it does \
+                     not reduce to a rotation of the plan's qubits",
+                    names.pauli(&axis)
+                ),
+            }));
+        }
         let diffs = normal::differences(&fnf, &pnf);
         if let Some(d) = normal::first_difference(&diffs) {
             return Ok(Verdict::Differs(Refutation {
@@ -356,7 +416,14 @@ impl Claim {
                 message: describe(d, &names, diffs.len()),
             }));
         }
-        if let Some(r) = compare_cliffords(&ftail, &ptail, &init, &fin, &names) {
+        if let Some(r) = compare_cliffords(
+            &ftail,
+            &ptail,
+            &init,
+            &fin,
+            &names,
+            self.zero_inputs.as_ref(),
+        ) {
             return Ok(Verdict::Differs(r));
         }
         if let Some(r) = compare_measurements(&ftail, &ptail, &init, &fin) {
@@ -452,19 +519,45 @@ fn describe(d: &normal::Difference, names: &Names, count: usize) -> String {
     )
 }
 
+/// `axis` without its Z factors on the qubits of `zero` (which start in |0⟩), or `None` when
+/// it holds X or Y on one of them.
+fn zero_input_free(axis: &PauliString, zero: &crate::pauli::Bits) -> Option<PauliString> {
+    if axis.x.intersects(zero) {
+        return None;
+    }
+    Some(PauliString {
+        x: axis.x.clone(),
+        z: axis.z.and_not(zero),
+    })
+}
+
+/// Compares the final Cliffords (see the module header). With `zero` (qubits that start in
+/// |0⟩, campaigns with control copies) the comparison holds on the inputs with those qubits
+/// at |0⟩: a logical row may differ from the plan's by Z factors there (`+1` on such inputs),
+/// and a physical qubit that ends outside the final layout must end in |0⟩ (its Z row a
+/// product of Z on those qubits, sign +) rather than be a bare |0⟩ qubit moved by SWAPs.
+/// Together with rotations stripped the same way this gives, on every such input, the plan's
+/// state on the logical qubits (their Pauli expectations agree) and |0⟩ elsewhere.
 fn compare_cliffords(
     file: &Tail,
     plan: &Tail,
     init: &[u32],
     fin: &[u32],
     names: &Names,
+    zero: Option<&crate::pauli::Bits>,
 ) -> Option<Refutation> {
     let (fc, pc): (&Tableau, &Tableau) = (&file.clifford, &plan.clifford);
     let at_end = |p: usize| file.last_gate.get(p).copied().flatten();
+    let reduce = |(sign, s): (bool, PauliString)| -> (bool, PauliString) {
+        match zero.and_then(|z| zero_input_free(&s, z)) {
+            Some(stripped) => (sign, stripped),
+            None => (sign, s),
+        }
+    };
     for (l, (&i, &f)) in init.iter().zip(fin).enumerate() {
         for (label, fi, pi) in [
-            ("X", fc.image_x(f as usize), pc.image_x(i as usize)),
-            ("Z", fc.image_z(f as usize), pc.image_z(i as usize)),
+            ("X", reduce(fc.image_x(f as usize)), pc.image_x(i as usize)),
+            ("Z", reduce(fc.image_z(f as usize)), pc.image_z(i as usize)),
         ] {
             if fi != pi {
                 let who = if l == init.len() - 1 {
@@ -493,7 +586,9 @@ fn compare_cliffords(
         let (sx, x) = fc.image_x(p);
         let (sz, z) = fc.image_z(p);
         let bare = !sx && !sz && x.z.is_empty() && z.x.is_empty() && x.x.count() == 1 && x.x == z.z;
-        if !bare {
+        let ends_zero = zero
+            .is_some_and(|zero| !sz && z.x.is_empty() && !z.z.is_empty() && z.z.is_subset(zero));
+        if !bare && !ends_zero {
             return Some(Refutation {
                 gate: at_end(p),
                 message: format!(
