@@ -147,29 +147,13 @@ pub fn push_angle(out: &mut Vec<u8>, a: f64, buf: &mut zmij::Buffer) {
         return;
     }
     let (digits, len, point) = crate::lang::ham::write::shortest_digits(buf.format_finite(abs));
-    let digits = &digits[..len];
-    if !(1e-4..1e16).contains(&abs) {
-        // d₁.d₂…dₙ e(point − 1)
-        out.push(digits[0]);
-        if len > 1 {
-            out.push(b'.');
-            out.extend_from_slice(&digits[1..]);
-        }
-        out.push(b'e');
-        out.extend_from_slice(itoa::Buffer::new().format(point - 1).as_bytes());
-    } else if point <= 0 {
-        out.extend_from_slice(b"0.");
-        out.resize(out.len() + (-point) as usize, b'0');
-        out.extend_from_slice(digits);
-    } else if len as i32 <= point {
-        out.extend_from_slice(digits);
-        out.resize(out.len() + (point - len as i32) as usize, b'0');
-        out.extend_from_slice(b".0");
-    } else {
-        out.extend_from_slice(&digits[..point as usize]);
-        out.push(b'.');
-        out.extend_from_slice(&digits[point as usize..]);
-    }
+    crate::lang::ham::write::place_digits(
+        out,
+        &digits[..len],
+        point,
+        !(1e-4..1e16).contains(&abs),
+        b".0",
+    );
 }
 
 #[cfg(test)]

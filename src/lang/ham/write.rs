@@ -96,6 +96,21 @@ fn push_coefficient(out: &mut Vec<u8>, c: f64, buf: &mut zmij::Buffer) {
         out.push(b'0');
         return;
     }
+    place_digits(out, digits, point, scientific, b"");
+}
+
+/// Appends the decimal text of the nonzero number `0.d₁d₂…dₙ × 10^point` (`digits` = d₁…dₙ,
+/// no trailing zeros): `d₁.d₂…dₙe(point − 1)` when `scientific`, else plain positional text,
+/// with `whole_suffix` after a number without fractional digits (`.0` for Rust's `{:?}`
+/// style, nothing for `{}`). The sign is the caller's.
+pub(crate) fn place_digits(
+    out: &mut Vec<u8>,
+    digits: &[u8],
+    point: i32,
+    scientific: bool,
+    whole_suffix: &[u8],
+) {
+    let len = digits.len();
     if scientific {
         // d₁.d₂…dₙ e(point − 1)
         out.push(digits[0]);
@@ -112,6 +127,7 @@ fn push_coefficient(out: &mut Vec<u8>, c: f64, buf: &mut zmij::Buffer) {
     } else if len as i32 <= point {
         out.extend_from_slice(digits);
         out.resize(out.len() + (point - len as i32) as usize, b'0');
+        out.extend_from_slice(whole_suffix);
     } else {
         out.extend_from_slice(&digits[..point as usize]);
         out.push(b'.');
