@@ -187,7 +187,8 @@ fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
 /// terms, the formula per time point, the agreeing schedule and the pair scan per point, then
 /// per time point and candidate synthesis (with `prepare` and the verifier), the peephole
 /// stream, and per circuit the readout with counts and the final verifier, and formatting the
-/// kept circuit as OpenQASM text.
+/// kept circuit as OpenQASM text. Past `pipeline::SCORE_ONCE_MIN` at k = 1, later points build
+/// only the candidates k = 1 kept and the chain, as the pipeline does.
 fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     use phasewright::circuit::cancel::Peephole;
     use phasewright::circuit::metrics::counts_of;
@@ -224,20 +225,37 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     let (mut synth, mut cancel, mut readout, mut text) = (0.0, 0.0, 0.0, 0.0);
     let level = OptLevel::default();
     let control = Some(h.num_qubits as u32);
+    let grouped: Vec<bool> = programs
+        .iter()
+        .map(|p| phasewright::synth::groups::has_shared_runs(p))
+        .collect();
+    // Past `SCORE_ONCE_MIN` at k = 1, later points build only what k = 1 kept, and the chain.
+    let mut only: Option<Vec<(bool, Synthesis)>> = None;
     for k in 1..points {
         let fs: Vec<_> = frames.iter().filter(|f| f.k == k).collect();
-        let mut candidates = vec![
-            (&programs[k][..], Synthesis::Chain),
-            (&programs[k][..], Synthesis::Tree),
-        ];
+        // (agreeing order?, synthesis), in the pipeline's order.
+        let mut candidates = vec![(false, Synthesis::Chain), (false, Synthesis::Tree)];
         if paired[k] {
-            candidates.push((&programs[k][..], Synthesis::Pairs));
+            candidates.push((false, Synthesis::Pairs));
         }
-        if let Some(p) = &agreeing[k] {
-            candidates.push((&p[..], Synthesis::Sharing));
+        if agreeing[k].is_some() {
+            candidates.push((true, Synthesis::Sharing));
+        }
+        if grouped[k] {
+            candidates.push((false, Synthesis::Groups));
+            if agreeing[k].is_some() {
+                candidates.push((true, Synthesis::Groups));
+            }
+        }
+        if let Some(only) = &only {
+            candidates.retain(|c| c.1 == Synthesis::Chain || only.contains(c));
         }
         let mut bodies = Vec::new();
-        for (program, synthesis) in candidates {
+        for &(agree, synthesis) in &candidates {
+            let program = match (agree, &agreeing[k]) {
+                (true, Some(p)) => &p[..],
+                _ => &programs[k][..],
+            };
             let t = Instant::now();
             let mut body = Circuit::new(fs[0].num_qubits, fs[0].num_clbits);
             let passes = all_to_all_passes(&fs[0].prefix, program, control, &[], level, synthesis);
@@ -251,20 +269,25 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
             bodies.push(stream);
             cancel += t.elapsed().as_secs_f64();
         }
+        let (mut kept, mut most) = (Vec::new(), 0);
         for f in &fs {
             let t = Instant::now();
             let mut best: Option<(usize, (usize, usize))> = None;
-            for (i, b) in bodies.iter().enumerate() {
+            for (i, b) in bodies.iter().enumerate().filter(|_| bodies.len() > 1) {
                 let n = counts_of(f.num_qubits, b.with_tail(&f.suffix).gates());
                 let key = (n.two_qubit, n.depth);
                 if best.as_ref().is_none_or(|b| key < b.1) {
                     best = Some((i, key));
                 }
             }
-            let (i, _) = best.expect("a candidate");
+            let (i, _) = best.unwrap_or((0, (0, 0)));
+            if !kept.contains(&candidates[i]) {
+                kept.push(candidates[i]);
+            }
             let mut c = Circuit::new(f.num_qubits, f.num_clbits);
             c.gates = bodies[i].with_tail(&f.suffix).to_vec();
             verify_ir(&c, &Rules::default()).expect("verified");
+            most = most.max(phasewright::circuit::metrics::counts(&c).two_qubit);
             readout += t.elapsed().as_secs_f64();
             let t = Instant::now();
             std::hint::black_box(phasewright::qasm::write(
@@ -273,6 +296,9 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
                 &[],
             ));
             text += t.elapsed().as_secs_f64();
+        }
+        if k == 1 && most > phasewright::pipeline::SCORE_ONCE_MIN {
+            only = Some(kept);
         }
     }
     out.extend([

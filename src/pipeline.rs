@@ -12,7 +12,10 @@
 //! 2. `synthesize`: the rotation program of the time point (`formula::evolution`, or at level 0
 //!    the unmerged textbook expansion) through one `synth::Strategy`: `Chain` ladders below
 //!    level 3; at level 3 also balanced `Tree`s, hopping `Pairs` and commuting-run `Groups`,
-//!    the emitted circuit with the fewest two-qubit gates kept;
+//!    the emitted circuit with the fewest two-qubit gates kept. Past [`SCORE_ONCE_MIN`]
+//!    two-qubit gates at the first time point with a step, the other points build only the
+//!    candidates that point kept, and the chain (so a level still never emits more than the
+//!    level below; at utility scale each candidate costs a whole synthesis per point);
 //! 3. `readout`: ancilla basis, measurement basis, measurements;
 //! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
 //! 5. `qasm::write` with logical `q[k]`.
@@ -391,6 +394,29 @@ enum Output {
     Text(String),
 }
 
+/// Which rotation program of a time point a candidate synthesises on the all-to-all target.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum ProgramOrder {
+    /// The formula's own order.
+    Formula,
+    /// The same product reordered so that neighbours share (`route::sweep::schedule_by_agreement`).
+    Agreeing,
+}
+
+/// The circuits of one time point on the all-to-all target, the candidates they kept, and the
+/// most two-qubit gates among them.
+struct PointBuilt {
+    finished: Vec<Finished>,
+    kept: Vec<(ProgramOrder, Synthesis)>,
+    most_two_qubit: usize,
+}
+
+/// Circuits of the first time point with a step past this many two-qubit gates make the other
+/// points of an all-to-all campaign try only the candidates that point kept (and the chain):
+/// the same size as a device step's `route::EXTRAS_MAX_UNIT`, past which each extra candidate
+/// costs about as much as everything else the point needs.
+pub const SCORE_ONCE_MIN: usize = 20_000;
+
 /// The shared gates of the circuits of one time point (preparation and evolution) on the
 /// all-to-all target: fed to the peephole stream (level ≥ 1), or as synthesised (level 0).
 enum Body {
@@ -546,112 +572,161 @@ pub fn compile_at(
                     _ => shared.push(vec![f]),
                 }
             }
-            let done: Vec<Vec<Finished>> = shared
-                .into_par_iter()
-                .map(|frames_k| {
-                    let first = &frames_k[0];
-                    let k = first.k;
-                    // Candidates in the order they are compared (ties keep the earlier).
-                    let mut candidates: Vec<(&[Rotation], Synthesis)> =
-                        vec![(&programs[k], Synthesis::Chain)];
-                    if level >= OptLevel(3) {
-                        // Trees are shallower but may cancel less between neighbouring
-                        // rotations, and the agreeing order cancels more but may be deeper:
-                        // the emitted circuit with fewer two-qubit gates (then the lower
-                        // depth) is kept, so level 3 never emits more than level 2.
-                        candidates.push((&programs[k], Synthesis::Tree));
-                        if paired[k] {
-                            candidates.push((&programs[k], Synthesis::Pairs));
-                        }
-                        if let Some(p) = &agreeing[k] {
-                            candidates.push((p, Synthesis::Sharing));
-                        }
-                        if grouped[k] {
-                            candidates.push((&programs[k], Synthesis::Groups));
-                            if let Some(p) = &agreeing[k] {
-                                candidates.push((p, Synthesis::Groups));
-                            }
+            // Candidates of time point k in the order they are compared (ties keep the
+            // earlier): which program (the formula's order or the agreeing one) through which
+            // synthesis. Trees are shallower but may cancel less between neighbouring
+            // rotations, and the agreeing order cancels more but may be deeper: the emitted
+            // circuit with fewer two-qubit gates (then the lower depth) is kept, so level 3
+            // never emits more than level 2.
+            let candidates = |k: usize| -> Vec<(ProgramOrder, Synthesis)> {
+                let mut c = vec![(ProgramOrder::Formula, Synthesis::Chain)];
+                if level >= OptLevel(3) {
+                    c.push((ProgramOrder::Formula, Synthesis::Tree));
+                    if paired[k] {
+                        c.push((ProgramOrder::Formula, Synthesis::Pairs));
+                    }
+                    if agreeing[k].is_some() {
+                        c.push((ProgramOrder::Agreeing, Synthesis::Sharing));
+                    }
+                    if grouped[k] {
+                        c.push((ProgramOrder::Formula, Synthesis::Groups));
+                        if agreeing[k].is_some() {
+                            c.push((ProgramOrder::Agreeing, Synthesis::Groups));
                         }
                     }
-                    let bodies: Vec<Body> = candidates
-                        .par_iter()
-                        .map(|&(program, synthesis)| {
-                            let mut body = Circuit::new(first.num_qubits, first.num_clbits);
-                            let passes = all_to_all_passes(
-                                &first.prefix,
-                                program,
-                                control,
-                                &[],
-                                level,
-                                synthesis,
-                            );
-                            // `prepare` and `synthesize`; the readout and `cancel` follow per
-                            // circuit below.
-                            run_passes(&mut body, &passes[..2], &Rules::default())?;
-                            Ok(if level >= OptLevel(1) {
-                                let mut stream = Peephole::new(body.num_qubits, body.gates.len());
-                                for g in body.gates.drain(..) {
-                                    stream.push(g);
-                                }
-                                Body::Stream(stream)
-                            } else {
-                                Body::Raw(body.gates)
-                            })
+                }
+                c
+            };
+            // Builds the circuits of one time point that share their body, from the candidates
+            // in `only` when given (the chain always among them), else from all; returns them
+            // with the candidates kept and the most two-qubit gates of one circuit.
+            let build = |frames_k: Vec<crate::family::Frame>,
+                         only: Option<&[(ProgramOrder, Synthesis)]>|
+             -> Result<PointBuilt, IrError> {
+                let first = &frames_k[0];
+                let k = first.k;
+                let mut cands = candidates(k);
+                if let Some(only) = only {
+                    cands.retain(|c| c.1 == Synthesis::Chain || only.contains(c));
+                }
+                let bodies: Vec<Body> = cands
+                    .par_iter()
+                    .map(|&(order, synthesis)| {
+                        let program: &[Rotation] = match order {
+                            ProgramOrder::Formula => &programs[k],
+                            ProgramOrder::Agreeing => agreeing[k].as_deref().unwrap_or_default(),
+                        };
+                        let mut body = Circuit::new(first.num_qubits, first.num_clbits);
+                        let passes = all_to_all_passes(
+                            &first.prefix,
+                            program,
+                            control,
+                            &[],
+                            level,
+                            synthesis,
+                        );
+                        // `prepare` and `synthesize`; the readout and `cancel` follow per
+                        // circuit below.
+                        run_passes(&mut body, &passes[..2], &Rules::default())?;
+                        Ok(if level >= OptLevel(1) {
+                            let mut stream = Peephole::new(body.num_qubits, body.gates.len());
+                            for g in body.gates.drain(..) {
+                                stream.push(g);
+                            }
+                            Body::Stream(stream)
+                        } else {
+                            Body::Raw(body.gates)
                         })
-                        .collect::<Result<Vec<_>, IrError>>()?;
-                    let mut out = Vec::with_capacity(frames_k.len());
-                    for f in frames_k {
-                        // Each candidate's readout is counted on an overlay of its shared body
-                        // (nothing copied); the first with the fewest two-qubit gates, then the
-                        // lowest depth, is built.
-                        let mut best: Option<(usize, crate::circuit::metrics::Counts)> = None;
-                        for (i, body) in bodies.iter().enumerate() {
-                            let n = body.counts_with_readout(f.num_qubits, &f.suffix);
-                            if cfg!(debug_assertions) {
-                                let mut c = Circuit::new(f.num_qubits, f.num_clbits);
-                                c.gates = body.with_readout(&f.suffix);
-                                verify_ir(&c, &Rules::default()).map_err(|e| IrError {
-                                    message: format!(
-                                        "after passes `readout` and `cancel`: {}",
-                                        e.message
-                                    ),
-                                    ..e
-                                })?;
-                            }
-                            let better = best.as_ref().is_none_or(|b| {
-                                (n.two_qubit, n.depth) < (b.1.two_qubit, b.1.depth)
-                            });
-                            if better {
-                                best = Some((i, n));
-                            }
-                        }
-                        let (i, n) = best.expect("at least the chain candidate");
-                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
-                        circuit.gates = bodies[i].with_readout(&f.suffix);
-                        verify_ir(&circuit, &Rules::default()).map_err(|e| IrError {
-                            message: format!("after pass `cancel`: {}", e.message),
-                            ..e
-                        })?;
-                        out.push(Finished {
-                            fanout: None,
-                            costs: n.into(),
-                            id: f.id,
-                            k: f.k,
-                            time: f.time,
-                            part: f.part,
-                            state: f.state,
-                            group: f.group,
-                            reads: f.reads,
-                            num_qubits: circuit.num_qubits,
-                            num_clbits: circuit.num_clbits,
-                            output: Output::Circuit(circuit),
-                            final_layout: Vec::new(),
-                        });
+                    })
+                    .collect::<Result<Vec<_>, IrError>>()?;
+                let mut built = PointBuilt {
+                    finished: Vec::with_capacity(frames_k.len()),
+                    kept: Vec::new(),
+                    most_two_qubit: 0,
+                };
+                for f in frames_k {
+                    // Each candidate's readout is counted on an overlay of its shared body
+                    // (nothing copied); the first with the fewest two-qubit gates, then the
+                    // lowest depth, is built. A single candidate is counted once it is built.
+                    let mut best: Option<(usize, Option<Counts>)> = None;
+                    if bodies.len() == 1 {
+                        best = Some((0, None));
                     }
-                    Ok(out)
-                })
+                    for (i, body) in bodies.iter().enumerate().filter(|_| bodies.len() > 1) {
+                        let n = body.counts_with_readout(f.num_qubits, &f.suffix);
+                        if cfg!(debug_assertions) {
+                            let mut c = Circuit::new(f.num_qubits, f.num_clbits);
+                            c.gates = body.with_readout(&f.suffix);
+                            verify_ir(&c, &Rules::default()).map_err(|e| IrError {
+                                message: format!(
+                                    "after passes `readout` and `cancel`: {}",
+                                    e.message
+                                ),
+                                ..e
+                            })?;
+                        }
+                        let better = best.as_ref().is_none_or(|b| {
+                            let b = b.1.expect("counted");
+                            (n.two_qubit, n.depth) < (b.two_qubit, b.depth)
+                        });
+                        if better {
+                            best = Some((i, Some(n)));
+                        }
+                    }
+                    let (i, n) = best.expect("at least the chain candidate");
+                    let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+                    circuit.gates = bodies[i].with_readout(&f.suffix);
+                    verify_ir(&circuit, &Rules::default()).map_err(|e| IrError {
+                        message: format!("after pass `cancel`: {}", e.message),
+                        ..e
+                    })?;
+                    let n = n.unwrap_or_else(|| crate::circuit::metrics::counts(&circuit));
+                    if !built.kept.contains(&cands[i]) {
+                        built.kept.push(cands[i]);
+                    }
+                    built.most_two_qubit = built.most_two_qubit.max(n.two_qubit);
+                    built.finished.push(Finished {
+                        fanout: None,
+                        costs: n.into(),
+                        id: f.id,
+                        k: f.k,
+                        time: f.time,
+                        part: f.part,
+                        state: f.state,
+                        group: f.group,
+                        reads: f.reads,
+                        num_qubits: circuit.num_qubits,
+                        num_clbits: circuit.num_clbits,
+                        output: Output::Circuit(circuit),
+                        final_layout: Vec::new(),
+                    });
+                }
+                Ok(built)
+            };
+            // The first time point with a step is built from every candidate; when its
+            // circuits are past `SCORE_ONCE_MIN` two-qubit gates, the other points try only
+            // the candidates it kept (and the chain, so a level still never emits more than the
+            // level below): at utility scale each extra candidate costs a whole synthesis and
+            // peephole pass per point, and which one wins is decided by the step, not by k.
+            let mut done: Vec<Option<Vec<Finished>>> = (0..shared.len()).map(|_| None).collect();
+            let mut only: Option<Vec<(ProgramOrder, Synthesis)>> = None;
+            if let Some(s) = shared.iter().position(|g| g[0].k > 0) {
+                let built = build(std::mem::take(&mut shared[s]), None)?;
+                if built.most_two_qubit > SCORE_ONCE_MIN {
+                    only = Some(built.kept);
+                }
+                done[s] = Some(built.finished);
+            }
+            let rest: Vec<(usize, Vec<Finished>)> = shared
+                .into_par_iter()
+                .enumerate()
+                .filter(|(_, g)| !g.is_empty())
+                .map(|(i, g)| Ok((i, build(g, only.as_deref())?.finished)))
                 .collect::<Result<Vec<_>, IrError>>()?;
-            let done: Vec<Finished> = done.into_iter().flatten().collect();
+            for (i, f) in rest {
+                done[i] = Some(f);
+            }
+            let done: Vec<Finished> = done.into_iter().flatten().flatten().collect();
             Ok(finish(h, source, spec, done, None, Addressing::Logical))
         }
         Target::Device { device, config } => {

@@ -76,3 +76,72 @@ proptest! {
         }
     }
 }
+
+/// Past `SCORE_ONCE_MIN` two-qubit gates at the first time point, the later points try only
+/// the candidates that point kept, plus the chain: the circuits stay exact (simulated against
+/// the ideal product formula) and no point emits more two-qubit gates than level 2, which
+/// writes every point with chains.
+#[test]
+fn points_past_the_scoring_size_stay_exact_and_no_worse_than_chains() {
+    use phasewright::pipeline::{compile_at, OptLevel, Target, SCORE_ONCE_MIN};
+    use rand::{Rng, SeedableRng};
+    let n = 9;
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+    let mut h = PauliSum::new(n);
+    while h.terms.len() < 40 {
+        h.add(
+            PauliString::from_masks(rng.gen::<u64>() & 0x1ff, rng.gen::<u64>() & 0x1ff),
+            rng.gen_range(-1.0..1.0),
+        );
+    }
+    let spec = Spec {
+        control: phasewright::family::control::Control::Evolution,
+        family: Family::Overlap,
+        order: Order::Second,
+        dt: 0.2,
+        points: 3,
+        steps_per_dt: 70,
+        states: vec!["0+1r0-l01".to_string()],
+    };
+    let best = compile_at(&h, "random", &spec, &Target::AllToAll, OptLevel::MAX).unwrap();
+    let chains = compile_at(
+        &h,
+        "random",
+        &spec,
+        &Target::AllToAll,
+        OptLevel::new(2).unwrap(),
+    )
+    .unwrap();
+    let first = best.plan.circuits.iter().find(|c| c.k == 1).unwrap();
+    assert!(
+        first.costs.two_qubit > SCORE_ONCE_MIN,
+        "the case must pass the scoring size: {} two-qubit gates",
+        first.costs.two_qubit
+    );
+    let read_back: Vec<_> = best
+        .programs
+        .iter()
+        .map(|t| qasm::read("c.qasm", t).unwrap().circuit)
+        .collect();
+    for c in &best.circuits {
+        verify_ir(c, &Rules::default()).unwrap();
+    }
+    for c in check_plan(&best.plan, &read_back).unwrap() {
+        assert!(
+            c.compile_error <= COMPILE_TOLERANCE,
+            "{}: compile error {}",
+            c.id,
+            c.compile_error
+        );
+    }
+    for (b, c) in best.plan.circuits.iter().zip(&chains.plan.circuits) {
+        assert_eq!(b.id, c.id);
+        assert!(
+            b.costs.two_qubit <= c.costs.two_qubit,
+            "{}: {} two-qubit gates at level 3, {} at level 2",
+            b.id,
+            b.costs.two_qubit,
+            c.costs.two_qubit
+        );
+    }
+}

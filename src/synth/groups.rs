@@ -35,7 +35,13 @@
 //! lowers the least weight by one, so the network ends after at most `Σ (w_j − 1)` CNOTs, the
 //! cost of one ladder per string. A pair's score needs only the histogram of the sixteen
 //! two-qubit restrictions of the strings left to `(a, b)` and a sixteen-entry table of the
-//! candidate's action, so a choice costs `O(k + w²)` and not `O(k · w²)`.
+//! candidate's action, so a choice costs `O(k + w²)` and not `O(k · w²)`. The strings of a run
+//! (at most [`RUN_MAX`] = 64) are the bits of one word, and each local qubit keeps one mask per
+//! letter, so the histogram sums only over the strings that touch `a` or `b` (few: strings are
+//! sparse) and a step updates only those strings and the two qubits' masks. A run's network
+//! depends on its strings alone, so within one block each distinct run is reduced once and
+//! reused (a block of `k` Trotter steps meets the same runs about `k` times). With runs
+//! bounded, a block costs `O(rotations · RUN_MAX)` at most.
 //!
 //! With hop distances (a coupling graph), a CNOT between qubits `d` hops apart costs about
 //! `3(d − 1)` more for the SWAPs that bring them together, both in `C` and in `C†`, and a
@@ -207,29 +213,58 @@ enum Event {
 /// between local qubits, `to_control(q)` that of `q` from the control (0 without a graph).
 fn network(
     rows: &mut [Row],
-    mut live: Vec<usize>,
+    live: Vec<usize>,
     passive: std::ops::Range<usize>,
     m: usize,
     dist: &dyn Fn(u8, u8) -> u32,
     to_control: &dyn Fn(u8) -> u32,
 ) -> (Vec<Event>, usize) {
-    // Tables for every (letter a, way a, letter b, way b) on local qubits 0 and 1.
-    let mut tables = [[0u32; 16]; 36];
-    for la in 1..4 {
-        for lb in 1..4 {
-            for wa in 0..2 {
-                for wb in 0..2 {
-                    let k = ((la - 1) * 3 + (lb - 1)) * 4 + wa * 2 + wb;
-                    tables[k] = weight_table(&candidate(la, wa == 1, 0, lb, wb == 1, 1));
+    // Per (letter a, way a, letter b, way b): the change in weight each of the sixteen
+    // restrictions undergoes, computed once.
+    static DELTAS: std::sync::OnceLock<[[i8; 16]; 36]> = std::sync::OnceLock::new();
+    let deltas = DELTAS.get_or_init(|| {
+        let old_weight = |r: usize| ((r & 3 != 0) as i8) + ((r >> 2 != 0) as i8);
+        let mut deltas = [[0i8; 16]; 36];
+        for la in 1..4 {
+            for lb in 1..4 {
+                for wa in 0..2 {
+                    for wb in 0..2 {
+                        let k = ((la - 1) * 3 + (lb - 1)) * 4 + wa * 2 + wb;
+                        let t = weight_table(&candidate(la, wa == 1, 0, lb, wb == 1, 1));
+                        for r in 0..16 {
+                            deltas[k][r] = t[r] as i8 - old_weight(r);
+                        }
+                    }
                 }
             }
         }
+        deltas
+    });
+    // The live strings as bits of a word (bit i is `rows[slot[i]]`; a run holds at most
+    // `RUN_MAX` ≤ 64), and per local qubit one mask per letter: a pair's histogram of the
+    // sixteen restrictions is then sixteen popcounts, and a step updates the masks of the two
+    // qubits it touched.
+    let slot = live;
+    let mut live: Vec<usize> = (0..slot.len()).collect();
+    let mut live_mask: u64 = u64::MAX >> (64 - slot.len().max(1));
+    // `columns[q][l]`: the strings with letter `l` (1 = X, 2 = Z, 3 = Y) on `q`.
+    let mut columns: Vec<[u64; 4]> = vec![[0; 4]; m];
+    let mark = |columns: &mut [[u64; 4]], r: &Row, q: u8, bit: u64| {
+        columns[q as usize][r.letter(q)] |= bit;
+    };
+    for (i, &j) in slot.iter().enumerate() {
+        let mut support = rows[j].x | rows[j].z;
+        while support != 0 {
+            let q = support.trailing_zeros() as u8;
+            support &= support - 1;
+            mark(&mut columns, &rows[j], q, 1 << i);
+        }
     }
-    let old_weight = |r: usize| ((r & 3 != 0) as u32) + ((r >> 2 != 0) as u32);
     let mut events = Vec::new();
     let mut cnots = 0;
     loop {
-        live.retain(|&j| {
+        live.retain(|&i| {
+            let j = slot[i];
             let r = rows[j];
             if r.weight() == 1 {
                 let q = (r.x | r.z).trailing_zeros() as u8;
@@ -239,6 +274,7 @@ fn network(
                     letter: r.letter(q),
                     neg: r.neg,
                 });
+                live_mask &= !(1 << i);
                 false
             } else {
                 true
@@ -247,30 +283,45 @@ fn network(
         if live.is_empty() {
             break;
         }
-        let least = live.iter().map(|&j| rows[j].weight()).min().expect("live");
+        let least = live
+            .iter()
+            .map(|&i| rows[slot[i]].weight())
+            .min()
+            .expect("live");
         // Best candidate: (score, pivot order, a, b, table index).
         let mut best: Option<(i64, usize, u8, u8, usize)> = None;
-        let mut hist_cache: std::collections::BTreeMap<(u8, u8), [u32; 16]> = Default::default();
-        for (rank, &p) in live
+        let mut restrictions: Vec<usize> = Vec::with_capacity(64);
+        for (rank, p) in live
             .iter()
-            .filter(|&&j| rows[j].weight() == least)
+            .map(|&i| slot[i])
+            .filter(|&j| rows[j].weight() == least)
             .take(8)
             .enumerate()
         {
             let pr = rows[p];
-            let support: Vec<u8> = (0..m as u8).filter(|&q| pr.letter(q) != 0).collect();
+            let mut support = Vec::with_capacity(pr.weight() as usize);
+            let mut bits = pr.x | pr.z;
+            while bits != 0 {
+                support.push(bits.trailing_zeros() as u8);
+                bits &= bits - 1;
+            }
             for &a in &support {
                 for &b in &support {
                     if a == b {
                         continue;
                     }
-                    let hist = *hist_cache.entry((a, b)).or_insert_with(|| {
-                        let mut h = [0u32; 16];
-                        for &j in &live {
-                            h[rows[j].letter(a) | rows[j].letter(b) << 2] += 1;
-                        }
-                        h
-                    });
+                    // The restrictions `r = letter_a | letter_b << 2` of the live strings that
+                    // touch `a` or `b` (the others do not change the score): few, as strings
+                    // are sparse, so the score sums over them rather than over all sixteen.
+                    let (ca, cb) = (&columns[a as usize], &columns[b as usize]);
+                    let mut touching = (ca[1] | ca[2] | ca[3] | cb[1] | cb[2] | cb[3]) & live_mask;
+                    restrictions.clear();
+                    while touching != 0 {
+                        let bit = touching & touching.wrapping_neg();
+                        touching ^= bit;
+                        let letter = |c: &[u64; 4]| (1..4).find(|&l| c[l] & bit != 0).unwrap_or(0);
+                        restrictions.push(letter(ca) | letter(cb) << 2);
+                    }
                     let (la, lb) = (pr.letter(a), pr.letter(b));
                     let travel = 6 * dist(a, b).saturating_sub(1) as i64;
                     // The pivot ends on `a`: its controlled rz there, if it is now single.
@@ -281,10 +332,8 @@ fn network(
                     };
                     for way in 0..4 {
                         let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
-                        let t = &tables[k];
-                        let delta: i64 = (0..16)
-                            .map(|r| hist[r] as i64 * (t[r] as i64 - old_weight(r) as i64))
-                            .sum();
+                        let d = &deltas[k];
+                        let delta: i64 = restrictions.iter().map(|&r| d[r] as i64).sum();
                         let score = 2 * delta + travel + reach;
                         if best.is_none_or(|(s, ..)| score < s) {
                             best = Some((score, rank, a, b, k));
@@ -295,14 +344,32 @@ fn network(
         }
         let (_, _, a, b, k) = best.expect("a pivot of weight ≥ 2 has a pair");
         let (la, lb, way) = (k / 4 / 3 + 1, k / 4 % 3 + 1, k % 4);
+        // The ops act on `a` and `b` alone: a string with `I` on both is left as it was.
+        let (ca, cb) = (columns[a as usize], columns[b as usize]);
+        let touching = (ca[1] | ca[2] | ca[3] | cb[1] | cb[2] | cb[3]) & live_mask;
         for op in candidate(la, way / 2 == 1, a, lb, way % 2 == 1, b) {
-            for &j in &live {
-                rows[j].apply(op);
+            let mut bits = touching;
+            while bits != 0 {
+                rows[slot[bits.trailing_zeros() as usize]].apply(op);
+                bits &= bits - 1;
             }
             for row in &mut rows[passive.clone()] {
                 row.apply(op);
             }
             events.push(Event::Gate(op));
+        }
+        for q in [a, b] {
+            for mask in &mut columns[q as usize][1..] {
+                *mask &= !touching;
+            }
+        }
+        let mut bits = touching;
+        while bits != 0 {
+            let i = bits.trailing_zeros() as usize;
+            bits &= bits - 1;
+            for q in [a, b] {
+                mark(&mut columns, &rows[slot[i]], q, 1 << i);
+            }
         }
         cnots += 1;
     }
@@ -536,6 +603,8 @@ fn carried(block: &Block, qubits: &[Qubit], rows: Vec<Row>) -> Option<Vec<Gate>>
 /// Largest run (rotations) and widest run (qubits) synthesised as one network; larger runs
 /// are cut into pieces of this many rotations (any cut of a commuting run is exact).
 pub const RUN_MAX: usize = 64;
+// `network` holds a run's strings as the bits of one word.
+const _: () = assert!(RUN_MAX <= 64);
 const WIDTH_MAX: usize = 128;
 
 /// Commuting runs of the block synthesised as one greedy Clifford network each (see the
@@ -618,12 +687,29 @@ fn local_rows(rotations: &[Rotation], qubits: &[Qubit]) -> Vec<Row> {
         .collect()
 }
 
+/// The networks of the runs met so far in one block, by the run's strings: `None` where
+/// ladders are cheaper. A run's network depends on its strings alone (angles only enter the
+/// `rz`), and a block of `k` Trotter steps meets the same runs about `k` times.
+type Networks = std::collections::HashMap<Vec<crate::pauli::PauliString>, Option<Vec<Event>>>;
+
 /// The gates of one commuting run (see [`Groups`]).
 pub fn run_gates(
     run: &[Rotation],
     control: Option<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+    out: &mut Vec<Gate>,
+) {
+    run_gates_with(run, control, distance, ladder, &mut Networks::new(), out)
+}
+
+/// [`run_gates`], reusing (and adding to) the networks `seen` of runs with the same strings.
+fn run_gates_with(
+    run: &[Rotation],
+    control: Option<Qubit>,
+    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+    seen: &mut Networks,
     out: &mut Vec<Gate>,
 ) {
     let ladders = |out: &mut Vec<Gate>| {
@@ -635,24 +721,27 @@ pub fn run_gates(
     if run.len() < 2 || qubits.len() > WIDTH_MAX {
         return ladders(out);
     }
-    let rows = local_rows(run, &qubits);
-    let dist = |a: u8, b: u8| distance.map_or(1, |d| d(qubits[a as usize], qubits[b as usize]));
-    let to_control = |a: u8| match (distance, control) {
-        (Some(d), Some(c)) => d(qubits[a as usize], c),
-        _ => 1,
-    };
-    let mut rows = rows;
-    let live = (0..rows.len()).collect();
-    let (events, cnots) = network(&mut rows, live, 0..0, qubits.len(), &dist, &to_control);
-    let ladder_cnots: usize = run
-        .iter()
-        .map(|r| r.pauli.weight().saturating_sub(1) as usize)
-        .sum();
-    if cnots >= ladder_cnots {
+    let key: Vec<crate::pauli::PauliString> = run.iter().map(|r| r.pauli.clone()).collect();
+    let events = seen.entry(key).or_insert_with(|| {
+        let mut rows = local_rows(run, &qubits);
+        let dist = |a: u8, b: u8| distance.map_or(1, |d| d(qubits[a as usize], qubits[b as usize]));
+        let to_control = |a: u8| match (distance, control) {
+            (Some(d), Some(c)) => d(qubits[a as usize], c),
+            _ => 1,
+        };
+        let live = (0..rows.len()).collect();
+        let (events, cnots) = network(&mut rows, live, 0..0, qubits.len(), &dist, &to_control);
+        let ladder_cnots: usize = run
+            .iter()
+            .map(|r| r.pauli.weight().saturating_sub(1) as usize)
+            .sum();
+        (cnots < ladder_cnots).then_some(events)
+    });
+    let Some(events) = events else {
         return ladders(out);
-    }
+    };
     let mut ops = Vec::new();
-    for e in events {
+    for &e in events.iter() {
         match e {
             Event::Gate(op) => {
                 out.push(gate(op, &qubits));
@@ -671,12 +760,14 @@ pub fn run_gates(
 impl Strategy for Groups<'_> {
     fn synthesize(&self, block: &Block, out: &mut Vec<Gate>) {
         let mut per_run = Vec::new();
+        let mut seen = Networks::new();
         for run in commuting_runs(block.rotations) {
-            run_gates(
+            run_gates_with(
                 &block.rotations[run],
                 block.control,
                 block.distance,
                 self.ladder,
+                &mut seen,
                 &mut per_run,
             );
         }
