@@ -90,6 +90,12 @@ impl LayerError for CheckError {
     }
 }
 
+impl From<crate::family::plan::PlanError> for CheckError {
+    fn from(e: crate::family::plan::PlanError) -> CheckError {
+        CheckError::Plan(e.to_string())
+    }
+}
+
 impl From<SimError> for CheckError {
     fn from(source: SimError) -> CheckError {
         CheckError::TooLarge {
@@ -152,7 +158,7 @@ pub fn reference_count(plan: &Plan) -> usize {
 
 /// The compiled Hamiltonian: the plan's terms without the constant, which is never a gate.
 pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, CheckError> {
-    let mut h = plan.pauli_sum().map_err(CheckError::Plan)?;
+    let mut h = plan.pauli_sum()?;
     h.constant = 0.0;
     Ok(h)
 }

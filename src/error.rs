@@ -4,7 +4,8 @@
 //! Out: one value rendered once by the binary. Bad input exits with 2, internal failures with 1;
 //! a closed stdout (the reader of a pipe stopped early) is a quiet exit with status 0.
 //!
-//! The library layers without source text (`check`, `estimate`, `sim`, `fermion`, `report`)
+//! The library layers without source text (`check`, `estimate`, `sim`, `fermion`, `report`,
+//! `route`, the plan of `family`, the claims of `tableau`, the native sets of `device`)
 //! each have their own error enum implementing [`LayerError`]: every variant says whether it is
 //! bad input (with its catalogue code) or a phasewright bug, so the command layer converts it
 //! with [`Error::from_layer`] / [`Error::layer_in`] and never picks an exit status itself.
@@ -73,6 +74,10 @@ from_layer!(
     crate::sim::SimError,
     crate::fermion::FermionError,
     crate::report::plot::PlotError,
+    crate::route::RouteError,
+    crate::family::plan::PlanError,
+    crate::tableau::equiv::ClaimError,
+    crate::device::native::NativeError,
 );
 
 impl Error {
@@ -196,10 +201,13 @@ pub type Result<T> = std::result::Result<T, Error>;
 mod tests {
     use super::*;
     use crate::check::CheckError;
+    use crate::device::native::NativeError;
     use crate::estimate::EstimateError;
+    use crate::family::plan::PlanError;
     use crate::fermion::FermionError;
     use crate::report::plot::PlotError;
     use crate::sim::SimError;
+    use crate::tableau::equiv::ClaimError;
 
     /// (exit status, code, rendered text) of a converted layer error.
     fn shown(e: Error) -> (u8, Option<Code>, String) {
@@ -265,5 +273,32 @@ mod tests {
         );
         let (exit, _, _) = shown(PlotError::Empty("energy").into());
         assert_eq!(exit, 2);
+
+        // The plan, claim and native-set layers: all bad input, each under its own code.
+        let term = PlanError::UnreadableTerm {
+            term: "Z0 Q1".into(),
+            num_qubits: 2,
+        };
+        let (exit, code, text) = shown(term.clone().into());
+        assert_eq!((exit, code), (2, Some(Code::PlanInconsistent)));
+        assert!(
+            text.starts_with("error P301: plan.json: cannot read term `Z0 Q1` on 2 qubits\n"),
+            "{text}"
+        );
+        let (exit, code, text) = shown(ClaimError::UnknownOrder(3).into());
+        assert_eq!((exit, code), (2, Some(Code::PlanSyntax)));
+        assert!(
+            text.contains("hint: plan.json does not describe a campaign phasewright wrote"),
+            "{text}"
+        );
+        let (exit, code, text) = shown(ClaimError::Hamiltonian(CheckError::from(term)).into());
+        assert_eq!((exit, code), (2, Some(Code::PlanSyntax)));
+        assert!(
+            text.contains(": plan.json: cannot read term `Z0 Q1`"),
+            "{text}"
+        );
+        let (exit, code, text) = shown(NativeError::NoEntangler.into());
+        assert_eq!((exit, code), (2, Some(Code::DevDeclare)));
+        assert!(text.contains("no entangling gate (cx or cz)"), "{text}");
     }
 }

@@ -91,7 +91,7 @@ use crate::pauli::PauliSum;
 use crate::qasm::{write, Addressing};
 use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
-    RouteConfig,
+    RouteConfig, RouteError,
 };
 use crate::synth::{Block, Chain, Groups, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
@@ -243,14 +243,21 @@ pub fn all_to_all_passes<'a>(
     passes
 }
 
-/// Why compilation stopped: the problem does not fit the target (bad input), or a pass broke
-/// an IR invariant (a compiler bug).
+/// Why compilation stopped: routing refused the target or failed ([`RouteError`] says whether
+/// the problem does not fit the device or the router has a bug), the campaign is too large for
+/// this machine (bad input), or a pass broke an IR invariant (a compiler bug).
 #[derive(Debug)]
 pub enum CompileError {
-    DoesNotFit(String),
+    Route(RouteError),
     /// The predicted peak memory exceeds what the machine has (see [`predicted_memory`]).
     TooLarge(String),
     Ir(IrError),
+}
+
+impl From<RouteError> for CompileError {
+    fn from(e: RouteError) -> CompileError {
+        CompileError::Route(e)
+    }
 }
 
 impl From<IrError> for CompileError {
@@ -262,11 +269,7 @@ impl From<IrError> for CompileError {
 impl From<CompileError> for crate::error::Error {
     fn from(e: CompileError) -> crate::error::Error {
         match e {
-            CompileError::DoesNotFit(m) => crate::error::Error::usage(
-                crate::lang::codes::Code::UsageInput,
-                m,
-                Some("choose a larger device, or one whose coupling graph is connected"),
-            ),
+            CompileError::Route(e) => crate::error::Error::from(e),
             CompileError::TooLarge(m) => crate::error::Error::usage(
                 crate::lang::codes::Code::UsageLimit,
                 m,
@@ -757,8 +760,7 @@ pub fn compile_at(
                     let partners = prep_partners(&spec.states);
                     plan_and_route_free_step(h, &partners, device, config, spec.order, step_dt)
                 }
-            }
-            .map_err(CompileError::DoesNotFit)?;
+            }?;
             // Level 3 also offers the step with the control spread over copies of the ancilla
             // on spare sites (`route::cat`); it is kept below only if the campaign it emits
             // has fewer two-qubit gates.

@@ -6,7 +6,9 @@ use phasewright::formula::{evolution, order_terms, Order, Rotation};
 use phasewright::lang::dev::parse_device;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::qasm::{write, Addressing};
-use phasewright::route::{plan_target, routing_error, to_device, RouteConfig, TargetPlan};
+use phasewright::route::{
+    plan_target, routing_error, to_device, RouteConfig, RouteError, TargetPlan,
+};
 use phasewright::synth::pauli_rotation_along;
 
 fn two_qubit(c: &Circuit) -> usize {
@@ -153,6 +155,11 @@ fn devices_that_cannot_hold_the_problem_are_refused_with_a_reason() {
     let h = heisenberg_chain(5);
     let small = line_device(5, &["rz", "sx", "cx"]);
     let e = plan_target(&h, true, &small, &RouteConfig::default()).unwrap_err();
+    assert!(
+        matches!(e, RouteError::TooFewQubits { has: 5, .. }),
+        "{e:?}"
+    );
+    let e = e.to_string();
     assert!(e.contains("has 5 qubits; the problem needs 6"), "{e}");
     // Two lines of 4: eight qubits, but no connected part holds six.
     let split = Device::new(
@@ -163,6 +170,11 @@ fn devices_that_cannot_hold_the_problem_are_refused_with_a_reason() {
         Calibration::default(),
     );
     let e = plan_target(&h, true, &split, &RouteConfig::default()).unwrap_err();
+    assert!(
+        matches!(e, RouteError::Disconnected { largest: 4, .. }),
+        "{e:?}"
+    );
+    let e = e.to_string();
     assert!(e.contains("disconnected"), "{e}");
     // A disconnected device whose large part suffices is fine: the layout stays inside it.
     let h3 = heisenberg_chain(3);

@@ -11,6 +11,13 @@
 //! (1995)). One-qubit sets recognised here: `U` alone; `rz` with `sx`, `rx`, `ry` or `h`; `rx`
 //! with `ry`. Two rotations about orthogonal axes give every rotation by an Euler decomposition
 //! (Nielsen & Chuang 2010, Theorem 4.1); `rz` with `sx` or `h` gives `rx` by conjugation.
+//!
+//! Errors: a list of names without a target is a [`NativeError`] (no universal one-qubit set, or
+//! no entangling gate). The names come from a device file, so both are bad input, reported under
+//! `D102` (exit 2); the `.dev` reader adds the place in the file and a hint.
+
+use crate::error::{Blame, LayerError};
+use crate::lang::codes::Code;
 
 /// Every gate name of the OpenQASM 3 standard library (`stdgates.inc`, v3.0), plus the built-in
 /// `U`. Source: OpenQASM 3 specification, "Standard library" section.
@@ -77,11 +84,39 @@ pub fn gate_arity(name: &str) -> usize {
     }
 }
 
+/// Why a list of gate names is not a native set phasewright can target; always bad input.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum NativeError {
+    /// No one-qubit basis of those [`NativeSet::from_names`] recognises.
+    NotUniversal,
+    /// Neither `cx` nor `cz`.
+    NoEntangler,
+}
+
+impl std::fmt::Display for NativeError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            NativeError::NotUniversal => {
+                "the native gates do not form a universal single-qubit set that phasewright can target"
+            }
+            NativeError::NoEntangler => "the native gates have no entangling gate (cx or cz)",
+        })
+    }
+}
+
+impl std::error::Error for NativeError {}
+
+impl LayerError for NativeError {
+    fn blame(&self) -> Blame {
+        Blame::Input(Code::DevDeclare)
+    }
+}
+
 impl NativeSet {
     /// Chooses the lowering targets from a list of standard gate names, or says why it cannot.
     /// Preference when several bases fit: `U`, then `rz`+`sx`, `rz`+`rx`, `rz`+`ry`, `rx`+`ry`,
     /// `rz`+`h`; `cx` before `cz`.
-    pub fn from_names(names: &[&str]) -> Result<NativeSet, String> {
+    pub fn from_names(names: &[&str]) -> Result<NativeSet, NativeError> {
         let mut sorted: Vec<String> = names.iter().map(|s| s.to_string()).collect();
         sorted.sort();
         sorted.dedup();
@@ -114,11 +149,8 @@ impl NativeSet {
                 one_qubit,
                 two_qubit,
             }),
-            (None, _) => Err(
-                "the native gates do not form a universal single-qubit set that phasewright can target"
-                    .to_string(),
-            ),
-            (_, None) => Err("the native gates have no entangling gate (cx or cz)".to_string()),
+            (None, _) => Err(NativeError::NotUniversal),
+            (_, None) => Err(NativeError::NoEntangler),
         }
     }
 

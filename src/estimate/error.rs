@@ -92,6 +92,12 @@ impl fmt::Display for EstimateError {
 
 impl std::error::Error for EstimateError {}
 
+impl From<crate::family::plan::PlanError> for EstimateError {
+    fn from(e: crate::family::plan::PlanError) -> EstimateError {
+        EstimateError::Plan(e.to_string())
+    }
+}
+
 impl LayerError for EstimateError {
     fn blame(&self) -> Blame {
         Blame::Input(match self {

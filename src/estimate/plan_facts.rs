@@ -18,7 +18,7 @@ pub fn small_hamiltonian(plan: &Plan) -> Option<PauliSum> {
 
 /// Rebuilds `H` (constant included) from the plan's term list.
 pub fn plan_hamiltonian(plan: &Plan) -> Result<PauliSum, EstimateError> {
-    plan.pauli_sum().map_err(EstimateError::Plan)
+    plan.pauli_sum().map_err(EstimateError::from)
 }
 
 /// `⟨ψ_s|H − c|ψ_s⟩` for a product reference state written with the letters `0 1 + - r l`

@@ -28,9 +28,45 @@
 //! the listed classical bits; for part `re` it estimates `Re q`, for part `im` it estimates `Im q`,
 //! where `q` is `⟨ψ_s|U(k·dt)|ψ_s⟩` (target `overlap`) or `⟨ψ_s|P_j U(k·dt)|ψ_s⟩` (target `term`
 //! j, an index into `hamiltonian.terms`).
+//!
+//! Errors: what the plan's contents cannot give back is a [`PlanError`] (today: a term of
+//! `hamiltonian.terms` that does not read as a Pauli string on the plan's qubits). A plan is
+//! user input, so every [`PlanError`] is bad input, reported under `P301` (exit 2).
+//! [`Plan::validate`] reports the same problems with their place in the file first; a plan
+//! built in code can still reach these.
 
 use crate::circuit::metrics::Counts;
+use crate::error::{Blame, LayerError};
+use crate::lang::codes::Code;
 use serde::{Deserialize, Serialize};
+
+/// What a plan's contents cannot give back; always bad input (see the module header).
+#[derive(Clone, Debug, PartialEq)]
+pub enum PlanError {
+    /// A term's text does not read as a Pauli string on `num_qubits` qubits.
+    UnreadableTerm { term: String, num_qubits: usize },
+}
+
+impl std::fmt::Display for PlanError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PlanError::UnreadableTerm { term, num_qubits } => write!(
+                f,
+                "plan.json: cannot read term `{term}` on {num_qubits} qubits"
+            ),
+        }
+    }
+}
+
+impl std::error::Error for PlanError {}
+
+impl LayerError for PlanError {
+    fn blame(&self) -> Blame {
+        match self {
+            PlanError::UnreadableTerm { .. } => Blame::Input(Code::PlanInconsistent),
+        }
+    }
+}
 
 /// Identifies the schema in `plan.json`.
 pub const PLAN_FORMAT: &str = "phasewright-plan/3";
@@ -797,15 +833,16 @@ impl Plan {
 
     /// The Hamiltonian rebuilt from `hamiltonian.terms` (sparse `X0 Y1 Z3` text) with its
     /// identity coefficient as `constant`. Errors name the term that does not read back.
-    pub fn pauli_sum(&self) -> Result<crate::pauli::PauliSum, String> {
+    pub fn pauli_sum(&self) -> Result<crate::pauli::PauliSum, PlanError> {
         let n = self.hamiltonian.num_qubits;
         let mut h = crate::pauli::PauliSum::new(n);
         h.constant = self.hamiltonian.constant;
         for t in &self.hamiltonian.terms {
             let p = crate::pauli::PauliString::parse_factor_text(&t.pauli)
                 .filter(|p| p.span() <= n)
-                .ok_or_else(|| {
-                    format!("plan.json: cannot read term `{}` on {n} qubits", t.pauli)
+                .ok_or_else(|| PlanError::UnreadableTerm {
+                    term: t.pauli.clone(),
+                    num_qubits: n,
                 })?;
             h.add(p, t.coeff);
         }

@@ -557,7 +557,7 @@ fn build(cx: &mut Ctx, stmts: &[(&str, Stmt)]) -> Option<Device> {
                 Err(reason) => {
                     // With a misspelt name the set is judged once the name is fixed.
                     if names.len() == native_listed {
-                        cx.err(Code::DevDeclare, at, reason, Some(SETS_HINT));
+                        cx.err(Code::DevDeclare, at, reason.to_string(), Some(SETS_HINT));
                     }
                     None
                 }

@@ -9,7 +9,7 @@
 //! Inputs: every computational basis state when the logical circuit has at most 5 qubits (so the
 //! check is an exact unitary equality on the logical subspace), otherwise 8 seeded random states.
 
-use super::Routed;
+use super::{RouteError, Routed};
 use crate::circuit::Circuit;
 use crate::sim::{run, State};
 use num_complex::Complex64;
@@ -40,8 +40,9 @@ fn embed(s: &State, pos: &[u32], k: usize) -> State {
     out
 }
 
-/// Simulation error of a routing result (see the module header), or why it cannot be checked.
-pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> {
+/// Simulation error of a routing result (see the module header), or why it cannot be checked:
+/// its measurements moved (a routing bug) or it is too wide to simulate.
+pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, RouteError> {
     let n = logical.num_qubits;
     let mut want_meas: Vec<(u32, u32)> = logical
         .measurements()
@@ -52,9 +53,10 @@ pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> 
     want_meas.sort_unstable();
     got_meas.sort_unstable();
     if want_meas != got_meas {
-        return Err(format!(
-            "measurements differ: expected (physical, bit) {want_meas:?}, found {got_meas:?}"
-        ));
+        return Err(RouteError::MeasurementsDiffer {
+            expected: want_meas,
+            found: got_meas,
+        });
     }
     let keep: Vec<u32> = routed
         .initial_layout
@@ -64,10 +66,9 @@ pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, String> 
         .collect();
     let (cc, new_to_phys) = routed.circuit.compacted_keeping(&keep);
     if cc.num_qubits > MAX_CHECK_QUBITS {
-        return Err(format!(
-            "the routed circuit touches {} qubits; the check simulates at most {MAX_CHECK_QUBITS}",
-            cc.num_qubits
-        ));
+        return Err(RouteError::TooWideToCheck {
+            qubits: cc.num_qubits,
+        });
     }
     let new_of = |p: u32| new_to_phys.iter().position(|&x| x == p).expect("kept") as u32;
     let init: Vec<u32> = routed.initial_layout.iter().map(|&p| new_of(p)).collect();

@@ -58,6 +58,7 @@ pub mod campaign;
 pub mod cat;
 pub mod check;
 pub mod embed;
+pub mod error;
 pub mod hub;
 pub mod layout;
 pub mod order;
@@ -74,6 +75,7 @@ use crate::pauli::{PauliString, PauliSum};
 use crate::synth::default_ladder;
 pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
+pub use error::RouteError;
 pub use order::{device_order, order_for_device, DeviceOrder};
 pub use reuse::RoutedStep;
 // (StepForm is defined here)
@@ -216,35 +218,35 @@ impl TargetPlan {
         ancilla: bool,
         dev: &Device,
         initial_layout: Vec<u32>,
-    ) -> Result<TargetPlan, String> {
+    ) -> Result<TargetPlan, RouteError> {
         let n = num_system + ancilla as usize;
         if initial_layout.len() != n {
-            return Err(format!(
-                "the layout places {} qubits; the problem has {n}",
-                initial_layout.len()
-            ));
+            return Err(RouteError::LayoutLength {
+                placed: initial_layout.len(),
+                needed: n,
+            });
         }
         let mut dist = vec![0; n * n];
         for i in 0..n {
             if initial_layout[i] as usize >= dev.num_qubits {
-                return Err(format!(
-                    "physical qubit {} does not exist on `{}`",
-                    initial_layout[i], dev.name
-                ));
+                return Err(RouteError::NoSuchQubit {
+                    qubit: initial_layout[i],
+                    device: dev.name.clone(),
+                });
             }
             for j in 0..n {
                 let d = dev.distance(initial_layout[i], initial_layout[j]);
                 if i != j && d == 0 {
-                    return Err(format!(
-                        "physical qubit {} holds two logical qubits",
-                        initial_layout[i]
-                    ));
+                    return Err(RouteError::SharedQubit {
+                        qubit: initial_layout[i],
+                    });
                 }
                 if d == UNREACHABLE {
-                    return Err(format!(
-                        "physical qubits {} and {} are not connected on `{}`",
-                        initial_layout[i], initial_layout[j], dev.name
-                    ));
+                    return Err(RouteError::NotConnected {
+                        a: initial_layout[i],
+                        b: initial_layout[j],
+                        device: dev.name.clone(),
+                    });
                 }
                 dist[i * n + j] = d;
             }
@@ -270,10 +272,11 @@ impl TargetPlan {
         num_system: usize,
         dev: &Device,
         layout: Vec<u32>,
-    ) -> Result<TargetPlan, String> {
-        let copies = layout.len().checked_sub(num_system + 1).ok_or_else(|| {
-            "the layout places fewer qubits than the system and ancilla".to_string()
-        })?;
+    ) -> Result<TargetPlan, RouteError> {
+        let copies = layout
+            .len()
+            .checked_sub(num_system + 1)
+            .ok_or(RouteError::TooShortForCopies)?;
         let mut plan = TargetPlan::with_layout(num_system + copies, true, dev, layout)?;
         plan.num_system = num_system;
         plan.ancilla = Some(num_system as u32);
@@ -470,14 +473,15 @@ const SEARCH_LEVELS: [(usize, &[f64], &[OrderChoice], usize); 4] = [
 ];
 
 /// Picks the initial layout and ladder plan for `h` (plus the ancilla if `ancilla`) on `dev`,
-/// scoring candidates on one Strang step. Errors are user-facing: the device is too small, or
-/// its coupling graph is split into parts none of which is large enough.
+/// scoring candidates on one Strang step. Errors ([`RouteError`]) are bad input when the device
+/// is too small, or its coupling graph is split into parts none of which is large enough; a
+/// candidate layout the search builds and then refuses would be a bug ([`RouteError::Search`]).
 pub fn plan_target(
     h: &PauliSum,
     ancilla: bool,
     dev: &Device,
     cfg: &RouteConfig,
-) -> Result<TargetPlan, String> {
+) -> Result<TargetPlan, RouteError> {
     Ok(
         plan_on_step(h, ancilla, None, dev, cfg, Order::Second, 1.0)?
             .0
@@ -493,7 +497,7 @@ pub fn plan_and_route_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<(TargetPlan, RoutedStep), String> {
+) -> Result<(TargetPlan, RoutedStep), RouteError> {
     route_with(h, true, None, dev, cfg, order, dt)
 }
 
@@ -508,7 +512,7 @@ pub fn plan_and_route_free_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<(TargetPlan, RoutedStep), String> {
+) -> Result<(TargetPlan, RoutedStep), RouteError> {
     route_with(h, true, Some(partners), dev, cfg, order, dt)
 }
 
@@ -519,7 +523,7 @@ pub fn plan_and_route_plain_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<(TargetPlan, RoutedStep), String> {
+) -> Result<(TargetPlan, RoutedStep), RouteError> {
     route_with(h, false, None, dev, cfg, order, dt)
 }
 
@@ -531,7 +535,7 @@ fn route_with(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<(TargetPlan, RoutedStep), String> {
+) -> Result<(TargetPlan, RoutedStep), RouteError> {
     let (winner, other) = plan_on_step(h, ancilla, free_ancilla, dev, cfg, order, dt)?;
     let symmetric = order != Order::First;
     let build = |(plan, routed): Planned| {
@@ -683,34 +687,32 @@ fn plan_on_step(
     cfg: &RouteConfig,
     order: Order,
     dt: f64,
-) -> Result<(Planned, Option<Planned>), String> {
+) -> Result<(Planned, Option<Planned>), RouteError> {
     let n_sys = h.num_qubits;
     let n = n_sys + ancilla as usize;
-    let with_anc = if ancilla {
-        format!("{n_sys} qubits of the Hamiltonian plus the Hadamard-test ancilla")
-    } else {
-        format!("{n_sys} qubits of the Hamiltonian")
-    };
     if n > dev.num_qubits {
-        return Err(format!(
-            "device `{}` has {} qubits; the problem needs {n} ({with_anc})",
-            dev.name, dev.num_qubits
-        ));
+        return Err(RouteError::TooFewQubits {
+            device: dev.name.clone(),
+            has: dev.num_qubits,
+            system: n_sys,
+            ancilla,
+        });
     }
     if n == 0 {
-        let plan = TargetPlan::with_layout(0, false, dev, Vec::new())?;
+        let plan =
+            TargetPlan::with_layout(0, false, dev, Vec::new()).map_err(RouteError::in_search)?;
         return Ok(((plan, None), None));
     }
     let comps = dev.components();
     let comp = match comps.first() {
         Some(c) if c.len() >= n => c.clone(),
         _ => {
-            return Err(format!(
-                "the coupling graph of `{}` is disconnected and its largest connected part has {} \
-                 qubits; the problem needs {n} connected qubits ({with_anc})",
-                dev.name,
-                comps.first().map_or(0, |c| c.len())
-            ))
+            return Err(RouteError::Disconnected {
+                device: dev.name.clone(),
+                largest: comps.first().map_or(0, |c| c.len()),
+                system: n_sys,
+                ancilla,
+            })
         }
     };
     // `controls`: the ancilla controls the step's rotations (the usual Hadamard test).
@@ -767,7 +769,8 @@ fn plan_on_step(
     let mut orders: std::collections::BTreeMap<Vec<u32>, DeviceOrder> = Default::default();
     let mut evaluate =
         |l: &[u32], factor: f64, choice: OrderChoice, form: StepForm, params: &mut SwapParams| {
-            let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())?;
+            let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())
+                .map_err(RouteError::in_search)?;
             if !controls {
                 plan.ancilla = None;
             }
@@ -806,7 +809,7 @@ fn plan_on_step(
                     fwd = walked;
                 }
             }
-            Ok::<_, String>((plan, parts, fwd, marks))
+            Ok::<_, RouteError>((plan, parts, fwd, marks))
         };
     // Lowering every candidate is exact but costs about a routing; above `EXTRAS_MAX_UNIT`
     // the peephole count (SWAP = 3) stands in for it.

@@ -25,6 +25,12 @@
 //! from the claim's by more than the angle tolerance allows.
 //!
 //! What it does not give: the ideal and exact overlaps (no amplitudes are computed).
+//!
+//! Errors: a plan from which no claim can be rebuilt ([`Claim::from_plan`]) or an entry that
+//! claims no circuit ([`Claim::logical_circuit`]) is a [`ClaimError`]. The plan is user input
+//! that `Plan::validate` has already accepted, so what is left is a plan phasewright did not
+//! write: every variant is bad input, reported under `P101` (exit 2) with the hint that the plan
+//! does not describe a campaign phasewright wrote.
 
 use super::normal::{self, DiffKind};
 use super::{canonicalise_into, canonicalise_turning, Tableau, Tail};
@@ -101,36 +107,168 @@ impl CannotCheck {
     }
 }
 
+/// Why no claim can be rebuilt from a plan, or from one of its entries; always bad input (see
+/// the module header). The entry variants carry the circuit's `id`.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ClaimError {
+    /// The plan's Hamiltonian does not read back.
+    Hamiltonian(crate::check::CheckError),
+    /// `formula.order` is not a product formula phasewright writes.
+    UnknownOrder(u32),
+    /// The initial layout places `placed` qubits; the campaign has `needed`.
+    LayoutLength { placed: usize, needed: usize },
+    /// The initial layout names a qubit outside the device.
+    LayoutQubit { qubit: u32, device_qubits: usize },
+    /// The initial layout names a physical qubit twice.
+    LayoutRepeats,
+    /// The copy placement repeats a qubit, overlaps the start placement or leaves the device.
+    CopyPlacement,
+    /// The entry's state index is past the plan's states.
+    NoSuchState {
+        id: String,
+        state: usize,
+        states: usize,
+    },
+    /// The entry's reference state has a letter the state preparation refuses.
+    StateLetter {
+        id: String,
+        letter: char,
+        index: usize,
+        reason: &'static str,
+    },
+    /// The entry's reference state has the wrong number of letters.
+    StateLength {
+        id: String,
+        letters: usize,
+        qubits: usize,
+    },
+    /// The entry's Krylov measurement group is past the plan's groups.
+    NoSuchGroup {
+        id: String,
+        group: usize,
+        groups: usize,
+    },
+    /// A measurement group in a campaign of another family.
+    GroupOutsideKrylov { id: String, family: Family },
+    /// A plain evolution circuit: the tableau method proves only Hadamard tests.
+    NotHadamardTest { id: String },
+    /// The recorded fan-out has a CNOT outside the circuit's `qubits` qubits.
+    FanOutOutside { id: String, qubits: u32 },
+    /// The recorded fan-out does not prepare the reference `state` on the ancilla's |1⟩ branch.
+    FanOutState { id: String, state: String },
+    /// The Hadamard test refuses a letter of the reference state.
+    BadLetter { id: String, letter: char },
+}
+
+impl std::fmt::Display for ClaimError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ClaimError::Hamiltonian(e) => write!(f, "{e}"),
+            ClaimError::UnknownOrder(o) => write!(f, "plan.json: unknown formula order {o}"),
+            ClaimError::LayoutLength { placed, needed } => write!(
+                f,
+                "plan.json: the initial layout places {placed} qubits; the campaign has {needed} \
+                 (system and ancilla)"
+            ),
+            ClaimError::LayoutQubit {
+                qubit,
+                device_qubits,
+            } => write!(
+                f,
+                "plan.json: the initial layout uses physical qubit {qubit} of a \
+                 {device_qubits}-qubit device"
+            ),
+            ClaimError::LayoutRepeats => {
+                f.write_str("plan.json: the initial layout repeats a physical qubit")
+            }
+            ClaimError::CopyPlacement => f.write_str(
+                "plan.json: the copy placement repeats a physical qubit, names one of the start \
+                 placement, or one the device does not have",
+            ),
+            ClaimError::NoSuchState { id, state, states } => write!(
+                f,
+                "{id}: state {state} is not among the plan's {states} states"
+            ),
+            ClaimError::StateLetter {
+                id,
+                letter,
+                index,
+                reason,
+            } => write!(f, "{id}: bad state letter `{letter}` at {index}: {reason}"),
+            ClaimError::StateLength {
+                id,
+                letters,
+                qubits,
+            } => write!(
+                f,
+                "{id}: the state has {letters} letters for {qubits} qubits"
+            ),
+            ClaimError::NoSuchGroup { id, group, groups } => write!(
+                f,
+                "{id}: group {group} is not among the {groups} measurement groups"
+            ),
+            ClaimError::GroupOutsideKrylov { id, family } => {
+                write!(f, "{id}: a measurement group in a {family:?} campaign")
+            }
+            ClaimError::NotHadamardTest { id } => write!(
+                f,
+                "{id}: the tableau method proves Hadamard-test circuits; use --method \
+                 statevector for plain evolution circuits"
+            ),
+            ClaimError::FanOutOutside { id, qubits } => write!(
+                f,
+                "{id}: the fan-out lists a CNOT outside the {qubits} qubits of the circuit"
+            ),
+            ClaimError::FanOutState { id, state } => write!(
+                f,
+                "{id}: the fan-out does not prepare the reference `{state}` on the ancilla's \
+                 |1⟩ branch"
+            ),
+            ClaimError::BadLetter { id, letter } => write!(f, "{id}: bad state letter `{letter}`"),
+        }
+    }
+}
+
+impl std::error::Error for ClaimError {}
+
+impl crate::error::LayerError for ClaimError {
+    fn blame(&self) -> crate::error::Blame {
+        crate::error::Blame::Input(crate::lang::codes::Code::PlanSyntax)
+    }
+
+    fn hint(&self) -> Option<&str> {
+        Some("plan.json does not describe a campaign phasewright wrote")
+    }
+}
+
 impl Claim {
     /// Reads the shared claim from a plan. Errors name what is inconsistent.
-    pub fn from_plan(plan: &Plan) -> Result<Claim, String> {
-        let h = crate::check::plan_hamiltonian(plan).map_err(|e| e.to_string())?;
+    pub fn from_plan(plan: &Plan) -> Result<Claim, ClaimError> {
+        let h = crate::check::plan_hamiltonian(plan).map_err(ClaimError::Hamiltonian)?;
         let order = Order::from_number(plan.formula.order)
-            .ok_or_else(|| format!("plan.json: unknown formula order {}", plan.formula.order))?;
+            .ok_or(ClaimError::UnknownOrder(plan.formula.order))?;
         let n = h.num_qubits;
         let device = match &plan.device {
             None => None,
             Some(d) => {
                 if d.initial_layout.len() != n + 1 {
-                    return Err(format!(
-                        "plan.json: the initial layout places {} qubits; the campaign has {} \
-                         (system and ancilla)",
-                        d.initial_layout.len(),
-                        n + 1
-                    ));
+                    return Err(ClaimError::LayoutLength {
+                        placed: d.initial_layout.len(),
+                        needed: n + 1,
+                    });
                 }
                 if let Some(p) = d
                     .initial_layout
                     .iter()
                     .find(|&&p| p as usize >= d.num_qubits)
                 {
-                    return Err(format!(
-                        "plan.json: the initial layout uses physical qubit {p} of a {}-qubit device",
-                        d.num_qubits
-                    ));
+                    return Err(ClaimError::LayoutQubit {
+                        qubit: *p,
+                        device_qubits: d.num_qubits,
+                    });
                 }
                 if !is_injective(&d.initial_layout) {
-                    return Err("plan.json: the initial layout repeats a physical qubit".into());
+                    return Err(ClaimError::LayoutRepeats);
                 }
                 Some((d.num_qubits, d.initial_layout.clone()))
             }
@@ -142,11 +280,7 @@ impl Claim {
                 if d.copy_placement.iter().any(|&p| p as usize >= d.num_qubits)
                     || !is_injective(&all)
                 {
-                    return Err(
-                        "plan.json: the copy placement repeats a physical qubit, names one of \
-                         the start placement, or one the device does not have"
-                            .into(),
-                    );
+                    return Err(ClaimError::CopyPlacement);
                 }
                 let mut zero = crate::pauli::Bits::default();
                 for p in 0..d.num_qubits {
@@ -180,28 +314,27 @@ impl Claim {
 
     /// The ideal logical circuit entry `e` claims (system qubits `0..n`, ancilla `n`) and the
     /// reads it should list, built exactly as `family::build_jobs_with_terms` builds them.
-    pub fn logical_circuit(&self, e: &CircuitEntry) -> Result<(Circuit, Vec<Read>), String> {
-        let state = self.states.get(e.state).ok_or_else(|| {
-            format!(
-                "{}: state {} is not among the plan's {} states",
-                e.id,
-                e.state,
-                self.states.len()
-            )
-        })?;
-        state_prep(state).map_err(|b| {
-            format!(
-                "{}: bad state letter `{}` at {}: {}",
-                e.id, b.letter, b.index, b.reason
-            )
+    pub fn logical_circuit(&self, e: &CircuitEntry) -> Result<(Circuit, Vec<Read>), ClaimError> {
+        let state = self
+            .states
+            .get(e.state)
+            .ok_or_else(|| ClaimError::NoSuchState {
+                id: e.id.clone(),
+                state: e.state,
+                states: self.states.len(),
+            })?;
+        state_prep(state).map_err(|b| ClaimError::StateLetter {
+            id: e.id.clone(),
+            letter: b.letter,
+            index: b.index,
+            reason: b.reason,
         })?;
         if state.chars().count() != self.n {
-            return Err(format!(
-                "{}: the state has {} letters for {} qubits",
-                e.id,
-                state.chars().count(),
-                self.n
-            ));
+            return Err(ClaimError::StateLength {
+                id: e.id.clone(),
+                letters: state.chars().count(),
+                qubits: self.n,
+            });
         }
         let program = evolution(
             &self.terms,
@@ -211,12 +344,10 @@ impl Claim {
         );
         let (basis, reads) = match (self.family, e.group) {
             (Family::Krylov, Some(g)) => {
-                let members = self.groups.get(g).ok_or_else(|| {
-                    format!(
-                        "{}: group {g} is not among the {} measurement groups",
-                        e.id,
-                        self.groups.len()
-                    )
+                let members = self.groups.get(g).ok_or_else(|| ClaimError::NoSuchGroup {
+                    id: e.id.clone(),
+                    group: g,
+                    groups: self.groups.len(),
                 })?;
                 let mut basis = PauliString::IDENTITY;
                 for &i in members {
@@ -226,10 +357,10 @@ impl Claim {
                 (Some(basis), group_reads(members, &self.strings, e.k))
             }
             (_, Some(_)) => {
-                return Err(format!(
-                    "{}: a measurement group in a {:?} campaign",
-                    e.id, self.family
-                ))
+                return Err(ClaimError::GroupOutsideKrylov {
+                    id: e.id.clone(),
+                    family: self.family,
+                })
             }
             (_, None) => (
                 None,
@@ -240,12 +371,9 @@ impl Claim {
             ),
         };
         let ladder = |r: &crate::formula::Rotation| crate::synth::default_ladder(r);
-        let part = e.part.ok_or_else(|| {
-            format!(
-                "{}: the tableau method proves Hadamard-test circuits; use --method statevector for plain evolution circuits",
-                e.id
-            )
-        })?;
+        let part = e
+            .part
+            .ok_or_else(|| ClaimError::NotHadamardTest { id: e.id.clone() })?;
         if let (Control::Prep, Some(f)) = (self.control, &e.fanout) {
             // Fan-out trees recorded by `compile`: the claim's preparations are those CNOTs.
             let m = self.n as u32 + 1;
@@ -254,10 +382,10 @@ impl Claim {
                 .chain(&f.after)
                 .any(|&[a, b]| a >= m || b >= m || a == b)
             {
-                return Err(format!(
-                    "{}: the fan-out lists a CNOT outside the {m} qubits of the circuit",
-                    e.id
-                ));
+                return Err(ClaimError::FanOutOutside {
+                    id: e.id.clone(),
+                    qubits: m,
+                });
             }
             // Each list must take |1⟩|0…0⟩ (ancilla set) to |1⟩|reference⟩: CNOTs act on bit
             // strings, so one pass over the pairs decides it (|0⟩|0…0⟩ is fixed by any CNOTs).
@@ -271,10 +399,10 @@ impl Claim {
                 if !bits[..self.n].iter().copied().eq(want)
                     || state.chars().any(|c| c != '0' && c != '1')
                 {
-                    return Err(format!(
-                        "{}: the fan-out does not prepare the reference `{state}` on the ancilla's |1⟩ branch",
-                        e.id
-                    ));
+                    return Err(ClaimError::FanOutState {
+                        id: e.id.clone(),
+                        state: state.clone(),
+                    });
                 }
             }
             let (before, after) = (FanOut::gates(&f.before), FanOut::gates(&f.after));
@@ -305,13 +433,18 @@ impl Claim {
                 },
             },
         )
-        .map_err(|b| format!("{}: bad state letter `{}`", e.id, b.letter))?;
+        .map_err(|b| ClaimError::BadLetter {
+            id: e.id.clone(),
+            letter: b.letter,
+        })?;
         Ok((c, reads))
     }
 
     /// Proves `file` equivalent to the circuit entry `e` claims, or finds where it differs.
     pub fn check(&self, e: &CircuitEntry, file: &Circuit) -> Result<Verdict, CannotCheck> {
-        let (logical, reads) = self.logical_circuit(e).map_err(CannotCheck::plan)?;
+        let (logical, reads) = self
+            .logical_circuit(e)
+            .map_err(|c| CannotCheck::plan(c.to_string()))?;
         let m = self.n + 1;
         let (width, init, fin) = match &self.device {
             None => {

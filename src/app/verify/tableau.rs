@@ -66,13 +66,7 @@ fn prove_one(dir: &Path, claim: &Claim, e: &CircuitEntry) -> Result<Outcome> {
 
 /// Proves every file of `plan` (a whole campaign or one share); the report says which differ.
 pub fn check(args: &VerifyArgs, g: &crate::app::Global, plan: &Plan) -> Result<VerifyReport> {
-    let claim = Claim::from_plan(plan).map_err(|m| {
-        Error::usage(
-            Code::PlanSyntax,
-            m,
-            Some("plan.json does not describe a campaign phasewright wrote"),
-        )
-    })?;
+    let claim = Claim::from_plan(plan)?;
     let bar = phase_bar(g, plan.circuits.len(), "proving");
     let results: Vec<Result<Outcome>> = plan
         .circuits
