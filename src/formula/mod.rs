@@ -104,6 +104,15 @@ pub fn term_groups(h: &PauliSum) -> Vec<Vec<(PauliString, f64)>> {
 
 /// The flip units of `strings` with more than one member: per non-zero `x` mask, its terms in
 /// index order split greedily into mutually commuting sets.
+///
+/// At most two sets per mask, and a newcomer is tested against one member of each. Two
+/// strings with the same `x` mask `a` and `z` masks `b`, `c` commute when the symplectic
+/// product `|a ∧ c| + |b ∧ a|` is even, i.e. when `|a ∧ b|` and `|a ∧ c|` have the same parity:
+/// commuting is an equivalence relation with two classes on such strings, so a string
+/// commutes with every member of a set exactly when it commutes with the first (the
+/// symplectic product: Gottesman, "Stabilizer codes and quantum error correction", PhD
+/// thesis, Caltech 1997, §3.3, from memory). Cost:
+/// `O(m log m)` mask comparisons for the map plus one commutation test per string.
 fn flip_units(strings: &[&PauliString]) -> Vec<Vec<usize>> {
     let mut by_mask: std::collections::BTreeMap<&crate::pauli::Bits, Vec<Vec<usize>>> =
         Default::default();
@@ -112,10 +121,7 @@ fn flip_units(strings: &[&PauliString]) -> Vec<Vec<usize>> {
             continue;
         }
         let sets = by_mask.entry(&p.x).or_default();
-        match sets
-            .iter_mut()
-            .find(|s| s.iter().all(|&j| strings[j].commutes_with(p)))
-        {
+        match sets.iter_mut().find(|s| strings[s[0]].commutes_with(p)) {
             Some(s) => s.push(i),
             None => sets.push(vec![i]),
         }
@@ -141,38 +147,60 @@ fn keeps_units(groups: &[Vec<usize>], units: &[Vec<usize>], m: usize) -> bool {
 
 /// Colours the terms with every unit of `units` (and every other term on its own) as one
 /// vertex: largest conflict degree first (degrees counted below
-/// `pauli::group::EXACT_COLOURING_MAX` terms, else index order), each into the first group
-/// whose members it commutes with. Members inside a group are sorted by index; groups in order
-/// of creation. Deterministic.
+/// `pauli::group::EXACT_COLOURING_MAX` terms, else index order), each into the first group,
+/// among the [`UNIT_WINDOW`] most recently opened ones, whose members it commutes with; a
+/// vertex that fits none of them opens a new group. Members inside a group are sorted by
+/// index; groups in order of creation. Deterministic.
 ///
-/// A group answers "does this string commute with every member?" from the span of its
-/// members (`pauli::group::Span`: a basis of their symplectic vectors kept per qubit as bit
-/// masks over the basis), in time proportional to the string's weight times the span's rank
-/// in 64-bit words, however large the group grows; a commuting group's rank is at most the
-/// qubit count. Every group is tried, in order of creation, so the result is plain first-fit:
-/// `O(m · groups · w · ⌈n/64⌉)` word operations for `m` terms of weight `w` on `n` qubits.
-/// Nothing bounds the number of groups (no window: the result must stay first-fit over all of
-/// them), so above a few hundred groups one vertex's search is split over the threads
-/// (`position_first`: the lowest index that fits, whatever the thread count). This is not
-/// linear in the terms: on random weight-≤4 Hamiltonians over 120 qubits the groups grow in
-/// number with the terms, and the grouping stage measured 12.9 µs per term at 10⁵ terms and
-/// 75.9 µs at 10⁶ (`cargo bench --bench utility -- stages`, 2 shared cores). Bounding it
-/// (a window, as `pauli::group` has) would change the groups, hence the emitted circuits.
+/// The essay. A group answers "does this string commute with every member?" from the span of
+/// its members (`pauli::group::Span`: a basis of their symplectic vectors kept per qubit as
+/// bit masks over the basis), in `w · ⌈rank/64⌉` word operations for a string of weight `w`,
+/// however large the group grows; a commuting group's rank is at most the qubit count `n`.
+///
+/// First-fit over *every* group is quadratic: on random weight-≤4 Hamiltonians over 120
+/// qubits the groups grow in number with the terms, and the grouping stage measured 12.9 µs
+/// per term at 10⁵ terms and 75.9 µs at 10⁶ (`cargo bench --bench utility -- stages`, 2
+/// shared cores). So the search is bounded by a window, the heuristic of `pauli::group`'s
+/// windowed regime: only the [`UNIT_WINDOW`] most recently opened groups are candidates,
+/// tried oldest first; a group that falls out of the window is closed for good (its span is
+/// dropped). The cost is then `O(m log m)` for the order plus
+/// `O(m · UNIT_WINDOW · w · ⌈n/64⌉)` word operations for `m` terms, linear in the terms.
+/// While fewer than [`UNIT_WINDOW`] groups are open every group is in the window, so the
+/// result is exactly the unbounded first-fit: every Hamiltonian of the test suite, golden
+/// files and README (at most a few thousand terms) stays below the bound. Past it a vertex
+/// may open a new group where an old one would have taken it, which costs gates, never
+/// correctness: every group is still pairwise commuting and every unit whole.
+///
+/// Above a few hundred candidates one vertex's search is split over the threads
+/// (`position_first`: the lowest index that fits, whatever the thread count), so the result
+/// does not depend on the thread count.
 fn unit_groups(strings: &[&PauliString], units: &[Vec<usize>]) -> Vec<Vec<usize>> {
-    unit_groups_scanning(strings, units, PARALLEL_SCAN_MIN)
+    unit_groups_windowed(strings, units, UNIT_WINDOW, PARALLEL_SCAN_MIN)
 }
 
-/// Groups past which one vertex's search in [`unit_groups`] is split over the threads.
+/// Most recently opened groups a vertex of [`unit_groups`] may join. Chosen above the group
+/// count of every case in the tests and golden files, so none of them reaches it: the
+/// largest, 3,000 random strings on 24 qubits in `unit_colouring_is_member_by_member_first_fit`,
+/// opens 524 groups; every Hamiltonian of the integration tests and golden files at most 57.
+/// On random weight-≤4 terms over 120 qubits it is first reached between 7·10⁴ terms (589
+/// groups) and 5.5·10⁵ (3,465 groups with the window; `cargo bench --bench grouping`).
+const UNIT_WINDOW: usize = 1024;
+
+/// Candidate groups past which one vertex's search in [`unit_groups`] is split over the
+/// threads.
 const PARALLEL_SCAN_MIN: usize = 512;
 
-/// [`unit_groups`], splitting a vertex's search over the threads once `parallel_min` groups
-/// exist (the result does not depend on it).
-fn unit_groups_scanning(
+/// [`unit_groups`] with its window (`usize::MAX`: every group, plain first-fit) and the
+/// candidate count past which a vertex's search is split over the threads (the result does
+/// not depend on it).
+fn unit_groups_windowed(
     strings: &[&PauliString],
     units: &[Vec<usize>],
+    window: usize,
     parallel_min: usize,
 ) -> Vec<Vec<usize>> {
     use rayon::prelude::*;
+    assert!(window > 0, "a window of at least one group");
     let m = strings.len();
     let mut in_unit = vec![false; m];
     let mut vertices: Vec<Vec<usize>> = units.to_vec();
@@ -187,6 +215,8 @@ fn unit_groups_scanning(
         a.iter()
             .any(|&i| b.iter().any(|&j| !strings[i].commutes_with(strings[j])))
     };
+    // Exact degrees only on small inputs: at most EXACT_COLOURING_MAX² / 2 vertex pairs, a
+    // constant bound; above it every degree is 0 and the order is the index order.
     let mut degree = vec![0usize; vertices.len()];
     if m <= crate::pauli::group::EXACT_COLOURING_MAX {
         for a in 0..vertices.len() {
@@ -200,40 +230,44 @@ fn unit_groups_scanning(
     }
     let mut order: Vec<usize> = (0..vertices.len()).collect();
     order.sort_by(|&a, &b| degree[b].cmp(&degree[a]).then(a.cmp(&b)));
-    let mut groups: Vec<(Vec<usize>, Span)> = Vec::new();
+    let mut members: Vec<Vec<usize>> = Vec::new();
+    // The spans of the open groups: those of `members[closed..]`, oldest first.
+    let mut open: std::collections::VecDeque<Span> = Default::default();
+    let mut closed = 0usize;
     for v in order {
         let queries: Vec<SpanQuery> = vertices[v]
             .iter()
             .map(|&i| SpanQuery::new(strings[i]))
             .collect();
-        let fits = |g: &(Vec<usize>, Span)| queries.iter().all(|q| g.1.accepts(q));
-        // The first group that fits, found in parallel among many (the same group: the
-        // search returns the lowest index that fits).
-        let first = if groups.len() >= parallel_min {
-            groups.par_iter().position_first(fits)
+        let fits = |s: &Span| queries.iter().all(|q| s.accepts(q));
+        // The oldest open group that fits, found in parallel among many (the same group:
+        // the search returns the lowest index that fits).
+        let first = if open.len() >= parallel_min {
+            open.par_iter().position_first(fits)
         } else {
-            groups.iter().position(fits)
+            open.iter().position(fits)
         };
         let slot = match first {
             Some(k) => k,
             None => {
-                groups.push((Vec::new(), Span::default()));
-                groups.len() - 1
+                if open.len() == window {
+                    open.pop_front();
+                    closed += 1;
+                }
+                members.push(Vec::new());
+                open.push_back(Span::default());
+                open.len() - 1
             }
         };
-        let g = &mut groups[slot];
         for &i in &vertices[v] {
-            g.0.push(i);
-            g.1.insert(strings[i]);
+            members[closed + slot].push(i);
+            open[slot].insert(strings[i]);
         }
     }
-    groups
-        .into_iter()
-        .map(|(mut members, _)| {
-            members.sort_unstable();
-            members
-        })
-        .collect()
+    for g in &mut members {
+        g.sort_unstable();
+    }
+    members
 }
 
 /// Orders the terms: the groups of [`term_groups`] one after the other. Deterministic.
@@ -837,15 +871,68 @@ pub(crate) mod tests {
     /// `flip_units`, so vertices of many strings occur.
     #[test]
     fn unit_colouring_is_member_by_member_first_fit() {
+        let h = random_sum(24, 3000, 3, 9);
+        let terms = h.term_list();
+        let strings: Vec<&PauliString> = terms.iter().map(|t| &t.0).collect();
+        assert!(strings.len() > crate::pauli::group::EXACT_COLOURING_MAX);
+        let units = flip_units(&strings);
+        assert!(units.iter().any(|u| u.len() > 2));
+        let vertices = unit_vertices(strings.len(), &units);
+        let want = first_fit_by_members(&strings, &vertices);
+        assert!(want.len() > 3);
+        assert_eq!(unit_groups(&strings, &units), want);
+        assert_eq!(unit_groups_windowed(&strings, &units, usize::MAX, 1), want);
+        assert_eq!(
+            unit_groups_windowed(&strings, &units, usize::MAX, usize::MAX),
+            want
+        );
+    }
+
+    /// The vertices of the unit colouring in index order (units whole, other terms alone).
+    fn unit_vertices(m: usize, units: &[Vec<usize>]) -> Vec<Vec<usize>> {
+        let mut in_unit = vec![false; m];
+        units.iter().flatten().for_each(|&i| in_unit[i] = true);
+        let mut vertices: Vec<Vec<usize>> = units.to_vec();
+        vertices.extend((0..m).filter(|&i| !in_unit[i]).map(|i| vec![i]));
+        vertices.sort_by_key(|v| v[0]);
+        vertices
+    }
+
+    /// `groups` partitions `0..m`, every group is pairwise commuting (checked member by
+    /// member, not through the span) and every unit lies in one group.
+    fn assert_valid_grouping(
+        strings: &[&PauliString],
+        units: &[Vec<usize>],
+        groups: &[Vec<usize>],
+    ) {
+        let mut seen: Vec<usize> = groups.iter().flatten().copied().collect();
+        seen.sort_unstable();
+        assert_eq!(seen, (0..strings.len()).collect::<Vec<_>>());
+        for g in groups {
+            for (k, &a) in g.iter().enumerate() {
+                for &b in &g[k + 1..] {
+                    assert!(
+                        strings[a].commutes_with(strings[b]),
+                        "{a} and {b} anticommute"
+                    );
+                }
+            }
+        }
+        assert!(keeps_units(groups, units, strings.len()));
+    }
+
+    /// Random strings of weight 1–`w` on `n` qubits, distinct, as a sum with unit
+    /// coefficients.
+    fn random_sum(n: usize, m: usize, w: usize, seed: u64) -> PauliSum {
         use rand::{Rng, SeedableRng};
-        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(9);
-        let mut h = PauliSum::new(24);
-        while h.terms.len() < 3000 {
-            let w = rng.gen_range(1..=3);
-            let factors: Vec<(usize, Pauli)> = (0..w)
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let mut h = PauliSum::new(n);
+        while h.terms.len() < m {
+            let k = rng.gen_range(1..=w);
+            let factors: Vec<(usize, Pauli)> = (0..k)
                 .map(|_| {
                     (
-                        rng.gen_range(0..24),
+                        rng.gen_range(0..n),
                         [Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..3)],
                     )
                 })
@@ -855,21 +942,112 @@ pub(crate) mod tests {
                 h.add(PauliString::from_factors(&factors).1, 1.0);
             }
         }
+        h
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+        /// While the groups stay within the window the windowed colouring is the unbounded
+        /// first-fit, group for group; with a window smaller than the group count it is still
+        /// a valid grouping that keeps every flip unit whole. Random strings on 5 qubits, so
+        /// `x` masks repeat and units of two and more occur.
+        #[test]
+        fn windowed_unit_colouring_is_first_fit_below_the_window(
+            seed in 0u64..1_000_000,
+            m in 2usize..160,
+            slack in 0usize..4,
+        ) {
+            let h = random_sum(5, m, 3, seed);
+            let terms = h.term_list();
+            let strings: Vec<&PauliString> = terms.iter().map(|t| &t.0).collect();
+            let units = flip_units(&strings);
+            let full = unit_groups_windowed(&strings, &units, usize::MAX, usize::MAX);
+            assert_valid_grouping(&strings, &units, &full);
+            let wide = unit_groups_windowed(&strings, &units, full.len() + slack, usize::MAX);
+            proptest::prop_assert_eq!(&wide, &full);
+            let narrow = (full.len() / 2).max(1);
+            let small = unit_groups_windowed(&strings, &units, narrow, usize::MAX);
+            assert_valid_grouping(&strings, &units, &small);
+            proptest::prop_assert!(small.len() >= full.len().min(narrow));
+        }
+
+        /// The two-class shortcut of `flip_units` gives the sets of the definition (a string
+        /// joins the first set of its mask all of whose members it commutes with).
+        #[test]
+        fn flip_units_are_the_greedy_commuting_sets(seed in 0u64..1_000_000, m in 2usize..120) {
+            let h = random_sum(4, m, 4, seed);
+            let terms = h.term_list();
+            let strings: Vec<&PauliString> = terms.iter().map(|t| &t.0).collect();
+            let mut by_mask: std::collections::BTreeMap<&crate::pauli::Bits, Vec<Vec<usize>>> =
+                Default::default();
+            for (i, p) in strings.iter().enumerate() {
+                if p.x.is_empty() {
+                    continue;
+                }
+                let sets = by_mask.entry(&p.x).or_default();
+                match sets
+                    .iter_mut()
+                    .find(|s| s.iter().all(|&j| strings[j].commutes_with(p)))
+                {
+                    Some(s) => s.push(i),
+                    None => sets.push(vec![i]),
+                }
+            }
+            proptest::prop_assert!(by_mask.values().all(|sets| sets.len() <= 2));
+            let want: Vec<Vec<usize>> =
+                by_mask.into_values().flatten().filter(|u| u.len() > 1).collect();
+            proptest::prop_assert_eq!(flip_units(&strings), want);
+        }
+    }
+
+    /// A window of 4 groups on 3,000 random strings (24 qubits, weight 1–3): the window is
+    /// hit many times, every group is still pairwise commuting and every unit whole, and the
+    /// groups are the same on 1, 2 and 3 threads with every search split over the threads.
+    #[test]
+    fn a_tiny_window_keeps_groups_commuting_and_units_whole() {
+        let h = random_sum(24, 3000, 3, 9);
         let terms = h.term_list();
         let strings: Vec<&PauliString> = terms.iter().map(|t| &t.0).collect();
-        assert!(strings.len() > crate::pauli::group::EXACT_COLOURING_MAX);
         let units = flip_units(&strings);
         assert!(units.iter().any(|u| u.len() > 2));
-        let mut in_unit = vec![false; strings.len()];
-        units.iter().flatten().for_each(|&i| in_unit[i] = true);
-        let mut vertices: Vec<Vec<usize>> = units.clone();
-        vertices.extend((0..strings.len()).filter(|&i| !in_unit[i]).map(|i| vec![i]));
-        vertices.sort_by_key(|v| v[0]);
-        let want = first_fit_by_members(&strings, &vertices);
-        assert!(want.len() > 3);
-        assert_eq!(unit_groups(&strings, &units), want);
-        assert_eq!(unit_groups_scanning(&strings, &units, 1), want);
-        assert_eq!(unit_groups_scanning(&strings, &units, usize::MAX), want);
+        let full = unit_groups_windowed(&strings, &units, usize::MAX, usize::MAX);
+        let tiny = unit_groups_windowed(&strings, &units, 4, usize::MAX);
+        assert_valid_grouping(&strings, &units, &tiny);
+        // Far more groups than the window: old groups were closed while terms remained.
+        assert!(tiny.len() > 4 * 4, "{} groups", tiny.len());
+        assert_ne!(tiny, full);
+        for threads in [1, 2, 3] {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            let split = pool.install(|| unit_groups_windowed(&strings, &units, 4, 1));
+            assert_eq!(split, tiny, "{threads} threads");
+            let split = pool.install(|| unit_groups_windowed(&strings, &units, 64, 1));
+            assert_eq!(
+                split,
+                unit_groups_windowed(&strings, &units, 64, usize::MAX),
+                "{threads} threads, window 64"
+            );
+        }
+    }
+
+    /// `term_groups` (both colourings side by side, the unit one split over the threads past
+    /// `PARALLEL_SCAN_MIN` candidates) gives the same groups on one thread and on two.
+    #[test]
+    fn term_groups_do_not_depend_on_the_thread_count() {
+        let h = random_sum(24, 6000, 3, 11);
+        let on = |threads: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap()
+                .install(|| term_groups(&h))
+        };
+        let one = on(1);
+        assert!(one.len() > 1);
+        assert_eq!(on(2), one);
     }
 
     #[test]
