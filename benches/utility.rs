@@ -229,6 +229,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
         .iter()
         .map(|p| phasewright::synth::groups::has_shared_runs(p))
         .collect();
+    let networks = phasewright::synth::groups::RunNetworks::default();
     // Past `SCORE_ONCE_MIN` at k = 1, later points build only what k = 1 kept, and the chain.
     let mut only: Option<Vec<(bool, Synthesis)>> = None;
     for k in 1..points {
@@ -258,7 +259,15 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
             };
             let t = Instant::now();
             let mut body = Circuit::new(fs[0].num_qubits, fs[0].num_clbits);
-            let passes = all_to_all_passes(&fs[0].prefix, program, control, &[], level, synthesis);
+            let passes = all_to_all_passes(
+                &fs[0].prefix,
+                program,
+                control,
+                &[],
+                level,
+                synthesis,
+                Some(&networks),
+            );
             run_passes(&mut body, &passes[..2], &Rules::default()).expect("verified");
             synth += t.elapsed().as_secs_f64();
             let t = Instant::now();

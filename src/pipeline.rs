@@ -93,6 +93,7 @@ use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
     RouteConfig, RouteError,
 };
+use crate::synth::groups::RunNetworks;
 use crate::synth::{Block, Chain, Groups, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
 
@@ -195,7 +196,8 @@ pub enum Synthesis {
 
 /// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
 /// `synthesis`, controlled by the ancilla `control` when there is one), `readout`, and `cancel`
-/// from level 1.
+/// from level 1. `networks` lets `synth::Groups` reuse the run networks other circuits of the
+/// campaign found (the same gates: on this target a network depends on its strings alone).
 pub fn all_to_all_passes<'a>(
     prefix: &'a [Gate],
     program: &'a [Rotation],
@@ -203,6 +205,7 @@ pub fn all_to_all_passes<'a>(
     suffix: &'a [Gate],
     level: OptLevel,
     synthesis: Synthesis,
+    networks: Option<&'a RunNetworks>,
 ) -> Vec<Pass<'a>> {
     let mut passes = vec![
         Pass {
@@ -222,9 +225,11 @@ pub fn all_to_all_passes<'a>(
                     Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
                     Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
                     Synthesis::Pairs => Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates),
-                    Synthesis::Groups => {
-                        Groups { ladder: &ladder }.synthesize(&block, &mut c.gates)
+                    Synthesis::Groups => Groups {
+                        ladder: &ladder,
+                        shared: networks,
                     }
+                    .synthesize(&block, &mut c.gates),
                     Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
                 }
             }),
@@ -575,6 +580,8 @@ pub fn compile_at(
                     _ => shared.push(vec![f]),
                 }
             }
+            // The run networks of `synth::Groups`, found once for every candidate and point.
+            let networks = RunNetworks::default();
             // Candidates of time point k in the order they are compared (ties keep the
             // earlier): which program (the formula's order or the agreeing one) through which
             // synthesis. Trees are shallower but may cancel less between neighbouring
@@ -627,6 +634,7 @@ pub fn compile_at(
                             &[],
                             level,
                             synthesis,
+                            Some(&networks),
                         );
                         // `prepare` and `synthesize`; the readout and `cancel` follow per
                         // circuit below.

@@ -251,7 +251,11 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -
             }),
         };
         if plan.step_form.groups {
-            Groups { ladder: &ladder }.synthesize(&block, &mut c.gates);
+            Groups {
+                ladder: &ladder,
+                shared: None,
+            }
+            .synthesize(&block, &mut c.gates);
         } else {
             Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates);
         }

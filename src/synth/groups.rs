@@ -612,7 +612,16 @@ const WIDTH_MAX: usize = 128;
 /// ladders, as ladders along `ladder` (a permutation of the support, root last).
 pub struct Groups<'a> {
     pub ladder: &'a (dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
+    /// Networks shared with other blocks (every candidate and time point of one all-to-all
+    /// campaign); used only for blocks without hop distances, where a run's network depends
+    /// on its strings alone.
+    pub shared: Option<&'a RunNetworks>,
 }
+
+/// The networks of the runs met by several blocks, safe to share between threads: which
+/// block reduces a run first does not change the network it gets.
+#[derive(Default)]
+pub struct RunNetworks(std::sync::Mutex<Networks>);
 
 /// The block's maximal runs of consecutive, pairwise commuting rotations (at most [`RUN_MAX`]
 /// each), as index ranges.
@@ -692,6 +701,12 @@ fn local_rows(rotations: &[Rotation], qubits: &[Qubit]) -> Vec<Row> {
 /// `rz`), and a block of `k` Trotter steps meets the same runs about `k` times.
 type Networks = std::collections::HashMap<Vec<crate::pauli::PauliString>, Option<Vec<Event>>>;
 
+/// Where [`run_gates_with`] finds and keeps networks: its block's own map, or one shared.
+enum Seen<'m> {
+    Own(&'m mut Networks),
+    Shared(&'m RunNetworks),
+}
+
 /// The gates of one commuting run (see [`Groups`]).
 pub fn run_gates(
     run: &[Rotation],
@@ -700,7 +715,15 @@ pub fn run_gates(
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
     out: &mut Vec<Gate>,
 ) {
-    run_gates_with(run, control, distance, ladder, &mut Networks::new(), out)
+    let mut own = Networks::new();
+    run_gates_with(
+        run,
+        control,
+        distance,
+        ladder,
+        &mut Seen::Own(&mut own),
+        out,
+    )
 }
 
 /// [`run_gates`], reusing (and adding to) the networks `seen` of runs with the same strings.
@@ -709,7 +732,7 @@ fn run_gates_with(
     control: Option<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
-    seen: &mut Networks,
+    seen: &mut Seen,
     out: &mut Vec<Gate>,
 ) {
     let ladders = |out: &mut Vec<Gate>| {
@@ -722,7 +745,16 @@ fn run_gates_with(
         return ladders(out);
     }
     let key: Vec<crate::pauli::PauliString> = run.iter().map(|r| r.pauli.clone()).collect();
-    let events = seen.entry(key).or_insert_with(|| {
+    let known = match seen {
+        Seen::Own(m) => m.get(&key).cloned(),
+        Seen::Shared(s) => {
+            s.0.lock()
+                .expect("no panic holds the lock")
+                .get(&key)
+                .cloned()
+        }
+    };
+    let compute = || {
         let mut rows = local_rows(run, &qubits);
         let dist = |a: u8, b: u8| distance.map_or(1, |d| d(qubits[a as usize], qubits[b as usize]));
         let to_control = |a: u8| match (distance, control) {
@@ -736,7 +768,22 @@ fn run_gates_with(
             .map(|r| r.pauli.weight().saturating_sub(1) as usize)
             .sum();
         (cnots < ladder_cnots).then_some(events)
-    });
+    };
+    let events = match known {
+        Some(events) => events,
+        None => {
+            let events = compute();
+            match seen {
+                Seen::Own(m) => m.insert(key, events.clone()),
+                Seen::Shared(s) => {
+                    s.0.lock()
+                        .expect("no panic holds the lock")
+                        .insert(key, events.clone())
+                }
+            };
+            events
+        }
+    };
     let Some(events) = events else {
         return ladders(out);
     };
@@ -760,7 +807,11 @@ fn run_gates_with(
 impl Strategy for Groups<'_> {
     fn synthesize(&self, block: &Block, out: &mut Vec<Gate>) {
         let mut per_run = Vec::new();
-        let mut seen = Networks::new();
+        let mut own = Networks::new();
+        let mut seen = match self.shared {
+            Some(shared) if block.distance.is_none() => Seen::Shared(shared),
+            _ => Seen::Own(&mut own),
+        };
         for run in commuting_runs(block.rotations) {
             run_gates_with(
                 &block.rotations[run],
@@ -829,7 +880,11 @@ mod tests {
     ) -> Vec<Gate> {
         let mut gates = Vec::new();
         let ladder = |r: &Rotation| super::super::default_ladder(r);
-        Groups { ladder: &ladder }.synthesize(
+        Groups {
+            ladder: &ladder,
+            shared: None,
+        }
+        .synthesize(
             &Block {
                 rotations: block,
                 control,
@@ -996,6 +1051,44 @@ mod tests {
             let control = ctl.then_some(5);
             let gates = synth(&block, control, None);
             prop_assert!(block_error(&gates, &block, control, 6) < 1e-9);
+        }
+
+        // Networks shared between blocks (as the all-to-all campaign shares them between
+        // candidates and time points) give the very gates each block's own map gives: two
+        // Strang steps of random dense sums, the second block scaled (angles differ, strings
+        // repeat), both through one shared store in either order.
+        #[test]
+        fn shared_networks_give_the_same_gates(
+            raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 2..24),
+            ctl in any::<bool>(),
+        ) {
+            let mut h = crate::pauli::PauliSum::new(6);
+            for &(x, z, c) in &raw {
+                let p = PauliString::from_masks(x & 63, z & 63);
+                if !p.is_identity() {
+                    h.add(p, c);
+                }
+            }
+            prop_assume!(!h.terms.is_empty());
+            let terms = crate::formula::order_terms(&h);
+            let one = crate::formula::step(&terms, crate::formula::Order::Second, 0.3);
+            let two = crate::formula::evolution(&terms, crate::formula::Order::Second, 0.5, 2);
+            let control = ctl.then_some(6);
+            let ladder = |r: &Rotation| super::super::default_ladder(r);
+            let shared = RunNetworks::default();
+            let through = |block: &[Rotation]| {
+                let mut gates = Vec::new();
+                Groups { ladder: &ladder, shared: Some(&shared) }.synthesize(
+                    &Block { rotations: block, control, distance: None },
+                    &mut gates,
+                );
+                gates
+            };
+            let (a, b) = (through(&one), through(&two));
+            prop_assert_eq!(&a, &synth(&one, control, None));
+            prop_assert_eq!(&b, &synth(&two, control, None));
+            prop_assert_eq!(through(&one), a);
+            prop_assert!(block_error(&b, &two, control, 7) < 1e-9);
         }
 
         // Random fermionic Hamiltonians under Jordan–Wigner (hopping and density–density
