@@ -12,7 +12,7 @@
 //!   number of lines + 1, column at most the length of that line + 1 (only the few messages about
 //!   something *absent* from the file may be whole-file diagnostics, listed in [`WHOLE_FILE`]);
 //! - the binary, on a smaller subset, exits 0, 1 or 2 (never 101, never killed by a signal) and
-//!   each run finishes within 5 s (a hang guard, not a timing measurement).
+//!   each run finishes within 30 s (a hang guard, not a timing measurement).
 //!
 //! Unlike `no_panic.rs` (token soup), the inputs here stay close to valid files, so they reach
 //! the checks that run after parsing: value ranges, cross references, plan validation.
@@ -52,8 +52,10 @@ fn binary_cases() -> u32 {
     (cases() / 8).max(12)
 }
 
-/// Longest a single reader call or binary run may take before it counts as a hang.
-const HANG: Duration = Duration::from_secs(5);
+/// Longest a single reader call or binary run may take before it counts as a hang: generous,
+/// as a valid mutation of the 433-qubit example device compiles in about 2 s on an idle 2-core
+/// machine and took over 5 s with other builds beside it.
+const HANG: Duration = Duration::from_secs(30);
 
 fn runner(cases: u32, salt: u64) -> TestRunner {
     TestRunner::new(Config {
