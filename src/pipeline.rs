@@ -75,7 +75,7 @@
 //! is refused before it is built.
 
 use crate::circuit::cancel::Peephole;
-use crate::circuit::metrics::{counts_of, Counts};
+use crate::circuit::metrics::{counts_of, Counter, Counts};
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
@@ -215,23 +215,7 @@ pub fn all_to_all_passes<'a>(
         Pass {
             name: "synthesize",
             run: Box::new(move |c: &mut Circuit| {
-                let block = Block {
-                    rotations: program,
-                    control,
-                    distance: None,
-                };
-                let ladder = |r: &Rotation| crate::synth::default_ladder(r);
-                match synthesis {
-                    Synthesis::Tree => Tree.synthesize(&block, &mut c.gates),
-                    Synthesis::Sharing => Sharing.synthesize(&block, &mut c.gates),
-                    Synthesis::Pairs => Pairs { ladder: &ladder }.synthesize(&block, &mut c.gates),
-                    Synthesis::Groups => Groups {
-                        ladder: &ladder,
-                        shared: networks,
-                    }
-                    .synthesize(&block, &mut c.gates),
-                    Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, &mut c.gates),
-                }
+                synthesize_all_to_all(program, control, synthesis, networks, &mut c.gates)
             }),
         },
         Pass {
@@ -246,6 +230,34 @@ pub fn all_to_all_passes<'a>(
         });
     }
     passes
+}
+
+/// Appends the gates of `program` (controlled by `control` when given) as `synthesis` writes
+/// them on the all-to-all target: the `synthesize` pass of [`all_to_all_passes`].
+pub fn synthesize_all_to_all(
+    program: &[Rotation],
+    control: Option<crate::circuit::Qubit>,
+    synthesis: Synthesis,
+    networks: Option<&RunNetworks>,
+    out: &mut Vec<Gate>,
+) {
+    let block = Block {
+        rotations: program,
+        control,
+        distance: None,
+    };
+    let ladder = |r: &Rotation| crate::synth::default_ladder(r);
+    match synthesis {
+        Synthesis::Tree => Tree.synthesize(&block, out),
+        Synthesis::Sharing => Sharing.synthesize(&block, out),
+        Synthesis::Pairs => Pairs { ladder: &ladder }.synthesize(&block, out),
+        Synthesis::Groups => Groups {
+            ladder: &ladder,
+            shared: networks,
+        }
+        .synthesize(&block, out),
+        Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, out),
+    }
 }
 
 /// Why compilation stopped: routing refused the target or failed ([`RouteError`] says whether
@@ -425,18 +437,104 @@ struct PointBuilt {
 /// costs about as much as everything else the point needs.
 pub const SCORE_ONCE_MIN: usize = 20_000;
 
+/// Where the body of a shorter program may leave the longest one: the largest `c` below the
+/// length of their common prefix at which `big[c − 1]` and `big[c]` do not commute (so every
+/// synthesis that works on commuting runs starts a new run there in both), or 0.
+fn cut_point(p: &[Rotation], big: &[Rotation]) -> usize {
+    let common = p
+        .iter()
+        .zip(big)
+        .take_while(|(a, b)| a.theta.to_bits() == b.theta.to_bits() && a.pauli == b.pauli)
+        .count();
+    (1..common)
+        .rev()
+        .find(|&c| !big[c - 1].pauli.commutes_with(&big[c].pauli))
+        .unwrap_or(0)
+}
+
+/// The peephole streams of `prefix` followed by each of `programs` (time points of one
+/// campaign, the longest last), grown from one pass over the longest.
+///
+/// The program of time point `k` is `k·R` Trotter steps; the formula merges factors only near
+/// the end it is building, so the program of point `j < k` agrees with that of `k` up to its
+/// last step or so. Each shorter program is cut at [`cut_point`]: its body is the stream of
+/// the longest program up to the cut (shared, never synthesised or pushed twice) followed by
+/// its own tail, synthesised on its own. `synthesize` is called on the segments of the longest
+/// program between cuts and on each tail (in parallel), so `k` points cost about one
+/// synthesis of the longest program instead of one per point. Invariant: stream `j` is
+/// exactly [`Peephole`] fed `prefix`, then `synthesize(programs[j][..c])`, then
+/// `synthesize(programs[j][c..])`: the same unitary as `synthesize(programs[j])` whenever
+/// `synthesize` is exact on every block, and the same gates whenever its gates for a block are
+/// those of its commuting runs one after another (chains, trees, `synth::Groups` without a
+/// carried frame).
+pub fn grown_streams(
+    num_qubits: usize,
+    prefix: &[Gate],
+    programs: &[&[Rotation]],
+    synthesize: &(dyn Fn(&[Rotation]) -> Vec<Gate> + Sync),
+) -> Vec<Peephole> {
+    let Some((&big, shorter)) = programs.split_last() else {
+        return Vec::new();
+    };
+    let cuts: Vec<usize> = shorter.iter().map(|p| cut_point(p, big)).collect();
+    let mut bounds: Vec<usize> = cuts.clone();
+    bounds.push(0);
+    bounds.push(big.len());
+    bounds.sort_unstable();
+    bounds.dedup();
+    let segments: Vec<Vec<Gate>> = bounds
+        .par_windows(2)
+        .map(|w| synthesize(&big[w[0]..w[1]]))
+        .collect();
+    let tails: Vec<Vec<Gate>> = shorter
+        .par_iter()
+        .zip(&cuts)
+        .map(|(p, &c)| synthesize(&p[c..]))
+        .collect();
+    let total = prefix.len() + segments.iter().map(Vec::len).sum::<usize>();
+    let mut stream = Peephole::new(num_qubits, total);
+    for &g in prefix {
+        stream.push(g);
+    }
+    let mut out: Vec<Option<Peephole>> = (0..programs.len()).map(|_| None).collect();
+    for (start, segment) in bounds.iter().zip(&segments) {
+        for (j, _) in cuts.iter().enumerate().filter(|(_, c)| *c == start) {
+            let mut s = stream.clone();
+            for &g in &tails[j] {
+                s.push(g);
+            }
+            out[j] = Some(s);
+        }
+        for &g in segment {
+            stream.push(g);
+        }
+    }
+    out[shorter.len()] = Some(stream);
+    out.into_iter()
+        .map(|s| s.expect("every cut lies below the longest program's end"))
+        .collect()
+}
+
 /// The shared gates of the circuits of one time point (preparation and evolution) on the
 /// all-to-all target: fed to the peephole stream (level ≥ 1), or as synthesised (level 0).
 enum Body {
-    Stream(Peephole),
+    /// The stream, and the costs of the gates it holds so far.
+    Stream(Peephole, Counter),
     Raw(Vec<Gate>),
 }
 
 impl Body {
+    /// A body fed to the peephole stream, counted once.
+    fn stream(stream: Peephole, num_qubits: usize) -> Body {
+        let mut counter = Counter::new(num_qubits);
+        counter.extend(stream.gates());
+        Body::Stream(stream, counter)
+    }
+
     /// The gates of the whole circuit: this body, then `readout`.
     fn with_readout(&self, readout: &[Gate]) -> Vec<Gate> {
         match self {
-            Body::Stream(s) => s.with_tail(readout).to_vec(),
+            Body::Stream(s, _) => s.with_tail(readout).to_vec(),
             Body::Raw(gates) => {
                 let mut out = Vec::with_capacity(gates.len() + readout.len());
                 out.extend_from_slice(gates);
@@ -446,10 +544,23 @@ impl Body {
         }
     }
 
-    /// `counts` of [`Body::with_readout`], without building it.
+    /// `counts` of [`Body::with_readout`], without building it: from the body's own counts
+    /// when the readout leaves the body's gates as they are (the usual case), else by one
+    /// pass over the whole circuit.
     fn counts_with_readout(&self, num_qubits: usize, readout: &[Gate]) -> Counts {
         match self {
-            Body::Stream(s) => counts_of(num_qubits, s.with_tail(readout).gates()),
+            Body::Stream(s, counted) => {
+                let tailed = s.with_tail(readout);
+                let counts = match tailed.appended_only() {
+                    Some(tail) => {
+                        let mut c = counted.clone();
+                        c.extend(tail);
+                        c.counts()
+                    }
+                    None => counts_of(num_qubits, tailed.gates()),
+                };
+                counts
+            }
             Body::Raw(gates) => counts_of(num_qubits, gates.iter().chain(readout).copied()),
         }
     }
@@ -607,49 +718,28 @@ pub fn compile_at(
                 }
                 c
             };
-            // Builds the circuits of one time point that share their body, from the candidates
-            // in `only` when given (the chain always among them), else from all; returns them
-            // with the candidates kept and the most two-qubit gates of one circuit.
-            let build = |frames_k: Vec<crate::family::Frame>,
-                         only: Option<&[(ProgramOrder, Synthesis)]>|
-             -> Result<PointBuilt, IrError> {
-                let first = &frames_k[0];
-                let k = first.k;
+            let program_of = |order: ProgramOrder, k: usize| -> &[Rotation] {
+                match order {
+                    ProgramOrder::Formula => &programs[k],
+                    ProgramOrder::Agreeing => agreeing[k].as_deref().unwrap_or_default(),
+                }
+            };
+            // The candidates of time point k, only those in `only` when given (the chain always
+            // among them).
+            let candidates_in = |k: usize, only: Option<&[(ProgramOrder, Synthesis)]>| {
                 let mut cands = candidates(k);
                 if let Some(only) = only {
                     cands.retain(|c| c.1 == Synthesis::Chain || only.contains(c));
                 }
-                let bodies: Vec<Body> = cands
-                    .par_iter()
-                    .map(|&(order, synthesis)| {
-                        let program: &[Rotation] = match order {
-                            ProgramOrder::Formula => &programs[k],
-                            ProgramOrder::Agreeing => agreeing[k].as_deref().unwrap_or_default(),
-                        };
-                        let mut body = Circuit::new(first.num_qubits, first.num_clbits);
-                        let passes = all_to_all_passes(
-                            &first.prefix,
-                            program,
-                            control,
-                            &[],
-                            level,
-                            synthesis,
-                            Some(&networks),
-                        );
-                        // `prepare` and `synthesize`; the readout and `cancel` follow per
-                        // circuit below.
-                        run_passes(&mut body, &passes[..2], &Rules::default())?;
-                        Ok(if level >= OptLevel(1) {
-                            let mut stream = Peephole::new(body.num_qubits, body.gates.len());
-                            for g in body.gates.drain(..) {
-                                stream.push(g);
-                            }
-                            Body::Stream(stream)
-                        } else {
-                            Body::Raw(body.gates)
-                        })
-                    })
-                    .collect::<Result<Vec<_>, IrError>>()?;
+                cands
+            };
+            // The circuits of one time point from the bodies of its candidates `cands`: per
+            // circuit, the candidate whose body with that circuit's readout has the fewest
+            // two-qubit gates (then the lowest depth).
+            let pick = |frames_k: Vec<crate::family::Frame>,
+                        cands: &[(ProgramOrder, Synthesis)],
+                        bodies: &[Body]|
+             -> Result<PointBuilt, IrError> {
                 let mut built = PointBuilt {
                     finished: Vec::with_capacity(frames_k.len()),
                     kept: Vec::new(),
@@ -657,13 +747,10 @@ pub fn compile_at(
                 };
                 for f in frames_k {
                     // Each candidate's readout is counted on an overlay of its shared body
-                    // (nothing copied); the first with the fewest two-qubit gates, then the
-                    // lowest depth, is built. A single candidate is counted once it is built.
-                    let mut best: Option<(usize, Option<Counts>)> = None;
-                    if bodies.len() == 1 {
-                        best = Some((0, None));
-                    }
-                    for (i, body) in bodies.iter().enumerate().filter(|_| bodies.len() > 1) {
+                    // (nothing copied; the body itself was counted once); the first with the
+                    // fewest two-qubit gates, then the lowest depth, is built.
+                    let mut best: Option<(usize, Counts)> = None;
+                    for (i, body) in bodies.iter().enumerate() {
                         let n = body.counts_with_readout(f.num_qubits, &f.suffix);
                         if cfg!(debug_assertions) {
                             let mut c = Circuit::new(f.num_qubits, f.num_clbits);
@@ -676,12 +763,11 @@ pub fn compile_at(
                                 ..e
                             })?;
                         }
-                        let better = best.as_ref().is_none_or(|b| {
-                            let b = b.1.expect("counted");
-                            (n.two_qubit, n.depth) < (b.two_qubit, b.depth)
-                        });
+                        let better = best
+                            .as_ref()
+                            .is_none_or(|b| (n.two_qubit, n.depth) < (b.1.two_qubit, b.1.depth));
                         if better {
-                            best = Some((i, Some(n)));
+                            best = Some((i, n));
                         }
                     }
                     let (i, n) = best.expect("at least the chain candidate");
@@ -691,7 +777,7 @@ pub fn compile_at(
                         message: format!("after pass `cancel`: {}", e.message),
                         ..e
                     })?;
-                    let n = n.unwrap_or_else(|| crate::circuit::metrics::counts(&circuit));
+                    debug_assert_eq!(n, crate::circuit::metrics::counts(&circuit));
                     if !built.kept.contains(&cands[i]) {
                         built.kept.push(cands[i]);
                     }
@@ -714,6 +800,45 @@ pub fn compile_at(
                 }
                 Ok(built)
             };
+            // Builds the circuits of one time point that share their body, from the candidates
+            // in `only` when given, else from all; returns them with the candidates kept and
+            // the most two-qubit gates of one circuit.
+            let build = |frames_k: Vec<crate::family::Frame>,
+                         only: Option<&[(ProgramOrder, Synthesis)]>|
+             -> Result<PointBuilt, IrError> {
+                let first = &frames_k[0];
+                let k = first.k;
+                let cands = candidates_in(k, only);
+                let bodies: Vec<Body> = cands
+                    .par_iter()
+                    .map(|&(order, synthesis)| {
+                        let program = program_of(order, k);
+                        let mut body = Circuit::new(first.num_qubits, first.num_clbits);
+                        let passes = all_to_all_passes(
+                            &first.prefix,
+                            program,
+                            control,
+                            &[],
+                            level,
+                            synthesis,
+                            Some(&networks),
+                        );
+                        // `prepare` and `synthesize`; the readout and `cancel` follow per
+                        // circuit below.
+                        run_passes(&mut body, &passes[..2], &Rules::default())?;
+                        Ok(if level >= OptLevel(1) {
+                            let mut stream = Peephole::new(body.num_qubits, body.gates.len());
+                            for g in body.gates.drain(..) {
+                                stream.push(g);
+                            }
+                            Body::stream(stream, first.num_qubits)
+                        } else {
+                            Body::Raw(body.gates)
+                        })
+                    })
+                    .collect::<Result<Vec<_>, IrError>>()?;
+                pick(frames_k, &cands, &bodies)
+            };
             // The first time point with a step is built from every candidate; when its
             // circuits are past `SCORE_ONCE_MIN` two-qubit gates, the other points try only
             // the candidates it kept (and the chain, so a level still never emits more than the
@@ -727,6 +852,91 @@ pub fn compile_at(
                     only = Some(built.kept);
                 }
                 done[s] = Some(built.finished);
+            }
+            // Past that size the points with a step that share their preparation are grown
+            // from one pass over the longest program ([`grown_streams`]) per candidate: the
+            // program of point k holds that of every earlier point up to its last step, so
+            // their bodies are the longest body cut short plus a tail of their own.
+            if let (Some(only), true) = (&only, level >= OptLevel(1)) {
+                let mut classes: Vec<Vec<usize>> = Vec::new();
+                for i in (0..shared.len()).filter(|&i| shared[i].first().is_some_and(|f| f.k > 0)) {
+                    let f = &shared[i][0];
+                    let same = |c: &&mut Vec<usize>| {
+                        let g = &shared[c[0]][0];
+                        g.prefix == f.prefix && g.num_qubits == f.num_qubits
+                    };
+                    match classes.iter_mut().find(same) {
+                        Some(c) => c.push(i),
+                        None => classes.push(vec![i]),
+                    }
+                }
+                for mut class in classes {
+                    class.sort_by_key(|&i| shared[i][0].k);
+                    let ks: Vec<usize> = class.iter().map(|&i| shared[i][0].k).collect();
+                    let cands: Vec<Vec<(ProgramOrder, Synthesis)>> =
+                        ks.iter().map(|&k| candidates_in(k, Some(only))).collect();
+                    let mut union: Vec<(ProgramOrder, Synthesis)> = Vec::new();
+                    for c in cands.iter().flatten() {
+                        if !union.contains(c) {
+                            union.push(*c);
+                        }
+                    }
+                    let (num_qubits, prefix) = (
+                        shared[class[0]][0].num_qubits,
+                        shared[class[0]][0].prefix.clone(),
+                    );
+                    let grown: Vec<Vec<(usize, Peephole)>> = union
+                        .par_iter()
+                        .map(|&(order, synthesis)| {
+                            let members: Vec<usize> = (0..class.len())
+                                .filter(|&j| cands[j].contains(&(order, synthesis)))
+                                .collect();
+                            let progs: Vec<&[Rotation]> =
+                                members.iter().map(|&j| program_of(order, ks[j])).collect();
+                            let synthesize = |p: &[Rotation]| {
+                                let mut out = Vec::new();
+                                synthesize_all_to_all(
+                                    p,
+                                    control,
+                                    synthesis,
+                                    Some(&networks),
+                                    &mut out,
+                                );
+                                out
+                            };
+                            members
+                                .into_iter()
+                                .zip(grown_streams(num_qubits, &prefix, &progs, &synthesize))
+                                .collect()
+                        })
+                        .collect();
+                    let mut bodies: Vec<Vec<Option<Body>>> = cands
+                        .iter()
+                        .map(|c| c.iter().map(|_| None).collect())
+                        .collect();
+                    for (u, list) in union.iter().zip(grown) {
+                        for (j, stream) in list {
+                            let at = cands[j].iter().position(|c| c == u).expect("a member");
+                            bodies[j][at] = Some(Body::stream(stream, num_qubits));
+                        }
+                    }
+                    let points: Vec<(usize, Vec<crate::family::Frame>, Vec<Body>)> = class
+                        .iter()
+                        .zip(bodies)
+                        .map(|(&i, b)| {
+                            let b = b.into_iter().map(|b| b.expect("grown")).collect();
+                            (i, std::mem::take(&mut shared[i]), b)
+                        })
+                        .collect();
+                    let built: Vec<(usize, Vec<Finished>)> = points
+                        .into_par_iter()
+                        .zip(cands)
+                        .map(|((i, frames_k, b), c)| Ok((i, pick(frames_k, &c, &b)?.finished)))
+                        .collect::<Result<Vec<_>, IrError>>()?;
+                    for (i, f) in built {
+                        done[i] = Some(f);
+                    }
+                }
             }
             let rest: Vec<(usize, Vec<Finished>)> = shared
                 .into_par_iter()
@@ -1080,5 +1290,97 @@ fn finish(
         plan,
         programs,
         circuits,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::formula::Order;
+    use crate::pauli::PauliString;
+    use proptest::prelude::*;
+
+    /// `prefix` then `program` through `synthesis`, cancelled: a body built the direct way.
+    fn direct(
+        n: usize,
+        prefix: &[Gate],
+        program: &[Rotation],
+        control: Option<crate::circuit::Qubit>,
+        synthesis: Synthesis,
+    ) -> Vec<Gate> {
+        let mut gates = prefix.to_vec();
+        synthesize_all_to_all(program, control, synthesis, None, &mut gates);
+        let mut c = Circuit::new(n, 0);
+        c.gates = gates;
+        crate::circuit::cancel::cancel_inverses(&mut c);
+        c.gates
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
+
+        // Time points 1–4 of random dense sums on 5 qubits, every order, grown from one pass
+        // over the longest program: with ladders the very gates of building each point on its
+        // own (the cut falls between commuting runs and a ladder depends on its rotation
+        // alone); with `synth::Groups` (which carries its frame on a block this narrow, so
+        // a cut changes its gates) the same unitary to 1e-9, simulated.
+        #[test]
+        fn grown_points_equal_points_built_alone(
+            raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 1..12),
+            order in prop_oneof![Just(Order::First), Just(Order::Second), Just(Order::Fourth)],
+            steps in 1usize..3,
+            ctl in any::<bool>(),
+        ) {
+            let n = 5;
+            let mut h = PauliSum::new(n);
+            for &(x, z, c) in &raw {
+                let p = PauliString::from_masks(x & 31, z & 31);
+                if !p.is_identity() {
+                    h.add(p, c);
+                }
+            }
+            prop_assume!(!h.terms.is_empty());
+            let formula_terms = order_terms(&h);
+            let formula = Formula::new(&formula_terms);
+            let programs: Vec<Vec<Rotation>> =
+                (1..=4).map(|k| formula.evolution(order, 0.3 * k as f64, k * steps)).collect();
+            let refs: Vec<&[Rotation]> = programs.iter().map(Vec::as_slice).collect();
+            let control = ctl.then_some(n as crate::circuit::Qubit);
+            let width = n + 1;
+            let prefix = [Gate::H(n as u32), Gate::X(2), Gate::H(1)];
+            for synthesis in [Synthesis::Chain, Synthesis::Groups] {
+                let synthesize = |p: &[Rotation]| {
+                    let mut out = Vec::new();
+                    synthesize_all_to_all(p, control, synthesis, None, &mut out);
+                    out
+                };
+                let grown = grown_streams(width, &prefix, &refs, &synthesize);
+                prop_assert_eq!(grown.len(), programs.len());
+                for (stream, program) in grown.into_iter().zip(&programs) {
+                    // The body's counts, carried over the readout, are those of the whole
+                    // circuit: a readout that only appends, and one whose first gate undoes
+                    // the body's last (so the overlay changes the body).
+                    let body = Body::stream(stream.clone(), width);
+                    let last = stream.gates().last().expect("a gate");
+                    let undo = last.inverse().unwrap_or(last);
+                    for readout in [vec![Gate::H(n as u32)], vec![undo, Gate::H(0)]] {
+                        prop_assert_eq!(
+                            body.counts_with_readout(width, &readout),
+                            counts_of(width, body.with_readout(&readout))
+                        );
+                    }
+                    let alone = direct(width, &prefix, program, control, synthesis);
+                    let got = stream.finish();
+                    if synthesis == Synthesis::Chain {
+                        prop_assert_eq!(&got, &alone);
+                    }
+                    let (mut a, mut b) = (Circuit::new(width, 0), Circuit::new(width, 0));
+                    a.gates = got;
+                    b.gates = alone;
+                    crate::circuit::verify::verify_ir(&a, &Rules::default()).unwrap();
+                    prop_assert!(crate::sim::unitary_distance(&a, &b) < 1e-9);
+                }
+            }
+        }
     }
 }

@@ -78,9 +78,10 @@ proptest! {
 }
 
 /// Past `SCORE_ONCE_MIN` two-qubit gates at the first time point, the later points try only
-/// the candidates that point kept, plus the chain: the circuits stay exact (simulated against
-/// the ideal product formula) and no point emits more two-qubit gates than level 2, which
-/// writes every point with chains.
+/// the candidates that point kept, plus the chain, and are grown from one pass over the
+/// longest program (`pipeline::grown_streams`, two points here): the circuits stay exact
+/// (simulated against the ideal product formula) and no point emits more two-qubit gates than
+/// level 2, which writes every point with chains.
 #[test]
 fn points_past_the_scoring_size_stay_exact_and_no_worse_than_chains() {
     use phasewright::pipeline::{compile_at, OptLevel, Target, SCORE_ONCE_MIN};
@@ -99,7 +100,7 @@ fn points_past_the_scoring_size_stay_exact_and_no_worse_than_chains() {
         family: Family::Overlap,
         order: Order::Second,
         dt: 0.2,
-        points: 3,
+        points: 4,
         steps_per_dt: 70,
         states: vec!["0+1r0-l01".to_string()],
     };

@@ -66,6 +66,11 @@ impl Peephole {
         }
     }
 
+    /// The gates that survive so far, in order (what [`Peephole::finish`] would return).
+    pub fn gates(&self) -> impl Iterator<Item = Gate> + '_ {
+        self.live.iter().flatten().copied()
+    }
+
     /// The gates that survive, in order.
     pub fn finish(self) -> Vec<Gate> {
         let kept = self.live.iter().filter(|g| g.is_some()).count();
@@ -226,6 +231,14 @@ impl Tailed<'_> {
                 out
             })
             .chain(self.appended.iter().flatten().copied())
+    }
+
+    /// The gates the tail appended, when it left every gate of the shared stream as it was
+    /// (then [`Tailed::gates`] is the shared stream's gates followed by these).
+    pub fn appended_only(&self) -> Option<impl Iterator<Item = Gate> + '_> {
+        self.changed
+            .is_empty()
+            .then(|| self.appended.iter().flatten().copied())
     }
 
     /// The surviving gates as a list.

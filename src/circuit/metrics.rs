@@ -26,10 +26,32 @@ pub fn counts(c: &Circuit) -> Counts {
 /// [`counts`] of the circuit over `num_qubits` qubits whose gates `gates` yields, in one pass
 /// (the depth is [`critical_path`] with every gate lasting 1, counted in integers).
 pub fn counts_of(num_qubits: usize, gates: impl IntoIterator<Item = Gate>) -> Counts {
-    let mut out = Counts::default();
-    let mut ready = vec![0usize; num_qubits];
-    let mut depth = 0usize;
-    for g in gates {
+    let mut c = Counter::new(num_qubits);
+    c.extend(gates);
+    c.counts()
+}
+
+/// [`counts_of`] as a stream: gates go in one at a time and the state can be cloned part way,
+/// so circuits that share their first gates count the shared part once.
+#[derive(Clone, Debug)]
+pub struct Counter {
+    counts: Counts,
+    /// Per qubit, the layer its last gate ends on.
+    ready: Vec<usize>,
+}
+
+impl Counter {
+    /// Nothing counted yet, on `num_qubits` qubits.
+    pub fn new(num_qubits: usize) -> Counter {
+        Counter {
+            counts: Counts::default(),
+            ready: vec![0; num_qubits],
+        }
+    }
+
+    /// Counts `g`.
+    pub fn push(&mut self, g: Gate) {
+        let (out, ready) = (&mut self.counts, &mut self.ready);
         match g {
             Gate::Measure(..) => out.measurements += 1,
             Gate::Swap(..) => {
@@ -42,6 +64,7 @@ pub fn counts_of(num_qubits: usize, gates: impl IntoIterator<Item = Gate>) -> Co
         let end = match g {
             Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) => {
                 let end = ready[a as usize].max(ready[b as usize]) + 1;
+                ready[a as usize] = end;
                 ready[b as usize] = end;
                 end
             }
@@ -51,13 +74,20 @@ pub fn counts_of(num_qubits: usize, gates: impl IntoIterator<Item = Gate>) -> Co
                 ready[q]
             }
         };
-        if let Gate::Cx(a, _) | Gate::Cz(a, _) | Gate::Swap(a, _) = g {
-            ready[a as usize] = end;
-        }
-        depth = depth.max(end);
+        out.depth = out.depth.max(end);
     }
-    out.depth = depth;
-    out
+
+    /// Counts every gate of `gates`.
+    pub fn extend(&mut self, gates: impl IntoIterator<Item = Gate>) {
+        for g in gates {
+            self.push(g);
+        }
+    }
+
+    /// The costs of the gates counted so far.
+    pub fn counts(&self) -> Counts {
+        self.counts
+    }
 }
 
 /// Length of the longest dependency chain with each gate weighted by `duration(gate)`.
