@@ -182,6 +182,62 @@ fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
     (t.elapsed().as_secs_f64(), bytes)
 }
 
+/// Per circuit of one time point, the candidate body whose readout gives the fewest two-qubit
+/// gates (then the lowest depth), counted on top of the body's own counts as the pipeline does,
+/// then built, verified and formatted; adds the seconds to `readout` and `text` and returns the
+/// candidates kept and the most two-qubit gates of one circuit.
+fn pick<C: Copy + PartialEq>(
+    fs: &[&phasewright::family::Frame],
+    candidates: &[C],
+    bodies: &[(
+        phasewright::circuit::cancel::Peephole,
+        phasewright::circuit::metrics::Counter,
+    )],
+    readout: &mut f64,
+    text: &mut f64,
+) -> (Vec<C>, usize) {
+    use phasewright::circuit::metrics::counts_of;
+    use phasewright::circuit::verify::{verify_ir, Rules};
+    use phasewright::circuit::Circuit;
+    let (mut kept, mut most) = (Vec::new(), 0);
+    for f in fs {
+        let t = Instant::now();
+        let mut best: Option<(usize, (usize, usize))> = None;
+        for (i, (b, counted)) in bodies.iter().enumerate() {
+            let tailed = b.with_tail(&f.suffix);
+            let n = match tailed.appended_only() {
+                Some(tail) => {
+                    let mut c = counted.clone();
+                    c.extend(tail);
+                    c.counts()
+                }
+                None => counts_of(f.num_qubits, tailed.gates()),
+            };
+            let key = (n.two_qubit, n.depth);
+            if best.as_ref().is_none_or(|b| key < b.1) {
+                best = Some((i, key));
+            }
+        }
+        let (i, (two, _)) = best.expect("a candidate");
+        if !kept.contains(&candidates[i]) {
+            kept.push(candidates[i]);
+        }
+        let mut c = Circuit::new(f.num_qubits, f.num_clbits);
+        c.gates = bodies[i].0.with_tail(&f.suffix).to_vec();
+        verify_ir(&c, &Rules::default()).expect("verified");
+        most = most.max(two);
+        *readout += t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        std::hint::black_box(phasewright::qasm::write(
+            &c,
+            phasewright::qasm::Addressing::Logical,
+            &[],
+        ));
+        *text += t.elapsed().as_secs_f64();
+    }
+    (kept, most)
+}
+
 /// The all-to-all pipeline of [`compile`] at the default level, stage by stage on one thread
 /// (the same calls in the same order, each timed), in seconds: grouping and ordering the
 /// terms, the formula per time point, the agreeing schedule and the pair scan per point, then
@@ -191,11 +247,13 @@ fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
 /// only the candidates k = 1 kept and the chain, as the pipeline does.
 fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     use phasewright::circuit::cancel::Peephole;
-    use phasewright::circuit::metrics::counts_of;
-    use phasewright::circuit::verify::{verify_ir, Rules};
+    use phasewright::circuit::metrics::Counter;
+    use phasewright::circuit::verify::Rules;
     use phasewright::circuit::Circuit;
-    use phasewright::formula::{order_terms, Formula};
-    use phasewright::pipeline::{all_to_all_passes, run_passes, OptLevel, Synthesis};
+    use phasewright::formula::{order_terms, Formula, Rotation};
+    use phasewright::pipeline::{
+        all_to_all_passes, grown_streams, run_passes, synthesize_all_to_all, OptLevel, Synthesis,
+    };
     let s = spec(h.num_qubits, points);
     let mut out = Vec::new();
     let mut t = Instant::now();
@@ -222,7 +280,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     lap("pair scan", &mut out);
     let frames = phasewright::family::frames(h, &s);
     lap("frames", &mut out);
-    let (mut synth, mut cancel, mut readout, mut text) = (0.0, 0.0, 0.0, 0.0);
+    let (mut synth, mut cancel, mut readout, mut text, mut grow) = (0.0, 0.0, 0.0, 0.0, 0.0);
     let level = OptLevel::default();
     let control = Some(h.num_qubits as u32);
     let grouped: Vec<bool> = programs
@@ -232,8 +290,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     let networks = phasewright::synth::groups::RunNetworks::default();
     // Past `SCORE_ONCE_MIN` at k = 1, later points build only what k = 1 kept, and the chain.
     let mut only: Option<Vec<(bool, Synthesis)>> = None;
-    for k in 1..points {
-        let fs: Vec<_> = frames.iter().filter(|f| f.k == k).collect();
+    let candidates_of = |k: usize| {
         // (agreeing order?, synthesis), in the pipeline's order.
         let mut candidates = vec![(false, Synthesis::Chain), (false, Synthesis::Tree)];
         if paired[k] {
@@ -248,20 +305,27 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
                 candidates.push((true, Synthesis::Groups));
             }
         }
-        if let Some(only) = &only {
-            candidates.retain(|c| c.1 == Synthesis::Chain || only.contains(c));
+        candidates
+    };
+    let program_of = |agree: bool, k: usize| match (agree, &agreeing[k]) {
+        (true, Some(p)) => &p[..],
+        _ => &programs[k][..],
+    };
+    // Per point, the candidates' peephole streams, counted once each.
+    let mut bodies_of: Vec<Vec<(Peephole, Counter)>> = (0..points).map(|_| Vec::new()).collect();
+    let mut cands_of: Vec<Vec<(bool, Synthesis)>> = (0..points).map(|_| Vec::new()).collect();
+    for k in 1..points {
+        if k >= 2 && only.is_some() {
+            break;
         }
-        let mut bodies = Vec::new();
-        for &(agree, synthesis) in &candidates {
-            let program = match (agree, &agreeing[k]) {
-                (true, Some(p)) => &p[..],
-                _ => &programs[k][..],
-            };
+        let fs: Vec<_> = frames.iter().filter(|f| f.k == k).collect();
+        cands_of[k] = candidates_of(k);
+        for &(agree, synthesis) in &cands_of[k] {
             let t = Instant::now();
             let mut body = Circuit::new(fs[0].num_qubits, fs[0].num_clbits);
             let passes = all_to_all_passes(
                 &fs[0].prefix,
-                program,
+                program_of(agree, k),
                 control,
                 &[],
                 level,
@@ -275,44 +339,61 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
             for g in body.gates.drain(..) {
                 stream.push(g);
             }
-            bodies.push(stream);
             cancel += t.elapsed().as_secs_f64();
-        }
-        let (mut kept, mut most) = (Vec::new(), 0);
-        for f in &fs {
             let t = Instant::now();
-            let mut best: Option<(usize, (usize, usize))> = None;
-            for (i, b) in bodies.iter().enumerate().filter(|_| bodies.len() > 1) {
-                let n = counts_of(f.num_qubits, b.with_tail(&f.suffix).gates());
-                let key = (n.two_qubit, n.depth);
-                if best.as_ref().is_none_or(|b| key < b.1) {
-                    best = Some((i, key));
+            let mut counter = Counter::new(body.num_qubits);
+            counter.extend(stream.gates());
+            readout += t.elapsed().as_secs_f64();
+            bodies_of[k].push((stream, counter));
+        }
+        if k == 1 {
+            let (kept, most) = pick(&fs, &cands_of[k], &bodies_of[k], &mut readout, &mut text);
+            if most > phasewright::pipeline::SCORE_ONCE_MIN {
+                only = Some(kept);
+            }
+        }
+    }
+    // Past `SCORE_ONCE_MIN`, the later points are grown from one pass over the longest
+    // program per candidate (`pipeline::grown_streams`): synthesis and peephole in one.
+    if let Some(only) = &only {
+        let later: Vec<usize> = (2..points).collect();
+        for k in &later {
+            cands_of[*k] = candidates_of(*k);
+            cands_of[*k].retain(|c| c.1 == Synthesis::Chain || only.contains(c));
+        }
+        let fs0: Vec<_> = frames.iter().filter(|f| f.k == 2).collect();
+        if let Some(f0) = fs0.first() {
+            for &(agree, synthesis) in &cands_of[2] {
+                let t = Instant::now();
+                let progs: Vec<&[Rotation]> = later.iter().map(|&k| program_of(agree, k)).collect();
+                let synthesize = |p: &[Rotation]| {
+                    let mut out = Vec::new();
+                    synthesize_all_to_all(p, control, synthesis, Some(&networks), &mut out);
+                    out
+                };
+                let streams = grown_streams(f0.num_qubits, &f0.prefix, &progs, &synthesize);
+                grow += t.elapsed().as_secs_f64();
+                for (&k, stream) in later.iter().zip(streams) {
+                    let t = Instant::now();
+                    let mut counter = Counter::new(f0.num_qubits);
+                    counter.extend(stream.gates());
+                    readout += t.elapsed().as_secs_f64();
+                    bodies_of[k].push((stream, counter));
                 }
             }
-            let (i, _) = best.unwrap_or((0, (0, 0)));
-            if !kept.contains(&candidates[i]) {
-                kept.push(candidates[i]);
-            }
-            let mut c = Circuit::new(f.num_qubits, f.num_clbits);
-            c.gates = bodies[i].with_tail(&f.suffix).to_vec();
-            verify_ir(&c, &Rules::default()).expect("verified");
-            most = most.max(phasewright::circuit::metrics::counts(&c).two_qubit);
-            readout += t.elapsed().as_secs_f64();
-            let t = Instant::now();
-            std::hint::black_box(phasewright::qasm::write(
-                &c,
-                phasewright::qasm::Addressing::Logical,
-                &[],
-            ));
-            text += t.elapsed().as_secs_f64();
         }
-        if k == 1 && most > phasewright::pipeline::SCORE_ONCE_MIN {
-            only = Some(kept);
+    }
+    for k in 2..points {
+        let fs: Vec<_> = frames.iter().filter(|f| f.k == k).collect();
+        if only.is_none() {
+            break;
         }
+        pick(&fs, &cands_of[k], &bodies_of[k], &mut readout, &mut text);
     }
     out.extend([
         ("synthesis", synth),
         ("peephole", cancel),
+        ("grown points", grow),
         ("readout+counts", readout),
         ("format", text),
     ]);

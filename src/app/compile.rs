@@ -684,8 +684,14 @@ pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
 /// ([`super::io::replace_folder`]), so no file of an older campaign survives and a reader never
 /// sees a plan whose files are missing or partial.
 pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
-    for (e, text) in c.plan.circuits.iter_mut().zip(&c.programs) {
-        e.sha256 = Some(super::io::sha256_hex(text.as_bytes()));
+    use rayon::prelude::*;
+    let digests: Vec<String> = c
+        .programs
+        .par_iter()
+        .map(|text| super::io::sha256_hex(text.as_bytes()))
+        .collect();
+    for (e, digest) in c.plan.circuits.iter_mut().zip(digests) {
+        e.sha256 = Some(digest);
     }
     let plan = c.plan.to_json();
     let mut files: Vec<(&str, &[u8])> = c
