@@ -105,7 +105,7 @@ enum Inner<'s> {
     /// A plain file ([`plain`]): already read, no fermionic part.
     Plain(HamRead),
     Full {
-        ev: Evaluator<'s>,
+        ev: Box<Evaluator<'s>>,
         encoding: Option<Encoding>,
     },
 }
@@ -130,7 +130,7 @@ pub fn evaluate<'s>(
         return Err(vec![d]);
     }
     let stmts = parse_statements(file, src)?;
-    let mut ev = Evaluator::new(file, src);
+    let mut ev = Box::new(Evaluator::new(file, src));
     let encoding = ev.evaluate(&stmts, encoding)?;
     Ok(Evaluated {
         inner: Inner::Full { ev, encoding },
@@ -169,7 +169,7 @@ impl Evaluated<'_> {
     pub fn finish(self) -> Result<HamRead, Vec<Diagnostic>> {
         match self.inner {
             Inner::Plain(read) => Ok(read),
-            Inner::Full { ev, encoding } => ev.finish(encoding),
+            Inner::Full { ev, encoding } => (*ev).finish(encoding),
         }
     }
 }
