@@ -57,7 +57,7 @@ fn hubbard_chain(sites: usize) -> PauliSum {
         }
         text += &format!("4.0 * n{{{}}} n{{{}}}\n", 2 * s, 2 * s + 1);
     }
-    phasewright::lang::ham::parse_hamiltonian("hubbard.ham", &text)
+    phasewright::hamiltonian::parse_hamiltonian("hubbard.ham", &text)
         .expect("the benchmark's model reads")
         .sum
 }
@@ -170,7 +170,7 @@ fn main() {
     }
     let text =
         std::fs::read_to_string("examples/tfim_chain8.ham").expect("run from the crate root");
-    let h = phasewright::lang::ham::parse_hamiltonian("tfim_chain8.ham", &text)
+    let h = phasewright::hamiltonian::parse_hamiltonian("tfim_chain8.ham", &text)
         .expect("the example reads")
         .sum;
     let s = Spec {

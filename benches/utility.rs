@@ -21,7 +21,8 @@
 use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
-use phasewright::lang::ham::{parse_hamiltonian, plain, read_flat, write_flat};
+use phasewright::hamiltonian::{parse_hamiltonian, read_flat};
+use phasewright::lang::ham::{plain, write_flat};
 use phasewright::pauli::PauliSum;
 use phasewright::pipeline::compile;
 use rand::{Rng, SeedableRng};

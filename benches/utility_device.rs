@@ -119,7 +119,7 @@ fn run_case(i: usize) {
         std::fs::read_to_string("examples/hexchip127.dev").expect("run from the crate root");
     let scratch = tempfile::tempdir().expect("scratch folder");
     let t0 = Instant::now();
-    let h = phasewright::lang::ham::parse_hamiltonian("bench.ham", &ham_text)
+    let h = phasewright::hamiltonian::parse_hamiltonian("bench.ham", &ham_text)
         .expect("generated text parses")
         .sum;
     let dev: Device =

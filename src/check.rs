@@ -15,11 +15,11 @@
 //! bad input (exit 2); a compile error above tolerance is not an error here but a verdict.
 
 use crate::circuit::Circuit;
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
 use crate::family::plan::{CircuitEntry, Part, Plan, Target};
 use crate::family::state_prep;
 use crate::formula::{apply_program, evolution, order_terms, Order};
-use crate::lang::codes::Code;
 use crate::pauli::{PauliString, PauliSum};
 use crate::sim::exact::Propagator;
 use crate::sim::SimError;

@@ -11,8 +11,8 @@
 //! with [`Error::from_layer`] / [`Error::layer_in`] and never picks an exit status itself.
 
 use crate::circuit::verify::IrError;
-use crate::lang::codes::Code;
-use crate::lang::diag::{render_all, Diagnostic};
+use crate::diag::Code;
+use crate::diag::{render_all, Diagnostic};
 use std::fmt;
 
 #[derive(Debug)]

@@ -4,8 +4,10 @@
 //!
 //! The pipeline runs in one direction:
 //!
-//! 1. [`lang`] parses `.ham` (Hamiltonians) and `.dev` (devices) into a [`pauli::PauliSum`] and a
-//!    [`device::Device`], with diagnostics that point at the offending text;
+//! 1. [`lang`] parses `.ham` (Hamiltonians) and `.dev` (devices) into Pauli terms plus a
+//!    fermionic operator and a [`device::Device`], with [`diag`]nostics that point at the
+//!    offending text; [`hamiltonian`] maps the fermionic part ([`fermion`]) and keeps the
+//!    Hermitian [`pauli::PauliSum`];
 //! 2. [`formula`] orders the terms and expands a product formula (Lie–Trotter, Strang, Suzuki
 //!    fourth order) into a rotation program `Π exp(-iθ_j P_j)`;
 //! 3. [`family`] wraps the program into circuit families (Hadamard tests for overlaps, Krylov
@@ -28,7 +30,7 @@
 //! use phasewright::family::{control::Control, plan::Family, Spec};
 //! use phasewright::formula::Order;
 //!
-//! let ham = phasewright::lang::ham::parse_hamiltonian("pair.ham", "qubits 2\n1.0 Z0 Z1\n0.5 X0\n0.5 X1\n")
+//! let ham = phasewright::hamiltonian::parse_hamiltonian("pair.ham", "qubits 2\n1.0 Z0 Z1\n0.5 X0\n0.5 X1\n")
 //!     .expect("a valid .ham file");
 //! let spec = Spec {
 //!     family: Family::Overlap,
@@ -54,11 +56,14 @@ pub mod app;
 pub mod check;
 pub mod circuit;
 pub mod device;
+pub mod diag;
 pub mod error;
 pub mod estimate;
 pub mod family;
 pub mod fermion;
 pub mod formula;
+pub mod hamiltonian;
+pub mod ladder;
 pub mod lang;
 pub mod lower;
 pub mod pauli;

@@ -288,7 +288,7 @@ impl From<CompileError> for crate::error::Error {
         match e {
             CompileError::Route(e) => crate::error::Error::from(e),
             CompileError::TooLarge(m) => crate::error::Error::usage(
-                crate::lang::codes::Code::UsageLimit,
+                crate::diag::Code::UsageLimit,
                 m,
                 Some("use fewer --points or --steps, a lower --order, or fewer terms (a cutoff on small coefficients)"),
             ),

@@ -119,7 +119,7 @@ fn fermionic(modes: usize, hops: &[(usize, usize, f64)], dens: &[(usize, usize, 
             text += &format!("{u} * n{{{i}}}\n");
         }
     }
-    phasewright::lang::ham::parse_hamiltonian("f.ham", &text)
+    phasewright::hamiltonian::parse_hamiltonian("f.ham", &text)
         .unwrap()
         .sum
 }

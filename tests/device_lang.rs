@@ -2,8 +2,8 @@
 //! kind of bad input becomes a diagnostic at the right place (never a panic).
 
 use phasewright::device::{Entangler, OneQubitBasis};
+use phasewright::diag::Diagnostic;
 use phasewright::lang::dev::parse_device;
-use phasewright::lang::diag::Diagnostic;
 
 fn errors(src: &str) -> Vec<Diagnostic> {
     parse_device("t.dev", src).expect_err("the input is bad")

@@ -128,7 +128,7 @@ fn command_line_files_for_100_qubits_on_127_are_native_and_coupled() {
 #[test]
 fn stitched_files_for_100_qubits_on_127_are_native_and_coupled() {
     let dev = device();
-    let h = phasewright::lang::ham::parse_hamiltonian("h100.ham", &hamiltonian_text())
+    let h = phasewright::hamiltonian::parse_hamiltonian("h100.ham", &hamiltonian_text())
         .unwrap()
         .sum;
     let spec = Spec {
@@ -162,7 +162,7 @@ fn device_campaign_bytes_do_not_depend_on_the_thread_count() {
     // Stitched assembly forced (pieces printed in parallel chunks, circuits emitted in
     // parallel): one thread and two must give the same programs and plan, byte for byte.
     let dev = device();
-    let h = phasewright::lang::ham::parse_hamiltonian("h100.ham", &hamiltonian_text())
+    let h = phasewright::hamiltonian::parse_hamiltonian("h100.ham", &hamiltonian_text())
         .unwrap()
         .sum;
     let spec = Spec {

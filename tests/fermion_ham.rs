@@ -4,7 +4,7 @@ use assert_cmd::Command;
 use phasewright::fermion::fcidump::parse_fcidump;
 use phasewright::fermion::sector::{lowest_in_sector, sector_basis};
 use phasewright::fermion::Encoding;
-use phasewright::lang::ham::{parse_hamiltonian, parse_hamiltonian_with, HamRead};
+use phasewright::hamiltonian::{parse_hamiltonian, parse_hamiltonian_with, HamRead};
 use phasewright::pauli::{Pauli, PauliString};
 use phasewright::sim::exact::spectrum;
 

@@ -23,9 +23,9 @@
 
 use assert_cmd::Command;
 use phasewright::app::io::{read_plan, sha256_hex};
+use phasewright::diag::Diagnostic;
 use phasewright::error::Error;
 use phasewright::family::plan::Plan;
-use phasewright::lang::diag::Diagnostic;
 use proptest::prelude::*;
 use proptest::sample::select;
 use proptest::test_runner::{Config, RngSeed, TestCaseError, TestRunner};
@@ -995,7 +995,9 @@ fn ham_reader_mutations() {
         let s = src.clone();
         judged(
             &src,
-            guarded(move || phasewright::lang::ham::parse_hamiltonian("fuzz.ham", &s).map(|_| ())),
+            guarded(move || {
+                phasewright::hamiltonian::parse_hamiltonian("fuzz.ham", &s).map(|_| ())
+            }),
         )
     });
 }
@@ -1465,8 +1467,9 @@ fn regression_0002_ham_sum_fails_every_pass() {
     let path = root().join("tests/data/fuzz/0002_ham_sum_fails_every_pass.ham");
     let src = read(&path);
     let text = src.clone();
-    let r = guarded(move || phasewright::lang::ham::parse_hamiltonian("f.ham", &text).map(|_| ()))
-        .unwrap_or_else(|e| panic!("{e}"));
+    let r =
+        guarded(move || phasewright::hamiltonian::parse_hamiltonian("f.ham", &text).map(|_| ()))
+            .unwrap_or_else(|e| panic!("{e}"));
     let diags = r.expect_err("index 8 on 8 qubits must be rejected");
     positions_inside(&src, &diags).unwrap();
     // Both factors leave the register at one pass or another: `Z{i}` at i = 8, `Z{i+1}` at 7.
@@ -1502,7 +1505,7 @@ fn rejected_by_binary(args: &[&str], file: &Path) {
     assert_eq!(code, 2, "expected a diagnostic and exit 2");
 }
 
-/// Finding 0003 (fixed by `lang::diag::depth_guard`): 10^4 nested parentheses overflow the stack of the `.ham` expression
+/// Finding 0003 (fixed by `diag::depth_guard`): 10^4 nested parentheses overflow the stack of the `.ham` expression
 /// parser (SIGABRT, exit 134). Driven through the binary so the abort cannot stop this suite.
 #[test]
 fn regression_0003_ham_deep_parentheses() {
@@ -1510,7 +1513,7 @@ fn regression_0003_ham_deep_parentheses() {
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0004 (fixed by `lang::diag::depth_guard`): a coefficient of 2·10^5 additions parses into a left-deep tree whose
+/// Finding 0004 (fixed by `diag::depth_guard`): a coefficient of 2·10^5 additions parses into a left-deep tree whose
 /// evaluation (or drop) overflows the stack.
 #[test]
 fn regression_0004_ham_long_operator_chain() {
@@ -1518,14 +1521,14 @@ fn regression_0004_ham_long_operator_chain() {
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0005 (fixed by `lang::diag::depth_guard`): 2·10^4 nested sums overflow the stack.
+/// Finding 0005 (fixed by `diag::depth_guard`): 2·10^4 nested sums overflow the stack.
 #[test]
 fn regression_0005_ham_deep_sums() {
     let f = root().join("tests/data/fuzz/0005_ham_deep_sums.ham");
     rejected_by_binary(&["convert", &s(&f), "-o", "-"], &f);
 }
 
-/// Finding 0006 (fixed by `lang::diag::depth_guard`): 2·10^4 nested parentheses in a gate angle overflow the stack of the
+/// Finding 0006 (fixed by `diag::depth_guard`): 2·10^4 nested parentheses in a gate angle overflow the stack of the
 /// OpenQASM reader. The fixture replaces `k01-re.qasm` of the overlap campaign, with its hash
 /// recorded, so `verify` reads it.
 #[test]

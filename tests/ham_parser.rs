@@ -1,8 +1,9 @@
 //! The `.ham` reader seen from outside: every error (message, line and column), the sample
 //! files, physics checks of what the samples mean, and the writer round trip.
 
-use phasewright::lang::diag::Diagnostic;
-use phasewright::lang::ham::{parse_hamiltonian, write_hamiltonian, HamFile};
+use phasewright::diag::Diagnostic;
+use phasewright::hamiltonian::{parse_hamiltonian, HamFile};
+use phasewright::lang::ham::write_hamiltonian;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::sim::exact::spectrum;
 use proptest::prelude::*;

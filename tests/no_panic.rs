@@ -2,8 +2,8 @@
 //! arbitrary text built from its own tokens (the inputs most likely to reach deep code paths)
 //! and on arbitrary characters.
 
+use phasewright::hamiltonian::parse_hamiltonian;
 use phasewright::lang::dev::parse_device;
-use phasewright::lang::ham::parse_hamiltonian;
 use proptest::prelude::*;
 
 fn soup(tokens: &'static [&'static str]) -> impl Strategy<Value = String> {

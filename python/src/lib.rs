@@ -12,8 +12,8 @@
 
 use clap::Parser;
 use phasewright::app::{self, Cli, Command, Global};
+use phasewright::diag::Code;
 use phasewright::error::Error;
-use phasewright::lang::codes::Code;
 use pyo3::prelude::*;
 use std::path::Path;
 

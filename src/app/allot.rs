@@ -9,11 +9,11 @@
 
 use super::estimate::BitOrderArg;
 use super::io::{read_plan, read_plan_circuit, read_text};
+use crate::diag::Code;
 use crate::error::{Error, Result};
 use crate::estimate::allot::{self, Rule};
 use crate::estimate::counts::{self, BitOrder};
 use crate::family::plan::Family;
-use crate::lang::codes::Code;
 use crate::report::table::Table;
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::{Args, ValueEnum};

@@ -5,13 +5,13 @@
 //! In: validated arguments. Out: a summary on stdout (or JSON). Invariant: nothing is written
 //! to disk; with a device the campaign is compiled in memory only to read its durations.
 
+use crate::diag::Code;
 use crate::error::{Error, Result};
 use crate::estimate::budget::{self, Budget};
 use crate::estimate::reference;
 use crate::family::plan::Family;
 use crate::family::Spec;
 use crate::formula::Order;
-use crate::lang::codes::Code;
 use crate::pipeline::{compile_for, Target};
 use clap::Args;
 use std::fmt::Write as _;

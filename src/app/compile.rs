@@ -5,13 +5,13 @@
 //! [`CompileOutcome`] (the plan written, the `--json` report and the summary for people);
 //! [`compile_campaign`] is the library entry point, [`run`] renders it.
 
+use crate::diag::Code;
+use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
-use crate::lang::codes::Code;
-use crate::lang::diag::Diagnostic;
 use crate::pipeline::{compile_at, Compiled, OptLevel, Target};
 use crate::report::table::Table;
 use clap::{Args, ValueEnum};

@@ -6,10 +6,10 @@
 //! use to read any Hamiltonian input: [`load_qubit_hamiltonian`].
 
 use crate::app::io::read_text;
+use crate::diag::Code;
 use crate::error::{Error, Result};
 use crate::fermion::fcidump::{self, ActiveSpace};
 use crate::fermion::{qubit_hamiltonian_from_integrals, ChemInfo, Encoding};
-use crate::lang::codes::Code;
 use crate::lang::ham::{write_flat, FlatSum};
 use crate::pauli::PauliSum;
 use clap::Args;
@@ -125,14 +125,14 @@ fn load(path: &Path, opts: LoadOptions) -> Result<(PauliSum, Option<ChemInfo>, L
 }
 
 /// [`load`] for `convert`, which only writes the sum back: a `.ham` input goes to the
-/// writer's flat form directly ([`crate::lang::ham::read_flat`]), with the same diagnostics.
+/// writer's flat form directly ([`crate::hamiltonian::read_flat`]), with the same diagnostics.
 fn load_flat(path: &Path, opts: LoadOptions) -> Result<(FlatSum, Option<ChemInfo>, Loaded)> {
     let name = crate::app::io::display_name(path);
     let src = read_text(path)?;
     if let Some((h, info, loaded)) = load_integrals(&name, &src, opts)? {
         return Ok((FlatSum::from_sum(&h), Some(info), loaded));
     }
-    let read = crate::lang::ham::read_flat(&name, &src, opts.encoding)
+    let read = crate::hamiltonian::read_flat(&name, &src, opts.encoding)
         .map_err(|d| Error::Input(crate::lang::suggest::hamiltonian_hints(&name, &src, d)))?;
     let loaded = Loaded {
         encoding: read.encoding,

@@ -6,13 +6,13 @@
 //! anything is computed; no output file is left half-written.
 
 use super::io::read_text;
+use crate::diag::Code;
 use crate::error::{Error, Result};
 use crate::estimate::counts::{self, BitOrder};
 use crate::estimate::{
     self, Analysis, Config, DosReport, EnergyReport, KrylovKind, DEFAULT_BOOTSTRAP,
 };
 use crate::family::plan::Plan;
-use crate::lang::codes::Code;
 use crate::report::plot;
 use clap::{Args, ValueEnum};
 use serde_json::{json, Value};

@@ -5,8 +5,8 @@
 //! input (exit 2) with the nearest known codes as a hint.
 
 use super::Global;
+use crate::diag::Code;
 use crate::error::{Error, Result};
-use crate::lang::codes::Code;
 use clap::Args;
 use serde_json::json;
 

@@ -3,10 +3,10 @@
 //! Invariant: an output file is either absent or complete. Every file is written to a temporary
 //! name in the target folder and renamed into place.
 
+use crate::diag::Code;
+use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::plan::{PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
-use crate::lang::codes::Code;
-use crate::lang::diag::Diagnostic;
 use crate::lang::json_span::{locate, Step};
 use std::io::Write;
 use std::path::Path;
@@ -100,13 +100,13 @@ pub fn parse_hamiltonian_text(
     name: &str,
     src: &str,
     encoding: Option<crate::fermion::Encoding>,
-) -> Result<crate::lang::ham::HamRead> {
-    crate::lang::ham::parse_hamiltonian_with(name, src, encoding)
+) -> Result<crate::hamiltonian::HamRead> {
+    crate::hamiltonian::parse_hamiltonian_with(name, src, encoding)
         .map_err(|d| Error::Input(crate::lang::suggest::hamiltonian_hints(name, src, d)))
 }
 
 /// Reads and parses a `.ham` file: not text, or not valid `.ham`, is a diagnostic (exit 2).
-pub fn read_hamiltonian(path: &Path) -> Result<crate::lang::ham::HamFile> {
+pub fn read_hamiltonian(path: &Path) -> Result<crate::hamiltonian::HamFile> {
     let src = read_text(path)?;
     parse_hamiltonian_text(&display_name(path), &src, None).map(|r| r.ham)
 }
@@ -215,7 +215,7 @@ pub fn read_plan(dir: &Path) -> Result<Plan> {
     let text = read_text(&path)?;
     let name = path.display().to_string();
     let not_a_plan = |e: serde_json::Error| {
-        let mut offset = crate::lang::diag::offset_of(&text, e.line(), e.column());
+        let mut offset = crate::diag::offset_of(&text, e.line(), e.column());
         if e.classify() == serde_json::error::Category::Data {
             // An unknown key or variant is reported at its closing quote: show all of it.
             offset = crate::lang::json_span::token_start(&text, offset);

@@ -122,8 +122,8 @@ pub enum Command {
 
 /// The catalogue code of a command-line error found by the argument parser; `None` for help
 /// and version requests, which are not errors.
-pub fn usage_code(kind: clap::error::ErrorKind) -> Option<crate::lang::codes::Code> {
-    use crate::lang::codes::Code;
+pub fn usage_code(kind: clap::error::ErrorKind) -> Option<crate::diag::Code> {
+    use crate::diag::Code;
     use clap::error::ErrorKind as K;
     match kind {
         K::DisplayHelp | K::DisplayVersion | K::DisplayHelpOnMissingArgumentOrSubcommand => None,

@@ -11,8 +11,8 @@
 //! the number of circuits.
 
 use super::io::{read_plan, read_plan_circuit};
+use crate::diag::Code;
 use crate::error::{Error, Result};
-use crate::lang::codes::Code;
 use crate::sim::shots::{bitstring, depolarise, sample_counts};
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::Args;

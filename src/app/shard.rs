@@ -12,10 +12,10 @@
 //! any file whose SHA-256 differs from its plan (exit 2).
 
 use super::Global;
+use crate::diag::Code;
+use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::plan::{Plan, ShardInfo};
-use crate::lang::codes::Code;
-use crate::lang::diag::Diagnostic;
 use crate::pipeline::Compiled;
 use clap::Args;
 use serde::{Deserialize, Serialize};
@@ -269,7 +269,7 @@ fn merge_folders(args: &MergeArgs, g: &Global) -> Result<()> {
             reading: true,
         })?;
         if e.sha256.as_deref() != Some(super::io::sha256_hex(&bytes).as_str()) {
-            return Err(Error::input(crate::lang::diag::Diagnostic::whole_file(
+            return Err(Error::input(crate::diag::Diagnostic::whole_file(
                 Code::PlanFiles,
                 &path.display().to_string(),
                 format!("changed since it was compiled (circuit `{}`)", e.id),
@@ -329,7 +329,7 @@ fn read_share_counts(path: &Path) -> Result<ShareCounts> {
         ))
     };
     let value: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
-        let off = crate::lang::diag::offset_of(&text, e.line(), e.column());
+        let off = crate::diag::offset_of(&text, e.line(), e.column());
         Error::input(Diagnostic::at(
             Code::CountsSyntax,
             &name,

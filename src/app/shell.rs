@@ -7,8 +7,8 @@
 //! the folder.
 
 use super::Global;
+use crate::diag::Code;
 use crate::error::{Error, Result};
-use crate::lang::codes::Code;
 use clap::{Args, CommandFactory};
 use std::path::PathBuf;
 

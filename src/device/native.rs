@@ -16,8 +16,8 @@
 //! no entangling gate). The names come from a device file, so both are bad input, reported under
 //! `D102` (exit 2); the `.dev` reader adds the place in the file and a hint.
 
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::lang::codes::Code;
 
 /// Every gate name of the OpenQASM 3 standard library (`stdgates.inc`, v3.0), plus the built-in
 /// `U`. Source: OpenQASM 3 specification, "Standard library" section.

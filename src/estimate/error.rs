@@ -5,8 +5,8 @@
 //! variant is bad input (exit 2) — the estimators run on any plan that `Plan::validate` and
 //! the counts reader accept, so nothing here is a phasewright bug.
 
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::lang::codes::Code;
 use std::fmt;
 
 /// Why `estimate` (or `allot`) cannot go on.

@@ -36,8 +36,8 @@
 //! built in code can still reach these.
 
 use crate::circuit::metrics::Counts;
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::lang::codes::Code;
 use serde::{Deserialize, Serialize};
 
 /// What a plan's contents cannot give back; always bad input (see the module header).

@@ -14,47 +14,18 @@
 //! the flip set `F(j)` the qubits whose ranges tile `(j & (j+1)) … j−1`, and `R = P \ F`.
 //! The canonical anticommutation relations of the images are tested for both encodings.
 
-use super::{FermionOp, Ladder, LadderOp};
+pub use crate::ladder::Encoding;
+use crate::ladder::{adjoint_ops, FermionOp, Ladder, LadderOp, Product};
 use crate::pauli::{Bits, PauliString};
 use num_complex::Complex64;
 use std::collections::BTreeMap;
-use std::fmt;
 use std::str::FromStr;
 
-/// A fermion-to-qubit encoding.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-pub enum Encoding {
-    JordanWigner,
-    BravyiKitaev,
-}
-
-impl Encoding {
-    /// The short spelling used in files and on the command line (`jw`, `bk`).
-    pub fn short_name(self) -> &'static str {
-        match self {
-            Encoding::JordanWigner => "jw",
-            Encoding::BravyiKitaev => "bk",
-        }
-    }
-}
-
-impl fmt::Display for Encoding {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
-            Encoding::JordanWigner => "Jordan–Wigner",
-            Encoding::BravyiKitaev => "Bravyi–Kitaev",
-        })
-    }
-}
-
+/// `jw` or `bk` (the names of [`Encoding::from_short_name`]), for command-line options.
 impl FromStr for Encoding {
     type Err = super::FermionError;
     fn from_str(s: &str) -> Result<Encoding, super::FermionError> {
-        match s {
-            "jw" => Ok(Encoding::JordanWigner),
-            "bk" => Ok(Encoding::BravyiKitaev),
-            other => Err(super::FermionError::Encoding(other.to_string())),
-        }
+        Encoding::from_short_name(s).ok_or_else(|| super::FermionError::Encoding(s.to_string()))
     }
 }
 
@@ -139,6 +110,26 @@ pub fn map_product(
     }
     for (c, s) in acc {
         out(s, c);
+    }
+}
+
+/// Maps products as written (a `.ham` file's fermionic terms), in order: calls
+/// `out(index, string, coefficient)` for every string of the image of `products[index]`, its
+/// Hermitian conjugate included when the product carries `+ h.c.` (mapped product by product,
+/// before any normal ordering, so each contribution is the image of one written term).
+pub fn map_products(
+    enc: Encoding,
+    n: usize,
+    products: &[Product],
+    out: &mut impl FnMut(usize, PauliString, Complex64),
+) {
+    for (i, t) in products.iter().enumerate() {
+        map_product(enc, n, t.coeff, &t.ops, &mut |p, c| out(i, p, c));
+        if t.hc {
+            map_product(enc, n, t.coeff.conj(), &adjoint_ops(&t.ops), &mut |p, c| {
+                out(i, p, c)
+            });
+        }
     }
 }
 

@@ -15,7 +15,7 @@
 //! diagnostics with line and column.
 
 use super::{FermionOp, Ladder};
-use crate::lang::diag::{Code, Diagnostic};
+use crate::diag::{Code, Diagnostic};
 use num_complex::Complex64;
 
 /// One- and two-electron integrals over `norb` spatial orbitals (Hartree).

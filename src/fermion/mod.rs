@@ -1,12 +1,11 @@
-//! Fermionic operators: products of creation and annihilation operators, exact normal
-//! ordering, and the way from fermionic models and integral files to qubit Hamiltonians.
+//! The way from fermionic models and integral files to qubit Hamiltonians.
 //!
-//! In: monomials `c · a†_{p} … a_{q} …` on `n` modes (from `.ham` files or from FCIDUMP
-//! integrals). Out: a [`FermionOp`] in normal order, and through [`encode`] a Hermitian
-//! [`crate::pauli::PauliSum`]. Invariant: normal ordering uses only the canonical
-//! anticommutation relations `{a_p, a†_q} = δ_pq`, `{a_p, a_q} = {a†_p, a†_q} = 0`, so every
-//! coefficient it produces is `±c` of an input coefficient: the reordering is exact in floating
-//! point.
+//! In: fermionic operators ([`crate::ladder`]: products written in a `.ham` file, or the
+//! [`FermionOp`] of FCIDUMP integrals) on `n` modes. Out: through [`encode`] their Pauli
+//! images, and a Hermitian [`crate::pauli::PauliSum`] through the one Hermitian-part routine
+//! ([`crate::pauli::hermitian`]). The operator algebra (ladder operators, exact normal
+//! ordering) lives in [`crate::ladder`] and is re-exported here, so the `.ham` reader can build
+//! fermionic operators without depending on this module.
 //!
 //! Spin-orbital convention for integral files ([`fcidump`]): spatial orbital `p` (counted from
 //! 0 inside the active space) gives mode `2p` (spin α) and mode `2p + 1` (spin β).
@@ -19,19 +18,17 @@ pub mod encode;
 pub mod fcidump;
 pub mod sector;
 
-pub use encode::Encoding;
+pub use crate::ladder::{adjoint_ops, normal_order, Encoding, FermionOp, Ladder, LadderOp};
+/// Relative round-off bound for a mapped coefficient (the one bound of
+/// [`crate::pauli::hermitian`], which `.ham` files also use for Hermiticity).
+pub use crate::pauli::hermitian::ROUNDOFF_REL_TOL;
 
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::lang::codes::Code;
+use crate::pauli::hermitian::{self, Merged};
 use crate::pauli::{PauliString, PauliSum};
 use encode::ComplexPauliMap;
 use num_complex::Complex64;
-use std::collections::BTreeMap;
-
-/// Relative round-off bound for a mapped coefficient: a real or imaginary part at most this
-/// times the sum of the magnitudes of its contributions is cancellation noise (the same bound
-/// as `.ham` files use for Hermiticity).
-pub const ROUNDOFF_REL_TOL: f64 = 1e-12;
 
 /// Why an integral file or a fermionic option cannot be turned into a qubit Hamiltonian.
 #[derive(Clone, Debug, PartialEq)]
@@ -172,33 +169,27 @@ pub fn hf_state(nelec: usize, ms2: i64, n_spin_orbitals: usize, encoding: Encodi
         .collect()
 }
 
-/// Turns a mapped operator into a Hermitian Pauli sum: parts within round-off are zeroed;
-/// a larger imaginary part is returned as the offending string and coefficient.
+/// Turns a mapped operator into a Hermitian Pauli sum ([`hermitian::hermitian_part`], every
+/// string mapped): parts within round-off are zeroed; a larger imaginary part is returned as
+/// the first offending string (in string order) and its coefficient.
 /// Returns the sum and the number of strings dropped as round-off.
 pub fn hermitian_part(
     map: &ComplexPauliMap,
     num_qubits: usize,
 ) -> Result<(PauliSum, usize), (PauliString, Complex64)> {
-    let mut h = PauliSum::new(num_qubits);
-    let mut dropped = 0;
-    for (p, (c, mag)) in &map.terms {
-        let tol = ROUNDOFF_REL_TOL * mag;
-        if c.im.abs() > tol {
-            return Err((p.clone(), *c));
-        }
-        if c.re.abs() <= tol {
-            if c.re != 0.0 {
-                dropped += 1;
-            }
-            continue;
-        }
-        if p.is_identity() {
-            h.constant = c.re;
-        } else {
-            h.terms.insert(p.clone(), c.re);
-        }
+    let entries = map.terms.iter().map(|(p, &(sum, magnitude))| {
+        let merged = Merged {
+            sum,
+            magnitude,
+            mapped: true,
+        };
+        (p.clone(), merged, ())
+    });
+    let h = hermitian::hermitian_part(num_qubits, entries);
+    match h.not_hermitian.into_iter().next() {
+        Some((p, c, ())) => Err((p, c)),
+        None => Ok((h.sum, h.dropped_roundoff)),
     }
-    Ok((h, dropped))
 }
 
 /// Builds the qubit Hamiltonian of an integral file (already reduced to its active space) and
@@ -235,164 +226,4 @@ pub fn qubit_hamiltonian_from_integrals(
         dropped_roundoff: dropped,
     };
     Ok((h, info))
-}
-
-/// Creation (`a†`) or annihilation (`a`).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
-pub enum Ladder {
-    Create,
-    Annihilate,
-}
-
-/// One ladder operator: mode and kind.
-pub type LadderOp = (usize, Ladder);
-
-/// A fermionic operator `Σ c · (product of ladder operators)` on `n_modes` modes, kept in
-/// normal order (every `a†` left of every `a`; creations by descending mode, then
-/// annihilations by descending mode). Invariant: keys are normal ordered with no repeated
-/// operator; no zero coefficient.
-#[derive(Clone, Debug, PartialEq)]
-pub struct FermionOp {
-    pub n_modes: usize,
-    pub terms: BTreeMap<Vec<LadderOp>, Complex64>,
-}
-
-/// Sort key of the normal order: creations first, each kind by descending mode.
-fn order_key(op: LadderOp) -> (u8, std::cmp::Reverse<usize>) {
-    let kind = match op.1 {
-        Ladder::Create => 0,
-        Ladder::Annihilate => 1,
-    };
-    (kind, std::cmp::Reverse(op.0))
-}
-
-/// Rewrites `coeff · ops` (a product read left to right) as a sum of normal-ordered
-/// monomials, using only the anticommutation relations. A product with a repeated creation
-/// or annihilation on one mode vanishes.
-pub fn normal_order(coeff: Complex64, ops: &[LadderOp]) -> Vec<(Vec<LadderOp>, Complex64)> {
-    let mut out = Vec::new();
-    let mut work = vec![(ops.to_vec(), coeff)];
-    'outer: while let Some((mut w, mut c)) = work.pop() {
-        // Bubble sort; each swap of neighbours flips the sign, and moving `a_p` past `a†_p`
-        // leaves the contracted product behind: a_p a†_q = δ_pq - a†_q a_p.
-        loop {
-            let mut swapped = false;
-            for k in 0..w.len().saturating_sub(1) {
-                let (l, r) = (w[k], w[k + 1]);
-                if l == r {
-                    continue 'outer; // a_p a_p = a†_p a†_p = 0
-                }
-                if order_key(l) <= order_key(r) {
-                    continue;
-                }
-                if l.1 == Ladder::Annihilate && r.1 == Ladder::Create && l.0 == r.0 {
-                    let mut contracted = w.clone();
-                    contracted.drain(k..k + 2);
-                    work.push((contracted, c));
-                }
-                w.swap(k, k + 1);
-                c = -c;
-                swapped = true;
-            }
-            if !swapped {
-                break;
-            }
-        }
-        out.push((w, c));
-    }
-    out
-}
-
-impl FermionOp {
-    pub fn new(n_modes: usize) -> FermionOp {
-        FermionOp {
-            n_modes,
-            terms: BTreeMap::new(),
-        }
-    }
-
-    /// Adds `coeff · ops` after normal ordering it; exact zeros are removed.
-    pub fn add_product(&mut self, coeff: Complex64, ops: &[LadderOp]) {
-        if coeff == Complex64::new(0.0, 0.0) {
-            return;
-        }
-        for (w, c) in normal_order(coeff, ops) {
-            let e = self
-                .terms
-                .entry(w.clone())
-                .or_insert(Complex64::new(0.0, 0.0));
-            *e += c;
-            if *e == Complex64::new(0.0, 0.0) {
-                self.terms.remove(&w);
-            }
-        }
-    }
-
-    /// The Hermitian conjugate: `(c · o₁ … o_k)† = c̄ · o_k† … o₁†`, normal ordered again.
-    pub fn adjoint(&self) -> FermionOp {
-        let mut out = FermionOp::new(self.n_modes);
-        for (w, c) in &self.terms {
-            out.add_product(c.conj(), &adjoint_ops(w));
-        }
-        out
-    }
-}
-
-/// `(o₁ … o_k)†` as a product: reversed order, each creation ↔ annihilation.
-pub fn adjoint_ops(ops: &[LadderOp]) -> Vec<LadderOp> {
-    ops.iter()
-        .rev()
-        .map(|&(m, k)| {
-            let k = match k {
-                Ladder::Create => Ladder::Annihilate,
-                Ladder::Annihilate => Ladder::Create,
-            };
-            (m, k)
-        })
-        .collect()
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn c(re: f64) -> Complex64 {
-        Complex64::new(re, 0.0)
-    }
-    const CR: Ladder = Ladder::Create;
-    const AN: Ladder = Ladder::Annihilate;
-
-    #[test]
-    fn anticommutator_of_a_mode_with_its_adjoint_is_one() {
-        // a_0 a†_0 = 1 - a†_0 a_0 (canonical anticommutation relation).
-        let mut op = FermionOp::new(1);
-        op.add_product(c(1.0), &[(0, AN), (0, CR)]);
-        assert_eq!(op.terms[&vec![]], c(1.0));
-        assert_eq!(op.terms[&vec![(0, CR), (0, AN)]], c(-1.0));
-        assert_eq!(op.terms.len(), 2);
-    }
-
-    #[test]
-    fn repeated_operators_vanish_and_swaps_change_sign() {
-        let mut op = FermionOp::new(3);
-        op.add_product(c(2.0), &[(1, CR), (1, CR)]);
-        assert!(op.terms.is_empty());
-        op.add_product(c(2.0), &[(0, CR), (2, CR)]);
-        assert_eq!(op.terms[&vec![(2, CR), (0, CR)]], c(-2.0));
-        // a_1 a†_2 = -a†_2 a_1 (different modes anticommute).
-        let mut op = FermionOp::new(3);
-        op.add_product(c(1.0), &[(1, AN), (2, CR)]);
-        assert_eq!(op.terms[&vec![(2, CR), (1, AN)]], c(-1.0));
-    }
-
-    #[test]
-    fn adjoint_reverses_and_conjugates() {
-        let mut op = FermionOp::new(2);
-        op.add_product(Complex64::new(1.0, 2.0), &[(1, CR), (0, AN)]);
-        let adj = op.adjoint();
-        assert_eq!(
-            adj.terms[&vec![(0, CR), (1, AN)]],
-            Complex64::new(1.0, -2.0)
-        );
-    }
 }

@@ -15,7 +15,7 @@
 use crate::device::lattice::{self, Lattice, ShapeError};
 use crate::device::native::{gate_arity, is_standard_gate, STDGATES};
 use crate::device::{Calibration, Device, Link, NativeSet};
-use crate::lang::diag::{Code, Diagnostic, LineIndex};
+use crate::diag::{Code, Diagnostic, LineIndex};
 use crate::lang::suggest::{closest, DEV_STATEMENTS};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};

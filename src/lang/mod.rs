@@ -1,12 +1,9 @@
-//! Input languages: `.ham` Hamiltonians and `.dev` devices, parsed with nom, plus the
-//! diagnostics shared by every reader.
+//! Input languages: `.ham` Hamiltonians and `.dev` devices, parsed with nom.
 //!
 //! In: source text and its file name. Out: a value (Pauli sum, device) or a list of
-//! [`diag::Diagnostic`]s; parsers never panic and never print.
+//! [`crate::diag::Diagnostic`]s (the leaf module shared by every reader); parsers never panic and never print.
 
-pub mod codes;
 pub mod dev;
-pub mod diag;
 pub mod ham;
 pub mod json_span;
 pub mod suggest;

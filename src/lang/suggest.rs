@@ -8,7 +8,7 @@
 //! cascade. Invariant: only failed reads are rewritten, never a file that parsed, and a
 //! suggestion is made only within a small edit distance (Damerau–Levenshtein, via `strsim`).
 
-use crate::lang::diag::{Code, Diagnostic};
+use crate::diag::{Code, Diagnostic};
 
 /// Words that start a statement of the `.ham` language (`in` appears inside `sum`).
 pub const HAM_KEYWORDS: &[&str] = &["qubits", "let", "sum", "in", "encoding"];

@@ -11,6 +11,7 @@
 
 pub mod bits;
 pub mod group;
+pub mod hermitian;
 pub mod order;
 
 pub use bits::Bits;

@@ -8,7 +8,7 @@
 //! A non-zero global phase is written with the built-in `gphase`.
 //!
 //! In (reader): text in that subset (plus `pi`/`π` arithmetic in angles, `//` comments,
-//! `barrier`). Out: a [`Circuit`] or a [`Diagnostic`](crate::lang::diag::Diagnostic) pointing at the first unsupported
+//! `barrier`). Out: a [`Circuit`] or a [`Diagnostic`](crate::diag::Diagnostic) pointing at the first unsupported
 //! statement. Reference: OpenQASM 3 specification, "Gates" and "Built-in quantum instructions"
 //! (openqasm.com, v3.0/v3.1), for the gate names and `U`/`gphase` semantics.
 

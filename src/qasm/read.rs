@@ -5,7 +5,7 @@
 //! an unknown gate or an out-of-range qubit or bit, at that name or operand.
 
 use crate::circuit::{Circuit, Gate};
-use crate::lang::diag::{Code, Diagnostic};
+use crate::diag::{Code, Diagnostic};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{char, digit1, multispace0};
@@ -230,7 +230,7 @@ fn blank_comments(src: &str) -> String {
 
 /// Parses a program in the writer's subset.
 pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
-    if let Some(d) = crate::lang::diag::depth_guard(Code::QasmSyntax, file, src, "//") {
+    if let Some(d) = crate::diag::depth_guard(Code::QasmSyntax, file, src, "//") {
         return Err(d);
     }
     let text = blank_comments(src);

@@ -42,7 +42,7 @@ impl std::error::Error for PlotError {}
 impl crate::error::LayerError for PlotError {
     fn blame(&self) -> crate::error::Blame {
         match self {
-            PlotError::Empty(_) => crate::error::Blame::Input(crate::lang::codes::Code::UsageInput),
+            PlotError::Empty(_) => crate::error::Blame::Input(crate::diag::Code::UsageInput),
             PlotError::Drawing(_) => crate::error::Blame::Bug,
         }
     }

@@ -10,8 +10,8 @@
 //! a phasewright bug: exit 1. Invariant: the messages are the ones users have always seen;
 //! only the exit status of the bug cases changed (they were reported as bad input before).
 
+use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::lang::codes::Code;
 use std::fmt;
 
 /// A routing failure; see the module header for which variants are bad input.

@@ -86,7 +86,7 @@ impl std::error::Error for SimError {}
 
 impl crate::error::LayerError for SimError {
     fn blame(&self) -> crate::error::Blame {
-        crate::error::Blame::Input(crate::lang::codes::Code::UsageLimit)
+        crate::error::Blame::Input(crate::diag::Code::UsageLimit)
     }
 }
 

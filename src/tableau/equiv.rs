@@ -233,7 +233,7 @@ impl std::error::Error for ClaimError {}
 
 impl crate::error::LayerError for ClaimError {
     fn blame(&self) -> crate::error::Blame {
-        crate::error::Blame::Input(crate::lang::codes::Code::PlanSyntax)
+        crate::error::Blame::Input(crate::diag::Code::PlanSyntax)
     }
 
     fn hint(&self) -> Option<&str> {

@@ -8,10 +8,10 @@
 
 use super::{phase_bar, VerifyArgs, VerifyReport};
 use crate::app::io::read_text;
+use crate::diag::Code;
+use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::plan::{CircuitEntry, Plan};
-use crate::lang::codes::Code;
-use crate::lang::diag::Diagnostic;
 use crate::report::table::Table;
 use crate::tableau::equiv::{CannotCheck, Claim, Proof, Verdict};
 use rayon::prelude::*;

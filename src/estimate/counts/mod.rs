@@ -4,7 +4,7 @@
 //! In: the text of a counts file, its name, the [plan](crate::family::plan::Plan) it answers
 //! and an optional bit-order override ([`parse`]); or outcome masks to write ([`to_json`]).
 //! Out: one [`CircuitCounts`] per plan circuit, in plan order, or every problem found as a
-//! [diagnostic](crate::lang::diag::Diagnostic) (with line, column and caret where the text
+//! [diagnostic](crate::diag::Diagnostic) (with line, column and caret where the text
 //! allows); or the text of a counts file. Invariant: nothing is guessed: an unknown or
 //! missing circuit id, a bitstring of the wrong length or alphabet, a zero, negative or
 //! fractional count, a repeated key, a shot total that disagrees with `shots`, are all errors
@@ -166,8 +166,8 @@ pub fn to_json(ids: &[&str], circuits: &[CircuitCounts], shots: Option<u64>) -> 
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
+    use crate::diag::Diagnostic;
     use crate::family::plan::*;
-    use crate::lang::diag::Diagnostic;
 
     pub(crate) fn tiny_plan() -> Plan {
         let circuit = |id: &str, k: usize, part: Part| CircuitEntry {

@@ -10,8 +10,8 @@
 //! first.
 
 use super::{bitstring_mask, BitOrder, CircuitCounts, CountsFile, COUNTS_FORMAT};
+use crate::diag::{Code, Diagnostic};
 use crate::family::plan::Plan;
-use crate::lang::diag::{Code, Diagnostic};
 use crate::lang::json_span::{locate, Step};
 use serde::de::{Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
@@ -73,7 +73,7 @@ pub fn parse(
     let value: serde_json::Value = match serde_json::from_str(src) {
         Ok(v) => v,
         Err(e) => {
-            let off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            let off = crate::diag::offset_of(src, e.line(), e.column());
             return Err(vec![here(
                 Code::CountsSyntax,
                 off,
@@ -105,7 +105,7 @@ pub fn parse(
     let raw: RawFile = match serde_json::from_str(src) {
         Ok(r) => r,
         Err(e) => {
-            let mut off = crate::lang::diag::offset_of(src, e.line(), e.column());
+            let mut off = crate::diag::offset_of(src, e.line(), e.column());
             if e.classify() == serde_json::error::Category::Data {
                 off = crate::lang::json_span::token_start(src, off);
             }

@@ -1,20 +1,23 @@
-//! The `.ham` evaluator: statements to a merged Pauli sum.
+//! The `.ham` evaluator: statements to merged Pauli terms plus a fermionic operator.
 //!
-//! In: the statements of [`super::parse`] and the source (for diagnostics). Out: a
-//! [`HamRead`] (the Hermitian [`PauliSum`], counts, the encoding of the fermionic part) or every
-//! diagnostic found. It expands `sum` blocks, evaluates coefficients (complex, `f64`) and qubit
-//! indices (integers, `i64`, checked arithmetic), multiplies factors on one qubit out with their
-//! phases, maps fermionic terms with the file's or the caller's encoding, and merges equal
+//! In: the statements of [`super::parse`] and the source (for diagnostics). Out, in two steps:
+//! first the Pauli terms merged per string together with the fermionic terms as written
+//! ([`Product`]s, each with its span) and the encoding that applies to them (the file's or the
+//! caller's); then, once the caller has added the mapped images of those products
+//! ([`Evaluator::add_mapped`]; the mapping is the `fermion` module's), a [`HamRead`] (the Hermitian
+//! [`crate::pauli::PauliSum`], counts, the encoding) or every diagnostic found. It expands
+//! `sum` blocks, evaluates coefficients (complex, `f64`) and qubit indices (integers, `i64`,
+//! checked arithmetic), multiplies factors on one qubit out with their phases, and merges equal
 //! strings in file order. Invariants: see the module documentation of [`super`] (strings fit
 //! `qubits N`, merged coefficients real to [`super::HERMITIAN_REL_TOL`], exact zeros dropped
 //! and counted); evaluation stops after a bounded number of steps and errors.
 
 use super::syntax::*;
 use super::*;
-use crate::fermion::encode::map_product;
-use crate::fermion::{adjoint_ops, Ladder, LadderOp, ROUNDOFF_REL_TOL};
-use crate::lang::diag::{Code, Diagnostic};
-use crate::pauli::{PauliString, PauliSum};
+use crate::diag::{Code, Diagnostic};
+use crate::ladder::{Ladder, Product};
+use crate::pauli::hermitian::{hermitian_part, Merged};
+use crate::pauli::PauliString;
 use num_complex::Complex64;
 use std::collections::HashSet;
 
@@ -58,14 +61,6 @@ pub(super) struct Acc {
     pub(super) from_pauli: bool,
 }
 
-/// A fermionic term waiting for the encoding: coefficient, ladder operators, `+ h.c.`, span.
-pub(super) struct FermionTerm {
-    pub(super) coeff: Complex64,
-    pub(super) ops: Vec<LadderOp>,
-    pub(super) hc: bool,
-    pub(super) span: Span,
-}
-
 pub(super) struct Evaluator<'s> {
     pub(super) file: &'s str,
     pub(super) src: &'s str,
@@ -81,7 +76,9 @@ pub(super) struct Evaluator<'s> {
     pub(super) aborted: bool,
     pub(super) flag_encoding: Option<Encoding>,
     pub(super) file_encoding: Option<(Encoding, Span)>,
-    pub(super) fermion_terms: Vec<FermionTerm>,
+    /// Fermionic terms waiting for the encoding (nonzero coefficients only), and their spans.
+    pub(super) fermion_terms: Vec<Product>,
+    pub(super) fermion_spans: Vec<Span>,
     pub(super) fermion_terms_read: usize,
     pub(super) first_pauli_term: Option<Span>,
 }
@@ -115,6 +112,7 @@ impl<'s> Evaluator<'s> {
             flag_encoding: None,
             file_encoding: None,
             fermion_terms: Vec::new(),
+            fermion_spans: Vec::new(),
             fermion_terms_read: 0,
             first_pauli_term: None,
         }
@@ -593,12 +591,12 @@ impl<'s> Evaluator<'s> {
         if !ladders.is_empty() {
             self.fermion_terms_read += 1;
             if c != Complex64::new(0.0, 0.0) {
-                self.fermion_terms.push(FermionTerm {
+                self.fermion_terms.push(Product {
                     coeff: c,
                     ops: ladders,
                     hc: t.hc,
-                    span: t.span,
                 });
+                self.fermion_spans.push(t.span);
             }
             return Ok(());
         }
@@ -616,9 +614,10 @@ impl<'s> Evaluator<'s> {
         Ok(())
     }
 
-    /// Maps the queued fermionic terms with the encoding the file or the caller chose.
-    pub(super) fn map_fermion_terms(&mut self) -> Option<Encoding> {
-        let first = self.fermion_terms.first().map(|f| f.span)?;
+    /// The encoding the file or the caller chose for the queued fermionic terms (`None`, with
+    /// a diagnostic, when the two conflict or neither says; `None` when there are none).
+    pub(super) fn choose_encoding(&mut self) -> Option<Encoding> {
+        let first = *self.fermion_spans.first()?;
         let enc = match (self.file_encoding, self.flag_encoding) {
             (Some((a, span)), Some(b)) if a != b => {
                 self.report(EvalErr::new(
@@ -652,21 +651,13 @@ impl<'s> Evaluator<'s> {
                 return None;
             }
         };
-        let n = self.num_qubits;
-        let terms = std::mem::take(&mut self.fermion_terms);
-        for t in &terms {
-            let mut out = Vec::new();
-            map_product(enc, n, t.coeff, &t.ops, &mut |p, c| out.push((p, c)));
-            if t.hc {
-                map_product(enc, n, t.coeff.conj(), &adjoint_ops(&t.ops), &mut |p, c| {
-                    out.push((p, c))
-                });
-            }
-            for (p, c) in out {
-                self.add(p, c, t.span, false);
-            }
-        }
         Some(enc)
+    }
+
+    /// Adds one mapped contribution of fermionic term `index` (its span is the term's).
+    pub(super) fn add_mapped(&mut self, index: usize, p: PauliString, c: Complex64) {
+        let span = self.fermion_spans[index];
+        self.add(p, c, span, false);
     }
 
     pub(super) fn add(&mut self, p: PauliString, c: Complex64, span: Span, from_pauli: bool) {
@@ -681,63 +672,70 @@ impl<'s> Evaluator<'s> {
         e.from_pauli |= from_pauli;
     }
 
-    pub(super) fn finish(mut self) -> Result<HamRead, Vec<Diagnostic>> {
-        let mut sum = PauliSum::new(self.num_qubits);
-        let mut dropped_zero = 0;
+    /// Runs on the statements and chooses the encoding of the fermionic part: the first step
+    /// (see the module notes). Every diagnostic so far, sorted by offset, when there is one.
+    pub(super) fn evaluate(
+        &mut self,
+        stmts: &[Stmt],
+        flag_encoding: Option<Encoding>,
+    ) -> Result<Option<Encoding>, Vec<Diagnostic>> {
+        self.flag_encoding = flag_encoding;
+        self.run(stmts);
         let encoding = if self.diags.is_empty() {
-            self.map_fermion_terms()
+            self.choose_encoding()
         } else {
             None
         };
-        if self.diags.is_empty() {
-            // Hashed while reading (one probe per term); the sum sorts the kept terms once.
-            // Diagnostics are ordered by their offset below, whatever the order here.
-            let acc = std::mem::take(&mut self.acc);
-            let mut kept = Vec::with_capacity(acc.len());
-            for (p, a) in acc {
-                if a.sum.im.abs() > HERMITIAN_REL_TOL * a.magnitude {
-                    let what = if p.is_identity() {
-                        "the constant term".to_string()
-                    } else {
-                        format!("`{p}`")
-                    };
-                    self.report(EvalErr::new(Code::HamMeaning,
-                        a.first,
-                        format!(
-                            "the Hamiltonian is not Hermitian: {what} has merged coefficient {}",
-                            fmt_complex(a.sum)
-                        ),
-                        "factors on one qubit multiply with a phase (X·Y = iZ); make every merged coefficient real, e.g. add `+ h.c.`",
-                    ));
-                    continue;
-                }
-                let re = a.sum.re;
-                if !a.from_pauli && re.abs() <= ROUNDOFF_REL_TOL * a.magnitude {
-                    // Cancellation noise of mapped fermionic terms.
-                    continue;
-                }
-                if re == 0.0 {
-                    if !p.is_identity() {
-                        dropped_zero += 1;
-                    }
-                } else if p.is_identity() {
-                    sum.constant = re;
-                } else {
-                    kept.push((p, re));
-                }
-            }
-            // Keys are distinct: an unstable sort, then the map is built from sorted input.
-            kept.sort_unstable_by(|a, b| a.0.cmp(&b.0));
-            sum.terms = kept.into_iter().collect();
+        if !self.diags.is_empty() {
+            return Err(self.take_diagnostics());
+        }
+        Ok(encoding)
+    }
+
+    fn take_diagnostics(&mut self) -> Vec<Diagnostic> {
+        let mut diags = std::mem::take(&mut self.diags);
+        diags.sort_by_key(|(o, _)| *o);
+        diags.into_iter().map(|(_, d)| d).collect()
+    }
+
+    /// The second step: the Hermitian part of the merged terms ([`hermitian_part`], the one
+    /// routine), a diagnostic at the first contributing term of every string whose imaginary
+    /// part is beyond round-off.
+    pub(super) fn finish(mut self, encoding: Option<Encoding>) -> Result<HamRead, Vec<Diagnostic>> {
+        // Hashed while reading (one probe per term); the sum sorts the kept terms once.
+        // Diagnostics are ordered by their offset below, whatever the order here.
+        let acc = std::mem::take(&mut self.acc);
+        let entries = acc.into_iter().map(|(p, a)| {
+            let merged = Merged {
+                sum: a.sum,
+                magnitude: a.magnitude,
+                mapped: !a.from_pauli,
+            };
+            (p, merged, a.first)
+        });
+        let h = hermitian_part(self.num_qubits, entries);
+        for (p, c, first) in h.not_hermitian {
+            let what = if p.is_identity() {
+                "the constant term".to_string()
+            } else {
+                format!("`{p}`")
+            };
+            self.report(EvalErr::new(Code::HamMeaning,
+                first,
+                format!(
+                    "the Hamiltonian is not Hermitian: {what} has merged coefficient {}",
+                    fmt_complex(c)
+                ),
+                "factors on one qubit multiply with a phase (X·Y = iZ); make every merged coefficient real, e.g. add `+ h.c.`",
+            ));
         }
         if !self.diags.is_empty() {
-            self.diags.sort_by_key(|(o, _)| *o);
-            return Err(self.diags.into_iter().map(|(_, d)| d).collect());
+            return Err(self.take_diagnostics());
         }
         Ok(HamRead {
             ham: HamFile {
-                sum,
-                dropped_zero,
+                sum: h.sum,
+                dropped_zero: h.dropped_zero,
                 terms_read: self.terms_read,
             },
             encoding,

@@ -1,8 +1,11 @@
 //! The `.ham` Hamiltonian language: a line-oriented text form of a qubit Hamiltonian.
 //!
-//! In: a file name and its source text. Out: a [`HamFile`] (a Hermitian [`PauliSum`] plus a
-//! short summary) or every [`Diagnostic`] the reader could collect. The grammar is in
-//! `grammar/hamiltonian.ebnf`; worked examples are in `grammar/README.md`.
+//! In: a file name and its source text. Out: an [`Evaluated`] file (the Pauli terms merged per
+//! string plus the fermionic operator as written) and, once the caller has added the mapped
+//! images of the fermionic terms, a [`HamFile`] (a Hermitian [`PauliSum`] plus a short
+//! summary); or every [`Diagnostic`] the reader could collect. This module never maps
+//! fermionic terms itself: `crate::hamiltonian` joins it with the `fermion` mapping. The grammar is in
+//! //! `grammar/hamiltonian.ebnf`; worked examples are in `grammar/README.md`.
 //!
 //! Reading runs in two stages. The nom parser turns the text into a small syntax tree whose
 //! nodes carry byte spans; it recovers at the end of each line, so one bad line does not hide
@@ -33,10 +36,11 @@ pub mod write;
 pub use flat::FlatSum;
 pub use write::{format_coefficient, write_flat, write_hamiltonian};
 
-use crate::fermion::encode::Encoding;
-use crate::lang::diag::{Code, Diagnostic};
-use crate::pauli::PauliSum;
+use crate::diag::{Code, Diagnostic};
+use crate::ladder::{Encoding, Product};
+use crate::pauli::{PauliString, PauliSum};
 use eval::Evaluator;
+use num_complex::Complex64;
 use parse::parse_statements;
 
 /// Largest `qubits N` (the Pauli strings' own bound; the Hadamard-test ancilla is one more
@@ -44,7 +48,7 @@ use parse::parse_statements;
 pub const MAX_HAM_QUBITS: usize = crate::pauli::MAX_QUBITS;
 
 /// Relative bound on the imaginary part of a merged coefficient (see the module notes).
-pub const HERMITIAN_REL_TOL: f64 = 1e-12;
+pub const HERMITIAN_REL_TOL: f64 = crate::pauli::hermitian::ROUNDOFF_REL_TOL;
 
 /// Largest number of terms one file may expand to (sums included).
 pub const MAX_TERMS: usize = 10_000_000;
@@ -68,13 +72,6 @@ pub struct HamFile {
     pub terms_read: usize,
 }
 
-/// Reads a `.ham` source. `file` is only used in diagnostics.
-/// Fermionic terms need an encoding: from an `encoding` line or from the caller; without
-/// either, they are an error.
-pub fn parse_hamiltonian(file: &str, src: &str) -> Result<HamFile, Vec<Diagnostic>> {
-    parse_hamiltonian_with(file, src, None).map(|r| r.ham)
-}
-
 /// A parsed file together with what the reader learned about its fermionic part.
 #[derive(Clone, Debug, PartialEq)]
 pub struct HamRead {
@@ -85,27 +82,96 @@ pub struct HamRead {
     pub fermionic_terms: usize,
 }
 
-/// Reads a `.ham` source; `encoding` (e.g. from `--encoding`) applies to fermionic terms when
-/// the file has no `encoding` line. A file line and a different `encoding` argument conflict;
-/// a file that mixes Pauli and fermionic terms must carry its own `encoding` line.
-pub fn parse_hamiltonian_with(
-    file: &str,
-    src: &str,
+/// The fermionic operator of a file, as written, waiting for its mapping.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Fermionic {
+    /// The file's `encoding` line, or else the caller's.
+    pub encoding: Encoding,
+    /// Modes = the file's `qubits N`.
+    pub n_modes: usize,
+    /// The fermionic terms with a nonzero coefficient, in file order (sums expanded).
+    pub products: Vec<Product>,
+}
+
+/// A `.ham` file evaluated: the Pauli terms merged per string, plus the fermionic operator
+/// ([`Evaluated::take_fermionic`]) whose mapped images the caller adds
+/// ([`Evaluated::add_mapped`]) before [`Evaluated::finish`] takes the Hermitian part. The
+/// mapping is not this module's: `crate::hamiltonian` joins the two.
+pub struct Evaluated<'s> {
+    inner: Inner<'s>,
+}
+
+enum Inner<'s> {
+    /// A plain file ([`plain`]): already read, no fermionic part.
+    Plain(HamRead),
+    Full {
+        ev: Box<Evaluator<'s>>,
+        encoding: Option<Encoding>,
+    },
+}
+
+/// Reads and evaluates a `.ham` source; `file` is only used in diagnostics. `encoding` (e.g.
+/// from `--encoding`) applies to fermionic terms when the file has no `encoding` line. A file
+/// line and a different `encoding` argument conflict; a file that mixes Pauli and fermionic
+/// terms must carry its own `encoding` line; fermionic terms without either are an error.
+pub fn evaluate<'s>(
+    file: &'s str,
+    src: &'s str,
     encoding: Option<Encoding>,
-) -> Result<HamRead, Vec<Diagnostic>> {
+) -> Result<Evaluated<'s>, Vec<Diagnostic>> {
     // A plain file has no brackets and at most three signs per line: the depth guard, a
     // pass over the whole text, is for the full reader only.
     if let Some(read) = plain_lines(src) {
-        return Ok(read);
+        return Ok(Evaluated {
+            inner: Inner::Plain(read),
+        });
     }
-    if let Some(d) = crate::lang::diag::depth_guard(Code::HamLimit, file, src, "#") {
+    if let Some(d) = crate::diag::depth_guard(Code::HamLimit, file, src, "#") {
         return Err(vec![d]);
     }
     let stmts = parse_statements(file, src)?;
-    let mut ev = Evaluator::new(file, src);
-    ev.flag_encoding = encoding;
-    ev.run(&stmts);
-    ev.finish()
+    let mut ev = Box::new(Evaluator::new(file, src));
+    let encoding = ev.evaluate(&stmts, encoding)?;
+    Ok(Evaluated {
+        inner: Inner::Full { ev, encoding },
+    })
+}
+
+impl Evaluated<'_> {
+    /// Takes the fermionic operator out (once); `None` when the file has no fermionic term
+    /// with a nonzero coefficient.
+    pub fn take_fermionic(&mut self) -> Option<Fermionic> {
+        let Inner::Full { ev, encoding } = &mut self.inner else {
+            return None;
+        };
+        let encoding = (*encoding)?;
+        let products = std::mem::take(&mut ev.fermion_terms);
+        if products.is_empty() {
+            return None;
+        }
+        Some(Fermionic {
+            encoding,
+            n_modes: ev.num_qubits,
+            products,
+        })
+    }
+
+    /// Adds one Pauli string of the image of product `index` of [`Evaluated::take_fermionic`]
+    /// (a Hermiticity diagnostic on it points at that product's term).
+    pub fn add_mapped(&mut self, index: usize, p: PauliString, c: Complex64) {
+        if let Inner::Full { ev, .. } = &mut self.inner {
+            ev.add_mapped(index, p, c);
+        }
+    }
+
+    /// The Hermitian part of everything merged ([`crate::pauli::hermitian`]), or a diagnostic
+    /// at the first contributing term of every string whose merged coefficient is not real.
+    pub fn finish(self) -> Result<HamRead, Vec<Diagnostic>> {
+        match self.inner {
+            Inner::Plain(read) => Ok(read),
+            Inner::Full { ev, encoding } => (*ev).finish(encoding),
+        }
+    }
 }
 
 /// The fast path ([`plain`]): a plain file read without a syntax tree, merged, and turned
@@ -138,34 +204,28 @@ pub struct FlatRead {
     pub encoding: Option<Encoding>,
 }
 
-/// Reads a `.ham` source into [`FlatRead`]; the same diagnostics as [`parse_hamiltonian_with`].
-pub fn read_flat(
-    file: &str,
-    src: &str,
-    encoding: Option<Encoding>,
-) -> Result<FlatRead, Vec<Diagnostic>> {
-    if let Some(lines) = plain::scan(src) {
-        let (sum, counts) = lines.merge();
-        return Ok(FlatRead {
-            sum,
-            dropped_zero: counts.dropped_zero,
-            terms_read: lines.lines.len(),
-            encoding: None,
-        });
+impl FlatRead {
+    /// A whole file's read laid out flat.
+    pub fn from_read(read: &HamRead) -> FlatRead {
+        FlatRead {
+            sum: FlatSum::from_sum(&read.ham.sum),
+            dropped_zero: read.ham.dropped_zero,
+            terms_read: read.ham.terms_read,
+            encoding: read.encoding,
+        }
     }
-    if let Some(d) = crate::lang::diag::depth_guard(Code::HamLimit, file, src, "#") {
-        return Err(vec![d]);
-    }
-    let stmts = parse_statements(file, src)?;
-    let mut ev = Evaluator::new(file, src);
-    ev.flag_encoding = encoding;
-    ev.run(&stmts);
-    let read = ev.finish()?;
-    Ok(FlatRead {
-        sum: FlatSum::from_sum(&read.ham.sum),
-        dropped_zero: read.ham.dropped_zero,
-        terms_read: read.ham.terms_read,
-        encoding: read.encoding,
+}
+
+/// A plain file ([`plain`]) read straight into [`FlatRead`]; `None` for any other file (it
+/// takes [`evaluate`]).
+pub fn plain_flat(src: &str) -> Option<FlatRead> {
+    let lines = plain::scan(src)?;
+    let (sum, counts) = lines.merge();
+    Some(FlatRead {
+        sum,
+        dropped_zero: counts.dropped_zero,
+        terms_read: lines.lines.len(),
+        encoding: None,
     })
 }
 
@@ -181,6 +241,14 @@ mod tests {
 
     fn ps(factors: &[(usize, Pauli)]) -> PauliString {
         PauliString::from_factors(factors).1
+    }
+
+    /// A file without fermionic terms, read by this module alone (the fermionic part is
+    /// mapped by `crate::hamiltonian`, tested in `tests/fermion_ham.rs`).
+    fn parse_hamiltonian(file: &str, src: &str) -> Result<HamFile, Vec<Diagnostic>> {
+        let mut e = evaluate(file, src, None)?;
+        assert!(e.take_fermionic().is_none(), "a Pauli-only test file");
+        e.finish().map(|r| r.ham)
     }
 
     fn read(src: &str) -> HamFile {
@@ -366,8 +434,9 @@ mod tests {
     fn read_full(src: &str) -> Result<HamRead, Vec<Diagnostic>> {
         let stmts = parse_statements("t.ham", src)?;
         let mut ev = Evaluator::new("t.ham", src);
-        ev.run(&stmts);
-        ev.finish()
+        let encoding = ev.evaluate(&stmts, None)?;
+        assert!(ev.fermion_terms.is_empty(), "a Pauli-only test file");
+        ev.finish(encoding)
     }
 
     #[test]

@@ -7,7 +7,7 @@
 
 use super::syntax::*;
 use super::Encoding;
-use crate::lang::diag::{Code, Diagnostic};
+use crate::diag::{Code, Diagnostic};
 use crate::pauli::Pauli;
 use nom::character::complete::{char, digit1};
 use nom::combinator::cut;
@@ -566,9 +566,9 @@ impl<'a> Parser<'a> {
     pub(super) fn encoding(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
         let at = sp(r);
         let (r, word) = context(L_ENCODING, cut(ident))(at)?;
-        let encoding = match word.parse::<Encoding>() {
-            Ok(e) => e,
-            Err(_) => {
+        let encoding = match Encoding::from_short_name(word) {
+            Some(e) => e,
+            None => {
                 return fail(
                     Code::HamUnknownWord,
                     at,

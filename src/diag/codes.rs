@@ -1,6 +1,6 @@
 //! The diagnostics catalogue: a stable code for every kind of problem a user can meet.
 //!
-//! In: nothing (a fixed table). Out: [`Code`], attached to every [`crate::lang::diag::Diagnostic`]
+//! In: nothing (a fixed table). Out: [`Code`], attached to every [`crate::diag::Diagnostic`]
 //! and to every usage error, printed on the error's first line (`error H104: …`) and explained at
 //! length by `phasewright explain CODE`. Invariant: a code, once published, keeps its meaning;
 //! new kinds of problem get new codes, retired ones are never reused. The letter says which

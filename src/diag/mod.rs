@@ -3,9 +3,16 @@
 //! In: a byte offset (and length) into a source text, a message and a hint. Out: a
 //! [`Diagnostic`] that owns the excerpt it needs, so it can be rendered once, at the top of the
 //! program, after the source is gone. Line and column are computed only here, from the offset
-//! (columns count characters, 1-based).
+//! (columns count characters, 1-based). [`codes`] holds the catalogue of [`Code`]s every
+//! diagnostic and layer error carries.
+//!
+//! **Invariant:** a leaf module. It imports nothing else of the crate, so every reader (`lang`,
+//! `fermion::fcidump`, `qasm::read`, `estimate::counts::read`) and every layer error can use
+//! it without depending on another reader.
 
-pub use super::codes::Code;
+pub mod codes;
+
+pub use codes::Code;
 use std::fmt;
 
 /// One problem in one input file.
