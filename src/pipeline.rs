@@ -15,7 +15,10 @@
 //!    the emitted circuit with the fewest two-qubit gates kept. Past [`SCORE_ONCE_MIN`]
 //!    two-qubit gates at the first time point with a step, the other points build only the
 //!    candidates that point kept, and the chain (so a level still never emits more than the
-//!    level below; at utility scale each candidate costs a whole synthesis per point);
+//!    level below; at utility scale each candidate costs a whole synthesis per point), and
+//!    those points are grown from one pass over the longest program per candidate
+//!    ([`grown_streams`]: a shorter program is the longest cut where two rotations do not
+//!    commute, then a tail of its own), so `k` points cost about one synthesis, not `k`;
 //! 3. `readout`: ancilla basis, measurement basis, measurements;
 //! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
 //! 5. `qasm::write` with logical `q[k]`.
