@@ -460,7 +460,7 @@ fn cut_point(p: &[Rotation], big: &[Rotation]) -> usize {
 ///
 /// The program of time point `k` is `k·R` Trotter steps; the formula merges factors only near
 /// the end it is building, so the program of point `j < k` agrees with that of `k` up to its
-/// last step or so. Each shorter program is cut at [`cut_point`]: its body is the stream of
+/// last step or so. Each shorter program is cut at `cut_point`: its body is the stream of
 /// the longest program up to the cut (shared, never synthesised or pushed twice) followed by
 /// its own tail, synthesised on its own. `synthesize` is called on the segments of the longest
 /// program between cuts and on each tail (in parallel), so `k` points cost about one
