@@ -247,7 +247,8 @@ proptest! {
 ///
 /// 26 CNOTs in all, no SWAP, and nothing cancels between neighbours (no two consecutive
 /// CNOTs on a qubit pair are equal). The ancilla alone (the usual test, with its whole layout
-/// search) must be swapped towards both ends: more.
+/// search) once had to be swapped towards both ends, which cost more; at level 3 it now
+/// reaches 26 too, the strings carried to it by CNOTs on coupled pairs (`synth::Coupled`).
 #[test]
 fn a_three_site_chain_with_two_copies_counted_by_hand() {
     let mut h = PauliSum::new(3);
@@ -304,9 +305,7 @@ fn a_three_site_chain_with_two_copies_counted_by_hand() {
         overlap += a.conj() * got.amps[p];
     }
     assert!((1.0 - overlap.norm()).abs() < 1e-12, "{}", overlap.norm());
-    // Compiled at level 3, the step routed with the control spread is kept (it may reach the
-    // same count another way, e.g. bridging through a system qubit): the ancilla alone costs
-    // more.
+    // Compiled at level 3 with and without the spread control: no more than the 26 above.
     let spec = Spec {
         control: Control::Evolution,
         family: Family::Overlap,
@@ -339,9 +338,13 @@ fn a_three_site_chain_with_two_copies_counted_by_hand() {
             .costs
             .clone()
     };
-    assert!(with.plan.device.as_ref().unwrap().spare_qubits);
+    // The ancilla alone now reaches the same 26 with no SWAP: the commuting runs synthesised
+    // on the coupling graph (`synth::Coupled`, each string carried next to the ancilla by
+    // CNOTs on coupled pairs) cost no more than the spread control here, so level 3 need not
+    // keep the copies; either way the count is the hand-counted 26.
     assert!(k1(&with.plan).two_qubit <= 26, "{:?}", k1(&with.plan));
-    assert!(k1(&without.plan).two_qubit > 26, "{:?}", k1(&without.plan));
+    assert!(k1(&without.plan).two_qubit <= 26, "{:?}", k1(&without.plan));
+    assert_eq!(k1(&without.plan).swaps, 0);
     assert_eq!(k1(&without.plan).control_copies, 0);
     check_campaign(&with.plan, &with.programs, &dev);
 }

@@ -59,4 +59,67 @@ proptest! {
         let routed = to_device(&logical, &plan, &dev, &RouteConfig::default()).unwrap();
         prop_assert!(routing_error(&logical, &routed).unwrap() < 1e-9);
     }
+
+    // The coupled form (`synth::Coupled`): the same exactness, and where the placed system
+    // qubits induce a connected graph and the ancilla is coupled to one of them, every
+    // two-qubit gate of the logical step is on a coupled pair already, so the router inserts
+    // no SWAP at all.
+    #[test]
+    fn coupled_steps_need_no_swaps(
+        seed in any::<u64>(),
+        n in 2usize..=5,
+        terms in 3usize..=10,
+        kind in 0u8..5,
+        native in 0usize..4,
+        controlled in any::<bool>(),
+    ) {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let h = random_hamiltonian(n, terms, &mut rng);
+        let width = n + controlled as usize;
+        let dev = random_device(kind, width, native, &mut rng);
+        let layout: Vec<u32> = (0..width as u32).collect();
+        let mut plan = TargetPlan::with_layout(n, controlled, &dev, layout).unwrap();
+        plan.step_form.groups = true;
+        plan.step_form.coupled = true;
+        let terms = plan.terms(&h);
+        let parts = reuse::step_parts_on(&terms, &plan, Order::Second, 0.3, Some(&dev));
+        let logical = parts.circuit;
+        verify_ir(&logical, &Rules::default()).unwrap();
+        let program = step(&terms, Order::Second, 0.3);
+        for _ in 0..2 {
+            let s = State::random(width, &mut rng);
+            let got = run(&logical, s.clone());
+            let mut on = s.clone();
+            for r in &program {
+                on.apply_pauli_rotation(&r.pauli, r.theta);
+            }
+            for (b, g) in got.amps.iter().enumerate() {
+                let want = if controlled && (b >> n) & 1 == 0 { s.amps[b] } else { on.amps[b] };
+                prop_assert!((g - want).norm() < 1e-9, "amplitude {b}: {g} against {want}");
+            }
+        }
+        // Sites 0..n hold the system (identity layout), site n the ancilla.
+        let mut reached = vec![false; n];
+        reached[0] = true;
+        let mut stack = vec![0u32];
+        while let Some(u) = stack.pop() {
+            for v in 0..n as u32 {
+                if !reached[v as usize] && dev.coupled(u, v) {
+                    reached[v as usize] = true;
+                    stack.push(v);
+                }
+            }
+        }
+        let placed = reached.iter().all(|&r| r)
+            && (!controlled || (0..n as u32).any(|q| dev.coupled(q, n as u32)));
+        if placed {
+            let coupled = |a: u32, b: u32| dev.coupled(a, b);
+            verify_ir(&logical, &Rules { coupled: Some(&coupled), native: None }).unwrap();
+        }
+        let routed = to_device(&logical, &plan, &dev, &RouteConfig::default()).unwrap();
+        if placed {
+            prop_assert_eq!(routed.swaps, 0);
+        }
+        prop_assert!(routing_error(&logical, &routed).unwrap() < 1e-9);
+    }
 }

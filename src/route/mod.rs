@@ -29,7 +29,13 @@
 //!    lookahead router and in order with the ancilla as hub ([`hub`]); candidates are scored by
 //!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`), and the best
 //!    swept and the best split step are finally compared on the whole campaign
-//!    ([`plan_and_route_step`]).
+//!    ([`plan_and_route_step`]). At level 3 the commuting runs are also synthesised on the
+//!    coupling graph itself (`synth::Coupled`, [`StepForm::coupled`]): every network CNOT on a
+//!    coupled pair of the candidate layout and each string carried next to the ancilla, so
+//!    the step routes without a SWAP (scored past [`EXTRAS_MAX_UNIT`] too, on every layout
+//!    and order of the search, since such a routing is a linear pass), or, roaming
+//!    ([`StepForm::roam`], below [`EXTRAS_MAX_UNIT`] only), each string rotated where its
+//!    network ends and the ancilla routed to it.
 //!    With `RouteConfig::cat` (level 3) [`plan_and_route_cat_step`] also routes the step with
 //!    the control spread over copies of the ancilla on spare sites ([`cat`]): layouts grown
 //!    from the winner's and from exact embeddings, copies added where they pay, the step
@@ -372,6 +378,13 @@ pub struct StepForm {
     /// One greedy Clifford network per commuting run (`synth::Groups`, distance-aware under
     /// the plan's initial layout), single rotations as the plan's ladders.
     pub groups: bool,
+    /// With `groups`: the networks restricted to coupled pairs of the plan's initial layout
+    /// and each string reduced next to the ancilla (`synth::Coupled`), so the router inserts
+    /// no SWAP inside the step.
+    pub coupled: bool,
+    /// With `coupled`: each string rotated where its network leaves it, the router moving the
+    /// ancilla to it (`synth::Coupled::roam`).
+    pub roam: bool,
 }
 
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
@@ -758,6 +771,8 @@ fn plan_on_step(
         sweep: false,
         pairs: false,
         groups: false,
+        coupled: false,
+        roam: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -958,6 +973,8 @@ fn plan_on_step(
             sweep: false,
             pairs: false,
             groups: false,
+            coupled: false,
+            roam: false,
         };
         let (plan, parts, fwd, marks) = evaluate(
             &first_layout,
@@ -997,7 +1014,26 @@ fn plan_on_step(
             });
         }
     }
+    // The coupled networks (`synth::Coupled`) route without SWAPs, so their candidates cost
+    // a synthesis and a linear pass each: they are scored past `EXTRAS_MAX_UNIT` too, with
+    // one factor and no refinement rounds (neither changes a step that needs no SWAP).
+    if cfg.pairs && !cfg.textbook && controls {
+        // Roaming steps need SWAPs (for the ancilla): only while routings are cheap.
+        for roam in [false, true].into_iter().filter(|&r| !r || small) {
+            forms.push(StepForm {
+                groups: true,
+                coupled: true,
+                roam,
+                ..form
+            });
+        }
+    }
     for paired in forms {
+        let (factors, rounds) = if paired.coupled && !paired.roam {
+            (&search.factors[..1], 0)
+        } else {
+            (search.factors, search.rounds)
+        };
         let mut layouts = candidates.clone();
         let best = best_layout.borrow().clone();
         if let Some(l) = best {
@@ -1005,16 +1041,16 @@ fn plan_on_step(
                 layouts.push(l);
             }
         }
-        for &factor in search.factors {
+        for &factor in factors {
             for &choice in search.choices.iter().filter(|&&c| c != OrderChoice::Sweep) {
                 for start in &layouts {
                     let mut l = start.clone();
-                    for round in 0..=search.rounds {
+                    for round in 0..=rounds {
                         params.hub_factor = factor;
                         let (plan, parts, fwd, marks) =
                             evaluate(&l, factor, choice, paired, &mut params)?;
                         consider(key_of(&fwd, &l), plan, &parts, &fwd, &marks);
-                        if round == search.rounds {
+                        if round == rounds {
                             break;
                         }
                         params.hub_factor = factor;

@@ -67,7 +67,7 @@ use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 use crate::formula::{step, Order, Rotation};
 use crate::pauli::PauliString;
-use crate::synth::{pauli_rotation_along, Block, Groups, Pairs, Strategy};
+use crate::synth::{pauli_rotation_along, Block, Coupled, Groups, Pairs, Strategy};
 
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
@@ -250,7 +250,14 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -
                 f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)
             }),
         };
-        if plan.step_form.groups {
+        if plan.step_form.groups && plan.step_form.coupled {
+            Coupled {
+                width: plan.initial_layout.len(),
+                ladder: &ladder,
+                roam: plan.step_form.roam,
+            }
+            .synthesize(&block, &mut c.gates);
+        } else if plan.step_form.groups {
             Groups {
                 ladder: &ladder,
                 shared: None,

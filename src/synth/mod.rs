@@ -33,7 +33,7 @@
 
 pub mod groups;
 
-pub use groups::Groups;
+pub use groups::{Coupled, Groups};
 
 use crate::circuit::{Gate, Qubit};
 use crate::formula::Rotation;
