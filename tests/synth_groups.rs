@@ -18,6 +18,58 @@ use rand_chacha::ChaCha8Rng;
 mod route_support;
 use route_support::{random_device, random_hamiltonian};
 
+/// The logical Strang step of a random sum on `n` qubits (and the ancilla when `controlled`)
+/// in the form `coupled` asks for, on a random device with the identity layout, checked
+/// against the ideal step on random states: the product where the control is |1⟩ (or
+/// everywhere without one), the identity where it is |0⟩.
+fn exact_step(
+    seed: u64,
+    (n, terms, kind, native): (usize, usize, u8, usize),
+    controlled: bool,
+    coupled: bool,
+) -> Result<
+    (
+        phasewright::device::Device,
+        TargetPlan,
+        phasewright::circuit::Circuit,
+    ),
+    TestCaseError,
+> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let h = random_hamiltonian(n, terms, &mut rng);
+    let width = n + controlled as usize;
+    let dev = random_device(kind, width, native, &mut rng);
+    let layout: Vec<u32> = (0..width as u32).collect();
+    let mut plan = TargetPlan::with_layout(n, controlled, &dev, layout).unwrap();
+    plan.step_form.groups = true;
+    plan.step_form.coupled = coupled;
+    let terms = plan.terms(&h);
+    let parts = reuse::step_parts_on(&terms, &plan, Order::Second, 0.3, Some(&dev));
+    let logical = parts.circuit;
+    verify_ir(&logical, &Rules::default()).unwrap();
+    let program = step(&terms, Order::Second, 0.3);
+    for _ in 0..2 {
+        let s = State::random(width, &mut rng);
+        let got = run(&logical, s.clone());
+        let mut on = s.clone();
+        for r in &program {
+            on.apply_pauli_rotation(&r.pauli, r.theta);
+        }
+        for (b, g) in got.amps.iter().enumerate() {
+            let want = if controlled && (b >> n) & 1 == 0 {
+                s.amps[b]
+            } else {
+                on.amps[b]
+            };
+            prop_assert!(
+                (g - want).norm() < 1e-9,
+                "amplitude {b}: {g} against {want}"
+            );
+        }
+    }
+    Ok((dev, plan, logical))
+}
+
 proptest! {
     #![proptest_config(ProptestConfig { cases: 48, ..ProptestConfig::default() })]
 
@@ -30,32 +82,7 @@ proptest! {
         native in 0usize..4,
         controlled in any::<bool>(),
     ) {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        let h = random_hamiltonian(n, terms, &mut rng);
-        let width = n + controlled as usize;
-        let dev = random_device(kind, width, native, &mut rng);
-        let layout: Vec<u32> = (0..width as u32).collect();
-        let mut plan = TargetPlan::with_layout(n, controlled, &dev, layout).unwrap();
-        plan.step_form.groups = true;
-        let terms = plan.terms(&h);
-        let parts = reuse::step_parts_on(&terms, &plan, Order::Second, 0.3, Some(&dev));
-        let logical = parts.circuit;
-        verify_ir(&logical, &Rules::default()).unwrap();
-        // Against the ideal step, on random states: the product where the control is |1⟩
-        // (or everywhere without one), the identity where it is |0⟩.
-        let program = step(&terms, Order::Second, 0.3);
-        for _ in 0..2 {
-            let s = State::random(width, &mut rng);
-            let got = run(&logical, s.clone());
-            let mut on = s.clone();
-            for r in &program {
-                on.apply_pauli_rotation(&r.pauli, r.theta);
-            }
-            for (b, g) in got.amps.iter().enumerate() {
-                let want = if controlled && (b >> n) & 1 == 0 { s.amps[b] } else { on.amps[b] };
-                prop_assert!((g - want).norm() < 1e-9, "amplitude {b}: {g} against {want}");
-            }
-        }
+        let (dev, plan, logical) = exact_step(seed, (n, terms, kind, native), controlled, false)?;
         let routed = to_device(&logical, &plan, &dev, &RouteConfig::default()).unwrap();
         prop_assert!(routing_error(&logical, &routed).unwrap() < 1e-9);
     }
@@ -73,31 +100,7 @@ proptest! {
         native in 0usize..4,
         controlled in any::<bool>(),
     ) {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        let h = random_hamiltonian(n, terms, &mut rng);
-        let width = n + controlled as usize;
-        let dev = random_device(kind, width, native, &mut rng);
-        let layout: Vec<u32> = (0..width as u32).collect();
-        let mut plan = TargetPlan::with_layout(n, controlled, &dev, layout).unwrap();
-        plan.step_form.groups = true;
-        plan.step_form.coupled = true;
-        let terms = plan.terms(&h);
-        let parts = reuse::step_parts_on(&terms, &plan, Order::Second, 0.3, Some(&dev));
-        let logical = parts.circuit;
-        verify_ir(&logical, &Rules::default()).unwrap();
-        let program = step(&terms, Order::Second, 0.3);
-        for _ in 0..2 {
-            let s = State::random(width, &mut rng);
-            let got = run(&logical, s.clone());
-            let mut on = s.clone();
-            for r in &program {
-                on.apply_pauli_rotation(&r.pauli, r.theta);
-            }
-            for (b, g) in got.amps.iter().enumerate() {
-                let want = if controlled && (b >> n) & 1 == 0 { s.amps[b] } else { on.amps[b] };
-                prop_assert!((g - want).norm() < 1e-9, "amplitude {b}: {g} against {want}");
-            }
-        }
+        let (dev, plan, logical) = exact_step(seed, (n, terms, kind, native), controlled, true)?;
         // Sites 0..n hold the system (identity layout), site n the ancilla.
         let mut reached = vec![false; n];
         reached[0] = true;
