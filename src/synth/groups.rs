@@ -1548,6 +1548,20 @@ mod tests {
         assert!(block_error(&gates, &block, None, 4) < 1e-9);
     }
 
+    /// The sum of the strings `raw` gives on qubits `0..n` (masks cut to `n` bits; identities
+    /// dropped), with their weights.
+    fn masked_sum(n: usize, raw: &[(u64, u64, f64)]) -> crate::pauli::PauliSum {
+        let mut h = crate::pauli::PauliSum::new(n);
+        let mask = (1u64 << n) - 1;
+        for &(x, z, c) in raw {
+            let p = PauliString::from_masks(x & mask, z & mask);
+            if !p.is_identity() {
+                h.add(p, c);
+            }
+        }
+        h
+    }
+
     proptest! {
         #![proptest_config(ProptestConfig { cases: 64, .. ProptestConfig::default() })]
 
@@ -1582,13 +1596,7 @@ mod tests {
             picks in proptest::collection::vec((any::<u32>(), any::<u32>()), 7),
             ctl in any::<bool>(),
         ) {
-            let mut h = crate::pauli::PauliSum::new(5);
-            for &(x, z, c) in &raw {
-                let p = PauliString::from_masks(x & 31, z & 31);
-                if !p.is_identity() {
-                    h.add(p, c);
-                }
-            }
+            let h = masked_sum(5, &raw);
             prop_assume!(!h.terms.is_empty());
             let block = crate::formula::step(&crate::formula::order_terms(&h), crate::formula::Order::Second, 0.3);
             let edges = random_graph(&picks, 5, ctl);
@@ -1659,13 +1667,7 @@ mod tests {
             raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 1..24),
             ctl in any::<bool>(),
         ) {
-            let mut h = crate::pauli::PauliSum::new(5);
-            for &(x, z, c) in &raw {
-                let p = PauliString::from_masks(x & 31, z & 31);
-                if !p.is_identity() {
-                    h.add(p, c);
-                }
-            }
+            let h = masked_sum(5, &raw);
             prop_assume!(!h.terms.is_empty());
             let block = crate::formula::step(&crate::formula::order_terms(&h), crate::formula::Order::Second, 0.3);
             let control = ctl.then_some(5);
@@ -1682,13 +1684,7 @@ mod tests {
             raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 2..24),
             ctl in any::<bool>(),
         ) {
-            let mut h = crate::pauli::PauliSum::new(6);
-            for &(x, z, c) in &raw {
-                let p = PauliString::from_masks(x & 63, z & 63);
-                if !p.is_identity() {
-                    h.add(p, c);
-                }
-            }
+            let h = masked_sum(6, &raw);
             prop_assume!(!h.terms.is_empty());
             let terms = crate::formula::order_terms(&h);
             let one = crate::formula::step(&terms, crate::formula::Order::Second, 0.3);
