@@ -498,6 +498,22 @@ mod tests {
         assert_eq!(Ok(fast), read_full(&src));
     }
 
+    #[test]
+    fn factors_on_one_qubit_multiply_in_the_order_written() {
+        // Z X Z = −X (the Pauli relations ZX = iY and YZ = iX; Nielsen & Chuang, "Quantum
+        // Computation and Quantum Information" (2000), §2.1.3, from memory): sorting the
+        // factors of one qubit before multiplying would give +X.
+        let src = "qubits 1\nZ0 X0 Z0\n";
+        let full = read_full(src).expect("reads");
+        assert_eq!(
+            full.ham.sum.terms.values().copied().collect::<Vec<_>>(),
+            vec![-1.0]
+        );
+        if let Some(fast) = plain_lines(src) {
+            assert_eq!(fast, full);
+        }
+    }
+
     proptest::proptest! {
         /// Random plain files (repeats, same-qubit products, zeros, constants, comments) read
         /// the same by the fast path and the full reader, errors included.

@@ -220,7 +220,9 @@ fn skip_comment(b: &[u8], i: usize) -> usize {
 /// `None` when a product carries a phase ±i: whether the merged coefficient is then real is
 /// the evaluator's to decide (with a diagnostic when it is not).
 fn canonical(codes: &mut Vec<u16>) -> Option<()> {
-    codes.sort_unstable();
+    // Stable, by qubit only: factors on different qubits commute, but two on one qubit keep
+    // the order they were written in (`Z0 X0 Z0` is `−X0`, not `X0 Z0 Z0 = X0`).
+    codes.sort_by_key(|&c| c >> 2);
     if codes.windows(2).all(|w| (w[0] >> 2) < (w[1] >> 2)) {
         return Some(());
     }
