@@ -185,7 +185,7 @@ fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
 
 /// Per circuit of one time point, the candidate body whose readout gives the fewest two-qubit
 /// gates (then the lowest depth), counted on top of the body's own counts as the pipeline does,
-/// then built, verified and formatted; adds the seconds to `readout` and `text` and returns the
+/// then verified and formatted (each body's text once); adds the seconds to `readout` and `text` and returns the
 /// candidates kept and the most two-qubit gates of one circuit.
 fn pick<C: Copy + PartialEq>(
     fs: &[&phasewright::family::Frame],
@@ -198,9 +198,10 @@ fn pick<C: Copy + PartialEq>(
     text: &mut f64,
 ) -> (Vec<C>, usize) {
     use phasewright::circuit::metrics::counts_of;
-    use phasewright::circuit::verify::{verify_ir, Rules};
-    use phasewright::circuit::Circuit;
+    use phasewright::circuit::verify::{verify_gates, Rules};
+    use phasewright::qasm::write_gate_iter;
     let (mut kept, mut most) = (Vec::new(), 0);
+    let mut texts: Vec<Option<Vec<u8>>> = bodies.iter().map(|_| None).collect();
     for f in fs {
         let t = Instant::now();
         let mut best: Option<(usize, (usize, usize))> = None;
@@ -223,18 +224,50 @@ fn pick<C: Copy + PartialEq>(
         if !kept.contains(&candidates[i]) {
             kept.push(candidates[i]);
         }
-        let mut c = Circuit::new(f.num_qubits, f.num_clbits);
-        c.gates = bodies[i].0.with_tail(&f.suffix).to_vec();
-        verify_ir(&c, &Rules::default()).expect("verified");
+        // As the pipeline does: a readout that only appends is verified alone, and the body is
+        // verified and written once, its text shared by every circuit that keeps it.
+        let tailed = bodies[i].0.with_tail(&f.suffix);
+        let appended: Option<Vec<_>> = tailed.appended_only().map(Iterator::collect);
+        let logical = phasewright::qasm::Addressing::Logical;
+        let mut out = Vec::new();
+        match appended {
+            Some(tail) => {
+                verify_gates(
+                    f.num_qubits,
+                    f.num_clbits,
+                    tail.iter().copied(),
+                    &Rules::default(),
+                )
+                .expect("verified");
+                *readout += t.elapsed().as_secs_f64();
+                let t = Instant::now();
+                if texts[i].is_none() {
+                    verify_gates(f.num_qubits, 0, bodies[i].0.gates(), &Rules::default())
+                        .expect("verified");
+                    let mut body = Vec::new();
+                    write_gate_iter(&mut body, bodies[i].0.gates(), logical).expect("memory");
+                    texts[i] = Some(body);
+                }
+                out.extend_from_slice(texts[i].as_ref().expect("written"));
+                write_gate_iter(&mut out, tail, logical).expect("memory");
+                *text += t.elapsed().as_secs_f64();
+            }
+            None => {
+                verify_gates(
+                    f.num_qubits,
+                    f.num_clbits,
+                    tailed.gates(),
+                    &Rules::default(),
+                )
+                .expect("verified");
+                *readout += t.elapsed().as_secs_f64();
+                let t = Instant::now();
+                write_gate_iter(&mut out, tailed.gates(), logical).expect("memory");
+                *text += t.elapsed().as_secs_f64();
+            }
+        }
+        std::hint::black_box(out);
         most = most.max(two);
-        *readout += t.elapsed().as_secs_f64();
-        let t = Instant::now();
-        std::hint::black_box(phasewright::qasm::write(
-            &c,
-            phasewright::qasm::Addressing::Logical,
-            &[],
-        ));
-        *text += t.elapsed().as_secs_f64();
     }
     (kept, most)
 }
@@ -251,9 +284,10 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     use phasewright::circuit::metrics::Counter;
     use phasewright::circuit::verify::Rules;
     use phasewright::circuit::Circuit;
-    use phasewright::formula::{order_terms, Formula, Rotation};
+    use phasewright::formula::{order_terms, periodic_form, Formula, Rotation};
     use phasewright::pipeline::{
-        all_to_all_passes, grown_streams, run_passes, synthesize_all_to_all, OptLevel, Synthesis,
+        all_to_all_passes, grown_streams, periodic_streams, run_passes, synthesize_all_to_all,
+        OptLevel, Synthesis,
     };
     let s = spec(h.num_qubits, points);
     let mut out = Vec::new();
@@ -266,7 +300,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     lap("group+order", &mut out);
     let formula = Formula::new(&terms);
     let programs: Vec<_> = (0..points)
-        .map(|k| formula.evolution(s.order, k as f64 * s.dt, k))
+        .map(|k| formula.evolution_by_step(s.order, s.dt, k))
         .collect();
     lap("formula", &mut out);
     let agreeing: Vec<_> = programs
@@ -354,8 +388,9 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
             }
         }
     }
-    // Past `SCORE_ONCE_MIN`, the later points are grown from one pass over the longest
-    // program per candidate (`pipeline::grown_streams`): synthesis and peephole in one.
+    // Past `SCORE_ONCE_MIN`, the later points share one synthesis of the repeated step
+    // (`pipeline::periodic_streams`), or are grown from one pass over the longest program
+    // (`pipeline::grown_streams`) when their programs do not repeat one step.
     if let Some(only) = &only {
         let later: Vec<usize> = (2..points).collect();
         for k in &later {
@@ -372,7 +407,10 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
                     synthesize_all_to_all(p, control, synthesis, Some(&networks), &mut out);
                     out
                 };
-                let streams = grown_streams(f0.num_qubits, &f0.prefix, &progs, &synthesize);
+                let streams = match periodic_form(&later, &progs) {
+                    Some(form) => periodic_streams(f0.num_qubits, &f0.prefix, &form, &synthesize),
+                    None => grown_streams(f0.num_qubits, &f0.prefix, &progs, &synthesize),
+                };
                 grow += t.elapsed().as_secs_f64();
                 for (&k, stream) in later.iter().zip(streams) {
                     let t = Instant::now();
@@ -394,7 +432,7 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
     out.extend([
         ("synthesis", synth),
         ("peephole", cancel),
-        ("grown points", grow),
+        ("later points", grow),
         ("readout+counts", readout),
         ("format", text),
     ]);

@@ -43,7 +43,7 @@
 //! };
 //! let compiled = phasewright::pipeline::compile(&ham.sum, "pair.ham", &spec).unwrap();
 //! assert_eq!(compiled.programs.len(), compiled.plan.circuits.len());
-//! let checks = phasewright::check::check_plan(&compiled.plan, &compiled.circuits).unwrap();
+//! let checks = phasewright::check::check_plan(&compiled.plan, &compiled.circuits()).unwrap();
 //! assert!(checks.iter().all(|c| c.compile_error <= 1e-9));
 //! ```
 //!

@@ -79,7 +79,7 @@
 
 use crate::circuit::cancel::Peephole;
 use crate::circuit::metrics::{counts_of, Counter, Counts};
-use crate::circuit::verify::{verify_ir, IrError, Rules};
+use crate::circuit::verify::{verify_gates, verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::Device;
 use crate::family::control::Control;
@@ -91,7 +91,7 @@ use crate::family::plan::{
 use crate::family::{frames, frames_by, frames_with, PrepAt, Spec};
 use crate::formula::{order_terms, textbook_evolution, Formula, Rotation};
 use crate::pauli::PauliSum;
-use crate::qasm::{write, Addressing};
+use crate::qasm::Addressing;
 use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
     RouteConfig, RouteError,
@@ -353,11 +353,23 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
 pub struct Compiled {
     pub plan: Plan,
     pub programs: Vec<String>,
-    /// The final circuits on the all-to-all target (for callers that want to simulate without
-    /// re-reading the files). Empty on a device: its circuits are built as text from shared
-    /// pieces (`route::campaign`), and at utility scale holding them as IR too would double the
-    /// memory (tens of gigabytes); read them back from `programs` with `qasm::read`.
-    pub circuits: Vec<Circuit>,
+}
+
+impl Compiled {
+    /// Circuit `i` read back from its program text ([`crate::qasm::read`]), for callers that
+    /// simulate without the files. No target keeps its circuits as IR beside the text: circuits
+    /// that share their body are written from one text of it, and at utility scale the IR would
+    /// double the memory. Angles round-trip exactly (`qasm::push_angle`).
+    pub fn circuit(&self, i: usize) -> Circuit {
+        crate::qasm::read(&self.plan.circuits[i].file, &self.programs[i])
+            .expect("phasewright reads back every program it writes")
+            .circuit
+    }
+
+    /// Every circuit read back from its text, in plan order ([`Compiled::circuit`]).
+    pub fn circuits(&self) -> Vec<Circuit> {
+        (0..self.programs.len()).map(|i| self.circuit(i)).collect()
+    }
 }
 
 /// Summary of the Hamiltonian as recorded in the plan.
@@ -405,16 +417,11 @@ struct Finished {
     reads: Vec<crate::family::plan::Read>,
     num_qubits: usize,
     num_clbits: usize,
-    output: Output,
+    /// The circuit's OpenQASM 3 text, written by the target's passes.
+    program: String,
     costs: Costs,
     final_layout: Vec<u32>,
     fanout: Option<FanOut>,
-}
-
-/// What a target hands to emission: the circuit (written here) or its finished text.
-enum Output {
-    Circuit(Circuit),
-    Text(String),
 }
 
 /// Which rotation program of a time point a candidate synthesises on the all-to-all target.
@@ -518,6 +525,58 @@ pub fn grown_streams(
         .collect()
 }
 
+/// The peephole streams of `prefix` followed by each program of `form` (time points of one
+/// campaign, [`formula::periodic_form`](crate::formula::periodic_form)): the head, the unit
+/// and the tail are synthesised once each (in parallel), and one stream takes the prefix, the
+/// head and the unit's gates again and again, cloned after `repeats[j]` units for point `j`,
+/// which then takes the tail's gates. So the later points of a campaign cost about two
+/// syntheses of a step in all, however many points and steps there are; only the peephole
+/// pass still sees every gate. Invariant: stream `j` is exactly [`Peephole`] fed `prefix`,
+/// `synthesize(head)`, `repeats[j]` copies of `synthesize(unit)` and `synthesize(tail)`: the
+/// same unitary as `synthesize(programs[j])` whenever `synthesize` is exact on every block.
+pub fn periodic_streams(
+    num_qubits: usize,
+    prefix: &[Gate],
+    form: &crate::formula::Periodic,
+    synthesize: &(dyn Fn(&[Rotation]) -> Vec<Gate> + Sync),
+) -> Vec<Peephole> {
+    let blocks: Vec<Vec<Gate>> = [form.head, form.unit, form.tail]
+        .par_iter()
+        .map(|b| synthesize(b))
+        .collect();
+    let (head, unit, tail) = (&blocks[0], &blocks[1], &blocks[2]);
+    let most = form.repeats.iter().copied().max().unwrap_or(0);
+    let mut stream = Peephole::new(
+        num_qubits,
+        prefix.len() + head.len() + most * unit.len() + tail.len(),
+    );
+    for &g in prefix.iter().chain(head) {
+        stream.push(g);
+    }
+    let mut out: Vec<Option<Peephole>> = form.repeats.iter().map(|_| None).collect();
+    for m in 0..=most {
+        for (j, _) in form.repeats.iter().enumerate().filter(|(_, &r)| r == m) {
+            let mut s = if m == most && j + 1 == form.repeats.len() {
+                std::mem::replace(&mut stream, Peephole::new(num_qubits, 0))
+            } else {
+                stream.clone()
+            };
+            for &g in tail {
+                s.push(g);
+            }
+            out[j] = Some(s);
+        }
+        if m < most {
+            for &g in unit {
+                stream.push(g);
+            }
+        }
+    }
+    out.into_iter()
+        .map(|s| s.expect("every point has a number of units up to the most"))
+        .collect()
+}
+
 /// The shared gates of the circuits of one time point (preparation and evolution) on the
 /// all-to-all target: fed to the peephole stream (level ≥ 1), or as synthesised (level 0).
 enum Body {
@@ -566,6 +625,78 @@ impl Body {
             }
             Body::Raw(gates) => counts_of(num_qubits, gates.iter().chain(readout).copied()),
         }
+    }
+}
+
+impl Body {
+    /// The program text of the circuit made of this body and `readout`, on `(qubits, bits)`.
+    /// When the readout only appends (the usual case) the body's gates are verified and
+    /// written once, into `cache`, and copied into every circuit that keeps this body (the
+    /// real and imaginary parts of one Hadamard test, say); the readout's gates are verified on
+    /// their own, which is the same check because a body holds no measurement (it is verified
+    /// with no classical bits). A readout that changes the body's last gates verifies and
+    /// writes its whole circuit.
+    fn text_with_readout(
+        &self,
+        (num_qubits, num_clbits): (usize, usize),
+        readout: &[Gate],
+        comments: &[String],
+        cache: &mut Option<Vec<u8>>,
+    ) -> Result<String, IrError> {
+        let rules = Rules::default();
+        let logical = Addressing::Logical;
+        let mut out = Vec::new();
+        let text = |out: &mut Vec<u8>, gates: &mut dyn Iterator<Item = Gate>| {
+            crate::qasm::write_gate_iter(out, gates, logical).expect("writing to memory")
+        };
+        let header = |out: &mut Vec<u8>| {
+            crate::qasm::write_header(out, num_qubits, num_clbits, 0.0, logical, comments)
+                .expect("writing to memory")
+        };
+        match self {
+            Body::Stream(s, _) => {
+                let tailed = s.with_tail(readout);
+                let appended: Option<Vec<Gate>> = tailed.appended_only().map(Iterator::collect);
+                match appended {
+                    Some(tail) => {
+                        let body = match cache {
+                            Some(body) => body,
+                            None => {
+                                verify_gates(num_qubits, 0, s.gates(), &rules).map_err(|e| {
+                                    IrError {
+                                        message: format!(
+                                            "{} (in the body, which holds no measurement)",
+                                            e.message
+                                        ),
+                                        ..e
+                                    }
+                                })?;
+                                let mut body = Vec::new();
+                                text(&mut body, &mut s.gates());
+                                cache.insert(body)
+                            }
+                        };
+                        verify_gates(num_qubits, num_clbits, tail.iter().copied(), &rules)?;
+                        out.reserve(body.len() + 64 * tail.len() + 512);
+                        header(&mut out);
+                        out.extend_from_slice(body);
+                        text(&mut out, &mut tail.into_iter());
+                    }
+                    None => {
+                        verify_gates(num_qubits, num_clbits, tailed.gates(), &rules)?;
+                        header(&mut out);
+                        text(&mut out, &mut tailed.gates());
+                    }
+                }
+            }
+            Body::Raw(gates) => {
+                let all = || gates.iter().chain(readout).copied();
+                verify_gates(num_qubits, num_clbits, all(), &rules)?;
+                header(&mut out);
+                text(&mut out, &mut all());
+            }
+        }
+        Ok(String::from_utf8(out).expect("the writer emits ASCII"))
     }
 }
 
@@ -637,13 +768,16 @@ pub fn compile_at(
             // One rotation program per time point, shared by every circuit at that point; the
             // string ids and commuting runs of the term list are found once for all points.
             let formula = (level != OptLevel::TEXTBOOK).then(|| Formula::new(&terms));
+            let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
             let programs: Vec<Vec<Rotation>> = (0..spec.points)
                 .into_par_iter()
                 .map(|k| {
                     let (t, r) = (k as f64 * spec.dt, k * spec.steps_per_dt);
                     match &formula {
                         None => textbook_evolution(&terms, spec.order, t, r),
-                        Some(f) => f.evolution(spec.order, t, r),
+                        // Every point repeats one step of dt / R with the same angles, so the
+                        // later points can share its synthesis (`periodic_form`).
+                        Some(f) => f.evolution_by_step(spec.order, step_dt, r),
                     }
                 })
                 .collect();
@@ -748,6 +882,8 @@ pub fn compile_at(
                     kept: Vec::new(),
                     most_two_qubit: 0,
                 };
+                // Each body's text, written the first time a circuit keeps it.
+                let mut texts: Vec<Option<Vec<u8>>> = bodies.iter().map(|_| None).collect();
                 for f in frames_k {
                     // Each candidate's readout is counted on an overlay of its shared body
                     // (nothing copied; the body itself was counted once); the first with the
@@ -774,13 +910,23 @@ pub fn compile_at(
                         }
                     }
                     let (i, n) = best.expect("at least the chain candidate");
-                    let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
-                    circuit.gates = bodies[i].with_readout(&f.suffix);
-                    verify_ir(&circuit, &Rules::default()).map_err(|e| IrError {
-                        message: format!("after pass `cancel`: {}", e.message),
-                        ..e
-                    })?;
-                    debug_assert_eq!(n, crate::circuit::metrics::counts(&circuit));
+                    if cfg!(debug_assertions) {
+                        let mut circuit = Circuit::new(f.num_qubits, f.num_clbits);
+                        circuit.gates = bodies[i].with_readout(&f.suffix);
+                        debug_assert_eq!(n, crate::circuit::metrics::counts(&circuit));
+                    }
+                    let comments = header_comments(&f.id, f.part, f.k, f.time, None);
+                    let text = bodies[i]
+                        .text_with_readout(
+                            (f.num_qubits, f.num_clbits),
+                            &f.suffix,
+                            &comments,
+                            &mut texts[i],
+                        )
+                        .map_err(|e| IrError {
+                            message: format!("after pass `cancel`: {}", e.message),
+                            ..e
+                        })?;
                     if !built.kept.contains(&cands[i]) {
                         built.kept.push(cands[i]);
                     }
@@ -795,9 +941,9 @@ pub fn compile_at(
                         state: f.state,
                         group: f.group,
                         reads: f.reads,
-                        num_qubits: circuit.num_qubits,
-                        num_clbits: circuit.num_clbits,
-                        output: Output::Circuit(circuit),
+                        num_qubits: f.num_qubits,
+                        num_clbits: f.num_clbits,
+                        program: text,
                         final_layout: Vec::new(),
                     });
                 }
@@ -907,10 +1053,17 @@ pub fn compile_at(
                                 );
                                 out
                             };
-                            members
-                                .into_iter()
-                                .zip(grown_streams(num_qubits, &prefix, &progs, &synthesize))
-                                .collect()
+                            // The points repeat one step: its synthesis is shared
+                            // (`periodic_streams`); else they are grown from the longest.
+                            let steps: Vec<usize> =
+                                members.iter().map(|&j| ks[j] * spec.steps_per_dt).collect();
+                            let streams = match crate::formula::periodic_form(&steps, &progs) {
+                                Some(form) => {
+                                    periodic_streams(num_qubits, &prefix, &form, &synthesize)
+                                }
+                                None => grown_streams(num_qubits, &prefix, &progs, &synthesize),
+                            };
+                            members.into_iter().zip(streams).collect()
                         })
                         .collect();
                     let mut bodies: Vec<Vec<Option<Body>>> = cands
@@ -951,7 +1104,7 @@ pub fn compile_at(
                 done[i] = Some(f);
             }
             let done: Vec<Finished> = done.into_iter().flatten().flatten().collect();
-            Ok(finish(h, source, spec, done, None, Addressing::Logical))
+            Ok(finish(h, source, spec, done, None))
         }
         Target::Device { device, config } => {
             let mut config = level.route_config(config);
@@ -1013,14 +1166,7 @@ pub fn compile_at(
                     }
                 }
             };
-            Ok(finish(
-                h,
-                source,
-                spec,
-                done,
-                Some(info),
-                Addressing::Physical,
-            ))
+            Ok(finish(h, source, spec, done, Some(info)))
         }
     }
 }
@@ -1139,7 +1285,7 @@ fn device_circuits(
                 reads: f.reads,
                 num_qubits: device.num_qubits,
                 num_clbits: f.num_clbits,
-                output: Output::Text(e.text),
+                program: e.text,
                 costs,
                 final_layout,
             })
@@ -1232,21 +1378,12 @@ fn finish(
     spec: &Spec,
     mut done: Vec<Finished>,
     device: Option<DeviceInfo>,
-    addressing: Addressing,
 ) -> Compiled {
     let programs: Vec<String> = done
-        .par_iter_mut()
-        .map(|f| match &mut f.output {
-            Output::Circuit(c) => write(
-                c,
-                addressing,
-                &header_comments(&f.id, f.part, f.k, f.time, device.as_ref()),
-            ),
-            Output::Text(t) => std::mem::take(t),
-        })
+        .iter_mut()
+        .map(|f| std::mem::take(&mut f.program))
         .collect();
     let mut entries = Vec::with_capacity(done.len());
-    let mut circuits = Vec::with_capacity(done.len());
     for f in done {
         entries.push(CircuitEntry {
             file: format!("{}.qasm", f.id),
@@ -1266,9 +1403,6 @@ fn finish(
             shots: None,
             fanout: f.fanout,
         });
-        if let Output::Circuit(c) = f.output {
-            circuits.push(c);
-        }
     }
     let plan = Plan {
         format: PLAN_FORMAT.to_string(),
@@ -1289,11 +1423,7 @@ fn finish(
         shard: None,
         circuits: entries,
     };
-    Compiled {
-        plan,
-        programs,
-        circuits,
-    }
+    Compiled { plan, programs }
 }
 
 #[cfg(test)]
@@ -1321,6 +1451,84 @@ mod tests {
 
     proptest! {
         #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
+
+        /// The later points of a campaign from one synthesis of the repeated step
+        /// (`periodic_streams`): the same unitary as each point built alone, to 1e-9, and the
+        /// text written from the shared body is byte for byte the writer's text of the whole
+        /// circuit.
+        #[test]
+        fn periodic_points_equal_points_built_alone(
+            raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 1..12),
+            order in prop_oneof![Just(Order::First), Just(Order::Second), Just(Order::Fourth)],
+            steps in 1usize..3,
+            ctl in any::<bool>(),
+        ) {
+            let n = 5;
+            let mut h = PauliSum::new(n);
+            for &(x, z, c) in &raw {
+                let p = PauliString::from_masks(x & 31, z & 31);
+                if !p.is_identity() {
+                    h.add(p, c);
+                }
+            }
+            prop_assume!(!h.terms.is_empty());
+            let formula_terms = order_terms(&h);
+            let formula = Formula::new(&formula_terms);
+            let ks = [2usize, 3, 5];
+            let programs: Vec<Vec<Rotation>> = ks
+                .iter()
+                .map(|&k| formula.evolution_by_step(order, 0.3, k * steps))
+                .collect();
+            let refs: Vec<&[Rotation]> = programs.iter().map(Vec::as_slice).collect();
+            let counts: Vec<usize> = ks.iter().map(|&k| k * steps).collect();
+            // Sums with a string that commutes with every other have no reading (its angle
+            // grows with the steps; `formula::periodic_form`): the campaign grows them instead.
+            let Some(form) = crate::formula::periodic_form(&counts, &refs) else {
+                let terms = &formula_terms;
+                prop_assert!(terms.iter().any(|(p, _)| terms.iter().all(|(q, _)| p.commutes_with(q))));
+                return Ok(());
+            };
+            let control = ctl.then_some(n as crate::circuit::Qubit);
+            let width = n + 1;
+            let prefix = [Gate::H(n as u32), Gate::X(2), Gate::H(1)];
+            for synthesis in [Synthesis::Chain, Synthesis::Groups] {
+                let synthesize = |p: &[Rotation]| {
+                    let mut out = Vec::new();
+                    synthesize_all_to_all(p, control, synthesis, None, &mut out);
+                    out
+                };
+                let streams = periodic_streams(width, &prefix, &form, &synthesize);
+                prop_assert_eq!(streams.len(), programs.len());
+                for (stream, program) in streams.into_iter().zip(&programs) {
+                    let body = Body::stream(stream.clone(), width);
+                    // A measurement alone only appends (the body's text is shared); an `h`
+                    // first may cancel the body's last gate (the whole circuit is written).
+                    let comments = ["a".to_string()];
+                    for readout in [
+                        vec![Gate::Measure(n as u32, 0)],
+                        vec![Gate::H(n as u32), Gate::Measure(n as u32, 0)],
+                    ] {
+                        let mut cache = None;
+                        let text = body
+                            .text_with_readout((width, 1), &readout, &comments, &mut cache)
+                            .unwrap();
+                        let mut whole = Circuit::new(width, 1);
+                        whole.gates = body.with_readout(&readout);
+                        prop_assert_eq!(
+                            &text,
+                            &crate::qasm::write(&whole, Addressing::Logical, &comments)
+                        );
+                        prop_assert!(readout.len() > 1 || cache.is_some());
+                    }
+                    let alone = direct(width, &prefix, program, control, synthesis);
+                    let (mut a, mut b) = (Circuit::new(width, 0), Circuit::new(width, 0));
+                    a.gates = stream.finish();
+                    b.gates = alone;
+                    crate::circuit::verify::verify_ir(&a, &Rules::default()).unwrap();
+                    prop_assert!(crate::sim::unitary_distance(&a, &b) < 1e-9);
+                }
+            }
+        }
 
         // Time points 1–4 of random dense sums on 5 qubits, every order, grown from one pass
         // over the longest program: with ladders the very gates of building each point on its

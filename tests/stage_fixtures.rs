@@ -137,10 +137,11 @@ fn run_qasm(src: &str, file: &Path) -> String {
     };
     let name = file.file_name().unwrap().to_string_lossy().into_owned();
     let compiled = phasewright::pipeline::compile(&h, &name, &spec).unwrap();
-    for c in &compiled.circuits {
+    let circuits = compiled.circuits();
+    for c in &circuits {
         verify_ir(c, &Rules::default()).unwrap_or_else(|e| panic!("{}: {e:?}", file.display()));
     }
-    let checks = check_plan(&compiled.plan, &compiled.circuits).unwrap();
+    let checks = check_plan(&compiled.plan, &circuits).unwrap();
     assert!(
         checks.iter().all(|c| c.compile_error <= COMPILE_TOLERANCE),
         "{}: a circuit differs from its ideal",

@@ -75,9 +75,6 @@ pub fn keep_share(c: &mut Compiled, index: usize, count: usize) {
     }
     take(&mut c.plan.circuits, index, count);
     take(&mut c.programs, index, count);
-    if !c.circuits.is_empty() {
-        take(&mut c.circuits, index, count);
-    }
     c.plan.shard = Some(ShardInfo {
         index,
         count,

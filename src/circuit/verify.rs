@@ -58,16 +58,35 @@ pub fn verify_ir(c: &Circuit, rules: &Rules) -> Result<(), IrError> {
     if !c.global_phase.is_finite() {
         return fail(0, None, "global phase is not finite".into());
     }
-    let mut measured = vec![false; c.num_qubits];
-    let mut written = vec![false; c.num_clbits];
-    for (i, g) in c.gates.iter().enumerate() {
+    verify_gates(c.num_qubits, c.num_clbits, c.gates.iter().copied(), rules)
+}
+
+/// The gate invariants of [`verify_ir`] (all but the global phase's) over gates as they come,
+/// for a circuit on `num_qubits` qubits and `num_clbits` bits that is not held as a list.
+pub fn verify_gates(
+    num_qubits: usize,
+    num_clbits: usize,
+    gates: impl IntoIterator<Item = Gate>,
+    rules: &Rules,
+) -> Result<(), IrError> {
+    let fail = |index: usize, gate: Option<Gate>, message: String| {
+        Err(IrError {
+            index,
+            gate,
+            message,
+        })
+    };
+    let mut measured = vec![false; num_qubits];
+    let mut written = vec![false; num_clbits];
+    for (i, g) in gates.into_iter().enumerate() {
+        let g = &g;
         let qs = g.qubits();
         for &q in &qs {
-            if q as usize >= c.num_qubits {
+            if q as usize >= num_qubits {
                 return fail(
                     i,
                     Some(*g),
-                    format!("qubit {q} out of range (circuit has {})", c.num_qubits),
+                    format!("qubit {q} out of range (circuit has {num_qubits})"),
                 );
             }
             if measured[q as usize] {
@@ -81,11 +100,11 @@ pub fn verify_ir(c: &Circuit, rules: &Rules) -> Result<(), IrError> {
             return fail(i, Some(*g), "angle is not finite".into());
         }
         if let Gate::Measure(q, b) = *g {
-            if b as usize >= c.num_clbits {
+            if b as usize >= num_clbits {
                 return fail(
                     i,
                     Some(*g),
-                    format!("bit {b} out of range (circuit has {})", c.num_clbits),
+                    format!("bit {b} out of range (circuit has {num_clbits})"),
                 );
             }
             if written[b as usize] {

@@ -344,7 +344,14 @@ impl<'a> Formula<'a> {
         if steps == 0 {
             return Vec::new();
         }
-        let dt = t / steps as f64;
+        self.evolution_by_step(order, t / steps as f64, steps)
+    }
+
+    /// The rotation program for `S(dt)^steps`, the step length given itself: the time points of
+    /// one campaign (`k·R` steps of `dt / R`) then share bit-identical angles, where
+    /// `(k·dt) / (k·R)` may differ from `dt / R` in the last place for some `k` (0.3 / 3 is not
+    /// 0.1 in binary floating point), so their programs repeat one step exactly.
+    pub fn evolution_by_step(&self, order: Order, dt: f64, steps: usize) -> Vec<Rotation> {
         let mut b = Builder {
             terms: self.terms,
             canon: &self.canon,
@@ -451,6 +458,105 @@ impl Builder<'_> {
             })
             .collect()
     }
+}
+
+/// The time points of one campaign as one program read three ways: `programs[i]` is `head`,
+/// then `unit` repeated `repeats[i]` times, then `tail` ([`periodic_form`]).
+#[derive(Debug)]
+pub struct Periodic<'p> {
+    pub head: &'p [Rotation],
+    pub unit: &'p [Rotation],
+    pub tail: &'p [Rotation],
+    pub repeats: Vec<usize>,
+}
+
+/// How many places [`periodic_form`] moves the start of the unit back, at most, to find a
+/// place where two neighbouring rotations do not commute. From common practice (a small
+/// bounded search); past it the first place that fits is kept.
+const UNIT_START_TRIES: usize = 64;
+
+/// Finds the repeated step in the programs of several time points of one campaign.
+///
+/// In: `programs[i]`, the program of `steps[i]` steps of one step length ([`Formula::
+/// evolution_by_step`]), `steps` strictly increasing and at least 1. Out: a [`Periodic`]
+/// reading of every program, or `None` when they do not repeat one block (fewer than two
+/// programs, or merging that is not the same at every seam).
+///
+/// The formula merges factors only near the seams of neighbouring steps, so between the first
+/// and the last seam the program of `n` steps is one block of rotations (about a step long)
+/// repeated. With `a` and `b` the two shortest programs, the block starts where `a` and `b`
+/// part (their common prefix), moved back (at most [`UNIT_START_TRIES`] places) to the first
+/// place where the rotations on either side do not commute, so a synthesis that works on
+/// commuting runs sees the same runs as in the whole program; its length is
+/// `(|b| − |a|) / (steps_b − steps_a)`. **Invariant: every program equals its reading
+/// rotation for rotation, angles bit for bit**; it is checked here for every program, so a
+/// reading is never assumed.
+pub fn periodic_form<'p>(steps: &[usize], programs: &[&'p [Rotation]]) -> Option<Periodic<'p>> {
+    let same =
+        |x: &Rotation, y: &Rotation| x.theta.to_bits() == y.theta.to_bits() && x.pauli == y.pauli;
+    if programs.len() < 2 || steps.len() != programs.len() || steps[0] == 0 {
+        return None;
+    }
+    if steps.windows(2).any(|w| w[0] >= w[1]) {
+        return None;
+    }
+    let (a, b) = (programs[0], programs[1]);
+    let more = steps[1] - steps[0];
+    let extra = b.len().checked_sub(a.len())?;
+    if extra == 0 || extra % more != 0 {
+        return None;
+    }
+    let len = extra / more;
+    let common = a.iter().zip(b).take_while(|(x, y)| same(x, y)).count();
+    // Does `b` read as `a[..s]`, a unit of `len` repeated `more` times, then `a[s..]`?
+    let fits = |s: usize| -> bool {
+        s <= common
+            && (0..extra).all(|j| same(&b[s + j], &b[s + j % len]))
+            && a[s..].iter().zip(&b[s + extra..]).all(|(x, y)| same(x, y))
+    };
+    // The places that fit form an interval ending at `common`: if `s` fits, `s − 1` fits
+    // exactly when `b[s−1] = b[s−1+len]` and `a[s−1] = b[s−1+extra]`. So `common` is checked
+    // in full once, and the walk down to a boundary costs two comparisons a place.
+    let top = common.min(a.len());
+    if !fits(top) {
+        return None;
+    }
+    let mut s = top;
+    for _ in 0..UNIT_START_TRIES {
+        if s == 0 || !b[s - 1].pauli.commutes_with(&b[s].pauli) {
+            break;
+        }
+        if same(&b[s - 1], &b[s - 1 + len]) && same(&a[s - 1], &b[s - 1 + extra]) {
+            s -= 1;
+        } else {
+            s = top;
+            break;
+        }
+    }
+    if s > 0 && b[s - 1].pauli.commutes_with(&b[s].pauli) {
+        s = top;
+    }
+    let form = Periodic {
+        head: &a[..s],
+        unit: &b[s..s + len],
+        tail: &a[s..],
+        repeats: steps.iter().map(|&n| n - steps[0]).collect(),
+    };
+    let reads_as = |p: &[Rotation], m: usize| -> bool {
+        p.len() == form.head.len() + m * len + form.tail.len()
+            && form
+                .head
+                .iter()
+                .chain(form.unit.iter().cycle().take(m * len))
+                .chain(form.tail)
+                .zip(p)
+                .all(|(x, y)| same(x, y))
+    };
+    programs
+        .iter()
+        .zip(&form.repeats)
+        .all(|(p, &m)| reads_as(p, m))
+        .then_some(form)
 }
 
 /// One step `S(dt)` of the given order.
@@ -999,6 +1105,79 @@ pub(crate) mod tests {
                 by_mask.into_values().flatten().filter(|u| u.len() > 1).collect();
             proptest::prop_assert_eq!(flip_units(&strings), want);
         }
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+        /// The repeated step of several time points: found for every order on random sums
+        /// (4 qubits, up to 12 strings), the unit as long as one more step adds, and the reading applied to a random state gives the state of the textbook
+        /// expansion (every factor of every step, nothing merged: Suzuki, J. Math. Phys. 32,
+        /// 400 (1991), the product `S(dt)^n` itself) to 1e-12.
+        #[test]
+        fn the_time_points_read_as_one_repeated_step(
+            seed in 0u64..1_000_000,
+            m in 1usize..12,
+            order in proptest::prop_oneof![
+                proptest::strategy::Just(Order::First),
+                proptest::strategy::Just(Order::Second),
+                proptest::strategy::Just(Order::Fourth)
+            ],
+            r in 1usize..3,
+        ) {
+            let h = random_sum(4, m, 3, seed);
+            let terms = h.term_list();
+            let f = Formula::new(&terms);
+            let dt = 0.3;
+            let steps: Vec<usize> = [2usize, 3, 4, 7].iter().map(|k| k * r).collect();
+            let programs: Vec<Vec<Rotation>> =
+                steps.iter().map(|&n| f.evolution_by_step(order, dt, n)).collect();
+            let refs: Vec<&[Rotation]> = programs.iter().map(Vec::as_slice).collect();
+            // A string that commutes with every other merges with itself across whole steps,
+            // so its angle grows with the step count and nothing repeats; otherwise the
+            // merging is the same at every seam and the reading must be found.
+            let central = terms.iter().any(|(p, _)| terms.iter().all(|(q, _)| p.commutes_with(q)));
+            let Some(form) = periodic_form(&steps, &refs) else {
+                proptest::prop_assert!(central, "no reading, yet no string commutes with all");
+                return Ok(());
+            };
+            proptest::prop_assert_eq!(
+                form.unit.len(),
+                (programs[1].len() - programs[0].len()) / r
+            );
+            proptest::prop_assert_eq!(&form.repeats, &vec![0, r, 2 * r, 5 * r]);
+            let psi = State::random(4, &mut <rand_chacha::ChaCha8Rng as rand::SeedableRng>::seed_from_u64(seed));
+            for (&n, &m) in steps.iter().zip(&form.repeats) {
+                let mut a = psi.clone();
+                apply_program(&mut a, form.head);
+                for _ in 0..m {
+                    apply_program(&mut a, form.unit);
+                }
+                apply_program(&mut a, form.tail);
+                let mut b = psi.clone();
+                apply_program(&mut b, &textbook_evolution(&terms, order, dt * n as f64, n));
+                let err = a.amps.iter().zip(&b.amps).map(|(x, y)| (x - y).norm()).fold(0.0, f64::max);
+                proptest::prop_assert!(err < 1e-12, "{} steps: {}", n, err);
+            }
+        }
+    }
+
+    /// Programs that are not one step repeated have no reading: an angle changed in the middle
+    /// of the longer program, or step counts that do not increase.
+    #[test]
+    fn programs_that_do_not_repeat_have_no_reading() {
+        let h = random_sum(4, 8, 3, 5);
+        let terms = h.term_list();
+        let f = Formula::new(&terms);
+        let a = f.evolution_by_step(Order::Second, 0.2, 2);
+        let mut b = f.evolution_by_step(Order::Second, 0.2, 3);
+        let c = f.evolution_by_step(Order::Second, 0.2, 4);
+        assert!(periodic_form(&[2, 3, 4], &[&a, &b, &c]).is_some());
+        assert!(periodic_form(&[3, 2], &[&b, &a]).is_none());
+        assert!(periodic_form(&[2], &[&a]).is_none());
+        let mid = b.len() / 2;
+        b[mid].theta *= 1.5;
+        assert!(periodic_form(&[2, 3, 4], &[&a, &b, &c]).is_none());
     }
 
     /// A window of 4 groups on 3,000 random strings (24 qubits, weight 1–3): the window is

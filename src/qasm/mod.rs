@@ -49,23 +49,44 @@ pub fn write_to(
     addressing: Addressing,
     comments: &[String],
 ) -> std::io::Result<()> {
+    write_header(
+        w,
+        c.num_qubits,
+        c.num_clbits,
+        c.global_phase,
+        addressing,
+        comments,
+    )?;
+    write_gates_to(w, &c.gates, addressing)
+}
+
+/// The lines of [`write_to`] before the first gate: version, include, comments, declarations
+/// and the global phase, for callers that write the gates from pieces ([`write_gate_iter`]).
+pub fn write_header(
+    w: &mut impl std::io::Write,
+    num_qubits: usize,
+    num_clbits: usize,
+    global_phase: f64,
+    addressing: Addressing,
+    comments: &[String],
+) -> std::io::Result<()> {
     w.write_all(b"OPENQASM 3.0;\ninclude \"stdgates.inc\";\n")?;
     for line in comments {
         writeln!(w, "// {line}")?;
     }
     if addressing == Addressing::Logical {
-        writeln!(w, "qubit[{}] q;", c.num_qubits)?;
+        writeln!(w, "qubit[{num_qubits}] q;")?;
     }
-    if c.num_clbits > 0 {
-        writeln!(w, "bit[{}] c;", c.num_clbits)?;
+    if num_clbits > 0 {
+        writeln!(w, "bit[{num_clbits}] c;")?;
     }
-    if c.global_phase != 0.0 {
+    if global_phase != 0.0 {
         let mut line = b"gphase(".to_vec();
-        push_angle(&mut line, c.global_phase, &mut zmij::Buffer::new());
+        push_angle(&mut line, global_phase, &mut zmij::Buffer::new());
         line.extend_from_slice(b");\n");
         w.write_all(&line)?;
     }
-    write_gates_to(w, &c.gates, addressing)
+    Ok(())
 }
 
 /// The gate lines of [`write_to`] alone (one statement per gate, measurements included), for
@@ -76,6 +97,16 @@ pub fn write_to(
 pub fn write_gates_to(
     w: &mut impl std::io::Write,
     gates: &[Gate],
+    addressing: Addressing,
+) -> std::io::Result<()> {
+    write_gate_iter(w, gates.iter().copied(), addressing)
+}
+
+/// [`write_gates_to`] over gates as they come (a peephole stream's survivors, say), without
+/// collecting them first.
+pub fn write_gate_iter(
+    w: &mut impl std::io::Write,
+    gates: impl IntoIterator<Item = Gate>,
     addressing: Addressing,
 ) -> std::io::Result<()> {
     const BLOCK: usize = 1 << 16;
@@ -93,7 +124,7 @@ pub fn write_gates_to(
         }
     };
     for g in gates {
-        if let Gate::Measure(qb, bit) = *g {
+        if let Gate::Measure(qb, bit) = g {
             buf.extend_from_slice(b"c[");
             buf.extend_from_slice(itoa::Buffer::new().format(bit).as_bytes());
             buf.extend_from_slice(b"] = measure ");

@@ -824,7 +824,7 @@ mod tests {
             };
             let c = crate::pipeline::compile(&small_h(), "small", &spec).unwrap();
             let claim = Claim::from_plan(&c.plan).unwrap();
-            for (e, circ) in c.plan.circuits.iter().zip(&c.circuits) {
+            for (e, circ) in c.plan.circuits.iter().zip(&c.circuits()) {
                 let (logical, reads) = claim.logical_circuit(e).unwrap();
                 assert_eq!(&logical, circ, "{}", e.id);
                 assert_eq!(reads, e.reads, "{}", e.id);
@@ -850,7 +850,7 @@ mod tests {
         let c = crate::pipeline::compile(&small_h(), "small", &spec).unwrap();
         let claim = Claim::from_plan(&c.plan).unwrap();
         let e = &c.plan.circuits[0];
-        let mut bad = c.circuits[0].clone();
+        let mut bad = c.circuit(0);
         let at = bad
             .gates
             .iter()
