@@ -995,7 +995,9 @@ pub fn compile_at(
             // peephole pass per point, and which one wins is decided by the step, not by k.
             let mut done: Vec<Option<Vec<Finished>>> = (0..shared.len()).map(|_| None).collect();
             let mut only: Option<Vec<(ProgramOrder, Synthesis)>> = None;
+            let mut first_k = None;
             if let Some(s) = shared.iter().position(|g| g[0].k > 0) {
+                first_k = Some(shared[s][0].k);
                 let built = build(std::mem::take(&mut shared[s]), None)?;
                 if built.most_two_qubit > SCORE_ONCE_MIN {
                     only = Some(built.kept);
@@ -1055,9 +1057,23 @@ pub fn compile_at(
                             };
                             // The points repeat one step: its synthesis is shared
                             // (`periodic_streams`); else they are grown from the longest.
-                            let steps: Vec<usize> =
+                            // The first point's program joins the reading when it is shorter,
+                            // so head and tail are one step long, not two.
+                            let mut steps: Vec<usize> =
                                 members.iter().map(|&j| ks[j] * spec.steps_per_dt).collect();
-                            let streams = match crate::formula::periodic_form(&steps, &progs) {
+                            let mut read: Vec<&[Rotation]> = progs.clone();
+                            let first = first_k.filter(|&k| k * spec.steps_per_dt < steps[0]);
+                            if let Some(k) = first {
+                                steps.insert(0, k * spec.steps_per_dt);
+                                read.insert(0, program_of(order, k));
+                            }
+                            let form = crate::formula::periodic_form(&steps, &read).map(|mut f| {
+                                if first.is_some() {
+                                    f.repeats.remove(0);
+                                }
+                                f
+                            });
+                            let streams = match form {
                                 Some(form) => {
                                     periodic_streams(num_qubits, &prefix, &form, &synthesize)
                                 }

@@ -78,8 +78,8 @@ proptest! {
 }
 
 /// Past `SCORE_ONCE_MIN` two-qubit gates at the first time point, the later points try only
-/// the candidates that point kept, plus the chain, and are grown from one pass over the
-/// longest program (`pipeline::grown_streams`, two points here): the circuits stay exact
+/// the candidates that point kept, plus the chain, and share one synthesis of the repeated
+/// Trotter step (`pipeline::periodic_streams`, two points here): the circuits stay exact
 /// (simulated against the ideal product formula) and no point emits more two-qubit gates than
 /// level 2, which writes every point with chains.
 #[test]
@@ -113,6 +113,17 @@ fn points_past_the_scoring_size_stay_exact_and_no_worse_than_chains() {
         OptLevel::new(2).unwrap(),
     )
     .unwrap();
+    // The points repeat one step (no string of this sum commutes with all the others), so
+    // the shared synthesis is the path taken.
+    let terms = phasewright::formula::order_terms(&h);
+    let formula = phasewright::formula::Formula::new(&terms);
+    let step = spec.dt / spec.steps_per_dt as f64;
+    let programs: Vec<_> = (1..spec.points)
+        .map(|k| formula.evolution_by_step(spec.order, step, k * spec.steps_per_dt))
+        .collect();
+    let refs: Vec<_> = programs.iter().map(Vec::as_slice).collect();
+    let steps: Vec<usize> = (1..spec.points).map(|k| k * spec.steps_per_dt).collect();
+    assert!(phasewright::formula::periodic_form(&steps, &refs).is_some());
     let first = best.plan.circuits.iter().find(|c| c.k == 1).unwrap();
     assert!(
         first.costs.two_qubit > SCORE_ONCE_MIN,
