@@ -407,7 +407,16 @@ fn stages(h: &PauliSum, points: usize) -> Vec<(&'static str, f64)> {
                     synthesize_all_to_all(p, control, synthesis, Some(&networks), &mut out);
                     out
                 };
-                let streams = match periodic_form(&later, &progs) {
+                // The first point's program joins the reading, as in the pipeline.
+                let steps: Vec<usize> = std::iter::once(1).chain(later.iter().copied()).collect();
+                let read: Vec<&[Rotation]> = std::iter::once(program_of(agree, 1))
+                    .chain(progs.iter().copied())
+                    .collect();
+                let form = periodic_form(&steps, &read).map(|mut f| {
+                    f.repeats.remove(0);
+                    f
+                });
+                let streams = match form {
                     Some(form) => periodic_streams(f0.num_qubits, &f0.prefix, &form, &synthesize),
                     None => grown_streams(f0.num_qubits, &f0.prefix, &progs, &synthesize),
                 };

@@ -16,12 +16,18 @@
 //!    two-qubit gates at the first time point with a step, the other points build only the
 //!    candidates that point kept, and the chain (so a level still never emits more than the
 //!    level below; at utility scale each candidate costs a whole synthesis per point), and
-//!    those points are grown from one pass over the longest program per candidate
-//!    ([`grown_streams`]: a shorter program is the longest cut where two rotations do not
-//!    commute, then a tail of its own), so `k` points cost about one synthesis, not `k`;
+//!    those points share one synthesis of the repeated Trotter step per candidate
+//!    ([`periodic_streams`]: every program read as head, unit repeated, tail by
+//!    `formula::periodic_form`, checked rotation for rotation), or, when the programs do not
+//!    repeat one step (a string that commutes with every other), are grown from one pass over
+//!    the longest ([`grown_streams`]: a shorter program is the longest cut where two
+//!    rotations do not commute, then a tail of its own), so `k` points cost about two
+//!    syntheses of a step, not `k` syntheses of a point;
 //! 3. `readout`: ancilla basis, measurement basis, measurements;
 //! 4. `cancel` (level ≥ 1): `circuit::cancel::cancel_inverses`;
-//! 5. `qasm::write` with logical `q[k]`.
+//! 5. `qasm::write` with logical `q[k]`: a body's text is written once and copied into every
+//!    circuit that keeps it when its readout only appends (`Body::text_with_readout`); no
+//!    circuit is kept as IR beside its text ([`Compiled::circuit`] reads one back).
 //!
 //! **Device**, once per campaign then per circuit:
 //! 1. `plan and route the step` (`route::plan_and_route_step`): layout candidates (greedy,
