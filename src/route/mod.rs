@@ -1025,7 +1025,10 @@ fn plan_on_step(
     if cfg.pairs && !cfg.textbook && controls {
         // Roaming steps need SWAPs (for the ancilla): only while routings are cheap.
         for roam in [false, true].into_iter().filter(|&r| !r || small) {
-            for carry in [false, true] {
+            // The carried frame only where candidates are scored by lowering: past
+            // `EXTRAS_MAX_UNIT` the peephole count preferred it on `lih` brick wall where
+            // the lowered step emitted more (17550 against 17024).
+            for carry in [false, true].into_iter().filter(|&c| !c || small) {
                 forms.push(StepForm {
                     groups: true,
                     coupled: true,

@@ -110,6 +110,27 @@
 //! the non-roaming step therefore needs no SWAP and ends where it started; the pipeline keeps
 //! each form as one candidate among the others, scored by what is emitted.
 //!
+//! **Carrying the frame on the graph** ([`Coupled::carry`]). Undoing each network by its
+//! mirror right after its run pays it twice per run, and a symmetric step meets every run
+//! twice. Writing `F` for the Clifford of the network gates not yet undone, a string `P` is
+//! rotated as `F P F†` ([`image`], from `F`'s images of `X_q`, `Z_q`). The carried form keeps
+//! the network as a stack of *levels*, one per stretch of a run's network up to a rotation,
+//! each with the frame below it. Before each run it rotates at once every string
+//! single-qubit on a target in the current frame; otherwise it pops (each level undone by
+//! its mirror, so every CNOT stays on a coupled pair) back to the shallowest level at whose
+//! top a string with the same letters was rotated (in the mirror half of a Strang step that
+//! string is free there), or, with none, to the depth (top, up to [`DEPTH_WINDOW`] levels
+//! down, or empty) whose images have the lowest estimate (`w − 1` per string, 2 per hop off
+//! a target, plus the CNOTs of popped levels whose strings are still to come), synthesising
+//! the [`DEPTH_EXACT`] best by [`coupled_network`] and keeping the cheapest. At the block's
+//! end every level is popped. Exact by construction: each factor is applied once, in its
+//! run, in the frame the gates so far set. This is the "undo only what the next run needs"
+//! form of frame carrying, our own; the idea of reducing a Trotter step's second half by
+//! retracing the first is the mirror symmetry of Strang splitting (see `route::reuse`).
+//! Cost: per run, at most `DEPTH_WINDOW + 2` images per string and `DEPTH_EXACT` networks,
+//! plus a scan of the stack. The pipeline tries it as one more level-3 step form, only
+//! below `route::EXTRAS_MAX_UNIT` (where candidates are scored by the lowered step).
+//!
 //! **Carrying the frame.** Undoing each run's network by its mirror pays for it twice. On
 //! blocks of at most [`CARRY_WIDTH_MAX`] qubits a second form keeps the frame: run `i + 1`'s
 //! strings are taken as the Clifford `F` of all runs before it left them (`F P F†`, tracked
