@@ -113,7 +113,7 @@
 //! **Carrying the frame on the graph** ([`Coupled::carry`]). Undoing each network by its
 //! mirror right after its run pays it twice per run, and a symmetric step meets every run
 //! twice. Writing `F` for the Clifford of the network gates not yet undone, a string `P` is
-//! rotated as `F P F†` ([`image`], from `F`'s images of `X_q`, `Z_q`). The carried form keeps
+//! rotated as `F P F†` (`image`, from `F`'s images of `X_q`, `Z_q`). The carried form keeps
 //! the network as a stack of *levels*, one per stretch of a run's network up to a rotation,
 //! each with the frame below it. Before each run it rotates at once every string
 //! single-qubit on a target in the current frame; otherwise it pops (each level undone by
@@ -122,7 +122,7 @@
 //! string is free there), or, with none, to the depth (top, up to [`DEPTH_WINDOW`] levels
 //! down, or empty) whose images have the lowest estimate (`w − 1` per string, 2 per hop off
 //! a target, plus the CNOTs of popped levels whose strings are still to come), synthesising
-//! the [`DEPTH_EXACT`] best by [`coupled_network`] and keeping the cheapest. At the block's
+//! the [`DEPTH_EXACT`] best by `coupled_network` and keeping the cheapest. At the block's
 //! end every level is popped. Exact by construction: each factor is applied once, in its
 //! run, in the frame the gates so far set. This is the "undo only what the next run needs"
 //! form of frame carrying, our own; the idea of reducing a Trotter step's second half by
