@@ -385,6 +385,9 @@ pub struct StepForm {
     /// With `coupled`: each string rotated where its network leaves it, the router moving the
     /// ancilla to it (`synth::Coupled::roam`).
     pub roam: bool,
+    /// With `coupled`: the Clifford frame carried from run to run as a stack of networks,
+    /// each undone by its mirror where a later run needs it gone (`synth::Coupled::carry`).
+    pub carry: bool,
 }
 
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
@@ -773,6 +776,7 @@ fn plan_on_step(
         groups: false,
         coupled: false,
         roam: false,
+        carry: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -975,6 +979,7 @@ fn plan_on_step(
             groups: false,
             coupled: false,
             roam: false,
+            carry: false,
         };
         let (plan, parts, fwd, marks) = evaluate(
             &first_layout,
@@ -1020,12 +1025,18 @@ fn plan_on_step(
     if cfg.pairs && !cfg.textbook && controls {
         // Roaming steps need SWAPs (for the ancilla): only while routings are cheap.
         for roam in [false, true].into_iter().filter(|&r| !r || small) {
-            forms.push(StepForm {
-                groups: true,
-                coupled: true,
-                roam,
-                ..form
-            });
+            // The carried frame only where candidates are scored by lowering: past
+            // `EXTRAS_MAX_UNIT` the peephole count preferred it on `lih` brick wall where
+            // the lowered step emitted more (17550 against 17024).
+            for carry in [false, true].into_iter().filter(|&c| !c || small) {
+                forms.push(StepForm {
+                    groups: true,
+                    coupled: true,
+                    roam,
+                    carry,
+                    ..form
+                });
+            }
         }
     }
     for paired in forms {

@@ -255,6 +255,7 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -
                 width: plan.initial_layout.len(),
                 ladder: &ladder,
                 roam: plan.step_form.roam,
+                carry: plan.step_form.carry,
             }
             .synthesize(&block, &mut c.gates);
         } else if plan.step_form.groups {
