@@ -471,7 +471,7 @@ const UNIT_START_TRIES: usize = 64;
 /// The formula merges factors only near the seams of neighbouring steps, so between the first
 /// and the last seam the program of `n` steps is one block of rotations (about a step long)
 /// repeated. With `a` and `b` the two shortest programs, the block starts where `a` and `b`
-/// part (their common prefix), moved back (at most [`UNIT_START_TRIES`] places) to the first
+/// part (their common prefix), moved back (at most `UNIT_START_TRIES` places) to the first
 /// place where the rotations on either side do not commute, so a synthesis that works on
 /// commuting runs sees the same runs as in the whole program; its length is
 /// `(|b| − |a|) / (steps_b − steps_a)`. **Invariant: every program equals its reading

@@ -19,10 +19,10 @@ use crate::diag::{Code, Diagnostic, LineIndex};
 use crate::lang::suggest::{closest, DEV_STATEMENTS};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
-use nom::character::complete::{alpha1, alphanumeric1, char, digit1, space0, space1};
+use nom::character::complete::{alpha1, char, digit1, satisfy, space0, space1};
 use nom::combinator::{cut, eof, map, not, opt, peek, recognize};
 use nom::error::{context, ContextError, ErrorKind, ParseError};
-use nom::multi::{many0_count, many1};
+use nom::multi::many1;
 use nom::number::complete::recognize_float;
 use nom::sequence::{pair, preceded, terminated, tuple};
 use nom::IResult;
@@ -85,14 +85,14 @@ enum Stmt<'a> {
 // ---- productions, bottom-up -------------------------------------------------------------
 
 fn ident(i: &str) -> Res<'_, &str> {
-    recognize(pair(
-        alt((alpha1, tag("_"))),
-        many0_count(alt((alphanumeric1, tag("_")))),
-    ))(i)
+    crate::lang::ident::ident(i)
 }
 
 fn keyword<'a>(word: &'static str) -> impl FnMut(&'a str) -> Res<'a, &'a str> {
-    terminated(tag(word), not(peek(alt((alphanumeric1, tag("_"))))))
+    terminated(
+        tag(word),
+        not(peek(satisfy(crate::lang::ident::is_ident_char))),
+    )
 }
 
 fn arg<'a, O>(

@@ -5,5 +5,6 @@
 
 pub mod dev;
 pub mod ham;
+pub mod ident;
 pub mod json_span;
 pub mod suggest;

@@ -7,9 +7,9 @@
 use crate::circuit::{Circuit, Gate};
 use crate::diag::{Code, Diagnostic};
 use nom::branch::alt;
-use nom::bytes::complete::{tag, take_while1};
+use nom::bytes::complete::tag;
 use nom::character::complete::{char, digit1, multispace0};
-use nom::combinator::{map, map_res, opt, recognize};
+use nom::combinator::{map, map_res, opt};
 use nom::multi::separated_list1;
 use nom::number::complete::double;
 use nom::sequence::{delimited, pair, preceded, tuple};
@@ -43,10 +43,7 @@ fn uint(i: &str) -> IResult<&str, u32> {
 }
 
 fn ident(i: &str) -> IResult<&str, &str> {
-    recognize(pair(
-        take_while1(|c: char| c.is_ascii_alphabetic() || c == '_'),
-        opt(take_while1(|c: char| c.is_ascii_alphanumeric() || c == '_')),
-    ))(i)
+    crate::lang::ident::ident(i)
 }
 
 fn operand(i: &str) -> IResult<&str, Operand> {

@@ -390,6 +390,13 @@ pub struct StepForm {
     pub carry: bool,
 }
 
+/// The most system qubits on which the carried-frame candidate (`StepForm::carry`) is tried.
+/// Its frame images and depth estimates grow with the width: on 100 random qubits (300 terms,
+/// weight ≤ 4) on a 127-qubit heavy-hexagon device it took a three-point campaign from 60 s to
+/// 399 s of CPU and changed no count, while every case where it wins (the dense and chemistry
+/// sums of `benches/fewer_gates.rs`) has at most 12.
+pub const CARRY_MAX_QUBITS: usize = 32;
+
 /// Ancilla SWAP factors tried by [`plan_target`]: neutral, and a mild preference for moving the
 /// ancilla (on `benches/routing.rs`, 0.9 lowers the SWAP count in most cases and 1.0 in a few,
 /// so both are scored on the skeleton).
@@ -1027,8 +1034,10 @@ fn plan_on_step(
         for roam in [false, true].into_iter().filter(|&r| !r || small) {
             // The carried frame only where candidates are scored by lowering: past
             // `EXTRAS_MAX_UNIT` the peephole count preferred it on `lih` brick wall where
-            // the lowered step emitted more (17550 against 17024).
-            for carry in [false, true].into_iter().filter(|&c| !c || small) {
+            // the lowered step emitted more (17550 against 17024); and only on systems of at
+            // most `CARRY_MAX_QUBITS`, where its cost stays a fraction of the search's.
+            let carried = small && n_sys <= CARRY_MAX_QUBITS;
+            for carry in [false, true].into_iter().filter(|&c| !c || carried) {
                 forms.push(StepForm {
                     groups: true,
                     coupled: true,

@@ -8,6 +8,7 @@
 use super::syntax::*;
 use super::Encoding;
 use crate::diag::{Code, Diagnostic};
+pub(super) use crate::lang::ident::{ident_len, is_ident_char};
 use crate::pauli::Pauli;
 use nom::character::complete::{char, digit1};
 use nom::combinator::cut;
@@ -128,29 +129,8 @@ pub(super) fn sp(i: &str) -> &str {
     i.trim_start_matches([' ', '\t', '\r'])
 }
 
-pub(super) fn is_ident_start(c: char) -> bool {
-    c.is_ascii_alphabetic() || c == '_'
-}
-
-pub(super) fn is_ident_char(c: char) -> bool {
-    c.is_ascii_alphanumeric() || c == '_'
-}
-
-/// Length in bytes of the identifier at the start of `i` (0 if none).
-pub(super) fn ident_len(i: &str) -> usize {
-    match i.chars().next() {
-        Some(c) if is_ident_start(c) => i.find(|c: char| !is_ident_char(c)).unwrap_or(i.len()),
-        _ => 0,
-    }
-}
-
 pub(super) fn ident(i: &str) -> PResult<'_, &str> {
-    let n = ident_len(i);
-    if n == 0 {
-        backtrack(i)
-    } else {
-        Ok((&i[n..], &i[..n]))
-    }
+    crate::lang::ident::ident(i)
 }
 
 pub(super) const KEYWORDS: [&str; 5] = ["qubits", "let", "sum", "in", "encoding"];
