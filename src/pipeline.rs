@@ -1471,6 +1471,19 @@ mod tests {
         c.gates
     }
 
+    /// A random dense sum on 5 qubits from `(x mask, z mask, coefficient)` draws (identity
+    /// strings dropped).
+    fn sum_on_five(raw: &[(u64, u64, f64)]) -> PauliSum {
+        let mut h = PauliSum::new(5);
+        for &(x, z, c) in raw {
+            let p = PauliString::from_masks(x & 31, z & 31);
+            if !p.is_identity() {
+                h.add(p, c);
+            }
+        }
+        h
+    }
+
     proptest! {
         #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
 
@@ -1486,13 +1499,7 @@ mod tests {
             ctl in any::<bool>(),
         ) {
             let n = 5;
-            let mut h = PauliSum::new(n);
-            for &(x, z, c) in &raw {
-                let p = PauliString::from_masks(x & 31, z & 31);
-                if !p.is_identity() {
-                    h.add(p, c);
-                }
-            }
+            let h = sum_on_five(&raw);
             prop_assume!(!h.terms.is_empty());
             let formula_terms = order_terms(&h);
             let formula = Formula::new(&formula_terms);
@@ -1565,13 +1572,7 @@ mod tests {
             ctl in any::<bool>(),
         ) {
             let n = 5;
-            let mut h = PauliSum::new(n);
-            for &(x, z, c) in &raw {
-                let p = PauliString::from_masks(x & 31, z & 31);
-                if !p.is_identity() {
-                    h.add(p, c);
-                }
-            }
+            let h = sum_on_five(&raw);
             prop_assume!(!h.terms.is_empty());
             let formula_terms = order_terms(&h);
             let formula = Formula::new(&formula_terms);

@@ -1174,15 +1174,12 @@ pub(crate) mod tests {
                 by_mask.into_values().flatten().filter(|u| u.len() > 1).collect();
             proptest::prop_assert_eq!(flip_units(&strings), want);
         }
-    }
-
-    proptest::proptest! {
-        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
 
         /// The repeated step of several time points: found for every order on random sums
-        /// (4 qubits, up to 12 strings), the unit as long as one more step adds, and the reading applied to a random state gives the state of the textbook
-        /// expansion (every factor of every step, nothing merged: Suzuki, J. Math. Phys. 32,
-        /// 400 (1991), the product `S(dt)^n` itself) to 1e-12.
+        /// (4 qubits, up to 12 strings), the unit as long as one more step adds, and the
+        /// reading applied to a random state gives the state of the textbook expansion
+        /// (every factor of every step, nothing merged: Suzuki, J. Math. Phys. 32, 400 (1991),
+        /// the product `S(dt)^n` itself) to 1e-12.
         #[test]
         fn the_time_points_read_as_one_repeated_step(
             seed in 0u64..1_000_000,
