@@ -15,7 +15,7 @@
 //! For each case, in a child process of its own (so that the peak resident memory read from
 //! `VmHWM` in `/proc/self/status` belongs to that case alone):
 //! - `compile`: parse the `.ham` and `.dev` texts, `pipeline::compile_for` on the device, and
-//!   write the campaign (`app::compile::write_campaign`: programs and plan.json, each to a
+//!   write the campaign (`files::write_campaign`: programs and plan.json, each to a
 //!   temporary name then renamed) into a fresh folder;
 //! - `write`: `std::fs::write` of the same bytes, file by file, into another fresh folder;
 //! - `ratio` = compile ÷ write (the utility-scale issue's target on a device: ≤ 30);
@@ -141,7 +141,7 @@ fn run_case(i: usize) {
     let mut compiled = compile_for(&h, "bench.ham", &spec, &target).expect("compiles");
     let t_plan = t0.elapsed().as_secs_f64();
     let out = scratch.path().join("campaign");
-    phasewright::app::compile::write_campaign(&out, &mut compiled).expect("writes");
+    phasewright::files::write_campaign(&out, &mut compiled).expect("writes");
     let t_compile = t0.elapsed().as_secs_f64();
     // The same bytes, plainly written.
     let plain = scratch.path().join("plain");

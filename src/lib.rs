@@ -21,6 +21,10 @@
 //! 7. [`estimate`] turns counts into overlaps, Krylov energies and densities of states, and
 //!    [`report`] prints tables, JSON and SVG plots.
 //!
+//! Around the pipeline, [`cli`] is the command line as a library (the way in of the binary and
+//! of the Python module), and [`files`] reads plans and Hamiltonians and writes campaigns as
+//! the commands do.
+//!
 //! # Example
 //!
 //! A transverse-field Ising pair, compiled into an overlap campaign on the all-to-all target
@@ -47,20 +51,25 @@
 //! assert!(checks.iter().all(|c| c.compile_error <= 1e-9));
 //! ```
 //!
-//! **Invariant:** only the command layer ([`app`]) and `main.rs` read or write files and the
-//! standard streams, and only `main.rs` ends the process; every other module is a set
-//! of functions from values to values (one exception: [`sim::available_memory_bytes`] reads
-//! `/proc/meminfo`, so `sim` and `pipeline` can refuse a job larger than the machine).
+//! **Invariant:** only the command layer and `main.rs` read or write files and the standard
+//! streams, and only `main.rs` ends the process. The command layer is a private module; the
+//! rest of the world reaches it through two small public ones: [`cli`] (parse a command line,
+//! run it, or call a command as a function) and [`files`] (the readers and the campaign writer,
+//! for programs and tests). Every other module is a set of functions from values to values
+//! (one exception: [`sim::available_memory_bytes`] reads `/proc/meminfo`, so `sim` and
+//! `pipeline` can refuse a job larger than the machine).
 
-pub mod app;
+mod app;
 pub mod check;
 pub mod circuit;
+pub mod cli;
 pub mod device;
 pub mod diag;
 pub mod error;
 pub mod estimate;
 pub mod family;
 pub mod fermion;
+pub mod files;
 pub mod formula;
 pub mod hamiltonian;
 pub mod ladder;

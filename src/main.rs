@@ -8,12 +8,12 @@ use std::io::Write;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
-    let cli = match phasewright::app::Cli::try_parse() {
+    let cli = match phasewright::cli::Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
             // Help and version go to stdout, usage errors to stderr with their catalogue code;
             // a closed stream is ignored.
-            match phasewright::app::usage_code(e.kind()) {
+            match phasewright::cli::usage_code(e.kind()) {
                 None => {
                     let _ = e.print();
                 }
@@ -29,7 +29,7 @@ fn main() -> ExitCode {
             return ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2));
         }
     };
-    match phasewright::app::run(cli) {
+    match phasewright::cli::run(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             let _ = write!(std::io::stderr(), "{e}");

@@ -439,7 +439,7 @@ fn the_cost_table_reports_the_copies() {
     let out = compile(&forced());
     let made = out.plan.device.as_ref().unwrap().copy_placement.len();
     assert!(made >= 1, "forced: at least one copy");
-    let table = phasewright::app::compile::cost_table(&out.plan);
+    let table = phasewright::report::costs::cost_table(&out.plan);
     let mut lines = table.lines();
     let head: Vec<&str> = lines.next().unwrap().split_whitespace().collect();
     assert_eq!(head.last(), Some(&"copies"), "{table}");
@@ -477,7 +477,7 @@ fn the_cost_table_reports_the_copies() {
         cat: false,
         ..RouteConfig::default()
     });
-    let table = phasewright::app::compile::cost_table(&plain.plan);
+    let table = phasewright::report::costs::cost_table(&plain.plan);
     assert!(!table.lines().next().unwrap().contains("copies"), "{table}");
     assert!(plain
         .plan

@@ -153,7 +153,7 @@ fn stitched_files_for_100_qubits_on_127_are_native_and_coupled() {
     let mut compiled = compile_for(&h, "h100.ham", &spec, &target).unwrap();
     let tmp = tempfile::tempdir().unwrap();
     let out = tmp.path().join("out");
-    phasewright::app::compile::write_campaign(&out, &mut compiled).unwrap();
+    phasewright::files::write_campaign(&out, &mut compiled).unwrap();
     check_written(&out, &dev);
 }
 

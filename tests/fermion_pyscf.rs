@@ -7,10 +7,10 @@
 //! When PySCF is not importable the test prints a notice and passes, except under CI
 //! (`CI=true`), where it fails: CI installs `tests/requirements.txt`.
 
-use phasewright::app::convert::{load_qubit_hamiltonian, load_qubit_hamiltonian_with, LoadOptions};
 use phasewright::fermion::fcidump::ActiveSpace;
 use phasewright::fermion::sector::{basis_energy, lowest_in_sector, sector_basis};
 use phasewright::fermion::Encoding;
+use phasewright::files::{load_qubit_hamiltonian, load_qubit_hamiltonian_with, LoadOptions};
 use std::process::Command;
 
 fn reference(dir: &std::path::Path) -> Option<serde_json::Value> {

@@ -22,10 +22,11 @@
 //! `tests/data/fuzz/` with a named regression test at the end of this file.
 
 use assert_cmd::Command;
-use phasewright::app::io::{read_plan, sha256_hex};
 use phasewright::diag::Diagnostic;
 use phasewright::error::Error;
+use phasewright::family::plan::sha256_hex;
 use phasewright::family::plan::Plan;
+use phasewright::files::read_plan;
 use proptest::prelude::*;
 use proptest::sample::select;
 use proptest::test_runner::{Config, RngSeed, TestCaseError, TestRunner};

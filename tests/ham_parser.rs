@@ -557,7 +557,7 @@ fn not_a_text_file() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("bin.ham");
     std::fs::write(&path, [b'q', b'u', 0xff, 0xfe, b'\n']).unwrap();
-    let err = phasewright::app::io::read_hamiltonian(&path).unwrap_err();
+    let err = phasewright::files::read_hamiltonian(&path).unwrap_err();
     assert_eq!(err.exit_code(), 2);
     match err {
         phasewright::error::Error::Input(d) => {

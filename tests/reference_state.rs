@@ -30,7 +30,7 @@ fn compile_json(ham: &str, state: &str, extra: &[&str]) -> (serde_json::Value, S
 }
 
 fn load(p: &str) -> phasewright::pauli::PauliSum {
-    phasewright::app::convert::load_qubit_hamiltonian(std::path::Path::new(p), None)
+    phasewright::files::load_qubit_hamiltonian(std::path::Path::new(p), None)
         .unwrap()
         .0
 }

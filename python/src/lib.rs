@@ -11,7 +11,7 @@
 //! becomes a `PhasewrightError` with code X101. Nothing is printed on stdout.
 
 use clap::Parser;
-use phasewright::app::{self, Cli, Command, Global};
+use phasewright::cli::{self, Cli, Command, Global};
 use phasewright::diag::Code;
 use phasewright::error::Error;
 use pyo3::prelude::*;
@@ -87,7 +87,7 @@ fn parse(command: &str, args: Vec<String>) -> Result<Command, Failure> {
         .into_iter()
         .chain(args);
     let cli = Cli::try_parse_from(argv).map_err(|e| {
-        let code = app::usage_code(e.kind()).unwrap_or(Code::UsageOption);
+        let code = cli::usage_code(e.kind()).unwrap_or(Code::UsageOption);
         let text = e.render().to_string();
         let body = text.strip_prefix("error: ").unwrap_or(&text).trim_end();
         Failure {
@@ -125,7 +125,7 @@ fn compile(py: Python<'_>, args: Vec<String>) -> PyResult<(String, Vec<String>)>
             return Err(wrong_command());
         };
         let warnings = std::sync::Mutex::new(Vec::new());
-        let outcome = app::compile::compile_campaign(&a, &|w| {
+        let outcome = cli::compile_campaign(&a, &|w| {
             if let Ok(mut v) = warnings.lock() {
                 v.push(w.to_string());
             }
@@ -146,7 +146,7 @@ fn verify(py: Python<'_>, args: Vec<String>) -> PyResult<String> {
         let Command::Verify(a) = parse("verify", args)? else {
             return Err(wrong_command());
         };
-        let report = app::verify::check(&a, &QUIET).map_err(|e| Failure::from_error(&e))?;
+        let report = cli::verify_campaign(&a, &QUIET).map_err(|e| Failure::from_error(&e))?;
         let text = to_text(&report.json)?;
         match &report.failure {
             None => Ok(text),
@@ -176,7 +176,7 @@ fn rehearse(py: Python<'_>, args: Vec<String>) -> PyResult<String> {
                 "out=\"-\" would write the counts on the process's stdout; name a file".into(),
             ));
         }
-        match app::rehearse::rehearse(&a, &QUIET).map_err(|e| Failure::from_error(&e))? {
+        match cli::rehearse_campaign(&a, &QUIET).map_err(|e| Failure::from_error(&e))? {
             Some(summary) => to_text(&summary),
             None => Err(wrong_command()),
         }
@@ -204,7 +204,7 @@ fn estimate(py: Python<'_>, args: Vec<String>, counts_text: Option<String>) -> P
                 "counts=\"-\" would read the process's stdin; pass a file or a dict".into(),
             ));
         }
-        let outcome = app::estimate::estimate_campaign(&a, counts_text.as_deref())
+        let outcome = cli::estimate_campaign(&a, counts_text.as_deref())
             .map_err(|e| Failure::from_error(&e))?;
         to_text(&outcome.json)
     })
@@ -214,7 +214,7 @@ fn estimate(py: Python<'_>, args: Vec<String>, counts_text: Option<String>) -> P
 #[pyfunction]
 fn load_plan(py: Python<'_>, dir: std::path::PathBuf) -> PyResult<String> {
     guarded(py, move || {
-        let plan = app::io::read_plan(&dir).map_err(|e| Failure::from_error(&e))?;
+        let plan = phasewright::files::read_plan(&dir).map_err(|e| Failure::from_error(&e))?;
         Ok(plan.to_json())
     })
 }

@@ -13,7 +13,7 @@ use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
 use crate::pipeline::{compile_at, Compiled, OptLevel, Target};
-use crate::report::table::Table;
+use crate::report::costs::{cost_json, cost_table};
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
 
@@ -680,15 +680,15 @@ pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
 }
 
 /// Writes the campaign as the whole content of `dir`: every program, then plan.json recording
-/// each program's SHA-256, through a temporary sibling folder that replaces `dir` at once
-/// ([`super::io::replace_folder`]), so no file of an older campaign survives and a reader never
-/// sees a plan whose files are missing or partial.
+/// each program's SHA-256, through a temporary sibling folder that replaces `dir` at once (the
+/// command layer's `io::replace_folder`), so no file of an older campaign survives and a
+/// reader never sees a plan whose files are missing or partial.
 pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
     use rayon::prelude::*;
     let digests: Vec<String> = c
         .programs
         .par_iter()
-        .map(|text| super::io::sha256_hex(text.as_bytes()))
+        .map(|text| crate::family::plan::sha256_hex(text.as_bytes()))
         .collect();
     for (e, digest) in c.plan.circuits.iter_mut().zip(digests) {
         e.sha256 = Some(digest);
@@ -703,95 +703,4 @@ pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
         .collect();
     files.push(("plan.json", plan.as_bytes()));
     super::io::replace_folder(dir, &files)
-}
-
-/// The per-circuit and total cost table.
-pub fn cost_table(plan: &Plan) -> String {
-    let dev = plan.device.is_some();
-    // Control copies of the ancilla (`route::cat`): a column only where a circuit uses them.
-    let copies = plan.circuits.iter().any(|e| e.costs.control_copies > 0);
-    let mut head = vec![
-        "circuit", "k", "time", "part", "depth", "2q gates", "1q gates",
-    ];
-    if dev {
-        head.extend(["swaps", "duration us", "success"]);
-    }
-    if copies {
-        head.push("copies");
-    }
-    let mut t = Table::new(head);
-    let mut tot = crate::family::plan::Costs::default();
-    let (mut dur, mut worst) = (0.0f64, 1.0f64);
-    for e in &plan.circuits {
-        let c = &e.costs;
-        let mut row = vec![
-            e.id.clone(),
-            e.k.to_string(),
-            format!("{:.4}", e.time),
-            e.part
-                .map_or("-".to_string(), |p| format!("{p:?}").to_lowercase()),
-            c.depth.to_string(),
-            c.two_qubit.to_string(),
-            c.one_qubit.to_string(),
-        ];
-        if dev {
-            row.push(c.swaps.to_string());
-            row.push(format!("{:.2}", c.duration_ns.unwrap_or(0.0) / 1000.0));
-            row.push(format!("{:.4}", c.success_probability.unwrap_or(1.0)));
-        }
-        if copies {
-            row.push(c.control_copies.to_string());
-        }
-        t.row(row);
-        tot.depth += c.depth;
-        tot.two_qubit += c.two_qubit;
-        tot.one_qubit += c.one_qubit;
-        tot.swaps += c.swaps;
-        dur += c.duration_ns.unwrap_or(0.0);
-        worst = worst.min(c.success_probability.unwrap_or(1.0));
-    }
-    t.rule();
-    let mut row = vec![
-        "total".to_string(),
-        String::new(),
-        String::new(),
-        String::new(),
-        tot.depth.to_string(),
-        tot.two_qubit.to_string(),
-        tot.one_qubit.to_string(),
-    ];
-    if dev {
-        row.push(tot.swaps.to_string());
-        row.push(format!("{:.2}", dur / 1000.0));
-        row.push(format!("min {worst:.4}"));
-    }
-    if copies {
-        let most = plan.circuits.iter().map(|e| e.costs.control_copies).max();
-        row.push(format!("max {}", most.unwrap_or(0)));
-    }
-    t.row(row);
-    t.render()
-}
-
-/// The cost table as JSON: every circuit's costs and the totals.
-pub fn cost_json(plan: &Plan) -> serde_json::Value {
-    let circuits: Vec<serde_json::Value> = plan.circuits.iter().map(|e| serde_json::json!({"id": e.id, "k": e.k, "time": e.time, "part": e.part, "costs": e.costs})).collect();
-    let sum = |f: fn(&crate::family::plan::Costs) -> usize| {
-        plan.circuits.iter().map(|e| f(&e.costs)).sum::<usize>()
-    };
-    let mut json = serde_json::json!({
-        "circuits": circuits,
-        "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
-        "caution": "estimates depend on the device calibration; validate against trusted methods",
-    });
-    let most = plan
-        .circuits
-        .iter()
-        .map(|e| e.costs.control_copies)
-        .max()
-        .unwrap_or(0);
-    if most > 0 {
-        json["total"]["max_control_copies"] = serde_json::json!(most);
-    }
-    json
 }

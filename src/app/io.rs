@@ -6,7 +6,7 @@
 use crate::diag::Code;
 use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
-use crate::family::plan::{PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
+use crate::family::plan::{sha256_hex, PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
 use crate::lang::json_span::{locate, Step};
 use std::io::Write;
 use std::path::Path;
@@ -357,15 +357,6 @@ pub fn read_device(path: &Path) -> Result<crate::device::Device> {
     let name = display_name(path);
     crate::lang::dev::parse_device(&name, &text)
         .map_err(|d| Error::Input(crate::lang::suggest::device_hints(&name, &text, d)))
-}
-
-/// SHA-256 of `bytes` as 64 lowercase hex digits.
-pub fn sha256_hex(bytes: &[u8]) -> String {
-    use sha2::{Digest, Sha256};
-    Sha256::digest(bytes)
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect()
 }
 
 /// Compares a campaign file's bytes with the SHA-256 its plan records; `None` when they agree

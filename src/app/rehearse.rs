@@ -247,7 +247,7 @@ pub const DEFAULT_SHOTS: u64 = 10_000;
 
 /// Runs `phasewright rehearse`.
 pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
-    let Some(summary) = rehearse(args, g)? else {
+    let Some(summary) = rehearse_campaign(args, g)? else {
         return Ok(());
     };
     g.json(&summary)?;
@@ -271,7 +271,10 @@ pub fn run(args: &RehearseArgs, g: &super::Global) -> Result<()> {
 /// Samples the campaign (or its share) and writes the counts file; returns the summary that
 /// `--json` prints, or `None` when the counts went to stdout. The library entry point of
 /// `rehearse` (the command line and the Python module call it).
-pub fn rehearse(args: &RehearseArgs, g: &super::Global) -> Result<Option<serde_json::Value>> {
+pub fn rehearse_campaign(
+    args: &RehearseArgs,
+    g: &super::Global,
+) -> Result<Option<serde_json::Value>> {
     if args.shots == Some(0) {
         return Err(Error::usage(
             Code::UsageOption,

@@ -5,7 +5,7 @@
 //! In: a campaign folder (whole, one share folder, or with `--shard I/N` the share of a whole
 //! one, the same circuits `compile --shard I/N` writes). Out: a [`VerifyReport`] (the `--json`
 //! document, the table, the diagnostics of files that differ, and the failure that makes the
-//! command exit 1), rendered by [`run`]; [`check`] is the library entry point.
+//! command exit 1), rendered by [`run`]; [`verify_campaign`] is the library entry point.
 
 mod tableau;
 
@@ -121,7 +121,7 @@ fn fits_statevector(plan: &Plan) -> bool {
 
 /// Runs `phasewright verify`.
 pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
-    let report = check(args, g)?;
+    let report = verify_campaign(args, g)?;
     if g.json {
         g.json(&report.json)?;
     } else {
@@ -143,7 +143,7 @@ pub fn run(args: &VerifyArgs, g: &super::Global) -> Result<()> {
 /// Checks the campaign (or its share) and reports; the library entry point of `verify` (the
 /// command line and the Python module call it). Bad input is an `Err`; files that fail the
 /// check are in the report's `failure`.
-pub fn check(args: &VerifyArgs, g: &super::Global) -> Result<VerifyReport> {
+pub fn verify_campaign(args: &VerifyArgs, g: &super::Global) -> Result<VerifyReport> {
     let mut plan = read_plan(&args.dir)?;
     super::shard::select_share(&mut plan, args.shard, &args.dir)?;
     let mut report = check_plan(args, g, &plan)?;

@@ -391,6 +391,16 @@ fn at_circuit(i: usize, key: &'static str) -> Vec<PathStep> {
     ]
 }
 
+/// SHA-256 of `bytes` as 64 lowercase hex digits: the digest [`CircuitEntry::sha256`] records
+/// for a campaign file (and the fingerprint of a sharded campaign is built from).
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::{Digest, Sha256};
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
 /// A file name a plan may list: a plain name in the campaign folder, never a path.
 pub fn is_plain_file_name(name: &str) -> bool {
     !name.is_empty()

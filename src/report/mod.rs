@@ -4,5 +4,6 @@
 //! strings; only the command layer writes them to files. Invariant: output depends only on the
 //! values given (ordered maps, fixed number formats), so runs are byte-for-byte reproducible.
 
+pub mod costs;
 pub mod plot;
 pub mod table;

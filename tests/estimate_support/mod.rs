@@ -596,8 +596,8 @@ pub struct Model {
 /// The eight survey models with good references: 2×3 Ising, XXZ-6, Hubbard-4, random-5,
 /// Ising-8, Heisenberg-6, H2 and H4 (integral files from tests/data).
 pub fn survey_models() -> Vec<Model> {
-    use phasewright::app::convert::load_qubit_hamiltonian;
     use phasewright::fermion::Encoding;
+    use phasewright::files::load_qubit_hamiltonian;
     let root = env!("CARGO_MANIFEST_DIR");
     let load = |p: &str| {
         load_qubit_hamiltonian(
