@@ -63,6 +63,7 @@ mod app;
 pub mod check;
 pub mod circuit;
 pub mod cli;
+pub mod clock;
 pub mod device;
 pub mod diag;
 pub mod error;

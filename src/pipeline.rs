@@ -87,6 +87,7 @@ use crate::circuit::cancel::Peephole;
 use crate::circuit::metrics::{counts_of, Counter, Counts};
 use crate::circuit::verify::{verify_gates, verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
+use crate::clock::{self, stage, Stage};
 use crate::device::Device;
 use crate::family::control::Control;
 use crate::family::plan::Family;
@@ -105,6 +106,7 @@ use crate::route::{
 use crate::synth::groups::RunNetworks;
 use crate::synth::{Block, Chain, Groups, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
+use std::time::Instant;
 
 /// Where the circuits will run.
 pub enum Target<'a> {
@@ -766,29 +768,32 @@ pub fn compile_at(
     }
     match target {
         Target::AllToAll => {
-            let terms = order_terms(h);
+            let terms = stage(Stage::Order, || order_terms(h));
             let n = h.num_qubits;
             // The ancilla controls the rotations only in the textbook Hadamard test.
             let control = (spec.control == Control::Evolution && spec.family != Family::Evolution)
                 .then_some(n as crate::circuit::Qubit);
             // One rotation program per time point, shared by every circuit at that point; the
             // string ids and commuting runs of the term list are found once for all points.
-            let formula = (level != OptLevel::TEXTBOOK).then(|| Formula::new(&terms));
-            let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
-            let programs: Vec<Vec<Rotation>> = (0..spec.points)
-                .into_par_iter()
-                .map(|k| {
-                    let (t, r) = (k as f64 * spec.dt, k * spec.steps_per_dt);
-                    match &formula {
-                        None => textbook_evolution(&terms, spec.order, t, r),
-                        // Every point repeats one step of dt / R with the same angles, so the
-                        // later points can share its synthesis (`periodic_form`).
-                        Some(f) => f.evolution_by_step(spec.order, step_dt, r),
-                    }
-                })
-                .collect();
+            let programs: Vec<Vec<Rotation>> = stage(Stage::Formula, || {
+                let formula = (level != OptLevel::TEXTBOOK).then(|| Formula::new(&terms));
+                let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
+                (0..spec.points)
+                    .into_par_iter()
+                    .map(|k| {
+                        let (t, r) = (k as f64 * spec.dt, k * spec.steps_per_dt);
+                        match &formula {
+                            None => textbook_evolution(&terms, spec.order, t, r),
+                            // Every point repeats one step of dt / R with the same angles, so
+                            // the later points can share its synthesis (`periodic_form`).
+                            Some(f) => f.evolution_by_step(spec.order, step_dt, r),
+                        }
+                    })
+                    .collect()
+            });
             // Level 3 also tries each program in the order that lets neighbours share
             // (`route::sweep::schedule_by_agreement`: the same product exactly).
+            let scans = Instant::now();
             let agreeing: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
                 programs
                     .par_iter()
@@ -815,6 +820,7 @@ pub fn compile_at(
             } else {
                 vec![false; programs.len()]
             };
+            clock::add(Stage::Scans, scans);
             // The circuits of one time point with the same preparation (the real and the
             // imaginary part of one Hadamard test, say) run the same gates up to their readout:
             // each candidate synthesis of that shared body is built, verified and fed to the
@@ -822,6 +828,7 @@ pub fn compile_at(
             // (`circuit::cancel::Peephole`: the stream cloned before the readout gives exactly
             // what cancelling the whole circuit gives).
             let mut shared: Vec<Vec<crate::family::Frame>> = Vec::new();
+            let started = Instant::now();
             for f in frames(h, spec) {
                 match shared.last_mut() {
                     Some(g)
@@ -834,6 +841,7 @@ pub fn compile_at(
                     _ => shared.push(vec![f]),
                 }
             }
+            clock::add(Stage::Frames, started);
             // The run networks of `synth::Groups`, found once for every candidate and point.
             let networks = RunNetworks::default();
             // Candidates of time point k in the order they are compared (ties keep the
@@ -895,6 +903,7 @@ pub fn compile_at(
                     // (nothing copied; the body itself was counted once); the first with the
                     // fewest two-qubit gates, then the lowest depth, is built.
                     let mut best: Option<(usize, Counts)> = None;
+                    let counting = Instant::now();
                     for (i, body) in bodies.iter().enumerate() {
                         let n = body.counts_with_readout(f.num_qubits, &f.suffix);
                         if cfg!(debug_assertions) {
@@ -921,18 +930,20 @@ pub fn compile_at(
                         circuit.gates = bodies[i].with_readout(&f.suffix);
                         debug_assert_eq!(n, crate::circuit::metrics::counts(&circuit));
                     }
+                    clock::add(Stage::Readout, counting);
                     let comments = header_comments(&f.id, f.part, f.k, f.time, None);
-                    let text = bodies[i]
-                        .text_with_readout(
+                    let text = stage(Stage::Format, || {
+                        bodies[i].text_with_readout(
                             (f.num_qubits, f.num_clbits),
                             &f.suffix,
                             &comments,
                             &mut texts[i],
                         )
-                        .map_err(|e| IrError {
-                            message: format!("after pass `cancel`: {}", e.message),
-                            ..e
-                        })?;
+                    })
+                    .map_err(|e| IrError {
+                        message: format!("after pass `cancel`: {}", e.message),
+                        ..e
+                    })?;
                     if !built.kept.contains(&cands[i]) {
                         built.kept.push(cands[i]);
                     }
@@ -980,12 +991,17 @@ pub fn compile_at(
                         );
                         // `prepare` and `synthesize`; the readout and `cancel` follow per
                         // circuit below.
-                        run_passes(&mut body, &passes[..2], &Rules::default())?;
+                        stage(Stage::Synthesis, || {
+                            run_passes(&mut body, &passes[..2], &Rules::default())
+                        })?;
                         Ok(if level >= OptLevel(1) {
-                            let mut stream = Peephole::new(body.num_qubits, body.gates.len());
-                            for g in body.gates.drain(..) {
-                                stream.push(g);
-                            }
+                            let stream = stage(Stage::Peephole, || {
+                                let mut stream = Peephole::new(body.num_qubits, body.gates.len());
+                                for g in body.gates.drain(..) {
+                                    stream.push(g);
+                                }
+                                stream
+                            });
                             Body::stream(stream, first.num_qubits)
                         } else {
                             Body::Raw(body.gates)
@@ -1079,12 +1095,12 @@ pub fn compile_at(
                                 }
                                 f
                             });
-                            let streams = match form {
+                            let streams = stage(Stage::LaterPoints, || match form {
                                 Some(form) => {
                                     periodic_streams(num_qubits, &prefix, &form, &synthesize)
                                 }
                                 None => grown_streams(num_qubits, &prefix, &progs, &synthesize),
-                            };
+                            });
                             members.into_iter().zip(streams).collect()
                         })
                         .collect();
@@ -1126,7 +1142,7 @@ pub fn compile_at(
                 done[i] = Some(f);
             }
             let done: Vec<Finished> = done.into_iter().flatten().flatten().collect();
-            Ok(finish(h, source, spec, done, None))
+            Ok(stage(Stage::Finish, || finish(h, source, spec, done, None)))
         }
         Target::Device { device, config } => {
             let mut config = level.route_config(config);
@@ -1144,6 +1160,7 @@ pub fn compile_at(
             // One step of length dt / R, routed once (while the layout is chosen) and reused by
             // every circuit: time point k runs k·R blocks of it (`route::reuse`).
             let step_dt = spec.dt / spec.steps_per_dt.max(1) as f64;
+            let searching = Instant::now();
             let (tp, step) = match spec.control {
                 // Plain evolution circuits have no ancilla at all.
                 _ if spec.family == Family::Evolution => {
@@ -1169,6 +1186,8 @@ pub fn compile_at(
                     )
                 })
                 .flatten();
+            clock::add(Stage::Layout, searching);
+            let assembling = Instant::now();
             let (info, done) = match cat {
                 None => device_circuits(h, spec, device, config, &tp, step, all_frames)?,
                 Some((cat_tp, cat_step)) => {
@@ -1188,7 +1207,10 @@ pub fn compile_at(
                     }
                 }
             };
-            Ok(finish(h, source, spec, done, Some(info)))
+            clock::add(Stage::DeviceCircuits, assembling);
+            Ok(stage(Stage::Finish, || {
+                finish(h, source, spec, done, Some(info))
+            }))
         }
     }
 }
