@@ -16,23 +16,31 @@
 //!   answers "is this string compatible with every member?" without visiting its members:
 //!   - qubit-wise: the group keeps the union of its members' letters; a string is compatible
 //!     when it agrees with that union on their shared support (one pass over the words);
-//!   - full commutation: the group keeps the span of its members (`Span`: a basis of their
-//!     symplectic vectors, bit sliced per qubit), and the window's groups sit in a `SpanRing`,
-//!     which keeps the first 64 basis vectors of every open group side by side per qubit, so
-//!     a newcomer is tested against 64 groups at once with `2·weight` runs of contiguous word
-//!     XORs; a group's own span is read only when that head test passes and its rank is past
-//!     64. A group is closed at [`GROUP_CAP`] members. The answer is exactly "commutes with
-//!     every member" (tested against that definition, letter by letter, in the tests).
+//!   - full commutation: the group keeps the span of its members (`Span`: its members, or once
+//!     they outnumber twice the qubit count a basis of them, as symplectic vectors bit sliced
+//!     per qubit), and the window's groups sit in a `SpanRing`, which keeps the first 64 held
+//!     vectors of every open group side by side per qubit, so a newcomer is tested against 64
+//!     groups at once with `2·weight` runs of contiguous word XORs; a group's own span is read
+//!     only when that head test passes and it holds more than 64 vectors. A group is closed at
+//!     [`GROUP_CAP`] members. The answer is exactly "commutes with every member" (tested
+//!     against that definition, letter by letter, in the tests).
 //!
 //! Cost of the windowed regime: O(m log m) for the sort plus, per string, `2·weight` XORs of
-//! `WINDOW` words and at most `WINDOW` span tests of `weight · ⌈rank/64⌉` words, so linear in
-//! the number of terms. Measured (`cargo bench --bench grouping`, 2 shared cores at load
-//! about 5): 10⁵ strings of weight ≤ 4 on 1,024 qubits, commuting, 1.53–1.59 s (2.15–2.19 s
-//! in the same session with the member index the groups kept before the span ring), so the
-//! issue's "well under a second" is not met there: the groups reach rank ~10³, the span
-//! fallback and the echelon inserts dominate; 10⁴ strings on 24 qubits 0.007–0.023 s. The
-//! price of the window is fewer merges than the exact colouring would find across far-apart
-//! groups, which costs gates, never correctness.
+//! `WINDOW` words, at most `WINDOW` span tests of `weight · ⌈h/64⌉` words (`h` held vectors:
+//! at most [`GROUP_CAP`] members here) and one insert (setting `weight` bits; on a group past
+//! twice the qubit count, an echelon reduction), so linear in the number of terms.
+//!
+//! Measured (`PHASEWRIGHT_BENCH_QUICK=1 cargo bench --bench grouping`, 2 shared cores): 10⁵
+//! strings of weight ≤ 4 on 1,024 qubits, commuting, 0.21–0.27 s at load about 3.8, where the
+//! spans kept as echelon bases took 0.64–1.14 s, run for run in the same session (1.53–1.59 s
+//! in an earlier session at load about 5), so the issue's "well under a second" is met. The
+//! groups there reach ~10³ members on 1,024 qubits, below the lazy limit, so no echelon is
+//! built; the echelon inserts took 1.5·10⁶ reductions of 32-word vectors (counted, ~15 per
+//! string). The largest item left in the profile is the span test past the head (18% of the
+//! bench's samples; 7.6·10⁵ tests, counted), which reads masks of 16 words in the groups'
+//! separate allocations. 10⁴ strings on 24 qubits 0.005 s. The price of the window is fewer
+//! merges than the exact colouring would find across far-apart groups, which costs gates,
+//! never correctness.
 
 use super::{Bits, PauliString};
 use rustc_hash::FxHashMap as HashMap;
@@ -300,24 +308,46 @@ impl Echelon {
 ///
 /// Notation: a string is the symplectic vector `(x|z)`; `p` and `b` commute when
 /// `⟨p, b⟩ = |p.x ∧ b.z| + |p.z ∧ b.x|` is even, and `⟨p, ·⟩` is linear, so `p` commutes with
-/// every member exactly when it commutes with every vector of a basis of their span
-/// (`Echelon` finds which members extend the basis). The basis is kept transposed ("bit
-/// sliced"): per qubit `q`, one bit mask over the basis vectors for their `x` bit at `q` and one
-/// for their `z` bit, all masks in one flat array. Then the products of `p` with all basis vectors at once are the XOR, over
-/// `q ∈ p.x`, of the `z` masks and, over `q ∈ p.z`, of the `x` masks; `p` commutes with the span
-/// when that XOR is zero. One test costs `weight(p) · ⌈rank/64⌉` word operations; a set of
-/// pairwise commuting strings has rank at most the qubit count. The basis vectors kept in the
-/// masks are the members themselves (those that extended the span), so the masks stay as
-/// sparse as the members.
+/// every member exactly when it commutes with every vector of any set spanning the same space.
+/// The held vectors are kept transposed ("bit sliced"): per qubit `q`, one bit mask over them
+/// for their `x` bit at `q` and one for their `z` bit, all masks in one flat array. Then the
+/// products of `p` with all held vectors at once are the XOR, over `q ∈ p.x`, of the `z` masks
+/// and, over `q ∈ p.z`, of the `x` masks; `p` commutes with the span when that XOR is zero.
+///
+/// Which vectors are held. Lazily, every member: no elimination at all, which on wide
+/// registers is the right trade (random local strings on 1,024 qubits are nearly all
+/// independent, so a basis would be hardly smaller, and the reductions of an echelon insert
+/// cost more than the tests they would save). Once the members outnumber twice the qubit
+/// count (and 64), a basis is smaller: the masks are then cut, once, to the members that
+/// extend the span (`Echelon`, in member order), and from then on a newcomer is held only when
+/// it extends the span. One test costs `weight(p) · ⌈h/64⌉` word operations for `h` held
+/// vectors: `h` is at most `max(2n, 64) + 1` members, then the rank (at most `2n`, at most `n`
+/// for pairwise commuting strings). The held vectors are members themselves, so the masks stay
+/// as sparse as the members.
 #[derive(Default)]
 pub(crate) struct Span {
-    echelon: Echelon,
+    /// `None` while the masks hold every member (lazy: no echelon work); built from them, and
+    /// the masks then cut to a basis, once the members outnumber [`Span::lazy_limit`].
+    echelon: Option<Echelon>,
+    /// Vectors held in the masks: every member while lazy, else the basis (the rank).
     rank: usize,
     /// Words per mask: `⌈rank/64⌉`, at least 1.
     stride: usize,
     /// Flat, per qubit `q`: the `x` mask at `[2q·stride, (2q+1)·stride)` (bit `k` set when
-    /// basis vector `k` has an `x` bit at `q`), then the `z` mask.
+    /// held vector `k` has an `x` bit at `q`), then the `z` mask.
     cols: Vec<u64>,
+}
+
+/// What [`Span::insert`] did to the masks.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum Held {
+    /// The string is held at this index (the masks hold its bits there; earlier bits kept).
+    At(usize),
+    /// The string lay in the span of a basis: the masks are unchanged.
+    No,
+    /// The masks were rebuilt (cut to a basis of the members, the string included): every
+    /// index may have changed.
+    Rebuilt,
 }
 
 /// A string's letters as `Span` reads them: the qubits of its `x` bits and of its `z` bits.
@@ -336,17 +366,24 @@ impl SpanQuery {
 }
 
 impl Span {
-    /// Adds `p` to the set. Returns the index of `p` among the basis vectors when it extended
-    /// the span (the masks then hold its bits at that index), `None` when it was in the span.
-    pub(crate) fn insert(&mut self, p: &PauliString) -> Option<usize> {
-        if !self.echelon.insert(p) {
-            return None;
-        }
+    /// Qubits with masks (every qubit of every held vector is below it).
+    fn qubits(&self) -> usize {
+        self.cols.len() / (2 * self.stride.max(1))
+    }
+
+    /// Members held lazily before the masks are cut to a basis: past twice the qubit count a
+    /// basis (rank at most `2n`, at most `n` for a commuting set) is the smaller.
+    fn lazy_limit(&self) -> usize {
+        (2 * self.qubits()).max(HEAD)
+    }
+
+    /// Holds `p` at index `rank` of the masks.
+    fn hold(&mut self, p: &PauliString) -> usize {
         let k = self.rank;
         self.rank += 1;
         let stride = self.rank.div_ceil(64);
         if stride != self.stride {
-            // Widen every mask by one word (a rank step past a multiple of 64).
+            // Widen every mask by one word (a step past a multiple of 64).
             let old = self.stride;
             let masks = self.cols.len() / old.max(1);
             let mut cols = vec![0u64; masks * stride];
@@ -368,7 +405,56 @@ impl Span {
         for q in p.z.ones() {
             self.cols[(2 * q + 1) * stride + word] |= bit;
         }
-        Some(k)
+        k
+    }
+
+    /// The held vectors, read back from the masks, in index order.
+    fn held(&self) -> Vec<PauliString> {
+        let mut out = vec![PauliString::default(); self.rank];
+        for row in 0..2 * self.qubits() {
+            let (q, z) = (row / 2, row % 2 == 1);
+            let mask = &self.cols[row * self.stride..(row + 1) * self.stride];
+            for (w, &word) in mask.iter().enumerate() {
+                let mut word = word;
+                while word != 0 {
+                    let k = 64 * w + word.trailing_zeros() as usize;
+                    word &= word - 1;
+                    if z {
+                        out[k].z.insert(q);
+                    } else {
+                        out[k].x.insert(q);
+                    }
+                }
+            }
+        }
+        out
+    }
+
+    /// Adds `p` to the set; see [`Held`]. While lazy every member is held, and the set is
+    /// the span of the held vectors either way, so [`Span::accepts`] is exact throughout.
+    pub(crate) fn insert(&mut self, p: &PauliString) -> Held {
+        if let Some(e) = &mut self.echelon {
+            return if e.insert(p) {
+                Held::At(self.hold(p))
+            } else {
+                Held::No
+            };
+        }
+        let k = self.hold(p);
+        if self.rank <= self.lazy_limit() {
+            return Held::At(k);
+        }
+        // Cut the masks to the members that extend the span, in their order.
+        let members = self.held();
+        let mut e = Echelon::default();
+        *self = Span::default();
+        for m in &members {
+            if e.insert(m) {
+                self.hold(m);
+            }
+        }
+        self.echelon = Some(e);
+        Held::Rebuilt
     }
 
     /// True when `p` commutes with every string added so far.
@@ -409,7 +495,7 @@ impl Span {
     }
 }
 
-/// Basis vectors of a span mirrored in its [`SpanRing`] head word.
+/// Held vectors of a span mirrored in its [`SpanRing`] head word.
 const HEAD: usize = 64;
 
 /// Groups tested together by [`SpanRing::first_fit`] (one stack buffer of words).
@@ -421,16 +507,17 @@ const CHUNK: usize = 64;
 /// Groups are numbered in the order they were opened; the last `window` of them are open, and
 /// group `g` lives in slot `g % window` (a ring: opening a group past the window drops the
 /// oldest, whose slot it takes). Each slot keeps its group's [`Span`]. Beside them, the first
-/// [`HEAD`] basis vectors of every slot are kept bit sliced across the slots: per qubit `q`
-/// and letter, one row holding one word per slot (bit `k` of a slot's word set when basis
-/// vector `k` of that group has that letter's bit at `q`), rows one after the other. A
-/// string's products with the head vectors of a run of neighbouring slots are then the XOR of
-/// a few contiguous row pieces (one per letter of the string), so one test reads `2·weight`
-/// sequential runs of words for [`CHUNK`] groups at once, where the spans alone would read
-/// scattered words of a different allocation per group. A non-zero head word rejects a group
-/// outright (the string anticommutes with one of its members); a zero one accepts it when the
-/// span's rank is at most [`HEAD`] (the head is then the whole basis), else the group's own
-/// span decides. The answer is always exactly the span test's.
+/// [`HEAD`] held vectors of every slot (word 0 of each of its span's masks) are kept bit sliced
+/// across the slots: per qubit `q` and letter, one row holding one word per slot (bit `k` of a
+/// slot's word set when held vector `k` of that group has that letter's bit at `q`), rows one
+/// after the other. A string's products with the head vectors of a run of neighbouring slots
+/// are then the XOR of a few contiguous row pieces (one per letter of the string), so one test
+/// reads `2·weight` sequential runs of words for [`CHUNK`] groups at once, where the spans
+/// alone would read scattered words of a different allocation per group. A non-zero head word
+/// rejects a group outright (the string anticommutes with one of its members); a zero one
+/// accepts it when the span holds at most [`HEAD`] vectors (the head is then all of them), else
+/// the group's own span decides. When a span cuts its masks to a basis, its head words are
+/// copied again from its masks. The answer is always exactly the span test's.
 pub(crate) struct SpanRing {
     window: usize,
     /// Groups opened so far.
@@ -504,12 +591,24 @@ impl SpanRing {
             "group {g} is not open"
         );
         let slot = g % self.window;
-        let Some(k) = self.spans[slot].insert(p) else {
-            return;
+        let k = match self.spans[slot].insert(p) {
+            Held::At(k) if k < HEAD => k,
+            Held::At(_) | Held::No => return,
+            Held::Rebuilt => {
+                // The head word of every row is word 0 of the span's mask.
+                let span = &self.spans[slot];
+                if span.qubits() > self.qubits {
+                    self.qubits = span.qubits();
+                    self.heads.resize(2 * self.qubits * self.width, 0);
+                }
+                let (width, stride) = (self.width, span.stride);
+                for row in 0..2 * self.qubits {
+                    self.heads[row * width + slot] =
+                        span.cols.get(row * stride).copied().unwrap_or(0);
+                }
+                return;
+            }
         };
-        if k >= HEAD {
-            return;
-        }
         let top = p.x.ones().chain(p.z.ones()).max().unwrap_or(0);
         if top >= self.qubits {
             self.qubits = top + 1;
@@ -575,8 +674,9 @@ impl SpanRing {
 /// [`EXACT_COLOURING_MAX`]); every group is pairwise compatible.
 pub fn windowed_groups<S: Borrow<PauliString>>(strings: &[S], how: Compat) -> Vec<Vec<usize>> {
     let strings: Vec<&PauliString> = strings.iter().map(Borrow::borrow).collect();
+    let weight: Vec<u32> = strings.iter().map(|p| p.weight()).collect();
     let mut order: Vec<usize> = (0..strings.len()).collect();
-    order.sort_by_key(|&i| (std::cmp::Reverse(strings[i].weight()), i));
+    order.sort_unstable_by_key(|&i| (std::cmp::Reverse(weight[i]), i));
     if how == Compat::Commuting {
         return windowed_commuting(&strings, order, WINDOW, GROUP_CAP);
     }
@@ -762,6 +862,47 @@ mod tests {
                     assert!(agree.0 > 0 && agree.1 > 0, "{agree:?} at size {size}");
                 }
             }
+        }
+    }
+
+    /// The cut of a lazy span to a basis: mostly-`Z` strings on 24 qubits, a commuting set of
+    /// 400 members and an arbitrary one of 400 (both past the lazy limit of 64 held vectors).
+    /// Exactly one insert rebuilds the masks; afterwards the held count is the echelon rank,
+    /// at most 24 for the commuting set (a commuting set spans an isotropic subspace, of
+    /// dimension at most the qubit count: Gottesman, "Stabilizer codes and quantum error
+    /// correction", PhD thesis, Caltech 1997, §3.3, from memory) and at most 48 for any set;
+    /// and every answer, before and after the cut, is the member-by-member one.
+    #[test]
+    fn a_span_cut_to_a_basis_gives_the_member_by_member_answer() {
+        let n = 24;
+        let strings = random_biased(n, 3000, 4, 0.9, 3);
+        let mut commuting: Vec<&PauliString> = Vec::new();
+        for p in &strings {
+            if commuting.len() < 400 && commuting.iter().all(|m| m.commutes_with(p)) {
+                commuting.push(p);
+            }
+        }
+        assert_eq!(commuting.len(), 400);
+        let arbitrary: Vec<&PauliString> = strings.iter().take(400).collect();
+        for (is_commuting, set) in [(true, commuting), (false, arbitrary)] {
+            let mut span = Span::default();
+            let mut rebuilt = 0;
+            for (i, m) in set.iter().enumerate() {
+                if span.insert(m) == Held::Rebuilt {
+                    rebuilt += 1;
+                }
+                if i % 50 == 49 {
+                    for p in strings.iter().take(300) {
+                        let direct = set[..=i].iter().all(|m| m.commutes_with(p));
+                        assert_eq!(span.commutes_with_all(p), direct, "after {} members", i + 1);
+                    }
+                }
+            }
+            assert_eq!(rebuilt, 1);
+            let mut e = Echelon::default();
+            let rank = set.iter().filter(|m| e.insert(m)).count();
+            assert_eq!(span.rank, rank);
+            assert!(rank <= if is_commuting { n } else { 2 * n }, "rank {rank}");
         }
     }
 
