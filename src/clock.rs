@@ -32,9 +32,9 @@ pub enum Stage {
     /// The later time points built from one synthesis of the repeated step, or grown from the
     /// longest program, peephole included.
     LaterPoints,
-    /// Each circuit's readout on its candidate bodies, counted, and the best one verified.
+    /// Each candidate body counted once, then each circuit's readout counted on top of it.
     Readout,
-    /// OpenQASM 3 text of the kept circuits.
+    /// The kept circuits verified and written as OpenQASM 3 text (each shared body once).
     Format,
     /// On a device: the layout search and the routing of the step (`route`).
     Layout,

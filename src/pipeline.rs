@@ -1002,7 +1002,7 @@ pub fn compile_at(
                                 }
                                 stream
                             });
-                            Body::stream(stream, first.num_qubits)
+                            stage(Stage::Readout, || Body::stream(stream, first.num_qubits))
                         } else {
                             Body::Raw(body.gates)
                         })
@@ -1111,7 +1111,8 @@ pub fn compile_at(
                     for (u, list) in union.iter().zip(grown) {
                         for (j, stream) in list {
                             let at = cands[j].iter().position(|c| c == u).expect("a member");
-                            bodies[j][at] = Some(Body::stream(stream, num_qubits));
+                            bodies[j][at] =
+                                Some(stage(Stage::Readout, || Body::stream(stream, num_qubits)));
                         }
                     }
                     let points: Vec<(usize, Vec<crate::family::Frame>, Vec<Body>)> = class
