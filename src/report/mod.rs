@@ -5,5 +5,6 @@
 //! values given (ordered maps, fixed number formats), so runs are byte-for-byte reproducible.
 
 pub mod costs;
+pub mod estimates;
 pub mod plot;
 pub mod table;
