@@ -23,7 +23,7 @@
 //!
 //! Around the pipeline, [`cli`] is the command line as a library (the way in of the binary and
 //! of the Python module), and [`files`] reads plans and Hamiltonians and writes campaigns as
-//! the commands do.
+//! the commands do. [`clock`] times the pipeline's stages when a benchmark asks.
 //!
 //! # Example
 //!
