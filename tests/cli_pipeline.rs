@@ -514,3 +514,37 @@ fn rehearse_writes_counts_that_estimate_reads_and_noise_needs_a_device() {
         f * ideal
     );
 }
+
+/// `--stage-times` reports each stage the compile ran and the write, and changes no file.
+#[test]
+fn stage_times_report_the_stages_and_change_nothing_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let (plain, timed) = (dir.path().join("plain"), dir.path().join("timed"));
+    stdout_of(&mut compile_ising(&plain));
+    let json: serde_json::Value = serde_json::from_str(&stdout_of(
+        compile_ising(&timed).args(["--stage-times", "--json"]),
+    ))
+    .unwrap();
+    let stages = json["stage_seconds"].as_object().expect("stage_seconds");
+    // The all-to-all pipeline always synthesises, formats and writes.
+    for name in ["synthesis", "format", "write"] {
+        let secs = stages.get(name).and_then(|v| v.as_f64());
+        assert!(secs.is_some_and(|s| s >= 0.0), "{name}: {stages:?}");
+    }
+    let mut names: Vec<_> = std::fs::read_dir(&plain)
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    names.sort();
+    assert!(names.len() > 2);
+    for name in names {
+        let a = std::fs::read(plain.join(&name)).unwrap();
+        let b = std::fs::read(timed.join(&name)).unwrap();
+        assert!(a == b, "{name:?} differs with --stage-times");
+    }
+    let table = stdout_of(compile_ising(&dir.path().join("table")).arg("--stage-times"));
+    assert!(
+        table.contains("\nstage ") && table.contains("\nwrite "),
+        "{table}"
+    );
+}

@@ -124,6 +124,10 @@ pub struct CompileArgs {
     /// round-off; 0 keeps all). Recorded in plan.json.
     #[arg(long, default_value_t = super::convert::DEFAULT_CUTOFF, value_parser = super::convert::parse_cutoff)]
     pub cutoff: f64,
+    /// Also print where the compile spent its time, stage by stage (seconds summed over
+    /// threads), and the time to write the folder; with --json, under `stage_seconds`.
+    #[arg(long)]
+    pub stage_times: bool,
 }
 
 /// Random product states of a trace campaign without --samples.
@@ -446,7 +450,19 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     };
     let source = super::io::display_name(&args.hamiltonian);
     let level = OptLevel::new(args.opt).expect("clap keeps --opt in 0..=3");
+    if args.stage_times {
+        crate::clock::start();
+    }
     let mut compiled = compile_at(&h, &source, &spec, &target, level)?;
+    let mut stage_seconds: Vec<(&str, f64)> = if args.stage_times {
+        let stages = crate::clock::stop();
+        stages
+            .into_iter()
+            .map(|(s, secs)| (s.name(), secs))
+            .collect()
+    } else {
+        Vec::new()
+    };
     if family == Family::Trace {
         compiled.plan.seed = Some(args.seed);
     }
@@ -459,7 +475,11 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
         super::shard::keep_share(&mut compiled, index, count);
     }
     super::io::check_out_folder(&args.out, args.force)?;
+    let writing = std::time::Instant::now();
     write_campaign(&args.out, &mut compiled)?;
+    if args.stage_times {
+        stage_seconds.push(("write", writing.elapsed().as_secs_f64()));
+    }
     let grouping = (family == Family::Krylov).then(|| grouping_summary(&compiled.plan));
     let reference = (family != Family::Trace)
         .then(|| reference_report(&h, &compiled.plan.states[0], auto_note.as_deref()));
@@ -478,6 +498,13 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     }
     if let Some(r) = &reference {
         json["reference"] = r.json.clone();
+    }
+    if args.stage_times {
+        json["stage_seconds"] = stage_seconds
+            .iter()
+            .map(|&(name, secs)| (name.to_string(), serde_json::json!(secs)))
+            .collect::<serde_json::Map<_, _>>()
+            .into();
     }
     let mut text = cost_table(&compiled.plan);
     if family == Family::Evolution {
@@ -519,12 +546,32 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             args.cutoff
         );
     }
+    if args.stage_times {
+        text += &stage_table(&stage_seconds);
+    }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
     Ok(CompileOutcome {
         plan: compiled.plan,
         json,
         text,
     })
+}
+
+/// The `--stage-times` table: each stage's seconds and share of the total.
+fn stage_table(stages: &[(&str, f64)]) -> String {
+    let total: f64 = stages.iter().map(|s| s.1).sum();
+    let mut out = format!("\n{:<16} {:>10} {:>6}\n", "stage", "seconds", "share");
+    for &(name, secs) in stages {
+        let share = if total > 0.0 {
+            100.0 * secs / total
+        } else {
+            0.0
+        };
+        out += &format!("{name:<16} {secs:>10.3} {share:>5.1}%\n");
+    }
+    out += &format!("{:<16} {total:>10.3}\n", "total");
+    out += "(seconds summed over threads, so the total may exceed the wall time)\n";
+    out
 }
 
 /// Resolves `--control`: the control form to compile and, when `auto` fell back to the
