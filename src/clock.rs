@@ -1,8 +1,10 @@
 //! The stage clock: where a compile spends its time, stage by stage.
 //!
-//! In: the pipeline wraps each of its stages in [`stage`]. Out: after [`start`] and a compile,
-//! [`stop`] returns the seconds spent in each stage, summed over the threads that ran it (so on
-//! one thread they add up to the compile's time, and on several they are thread-seconds).
+//! In: the pipeline wraps each of its stages in [`stage`] (or times it with [`add`]). Out: after
+//! [`start`] and a compile, [`stop`] returns the seconds spent in each stage. A stage timed on
+//! each of several threads at once (one candidate's synthesis, say) adds up their seconds; a
+//! stage timed around parallel work (the layout search) counts its wall time once. On one
+//! thread the stages add up to the compile's time.
 //! Benchmarks read it to print a compile's cost stage by stage without copying the
 //! pipeline's flow.
 //!
@@ -111,7 +113,8 @@ pub fn start() {
     ON.store(true, Ordering::Relaxed);
 }
 
-/// Turns the clock off and returns the seconds of every stage that ran, in pipeline order.
+/// Turns the clock off and returns the seconds of every stage that ran, in pipeline order
+/// (see the module essay for how parallel work is counted).
 pub fn stop() -> Vec<(Stage, f64)> {
     ON.store(false, Ordering::Relaxed);
     Stage::ALL

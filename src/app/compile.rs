@@ -124,8 +124,9 @@ pub struct CompileArgs {
     /// round-off; 0 keeps all). Recorded in plan.json.
     #[arg(long, default_value_t = super::convert::DEFAULT_CUTOFF, value_parser = super::convert::parse_cutoff)]
     pub cutoff: f64,
-    /// Also print where the compile spent its time, stage by stage (seconds summed over
-    /// threads), and the time to write the folder; with --json, under `stage_seconds`.
+    /// Also print where the compile spent its time, stage by stage, and the time to write the
+    /// folder; with --json, under `stage_seconds`. A stage that runs on several threads at
+    /// once adds up their seconds.
     #[arg(long)]
     pub stage_times: bool,
 }
@@ -570,7 +571,7 @@ fn stage_table(stages: &[(&str, f64)]) -> String {
         out += &format!("{name:<16} {secs:>10.3} {share:>5.1}%\n");
     }
     out += &format!("{:<16} {total:>10.3}\n", "total");
-    out += "(seconds summed over threads, so the total may exceed the wall time)\n";
+    out += "(a stage that runs on several threads at once adds up their seconds, so the total may exceed the wall time)\n";
     out
 }
 
