@@ -610,12 +610,7 @@ fn spread_line(plan: &Plan) -> String {
     let Some(d) = plan.device.as_ref().filter(|d| d.spare_qubits) else {
         return String::new();
     };
-    let most = plan
-        .circuits
-        .iter()
-        .map(|e| e.costs.control_copies)
-        .max()
-        .unwrap_or(0);
+    let most = crate::report::costs::most_control_copies(plan);
     let made = &d.copy_placement;
     let kept = "kept because the campaign emits fewer two-qubit gates (or as many, less deep) than with the ancilla alone";
     if most == 0 {

@@ -78,6 +78,16 @@ pub fn cost_table(plan: &Plan) -> String {
     t.render()
 }
 
+/// The most copies of the ancilla one circuit of `plan` sets (0 where the control is not
+/// spread).
+pub fn most_control_copies(plan: &Plan) -> usize {
+    plan.circuits
+        .iter()
+        .map(|e| e.costs.control_copies)
+        .max()
+        .unwrap_or(0)
+}
+
 /// The cost table as JSON: every circuit's costs and the totals.
 pub fn cost_json(plan: &Plan) -> serde_json::Value {
     let circuits: Vec<serde_json::Value> = plan.circuits.iter().map(|e| serde_json::json!({"id": e.id, "k": e.k, "time": e.time, "part": e.part, "costs": e.costs})).collect();
@@ -87,12 +97,7 @@ pub fn cost_json(plan: &Plan) -> serde_json::Value {
         "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
         "caution": "estimates depend on the device calibration; validate against trusted methods",
     });
-    let most = plan
-        .circuits
-        .iter()
-        .map(|e| e.costs.control_copies)
-        .max()
-        .unwrap_or(0);
+    let most = most_control_copies(plan);
     if most > 0 {
         json["total"]["max_control_copies"] = serde_json::json!(most);
     }
