@@ -117,16 +117,7 @@ pub fn energy_table(r: &EnergyReport, plan: &Plan) -> String {
         "Gram matrix S (K×K): smallest eigenvalue {:.3e}, noise scale {:.3e}",
         r.gram_min.0, r.gram_min.1
     );
-    if let Some(m) = r.loss_method {
-        let _ = writeln!(s, "signal loss undone: {m}");
-    }
-    if !r.warnings.is_empty() {
-        let _ = writeln!(s, "{} warning(s) on stderr", r.warnings.len());
-    }
-    let _ = writeln!(
-        s,
-        "caution: energies from noisy hardware depend on the device calibration; validate against trusted methods"
-    );
+    table_footer(&mut s, r.loss_method, r.warnings.len(), "energies");
     s
 }
 
@@ -350,16 +341,7 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
         "ρ_σ(E) = (2^n/2π) ∫ e^(−σ²t²/2) e^(iEt) tr U(t)/2^n dt, tr U/2^n estimated by averaging \
          ⟨ψ_s|U|ψ_s⟩ over random states (Hutchinson-type stochastic trace)"
     );
-    if let Some(m) = r.loss_method {
-        let _ = writeln!(s, "signal loss undone: {m}");
-    }
-    if !r.warnings.is_empty() {
-        let _ = writeln!(s, "{} warning(s) on stderr", r.warnings.len());
-    }
-    let _ = writeln!(
-        s,
-        "caution: results from noisy hardware depend on the device calibration; validate against trusted methods"
-    );
+    table_footer(&mut s, r.loss_method, r.warnings.len(), "results");
     s
 }
 
@@ -448,4 +430,20 @@ pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
             "warnings": r.warnings,
         }),
     }
+}
+
+/// The lines that close the energy and density-of-states tables: how signal loss was undone,
+/// how many warnings went to stderr, and the caution about `what` (energies, results) from
+/// noisy hardware.
+fn table_footer(s: &mut String, loss_method: Option<&str>, warnings: usize, what: &str) {
+    if let Some(m) = loss_method {
+        let _ = writeln!(s, "signal loss undone: {m}");
+    }
+    if warnings > 0 {
+        let _ = writeln!(s, "{warnings} warning(s) on stderr");
+    }
+    let _ = writeln!(
+        s,
+        "caution: {what} from noisy hardware depend on the device calibration; validate against trusted methods"
+    );
 }
