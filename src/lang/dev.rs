@@ -17,15 +17,15 @@ use crate::device::native::{gate_arity, is_standard_gate, STDGATES};
 use crate::device::{Calibration, Device, Link, NativeSet};
 use crate::diag::{Code, Diagnostic, LineIndex};
 use crate::lang::suggest::{closest, DEV_STATEMENTS};
+use crate::lang::syntax_error::Res;
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{alpha1, char, digit1, satisfy, space0, space1};
 use nom::combinator::{cut, eof, map, not, opt, peek, recognize};
-use nom::error::{context, ContextError, ErrorKind, ParseError};
+use nom::error::context;
 use nom::multi::many1;
 use nom::number::complete::recognize_float;
 use nom::sequence::{pair, preceded, terminated, tuple};
-use nom::IResult;
 use std::collections::{BTreeMap, BTreeSet};
 
 /// Largest device the language accepts (the all-pairs distance table grows as the square).
@@ -34,34 +34,6 @@ pub const MAX_DEVICE_QUBITS: u64 = 2048;
 /// Most couplings a device may have (breadth-first search from every qubit costs
 /// qubits × couplings).
 pub const MAX_DEVICE_LINKS: usize = 65_536;
-
-/// A syntax error: where, and what was expected there (the innermost `context`).
-#[derive(Debug)]
-struct PErr<'a> {
-    at: &'a str,
-    expected: Option<&'static str>,
-}
-
-impl<'a> ParseError<&'a str> for PErr<'a> {
-    fn from_error_kind(input: &'a str, _kind: ErrorKind) -> Self {
-        PErr {
-            at: input,
-            expected: None,
-        }
-    }
-    fn append(_input: &'a str, _kind: ErrorKind, other: Self) -> Self {
-        other
-    }
-}
-
-impl<'a> ContextError<&'a str> for PErr<'a> {
-    fn add_context(_input: &'a str, ctx: &'static str, mut other: Self) -> Self {
-        other.expected.get_or_insert(ctx);
-        other
-    }
-}
-
-type Res<'a, T> = IResult<&'a str, T, PErr<'a>>;
 
 /// An error-rate target: a qubit or a link `a-b`.
 #[derive(Debug)]

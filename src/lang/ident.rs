@@ -2,7 +2,7 @@
 //! names, and the identifiers of the OpenQASM 3 subset read back.
 //!
 //! In: text. Out: the length of the identifier at its start, or that identifier as a nom
-//! parser generic over the reader's own error type. The rule is an ASCII letter or `_`, then
+//! parser generic over the error type (the readers use [`super::syntax_error::SyntaxError`]). The rule is an ASCII letter or `_`, then
 //! ASCII letters, digits or `_` (the OpenQASM 3 specification allows more letters in
 //! identifiers; phasewright writes and reads only these).
 

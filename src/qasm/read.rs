@@ -6,6 +6,7 @@
 
 use crate::circuit::{Circuit, Gate};
 use crate::diag::{Code, Diagnostic};
+use crate::lang::syntax_error::Res;
 use nom::branch::alt;
 use nom::bytes::complete::tag;
 use nom::character::complete::{char, digit1, multispace0};
@@ -13,7 +14,6 @@ use nom::combinator::{map, map_res, opt};
 use nom::multi::separated_list1;
 use nom::number::complete::double;
 use nom::sequence::{delimited, pair, preceded, tuple};
-use nom::IResult;
 
 /// A parsed program: the circuit, whether it addressed hardware qubits (`$k`), and where each
 /// gate's statement sits in the source.
@@ -32,21 +32,19 @@ enum Operand {
     Hw(u32),
 }
 
-fn ws<'a, O>(
-    p: impl FnMut(&'a str) -> IResult<&'a str, O>,
-) -> impl FnMut(&'a str) -> IResult<&'a str, O> {
+fn ws<'a, O>(p: impl FnMut(&'a str) -> Res<'a, O>) -> impl FnMut(&'a str) -> Res<'a, O> {
     delimited(multispace0, p, multispace0)
 }
 
-fn uint(i: &str) -> IResult<&str, u32> {
+fn uint(i: &str) -> Res<'_, u32> {
     map_res(digit1, str::parse)(i)
 }
 
-fn ident(i: &str) -> IResult<&str, &str> {
+fn ident(i: &str) -> Res<'_, &str> {
     crate::lang::ident::ident(i)
 }
 
-fn operand(i: &str) -> IResult<&str, Operand> {
+fn operand(i: &str) -> Res<'_, Operand> {
     ws(alt((
         map(preceded(char('$'), uint), Operand::Hw),
         map(
@@ -57,7 +55,7 @@ fn operand(i: &str) -> IResult<&str, Operand> {
 }
 
 // Angle expressions: sums of products of signed atoms (numbers, pi, π, parentheses).
-fn atom(i: &str) -> IResult<&str, f64> {
+fn atom(i: &str) -> Res<'_, f64> {
     ws(alt((
         map(alt((tag("pi"), tag("π"))), |_| std::f64::consts::PI),
         delimited(char('('), expr, char(')')),
@@ -66,7 +64,7 @@ fn atom(i: &str) -> IResult<&str, f64> {
     )))(i)
 }
 
-fn term(i: &str) -> IResult<&str, f64> {
+fn term(i: &str) -> Res<'_, f64> {
     let (mut i, mut v) = atom(i)?;
     while let Ok((rest, (op, rhs))) = pair(ws(alt((char('*'), char('/')))), atom)(i) {
         v = if op == '*' { v * rhs } else { v / rhs };
@@ -75,7 +73,7 @@ fn term(i: &str) -> IResult<&str, f64> {
     Ok((i, v))
 }
 
-fn expr(i: &str) -> IResult<&str, f64> {
+fn expr(i: &str) -> Res<'_, f64> {
     let (mut i, mut v) = term(i)?;
     while let Ok((rest, (op, rhs))) = pair(ws(alt((char('+'), char('-')))), term)(i) {
         v = if op == '+' { v + rhs } else { v - rhs };
@@ -95,7 +93,7 @@ enum Stmt {
     Gate(String, Vec<f64>, Vec<Operand>),
 }
 
-fn statement(i: &str) -> IResult<&str, Stmt> {
+fn statement(i: &str) -> Res<'_, Stmt> {
     alt((
         map(tuple((tag("OPENQASM"), ws(double))), |_| Stmt::Header),
         map(tuple((tag("include"), ws(tag("\"stdgates.inc\"")))), |_| {

@@ -3,12 +3,14 @@
 //!
 //! In: a [`Plan`] (its circuits' recorded costs; swaps, duration and success probability
 //! when it was compiled for a device). Out: the table `compile` prints and the JSON document
-//! `compile --json` starts from (every circuit's costs and the totals). Invariant: a function
-//! of the plan alone, rows in plan order, fixed number formats, so the report is
-//! byte-identical for the same plan.
+//! `compile --json` starts from (every circuit's costs and the totals; schema [`CostDoc`]).
+//! Invariant: a function of the plan alone, rows in plan order, fixed number formats and JSON
+//! keys in the order the structs declare them, so the report is byte-identical for the same
+//! plan.
 
 use super::table::Table;
-use crate::family::plan::{Costs, Plan};
+use crate::family::plan::{Costs, Part, Plan};
+use serde::Serialize;
 
 /// The per-circuit and total cost table.
 pub fn cost_table(plan: &Plan) -> String {
@@ -88,18 +90,83 @@ pub fn most_control_copies(plan: &Plan) -> usize {
         .unwrap_or(0)
 }
 
-/// The cost table as JSON: every circuit's costs and the totals.
-pub fn cost_json(plan: &Plan) -> serde_json::Value {
-    let circuits: Vec<serde_json::Value> = plan.circuits.iter().map(|e| serde_json::json!({"id": e.id, "k": e.k, "time": e.time, "part": e.part, "costs": e.costs})).collect();
+/// The cost document `compile --json` starts from: every circuit's costs and the totals.
+#[derive(Serialize)]
+pub struct CostDoc<'a> {
+    /// One entry per circuit, in plan order.
+    pub circuits: Vec<CircuitCostDoc<'a>>,
+    /// The sums over all circuits.
+    pub total: CostTotalDoc,
+    /// The caution about estimates from noisy hardware (a sentence).
+    pub caution: &'static str,
+}
+
+/// One circuit's costs in the cost document.
+#[derive(Serialize)]
+pub struct CircuitCostDoc<'a> {
+    /// Circuit id (its OpenQASM file's stem).
+    pub id: &'a str,
+    /// Time-point index k (time k·dt).
+    pub k: usize,
+    /// Evolution time k·dt (inverse energy units, ħ = 1).
+    pub time: f64,
+    /// Which part of the Hadamard test (`re`, `im`), or null when the circuit has no part.
+    pub part: Option<Part>,
+    /// The costs the plan records (depth and gate counts; swaps, duration in ns and success
+    /// probability on a device).
+    pub costs: &'a Costs,
+}
+
+/// The totals of the cost document (counts summed over every circuit).
+#[derive(Serialize)]
+pub struct CostTotalDoc {
+    /// Number of circuits.
+    pub circuits: usize,
+    /// Sum of the circuits' depths (layers).
+    pub depth: usize,
+    /// Two-qubit gates.
+    pub two_qubit: usize,
+    /// One-qubit gates.
+    pub one_qubit: usize,
+    /// SWAPs inserted by routing.
+    pub swaps: usize,
+    /// The most control copies of the ancilla one circuit sets; omitted when no circuit spreads
+    /// the control.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub max_control_copies: Option<usize>,
+}
+
+/// The cost document of `plan`.
+pub fn cost_doc(plan: &Plan) -> CostDoc<'_> {
     let sum = |f: fn(&Costs) -> usize| plan.circuits.iter().map(|e| f(&e.costs)).sum::<usize>();
-    let mut json = serde_json::json!({
-        "circuits": circuits,
-        "total": {"circuits": plan.circuits.len(), "depth": sum(|c| c.depth), "two_qubit": sum(|c| c.two_qubit), "one_qubit": sum(|c| c.one_qubit), "swaps": sum(|c| c.swaps)},
-        "caution": "estimates depend on the device calibration; validate against trusted methods",
-    });
     let most = most_control_copies(plan);
-    if most > 0 {
-        json["total"]["max_control_copies"] = serde_json::json!(most);
+    CostDoc {
+        circuits: plan
+            .circuits
+            .iter()
+            .map(|e| CircuitCostDoc {
+                id: &e.id,
+                k: e.k,
+                time: e.time,
+                part: e.part,
+                costs: &e.costs,
+            })
+            .collect(),
+        total: CostTotalDoc {
+            circuits: plan.circuits.len(),
+            depth: sum(|c| c.depth),
+            two_qubit: sum(|c| c.two_qubit),
+            one_qubit: sum(|c| c.one_qubit),
+            swaps: sum(|c| c.swaps),
+            max_control_copies: (most > 0).then_some(most),
+        },
+        caution: "estimates depend on the device calibration; validate against trusted methods",
     }
-    json
+}
+
+/// The cost table as JSON ([`cost_doc`] as a value, keys in the order the structs declare
+/// them), for `compile --json` to extend.
+pub fn cost_json(plan: &Plan) -> serde_json::Value {
+    // Converting to a value fails only for maps with non-string keys; the document has none.
+    serde_json::to_value(cost_doc(plan)).expect("the cost document has string keys only")
 }

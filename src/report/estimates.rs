@@ -4,14 +4,16 @@
 //! In: an [`Analysis`] (an [`EnergyReport`] or a [`DosReport`] from [`crate::estimate::analyse`]),
 //! the [`Plan`] it came from (points, energy unit) and the counts' bit order. Out: the table
 //! `estimate` prints (its final-answer block on top for energies) and the
-//! `phasewright-estimate/1` document `estimate --json` prints. Invariant: a function of the
-//! values given alone, rows in report order, fixed number formats and JSON keys in a fixed
-//! order, so the report is byte-identical for the same analysis.
+//! `phasewright-estimate/1` document `estimate --json` prints, whose schema is the documented
+//! structs [`EnergyDoc`] and [`DosDoc`] (one struct per JSON object). Invariant: a function of
+//! the values given alone, rows in report order, fixed number formats and JSON keys in the
+//! order the structs declare them, so the report is byte-identical for the same analysis.
 
 use crate::estimate::counts::BitOrder;
 use crate::estimate::{self, Analysis, DosReport, EnergyReport, KrylovKind};
 use crate::family::plan::Plan;
-use serde_json::{json, Value};
+use serde::Serialize;
+use serde_json::Value;
 use std::fmt::Write as _;
 
 fn fmt_opt(x: Option<f64>, prec: usize) -> String {
@@ -200,49 +202,6 @@ pub fn answer_text(r: &EnergyReport) -> String {
     s
 }
 
-fn answer_json(r: &EnergyReport) -> Value {
-    match &r.answer {
-        None => Value::Null,
-        Some(a) => json!({
-            "energy": a.energy,
-            "sigma_stat": a.sigma_stat,
-            "sigma_sys": a.sigma_sys,
-            "sigma_fixed_dimension": a.sigma_fixed,
-            "sigma_selection": a.sigma_selection,
-            "sigma_total": a.sigma_total(),
-            "dimension": a.dimension,
-            "threshold": a.threshold,
-            "outside_bound": estimate::sanity::outside(a.energy, r.bound),
-            "method": ANSWER_METHOD,
-            "systematic": {
-                "threshold_sensitivity": a.threshold_sensitivity,
-                "unconverged_dimension": a.unconverged,
-                "contamination": a.contamination_sigma(),
-                "contamination_bias": a.contamination,
-                "ritz_modulus": a.ritz_modulus,
-                "gap": a.gap,
-                "trotter": a.trotter_sigma,
-                "trotter_correction": a.trotter_correction,
-                "trotter_bound": if a.trotter_bound.is_finite() { Some(a.trotter_bound) } else { None },
-            },
-            "accuracy": r.accuracy,
-            "accuracy_met": r.accuracy.map(|acc| a.sigma_total() <= acc),
-            "scan": a.scan.iter().map(|x| json!({
-                "dimension": x.dimension,
-                "threshold": x.threshold,
-                "energy": x.energy,
-                "kept": x.kept,
-                "sigma_stat": x.sigma_stat,
-                "threshold_sensitivity": x.threshold_sensitivity,
-                "unconverged": x.unconverged,
-                "ritz": x.ritz,
-                "contamination_bias": x.contamination,
-                "ritz_modulus": x.ritz_modulus,
-            })).collect::<Vec<_>>(),
-        }),
-    }
-}
-
 /// Largest number of rows the density-of-states table prints (JSON has every point).
 pub const DOS_TABLE_ROWS: usize = 41;
 
@@ -345,91 +304,412 @@ pub fn dos_table(r: &DosReport, plan: &Plan) -> String {
     s
 }
 
-fn series_json(s: &estimate::expect::Series) -> Value {
-    Value::Array(
-        s.values
-            .iter()
-            .zip(&s.std_errors)
-            .enumerate()
-            .map(|(k, (v, (sr, si)))| {
-                json!({"k": k, "re": v.re, "im": v.im, "re_std_error": sr, "im_std_error": si})
-            })
-            .collect(),
-    )
+/// The `phasewright-estimate/1` document of an overlap or krylov plan (`estimate --json`).
+/// Energies are in [`EnergyDoc::energy_unit`] (the units of the Hamiltonian's coefficients when
+/// absent); times in the inverse of that unit (ħ = 1).
+#[derive(Serialize)]
+pub struct EnergyDoc<'a> {
+    /// Document format and version: `phasewright-estimate/1`.
+    pub format: &'static str,
+    /// Unit of every energy (from the plan), or null when the input did not say.
+    pub energy_unit: Option<&'a str>,
+    /// What the error bars are: one bootstrap standard error (1 σ).
+    pub error_bars: &'static str,
+    /// Plan family: `overlap` or `krylov`.
+    pub family: &'static str,
+    /// Time step between time points (inverse energy units).
+    pub dt: f64,
+    /// Number of time points K of the plan.
+    pub points: usize,
+    /// Identity coefficient c of H, added back to every energy (energy units).
+    pub constant: f64,
+    /// Which end of a counts bit string is classical bit 0: `first` or `last`.
+    pub bit_order: &'static str,
+    /// How the Krylov column was computed: `toeplitz-h-s` or `toeplitz-sine-s`.
+    pub krylov_method: &'static str,
+    /// Bootstrap replicates behind the error bars (0: error bars off).
+    pub bootstrap: usize,
+    /// Seed of the bootstrap draws.
+    pub seed: u64,
+    /// The recommended energy with its errors, or null when none was found.
+    pub answer: Option<AnswerDoc>,
+    /// `|⟨ψ|E0⟩|²` of the reference state (a probability), or null when not computable.
+    pub reference_ground_weight: Option<f64>,
+    /// One row per Krylov dimension, in increasing dimension.
+    pub energies: Vec<EnergyRowDoc>,
+    /// The one-norm interval holding every eigenvalue of H.
+    pub energy_bound: BoundDoc,
+    /// Smallest eigenvalue of the full K×K Gram matrix S (dimensionless).
+    pub gram_min_eigenvalue: f64,
+    /// Noise scale of that eigenvalue from the shot noise of S (dimensionless).
+    pub gram_noise_scale: f64,
+    /// Whether any energy of the table or the answer lies outside [`EnergyDoc::energy_bound`].
+    pub outside_bound: bool,
+    /// How signal loss was undone (a sentence), or null when it was not.
+    pub signal_loss: Option<&'static str>,
+    /// Exact ground energy (energy units), or null when unknown.
+    pub exact: Option<f64>,
+    /// Where the exact ground energy came from (a phrase), or null.
+    pub exact_source: Option<&'static str>,
+    /// The overlaps `S_k = ⟨ψ|U^k|ψ⟩` (dimensionless), one point per time point.
+    pub overlaps: Vec<SeriesPoint>,
+    /// The elements `h_k` of H in the Krylov basis (energy units; krylov plans), or null.
+    pub hamiltonian_elements: Option<Vec<SeriesPoint>>,
+    /// The warnings printed on stderr, in order.
+    pub warnings: &'a [String],
 }
 
-/// The machine-readable result (`phasewright-estimate/1`).
-pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
-    match a {
-        Analysis::Energies(r) => json!({
-            "format": "phasewright-estimate/1",
-            "energy_unit": plan.energy_unit,
-            "error_bars": "one bootstrap standard error (1 sigma)",
-            "family": estimate::family_name(r.family),
-            "dt": r.dt,
-            "points": plan.points,
-            "constant": r.constant,
-            "bit_order": order.name(),
-            "krylov_method": match r.kind {
-                KrylovKind::Hamiltonian => "toeplitz-h-s",
-                KrylovKind::Sine => "toeplitz-sine-s",
-            },
-            "bootstrap": r.bootstrap,
-            "seed": r.seed,
-            "answer": answer_json(r),
-            "reference_ground_weight": r.reference_weight,
-            "energies": r.rows.iter().map(|row| json!({
-                "dimension": row.dimension,
-                "threshold": row.threshold,
-                "krylov": row.krylov,
-                "krylov_std_error": row.krylov_std_error,
-                "kept": row.kept,
-                "pencil": row.pencil,
-                "pencil_std_error": row.pencil_std_error,
-                "krylov_outside_bound": row.krylov_outside_bound,
-                "pencil_outside_bound": row.pencil_outside_bound,
-            })).collect::<Vec<_>>(),
-            "energy_bound": {"low": r.bound.0, "high": r.bound.1,
-                "rule": "c +- sum|c_j| (triangle inequality)"},
-            "gram_min_eigenvalue": r.gram_min.0,
-            "gram_noise_scale": r.gram_min.1,
-            "outside_bound": r.rows.iter().any(|x| x.krylov_outside_bound || x.pencil_outside_bound)
-                || r.answer.as_ref().is_some_and(|a| estimate::sanity::outside(a.energy, r.bound)),
-            "signal_loss": r.loss_method,
-            "exact": r.exact,
-            "exact_source": r.exact_source,
-            "overlaps": series_json(&r.overlaps),
-            "hamiltonian_elements": r.hamiltonian.as_ref().map(series_json),
-            "warnings": r.warnings,
-        }),
-        Analysis::Dos(r) => json!({
-            "format": "phasewright-estimate/1",
-            "energy_unit": plan.energy_unit,
-            "family": "trace",
-            "dt": r.dt,
-            "points": r.points,
-            "qubit_count": r.num_qubits,
-            "state_count": r.num_states,
-            "bit_order": order.name(),
-            "sigma": r.sigma,
-            "resolution_limit": r.resolution,
-            "quadrature": "rectangle rule on t_k = k*dt, |k| <= K-1",
-            "band": r.band_source,
-            "trotter_band": r.trotter_band,
-            "sampling_relative_at_peak": r.sampling_relative,
-            "states_for_ten_percent": r.states_for_ten_percent,
-            "signal_loss": r.loss_method,
-            "trace": series_json(&r.trace),
-            "dos": (0..r.energies.len()).map(|i| json!({
-                "energy": r.energies[i],
-                "density": r.density[i],
-                "std_error": r.std_error[i],
-                "quadrature_bound": r.quadrature_bound[i],
-                "exact": r.exact.as_ref().map(|e| e[i]),
-            })).collect::<Vec<_>>(),
-            "warnings": r.warnings,
-        }),
+/// The final answer of an energy document (energies and their errors in energy units).
+#[derive(Serialize)]
+pub struct AnswerDoc {
+    /// The recommended ground energy.
+    pub energy: f64,
+    /// Statistical error σ_stat (1 σ).
+    pub sigma_stat: f64,
+    /// Systematic error σ_sys (1 σ).
+    pub sigma_sys: f64,
+    /// Bootstrap standard error at the chosen dimension and threshold.
+    pub sigma_fixed_dimension: f64,
+    /// Bootstrap standard error of the whole procedure, dimension choice included.
+    pub sigma_selection: f64,
+    /// `√(σ_stat² + σ_sys²)`.
+    pub sigma_total: f64,
+    /// The chosen Krylov dimension (a count).
+    pub dimension: usize,
+    /// The threshold applied to the eigenvalues of S (dimensionless).
+    pub threshold: f64,
+    /// Whether the energy lies outside the one-norm bound.
+    pub outside_bound: bool,
+    /// How the answer was found (a sentence, [`ANSWER_METHOD`]).
+    pub method: &'static str,
+    /// The parts of σ_sys.
+    pub systematic: SystematicDoc,
+    /// The requested accuracy (`--accuracy`), or null.
+    pub accuracy: Option<f64>,
+    /// Whether σ_total is within the requested accuracy, or null without one.
+    pub accuracy_met: Option<bool>,
+    /// One row per dimension scanned, in increasing dimension.
+    pub scan: Vec<ScanRowDoc>,
+}
+
+/// The parts of the systematic error of the answer (energy units unless said otherwise).
+#[derive(Serialize)]
+pub struct SystematicDoc {
+    /// Sensitivity of the energy to the threshold (ε/2, 2ε).
+    pub threshold_sensitivity: f64,
+    /// Drops of the energy still to come with more dimensions.
+    pub unconverged_dimension: f64,
+    /// Contamination part of σ_sys, `β/√12`.
+    pub contamination: f64,
+    /// Upward bias bound β of the Ritz value (β/2 was subtracted).
+    pub contamination_bias: f64,
+    /// `|λ|` of the chosen Ritz value (dimensionless).
+    pub ritz_modulus: f64,
+    /// Gap to the next admissible Ritz value, or null when there is none.
+    pub gap: Option<f64>,
+    /// Trotter part of σ_sys.
+    pub trotter: f64,
+    /// Trotter shift `ε_0 − E_0` subtracted from the energy, or null when not computed.
+    pub trotter_correction: Option<f64>,
+    /// Rigorous bound on the Trotter shift, or null when it is vacuous.
+    pub trotter_bound: Option<f64>,
+}
+
+/// One dimension of the answer's scan (energy units; null where the dimension gave nothing).
+#[derive(Serialize)]
+pub struct ScanRowDoc {
+    /// Krylov dimension (a count).
+    pub dimension: usize,
+    /// Threshold on the eigenvalues of S (dimensionless).
+    pub threshold: f64,
+    /// Quasi-energy after the contamination correction.
+    pub energy: Option<f64>,
+    /// Directions of S kept (a count).
+    pub kept: Option<usize>,
+    /// Bootstrap standard error at this dimension.
+    pub sigma_stat: Option<f64>,
+    /// Sensitivity of the energy to the threshold.
+    pub threshold_sensitivity: Option<f64>,
+    /// Drops of the energy still to come.
+    pub unconverged: Option<f64>,
+    /// The lowest Ritz quasi-energy before the contamination correction.
+    pub ritz: Option<f64>,
+    /// Upward bias bound β of the Ritz value.
+    pub contamination_bias: Option<f64>,
+    /// `|λ|` of the lowest admissible Ritz value (dimensionless).
+    pub ritz_modulus: Option<f64>,
+}
+
+/// One Krylov dimension of the energy table (energy units; null where nothing was found).
+#[derive(Serialize)]
+pub struct EnergyRowDoc {
+    /// Krylov dimension d (a count).
+    pub dimension: usize,
+    /// Threshold applied to the eigenvalues of S (dimensionless).
+    pub threshold: f64,
+    /// Lowest Krylov energy of H, constant included.
+    pub krylov: Option<f64>,
+    /// Its bootstrap standard error.
+    pub krylov_std_error: Option<f64>,
+    /// Directions of S kept (a count out of d).
+    pub kept: Option<usize>,
+    /// Matrix-pencil ground energy, constant included.
+    pub pencil: Option<f64>,
+    /// Its bootstrap standard error.
+    pub pencil_std_error: Option<f64>,
+    /// Whether the Krylov energy lies outside the one-norm bound.
+    pub krylov_outside_bound: bool,
+    /// Whether the pencil energy lies outside the one-norm bound.
+    pub pencil_outside_bound: bool,
+}
+
+/// The interval `[c − Σ|c_j|, c + Σ|c_j|]` holding every eigenvalue of H (energy units).
+#[derive(Serialize)]
+pub struct BoundDoc {
+    /// Lower end.
+    pub low: f64,
+    /// Upper end.
+    pub high: f64,
+    /// The rule it comes from (a phrase).
+    pub rule: &'static str,
+}
+
+/// One time point k of a complex series with its standard errors (the series' own unit).
+#[derive(Serialize)]
+pub struct SeriesPoint {
+    /// Time-point index k (time k·dt).
+    pub k: usize,
+    /// Real part.
+    pub re: f64,
+    /// Imaginary part.
+    pub im: f64,
+    /// Standard error of the real part.
+    pub re_std_error: f64,
+    /// Standard error of the imaginary part.
+    pub im_std_error: f64,
+}
+
+/// The `phasewright-estimate/1` document of a trace plan (`estimate --json`): the density of
+/// states. Energies are in [`DosDoc::energy_unit`], densities in states per unit energy.
+#[derive(Serialize)]
+pub struct DosDoc<'a> {
+    /// Document format and version: `phasewright-estimate/1`.
+    pub format: &'static str,
+    /// Unit of every energy (from the plan), or null when the input did not say.
+    pub energy_unit: Option<&'a str>,
+    /// Plan family: `trace`.
+    pub family: &'static str,
+    /// Time step between time points (inverse energy units).
+    pub dt: f64,
+    /// Number of time points K.
+    pub points: usize,
+    /// Number of qubits n (the density integrates to 2ⁿ).
+    pub qubit_count: usize,
+    /// Number of random states averaged over.
+    pub state_count: usize,
+    /// Which end of a counts bit string is classical bit 0: `first` or `last`.
+    pub bit_order: &'static str,
+    /// Gaussian broadening σ (energy units).
+    pub sigma: f64,
+    /// Resolution limit π/(K·dt) (energy units).
+    pub resolution_limit: f64,
+    /// The quadrature rule (a phrase).
+    pub quadrature: &'static str,
+    /// Where the error band's σ comes from (a phrase).
+    pub band: &'static str,
+    /// Bound on the density change from the product formula at every energy (states per unit
+    /// energy), or null when the Trotter bound is vacuous.
+    pub trotter_band: Option<f64>,
+    /// Relative random-state sampling error at the density's maximum (a fraction), or null
+    /// with one state.
+    pub sampling_relative_at_peak: Option<f64>,
+    /// Random states needed for a 10% sampling error at the maximum, or null with one state.
+    pub states_for_ten_percent: Option<usize>,
+    /// How signal loss was undone (a sentence), or null when it was not.
+    pub signal_loss: Option<&'static str>,
+    /// The normalised trace `tr U(k·dt)/2ⁿ` (dimensionless), one point per time point.
+    pub trace: Vec<SeriesPoint>,
+    /// The density at every energy of the grid, in increasing energy.
+    pub dos: Vec<DosPointDoc>,
+    /// The warnings printed on stderr, in order.
+    pub warnings: &'a [String],
+}
+
+/// The density of states at one energy (states per unit energy unless said otherwise).
+#[derive(Serialize)]
+pub struct DosPointDoc {
+    /// The energy (energy units).
+    pub energy: f64,
+    /// Estimated broadened density ρ_σ.
+    pub density: f64,
+    /// Its standard error.
+    pub std_error: f64,
+    /// Quadrature (truncation and aliasing) error bound; null where infinite.
+    pub quadrature_bound: f64,
+    /// Exact broadened density, or null when the plan is too large to diagonalise.
+    pub exact: Option<f64>,
+}
+
+fn answer_doc(r: &EnergyReport) -> Option<AnswerDoc> {
+    let a = r.answer.as_ref()?;
+    Some(AnswerDoc {
+        energy: a.energy,
+        sigma_stat: a.sigma_stat,
+        sigma_sys: a.sigma_sys,
+        sigma_fixed_dimension: a.sigma_fixed,
+        sigma_selection: a.sigma_selection,
+        sigma_total: a.sigma_total(),
+        dimension: a.dimension,
+        threshold: a.threshold,
+        outside_bound: estimate::sanity::outside(a.energy, r.bound),
+        method: ANSWER_METHOD,
+        systematic: SystematicDoc {
+            threshold_sensitivity: a.threshold_sensitivity,
+            unconverged_dimension: a.unconverged,
+            contamination: a.contamination_sigma(),
+            contamination_bias: a.contamination,
+            ritz_modulus: a.ritz_modulus,
+            gap: a.gap,
+            trotter: a.trotter_sigma,
+            trotter_correction: a.trotter_correction,
+            trotter_bound: a.trotter_bound.is_finite().then_some(a.trotter_bound),
+        },
+        accuracy: r.accuracy,
+        accuracy_met: r.accuracy.map(|acc| a.sigma_total() <= acc),
+        scan: a
+            .scan
+            .iter()
+            .map(|x| ScanRowDoc {
+                dimension: x.dimension,
+                threshold: x.threshold,
+                energy: x.energy,
+                kept: x.kept,
+                sigma_stat: x.sigma_stat,
+                threshold_sensitivity: x.threshold_sensitivity,
+                unconverged: x.unconverged,
+                ritz: x.ritz,
+                contamination_bias: x.contamination,
+                ritz_modulus: x.ritz_modulus,
+            })
+            .collect(),
+    })
+}
+
+fn series_points(s: &estimate::expect::Series) -> Vec<SeriesPoint> {
+    s.values
+        .iter()
+        .zip(&s.std_errors)
+        .enumerate()
+        .map(|(k, (v, &(sr, si)))| SeriesPoint {
+            k,
+            re: v.re,
+            im: v.im,
+            re_std_error: sr,
+            im_std_error: si,
+        })
+        .collect()
+}
+
+/// The energy document of an overlap or krylov plan.
+pub fn energy_doc<'a>(r: &'a EnergyReport, plan: &'a Plan, order: BitOrder) -> EnergyDoc<'a> {
+    EnergyDoc {
+        format: "phasewright-estimate/1",
+        energy_unit: plan.energy_unit.as_deref(),
+        error_bars: "one bootstrap standard error (1 sigma)",
+        family: estimate::family_name(r.family),
+        dt: r.dt,
+        points: plan.points,
+        constant: r.constant,
+        bit_order: order.name(),
+        krylov_method: match r.kind {
+            KrylovKind::Hamiltonian => "toeplitz-h-s",
+            KrylovKind::Sine => "toeplitz-sine-s",
+        },
+        bootstrap: r.bootstrap,
+        seed: r.seed,
+        answer: answer_doc(r),
+        reference_ground_weight: r.reference_weight,
+        energies: r
+            .rows
+            .iter()
+            .map(|row| EnergyRowDoc {
+                dimension: row.dimension,
+                threshold: row.threshold,
+                krylov: row.krylov,
+                krylov_std_error: row.krylov_std_error,
+                kept: row.kept,
+                pencil: row.pencil,
+                pencil_std_error: row.pencil_std_error,
+                krylov_outside_bound: row.krylov_outside_bound,
+                pencil_outside_bound: row.pencil_outside_bound,
+            })
+            .collect(),
+        energy_bound: BoundDoc {
+            low: r.bound.0,
+            high: r.bound.1,
+            rule: "c +- sum|c_j| (triangle inequality)",
+        },
+        gram_min_eigenvalue: r.gram_min.0,
+        gram_noise_scale: r.gram_min.1,
+        outside_bound: r
+            .rows
+            .iter()
+            .any(|x| x.krylov_outside_bound || x.pencil_outside_bound)
+            || r.answer
+                .as_ref()
+                .is_some_and(|a| estimate::sanity::outside(a.energy, r.bound)),
+        signal_loss: r.loss_method,
+        exact: r.exact,
+        exact_source: r.exact_source,
+        overlaps: series_points(&r.overlaps),
+        hamiltonian_elements: r.hamiltonian.as_ref().map(series_points),
+        warnings: &r.warnings,
     }
+}
+
+/// The density-of-states document of a trace plan.
+pub fn dos_doc<'a>(r: &'a DosReport, plan: &'a Plan, order: BitOrder) -> DosDoc<'a> {
+    DosDoc {
+        format: "phasewright-estimate/1",
+        energy_unit: plan.energy_unit.as_deref(),
+        family: "trace",
+        dt: r.dt,
+        points: r.points,
+        qubit_count: r.num_qubits,
+        state_count: r.num_states,
+        bit_order: order.name(),
+        sigma: r.sigma,
+        resolution_limit: r.resolution,
+        quadrature: "rectangle rule on t_k = k*dt, |k| <= K-1",
+        band: r.band_source,
+        trotter_band: r.trotter_band,
+        sampling_relative_at_peak: r.sampling_relative,
+        states_for_ten_percent: r.states_for_ten_percent,
+        signal_loss: r.loss_method,
+        trace: series_points(&r.trace),
+        dos: (0..r.energies.len())
+            .map(|i| DosPointDoc {
+                energy: r.energies[i],
+                density: r.density[i],
+                std_error: r.std_error[i],
+                quadrature_bound: r.quadrature_bound[i],
+                exact: r.exact.as_ref().map(|e| e[i]),
+            })
+            .collect(),
+        warnings: &r.warnings,
+    }
+}
+
+/// The machine-readable result (`phasewright-estimate/1`): [`energy_doc`] or [`dos_doc`] as a
+/// JSON value, keys in the order the structs declare them (serde_json's `preserve_order`).
+pub fn to_json(a: &Analysis, plan: &Plan, order: BitOrder) -> Value {
+    // Converting to a value fails only for maps with non-string keys; these documents have none,
+    // and non-finite numbers become null.
+    let value = match a {
+        Analysis::Energies(r) => serde_json::to_value(energy_doc(r, plan, order)),
+        Analysis::Dos(r) => serde_json::to_value(dos_doc(r, plan, order)),
+    };
+    value.expect("an estimate document has string keys only")
 }
 
 /// The lines that close the energy and density-of-states tables: how signal loss was undone,

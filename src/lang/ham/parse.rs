@@ -9,11 +9,13 @@ use super::syntax::*;
 use super::Encoding;
 use crate::diag::{Code, Diagnostic};
 pub(super) use crate::lang::ident::{ident_len, is_ident_char};
+pub(super) use crate::lang::syntax_error::Res;
+use crate::lang::syntax_error::SyntaxError;
 use crate::pauli::Pauli;
 use nom::character::complete::{char, digit1};
 use nom::combinator::cut;
-use nom::error::{context, ContextError, ErrorKind, ParseError};
-use nom::{IResult, Offset};
+use nom::error::{context, ErrorKind, ParseError};
+use nom::Offset;
 use std::cell::RefCell;
 use std::collections::HashSet;
 
@@ -21,63 +23,24 @@ use std::collections::HashSet;
 // Parser errors
 // ---------------------------------------------------------------------------------------------
 
-/// A nom error that remembers where it happened, the innermost `context` label and, for errors
-/// raised by hand, the exact message, hint and caret width.
-#[derive(Clone, Debug)]
-pub(super) struct PErr<'a> {
-    pub(super) at: &'a str,
-    pub(super) expected: Option<&'static str>,
-    pub(super) custom: Option<(Code, String, Option<String>, usize)>,
-}
-
-impl<'a> ParseError<&'a str> for PErr<'a> {
-    fn from_error_kind(input: &'a str, _kind: ErrorKind) -> Self {
-        PErr {
-            at: input,
-            expected: None,
-            custom: None,
-        }
-    }
-    fn append(_input: &'a str, _kind: ErrorKind, other: Self) -> Self {
-        other
-    }
-    fn or(self, other: Self) -> Self {
-        // Keep the error that got further into the input.
-        if other.at.len() < self.at.len() {
-            other
-        } else {
-            self
-        }
-    }
-}
-
-impl<'a> ContextError<&'a str> for PErr<'a> {
-    fn add_context(_input: &'a str, ctx: &'static str, mut other: Self) -> Self {
-        if other.expected.is_none() && other.custom.is_none() {
-            other.expected = Some(ctx);
-        }
-        other
-    }
-}
-
-pub(super) type PResult<'a, T> = IResult<&'a str, T, PErr<'a>>;
-
 pub(super) fn fail<'a, T>(
     code: Code,
     at: &'a str,
     len: usize,
     msg: impl Into<String>,
     hint: &str,
-) -> PResult<'a, T> {
-    Err(nom::Err::Failure(PErr {
+) -> Res<'a, T> {
+    Err(nom::Err::Failure(SyntaxError::reported(
         at,
-        expected: None,
-        custom: Some((code, msg.into(), Some(hint.to_string()), len)),
-    }))
+        code,
+        msg.into(),
+        Some(hint.to_string()),
+        len,
+    )))
 }
 
-pub(super) fn backtrack<T>(at: &str) -> PResult<'_, T> {
-    Err(nom::Err::Error(PErr::from_error_kind(
+pub(super) fn backtrack<T>(at: &str) -> Res<'_, T> {
+    Err(nom::Err::Error(SyntaxError::from_error_kind(
         at,
         ErrorKind::Verify,
     )))
@@ -129,7 +92,7 @@ pub(super) fn sp(i: &str) -> &str {
     i.trim_start_matches([' ', '\t', '\r'])
 }
 
-pub(super) fn ident(i: &str) -> PResult<'_, &str> {
+pub(super) fn ident(i: &str) -> Res<'_, &str> {
     crate::lang::ident::ident(i)
 }
 
@@ -177,7 +140,7 @@ pub(super) fn is_factor_name(name: &str) -> bool {
 
 /// Numeric literal: `12`, `0.25`, `1.`, `.5`, `1e-3`, `2.5E+2`, optionally with an `i` suffix
 /// (imaginary). A `.` directly followed by another `.` is left for the range operator.
-pub(super) fn number(i: &str) -> PResult<'_, (f64, bool, bool, &str)> {
+pub(super) fn number(i: &str) -> Res<'_, (f64, bool, bool, &str)> {
     let b = i.as_bytes();
     let digits_from = |mut k: usize| {
         while k < b.len() && b[k].is_ascii_digit() {
@@ -274,7 +237,7 @@ pub(super) fn skip_separators(mut i: &str, in_body: bool) -> &str {
 pub(super) struct Parser<'a> {
     pub(super) src: &'a str,
     /// Errors recorded while recovering (sum bodies).
-    pub(super) errors: RefCell<Vec<PErr<'a>>>,
+    pub(super) errors: RefCell<Vec<SyntaxError<'a>>>,
 }
 
 impl<'a> Parser<'a> {
@@ -294,7 +257,7 @@ impl<'a> Parser<'a> {
     }
 
     // expr    = product { ("+" | "-") product }
-    pub(super) fn expr(&self, i: &'a str) -> PResult<'a, Expr> {
+    pub(super) fn expr(&self, i: &'a str) -> Res<'a, Expr> {
         let (mut i, mut lhs) = self.product(i)?;
         loop {
             let j = sp(i);
@@ -320,7 +283,7 @@ impl<'a> Parser<'a> {
     }
 
     // product = unary { ("*" | "/" | "%") unary }   (a "*" before a factor ends the coefficient)
-    pub(super) fn product(&self, i: &'a str) -> PResult<'a, Expr> {
+    pub(super) fn product(&self, i: &'a str) -> Res<'a, Expr> {
         let (mut i, mut lhs) = self.unary(i)?;
         loop {
             let j = sp(i);
@@ -347,7 +310,7 @@ impl<'a> Parser<'a> {
     }
 
     // unary   = ("-" | "+") unary | atom
-    pub(super) fn unary(&self, i: &'a str) -> PResult<'a, Expr> {
+    pub(super) fn unary(&self, i: &'a str) -> Res<'a, Expr> {
         if let Some(r) = i.strip_prefix('-') {
             if is_factor_start(sp(r)) {
                 // `-X0` reads as `-1 X0`.
@@ -383,7 +346,7 @@ impl<'a> Parser<'a> {
     }
 
     // atom    = number | name | "(" expr ")"
-    pub(super) fn atom(&self, i: &'a str) -> PResult<'a, Expr> {
+    pub(super) fn atom(&self, i: &'a str) -> Res<'a, Expr> {
         if let Some(r) = i.strip_prefix('(') {
             let (r, inner) = context(L_OPERAND, cut(|x| self.expr(x)))(sp(r))?;
             let (r, _) = context(L_CLOSE_PAREN, cut(char(')')))(sp(r))?;
@@ -422,7 +385,7 @@ impl<'a> Parser<'a> {
     }
 
     // factor  = ("X" | "Y" | "Z" | "cr" | "an" | "n") (digits | "{" expr "}")
-    pub(super) fn factor(&self, i: &'a str) -> PResult<'a, Factor> {
+    pub(super) fn factor(&self, i: &'a str) -> Res<'a, Factor> {
         let Some((kind, n)) = factor_head(i) else {
             return backtrack(i);
         };
@@ -456,7 +419,7 @@ impl<'a> Parser<'a> {
     }
 
     // term    = coefficient ["*"] {factor} ["+" "h.c."] | factor {factor} ["+" "h.c."]
-    pub(super) fn term(&self, start: &'a str) -> PResult<'a, Term> {
+    pub(super) fn term(&self, start: &'a str) -> Res<'a, Term> {
         let (mut i, coeff) = if is_factor_start(start) {
             (start, None)
         } else {
@@ -504,7 +467,7 @@ impl<'a> Parser<'a> {
     }
 
     /// A name for `let` or a loop variable: not a keyword, not spelled like a factor.
-    pub(super) fn new_name(&self, i: &'a str, label: &'static str) -> PResult<'a, (String, Span)> {
+    pub(super) fn new_name(&self, i: &'a str, label: &'static str) -> Res<'a, (String, Span)> {
         let (r, name) = context(label, cut(ident))(i)?;
         if KEYWORDS.contains(&name) {
             return fail(
@@ -528,7 +491,7 @@ impl<'a> Parser<'a> {
     }
 
     // qubits  = "qubits" integer
-    pub(super) fn qubits(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
+    pub(super) fn qubits(&self, kw: &'a str, r: &'a str) -> Res<'a, Stmt> {
         let at = sp(r);
         let (r, d) = context(L_QUBITS, cut(digit1))(at)?;
         let count = d.parse::<u64>().unwrap_or(u64::MAX);
@@ -543,7 +506,7 @@ impl<'a> Parser<'a> {
     }
 
     // encoding = "encoding" ("jw" | "bk")
-    pub(super) fn encoding(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
+    pub(super) fn encoding(&self, kw: &'a str, r: &'a str) -> Res<'a, Stmt> {
         let at = sp(r);
         let (r, word) = context(L_ENCODING, cut(ident))(at)?;
         let encoding = match Encoding::from_short_name(word) {
@@ -568,7 +531,7 @@ impl<'a> Parser<'a> {
     }
 
     // let     = "let" name "=" expr
-    pub(super) fn let_stmt(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
+    pub(super) fn let_stmt(&self, kw: &'a str, r: &'a str) -> Res<'a, Stmt> {
         let (r, (name, name_span)) = self.new_name(sp(r), L_LET_NAME)?;
         let (r, _) = context(L_EQUALS, cut(char('=')))(sp(r))?;
         let (r, value) = context(L_VALUE, cut(|x| self.expr(x)))(sp(r))?;
@@ -584,7 +547,7 @@ impl<'a> Parser<'a> {
     }
 
     // sum     = "sum" name "in" expr ".." expr "{" body "}"
-    pub(super) fn sum(&self, kw: &'a str, r: &'a str) -> PResult<'a, Stmt> {
+    pub(super) fn sum(&self, kw: &'a str, r: &'a str) -> Res<'a, Stmt> {
         let (r, (var, var_span)) = self.new_name(sp(r), L_LOOP_VAR)?;
         let at = sp(r);
         let (r, word) = context(L_IN, cut(ident))(at)?;
@@ -622,21 +585,18 @@ impl<'a> Parser<'a> {
     }
 
     /// Items of a sum body up to the matching `}`; errors inside are recorded and skipped.
-    pub(super) fn body(&self, open: &'a str, mut i: &'a str) -> PResult<'a, Vec<Stmt>> {
+    pub(super) fn body(&self, open: &'a str, mut i: &'a str) -> Res<'a, Vec<Stmt>> {
         let mut items = Vec::new();
         loop {
             i = skip_separators(i, true);
             if i.is_empty() {
-                self.errors.borrow_mut().push(PErr {
-                    at: open,
-                    expected: None,
-                    custom: Some((
-                        Code::HamSyntax,
-                        "unclosed `{`: the sum body never ends".into(),
-                        Some("close the sum body with `}`".into()),
-                        1,
-                    )),
-                });
+                self.errors.borrow_mut().push(SyntaxError::reported(
+                    open,
+                    Code::HamSyntax,
+                    "unclosed `{`: the sum body never ends".into(),
+                    Some("close the sum body with `}`".into()),
+                    1,
+                ));
                 return Ok(("", items));
             }
             if let Some(r) = i.strip_prefix('}') {
@@ -660,7 +620,7 @@ impl<'a> Parser<'a> {
     }
 
     // statement = qubits | let | sum | term
-    pub(super) fn statement(&self, i: &'a str, top: bool) -> PResult<'a, Stmt> {
+    pub(super) fn statement(&self, i: &'a str, top: bool) -> Res<'a, Stmt> {
         if let Ok((r, word)) = ident(i) {
             match word {
                 "qubits" if top => return self.qubits(i, r),
@@ -697,7 +657,7 @@ impl<'a> Parser<'a> {
         &self,
         r: &'a str,
         in_body: bool,
-    ) -> Result<&'a str, nom::Err<PErr<'a>>> {
+    ) -> Result<&'a str, nom::Err<SyntaxError<'a>>> {
         let j = sp(r);
         let j = if j.starts_with('#') {
             j.find('\n').map_or("", |k| &j[k..])
@@ -817,12 +777,18 @@ pub(super) fn recover_in_body(at: &str) -> &str {
     skip_line(at)
 }
 
-pub(super) fn perr_to_diag(file: &str, src: &str, e: &PErr<'_>) -> Diagnostic {
+pub(super) fn perr_to_diag(file: &str, src: &str, e: &SyntaxError<'_>) -> Diagnostic {
     let offset = src.offset(e.at);
-    match &e.custom {
-        Some((code, msg, hint, len)) => {
-            Diagnostic::at(*code, file, src, offset, *len, msg.clone(), hint.clone())
-        }
+    match &e.reported {
+        Some(r) => Diagnostic::at(
+            r.code,
+            file,
+            src,
+            offset,
+            r.len,
+            r.message.clone(),
+            r.hint.clone(),
+        ),
         None => {
             let (found, len) = describe(e.at);
             match e.expected {
