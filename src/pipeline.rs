@@ -85,7 +85,7 @@
 //! the available memory (`sim::available_memory_bytes`), so a campaign predicted to need more
 //! is refused before it is built.
 
-use crate::circuit::cancel::Peephole;
+use crate::circuit::cancel::{Peephole, Settled};
 use crate::circuit::metrics::{counts_of, Counter, Counts};
 use crate::circuit::verify::{verify_gates, verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
@@ -108,6 +108,7 @@ use crate::route::{
 use crate::synth::groups::RunNetworks;
 use crate::synth::{Block, Chain, Groups, Pairs, Sharing, Strategy, Tree};
 use rayon::prelude::*;
+use std::ops::Range;
 use std::time::Instant;
 
 /// Where the circuits will run.
@@ -595,17 +596,18 @@ impl LaterBlocks {
 /// The shared gates of the circuits of one time point (preparation and evolution) on the
 /// all-to-all target: fed to the peephole stream (level ≥ 1), or as synthesised (level 0).
 enum Body {
-    /// The stream, and the costs of the gates it holds so far.
-    Stream(Peephole, Counter),
+    /// The stream, settled for the readouts of its circuits, and the costs of its gates.
+    Stream(Settled, Counter),
     Raw(Vec<Gate>),
 }
 
 impl Body {
-    /// A body fed to the peephole stream, counted once.
-    fn stream(stream: Peephole, num_qubits: usize) -> Body {
+    /// A body fed to the peephole stream, counted once, and settled for readouts of at most
+    /// `longest_readout` gates ([`Peephole::settle`]: the stacks shrink to their tops).
+    fn stream(stream: Peephole, num_qubits: usize, longest_readout: usize) -> Body {
         let mut counter = Counter::new(num_qubits);
         counter.extend(stream.gates());
-        Body::Stream(stream, counter)
+        Body::Stream(stream.settle(longest_readout), counter)
     }
 
     /// The gates of the whole circuit: this body, then `readout`.
@@ -644,23 +646,26 @@ impl Body {
 }
 
 impl Body {
-    /// The program text of the circuit made of this body and `readout`, on `(qubits, bits)`.
-    /// When the readout only appends (the usual case) the body's gates are verified and
-    /// written once, into `cache`, and copied into every circuit that keeps this body (the
-    /// real and imaginary parts of one Hadamard test, say); the readout's gates are verified on
-    /// their own, which is the same check because a body holds no measurement (it is verified
-    /// with no classical bits). A readout that changes the body's last gates verifies and
-    /// writes its whole circuit.
+    /// The program text of the circuit made of this body and `readout`, on `(qubits, bits)`,
+    /// and, when the readout only appends (the usual case), where the body's text lies in it.
+    /// Then the body's gates are verified and written once, by the first circuit that keeps
+    /// this body, and each later one is given them back as `written` (the bytes at that range
+    /// of the first one's text) and copies them (the real and imaginary parts of one Hadamard
+    /// test, say), so no copy of a body's text is held beside the circuits' texts. The
+    /// readout's gates are verified on their own, which is the same check because a body
+    /// holds no measurement (it is verified with no classical bits). A readout that changes
+    /// the body's last gates verifies and writes its whole circuit.
     fn text_with_readout(
         &self,
         (num_qubits, num_clbits): (usize, usize),
         readout: &[Gate],
         comments: &[String],
-        cache: &mut Option<Vec<u8>>,
-    ) -> Result<String, IrError> {
+        written: Option<&[u8]>,
+    ) -> Result<(String, Option<Range<usize>>), IrError> {
         let rules = Rules::default();
         let logical = Addressing::Logical;
         let mut out = Vec::new();
+        let mut body_at = None;
         let text = |out: &mut Vec<u8>, gates: &mut dyn Iterator<Item = Gate>| {
             crate::qasm::write_gate_iter(out, gates, logical).expect("writing to memory")
         };
@@ -674,27 +679,28 @@ impl Body {
                 let appended: Option<Vec<Gate>> = tailed.appended_only().map(Iterator::collect);
                 match appended {
                     Some(tail) => {
-                        let body = match cache {
-                            Some(body) => body,
-                            None => {
-                                verify_gates(num_qubits, 0, s.gates(), &rules).map_err(|e| {
-                                    IrError {
-                                        message: format!(
-                                            "{} (in the body, which holds no measurement)",
-                                            e.message
-                                        ),
-                                        ..e
-                                    }
-                                })?;
-                                let mut body = Vec::new();
-                                text(&mut body, &mut s.gates());
-                                cache.insert(body)
-                            }
-                        };
+                        if written.is_none() {
+                            verify_gates(num_qubits, 0, s.gates(), &rules).map_err(|e| {
+                                IrError {
+                                    message: format!(
+                                        "{} (in the body, which holds no measurement)",
+                                        e.message
+                                    ),
+                                    ..e
+                                }
+                            })?;
+                        }
                         verify_gates(num_qubits, num_clbits, tail.iter().copied(), &rules)?;
-                        out.reserve(body.len() + 64 * tail.len() + 512);
+                        if let Some(body) = written {
+                            out.reserve(body.len() + 64 * tail.len() + 512);
+                        }
                         header(&mut out);
-                        out.extend_from_slice(body);
+                        let start = out.len();
+                        match written {
+                            Some(body) => out.extend_from_slice(body),
+                            None => text(&mut out, &mut s.gates()),
+                        }
+                        body_at = Some(start..out.len());
                         text(&mut out, &mut tail.into_iter());
                     }
                     None => {
@@ -711,8 +717,14 @@ impl Body {
                 text(&mut out, &mut all());
             }
         }
-        Ok(String::from_utf8(out).expect("the writer emits ASCII"))
+        let text = String::from_utf8(out).expect("the writer emits ASCII");
+        Ok((text, body_at))
     }
+}
+
+/// The most gates of any readout among `frames` (what their shared body is settled for).
+fn longest_suffix(frames: &[crate::family::Frame]) -> usize {
+    frames.iter().map(|f| f.suffix.len()).max().unwrap_or(0)
 }
 
 /// The leading comment lines of a circuit's program.
@@ -951,27 +963,34 @@ pub fn compile_at(
                     .zip(&uses)
                     .map(|(b, &u)| (u > 0).then_some(b))
                     .collect();
-                // Each body's text, written the first time a circuit keeps it.
-                let mut texts: Vec<Option<Vec<u8>>> = bodies.iter().map(|_| None).collect();
+                // Per body, the circuit (index in `built.finished`) whose text first held the
+                // body's text, and where: later circuits copy it from there.
+                let mut texts: Vec<Option<(usize, Range<usize>)>> =
+                    bodies.iter().map(|_| None).collect();
                 for (f, (i, n)) in frames_k.into_iter().zip(chosen) {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, None);
                     let body = bodies[i].as_ref().expect("a body some circuit keeps");
-                    let text = stage(Stage::Format, || {
+                    let written = texts[i]
+                        .as_ref()
+                        .map(|(c, at)| &built.finished[*c].program.as_bytes()[at.clone()]);
+                    let (text, body_at) = stage(Stage::Format, || {
                         body.text_with_readout(
                             (f.num_qubits, f.num_clbits),
                             &f.suffix,
                             &comments,
-                            &mut texts[i],
+                            written,
                         )
                     })
                     .map_err(|e| IrError {
                         message: format!("after pass `cancel`: {}", e.message),
                         ..e
                     })?;
+                    if texts[i].is_none() {
+                        texts[i] = body_at.map(|at| (built.finished.len(), at));
+                    }
                     uses[i] -= 1;
                     if uses[i] == 0 {
                         bodies[i] = None;
-                        texts[i] = None;
                     }
                     if !built.kept.contains(&cands[i]) {
                         built.kept.push(cands[i]);
@@ -1004,6 +1023,7 @@ pub fn compile_at(
                 let first = &frames_k[0];
                 let k = first.k;
                 let cands = candidates_in(k, only);
+                let longest_readout = longest_suffix(&frames_k);
                 let bodies: Vec<Body> = cands
                     .par_iter()
                     .map(|&(order, synthesis)| {
@@ -1031,7 +1051,9 @@ pub fn compile_at(
                                 }
                                 stream
                             });
-                            stage(Stage::Readout, || Body::stream(stream, first.num_qubits))
+                            stage(Stage::Readout, || {
+                                Body::stream(stream, first.num_qubits, longest_readout)
+                            })
                         } else {
                             Body::Raw(body.gates)
                         })
@@ -1088,7 +1110,7 @@ pub fn compile_at(
                         shared[class[0]][0].num_qubits,
                         shared[class[0]][0].prefix.clone(),
                     );
-                    let blocks: Vec<(Vec<usize>, LaterBlocks)> = union
+                    let mut blocks: Vec<Option<(Vec<usize>, LaterBlocks)>> = union
                         .par_iter()
                         .map(|&(order, synthesis)| {
                             let members: Vec<usize> = (0..class.len())
@@ -1129,26 +1151,34 @@ pub fn compile_at(
                                 Some(form) => LaterBlocks::periodic(&form, &synthesize),
                                 None => LaterBlocks::grown(&progs, &synthesize),
                             });
-                            (members, blocks)
+                            Some((members, blocks))
                         })
                         .collect();
-                    // One point at a time: its candidates' streams are fed from the blocks (in
-                    // parallel), scored, written and dropped before the next point's are fed,
-                    // so the streams of one point are alive at once, not those of the class.
+                    // One point at a time, and one candidate at a time within it: each
+                    // stream is fed from its blocks and settled (`Body::stream`) before the
+                    // next is fed, a candidate's blocks are dropped once its last point is fed,
+                    // and the point is scored, written and dropped before the next point's
+                    // streams are fed. So one unsettled stream is alive at once, beside the
+                    // settled bodies of its point, not the streams of the class.
                     for (j, &i) in class.iter().enumerate() {
-                        let bodies: Vec<Body> = cands[j]
-                            .par_iter()
-                            .map(|c| {
-                                let u = union.iter().position(|x| x == c).expect("in the union");
-                                let (members, blocks) = &blocks[u];
-                                let at = members.iter().position(|&m| m == j).expect("a member");
-                                let stream = stage(Stage::LaterPoints, || {
-                                    blocks.stream(num_qubits, &prefix, at)
-                                });
-                                stage(Stage::Readout, || Body::stream(stream, num_qubits))
-                            })
-                            .collect();
                         let frames_k = std::mem::take(&mut shared[i]);
+                        let longest_readout = longest_suffix(&frames_k);
+                        let mut bodies: Vec<Body> = Vec::with_capacity(cands[j].len());
+                        for c in &cands[j] {
+                            let u = union.iter().position(|x| x == c).expect("in the union");
+                            let (members, point_blocks) =
+                                blocks[u].as_ref().expect("a candidate with points to feed");
+                            let at = members.iter().position(|&m| m == j).expect("a member");
+                            let stream = stage(Stage::LaterPoints, || {
+                                point_blocks.stream(num_qubits, &prefix, at)
+                            });
+                            if at + 1 == members.len() {
+                                blocks[u] = None;
+                            }
+                            bodies.push(stage(Stage::Readout, || {
+                                Body::stream(stream, num_qubits, longest_readout)
+                            }));
+                        }
                         done[i] = Some(pick(frames_k, &cands[j], bodies)?.finished);
                     }
                 }
@@ -1527,6 +1557,37 @@ mod tests {
         h
     }
 
+    /// The predicted peak stays above what a compile must hold when it ends, every circuit's
+    /// text (`Compiled::programs`), however the later points are built; and it counts the
+    /// circuits the campaign emits (two per point past k = 0 for one reference state).
+    #[test]
+    fn predicted_memory_covers_the_texts_held() {
+        let h = sum_on_five(&[
+            (0b00011, 0b00100, 0.5),
+            (0b10100, 0b01001, -0.3),
+            (0, 31, 0.7),
+        ]);
+        for order in [Order::First, Order::Second, Order::Fourth] {
+            let spec = Spec {
+                control: Control::Evolution,
+                family: Family::Overlap,
+                order,
+                dt: 0.2,
+                points: 4,
+                steps_per_dt: 2,
+                states: vec!["0+0+0".to_string()],
+            };
+            let predicted = predicted_memory(&h, &spec, false);
+            let compiled = compile(&h, "five.ham", &spec).unwrap();
+            assert_eq!(predicted.circuits, compiled.programs.len());
+            let text: usize = compiled.programs.iter().map(String::len).sum();
+            assert!(
+                predicted.bytes >= text as u128,
+                "{order:?}: {predicted:?} < {text}"
+            );
+        }
+    }
+
     proptest! {
         #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
 
@@ -1573,7 +1634,7 @@ mod tests {
                 prop_assert_eq!(blocks.recipes.len(), programs.len());
                 for (j, program) in programs.iter().enumerate() {
                     let stream = blocks.stream(width, &prefix, j);
-                    let body = Body::stream(stream.clone(), width);
+                    let body = Body::stream(stream.clone(), width, 2);
                     // A measurement alone only appends (the body's text is shared); an `h`
                     // first may cancel the body's last gate (the whole circuit is written).
                     let comments = ["a".to_string()];
@@ -1581,17 +1642,22 @@ mod tests {
                         vec![Gate::Measure(n as u32, 0)],
                         vec![Gate::H(n as u32), Gate::Measure(n as u32, 0)],
                     ] {
-                        let mut cache = None;
-                        let text = body
-                            .text_with_readout((width, 1), &readout, &comments, &mut cache)
+                        let (text, body_at) = body
+                            .text_with_readout((width, 1), &readout, &comments, None)
                             .unwrap();
                         let mut whole = Circuit::new(width, 1);
                         whole.gates = body.with_readout(&readout);
-                        prop_assert_eq!(
-                            &text,
-                            &crate::qasm::write(&whole, Addressing::Logical, &comments)
-                        );
-                        prop_assert!(readout.len() > 1 || cache.is_some());
+                        let want = crate::qasm::write(&whole, Addressing::Logical, &comments);
+                        prop_assert_eq!(&text, &want);
+                        prop_assert!(readout.len() > 1 || body_at.is_some());
+                        // A later circuit given the body's text back writes the same bytes.
+                        if let Some(at) = body_at {
+                            let written = &text.as_bytes()[at];
+                            let (again, _) = body
+                                .text_with_readout((width, 1), &readout, &comments, Some(written))
+                                .unwrap();
+                            prop_assert_eq!(&again, &want);
+                        }
                     }
                     let alone = direct(width, &prefix, program, control, synthesis);
                     let (mut a, mut b) = (Circuit::new(width, 0), Circuit::new(width, 0));
@@ -1639,7 +1705,7 @@ mod tests {
                     // The body's counts, carried over the readout, are those of the whole
                     // circuit: a readout that only appends, and one whose first gate undoes
                     // the body's last (so the overlay changes the body).
-                    let body = Body::stream(stream.clone(), width);
+                    let body = Body::stream(stream.clone(), width, 2);
                     let last = stream.gates().last().expect("a gate");
                     let undo = last.inverse().unwrap_or(last);
                     for readout in [vec![Gate::H(n as u32)], vec![undo, Gate::H(0)]] {
