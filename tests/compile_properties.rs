@@ -79,7 +79,7 @@ proptest! {
 
 /// Past `SCORE_ONCE_MIN` two-qubit gates at the first time point, the later points try only
 /// the candidates that point kept, plus the chain, and share one synthesis of the repeated
-/// Trotter step (`pipeline::periodic_streams`, two points here): the circuits stay exact
+/// Trotter step (`pipeline::LaterBlocks::periodic`, two points here): the circuits stay exact
 /// (simulated against the ideal product formula) and no point emits more two-qubit gates than
 /// level 2, which writes every point with chains.
 #[test]

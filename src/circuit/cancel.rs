@@ -97,6 +97,76 @@ impl Peephole {
     }
 }
 
+/// A [`Peephole`] stream done with pushing, that takes tails of at most `longest_tail` gates
+/// ([`Peephole::settle`]): each qubit keeps only the top of its stack, which is all such a
+/// tail can reach.
+pub struct Settled {
+    stream: Peephole,
+    longest_tail: usize,
+}
+
+impl Peephole {
+    /// This stream, done with pushing, for tails of at most `longest_tail` gates: each qubit's
+    /// stack keeps its top `longest_tail + 1` entries and the rest (a word per gate and qubit)
+    /// is freed, and the slots of cancelled gates leave the live list (the kept stack entries
+    /// are renumbered by the live gates before them). Invariant: a tail's gate pops at most
+    /// one entry of each stack it touches (a cancellation) and reads the entry on top, so a
+    /// tail of `t` gates reads at most the top `t + 1` entries of any stack: [`Settled::
+    /// with_tail`] of such a tail is exactly [`Peephole::with_tail`] of the unsettled stream.
+    pub fn settle(mut self, longest_tail: usize) -> Settled {
+        let keep = longest_tail + 1;
+        for stack in &mut self.stacks {
+            if stack.len() > keep {
+                stack.drain(..stack.len() - keep);
+            }
+        }
+        // Stacks hold live gates only, so each kept entry has a place in the compacted list.
+        let mut wanted: Vec<usize> = self.stacks.iter().flatten().copied().collect();
+        wanted.sort_unstable();
+        wanted.dedup();
+        let mut renumbered = Vec::with_capacity(wanted.len());
+        let mut live_before = 0;
+        for (i, g) in self.live.iter().enumerate() {
+            if renumbered.len() < wanted.len() && wanted[renumbered.len()] == i {
+                renumbered.push(live_before);
+            }
+            live_before += usize::from(g.is_some());
+        }
+        for stack in &mut self.stacks {
+            for i in stack.iter_mut() {
+                *i = renumbered[wanted.binary_search(i).expect("a kept entry")];
+            }
+            stack.shrink_to_fit();
+        }
+        self.live.retain(Option::is_some);
+        self.live.shrink_to_fit();
+        Settled {
+            stream: self,
+            longest_tail,
+        }
+    }
+}
+
+impl Settled {
+    /// The gates that survive, in order ([`Peephole::gates`]).
+    pub fn gates(&self) -> impl Iterator<Item = Gate> + '_ {
+        self.stream.gates()
+    }
+
+    /// [`Peephole::with_tail`] of the stream before it was settled. Panics on a tail longer
+    /// than the stream was settled for (a compiler bug: the overlay could read a forgotten
+    /// stack entry).
+    pub fn with_tail(&self, tail: &[Gate]) -> Tailed<'_> {
+        assert!(
+            tail.len() <= self.longest_tail,
+            "a tail of {} gates on a stream settled for {}",
+            tail.len(),
+            self.longest_tail
+        );
+        self.stream.with_tail(tail)
+    }
+}
+
 /// What a gate does to the live gate just before it on all of its qubits.
 enum Meet {
     /// The two become this one gate (adjacent `rz`).
@@ -319,8 +389,12 @@ mod tests {
             let overlay = head.with_tail(&gates[cut..]).to_vec();
             let mut pushed = head.clone();
             gates[cut..].iter().for_each(|&g| pushed.push(g));
+            // Settled for exactly this tail: only the top `len − cut + 1` entries per stack.
+            let settled = head.clone().settle(len - cut);
             assert_eq!(overlay, whole.gates, "{gates:?} cut at {cut}");
             assert_eq!(pushed.finish(), whole.gates, "{gates:?} cut at {cut}");
+            let tailed = settled.with_tail(&gates[cut..]).to_vec();
+            assert_eq!(tailed, whole.gates, "settled: {gates:?} cut at {cut}");
         }
     }
 }
