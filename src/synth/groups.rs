@@ -143,6 +143,26 @@
 //! phase. The product is unchanged: inside the frame each factor is still applied once, in
 //! the same run. The block keeps whichever form emits fewer two-qubit gates.
 //!
+//! **The front** (`front_network`). Runs are cut by the block's order: a string that
+//! commutes with everything between it and an earlier run still waits for its own run. The
+//! front form drops the runs: a rotation is *ready* once every earlier rotation it
+//! anticommutes with is done (the precedence of the product; commuting factors may trade
+//! places, so the product is the block's own), and the greedy network above works on the
+//! earliest `FRONT_LIVE` ready strings, in the carried frame, rotating any ready string the
+//! moment it is single-qubit. This is the dependency-graph form of the greedy Pauli-network
+//! synthesis of Goubault de Brugière & Martiel (2024, from memory). The precedence is found
+//! pair by pair, `O(n²)`, so blocks of more than [`FRONT_MAX`] rotations skip this form.
+//!
+//! **The control in the frame** (`Carry::ControlInFrame`). Under a control `c`,
+//! `C-exp(−iθP) = exp(−iθ P (1 − Z_c)/2) = exp(−iθ/2 · P) · exp(+iθ/2 · Z_c P)`, exactly and
+//! with no phase (the two factors commute). So a controlled block is an uncontrolled one of
+//! twice the rotations on one more qubit, and the front form may then move the control's
+//! parity through the frame like any other qubit's: `Z_c Z_q` costs one CNOT that the frame
+//! keeps, where the controlled `rz` pays two every time. The frame, control included, is
+//! undone once at the end, so the control leaves as it came. Measured on one controlled
+//! Strang step all-to-all: the dense 12-qubit sum 2204 → 1770 two-qubit gates, H4
+//! 2461 → 1916 (see DEVELOPERS.md). The block keeps whichever form emits fewest.
+//!
 //! Measured (`cargo bench --bench fewer_gates`, one controlled Strang step): see DEVELOPERS.md,
 //! "Fewer two-qubit gates".
 
