@@ -201,6 +201,26 @@ impl Row {
         (self.x | self.z).count_ones()
     }
 
+    /// The ordered pairs `(a, b)`, `a ≠ b`, of the string's support (the candidate pairs of
+    /// a network step on it), ascending by `a` then `b`.
+    fn support_pairs(&self) -> Vec<(u8, u8)> {
+        let mut support = Vec::with_capacity(self.weight() as usize);
+        let mut bits = self.x | self.z;
+        while bits != 0 {
+            support.push(bits.trailing_zeros() as u8);
+            bits &= bits - 1;
+        }
+        let mut pairs = Vec::with_capacity(support.len() * support.len());
+        for &a in &support {
+            for &b in &support {
+                if a != b {
+                    pairs.push((a, b));
+                }
+            }
+        }
+        pairs
+    }
+
     /// The letter on `q` as two bits: 0 = I, 1 = X, 2 = Z, 3 = Y.
     fn letter(&self, q: u8) -> usize {
         bit(self.x, q) as usize | (bit(self.z, q) as usize) << 1
@@ -399,45 +419,34 @@ fn network(
             .enumerate()
         {
             let pr = rows[p];
-            let mut support = Vec::with_capacity(pr.weight() as usize);
-            let mut bits = pr.x | pr.z;
-            while bits != 0 {
-                support.push(bits.trailing_zeros() as u8);
-                bits &= bits - 1;
-            }
-            for &a in &support {
-                for &b in &support {
-                    if a == b {
-                        continue;
-                    }
-                    // The restrictions `r = letter_a | letter_b << 2` of the live strings that
-                    // touch `a` or `b` (the others do not change the score): few, as strings
-                    // are sparse, so the score sums over them rather than over all sixteen.
-                    let (ca, cb) = (&columns[a as usize], &columns[b as usize]);
-                    let mut touching = (ca[1] | ca[2] | ca[3] | cb[1] | cb[2] | cb[3]) & live_mask;
-                    restrictions.clear();
-                    while touching != 0 {
-                        let bit = touching & touching.wrapping_neg();
-                        touching ^= bit;
-                        let letter = |c: &[u64; 4]| (1..4).find(|&l| c[l] & bit != 0).unwrap_or(0);
-                        restrictions.push(letter(ca) | letter(cb) << 2);
-                    }
-                    let (la, lb) = (pr.letter(a), pr.letter(b));
-                    let travel = 6 * dist(a, b).saturating_sub(1) as i64;
-                    // The pivot ends on `a`: its controlled rz there, if it is now single.
-                    let reach = if least == 2 {
-                        3 * to_control(a).saturating_sub(1) as i64
-                    } else {
-                        0
-                    };
-                    for way in 0..4 {
-                        let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
-                        let d = &deltas[k];
-                        let delta: i64 = restrictions.iter().map(|&r| d[r] as i64).sum();
-                        let score = 2 * delta + travel + reach;
-                        if best.is_none_or(|(s, ..)| score < s) {
-                            best = Some((score, rank, a, b, k));
-                        }
+            for (a, b) in pr.support_pairs() {
+                // The restrictions `r = letter_a | letter_b << 2` of the live strings that
+                // touch `a` or `b` (the others do not change the score): few, as strings
+                // are sparse, so the score sums over them rather than over all sixteen.
+                let (ca, cb) = (&columns[a as usize], &columns[b as usize]);
+                let mut touching = (ca[1] | ca[2] | ca[3] | cb[1] | cb[2] | cb[3]) & live_mask;
+                restrictions.clear();
+                while touching != 0 {
+                    let bit = touching & touching.wrapping_neg();
+                    touching ^= bit;
+                    let letter = |c: &[u64; 4]| (1..4).find(|&l| c[l] & bit != 0).unwrap_or(0);
+                    restrictions.push(letter(ca) | letter(cb) << 2);
+                }
+                let (la, lb) = (pr.letter(a), pr.letter(b));
+                let travel = 6 * dist(a, b).saturating_sub(1) as i64;
+                // The pivot ends on `a`: its controlled rz there, if it is now single.
+                let reach = if least == 2 {
+                    3 * to_control(a).saturating_sub(1) as i64
+                } else {
+                    0
+                };
+                for way in 0..4 {
+                    let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
+                    let d = &deltas[k];
+                    let delta: i64 = restrictions.iter().map(|&r| d[r] as i64).sum();
+                    let score = 2 * delta + travel + reach;
+                    if best.is_none_or(|(s, ..)| score < s) {
+                        best = Some((score, rank, a, b, k));
                     }
                 }
             }
@@ -816,35 +825,24 @@ fn front_network(
         let mut best: Option<(i64, u8, u8, usize)> = None;
         for &p in live.iter().filter(|&&j| rows[j].weight() == least).take(8) {
             let pr = rows[p];
-            let mut support = Vec::with_capacity(pr.weight() as usize);
-            let mut bits = pr.x | pr.z;
-            while bits != 0 {
-                support.push(bits.trailing_zeros() as u8);
-                bits &= bits - 1;
-            }
-            for &a in &support {
-                for &b in &support {
-                    if a == b {
-                        continue;
-                    }
-                    let (la, lb) = (pr.letter(a), pr.letter(b));
-                    let travel = 6 * dist(a, b).saturating_sub(1) as i64;
-                    let reach = if least == 2 {
-                        3 * to_control(a).saturating_sub(1) as i64
-                    } else {
-                        0
-                    };
-                    for way in 0..4 {
-                        let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
-                        let d = &deltas[k];
-                        let delta: i64 = live
-                            .iter()
-                            .map(|&j| d[rows[j].letter(a) | rows[j].letter(b) << 2] as i64)
-                            .sum();
-                        let score = 2 * delta + travel + reach;
-                        if best.is_none_or(|(s, ..)| score < s) {
-                            best = Some((score, a, b, k));
-                        }
+            for (a, b) in pr.support_pairs() {
+                let (la, lb) = (pr.letter(a), pr.letter(b));
+                let travel = 6 * dist(a, b).saturating_sub(1) as i64;
+                let reach = if least == 2 {
+                    3 * to_control(a).saturating_sub(1) as i64
+                } else {
+                    0
+                };
+                for way in 0..4 {
+                    let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
+                    let d = &deltas[k];
+                    let delta: i64 = live
+                        .iter()
+                        .map(|&j| d[rows[j].letter(a) | rows[j].letter(b) << 2] as i64)
+                        .sum();
+                    let score = 2 * delta + travel + reach;
+                    if best.is_none_or(|(s, ..)| score < s) {
+                        best = Some((score, a, b, k));
                     }
                 }
             }
