@@ -348,6 +348,35 @@ fn deltas() -> &'static [[i8; 16]; 36] {
     })
 }
 
+/// The four candidates of a network step on the pair `(a, b)` of `pivot` (of weight
+/// `least`), as `(score, table index into [`deltas`])`: twice the change in the total weight
+/// of the live strings (`restrictions`: their letters on `a` and `b`, one per string; strings
+/// with `I` on both change nothing), plus the SWAPs that bring `a` and `b` together and, when
+/// the pivot becomes single-qubit on `a`, those that bring `a` to the control.
+fn pair_scores(
+    pivot: &Row,
+    a: u8,
+    b: u8,
+    least: u32,
+    restrictions: &[usize],
+    dist: &dyn Fn(u8, u8) -> u32,
+    to_control: &dyn Fn(u8) -> u32,
+) -> [(i64, usize); 4] {
+    let (la, lb) = (pivot.letter(a), pivot.letter(b));
+    let travel = 6 * dist(a, b).saturating_sub(1) as i64;
+    let reach = if least == 2 {
+        3 * to_control(a).saturating_sub(1) as i64
+    } else {
+        0
+    };
+    std::array::from_fn(|way| {
+        let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
+        let d = &deltas()[k];
+        let delta: i64 = restrictions.iter().map(|&r| d[r] as i64).sum();
+        (2 * delta + travel + reach, k)
+    })
+}
+
 /// The greedy network of a commuting run (see the module essay): events in order, and the
 /// number of CNOTs of the network (its inverse not included). `dist(a, b)` is the hop distance
 /// between local qubits, `to_control(q)` that of `q` from the control (0 without a graph).
@@ -359,7 +388,6 @@ fn network(
     dist: &dyn Fn(u8, u8) -> u32,
     to_control: &dyn Fn(u8) -> u32,
 ) -> (Vec<Event>, usize) {
-    let deltas = deltas();
     // The live strings as bits of a word (bit i is `rows[slot[i]]`; a run holds at most
     // `RUN_MAX` ≤ 64), and per local qubit one mask per letter: a pair's histogram of the
     // sixteen restrictions is then sixteen popcounts, and a step updates the masks of the two
@@ -432,19 +460,7 @@ fn network(
                     let letter = |c: &[u64; 4]| (1..4).find(|&l| c[l] & bit != 0).unwrap_or(0);
                     restrictions.push(letter(ca) | letter(cb) << 2);
                 }
-                let (la, lb) = (pr.letter(a), pr.letter(b));
-                let travel = 6 * dist(a, b).saturating_sub(1) as i64;
-                // The pivot ends on `a`: its controlled rz there, if it is now single.
-                let reach = if least == 2 {
-                    3 * to_control(a).saturating_sub(1) as i64
-                } else {
-                    0
-                };
-                for way in 0..4 {
-                    let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
-                    let d = &deltas[k];
-                    let delta: i64 = restrictions.iter().map(|&r| d[r] as i64).sum();
-                    let score = 2 * delta + travel + reach;
+                for (score, k) in pair_scores(&pr, a, b, least, &restrictions, dist, to_control) {
                     if best.is_none_or(|(s, ..)| score < s) {
                         best = Some((score, rank, a, b, k));
                     }
@@ -795,7 +811,6 @@ fn front_network(
     let mut ready: std::collections::BTreeSet<usize> =
         (0..n).filter(|&j| waiting[j] == 0).collect();
     let mut done = vec![false; n];
-    let deltas = deltas();
     let mut events = Vec::new();
     loop {
         while let Some(j) = ready.iter().copied().find(|&j| rows[j].weight() == 1) {
@@ -826,21 +841,11 @@ fn front_network(
         for &p in live.iter().filter(|&&j| rows[j].weight() == least).take(8) {
             let pr = rows[p];
             for (a, b) in pr.support_pairs() {
-                let (la, lb) = (pr.letter(a), pr.letter(b));
-                let travel = 6 * dist(a, b).saturating_sub(1) as i64;
-                let reach = if least == 2 {
-                    3 * to_control(a).saturating_sub(1) as i64
-                } else {
-                    0
-                };
-                for way in 0..4 {
-                    let k = ((la - 1) * 3 + (lb - 1)) * 4 + way;
-                    let d = &deltas[k];
-                    let delta: i64 = live
-                        .iter()
-                        .map(|&j| d[rows[j].letter(a) | rows[j].letter(b) << 2] as i64)
-                        .sum();
-                    let score = 2 * delta + travel + reach;
+                let restrictions: Vec<usize> = live
+                    .iter()
+                    .map(|&j| rows[j].letter(a) | rows[j].letter(b) << 2)
+                    .collect();
+                for (score, k) in pair_scores(&pr, a, b, least, &restrictions, dist, to_control) {
                     if best.is_none_or(|(s, ..)| score < s) {
                         best = Some((score, a, b, k));
                     }
