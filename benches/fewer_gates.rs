@@ -159,12 +159,15 @@ fn from_integrals(path: &str) -> Option<PauliSum> {
     let text = std::fs::read_to_string(path).ok()?;
     let ints =
         phasewright::fermion::fcidump::parse_fcidump(path, &text).expect("integral file parses");
-    let (h, _) = phasewright::fermion::qubit_hamiltonian_from_integrals(
+    let (mut h, _) = phasewright::fermion::qubit_hamiltonian_from_integrals(
         &ints,
         phasewright::fermion::Encoding::JordanWigner,
         0,
     )
     .expect("integrals map to qubits");
+    // What `compile` keeps by default: strings below `--cutoff` (1e-10 Ha) are integral
+    // round-off and are dropped before compiling.
+    h.drop_below(1e-10);
     Some(h)
 }
 
