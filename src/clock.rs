@@ -5,13 +5,15 @@
 //! each of several threads at once (one candidate's synthesis, say) adds up their seconds; a
 //! stage timed around parallel work (the layout search) counts its wall time once. On one
 //! thread the stages add up to the compile's time.
-//! Benchmarks read it to print a compile's cost stage by stage without copying the
-//! pipeline's flow.
+//! Benchmarks and `compile --stage-times` read it to print a compile's cost stage by stage
+//! without copying the pipeline's flow.
 //!
 //! **Invariant:** the clock only reads the time. It is off unless [`start`] was called, and
 //! then it only adds to counters: what is compiled never depends on it. Off, a stage costs one
 //! relaxed atomic load. The counters are process-wide, so two compiles timed at once in the
-//! same process would add into each other; only benchmarks turn the clock on.
+//! same process would add into each other; only benchmarks and `compile --stage-times` (the
+//! binary runs one compile; a program calling `cli::compile_campaign` with `stage_times` on
+//! from several threads at once would get mixed figures) turn the clock on.
 
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::time::Instant;

@@ -18,6 +18,28 @@ use crate::lang::ham::{evaluate, plain_flat};
 /// Reads a `.ham` source. `file` is only used in diagnostics.
 /// Fermionic terms need an encoding: from an `encoding` line or from the caller; without
 /// either, they are an error.
+///
+/// # Example
+///
+/// A Heisenberg pair written with a constant; then a file with a typo, whose diagnostic points
+/// at the offending factor (line 2, column 5).
+///
+/// ```
+/// use phasewright::hamiltonian::parse_hamiltonian;
+/// use phasewright::pauli::PauliString;
+///
+/// let src = "qubits 2\nlet J = 0.5\nJ X0 X1\nJ Y0 Y1\nJ Z0 Z1\n0.5 X0 X1\n";
+/// let ham = parse_hamiltonian("pair.ham", src).unwrap();
+/// let terms = ham.sum.term_list();
+/// assert_eq!(terms.len(), 3, "X0 X1 written twice is merged");
+/// let xx = PauliString::parse_factor_text("X0 X1").unwrap();
+/// assert!(terms.contains(&(xx, 1.0)));
+/// assert_eq!(ham.terms_read, 4);
+///
+/// let bad = parse_hamiltonian("typo.ham", "qubits 2\n0.5 Q0 Z1\n").unwrap_err();
+/// assert_eq!((bad[0].line, bad[0].column), (2, 5));
+/// println!("{}", phasewright::diag::render_all(&bad));
+/// ```
 pub fn parse_hamiltonian(file: &str, src: &str) -> Result<HamFile, Vec<Diagnostic>> {
     parse_hamiltonian_with(file, src, None).map(|r| r.ham)
 }

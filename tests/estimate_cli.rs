@@ -2,12 +2,15 @@
 //!
 //! The fixtures are ideal campaigns from tests/estimate_support (exact evolution, seeded
 //! multinomial shots). They are regenerated on purpose with `BLESS=1 cargo test --test
-//! estimate_cli`, never by hand; `fixtures_are_current` fails when code and files disagree.
+//! estimate_cli`, never by hand; `fixtures_are_current` fails when code and files disagree,
+//! with a line diff of each stale file (`-` on disk, `+` built).
 
 mod estimate_support;
+mod fixture_support;
 
 use assert_cmd::Command;
 use estimate_support::*;
+use fixture_support::{blessing, line_diff};
 use phasewright::estimate::counts;
 use std::path::{Path, PathBuf};
 
@@ -58,7 +61,8 @@ fn fixtures() -> Vec<(&'static str, String, String)> {
 
 #[test]
 fn fixtures_are_current() {
-    let bless = std::env::var_os("BLESS").is_some();
+    let bless = blessing();
+    let mut stale = Vec::new();
     for (name, plan, counts) in fixtures() {
         let dir = data_dir(name);
         if bless {
@@ -66,17 +70,21 @@ fn fixtures_are_current() {
             std::fs::write(dir.join("plan.json"), &plan).unwrap();
             std::fs::write(dir.join("counts.json"), &counts).unwrap();
         }
-        let on_disk = std::fs::read_to_string(dir.join("plan.json")).unwrap();
-        assert_eq!(
-            on_disk, plan,
-            "{name}/plan.json is stale: rerun with BLESS=1"
-        );
-        let on_disk = std::fs::read_to_string(dir.join("counts.json")).unwrap();
-        assert_eq!(
-            on_disk, counts,
-            "{name}/counts.json is stale: rerun with BLESS=1"
-        );
+        for (file, built) in [("plan.json", &plan), ("counts.json", &counts)] {
+            let on_disk = std::fs::read_to_string(dir.join(file)).unwrap();
+            if on_disk != *built {
+                stale.push(format!(
+                    "{name}/{file} is stale:\n{}",
+                    line_diff(&on_disk, built)
+                ));
+            }
+        }
     }
+    assert!(
+        stale.is_empty(),
+        "{}\nreview the change, then rerun with BLESS=1",
+        stale.join("\n")
+    );
 }
 
 fn estimate(dir: &str, extra: &[&str]) -> assert_cmd::assert::Assert {

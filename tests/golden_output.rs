@@ -1,9 +1,13 @@
 //! Golden files: the exact bytes `compile` writes for two small campaigns (all-to-all and a
 //! device), kept in `tests/data/compile/NNNN_name/`. Any change to the emitted programs or the
 //! plan shows up here as a diff to review. Regenerate on purpose with `BLESS=1 cargo test
-//! --test golden_output`, never by hand.
+//! --test golden_output`, never by hand. A mismatch prints a line diff per file (`-` golden,
+//! `+` written).
+
+mod fixture_support;
 
 use assert_cmd::Command;
+use fixture_support::{blessing, line_diff};
 use std::path::Path;
 
 fn check_case(name: &str, args: &[&str]) {
@@ -19,7 +23,7 @@ fn check_case(name: &str, args: &[&str]) {
         .unwrap();
     assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
     let golden = Path::new("tests/data/compile").join(name);
-    let bless = std::env::var("BLESS").is_ok_and(|v| v == "1");
+    let bless = blessing();
     if bless {
         let _ = std::fs::remove_dir_all(&golden);
         std::fs::create_dir_all(&golden).unwrap();
@@ -39,7 +43,8 @@ fn check_case(name: &str, args: &[&str]) {
             .unwrap_or_else(|_| panic!("{name}/{f} has no golden file; run with BLESS=1"));
         assert!(
             got == want,
-            "{name}/{f} differs from its golden file; review the change and re-bless with BLESS=1"
+            "{name}/{f} differs from its golden file:\n{}\nreview the change and re-bless with BLESS=1",
+            line_diff(&want, &got)
         );
     }
     let mut kept: Vec<String> = std::fs::read_dir(&golden)

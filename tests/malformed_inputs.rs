@@ -136,6 +136,10 @@ const CASES: &[Case] = &[
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"counts\": {\"k01-re\": {\"0\": -4}, \"k01-im\": {\"0\": 1}}}", Some(("-4", 0)), "negative count", "C201"),
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"counts\": {\"k01-re\": {\"0\": 2.5}, \"k01-im\": {\"0\": 1}}}", Some(("2.5", 0)), "not a positive integer", "C201"),
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"counts\": {\"k01-re\": {\"0\": 1, \"0\": 2}, \"k01-im\": {\"0\": 1}}}", Some(("\"0\": 2", 0)), "`0` appears more than once", "C201"),
+    // A repeated key is shown where it repeats: the same text twice, so the place (line 4,
+    // column 2; line 3, column 2) is told apart only by the line:column the reader prints.
+    case(Counts, "{\"format\": \"phasewright-counts/1\", \"counts\": {\n \"k01-re\": {\"0\": 1},\n \"k01-im\": {\"0\": 1},\n \"k01-re\": {\"0\": 1}}}", Some(("},\n \"k01-re\"", 4)), "`k01-re` appears more than once", "C201"),
+    case(Counts, "{\"format\": \"phasewright-counts/1\",\n \"shots\": 1,\n \"shots\": 1,\n \"counts\": {\"k01-re\": {\"0\": 1}, \"k01-im\": {\"0\": 1}}}", Some(("1,\n \"shots\"", 4)), "duplicate field `shots`", "C101"),
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"shots\": 5, \"counts\": {\"k01-re\": {\"0\": 4}, \"k01-im\": {\"0\": 5}}}", Some(("\"k01-re\"", 0)), "has 4 shots", "C201"),
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"counts\": {\"k01-re\": {\"0\": 1}}}", Some(("\"counts\"", 0)), "has no counts: `k01-im`", "C301"),
     case(Counts, "{\"format\": \"phasewright-counts/1\", \"extra\": 1, \"counts\": {}}", Some(("\"extra\"", 0)), "unknown field `extra`", "C101"),

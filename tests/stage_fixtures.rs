@@ -15,6 +15,9 @@
 //! The checks beside each comparison keep a blessed fixture from recording a wrong circuit:
 //! the text pins the exact output, the simulation pins its meaning.
 
+mod fixture_support;
+
+use fixture_support::{blessing, line_diff};
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::circuit::Circuit;
@@ -150,71 +153,10 @@ fn run_qasm(src: &str, file: &Path) -> String {
     compiled.programs[0].clone()
 }
 
-/// A line diff (longest common subsequence): ` ` kept, `-` expected only, `+` got only; runs of
-/// more than three kept lines are cut to their ends.
-fn line_diff(want: &str, got: &str) -> String {
-    let a: Vec<&str> = want.lines().collect();
-    let b: Vec<&str> = got.lines().collect();
-    if a.len() * b.len() > 16_000_000 {
-        let k = a.iter().zip(&b).take_while(|(x, y)| x == y).count();
-        return format!("first difference at line {}", k + 1);
-    }
-    // lcs[i][j]: longest common subsequence of a[i..] and b[j..].
-    let mut lcs = vec![vec![0u32; b.len() + 1]; a.len() + 1];
-    for i in (0..a.len()).rev() {
-        for j in (0..b.len()).rev() {
-            lcs[i][j] = if a[i] == b[j] {
-                lcs[i + 1][j + 1] + 1
-            } else {
-                lcs[i + 1][j].max(lcs[i][j + 1])
-            };
-        }
-    }
-    let mut lines: Vec<(char, &str)> = Vec::new();
-    let (mut i, mut j) = (0, 0);
-    while i < a.len() || j < b.len() {
-        if i < a.len() && j < b.len() && a[i] == b[j] {
-            lines.push((' ', a[i]));
-            i += 1;
-            j += 1;
-        } else if i < a.len() && (j == b.len() || lcs[i + 1][j] >= lcs[i][j + 1]) {
-            lines.push(('-', a[i]));
-            i += 1;
-        } else {
-            lines.push(('+', b[j]));
-            j += 1;
-        }
-    }
-    let mut out = String::new();
-    let mut k = 0;
-    while k < lines.len() {
-        let run = lines[k..].iter().take_while(|l| l.0 == ' ').count();
-        if run > 6 {
-            let (head, tail) = (
-                if k == 0 { 0 } else { 3 },
-                if k + run == lines.len() { 0 } else { 3 },
-            );
-            for l in &lines[k..k + head] {
-                writeln!(out, "{}{}", l.0, l.1).unwrap();
-            }
-            writeln!(out, "@@ {} equal lines @@", run - head - tail).unwrap();
-            for l in &lines[k + run - tail..k + run] {
-                writeln!(out, "{}{}", l.0, l.1).unwrap();
-            }
-            k += run;
-        } else {
-            let l = lines[k];
-            writeln!(out, "{}{}", l.0, l.1).unwrap();
-            k += 1;
-        }
-    }
-    out
-}
-
 /// Runs `stage` on every input of `tests/data/<stage>/`; all mismatches are reported together.
 fn check_stage(stage: &str, run: fn(&str, &Path) -> String) {
     let dir = Path::new("tests/data").join(stage);
-    let bless = std::env::var("BLESS").is_ok_and(|v| v == "1");
+    let bless = blessing();
     let mut inputs: Vec<PathBuf> = std::fs::read_dir(&dir)
         .unwrap_or_else(|e| panic!("{}: {e}", dir.display()))
         .map(|e| e.unwrap().path())

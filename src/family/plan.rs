@@ -77,10 +77,18 @@ pub const READABLE_PLAN_FORMATS: [&str; 2] = [PLAN_FORMAT, "phasewright-plan/2"]
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Plan {
+    /// Schema name, [`PLAN_FORMAT`] when written (a reader also takes every name in
+    /// [`READABLE_PLAN_FORMATS`]).
     pub format: String,
+    /// Which circuit family the campaign holds, hence how `estimate` recombines its counts.
     pub family: Family,
+    /// The compiled Hamiltonian: its terms as compiled, the constant added back at estimation.
     pub hamiltonian: HamiltonianInfo,
+    /// The product formula every circuit's evolution uses.
     pub formula: FormulaInfo,
+    /// Reference states, one character per qubit from `0 1 + - r l`, qubit 0 first; one for
+    /// `overlap` and `krylov`, one per random state for `trace`. [`CircuitEntry::state`]
+    /// indexes this list.
     pub states: Vec<String>,
     /// Seed used to draw random states (trace family), if any.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -100,12 +108,16 @@ pub struct Plan {
     /// preparation; the evolution runs uncontrolled). Absent in older plans: `evolution`.
     #[serde(default = "default_control")]
     pub control: crate::family::control::Control,
+    /// The device the circuits were routed and lowered for; absent on the all-to-all target
+    /// (logical qubits, any gate).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub device: Option<DeviceInfo>,
     /// Present when this plan is one share of a campaign split for a job array
     /// (`compile --shard I/N`): it lists only that share's circuits.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub shard: Option<ShardInfo>,
+    /// Every circuit of the campaign (of this share, for a shard), in the order `compile`
+    /// wrote them, which is the order of a counts file's entries.
     pub circuits: Vec<CircuitEntry>,
 }
 
@@ -115,6 +127,7 @@ pub struct Plan {
 pub struct ShardInfo {
     /// 1-based share number.
     pub index: usize,
+    /// Number of shares the campaign was split into.
     pub count: usize,
     /// Circuits in the whole campaign.
     pub campaign_circuits: usize,
@@ -150,8 +163,13 @@ fn default_control() -> crate::family::control::Control {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]
 #[serde(rename_all = "lowercase")]
 pub enum Family {
+    /// Hadamard tests of `⟨ψ|U(k·dt)|ψ⟩` only (energies from the overlaps alone).
     Overlap,
+    /// Hadamard tests of the overlaps and of `⟨ψ|P_j U(k·dt)|ψ⟩` for every term, measured
+    /// in commuting groups (Krylov matrix elements `S_k` and `h_k`).
     Krylov,
+    /// Hadamard tests of `⟨ψ_s|U(k·dt)|ψ_s⟩` over random states `ψ_s` (a stochastic trace,
+    /// for the density of states).
     Trace,
     /// Plain time evolution, every qubit measured (no Hadamard test).
     Evolution,
@@ -159,13 +177,16 @@ pub enum Family {
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct HamiltonianInfo {
+    /// The name of the input it was read from, as the caller of `compile` gave it.
     pub source: String,
+    /// System qubits (the ancilla, when there is one, is not counted).
     #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
     /// Coefficient of the identity: added back at estimation time, never compiled.
     pub constant: f64,
     /// `Σ |c_j|` over the non-identity terms.
     pub one_norm: f64,
+    /// The non-identity terms as compiled, in the order a [`Target::Term`] indexes them.
     pub terms: Vec<TermInfo>,
 }
 
@@ -173,6 +194,7 @@ pub struct HamiltonianInfo {
 pub struct TermInfo {
     /// Sparse text form, e.g. `X0 Y1 Z3`.
     pub pauli: String,
+    /// Real coefficient of the string, in the units of [`Plan::energy_unit`].
     pub coeff: f64,
 }
 
@@ -182,14 +204,18 @@ pub struct FormulaInfo {
     pub order: u32,
     /// Trotter steps used for one `dt`; time point k uses `k·steps` steps of `dt/steps`.
     pub steps_per_dt: usize,
+    /// Time between consecutive points: time point `k` evolves for `k·dt`.
     pub dt: f64,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct DeviceInfo {
+    /// The device's name (its `name` statement, else the `.dev` file's stem).
     pub name: String,
+    /// Physical qubits of the device.
     #[serde(rename = "qubit_count")]
     pub num_qubits: usize,
+    /// Native gate names (OpenQASM spelling, `U` for the built-in) the files are written in.
     pub native: Vec<String>,
     /// `start_placement[l]` = physical qubit holding logical qubit l when every circuit starts
     /// (the ancilla is the last l).
@@ -211,7 +237,9 @@ pub struct DeviceInfo {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]
 #[serde(rename_all = "lowercase")]
 pub enum Part {
+    /// The real part: the ancilla is measured in the `X` basis.
     Re,
+    /// The imaginary part: the ancilla gets `sdg` before the `X`-basis measurement.
     Im,
 }
 
@@ -226,6 +254,7 @@ pub enum Target {
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Read {
+    /// The quantity this read estimates (written flat, as the `target` key and its fields).
     #[serde(flatten)]
     pub target: Target,
     /// Classical bits whose parity expectation estimates the target's `part`.
@@ -234,9 +263,13 @@ pub struct Read {
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct CircuitEntry {
+    /// The circuit's name, unique in the plan: the key of its counts in a counts file.
     pub id: String,
+    /// Its OpenQASM 3 file, a plain name in the campaign folder.
     pub file: String,
+    /// Time point: the circuit evolves for `k` steps of `dt`.
     pub k: usize,
+    /// `k·dt`, the evolution time.
     pub time: f64,
     /// Which part of the Hadamard test (absent for the `evolution` family).
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -255,7 +288,9 @@ pub struct CircuitEntry {
     /// Classical bit holding the Hadamard-test ancilla (absent for the `evolution` family).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub ancilla_bit: Option<u32>,
+    /// What the circuit's counts estimate, each from the parity of some classical bits.
     pub reads: Vec<Read>,
+    /// Gate counts, depth and (on a device) duration and success probability of the file.
     pub costs: Costs,
     /// `end_placement[l]` = physical qubit holding logical qubit l when the circuit ends, after
     /// its SWAPs (the ancilla is the last l); empty on all-to-all.
@@ -285,7 +320,9 @@ pub struct CircuitEntry {
 /// [`CircuitEntry::fanout`]).
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
 pub struct FanOut {
+    /// The preparation's CNOTs before the evolution, in order.
     pub before: Vec<[u32; 2]>,
+    /// The CNOTs after the evolution that undo it, in order.
     pub after: Vec<[u32; 2]>,
 }
 
@@ -318,9 +355,14 @@ impl FanOut {
 /// Costs of one circuit as recorded in the plan.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, Default)]
 pub struct Costs {
+    /// Depth of the written circuit, every gate one layer ([`crate::circuit::metrics::counts`]).
     pub depth: usize,
+    /// Two-qubit gates in the written file (a SWAP the router inserted counts as the native
+    /// gates it was lowered into).
     pub two_qubit: usize,
+    /// One-qubit gates in the written file (measurements not counted).
     pub one_qubit: usize,
+    /// SWAPs the router inserted (0 on all-to-all); their gates are in `two_qubit`.
     pub swaps: usize,
     /// Spare qubits the circuit uses as control copies of the ancilla (`route::cat`): the
     /// copies made once after the ancilla's `h` (`device.copy_placement`) plus the unused
@@ -377,8 +419,11 @@ pub enum PathStep {
 /// A value in a plan that does not make sense: where it is and what is wrong.
 #[derive(Clone, Debug, PartialEq)]
 pub struct PlanProblem {
+    /// Where the value is in plan.json, from the top.
     pub path: Vec<PathStep>,
+    /// What is wrong with it.
     pub message: String,
+    /// How to fix it, when there is something to say.
     pub hint: Option<String>,
 }
 

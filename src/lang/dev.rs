@@ -17,7 +17,7 @@ use crate::device::native::{gate_arity, is_standard_gate, STDGATES};
 use crate::device::{Calibration, Device, Link, NativeSet};
 use crate::diag::{Code, Diagnostic, LineIndex};
 use crate::lang::suggest::{closest, DEV_STATEMENTS};
-use crate::lang::syntax_error::Res;
+use crate::lang::syntax_error::{Res, Wording};
 use nom::branch::alt;
 use nom::bytes::complete::{tag, take_while1};
 use nom::character::complete::{alpha1, char, digit1, satisfy, space0, space1};
@@ -228,6 +228,20 @@ const GATE_HINT: &str = "use gate names from the OpenQASM 3 standard library (e.
 const SETS_HINT: &str = "supported sets contain cx or cz, and one of: U; rz with sx, rx, ry or h; \
                          rx with ry (e.g. `native rz sx x cx`)";
 
+/// How the `.dev` reader words a syntax error: `expected {label}, found `{word}`` (the label
+/// `a statement` where no production put one; `expected {label}` at the end of the line), the
+/// caret under the word, no hint.
+const DEV_WORDING: Wording = Wording {
+    code: Code::DevSyntax,
+    unlabelled: Some("a statement"),
+    found: |at| {
+        let word = at.split_whitespace().next().unwrap_or("");
+        let found = (!word.is_empty()).then(|| format!("`{word}`"));
+        (found, at.find(char::is_whitespace).unwrap_or(at.len()))
+    },
+    hint: |_| None,
+};
+
 /// `; did you mean `X`?` for a near miss of one of `candidates`, else nothing.
 fn did_you_mean(word: &str, candidates: &[&str]) -> String {
     closest(word, candidates)
@@ -261,23 +275,17 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
             Ok((_, None)) => {}
             Err(nom::Err::Error(e)) | Err(nom::Err::Failure(e)) => {
                 let at_word = ident(text.trim_start()).map(|(_, w)| w).ok();
-                match (e.expected, at_word) {
-                    (_, Some(w)) if e.at.as_ptr() == text.trim_start().as_ptr() => cx.err(
+                match at_word {
+                    Some(w) if e.at.as_ptr() == text.trim_start().as_ptr() => cx.err(
                         Code::DevUnknownWord,
                         w,
                         format!("unknown statement `{w}`{}", did_you_mean(w, DEV_STATEMENTS)),
                         Some("statements are: name qubits native lattice link cut error time"),
                     ),
-                    (expected, _) => {
-                        let found: String = e.at.split_whitespace().next().unwrap_or("").into();
-                        let what = expected.unwrap_or("a statement");
-                        let msg = if found.is_empty() {
-                            format!("expected {what}")
-                        } else {
-                            format!("expected {what}, found `{found}`")
-                        };
-                        let width = e.at.find(char::is_whitespace).unwrap_or(e.at.len());
-                        cx.err(Code::DevSyntax, &e.at[..width], msg, None);
+                    _ => {
+                        let lines = cx.lines.get_or_insert_with(|| LineIndex::new(src));
+                        let d = e.diagnostic(&DEV_WORDING, file, src, Some(lines));
+                        cx.diags.push(d);
                     }
                 }
             }

@@ -3,13 +3,17 @@
 //!
 //! In: what nom reports while a production fails (the remaining input, the innermost `context`
 //! label) and, for errors a production raises by hand, the exact catalogue code, message, hint
-//! and caret width. Out: a [`SyntaxError`] that each reader turns into a
-//! [`crate::diag::Diagnostic`] (file, line:column, caret excerpt, hint) with [`SyntaxError::offset`],
-//! so all of them are rendered the same way, once, by the command layer. Invariant: of two
-//! failed alternatives the one that got further into the input is kept (the first on a tie),
-//! and a context label never overrides an earlier label or a message raised by hand.
+//! and caret width. Out: a [`SyntaxError`], turned into a [`crate::diag::Diagnostic`] (file,
+//! line:column, caret excerpt, hint) by the one mapping [`SyntaxError::diagnostic`], worded by
+//! each reader's [`Wording`] (its code, what it calls the text at the failure, its hints), so
+//! all of them are rendered the same way, once, by the command layer. (The OpenQASM 3 reader,
+//! which reads only the subset phasewright writes, does not word the nom error: it reports the
+//! whole statement as unsupported.) Invariant: of two failed
+//! alternatives the one that got further into the input is kept (the first on a tie), a context
+//! label never overrides an earlier label or a message raised by hand, and a message raised by
+//! hand is reported exactly as raised.
 
-use crate::diag::Code;
+use crate::diag::{Code, Diagnostic, LineIndex};
 use nom::error::{ContextError, ErrorKind, FromExternalError, ParseError};
 use nom::{IResult, Offset};
 
@@ -64,6 +68,57 @@ impl<'a> SyntaxError<'a> {
     pub fn offset(&self, src: &str) -> usize {
         src.offset(self.at)
     }
+
+    /// The diagnostic of this error in `src` (the text `at` was sliced from), read as `file`.
+    ///
+    /// A message raised by hand is kept as it is (code, message, hint, caret width). Otherwise
+    /// the message is `expected {label}, found {found}` (`expected {label}` when nothing is
+    /// found), where the label is the innermost context label or, without one,
+    /// [`Wording::unlabelled`]; with neither it is `unexpected {found}`. `lines`, when given,
+    /// finds the line by binary search (for readers that report many errors in one file).
+    pub fn diagnostic(
+        &self,
+        wording: &Wording,
+        file: &str,
+        src: &str,
+        lines: Option<&LineIndex>,
+    ) -> Diagnostic {
+        let offset = self.offset(src);
+        let (code, len, message, hint) = match &self.reported {
+            Some(r) => (r.code, r.len, r.message.clone(), r.hint.clone()),
+            None => {
+                let (found, len) = (wording.found)(self.at);
+                let label = self.expected.or(wording.unlabelled);
+                let message = match (label, found) {
+                    (Some(label), Some(found)) => format!("expected {label}, found {found}"),
+                    (Some(label), None) => format!("expected {label}"),
+                    (None, Some(found)) => format!("unexpected {found}"),
+                    (None, None) => "unexpected text".to_string(),
+                };
+                (wording.code, len, message, (wording.hint)(self.expected))
+            }
+        };
+        match lines {
+            Some(lines) => {
+                Diagnostic::at_indexed(code, file, src, lines, offset, len, message, hint)
+            }
+            None => Diagnostic::at(code, file, src, offset, len, message, hint),
+        }
+    }
+}
+
+/// How one reader words the syntax errors no production raised by hand.
+pub struct Wording {
+    /// Catalogue code of the diagnostic.
+    pub code: Code,
+    /// What was expected where no production put a context label (`None`: the message is
+    /// `unexpected {found}`).
+    pub unlabelled: Option<&'static str>,
+    /// What stands at the failure, as the message names it (`None` when the message names
+    /// nothing), and the caret width in bytes.
+    pub found: fn(&str) -> (Option<String>, usize),
+    /// The hint for the innermost context label (`None` when there was no label).
+    pub hint: fn(Option<&'static str>) -> Option<String>,
 }
 
 impl<'a> ParseError<&'a str> for SyntaxError<'a> {
@@ -135,5 +190,58 @@ mod tests {
         let e = SyntaxError::add_context("y", "label", by_hand);
         assert_eq!(e.expected, None);
         assert_eq!(e.reported.map(|r| r.message), Some("bad".to_string()));
+    }
+
+    #[test]
+    fn one_mapping_words_every_case_and_keeps_a_message_raised_by_hand() {
+        const W: Wording = Wording {
+            code: Code::DevSyntax,
+            unlabelled: None,
+            found: |at| {
+                let n = at.find(' ').unwrap_or(at.len());
+                ((n > 0).then(|| format!("`{}`", &at[..n])), n)
+            },
+            hint: |label| label.map(|l| format!("write {l}")),
+        };
+        let src = "first line\nqubits many more";
+        let at = &src[18..]; // "many more", line 2, column 8
+        let lines = LineIndex::new(src);
+        let labelled = SyntaxError {
+            at,
+            expected: Some("a count"),
+            reported: None,
+        };
+        let d = labelled.diagnostic(&W, "f.dev", src, None);
+        assert_eq!((d.line, d.column, d.width), (2, 8, 4));
+        assert_eq!(d.message, "expected a count, found `many`");
+        assert_eq!(d.hint.as_deref(), Some("write a count"));
+        assert_eq!(labelled.diagnostic(&W, "f.dev", src, Some(&lines)), d);
+        let bare = SyntaxError {
+            expected: None,
+            ..labelled.clone()
+        };
+        assert_eq!(
+            bare.diagnostic(&W, "f.dev", src, None).message,
+            "unexpected `many`"
+        );
+        let with_default = Wording {
+            unlabelled: Some("a statement"),
+            ..W
+        };
+        let at_end = SyntaxError {
+            at: &src[src.len()..],
+            expected: None,
+            reported: None,
+        };
+        assert_eq!(
+            at_end.diagnostic(&with_default, "f.dev", src, None).message,
+            "expected a statement"
+        );
+        let by_hand = SyntaxError::reported(at, Code::HamSyntax, "bad".into(), Some("h".into()), 2);
+        let d = by_hand.diagnostic(&W, "f.ham", src, Some(&lines));
+        assert_eq!(
+            (d.code, d.message.as_str(), d.hint.as_deref(), d.width),
+            (Code::HamSyntax, "bad", Some("h"), 2)
+        );
     }
 }

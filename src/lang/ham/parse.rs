@@ -10,7 +10,7 @@ use super::Encoding;
 use crate::diag::{Code, Diagnostic};
 pub(super) use crate::lang::ident::{ident_len, is_ident_char};
 pub(super) use crate::lang::syntax_error::Res;
-use crate::lang::syntax_error::SyntaxError;
+use crate::lang::syntax_error::{SyntaxError, Wording};
 use crate::pauli::Pauli;
 use nom::character::complete::{char, digit1};
 use nom::combinator::cut;
@@ -777,43 +777,17 @@ pub(super) fn recover_in_body(at: &str) -> &str {
     skip_line(at)
 }
 
-pub(super) fn perr_to_diag(file: &str, src: &str, e: &SyntaxError<'_>) -> Diagnostic {
-    let offset = src.offset(e.at);
-    match &e.reported {
-        Some(r) => Diagnostic::at(
-            r.code,
-            file,
-            src,
-            offset,
-            r.len,
-            r.message.clone(),
-            r.hint.clone(),
-        ),
-        None => {
-            let (found, len) = describe(e.at);
-            match e.expected {
-                Some(label) => Diagnostic::at(
-                    Code::HamSyntax,
-                    file,
-                    src,
-                    offset,
-                    len,
-                    format!("expected {label}, found {found}"),
-                    Some(hint_for(label).to_string()),
-                ),
-                None => Diagnostic::at(
-                    Code::HamSyntax,
-                    file,
-                    src,
-                    offset,
-                    len,
-                    format!("unexpected {found}"),
-                    Some(hint_for("").to_string()),
-                ),
-            }
-        }
-    }
-}
+/// How the `.ham` reader words a syntax error no production raised by hand: `expected {label},
+/// found {what}` (or `unexpected {what}`), [`describe`] naming the text, and the label's hint.
+const HAM_WORDING: Wording = Wording {
+    code: Code::HamSyntax,
+    unlabelled: None,
+    found: |at| {
+        let (found, len) = describe(at);
+        (Some(found), len)
+    },
+    hint: |label| Some(hint_for(label.unwrap_or("")).to_string()),
+};
 
 pub(super) fn parse_statements(file: &str, src: &str) -> Result<Vec<Stmt>, Vec<Diagnostic>> {
     let p = Parser {
@@ -829,7 +803,12 @@ pub(super) fn parse_statements(file: &str, src: &str) -> Result<Vec<Stmt>, Vec<D
     let mut diags: Vec<(usize, Diagnostic)> = errors
         .iter()
         .filter(|e| seen.insert(src.offset(e.at)))
-        .map(|e| (src.offset(e.at), perr_to_diag(file, src, e)))
+        .map(|e| {
+            (
+                src.offset(e.at),
+                e.diagnostic(&HAM_WORDING, file, src, None),
+            )
+        })
         .collect();
     diags.sort_by_key(|(o, _)| *o);
     Err(diags.into_iter().map(|(_, d)| d).collect())
