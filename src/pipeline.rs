@@ -320,22 +320,75 @@ impl From<CompileError> for crate::error::Error {
 
 const GIB: f64 = (1u64 << 30) as f64;
 
-/// What a campaign will cost before any of it is built: an upper estimate from the sizes alone.
+/// Bytes of OpenQASM text per estimated gate on the all-to-all target (`cx q[12], q[40];` is
+/// 17, a rotation with its 17-digit angle about 30), and on a device (per estimated gate
+/// before lowering: a gate lowered to native names is several lines). Both measured on the
+/// utility benches (`benches/utility.rs`, `benches/utility_device.rs`: text written ÷ gates
+/// estimated below), rounded up.
+const TEXT_PER_GATE: u128 = 20;
+const DEVICE_TEXT_PER_GATE: u128 = 56;
+/// What the process holds whatever the campaign: the program, the Hamiltonian's term list,
+/// a device's hop table, the thread stacks (measured: about 70 MB on the 10³-term device bench).
+const BASE_BYTES: u128 = 96 << 20;
+/// On a device the routed step and its lowered pieces (`route::DeviceCampaign`) are held while
+/// every circuit is written from them: about this many times one step's text (measured on the
+/// device benches: 4.8).
+const DEVICE_STEP_COPIES: u128 = 6;
+/// On the all-to-all target, the first time point with a step holds every level-3 candidate's
+/// body at once (chain, tree, pairs, agreeing order, and the two `Groups` forms).
+const FIRST_POINT_BODIES: u128 = 6;
+/// The later points hold the bodies of the candidates kept (the chain and the winner).
+const LATER_POINT_BODIES: u128 = 2;
+
+/// What a campaign will cost before any of it is built: an estimate from the sizes alone of
+/// the working set of [`compile_into`] (texts go to the sink as they are made).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Prediction {
     pub circuits: usize,
     /// Rotations over all circuits, before merging (merging only lowers it).
     pub rotations: u128,
-    /// Gates over all circuits: per rotation a basis change and its undoing, a CNOT ladder and
-    /// its mirror, and the controlled `rz` (4 gates); on a device, three times that for SWAPs
-    /// and native lowering (a bound from the routing benchmarks, common practice).
+    /// Gates of the longest circuit: per rotation a basis change and its undoing, a CNOT ladder
+    /// and its mirror, and the controlled `rz` (at most `6w + 2` for weight `w`); on a device
+    /// also `3·(w − 1)·(d − 1)` CNOTs of SWAPs, `d` the device's mean hop distance, the whole
+    /// doubled for native lowering.
     pub gates: u128,
-    /// Peak bytes: every gate held as IR and as OpenQASM text, plus every rotation.
+    /// Bytes of the longest circuit's text.
+    pub largest_text: u128,
+    /// Peak bytes: [`BASE_BYTES`]; every time point's rotation program (twice at level 3: the
+    /// agreeing order too), all-to-all only; then the larger of the two working sets: on the
+    /// all-to-all target, per point, the candidates' bodies as IR and two texts (one held for
+    /// the circuits that copy its body, one being written), the most over the points; on a
+    /// device, one text per thread being written and [`DEVICE_STEP_COPIES`] step texts.
     pub bytes: u128,
 }
 
-/// Predicts the size of the campaign `spec` makes of `h` ([`Prediction`]).
-pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
+/// The mean hop distance between the qubits of `device` (at most 512 of them, evenly spread,
+/// when it is larger), 1 when it has fewer than two.
+fn mean_distance(device: &Device) -> f64 {
+    let n = device.num_qubits;
+    let picked: Vec<u32> = (0..n.min(512))
+        .map(|i| (i * n / n.min(512)) as u32)
+        .collect();
+    let (mut sum, mut pairs) = (0u64, 0u64);
+    for &a in &picked {
+        for &b in &picked {
+            let d = device.distance(a, b);
+            if a != b && d != crate::device::UNREACHABLE {
+                sum += d as u64;
+                pairs += 1;
+            }
+        }
+    }
+    if pairs == 0 {
+        1.0
+    } else {
+        sum as f64 / pairs as f64
+    }
+}
+
+/// Predicts the size of the campaign `spec` makes of `h`, on `device` or all-to-all when
+/// `None` ([`Prediction`]), with the threads of the current rayon pool.
+pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: Option<&Device>) -> Prediction {
     let m = h.terms.len() as u128;
     let weight: u128 = h.terms.keys().map(|p| p.weight() as u128).sum();
     let per_step = match spec.order {
@@ -352,18 +405,60 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
     let circuits = (points.saturating_sub(1) * reads_per_point) as usize;
     let steps: u128 = (1..points).map(per_circuit).sum::<u128>() * reads_per_point;
     let rotations = steps * m;
-    // Basis change + undo ≤ 2·2w, ladder + mirror 2(w−1), controlled rz 4: at most 6w + 2.
-    let mut gates = steps * (6 * weight + 2 * m);
-    if device {
-        gates *= 3;
-    }
-    let bytes = gates * (std::mem::size_of::<Gate>() as u128 + 24)
-        + rotations * std::mem::size_of::<crate::formula::Rotation>() as u128;
+    let last = per_circuit(points.saturating_sub(1));
+    let gate = std::mem::size_of::<Gate>() as u128;
+    // Gates of one step of the formula (per_step rotations of every term).
+    let a2a_step = per_step * (6 * weight + 2 * m);
+    let (gates, largest_text, work) = match device {
+        None => {
+            let gates = last / per_step.max(1) * a2a_step;
+            let text = gates * TEXT_PER_GATE;
+            // Per point: its bodies and two texts; the first point with a step holds more
+            // bodies, the last the longest ones.
+            let point = |k: u128, bodies: u128| {
+                let g = per_circuit(k) / per_step.max(1) * a2a_step;
+                bodies * g * gate + 2 * g * TEXT_PER_GATE
+            };
+            let work = (1..points)
+                .map(|k| {
+                    point(
+                        k,
+                        if k == 1 {
+                            FIRST_POINT_BODIES
+                        } else {
+                            LATER_POINT_BODIES
+                        },
+                    )
+                })
+                .max()
+                .unwrap_or(0);
+            // Every point's program, and at level 3 its agreeing order.
+            let programs: u128 = (0..points).map(per_circuit).sum::<u128>()
+                * m
+                * 2
+                * std::mem::size_of::<crate::formula::Rotation>() as u128;
+            (gates, text, work + programs)
+        }
+        Some(d) => {
+            let hops = (mean_distance(d) - 1.0).max(0.0);
+            let swaps = (3.0 * (weight - m.min(weight)) as f64 * hops).ceil() as u128;
+            let step = 2 * (a2a_step + per_step * swaps);
+            let gates = last / per_step.max(1) * step;
+            let text = gates * DEVICE_TEXT_PER_GATE;
+            let threads = (rayon::current_num_threads() as u128).clamp(1, circuits.max(1) as u128);
+            (
+                gates,
+                text,
+                threads * text + DEVICE_STEP_COPIES * step * DEVICE_TEXT_PER_GATE,
+            )
+        }
+    };
     Prediction {
         circuits,
         rotations,
         gates,
-        bytes,
+        largest_text,
+        bytes: BASE_BYTES + work,
     }
 }
 
@@ -853,15 +948,23 @@ pub fn compile_into(
     level: OptLevel,
     sink: &dyn Sink,
 ) -> Result<Plan, CompileError> {
-    let predicted = predicted_memory(h, spec, matches!(target, Target::Device { .. }));
+    let predicted = predicted_memory(
+        h,
+        spec,
+        match target {
+            Target::AllToAll => None,
+            Target::Device { device, .. } => Some(device),
+        },
+    );
     if let Some(avail) = crate::sim::available_memory_bytes() {
         if predicted.bytes > avail {
             return Err(CompileError::TooLarge(format!(
-                "this campaign needs about {:.1} GiB ({} circuits, about {:.2e} rotations and {:.2e} gates) but only {:.1} GiB is available",
+                "this campaign needs about {:.1} GiB of memory while it is compiled ({} circuits, about {:.2e} rotations; its longest circuit about {:.2e} gates, {:.1} GiB of text) but only {:.1} GiB is available",
                 predicted.bytes as f64 / GIB,
                 predicted.circuits,
                 predicted.rotations as f64,
                 predicted.gates as f64,
+                predicted.largest_text as f64 / GIB,
                 avail as f64 / GIB
             )));
         }
@@ -1683,9 +1786,12 @@ mod tests {
         h
     }
 
-    /// The predicted peak stays above what a compile must hold when it ends, every circuit's
-    /// text (`Compiled::programs`), however the later points are built; and it counts the
-    /// circuits the campaign emits (two per point past k = 0 for one reference state).
+    /// The prediction's parts cover what a compile makes: its longest circuit's gates and text
+    /// (read back from `Compiled::programs`) stay under `gates` and `largest_text`, the peak
+    /// covers that text twice over (one held while the circuits that copy its body are
+    /// written, one being written), and it counts the circuits the campaign emits (two per
+    /// point past k = 0 for one reference state). On a device the SWAPs come on top: a bigger
+    /// prediction for the same sum.
     #[test]
     fn predicted_memory_covers_the_texts_held() {
         let h = sum_on_five(&[
@@ -1703,14 +1809,41 @@ mod tests {
                 steps_per_dt: 2,
                 states: vec!["0+0+0".to_string()],
             };
-            let predicted = predicted_memory(&h, &spec, false);
+            let predicted = predicted_memory(&h, &spec, None);
             let compiled = compile(&h, "five.ham", &spec).unwrap();
             assert_eq!(predicted.circuits, compiled.programs.len());
-            let text: usize = compiled.programs.iter().map(String::len).sum();
+            let longest = compiled.programs.iter().map(String::len).max().unwrap();
             assert!(
-                predicted.bytes >= text as u128,
-                "{order:?}: {predicted:?} < {text}"
+                predicted.largest_text >= longest as u128,
+                "{order:?}: {predicted:?} < {longest}"
             );
+            assert!(predicted.bytes >= 2 * longest as u128, "{order:?}");
+            let most_gates = compiled
+                .circuits()
+                .iter()
+                .map(|c| c.gates.len())
+                .max()
+                .unwrap();
+            assert!(
+                predicted.gates >= most_gates as u128,
+                "{order:?}: {predicted:?} < {most_gates} gates"
+            );
+            // A 5-qubit line: the mean hop distance is 2 (20 ordered pairs, 40 hops in all);
+            // every pair coupled: 1, no SWAP, only the lowering doubles the gates.
+            let line = Device::new(
+                "line5",
+                5,
+                &[(0, 1), (1, 2), (2, 3), (3, 4)],
+                crate::device::NativeSet::rz_sx_x_cx(),
+                Default::default(),
+            );
+            assert_eq!(mean_distance(&line), 2.0);
+            let full = Device::all_to_all(5);
+            assert_eq!(mean_distance(&full), 1.0);
+            let on_full = predicted_memory(&h, &spec, Some(&full));
+            assert_eq!(on_full.gates, 2 * predicted.gates, "{order:?}");
+            let on_line = predicted_memory(&h, &spec, Some(&line));
+            assert!(on_line.gates > on_full.gates, "{order:?}");
         }
     }
 
