@@ -349,8 +349,8 @@ pub struct Prediction {
     pub rotations: u128,
     /// Gates of the longest circuit: per rotation a basis change and its undoing, a CNOT ladder
     /// and its mirror, and the controlled `rz` (at most `6w + 2` for weight `w`); on a device
-    /// also `3·(w − 1)·(d − 1)` CNOTs of SWAPs, `d` the device's mean hop distance, the whole
-    /// doubled for native lowering.
+    /// also 3 CNOTs per SWAP, a term needing one SWAP per hop it must close (`term_hops`), the
+    /// whole doubled for native lowering.
     pub gates: u128,
     /// Bytes of the longest circuit's text.
     pub largest_text: u128,
@@ -384,6 +384,35 @@ fn mean_distance(device: &Device) -> f64 {
     } else {
         sum as f64 / pairs as f64
     }
+}
+
+/// Hops every term of `h` must close on `device`, summed: per term, from its lowest qubit to
+/// each other qubit of its support, the hop distance less one, with logical qubit `q` on
+/// physical qubit `q` (the layout search starts near that placement and keeps a better one,
+/// so terms local in the numbering stay cheap); with [`mean_distance`] when `h` is wider
+/// than the device or the placement crosses components.
+fn term_hops(h: &PauliSum, device: &Device) -> f64 {
+    let mean = (mean_distance(device) - 1.0).max(0.0);
+    let wide = h.num_qubits > device.num_qubits;
+    h.terms
+        .keys()
+        .map(|p| {
+            let mut support = p.support_iter();
+            let Some(first) = support.next() else {
+                return 0.0;
+            };
+            support
+                .map(|q| {
+                    let d = device.distance(first as u32, q as u32);
+                    if wide || d == crate::device::UNREACHABLE {
+                        mean
+                    } else {
+                        d.saturating_sub(1) as f64
+                    }
+                })
+                .sum::<f64>()
+        })
+        .sum()
 }
 
 /// Predicts the size of the campaign `spec` makes of `h`, on `device` or all-to-all when
@@ -440,8 +469,7 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: Option<&Device>) -> P
             (gates, text, work + programs)
         }
         Some(d) => {
-            let hops = (mean_distance(d) - 1.0).max(0.0);
-            let swaps = (3.0 * (weight - m.min(weight)) as f64 * hops).ceil() as u128;
+            let swaps = (3.0 * term_hops(h, d)).ceil() as u128;
             let step = 2 * (a2a_step + per_step * swaps);
             let gates = last / per_step.max(1) * step;
             let text = gates * DEVICE_TEXT_PER_GATE;
@@ -1838,6 +1866,9 @@ mod tests {
                 Default::default(),
             );
             assert_eq!(mean_distance(&line), 2.0);
+            // Hops from each term's lowest qubit, less one each, counted by hand on the line:
+            // {0,1,2}: 0 + 1; {0,2,3,4}: 1 + 2 + 3; {0,…,4}: 0 + 1 + 2 + 3.
+            assert_eq!(term_hops(&h, &line), 13.0);
             let full = Device::all_to_all(5);
             assert_eq!(mean_distance(&full), 1.0);
             let on_full = predicted_memory(&h, &spec, Some(&full));
