@@ -6,8 +6,10 @@
 //!    the stages of one more run (read, scan, sort+merge, format, write) as multiples of that
 //!    copy, and the time to read the same file into a `PauliSum` as the other commands do;
 //! 2. compile: a 10⁵-term, 120-qubit Hamiltonian, one second-order step per point, overlap
-//!    family, 5 points, all-to-all: compile + write the files ÷ write the same bytes; peak
-//!    resident memory of the process (VmHWM) printed beside it;
+//!    family, 5 points, all-to-all: compile + write the files (each text written as the
+//!    pipeline makes it, `files::FolderWriter`) ÷ write the same bytes (read back from those
+//!    files, only the writes timed); the peak resident memory of the process (VmHWM, read
+//!    before the copy) printed beside the peak `pipeline::predicted_memory` predicted;
 //! 3. scaling: compile time (one time point past 0: the Re and Im circuits of one Strang step)
 //!    at 10³…10⁶ terms on 120 qubits, and at 64…1,024 qubits with 100 terms per qubit; the
 //!    least-squares exponent of time against size is printed.
@@ -24,7 +26,7 @@ use phasewright::formula::Order;
 use phasewright::hamiltonian::{parse_hamiltonian, read_flat};
 use phasewright::lang::ham::{plain, write_flat};
 use phasewright::pauli::PauliSum;
-use phasewright::pipeline::compile;
+use phasewright::pipeline::{compile, compile_into, predicted_memory, OptLevel, Target};
 use rand::{Rng, SeedableRng};
 use std::io::Write;
 use std::path::Path;
@@ -161,26 +163,52 @@ fn spec(n: usize, points: usize) -> Spec {
     }
 }
 
-/// Writes every program into `dir` through a buffered writer; returns the bytes written.
-fn write_all(dir: &Path, programs: &[String]) -> usize {
-    std::fs::create_dir_all(dir).unwrap();
-    let mut bytes = 0;
-    for (i, p) in programs.iter().enumerate() {
-        let f = std::fs::File::create(dir.join(format!("c{i:03}.qasm"))).unwrap();
+/// Seconds to write again, through a buffered writer into `to`, every file of the campaign
+/// folder `from` (each read back first, untimed), and the bytes written.
+fn copy_timed(from: &Path, to: &Path) -> (f64, usize) {
+    std::fs::create_dir_all(to).unwrap();
+    let mut files: Vec<_> = std::fs::read_dir(from)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    let (mut secs, mut bytes) = (0.0, 0);
+    for path in files {
+        let text = std::fs::read(&path).unwrap();
+        let t = Instant::now();
+        let f = std::fs::File::create(to.join(path.file_name().unwrap())).unwrap();
         let mut w = std::io::BufWriter::with_capacity(1 << 20, f);
-        w.write_all(p.as_bytes()).unwrap();
+        w.write_all(&text).unwrap();
         w.flush().unwrap();
-        bytes += p.len();
+        secs += t.elapsed().as_secs_f64();
+        bytes += text.len();
     }
-    bytes
+    (secs, bytes)
 }
 
-/// Seconds to compile `h` (all-to-all, [`spec`]) and write the files.
+/// Seconds to compile `h` (all-to-all, [`spec`]) into the folder `dir`, as `compile` does:
+/// each text written to its file as soon as it is made, plan.json last; and the bytes of the
+/// programs.
 fn compile_and_write(h: &PauliSum, points: usize, dir: &Path) -> (f64, usize) {
     let t = Instant::now();
-    let c = compile(h, "bench.ham", &spec(h.num_qubits, points)).expect("compiles");
-    let bytes = write_all(dir, &c.programs);
-    (t.elapsed().as_secs_f64(), bytes)
+    let writer = phasewright::files::FolderWriter::create(dir, None).expect("a staging folder");
+    let mut plan = compile_into(
+        h,
+        "bench.ham",
+        &spec(h.num_qubits, points),
+        &Target::AllToAll,
+        OptLevel::default(),
+        &writer,
+    )
+    .expect("compiles");
+    writer.finish(&mut plan).expect("writes");
+    let secs = t.elapsed().as_secs_f64();
+    let bytes = plan
+        .circuits
+        .iter()
+        .map(|e| std::fs::metadata(dir.join(&e.file)).map_or(0, |m| m.len() as usize))
+        .sum();
+    (secs, bytes)
 }
 
 /// The all-to-all compile of [`spec`] on one thread, stage by stage as the pipeline's own
@@ -237,17 +265,17 @@ fn main() {
     if want("compile") {
         let m_comp = if quick { 10_000 } else { 100_000 };
         let h = parse(&random_ham_text(120, m_comp, 2));
-        let (comp_s, bytes) = compile_and_write(&h, 5, &scratch.path().join("campaign"));
-        let c = compile(&h, "bench.ham", &spec(120, 5)).expect("compiles");
-        let t = Instant::now();
-        write_all(&scratch.path().join("copy"), &c.programs);
-        let write_s = t.elapsed().as_secs_f64();
-        drop(c);
+        let predicted =
+            predicted_memory(&h, &spec(120, 5), None).bytes as f64 / (1u64 << 20) as f64;
+        let campaign = scratch.path().join("campaign");
+        let (comp_s, bytes) = compile_and_write(&h, 5, &campaign);
         let peak = peak_rss_mb();
+        let (write_s, _) = copy_timed(&campaign, &scratch.path().join("copy"));
         println!(
-        "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {peak:.0} MB",
+        "compile {m_comp} terms on 120 qubits, Strang, 5 points, all-to-all: {comp_s:.2} s for {:.0} MB, writing alone {write_s:.2} s, ratio {:.1} (target <= 10), peak memory {peak:.0} MB, predicted {predicted:.0} MB ({:.2}x the peak)",
         bytes as f64 / 1e6,
         comp_s / write_s,
+        predicted / peak,
     );
         // Where the time goes: the same work stage by stage on one thread (the compile above
         // runs circuits and candidates on every core), each as a multiple of the write.

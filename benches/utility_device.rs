@@ -14,10 +14,13 @@
 //!
 //! For each case, in a child process of its own (so that the peak resident memory read from
 //! `VmHWM` in `/proc/self/status` belongs to that case alone):
-//! - `compile`: parse the `.ham` and `.dev` texts, `pipeline::compile_for` on the device, and
-//!   write the campaign (`files::write_campaign`: programs and plan.json, each to a
-//!   temporary name then renamed) into a fresh folder;
-//! - `write`: `std::fs::write` of the same bytes, file by file, into another fresh folder;
+//! - `compile`: parse the `.ham` and `.dev` texts, `pipeline::compile_into` on the device
+//!   with the writer `compile` uses (`files::FolderWriter`: each text written to its file in a
+//!   staging folder as soon as it is made, plan.json last, then the folder renamed);
+//! - `write`: `std::fs::write` of the same bytes (read back from those files, only the writes
+//!   timed), file by file, into another fresh folder;
+//! - `peak MB` (VmHWM, read before that copy) beside `pred MB`, the peak
+//!   `pipeline::predicted_memory` predicted (MiB both);
 //! - `ratio` = compile ÷ write (the utility-scale issue's target on a device: ≤ 30);
 //! - SWAPs: those in one routed step (forward block) and the total over the campaign's circuits
 //!   as plan.json records them; two-qubit gates written; output size; cores (rayon threads).
@@ -28,7 +31,7 @@ use phasewright::device::Device;
 use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
-use phasewright::pipeline::{compile_for, Target};
+use phasewright::pipeline::{compile_into, predicted_memory, OptLevel, Target};
 use phasewright::route::RouteConfig;
 use rand::{Rng, SeedableRng};
 use std::fmt::Write as _;
@@ -138,22 +141,44 @@ fn run_case(i: usize) {
         device: &dev,
         config: &config,
     };
-    let mut compiled = compile_for(&h, "bench.ham", &spec, &target).expect("compiles");
-    let t_plan = t0.elapsed().as_secs_f64();
+    let predicted = predicted_memory(&h, &spec, Some(&dev)).bytes as f64 / (1u64 << 20) as f64;
     let out = scratch.path().join("campaign");
-    phasewright::files::write_campaign(&out, &mut compiled).expect("writes");
+    let writer = phasewright::files::FolderWriter::create(&out, None).expect("a staging folder");
+    let mut plan = compile_into(
+        &h,
+        "bench.ham",
+        &spec,
+        &target,
+        OptLevel::default(),
+        &writer,
+    )
+    .expect("compiles");
+    let t_plan = t0.elapsed().as_secs_f64();
+    writer.finish(&mut plan).expect("writes");
     let t_compile = t0.elapsed().as_secs_f64();
-    // The same bytes, plainly written.
+    let peak = peak_rss_mb();
+    let compiled = phasewright::pipeline::Compiled {
+        plan,
+        programs: Vec::new(),
+    };
+    // The same bytes, plainly written (each file read back first, untimed).
     let plain = scratch.path().join("plain");
-    let plan_json = compiled.plan.to_json();
-    let t1 = Instant::now();
     std::fs::create_dir_all(&plain).unwrap();
-    for (e, text) in compiled.plan.circuits.iter().zip(&compiled.programs) {
-        std::fs::write(plain.join(&e.file), text.as_bytes()).unwrap();
+    let mut names: Vec<String> = compiled
+        .plan
+        .circuits
+        .iter()
+        .map(|e| e.file.clone())
+        .collect();
+    names.push("plan.json".into());
+    let (mut t_write, mut bytes) = (0.0, 0);
+    for name in &names {
+        let text = std::fs::read(out.join(name)).unwrap();
+        let t1 = Instant::now();
+        std::fs::write(plain.join(name), &text).unwrap();
+        t_write += t1.elapsed().as_secs_f64();
+        bytes += text.len();
     }
-    std::fs::write(plain.join("plan.json"), plan_json.as_bytes()).unwrap();
-    let t_write = t1.elapsed().as_secs_f64();
-    let bytes: usize = compiled.programs.iter().map(|p| p.len()).sum::<usize>() + plan_json.len();
     let swaps: usize = compiled.plan.circuits.iter().map(|c| c.costs.swaps).sum();
     let two_qubit: usize = compiled
         .plan
@@ -168,7 +193,7 @@ fn run_case(i: usize) {
         .find(|c| c.k == 1)
         .map_or(0, |c| c.costs.swaps);
     println!(
-        "{:<30} {:>4} {:>7} {:>6} | {:>8.2} {:>8.2} {:>8.3} {:>7.1} | {:>8} {:>9} {:>10} {:>8.1} {:>8.0} {:>5}",
+        "{:<30} {:>4} {:>7} {:>6} | {:>8.2} {:>8.2} {:>8.3} {:>7.1} | {:>8} {:>9} {:>10} {:>8.1} {:>8.0} {:>8.0} {:>5}",
         case.name,
         case.qubits,
         case.terms,
@@ -181,7 +206,8 @@ fn run_case(i: usize) {
         swaps,
         two_qubit,
         bytes as f64 / 1e6,
-        peak_rss_mb(),
+        peak,
+        predicted,
         rayon::current_num_threads()
     );
 }
@@ -200,7 +226,7 @@ fn main() {
         _ => (0..CASES.len()).collect(),
     };
     println!(
-        "{:<30} {:>4} {:>7} {:>6} | {:>8} {:>8} {:>8} {:>7} | {:>8} {:>9} {:>10} {:>8} {:>8} {:>5}",
+        "{:<30} {:>4} {:>7} {:>6} | {:>8} {:>8} {:>8} {:>7} | {:>8} {:>9} {:>10} {:>8} {:>8} {:>8} {:>5}",
         "case",
         "n",
         "terms",
@@ -214,6 +240,7 @@ fn main() {
         "2q gates",
         "MB out",
         "peak MB",
+        "pred MB",
         "cores"
     );
     let me = std::env::current_exe().expect("own path");

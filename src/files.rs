@@ -10,6 +10,6 @@
 //! private command layer, the one part of the library that touches the file system, so a test
 //! reads and writes exactly as the commands do.
 
-pub use crate::app::compile::write_campaign;
+pub use crate::app::compile::{write_campaign, FolderWriter};
 pub use crate::app::convert::{load_qubit_hamiltonian, load_qubit_hamiltonian_with, LoadOptions};
 pub use crate::app::io::{read_hamiltonian, read_plan};

@@ -1,7 +1,11 @@
 //! The map of the compiler: the passes, in order, from a Pauli sum to OpenQASM 3 text.
 //!
-//! In: a [`PauliSum`], a [`Spec`], a target and an optimisation level ([`OptLevel`]). Out: a
-//! [`Compiled`] campaign: the plan and one program text per circuit, in plan order. Each pass
+//! In: a [`PauliSum`], a [`Spec`], a target and an optimisation level ([`OptLevel`]). Out: the
+//! plan, and each circuit's program text handed to a [`Sink`] as soon as it is final
+//! ([`compile_into`]; the command layer's sink writes it to its file and drops it, so a
+//! campaign's texts are never all held), or a [`Compiled`] campaign with every text kept in
+//! plan order ([`compile_at`], through [`Collect`]). The texts do not depend on the thread
+//! count, nor on the order the sink receives them. Each pass
 //! is a free function over one value; a small driver ([`run_passes`]) runs a target's list in
 //! order and, in tests and debug builds, calls `verify_ir` after every pass with the rules that
 //! hold at that point (structure before routing; coupling after routing; coupling and native
@@ -81,7 +85,7 @@
 //! plus SWAPs, `route::EXTRAS_MAX_UNIT`) the extras are skipped and levels 2 and 3 coincide:
 //! each would cost about one more routing per candidate.
 //!
-//! Nothing here reads or writes files; the command layer does. The one query of the machine is
+//! Nothing here reads or writes files; the command layer does (through the [`Sink`]). The one query of the machine is
 //! the available memory (`sim::available_memory_bytes`), so a campaign predicted to need more
 //! is refused before it is built.
 
@@ -283,6 +287,8 @@ pub enum CompileError {
     /// The predicted peak memory exceeds what the machine has (see [`predicted_memory`]).
     TooLarge(String),
     Ir(IrError),
+    /// The [`Sink`] could not take a circuit's text (a write failed: disk full, say).
+    Output(crate::error::Error),
 }
 
 impl From<RouteError> for CompileError {
@@ -307,28 +313,111 @@ impl From<CompileError> for crate::error::Error {
                 Some("use fewer --points or --steps, a lower --order, or fewer terms (a cutoff on small coefficients)"),
             ),
             CompileError::Ir(e) => crate::error::Error::Ir(e),
+            CompileError::Output(e) => e,
         }
     }
 }
 
 const GIB: f64 = (1u64 << 30) as f64;
 
-/// What a campaign will cost before any of it is built: an upper estimate from the sizes alone.
+/// Bytes of OpenQASM text per estimated gate on the all-to-all target (`cx q[12], q[40];` is
+/// 17, a rotation with its 17-digit angle about 30), and on a device (per estimated gate
+/// before lowering: a gate lowered to native names is several lines). Both measured on the
+/// utility benches (`benches/utility.rs`, `benches/utility_device.rs`: text written ÷ gates
+/// estimated below), rounded up.
+const TEXT_PER_GATE: u128 = 20;
+const DEVICE_TEXT_PER_GATE: u128 = 56;
+/// What the process holds whatever the campaign: the program, the Hamiltonian's term list,
+/// a device's hop table, the thread stacks (measured: about 70 MB on the 10³-term device bench).
+const BASE_BYTES: u128 = 96 << 20;
+/// On a device the routed step and its lowered pieces (`route::DeviceCampaign`) are held while
+/// every circuit is written from them: about this many times one step's text (measured on the
+/// device benches: 4.8).
+const DEVICE_STEP_COPIES: u128 = 6;
+/// On the all-to-all target, the first time point with a step holds every level-3 candidate's
+/// body at once (chain, tree, pairs, agreeing order, and the two `Groups` forms).
+const FIRST_POINT_BODIES: u128 = 6;
+/// The later points hold the bodies of the candidates kept (the chain and the winner).
+const LATER_POINT_BODIES: u128 = 2;
+
+/// What a campaign will cost before any of it is built: an estimate from the sizes alone of
+/// the working set of [`compile_into`] (texts go to the sink as they are made).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Prediction {
     pub circuits: usize,
     /// Rotations over all circuits, before merging (merging only lowers it).
     pub rotations: u128,
-    /// Gates over all circuits: per rotation a basis change and its undoing, a CNOT ladder and
-    /// its mirror, and the controlled `rz` (4 gates); on a device, three times that for SWAPs
-    /// and native lowering (a bound from the routing benchmarks, common practice).
+    /// Gates of the longest circuit: per rotation a basis change and its undoing, a CNOT ladder
+    /// and its mirror, and the controlled `rz` (at most `6w + 2` for weight `w`); on a device
+    /// also 3 CNOTs per SWAP, a term needing one SWAP per hop it must close (`term_hops`), the
+    /// whole doubled for native lowering.
     pub gates: u128,
-    /// Peak bytes: every gate held as IR and as OpenQASM text, plus every rotation.
+    /// Bytes of the longest circuit's text.
+    pub largest_text: u128,
+    /// Peak bytes: [`BASE_BYTES`]; every time point's rotation program (twice at level 3: the
+    /// agreeing order too), all-to-all only; then the larger of the two working sets: on the
+    /// all-to-all target, per point, the candidates' bodies as IR and two texts (one held for
+    /// the circuits that copy its body, one being written), the most over the points; on a
+    /// device, one text per thread being written and [`DEVICE_STEP_COPIES`] step texts.
     pub bytes: u128,
 }
 
-/// Predicts the size of the campaign `spec` makes of `h` ([`Prediction`]).
-pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
+/// The mean hop distance between the qubits of `device` (at most 512 of them, evenly spread,
+/// when it is larger), 1 when it has fewer than two.
+fn mean_distance(device: &Device) -> f64 {
+    let n = device.num_qubits;
+    let picked: Vec<u32> = (0..n.min(512))
+        .map(|i| (i * n / n.min(512)) as u32)
+        .collect();
+    let (mut sum, mut pairs) = (0u64, 0u64);
+    for &a in &picked {
+        for &b in &picked {
+            let d = device.distance(a, b);
+            if a != b && d != crate::device::UNREACHABLE {
+                sum += d as u64;
+                pairs += 1;
+            }
+        }
+    }
+    if pairs == 0 {
+        1.0
+    } else {
+        sum as f64 / pairs as f64
+    }
+}
+
+/// Hops every term of `h` must close on `device`, summed: per term, from its lowest qubit to
+/// each other qubit of its support, the hop distance less one, with logical qubit `q` on
+/// physical qubit `q` (the layout search starts near that placement and keeps a better one,
+/// so terms local in the numbering stay cheap); with [`mean_distance`] when `h` is wider
+/// than the device or the placement crosses components.
+fn term_hops(h: &PauliSum, device: &Device) -> f64 {
+    let mean = (mean_distance(device) - 1.0).max(0.0);
+    let wide = h.num_qubits > device.num_qubits;
+    h.terms
+        .keys()
+        .map(|p| {
+            let mut support = p.support_iter();
+            let Some(first) = support.next() else {
+                return 0.0;
+            };
+            support
+                .map(|q| {
+                    let d = device.distance(first as u32, q as u32);
+                    if wide || d == crate::device::UNREACHABLE {
+                        mean
+                    } else {
+                        d.saturating_sub(1) as f64
+                    }
+                })
+                .sum::<f64>()
+        })
+        .sum()
+}
+
+/// Predicts the size of the campaign `spec` makes of `h`, on `device` or all-to-all when
+/// `None` ([`Prediction`]), with the threads of the current rayon pool.
+pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: Option<&Device>) -> Prediction {
     let m = h.terms.len() as u128;
     let weight: u128 = h.terms.keys().map(|p| p.weight() as u128).sum();
     let per_step = match spec.order {
@@ -345,19 +434,104 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: bool) -> Prediction {
     let circuits = (points.saturating_sub(1) * reads_per_point) as usize;
     let steps: u128 = (1..points).map(per_circuit).sum::<u128>() * reads_per_point;
     let rotations = steps * m;
-    // Basis change + undo ≤ 2·2w, ladder + mirror 2(w−1), controlled rz 4: at most 6w + 2.
-    let mut gates = steps * (6 * weight + 2 * m);
-    if device {
-        gates *= 3;
-    }
-    let bytes = gates * (std::mem::size_of::<Gate>() as u128 + 24)
-        + rotations * std::mem::size_of::<crate::formula::Rotation>() as u128;
+    let last = per_circuit(points.saturating_sub(1));
+    let gate = std::mem::size_of::<Gate>() as u128;
+    // Gates of one step of the formula (per_step rotations of every term).
+    let a2a_step = per_step * (6 * weight + 2 * m);
+    let (gates, largest_text, work) = match device {
+        None => {
+            let gates = last / per_step.max(1) * a2a_step;
+            let text = gates * TEXT_PER_GATE;
+            // Per point: its bodies and two texts; the first point with a step holds more
+            // bodies, the last the longest ones.
+            let point = |k: u128, bodies: u128| {
+                let g = per_circuit(k) / per_step.max(1) * a2a_step;
+                bodies * g * gate + 2 * g * TEXT_PER_GATE
+            };
+            let work = (1..points)
+                .map(|k| {
+                    point(
+                        k,
+                        if k == 1 {
+                            FIRST_POINT_BODIES
+                        } else {
+                            LATER_POINT_BODIES
+                        },
+                    )
+                })
+                .max()
+                .unwrap_or(0);
+            // Every point's program, and at level 3 its agreeing order.
+            let programs: u128 = (0..points).map(per_circuit).sum::<u128>()
+                * m
+                * 2
+                * std::mem::size_of::<crate::formula::Rotation>() as u128;
+            (gates, text, work + programs)
+        }
+        Some(d) => {
+            let swaps = (3.0 * term_hops(h, d)).ceil() as u128;
+            let step = 2 * (a2a_step + per_step * swaps);
+            let gates = last / per_step.max(1) * step;
+            let text = gates * DEVICE_TEXT_PER_GATE;
+            let threads = (rayon::current_num_threads() as u128).clamp(1, circuits.max(1) as u128);
+            (
+                gates,
+                text,
+                threads * text + DEVICE_STEP_COPIES * step * DEVICE_TEXT_PER_GATE,
+            )
+        }
+    };
     Prediction {
         circuits,
         rotations,
         gates,
-        bytes,
+        largest_text,
+        bytes: BASE_BYTES + work,
     }
+}
+
+/// Where each circuit's OpenQASM 3 text goes as soon as it is final ([`compile_into`]): the
+/// command layer writes it to its file and drops it (`app::compile::FolderWriter`), so a
+/// campaign's texts are never all in memory; [`Collect`] keeps them for callers that want them.
+pub trait Sink: Sync {
+    /// Takes the text of circuit `index` (plan order), stored as `file` (the plan's
+    /// `CircuitEntry::file`). Called once per circuit, from any thread, in no fixed order.
+    fn put(&self, index: usize, file: &str, text: String) -> Result<(), crate::error::Error>;
+}
+
+/// A [`Sink`] that keeps every text, by plan index ([`compile_at`] returns them).
+#[derive(Default)]
+pub struct Collect {
+    texts: std::sync::Mutex<Vec<Option<String>>>,
+}
+
+impl Collect {
+    /// The texts of circuits `0..n`, in plan order; `None` if one was never put.
+    pub fn into_texts(self, n: usize) -> Option<Vec<String>> {
+        let mut texts = self.texts.into_inner().ok()?;
+        texts.resize(n.max(texts.len()), None);
+        (texts.len() == n)
+            .then(|| texts.into_iter().collect::<Option<Vec<String>>>())
+            .flatten()
+    }
+}
+
+impl Sink for Collect {
+    fn put(&self, index: usize, _file: &str, text: String) -> Result<(), crate::error::Error> {
+        let mut texts = self.texts.lock().map_err(|_| {
+            crate::error::Error::Internal("a thread failed while collecting".into())
+        })?;
+        if texts.len() <= index {
+            texts.resize(index + 1, None);
+        }
+        texts[index] = Some(text);
+        Ok(())
+    }
+}
+
+/// The file of circuit `id` (the plan's `CircuitEntry::file`).
+fn file_of(id: &str) -> String {
+    format!("{id}.qasm")
 }
 
 /// A compiled campaign: the plan and, for every circuit in plan order, its program text.
@@ -428,11 +602,18 @@ struct Finished {
     reads: Vec<crate::family::plan::Read>,
     num_qubits: usize,
     num_clbits: usize,
-    /// The circuit's OpenQASM 3 text, written by the target's passes.
-    program: String,
     costs: Costs,
     final_layout: Vec<u32>,
     fanout: Option<FanOut>,
+}
+
+/// A circuit's text held back from the [`Sink`] while later circuits of its time point copy
+/// its body's text from it (`at`), with the circuit's plan index and file.
+struct Held {
+    text: String,
+    at: Range<usize>,
+    index: usize,
+    file: String,
 }
 
 /// Which rotation program of a time point a candidate synthesises on the all-to-all target.
@@ -764,7 +945,8 @@ fn header_comments(
     comments
 }
 
-/// Runs the passes for any target at optimisation level `level`.
+/// Runs the passes for any target at optimisation level `level`, every text kept
+/// ([`Collect`]).
 pub fn compile_at(
     h: &PauliSum,
     source: &str,
@@ -772,15 +954,45 @@ pub fn compile_at(
     target: &Target,
     level: OptLevel,
 ) -> Result<Compiled, CompileError> {
-    let predicted = predicted_memory(h, spec, matches!(target, Target::Device { .. }));
+    let texts = Collect::default();
+    let plan = compile_into(h, source, spec, target, level, &texts)?;
+    let programs = texts.into_texts(plan.circuits.len()).ok_or_else(|| {
+        CompileError::Output(crate::error::Error::Internal(
+            "a circuit's text never reached the sink".into(),
+        ))
+    })?;
+    Ok(Compiled { plan, programs })
+}
+
+/// Runs the passes for any target at optimisation level `level`; each circuit's text goes to
+/// `sink` as soon as it is final (on the all-to-all target a text whose body later circuits of
+/// its point copy is held until the last of them is written), and the plan is returned last,
+/// without the texts' digests.
+pub fn compile_into(
+    h: &PauliSum,
+    source: &str,
+    spec: &Spec,
+    target: &Target,
+    level: OptLevel,
+    sink: &dyn Sink,
+) -> Result<Plan, CompileError> {
+    let predicted = predicted_memory(
+        h,
+        spec,
+        match target {
+            Target::AllToAll => None,
+            Target::Device { device, .. } => Some(device),
+        },
+    );
     if let Some(avail) = crate::sim::available_memory_bytes() {
         if predicted.bytes > avail {
             return Err(CompileError::TooLarge(format!(
-                "this campaign needs about {:.1} GiB ({} circuits, about {:.2e} rotations and {:.2e} gates) but only {:.1} GiB is available",
+                "this campaign needs about {:.1} GiB of memory while it is compiled ({} circuits, about {:.2e} rotations; its longest circuit about {:.2e} gates, {:.1} GiB of text) but only {:.1} GiB is available",
                 predicted.bytes as f64 / GIB,
                 predicted.circuits,
                 predicted.rotations as f64,
                 predicted.gates as f64,
+                predicted.largest_text as f64 / GIB,
                 avail as f64 / GIB
             )));
         }
@@ -908,10 +1120,12 @@ pub fn compile_at(
             // two-qubit gates (then the lowest depth). Every circuit is scored first; a body no
             // circuit keeps is dropped before any text is written, and a kept one as soon as
             // its last circuit is written (at utility scale each is a time point's gates).
+            // Circuit `p` of the point goes to the sink as plan index `base + p`.
             let pick = |frames_k: Vec<crate::family::Frame>,
+                        base: usize,
                         cands: &[(ProgramOrder, Synthesis)],
                         bodies: Vec<Body>|
-             -> Result<PointBuilt, IrError> {
+             -> Result<PointBuilt, CompileError> {
                 let mut built = PointBuilt {
                     finished: Vec::with_capacity(frames_k.len()),
                     kept: Vec::new(),
@@ -963,16 +1177,16 @@ pub fn compile_at(
                     .zip(&uses)
                     .map(|(b, &u)| (u > 0).then_some(b))
                     .collect();
-                // Per body, the circuit (index in `built.finished`) whose text first held the
-                // body's text, and where: later circuits copy it from there.
-                let mut texts: Vec<Option<(usize, Range<usize>)>> =
-                    bodies.iter().map(|_| None).collect();
+                // Per body, the text of the circuit that first held the body's text, where
+                // it sits in it, and that circuit's plan index and file: later circuits copy
+                // it from there, and it goes to the sink after the last of them.
+                let mut texts: Vec<Option<Held>> = bodies.iter().map(|_| None).collect();
                 for (f, (i, n)) in frames_k.into_iter().zip(chosen) {
                     let comments = header_comments(&f.id, f.part, f.k, f.time, None);
                     let body = bodies[i].as_ref().expect("a body some circuit keeps");
                     let written = texts[i]
                         .as_ref()
-                        .map(|(c, at)| &built.finished[*c].program.as_bytes()[at.clone()]);
+                        .map(|held| &held.text.as_bytes()[held.at.clone()]);
                     let (text, body_at) = stage(Stage::Format, || {
                         body.text_with_readout(
                             (f.num_qubits, f.num_clbits),
@@ -985,12 +1199,25 @@ pub fn compile_at(
                         message: format!("after pass `cancel`: {}", e.message),
                         ..e
                     })?;
-                    if texts[i].is_none() {
-                        texts[i] = body_at.map(|at| (built.finished.len(), at));
-                    }
                     uses[i] -= 1;
+                    let (index, file) = (base + built.finished.len(), file_of(&f.id));
+                    match body_at {
+                        Some(at) if texts[i].is_none() && uses[i] > 0 => {
+                            texts[i] = Some(Held {
+                                text,
+                                at,
+                                index,
+                                file,
+                            })
+                        }
+                        _ => sink.put(index, &file, text).map_err(CompileError::Output)?,
+                    }
                     if uses[i] == 0 {
                         bodies[i] = None;
+                        if let Some(held) = texts[i].take() {
+                            sink.put(held.index, &held.file, held.text)
+                                .map_err(CompileError::Output)?;
+                        }
                     }
                     if !built.kept.contains(&cands[i]) {
                         built.kept.push(cands[i]);
@@ -1008,7 +1235,6 @@ pub fn compile_at(
                         reads: f.reads,
                         num_qubits: f.num_qubits,
                         num_clbits: f.num_clbits,
-                        program: text,
                         final_layout: Vec::new(),
                     });
                 }
@@ -1018,8 +1244,9 @@ pub fn compile_at(
             // in `only` when given, else from all; returns them with the candidates kept and
             // the most two-qubit gates of one circuit.
             let build = |frames_k: Vec<crate::family::Frame>,
+                         base: usize,
                          only: Option<&[(ProgramOrder, Synthesis)]>|
-             -> Result<PointBuilt, IrError> {
+             -> Result<PointBuilt, CompileError> {
                 let first = &frames_k[0];
                 let k = first.k;
                 let cands = candidates_in(k, only);
@@ -1059,7 +1286,7 @@ pub fn compile_at(
                         })
                     })
                     .collect::<Result<Vec<_>, IrError>>()?;
-                pick(frames_k, &cands, bodies)
+                pick(frames_k, base, &cands, bodies)
             };
             // The first time point with a step is built from every candidate; when its
             // circuits are past `SCORE_ONCE_MIN` two-qubit gates, the other points try only
@@ -1067,11 +1294,20 @@ pub fn compile_at(
             // level below): at utility scale each extra candidate costs a whole synthesis and
             // peephole pass per point, and which one wins is decided by the step, not by k.
             let mut done: Vec<Option<Vec<Finished>>> = (0..shared.len()).map(|_| None).collect();
+            // The plan index of the first circuit of each group.
+            let bases: Vec<usize> = shared
+                .iter()
+                .scan(0, |next, g| {
+                    let base = *next;
+                    *next += g.len();
+                    Some(base)
+                })
+                .collect();
             let mut only: Option<Vec<(ProgramOrder, Synthesis)>> = None;
             let mut first_k = None;
             if let Some(s) = shared.iter().position(|g| g[0].k > 0) {
                 first_k = Some(shared[s][0].k);
-                let built = build(std::mem::take(&mut shared[s]), None)?;
+                let built = build(std::mem::take(&mut shared[s]), bases[s], None)?;
                 if built.most_two_qubit > SCORE_ONCE_MIN {
                     only = Some(built.kept);
                 }
@@ -1179,7 +1415,7 @@ pub fn compile_at(
                                 Body::stream(stream, num_qubits, longest_readout)
                             }));
                         }
-                        done[i] = Some(pick(frames_k, &cands[j], bodies)?.finished);
+                        done[i] = Some(pick(frames_k, bases[i], &cands[j], bodies)?.finished);
                     }
                 }
             }
@@ -1187,8 +1423,8 @@ pub fn compile_at(
                 .into_par_iter()
                 .enumerate()
                 .filter(|(_, g)| !g.is_empty())
-                .map(|(i, g)| Ok((i, build(g, only.as_deref())?.finished)))
-                .collect::<Result<Vec<_>, IrError>>()?;
+                .map(|(i, g)| Ok((i, build(g, bases[i], only.as_deref())?.finished)))
+                .collect::<Result<Vec<_>, CompileError>>()?;
             for (i, f) in rest {
                 done[i] = Some(f);
             }
@@ -1240,22 +1476,47 @@ pub fn compile_at(
             clock::add(Stage::Layout, searching);
             let assembling = Instant::now();
             let (info, done) = match cat {
-                None => device_circuits(h, spec, device, config, &tp, step, all_frames)?,
+                None => device_circuits(h, spec, (device, config), (&tp, step), all_frames, sink)?,
                 Some((cat_tp, cat_step)) => {
-                    let plain =
-                        device_circuits(h, spec, device, config, &tp, step, all_frames.clone())?;
-                    let spread =
-                        device_circuits(h, spec, device, config, &cat_tp, cat_step, all_frames)?;
+                    // Both campaigns are held until one is kept (the spread control is tried
+                    // only below `route::EXTRAS_MAX_UNIT`, so these texts are small).
+                    let (plain_texts, spread_texts) = (Collect::default(), Collect::default());
+                    let plain = device_circuits(
+                        h,
+                        spec,
+                        (device, config),
+                        (&tp, step),
+                        all_frames.clone(),
+                        &plain_texts,
+                    )?;
+                    let spread = device_circuits(
+                        h,
+                        spec,
+                        (device, config),
+                        (&cat_tp, cat_step),
+                        all_frames,
+                        &spread_texts,
+                    )?;
                     let total = |d: &[Finished]| -> (usize, usize) {
                         d.iter()
                             .map(|f| (f.costs.two_qubit, f.costs.depth))
                             .fold((0, 0), |a, b| (a.0 + b.0, a.1 + b.1))
                     };
-                    if config.cat_force || total(&spread.1) < total(&plain.1) {
-                        spread
+                    let (kept, texts) = if config.cat_force || total(&spread.1) < total(&plain.1) {
+                        (spread, spread_texts)
                     } else {
-                        plain
+                        (plain, plain_texts)
+                    };
+                    let texts = texts.into_texts(kept.1.len()).ok_or_else(|| {
+                        CompileError::Output(crate::error::Error::Internal(
+                            "a circuit's text never reached the sink".into(),
+                        ))
+                    })?;
+                    for (index, (f, text)) in kept.1.iter().zip(texts).enumerate() {
+                        sink.put(index, &file_of(&f.id), text)
+                            .map_err(CompileError::Output)?;
                     }
+                    kept
                 }
             };
             clock::add(Stage::DeviceCircuits, assembling);
@@ -1273,12 +1534,11 @@ pub fn compile_at(
 fn device_circuits(
     h: &PauliSum,
     spec: &Spec,
-    device: &Device,
-    config: &RouteConfig,
-    tp: &crate::route::TargetPlan,
-    step: crate::route::RoutedStep,
+    (device, config): (&Device, &RouteConfig),
+    (tp, step): (&crate::route::TargetPlan, crate::route::RoutedStep),
     all_frames: Vec<crate::family::Frame>,
-) -> Result<(DeviceInfo, Vec<Finished>), IrError> {
+    sink: &dyn Sink,
+) -> Result<(DeviceInfo, Vec<Finished>), CompileError> {
     let n = h.num_qubits;
     if cfg!(debug_assertions) {
         // Pass `plan and route the step`: every piece on coupled pairs (pieces of two
@@ -1355,7 +1615,8 @@ fn device_circuits(
     let campaign = DeviceCampaign::new(step, tp, device, config)?;
     let done = all_frames
         .into_par_iter()
-        .map(|f| {
+        .enumerate()
+        .map(|(index, f)| {
             let comments = header_comments(&f.id, f.part, f.k, f.time, Some(&info));
             let steps = f.k * spec.steps_per_dt;
             let (fan, unfan) = cat_ends(steps, campaign.core_index(steps.saturating_sub(1)));
@@ -1369,6 +1630,8 @@ fn device_circuits(
             }
             let mut final_layout = e.final_layout;
             final_layout.truncate(placed);
+            sink.put(index, &file_of(&f.id), e.text)
+                .map_err(CompileError::Output)?;
             Ok(Finished {
                 fanout: fanout_of(&spec.states[f.state], f.k),
                 id: f.id,
@@ -1380,12 +1643,11 @@ fn device_circuits(
                 reads: f.reads,
                 num_qubits: device.num_qubits,
                 num_clbits: f.num_clbits,
-                program: e.text,
                 costs,
                 final_layout,
             })
         })
-        .collect::<Result<Vec<_>, IrError>>()?;
+        .collect::<Result<Vec<_>, CompileError>>()?;
     Ok((info, done))
 }
 
@@ -1471,17 +1733,13 @@ fn finish(
     h: &PauliSum,
     source: &str,
     spec: &Spec,
-    mut done: Vec<Finished>,
+    done: Vec<Finished>,
     device: Option<DeviceInfo>,
-) -> Compiled {
-    let programs: Vec<String> = done
-        .iter_mut()
-        .map(|f| std::mem::take(&mut f.program))
-        .collect();
+) -> Plan {
     let mut entries = Vec::with_capacity(done.len());
     for f in done {
         entries.push(CircuitEntry {
-            file: format!("{}.qasm", f.id),
+            file: file_of(&f.id),
             id: f.id,
             k: f.k,
             time: f.time,
@@ -1499,7 +1757,7 @@ fn finish(
             fanout: f.fanout,
         });
     }
-    let plan = Plan {
+    Plan {
         format: PLAN_FORMAT.to_string(),
         family: spec.family,
         hamiltonian: hamiltonian_info(h, source),
@@ -1517,8 +1775,7 @@ fn finish(
         device,
         shard: None,
         circuits: entries,
-    };
-    Compiled { plan, programs }
+    }
 }
 
 #[cfg(test)]
@@ -1557,9 +1814,12 @@ mod tests {
         h
     }
 
-    /// The predicted peak stays above what a compile must hold when it ends, every circuit's
-    /// text (`Compiled::programs`), however the later points are built; and it counts the
-    /// circuits the campaign emits (two per point past k = 0 for one reference state).
+    /// The prediction's parts cover what a compile makes: its longest circuit's gates and text
+    /// (read back from `Compiled::programs`) stay under `gates` and `largest_text`, the peak
+    /// covers that text twice over (one held while the circuits that copy its body are
+    /// written, one being written), and it counts the circuits the campaign emits (two per
+    /// point past k = 0 for one reference state). On a device the SWAPs come on top: a bigger
+    /// prediction for the same sum.
     #[test]
     fn predicted_memory_covers_the_texts_held() {
         let h = sum_on_five(&[
@@ -1577,14 +1837,44 @@ mod tests {
                 steps_per_dt: 2,
                 states: vec!["0+0+0".to_string()],
             };
-            let predicted = predicted_memory(&h, &spec, false);
+            let predicted = predicted_memory(&h, &spec, None);
             let compiled = compile(&h, "five.ham", &spec).unwrap();
             assert_eq!(predicted.circuits, compiled.programs.len());
-            let text: usize = compiled.programs.iter().map(String::len).sum();
+            let longest = compiled.programs.iter().map(String::len).max().unwrap();
             assert!(
-                predicted.bytes >= text as u128,
-                "{order:?}: {predicted:?} < {text}"
+                predicted.largest_text >= longest as u128,
+                "{order:?}: {predicted:?} < {longest}"
             );
+            assert!(predicted.bytes >= 2 * longest as u128, "{order:?}");
+            let most_gates = compiled
+                .circuits()
+                .iter()
+                .map(|c| c.gates.len())
+                .max()
+                .unwrap();
+            assert!(
+                predicted.gates >= most_gates as u128,
+                "{order:?}: {predicted:?} < {most_gates} gates"
+            );
+            // A 5-qubit line: the mean hop distance is 2 (20 ordered pairs, 40 hops in all);
+            // every pair coupled: 1, no SWAP, only the lowering doubles the gates.
+            let line = Device::new(
+                "line5",
+                5,
+                &[(0, 1), (1, 2), (2, 3), (3, 4)],
+                crate::device::NativeSet::rz_sx_x_cx(),
+                Default::default(),
+            );
+            assert_eq!(mean_distance(&line), 2.0);
+            // Hops from each term's lowest qubit, less one each, counted by hand on the line:
+            // {0,1,2}: 0 + 1; {0,2,3,4}: 1 + 2 + 3; {0,…,4}: 0 + 1 + 2 + 3.
+            assert_eq!(term_hops(&h, &line), 13.0);
+            let full = Device::all_to_all(5);
+            assert_eq!(mean_distance(&full), 1.0);
+            let on_full = predicted_memory(&h, &spec, Some(&full));
+            assert_eq!(on_full.gates, 2 * predicted.gates, "{order:?}");
+            let on_line = predicted_memory(&h, &spec, Some(&line));
+            assert!(on_line.gates > on_full.gates, "{order:?}");
         }
     }
 

@@ -1,7 +1,9 @@
 //! `phasewright compile`: Hamiltonian (+ device) → folder of OpenQASM 3 files and plan.json,
 //! with a cost table on stdout.
 //!
-//! In: validated arguments. Out: the campaign folder (written whole, plan last) and a
+//! In: validated arguments. Out: the campaign folder (each program written to a staging
+//! folder as soon as the pipeline makes it, [`FolderWriter`]; plan.json last; then the folder
+//! put in place whole) and a
 //! [`CompileOutcome`] (the plan written, the `--json` report and the summary for people);
 //! [`compile_campaign`] is the library entry point, [`run`] renders it.
 
@@ -12,7 +14,7 @@ use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
 use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
-use crate::pipeline::{compile_at, Compiled, OptLevel, Target};
+use crate::pipeline::{compile_into, Compiled, OptLevel, Target};
 use crate::report::costs::{cost_json, cost_table};
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -454,7 +456,14 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     if args.stage_times {
         crate::clock::start();
     }
-    let mut compiled = compile_at(&h, &source, &spec, &target, level)?;
+    // Each circuit's file is written as soon as its text is final; plan.json last.
+    super::io::check_out_folder(&args.out, args.force)?;
+    let writer = FolderWriter::create(&args.out, args.shard)?;
+    let plan = compile_into(&h, &source, &spec, &target, level, &writer)?;
+    let mut compiled = Compiled {
+        plan,
+        programs: Vec::new(),
+    };
     let mut stage_seconds: Vec<(&str, f64)> = if args.stage_times {
         let stages = crate::clock::stop();
         stages
@@ -475,9 +484,8 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     if let Some((index, count)) = args.shard {
         super::shard::keep_share(&mut compiled, index, count);
     }
-    super::io::check_out_folder(&args.out, args.force)?;
     let writing = std::time::Instant::now();
-    write_campaign(&args.out, &mut compiled)?;
+    writer.finish(&mut compiled.plan)?;
     if args.stage_times {
         stage_seconds.push(("write", writing.elapsed().as_secs_f64()));
     }
@@ -725,25 +733,181 @@ pub fn grouping_summary(plan: &Plan) -> GroupingSummary {
 /// Writes the campaign as the whole content of `dir`: every program, then plan.json recording
 /// each program's SHA-256, through a temporary sibling folder that replaces `dir` at once (the
 /// command layer's `io::replace_folder`), so no file of an older campaign survives and a
-/// reader never sees a plan whose files are missing or partial.
+/// reader never sees a plan whose files are missing or partial. For texts already in memory;
+/// `compile` itself writes each text as it is made ([`FolderWriter`]).
 pub fn write_campaign(dir: &Path, c: &mut Compiled) -> Result<()> {
-    use rayon::prelude::*;
-    let digests: Vec<String> = c
-        .programs
-        .par_iter()
-        .map(|text| crate::family::plan::sha256_hex(text.as_bytes()))
-        .collect();
-    for (e, digest) in c.plan.circuits.iter_mut().zip(digests) {
-        e.sha256 = Some(digest);
+    let writer = FolderWriter::create(dir, None)?;
+    for (index, (e, text)) in c.plan.circuits.iter().zip(&c.programs).enumerate() {
+        crate::pipeline::Sink::put(&writer, index, &e.file, text.clone())?;
     }
-    let plan = c.plan.to_json();
-    let mut files: Vec<(&str, &[u8])> = c
-        .plan
-        .circuits
-        .iter()
-        .zip(&c.programs)
-        .map(|(e, text)| (e.file.as_str(), text.as_bytes()))
-        .collect();
-    files.push(("plan.json", plan.as_bytes()));
-    super::io::replace_folder(dir, &files)
+    writer.finish(&mut c.plan)
+}
+
+/// The [`Sink`](crate::pipeline::Sink) `compile` writes through: each circuit's text goes to
+/// its file in a staging folder (`io::staging_folder`) through a buffered writer as soon as
+/// the pipeline makes it, its SHA-256 is kept, and the text is dropped; [`FolderWriter::finish`]
+/// then writes plan.json **last** (with every digest) and puts the folder in `dir`'s place
+/// (`io::swap_in_folder`), so `dir` holds either the older campaign or the whole new one. With
+/// a share (`--shard I/N`) only the circuits of that share are written. A failed write is an
+/// [`Error::Io`] (exit 1); a writer dropped before `finish` removes its staging folder.
+pub struct FolderWriter {
+    dir: PathBuf,
+    tmp: PathBuf,
+    share: Option<(usize, usize)>,
+    digests: std::sync::Mutex<std::collections::BTreeMap<String, String>>,
+    done: bool,
+}
+
+impl FolderWriter {
+    /// Creates the staging folder of `dir` (call `io::check_out_folder` first).
+    pub fn create(dir: &Path, share: Option<(usize, usize)>) -> Result<FolderWriter> {
+        Ok(FolderWriter {
+            dir: dir.to_path_buf(),
+            tmp: super::io::staging_folder(dir)?,
+            share,
+            digests: Default::default(),
+            done: false,
+        })
+    }
+
+    /// Records every file's digest in `plan` (each circuit the plan lists must have been put),
+    /// writes plan.json and replaces `dir` with the staging folder.
+    pub fn finish(mut self, plan: &mut Plan) -> Result<()> {
+        let mut digests = std::mem::take(
+            &mut *self
+                .digests
+                .lock()
+                .map_err(|_| Error::Internal("a thread failed while writing".into()))?,
+        );
+        for e in plan.circuits.iter_mut() {
+            let digest = digests.remove(&e.file).ok_or_else(|| {
+                Error::Internal(format!("the text of {} was never written", e.file))
+            })?;
+            e.sha256 = Some(digest);
+        }
+        let path = self.tmp.join("plan.json");
+        std::fs::write(&path, plan.to_json().as_bytes()).map_err(|source| Error::Io {
+            path: path.display().to_string(),
+            source,
+            reading: false,
+        })?;
+        self.done = true;
+        super::io::swap_in_folder(&self.tmp, &self.dir)
+    }
+}
+
+impl crate::pipeline::Sink for FolderWriter {
+    fn put(&self, index: usize, file: &str, text: String) -> Result<()> {
+        use std::io::Write;
+        if let Some((i, n)) = self.share {
+            if !crate::family::plan::ShardInfo::holds(i, n, index) {
+                return Ok(());
+            }
+        }
+        let path = self.tmp.join(file);
+        let io = |source| Error::Io {
+            path: path.display().to_string(),
+            source,
+            reading: false,
+        };
+        let digest = crate::family::plan::sha256_hex(text.as_bytes());
+        let f = std::fs::File::create(&path).map_err(io)?;
+        let mut w = std::io::BufWriter::with_capacity(1 << 16, f);
+        w.write_all(text.as_bytes()).map_err(io)?;
+        drop(text);
+        w.flush().map_err(io)?;
+        self.digests
+            .lock()
+            .map_err(|_| Error::Internal("a thread failed while writing".into()))?
+            .insert(file.to_string(), digest);
+        Ok(())
+    }
+}
+
+impl Drop for FolderWriter {
+    fn drop(&mut self) {
+        if !self.done {
+            let _ = std::fs::remove_dir_all(&self.tmp);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::pipeline::Sink;
+
+    /// A small campaign compiled with every text kept (`pipeline::compile`).
+    fn small() -> Compiled {
+        let h = crate::hamiltonian::parse_hamiltonian(
+            "chain.ham",
+            "qubits 3\n1.0 Z0 Z1\n0.5 X1\n-0.25 Y0 Y2\n",
+        )
+        .unwrap()
+        .sum;
+        let spec = Spec {
+            control: Control::Evolution,
+            family: Family::Overlap,
+            order: Order::Second,
+            dt: 0.3,
+            points: 3,
+            steps_per_dt: 1,
+            states: vec!["0+0".to_string()],
+        };
+        crate::pipeline::compile(&h, "chain.ham", &spec).unwrap()
+    }
+
+    /// Each file the writer leaves holds exactly the text the pipeline made, and the plan
+    /// records its SHA-256 (checked against the standard's digest of "abc": FIPS 180-2,
+    /// Appendix B.1, from memory).
+    #[test]
+    fn folder_writer_writes_each_text_and_its_digest() {
+        assert_eq!(
+            crate::family::plan::sha256_hex(b"abc"),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+        let mut c = small();
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("campaign");
+        write_campaign(&out, &mut c).unwrap();
+        assert_eq!(c.plan.circuits.len(), c.programs.len());
+        for (e, text) in c.plan.circuits.iter().zip(&c.programs) {
+            let bytes = std::fs::read(out.join(&e.file)).unwrap();
+            assert_eq!(bytes, text.as_bytes(), "{}", e.file);
+            assert_eq!(
+                e.sha256.as_deref(),
+                Some(crate::family::plan::sha256_hex(text.as_bytes()).as_str())
+            );
+        }
+        let plan = std::fs::read_to_string(out.join("plan.json")).unwrap();
+        assert_eq!(plan, c.plan.to_json());
+    }
+
+    /// A write that fails (here: the staging folder is gone) is an `Error::Io` with exit 1, not
+    /// a panic; a plan that lists a circuit never put is refused; a writer dropped unfinished
+    /// removes its staging folder and leaves no campaign.
+    #[test]
+    fn folder_writer_reports_failures() {
+        let c = small();
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("campaign");
+        let w = FolderWriter::create(&out, None).unwrap();
+        let tmp = w.tmp.clone();
+        std::fs::remove_dir_all(&tmp).unwrap();
+        let e = w
+            .put(0, &c.plan.circuits[0].file, c.programs[0].clone())
+            .unwrap_err();
+        assert!(matches!(e, Error::Io { reading: false, .. }), "{e:?}");
+        assert_eq!(e.exit_code(), 1);
+        drop(w);
+
+        let w = FolderWriter::create(&out, None).unwrap();
+        let tmp = w.tmp.clone();
+        w.put(0, &c.plan.circuits[0].file, c.programs[0].clone())
+            .unwrap();
+        let mut plan = c.plan.clone();
+        let e = w.finish(&mut plan).unwrap_err();
+        assert!(matches!(e, Error::Internal(_)), "{e:?}");
+        assert!(!tmp.exists() && !out.exists());
+    }
 }

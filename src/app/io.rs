@@ -9,7 +9,7 @@ use crate::error::{Error, Result};
 use crate::family::plan::{sha256_hex, PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
 use crate::lang::json_span::{locate, Step};
 use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// Writes `text` to stdout and flushes. A reader that has gone away (`| head -1`) is
 /// [`Error::BrokenPipe`], which `main` turns into a quiet exit.
@@ -546,49 +546,63 @@ pub fn check_out_folder(dir: &Path, force: bool) -> Result<()> {
 /// leaves `dir` as it was (plus a hidden `.NAME.phasewright-PID.tmp` sibling, removed by the
 /// next run once its process is gone). Call [`check_out_folder`] first.
 pub fn replace_folder(dir: &Path, files: &[(&str, &[u8])]) -> Result<()> {
-    let werr = |path: &Path| {
-        let path = path.display().to_string();
-        move |source| Error::Io {
-            path,
-            source,
-            reading: false,
+    let tmp = staging_folder(dir)?;
+    for &(file, bytes) in files {
+        let p = tmp.join(file);
+        if let Err(e) = std::fs::write(&p, bytes) {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(write_error(&p, e));
         }
-    };
+    }
+    swap_in_folder(&tmp, dir)
+}
+
+fn write_error(path: &Path, source: std::io::Error) -> Error {
+    Error::Io {
+        path: path.display().to_string(),
+        source,
+        reading: false,
+    }
+}
+
+/// The first half of [`replace_folder`]: creates (empty) and returns the temporary sibling
+/// folder `.NAME.phasewright-PID.tmp` of `dir` that files are written into before
+/// [`swap_in_folder`] puts it in `dir`'s place.
+pub fn staging_folder(dir: &Path) -> Result<PathBuf> {
     let parent = dir
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
         .unwrap_or(Path::new("."));
-    std::fs::create_dir_all(parent).map_err(werr(parent))?;
+    std::fs::create_dir_all(parent).map_err(|e| write_error(parent, e))?;
     let name = dir
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
     remove_abandoned_siblings(parent, &name);
-    let pid = std::process::id();
-    let tmp = parent.join(format!(".{name}.phasewright-{pid}.tmp"));
-    let old = parent.join(format!(".{name}.phasewright-{pid}.old"));
+    let tmp = parent.join(format!(".{name}.phasewright-{}.tmp", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
-    std::fs::create_dir(&tmp).map_err(werr(&tmp))?;
-    for &(file, bytes) in files {
-        let p = tmp.join(file);
-        if let Err(e) = std::fs::write(&p, bytes) {
-            let _ = std::fs::remove_dir_all(&tmp);
-            return Err(werr(&p)(e));
-        }
-    }
+    std::fs::create_dir(&tmp).map_err(|e| write_error(&tmp, e))?;
+    Ok(tmp)
+}
+
+/// The second half of [`replace_folder`]: the filled staging folder `tmp` takes the place of
+/// `dir` (an older `dir` moved aside, then removed); on failure `tmp` is removed and `dir` is
+/// left as it was.
+pub fn swap_in_folder(tmp: &Path, dir: &Path) -> Result<()> {
+    let old = tmp.with_extension("old");
     let existed = dir.exists();
     if existed {
         if let Err(e) = std::fs::rename(dir, &old) {
-            let _ = std::fs::remove_dir_all(&tmp);
-            return Err(werr(dir)(e));
+            let _ = std::fs::remove_dir_all(tmp);
+            return Err(write_error(dir, e));
         }
     }
-    if let Err(e) = std::fs::rename(&tmp, dir) {
+    if let Err(e) = std::fs::rename(tmp, dir) {
         if existed {
             let _ = std::fs::rename(&old, dir);
         }
-        let _ = std::fs::remove_dir_all(&tmp);
-        return Err(werr(dir)(e));
+        let _ = std::fs::remove_dir_all(tmp);
+        return Err(write_error(dir, e));
     }
     if existed {
         let _ = std::fs::remove_dir_all(&old);
