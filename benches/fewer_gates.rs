@@ -31,11 +31,11 @@
 
 use phasewright::circuit::{Circuit, Gate};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::{order_terms, step, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_at, OptLevel, Target};
+use phasewright::plan::Family;
 use phasewright::route::{plan_target, step_circuit, to_device, RouteConfig};
 use rand::{Rng, SeedableRng};
 

@@ -16,11 +16,11 @@
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::family::plan::Family;
 use phasewright::family::{random_states, Spec};
 use phasewright::formula::Order;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_at, Compiled, OptLevel, Target};
+use phasewright::plan::Family;
 use phasewright::qasm;
 use phasewright::route::reuse::step_parts_on;
 use phasewright::route::swap::insert_swaps;
