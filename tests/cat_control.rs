@@ -261,7 +261,7 @@ fn a_three_site_chain_with_two_copies_counted_by_hand() {
     let program = step(&order_terms(&h), Order::Second, 0.1);
     assert_eq!(program.len(), 7, "ZZ/2, X, ZZ/2");
     let layout = [0, 1, 2, 4, 3, 5];
-    let routed = cat::route_step(&program, 3, &layout, &dev, true).unwrap();
+    let routed = cat::route_step(&program, 3, &layout, &dev, cat::Hopping::Paired).unwrap();
     assert_eq!(routed.swaps, 0);
     assert_eq!(routed.final_layout, layout);
     let cx = |g: &[Gate]| g.iter().filter(|g| g.is_two_qubit()).count();

@@ -322,7 +322,7 @@ fn shuffled_lattice_models_recover_every_edge_and_evolve_without_swaps() {
     for (seed, (h, dev)) in cases.iter().enumerate() {
         let h = shuffled(h, seed as u64 + 1);
         let cfg = RouteConfig::default();
-        let plan = plan_target(&h, false, dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::None, dev, &cfg).unwrap();
         for p in h.terms.keys() {
             let s = p.support_qubits();
             if s.len() == 2 {
