@@ -22,11 +22,11 @@
 
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
 use phasewright::family::control::Control;
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_for, Target};
+use phasewright::plan::Family;
 use phasewright::route::RouteConfig;
 
 fn heisenberg_chain(n: usize) -> PauliSum {

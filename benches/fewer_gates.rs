@@ -31,11 +31,11 @@
 
 use phasewright::circuit::{Circuit, Gate};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::{order_terms, step, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_at, OptLevel, Target};
+use phasewright::plan::Family;
 use phasewright::route::{plan_target, step_circuit, to_device, RouteConfig};
 use rand::{Rng, SeedableRng};
 
@@ -285,7 +285,7 @@ fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel, cat: bool) -> Ro
 /// Two-qubit gates of the uncontrolled step routed with the same search, no ancilla.
 fn uncontrolled(h: &PauliSum, dev: &Device) -> usize {
     let cfg = RouteConfig::default();
-    let plan = plan_target(h, false, dev, &cfg).expect("fits");
+    let plan = plan_target(h, phasewright::route::Ancilla::None, dev, &cfg).expect("fits");
     let c = step_circuit(&plan.terms(h), &plan, Order::Second, 0.1);
     let r = to_device(&c, &plan, dev, &cfg).expect("routes");
     r.circuit.gates.iter().filter(|g| g.is_two_qubit()).count()
@@ -294,7 +294,13 @@ fn uncontrolled(h: &PauliSum, dev: &Device) -> usize {
 /// Terms whose two qubits start on coupled sites, of the weight-2 terms, under the layout the
 /// level-3 search picks for the uncontrolled evolution.
 fn edges_recovered(h: &PauliSum, dev: &Device) -> (usize, usize) {
-    let plan = plan_target(h, false, dev, &RouteConfig::default()).expect("fits");
+    let plan = plan_target(
+        h,
+        phasewright::route::Ancilla::None,
+        dev,
+        &RouteConfig::default(),
+    )
+    .expect("fits");
     let mut hit = 0;
     let mut all = 0;
     for p in h.terms.keys() {

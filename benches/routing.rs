@@ -26,7 +26,7 @@ use phasewright::circuit::{Circuit, Gate, Qubit};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
 use phasewright::formula::{evolution, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
-use phasewright::route::{plan_target, to_device, RouteConfig, TargetPlan};
+use phasewright::route::{plan_target, to_device, Ancilla, RouteConfig, TargetPlan};
 use phasewright::synth::pauli_rotation_along;
 use rand::{Rng, SeedableRng};
 use std::time::Instant;
@@ -88,10 +88,10 @@ fn dense_random(n: usize, terms: usize, seed: u64) -> PauliSum {
     h
 }
 
-fn circuit(h: &PauliSum, plan: &TargetPlan, ancilla: bool) -> Circuit {
+fn circuit(h: &PauliSum, plan: &TargetPlan, ancilla: Ancilla) -> Circuit {
     let n = h.num_qubits;
-    let anc = ancilla.then_some(n as Qubit);
-    let mut c = Circuit::new(n + ancilla as usize, 1);
+    let anc = ancilla.controls().then_some(n as Qubit);
+    let mut c = Circuit::new(n + ancilla.controls() as usize, 1);
     if let Some(a) = anc {
         c.push(Gate::H(a));
     }
@@ -111,7 +111,7 @@ struct Outcome {
     swaps: usize,
 }
 
-fn compile(h: &PauliSum, dev: &Device, ancilla: bool, cfg: &RouteConfig) -> Outcome {
+fn compile(h: &PauliSum, dev: &Device, ancilla: Ancilla, cfg: &RouteConfig) -> Outcome {
     let plan = plan_target(h, ancilla, dev, cfg).expect("device fits");
     let c = circuit(h, &plan, ancilla);
     let r = to_device(&c, &plan, dev, cfg).expect("IR stays valid");
@@ -190,15 +190,21 @@ fn main() {
     );
     for (mname, h) in &models {
         let n = h.num_qubits;
-        let a2a_ht = compile(h, &Device::all_to_all(n + 1), true, &default_order_cfg).two_qubit;
-        let a2a_plain = compile(h, &Device::all_to_all(n), false, &cfg).two_qubit;
+        let a2a_ht = compile(
+            h,
+            &Device::all_to_all(n + 1),
+            Ancilla::Controls,
+            &default_order_cfg,
+        )
+        .two_qubit;
+        let a2a_plain = compile(h, &Device::all_to_all(n), Ancilla::None, &cfg).two_qubit;
         for (dname, dev) in &devices {
             let t = Instant::now();
-            let ht = compile(h, dev, true, &cfg);
+            let ht = compile(h, dev, Ancilla::Controls, &cfg);
             let ms = t.elapsed().as_secs_f64() * 1e3;
-            let before = compile(h, dev, true, &default_order_cfg);
-            let base = compile(h, dev, true, &base_cfg);
-            let plain = compile(h, dev, false, &cfg);
+            let before = compile(h, dev, Ancilla::Controls, &default_order_cfg);
+            let base = compile(h, dev, Ancilla::Controls, &base_cfg);
+            let plain = compile(h, dev, Ancilla::None, &cfg);
             println!(
                 "{:<20} {:<14} {:>8} | {:>6.2} {:>6} | {:>6.2} {:>6} | {:>6} | {:>6.2} {:>6} | {:>8.1}",
                 mname,

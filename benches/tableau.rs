@@ -24,11 +24,11 @@
 //! Run with `cargo bench --bench tableau`. Deterministic inputs (fixed seeds).
 
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::{evolution, order_terms, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_for, Target};
+use phasewright::plan::Family;
 use phasewright::route::RouteConfig;
 use phasewright::tableau::equiv::{Claim, Verdict};
 use rand::{Rng, SeedableRng};

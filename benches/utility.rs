@@ -20,13 +20,13 @@
 //! Sizes can be cut for a quick look: `PHASEWRIGHT_BENCH_QUICK=1 cargo bench --bench utility`
 //! (the largest sizes are dropped). The device figures live in `benches/utility_device.rs`.
 
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
 use phasewright::hamiltonian::{parse_hamiltonian, read_flat};
 use phasewright::lang::ham::{plain, write_flat};
 use phasewright::pauli::PauliSum;
 use phasewright::pipeline::{compile, compile_into, predicted_memory, OptLevel, Target};
+use phasewright::plan::Family;
 use rand::{Rng, SeedableRng};
 use std::io::Write;
 use std::path::Path;

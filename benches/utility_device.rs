@@ -28,10 +28,10 @@
 //! Run: `cargo bench --bench utility_device` (all cases) or `… -- 1` (one case).
 
 use phasewright::device::Device;
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
 use phasewright::pipeline::{compile_into, predicted_memory, OptLevel, Target};
+use phasewright::plan::Family;
 use phasewright::route::RouteConfig;
 use rand::{Rng, SeedableRng};
 use std::fmt::Write as _;

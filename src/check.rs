@@ -17,10 +17,10 @@
 use crate::circuit::Circuit;
 use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::family::plan::{CircuitEntry, Part, Plan, Target};
 use crate::family::state_prep;
 use crate::formula::{apply_program, evolution, order_terms, Order};
 use crate::pauli::{PauliString, PauliSum};
+use crate::plan::{CircuitEntry, Part, Plan, Target};
 use crate::sim::exact::Propagator;
 use crate::sim::SimError;
 use crate::sim::{run, State};
@@ -90,8 +90,8 @@ impl LayerError for CheckError {
     }
 }
 
-impl From<crate::family::plan::PlanError> for CheckError {
-    fn from(e: crate::family::plan::PlanError) -> CheckError {
+impl From<crate::plan::PlanError> for CheckError {
+    fn from(e: crate::plan::PlanError) -> CheckError {
         CheckError::Plan(e.to_string())
     }
 }

@@ -44,7 +44,7 @@ pub enum Stage {
     Layout,
     /// On a device: every circuit assembled from the routed step, lowered and written.
     DeviceCircuits,
-    /// The plan (`family::plan`) and the campaign's summary.
+    /// The plan (`plan`) and the campaign's summary.
     Finish,
 }
 

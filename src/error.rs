@@ -75,7 +75,7 @@ from_layer!(
     crate::fermion::FermionError,
     crate::report::plot::PlotError,
     crate::route::RouteError,
-    crate::family::plan::PlanError,
+    crate::plan::PlanError,
     crate::tableau::equiv::ClaimError,
     crate::device::native::NativeError,
 );
@@ -203,8 +203,8 @@ mod tests {
     use crate::check::CheckError;
     use crate::device::native::NativeError;
     use crate::estimate::EstimateError;
-    use crate::family::plan::PlanError;
     use crate::fermion::FermionError;
+    use crate::plan::PlanError;
     use crate::report::plot::PlotError;
     use crate::sim::SimError;
     use crate::tableau::equiv::ClaimError;

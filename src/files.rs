@@ -1,7 +1,7 @@
 //! The library's file layer: the readers and the campaign writer of the command layer that
 //! programs and tests call directly, with the commands' own checks and diagnostics.
 //!
-//! In: paths. Out: a validated [`Plan`](crate::family::plan::Plan) ([`read_plan`]), a parsed
+//! In: paths. Out: a validated [`Plan`](crate::plan::Plan) ([`read_plan`]), a parsed
 //! `.ham` file ([`read_hamiltonian`]), the qubit Hamiltonian of any Hamiltonian input, `.ham`
 //! or FCIDUMP ([`load_qubit_hamiltonian`], [`load_qubit_hamiltonian_with`]), or a campaign
 //! folder written whole with every file's SHA-256 in its plan ([`write_campaign`]). A file

@@ -11,7 +11,7 @@
 //! 2. [`formula`] orders the terms and expands a product formula (Lie–Trotter, Strang, Suzuki
 //!    fourth order) into a rotation program `Π exp(-iθ_j P_j)`;
 //! 3. [`family`] wraps the program into circuit families (Hadamard tests for overlaps, Krylov
-//!    matrix elements, stochastic traces) and describes them in a [`family::plan::Plan`];
+//!    matrix elements, stochastic traces) and describes them in a [`plan::Plan`];
 //! 4. [`synth`] turns rotations into basis changes, CNOT ladders and `rz`; [`route`] places
 //!    qubits and inserts SWAPs; [`lower`] translates to the device's native gates;
 //! 5. [`qasm`] writes OpenQASM 3 and reads back the subset it writes;
@@ -31,7 +31,8 @@
 //! and checked by simulation: every circuit's reads agree with the ideal product formula.
 //!
 //! ```
-//! use phasewright::family::{control::Control, plan::Family, Spec};
+//! use phasewright::family::{control::Control, Spec};
+//! use phasewright::plan::Family;
 //! use phasewright::formula::Order;
 //!
 //! let ham = phasewright::hamiltonian::parse_hamiltonian("pair.ham", "qubits 2\n1.0 Z0 Z1\n0.5 X0\n0.5 X1\n")
@@ -78,6 +79,7 @@ pub mod lang;
 pub mod lower;
 pub mod pauli;
 pub mod pipeline;
+pub mod plan;
 pub mod qasm;
 pub mod report;
 pub mod route;

@@ -96,14 +96,14 @@ use crate::circuit::{Circuit, Gate};
 use crate::clock::{self, stage, Stage};
 use crate::device::Device;
 use crate::family::control::Control;
-use crate::family::plan::Family;
-use crate::family::plan::{
-    CircuitEntry, Costs, DeviceInfo, FanOut, FormulaInfo, HamiltonianInfo, Plan, TermInfo,
-    PLAN_FORMAT,
-};
 use crate::family::{frames, frames_by, frames_with, PrepAt, Spec};
 use crate::formula::{order_terms, textbook_evolution, Formula, Rotation};
 use crate::pauli::PauliSum;
+use crate::plan::Family;
+use crate::plan::{
+    CircuitEntry, Costs, DeviceInfo, FanOut, FormulaInfo, HamiltonianInfo, Plan, TermInfo,
+    PLAN_FORMAT,
+};
 use crate::qasm::Addressing;
 use crate::route::{
     plan_and_route_free_step, plan_and_route_plain_step, plan_and_route_step, DeviceCampaign,
@@ -427,7 +427,7 @@ pub fn predicted_memory(h: &PauliSum, spec: &Spec, device: Option<&Device>) -> P
     };
     let per_circuit = |k: u128| k * spec.steps_per_dt as u128 * per_step;
     let reads_per_point: u128 = match spec.family {
-        crate::family::plan::Family::Krylov => 2 * (1 + m.min(4096)),
+        crate::plan::Family::Krylov => 2 * (1 + m.min(4096)),
         _ => 2 * spec.states.len().max(1) as u128,
     };
     let points = spec.points as u128;
@@ -596,10 +596,10 @@ struct Finished {
     id: String,
     k: usize,
     time: f64,
-    part: Option<crate::family::plan::Part>,
+    part: Option<crate::plan::Part>,
     state: usize,
     group: Option<usize>,
-    reads: Vec<crate::family::plan::Read>,
+    reads: Vec<crate::plan::Read>,
     num_qubits: usize,
     num_clbits: usize,
     costs: Costs,
@@ -911,14 +911,14 @@ fn longest_suffix(frames: &[crate::family::Frame]) -> usize {
 /// The leading comment lines of a circuit's program.
 fn header_comments(
     id: &str,
-    part: Option<crate::family::plan::Part>,
+    part: Option<crate::plan::Part>,
     k: usize,
     time: f64,
     device: Option<&DeviceInfo>,
 ) -> Vec<String> {
     let mut comments = match part {
         Some(part) => {
-            let part = if part == crate::family::plan::Part::Re {
+            let part = if part == crate::plan::Part::Re {
                 "real"
             } else {
                 "imaginary"

@@ -3,11 +3,11 @@
 
 use num_complex::Complex64;
 use phasewright::check::check_plan;
-use phasewright::family::plan::{Family, Part, Target};
 use phasewright::family::{krylov_groups, random_states, state_prep, Spec};
 use phasewright::formula::{apply_program, evolution, order_terms, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::compile;
+use phasewright::plan::{Family, Part, Target};
 use phasewright::qasm;
 use phasewright::sim::exact::Propagator;
 use phasewright::sim::State;

@@ -181,7 +181,7 @@ fn verify_fails_when_a_file_was_tampered_with() {
         serde_json::from_str(&std::fs::read_to_string(&plan_path).unwrap()).unwrap();
     for c in plan["circuits"].as_array_mut().unwrap() {
         if c["file"] == "k02-re.qasm" {
-            c["sha256"] = phasewright::family::plan::sha256_hex(bad.as_bytes()).into();
+            c["sha256"] = phasewright::plan::sha256_hex(bad.as_bytes()).into();
         }
     }
     std::fs::write(&plan_path, serde_json::to_string_pretty(&plan).unwrap()).unwrap();

@@ -4,11 +4,11 @@
 
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::verify::{verify_ir, Rules};
-use phasewright::family::plan::Family;
 use phasewright::family::Spec;
 use phasewright::formula::Order;
 use phasewright::pauli::{PauliString, PauliSum};
 use phasewright::pipeline::compile;
+use phasewright::plan::Family;
 use phasewright::qasm;
 use proptest::prelude::*;
 

@@ -16,11 +16,11 @@
 use assert_cmd::Command;
 use phasewright::check::check_plan;
 use phasewright::family::control::{zero_state_check, Control};
-use phasewright::family::plan::{Family, Target};
 use phasewright::family::{krylov_groups, Spec};
 use phasewright::formula::{term_groups, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::compile;
+use phasewright::plan::{Family, Target};
 use phasewright::qasm;
 use proptest::prelude::*;
 
@@ -468,7 +468,7 @@ fn a_changed_evolution_file_is_caught_by_its_distribution() {
         &d,
     ]);
     let plan_text = std::fs::read_to_string(dir.join("plan.json")).unwrap();
-    let mut plan = phasewright::family::plan::Plan::from_json(&plan_text).unwrap();
+    let mut plan = phasewright::plan::Plan::from_json(&plan_text).unwrap();
     let text = std::fs::read_to_string(dir.join("k01-ev.qasm")).unwrap();
     // Every rotation by 0.3 (the XX, YY and ZZ rotations of the step) turned by 0.35 instead.
     let changed = text.replace("rz(0.3)", "rz(0.35)");

@@ -12,7 +12,7 @@ use nalgebra::DMatrix;
 use num_complex::Complex64;
 use phasewright::estimate::expect::{ReadTable, Series};
 use phasewright::estimate::*;
-use phasewright::family::plan::Part;
+use phasewright::plan::Part;
 
 /// The regularised Krylov problem computed the long way: Krylov vectors as dense states,
 /// `S = Φ†Φ`, kept directions `Q = Φ V_ε Λ_ε^{−1/2}` (orthonormal in Hilbert space), then the
@@ -224,8 +224,8 @@ fn two_sigma_bootstrap_intervals_cover_the_noiseless_value_about_95_percent() {
                     state: c.state,
                     k: c.k,
                     term: match read.target {
-                        phasewright::family::plan::Target::Overlap => None,
-                        phasewright::family::plan::Target::Term { term } => Some(term),
+                        phasewright::plan::Target::Overlap => None,
+                        phasewright::plan::Target::Term { term } => Some(term),
                     },
                     part: c.part.unwrap(),
                 };

@@ -16,11 +16,11 @@
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
-use phasewright::family::plan::Family;
 use phasewright::family::{random_states, Spec};
 use phasewright::formula::Order;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_at, Compiled, OptLevel, Target};
+use phasewright::plan::Family;
 use phasewright::qasm;
 use phasewright::route::reuse::step_parts_on;
 use phasewright::route::swap::insert_swaps;
@@ -322,7 +322,7 @@ fn shuffled_lattice_models_recover_every_edge_and_evolve_without_swaps() {
     for (seed, (h, dev)) in cases.iter().enumerate() {
         let h = shuffled(h, seed as u64 + 1);
         let cfg = RouteConfig::default();
-        let plan = plan_target(&h, false, dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::None, dev, &cfg).unwrap();
         for p in h.terms.keys() {
             let s = p.support_qubits();
             if s.len() == 2 {

@@ -24,9 +24,9 @@
 use assert_cmd::Command;
 use phasewright::diag::Diagnostic;
 use phasewright::error::Error;
-use phasewright::family::plan::sha256_hex;
-use phasewright::family::plan::Plan;
 use phasewright::files::read_plan;
+use phasewright::plan::sha256_hex;
+use phasewright::plan::Plan;
 use proptest::prelude::*;
 use proptest::sample::select;
 use proptest::test_runner::{Config, RngSeed, TestCaseError, TestRunner};

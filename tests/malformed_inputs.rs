@@ -269,7 +269,7 @@ fn run_case(c: &Case, tmp: &Path, camp: &Campaign) -> (String, String, i32, Stri
             let mut plan: serde_json::Value = serde_json::from_str(&camp.plan).unwrap();
             for e in plan["circuits"].as_array_mut().unwrap() {
                 if e["file"] == "k01-re.qasm" {
-                    e["sha256"] = phasewright::family::plan::sha256_hex(c.text.as_bytes()).into();
+                    e["sha256"] = phasewright::plan::sha256_hex(c.text.as_bytes()).into();
                 }
             }
             std::fs::write(

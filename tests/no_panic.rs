@@ -175,7 +175,7 @@ proptest! {
 
     #[test]
     fn counts_reader_never_panics(src in soup(COUNTS)) {
-        let plan = phasewright::family::plan::Plan::from_json(include_str!("data/estimate/krylov_tfim3/plan.json")).unwrap();
+        let plan = phasewright::plan::Plan::from_json(include_str!("data/estimate/krylov_tfim3/plan.json")).unwrap();
         let _ = phasewright::estimate::counts::parse(&src, "fuzz.json", &plan, None);
     }
 }

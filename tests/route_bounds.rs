@@ -59,7 +59,9 @@ fn nearest_neighbour_chain_on_a_line_with_identity_layout_needs_no_swap() {
     for native in [&["rz", "sx", "x", "cx"][..], &["rz", "rx", "ry", "cz"]] {
         let dev = line_device(n as u32, native);
         let identity: Vec<u32> = (0..n as u32).collect();
-        let plan = TargetPlan::with_layout(n, false, &dev, identity.clone()).unwrap();
+        let plan =
+            TargetPlan::with_layout(n, phasewright::route::Ancilla::None, &dev, identity.clone())
+                .unwrap();
         let logical = plain_evolution(&h, &plan, 3);
         let routed = to_device(&logical, &plan, &dev, &RouteConfig::default()).unwrap();
         assert_eq!(routed.swaps, 0);
@@ -67,7 +69,13 @@ fn nearest_neighbour_chain_on_a_line_with_identity_layout_needs_no_swap() {
         assert_eq!(routed.final_layout, identity);
         assert!(routing_error(&logical, &routed).unwrap() < 1e-9);
         // The layout search finds a layout just as good on its own.
-        let searched = plan_target(&h, false, &dev, &RouteConfig::default()).unwrap();
+        let searched = plan_target(
+            &h,
+            phasewright::route::Ancilla::None,
+            &dev,
+            &RouteConfig::default(),
+        )
+        .unwrap();
         let logical = plain_evolution(&h, &searched, 3);
         assert_eq!(
             to_device(&logical, &searched, &dev, &RouteConfig::default())
@@ -87,7 +95,9 @@ fn a_swap_costs_three_two_qubit_gates() {
         &["U", "cx"],
     ] {
         let dev = line_device(3, native);
-        let plan = TargetPlan::with_layout(3, false, &dev, vec![0, 1, 2]).unwrap();
+        let plan =
+            TargetPlan::with_layout(3, phasewright::route::Ancilla::None, &dev, vec![0, 1, 2])
+                .unwrap();
         let mut c = Circuit::new(3, 0);
         c.extend([Gate::H(0), Gate::Cx(0, 2)]);
         let routed = to_device(&c, &plan, &dev, &RouteConfig::default()).unwrap();
@@ -110,7 +120,13 @@ fn a_weight_w_rotation_on_all_to_all_costs_two_w_minus_one_cnots() {
         let mut h = PauliSum::new(w);
         h.add(r.pauli.clone(), 1.0);
         let dev = Device::all_to_all(w);
-        let plan = plan_target(&h, false, &dev, &RouteConfig::default()).unwrap();
+        let plan = plan_target(
+            &h,
+            phasewright::route::Ancilla::None,
+            &dev,
+            &RouteConfig::default(),
+        )
+        .unwrap();
         let mut c = Circuit::new(w, 0);
         c.extend(pauli_rotation_along(&r, None, &plan.ladder(&r)));
         let routed = to_device(&c, &plan, &dev, &RouteConfig::default()).unwrap();
@@ -132,7 +148,7 @@ fn without_the_device_order_the_ladder_root_is_the_support_qubit_nearest_the_anc
         device_order: false,
         ..RouteConfig::default()
     };
-    let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+    let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
     assert!(plan.order.is_none());
     let anc = plan.initial_layout[6];
     for (p, _) in h.term_list() {
@@ -154,7 +170,13 @@ fn without_the_device_order_the_ladder_root_is_the_support_qubit_nearest_the_anc
 fn devices_that_cannot_hold_the_problem_are_refused_with_a_reason() {
     let h = heisenberg_chain(5);
     let small = line_device(5, &["rz", "sx", "cx"]);
-    let e = plan_target(&h, true, &small, &RouteConfig::default()).unwrap_err();
+    let e = plan_target(
+        &h,
+        phasewright::route::Ancilla::Controls,
+        &small,
+        &RouteConfig::default(),
+    )
+    .unwrap_err();
     assert!(
         matches!(e, RouteError::TooFewQubits { has: 5, .. }),
         "{e:?}"
@@ -169,7 +191,13 @@ fn devices_that_cannot_hold_the_problem_are_refused_with_a_reason() {
         NativeSet::rz_sx_x_cx(),
         Calibration::default(),
     );
-    let e = plan_target(&h, true, &split, &RouteConfig::default()).unwrap_err();
+    let e = plan_target(
+        &h,
+        phasewright::route::Ancilla::Controls,
+        &split,
+        &RouteConfig::default(),
+    )
+    .unwrap_err();
     assert!(
         matches!(e, RouteError::Disconnected { largest: 4, .. }),
         "{e:?}"
@@ -185,14 +213,22 @@ fn devices_that_cannot_hold_the_problem_are_refused_with_a_reason() {
         NativeSet::rz_sx_x_cx(),
         Calibration::default(),
     );
-    let plan = plan_target(&h3, true, &lopsided, &RouteConfig::default()).unwrap();
+    let plan = plan_target(
+        &h3,
+        phasewright::route::Ancilla::Controls,
+        &lopsided,
+        &RouteConfig::default(),
+    )
+    .unwrap();
     assert!(plan.initial_layout.iter().all(|&p| p >= 2));
 }
 
 #[test]
 fn a_wrong_final_layout_is_caught_by_the_check() {
     let dev = line_device(4, &["rz", "sx", "x", "cx"]);
-    let plan = TargetPlan::with_layout(4, false, &dev, vec![0, 1, 2, 3]).unwrap();
+    let plan =
+        TargetPlan::with_layout(4, phasewright::route::Ancilla::None, &dev, vec![0, 1, 2, 3])
+            .unwrap();
     let mut c = Circuit::new(4, 0);
     c.extend([Gate::H(0), Gate::X(3), Gate::Cx(0, 3)]);
     let mut routed = to_device(&c, &plan, &dev, &RouteConfig::default()).unwrap();
@@ -252,7 +288,7 @@ fn written_files_use_coupled_pairs_physical_qubits_and_native_gates_only() {
         let dev = parse_device(file, src).unwrap();
         let h = heisenberg_chain(5);
         let cfg = RouteConfig::default();
-        let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
         let anc = 5 as Qubit;
         let mut c = Circuit::new(6, 1);
         c.extend([Gate::H(0), Gate::X(2), Gate::H(anc)]);

@@ -87,8 +87,8 @@ proptest! {
         let order = [Order::First, Order::Second, Order::Fourth][order];
         // The plan `plan_target` chose (any of its order choices), and the walk order forced
         // on the same layout.
-        let chosen = plan_target(&h, true, &dev, &cfg).unwrap();
-        let walk = TargetPlan::with_layout(n, true, &dev, chosen.initial_layout.clone())
+        let chosen = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
+        let walk = TargetPlan::with_layout(n, phasewright::route::Ancilla::Controls, &dev, chosen.initial_layout.clone())
             .unwrap()
             .with_device_order(&h, &dev);
         let default = controlled_program(n, &order_terms(&h), order, steps, &|r| default_ladder(r));
@@ -138,7 +138,13 @@ fn a_reversed_chain_is_swept_from_the_ancilla_end() {
         NativeSet::rz_sx_x_cx(),
         Calibration::default(),
     );
-    let plan = TargetPlan::with_layout(n, true, &dev, vec![5, 4, 3, 2, 1, 0]).unwrap();
+    let plan = TargetPlan::with_layout(
+        n,
+        phasewright::route::Ancilla::Controls,
+        &dev,
+        vec![5, 4, 3, 2, 1, 0],
+    )
+    .unwrap();
     let o = device_order(&h, &plan, &dev);
     let strings: Vec<PauliString> = o.terms.iter().map(|t| t.0.clone()).collect();
     assert_eq!(strings, vec![zz(3), zz(2), zz(1), zz(0)]);

@@ -157,7 +157,7 @@ proptest! {
         let h = random_hamiltonian(n, terms, &mut rng);
         let dev = random_device(kind, n + 1, native, &mut rng);
         let cfg = RouteConfig { seed, ..RouteConfig::default() };
-        let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
         let logical = hadamard_test(&h, &plan, measure_system, &mut rng);
         let routed = to_device(&logical, &plan, &dev, &cfg).unwrap();
         check_routed(&logical, &routed, &dev);
@@ -173,7 +173,7 @@ proptest! {
         let h = random_hamiltonian(4, 6, &mut rng);
         let dev = random_device(kind, 5, native, &mut rng);
         let cfg = RouteConfig { seed, refine_per_circuit: true, ..RouteConfig::default() };
-        let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
         let logical = hadamard_test(&h, &plan, true, &mut rng);
         let routed = to_device(&logical, &plan, &dev, &cfg).unwrap();
         check_routed(&logical, &routed, &dev);
@@ -188,7 +188,7 @@ fn larger_systems_are_checked_on_random_states() {
     for (kind, native) in [(2u8, 0usize), (3, 2), (4, 3)] {
         let dev = random_device(kind, 7, native, &mut rng);
         let cfg = RouteConfig::default();
-        let plan = plan_target(&h, true, &dev, &cfg).unwrap();
+        let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
         let logical = hadamard_test(&h, &plan, true, &mut rng);
         let routed = to_device(&logical, &plan, &dev, &cfg).unwrap();
         check_routed(&logical, &routed, &dev);
@@ -204,8 +204,8 @@ fn routing_is_deterministic_for_a_seed() {
         seed: 42,
         ..RouteConfig::default()
     };
-    let plan_a = plan_target(&h, true, &dev, &cfg).unwrap();
-    let plan_b = plan_target(&h, true, &dev, &cfg).unwrap();
+    let plan_a = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
+    let plan_b = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
     assert_eq!(plan_a.initial_layout, plan_b.initial_layout);
     let logical = hadamard_test(&h, &plan_a, false, &mut ChaCha8Rng::seed_from_u64(1));
     let a = to_device(&logical, &plan_a, &dev, &cfg).unwrap();

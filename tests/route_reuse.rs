@@ -13,11 +13,11 @@
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::device::Device;
-use phasewright::family::plan::Family;
 use phasewright::family::{random_states, Spec};
 use phasewright::formula::Order;
 use phasewright::pauli::PauliSum;
 use phasewright::pipeline::{compile_for, Target};
+use phasewright::plan::Family;
 use phasewright::qasm;
 use phasewright::route::RouteConfig;
 use proptest::prelude::*;

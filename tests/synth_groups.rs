@@ -9,7 +9,7 @@
 
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::formula::{step, Order};
-use phasewright::route::{reuse, routing_error, to_device, RouteConfig, TargetPlan};
+use phasewright::route::{reuse, routing_error, to_device, Ancilla, RouteConfig, TargetPlan};
 use phasewright::sim::{run, State};
 use proptest::prelude::*;
 use rand::SeedableRng;
@@ -40,7 +40,17 @@ fn exact_step(
     let width = n + controlled as usize;
     let dev = random_device(kind, width, native, &mut rng);
     let layout: Vec<u32> = (0..width as u32).collect();
-    let mut plan = TargetPlan::with_layout(n, controlled, &dev, layout).unwrap();
+    let mut plan = TargetPlan::with_layout(
+        n,
+        if controlled {
+            Ancilla::Controls
+        } else {
+            Ancilla::None
+        },
+        &dev,
+        layout,
+    )
+    .unwrap();
     plan.step_form.groups = true;
     plan.step_form.coupled = coupled;
     let terms = plan.terms(&h);

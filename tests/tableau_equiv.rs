@@ -10,11 +10,11 @@
 use phasewright::check::{check_plan, COMPILE_TOLERANCE};
 use phasewright::circuit::{Circuit, Gate};
 use phasewright::device::Device;
-use phasewright::family::plan::{CircuitEntry, Family, Plan};
 use phasewright::family::Spec;
 use phasewright::formula::{evolution, order_terms, Order, Rotation};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::{compile_for, Compiled, Target};
+use phasewright::plan::{CircuitEntry, Family, Plan};
 use phasewright::qasm;
 use phasewright::route::RouteConfig;
 use phasewright::tableau::equiv::{Claim, Verdict};

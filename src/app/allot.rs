@@ -13,7 +13,7 @@ use crate::diag::Code;
 use crate::error::{Error, Result};
 use crate::estimate::allot::{self, Rule};
 use crate::estimate::counts::{self, BitOrder};
-use crate::family::plan::Family;
+use crate::plan::Family;
 use crate::report::table::Table;
 use crate::sim::{self, check_fits, measured_distribution, State};
 use clap::{Args, ValueEnum};

@@ -11,10 +11,10 @@ use crate::diag::Code;
 use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
-use crate::family::plan::{Family, Plan};
 use crate::family::{random_states, state_prep, Spec};
 use crate::formula::Order;
 use crate::pipeline::{compile_into, Compiled, OptLevel, Target};
+use crate::plan::{Family, Plan};
 use crate::report::costs::{cost_json, cost_table};
 use clap::{Args, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -293,12 +293,12 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             None,
         ));
     }
-    if args.points > crate::family::plan::MAX_POINTS {
+    if args.points > crate::plan::MAX_POINTS {
         return Err(Error::usage(Code::UsageLimit,
             format!(
                 "--points {} is more than the {} time points a campaign may have",
                 args.points,
-                crate::family::plan::MAX_POINTS
+                crate::plan::MAX_POINTS
             ),
             Some("a Krylov or density-of-states estimate from K points costs O(K⁴); real-time campaigns use tens to hundreds of points"),
         ));
@@ -800,7 +800,7 @@ impl crate::pipeline::Sink for FolderWriter {
     fn put(&self, index: usize, file: &str, text: String) -> Result<()> {
         use std::io::Write;
         if let Some((i, n)) = self.share {
-            if !crate::family::plan::ShardInfo::holds(i, n, index) {
+            if !crate::plan::ShardInfo::holds(i, n, index) {
                 return Ok(());
             }
         }
@@ -810,7 +810,7 @@ impl crate::pipeline::Sink for FolderWriter {
             source,
             reading: false,
         };
-        let digest = crate::family::plan::sha256_hex(text.as_bytes());
+        let digest = crate::plan::sha256_hex(text.as_bytes());
         let f = std::fs::File::create(&path).map_err(io)?;
         let mut w = std::io::BufWriter::with_capacity(1 << 16, f);
         w.write_all(text.as_bytes()).map_err(io)?;
@@ -863,7 +863,7 @@ mod tests {
     #[test]
     fn folder_writer_writes_each_text_and_its_digest() {
         assert_eq!(
-            crate::family::plan::sha256_hex(b"abc"),
+            crate::plan::sha256_hex(b"abc"),
             "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
         );
         let mut c = small();
@@ -876,7 +876,7 @@ mod tests {
             assert_eq!(bytes, text.as_bytes(), "{}", e.file);
             assert_eq!(
                 e.sha256.as_deref(),
-                Some(crate::family::plan::sha256_hex(text.as_bytes()).as_str())
+                Some(crate::plan::sha256_hex(text.as_bytes()).as_str())
             );
         }
         let plan = std::fs::read_to_string(out.join("plan.json")).unwrap();

@@ -150,7 +150,7 @@ pub fn estimate_campaign(
         super::io::check_out_file(p, "--plot", Some("svg"), true)?;
     }
     let plan = super::io::read_plan(&args.dir)?;
-    if plan.family == crate::family::plan::Family::Evolution {
+    if plan.family == crate::plan::Family::Evolution {
         return Err(crate::estimate::EstimateError::Evolution.into());
     }
     super::io::check_campaign_files(&args.dir, &plan)?;

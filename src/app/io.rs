@@ -6,8 +6,8 @@
 use crate::diag::Code;
 use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
-use crate::family::plan::{sha256_hex, PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
 use crate::lang::json_span::{locate, Step};
+use crate::plan::{sha256_hex, PathStep, Plan, PLAN_FORMAT, READABLE_PLAN_FORMATS};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -296,7 +296,7 @@ pub fn read_plan_circuits(dir: &Path, plan: &Plan) -> Result<Vec<crate::circuit:
 /// each; call [`check_campaign_files`] first), so callers can hold one circuit at a time.
 pub fn read_plan_circuit(
     dir: &Path,
-    e: &crate::family::plan::CircuitEntry,
+    e: &crate::plan::CircuitEntry,
 ) -> Result<crate::circuit::Circuit> {
     {
         {
@@ -361,11 +361,7 @@ pub fn read_device(path: &Path) -> Result<crate::device::Device> {
 
 /// Compares a campaign file's bytes with the SHA-256 its plan records; `None` when they agree
 /// (or the plan records none).
-fn changed_file(
-    dir: &Path,
-    e: &crate::family::plan::CircuitEntry,
-    bytes: &[u8],
-) -> Option<Diagnostic> {
+fn changed_file(dir: &Path, e: &crate::plan::CircuitEntry, bytes: &[u8]) -> Option<Diagnostic> {
     let want = e.sha256.as_deref()?;
     let got = sha256_hex(bytes);
     (got != want).then(|| {
@@ -386,10 +382,7 @@ fn changed_file(
 }
 
 /// Reads one campaign file's bytes; a missing file is a diagnostic naming it.
-fn campaign_file(
-    dir: &Path,
-    e: &crate::family::plan::CircuitEntry,
-) -> std::result::Result<Vec<u8>, Error> {
+fn campaign_file(dir: &Path, e: &crate::plan::CircuitEntry) -> std::result::Result<Vec<u8>, Error> {
     let path = dir.join(&e.file);
     std::fs::read(&path).map_err(|source| {
         if source.kind() == std::io::ErrorKind::NotFound {

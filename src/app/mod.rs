@@ -7,7 +7,7 @@
 //! programs and tests through [`crate::files`] (the readers and the campaign writer); pure
 //! pieces live in the library (the cost report in [`crate::report::costs`], the estimate
 //! report in [`crate::report::estimates`], the files' digest in
-//! [`crate::family::plan::sha256_hex`]). **Only this module and `main.rs` touch the
+//! [`crate::plan::sha256_hex`]). **Only this module and `main.rs` touch the
 //! file system or the standard streams** (the library's one exception is the `/proc/meminfo`
 //! query of [`crate::sim::available_memory_bytes`]); every write to stdout goes through
 //! [`io::emit`] (reports through [`Global::say`] / [`Global::json`]; counts on `-o -`,

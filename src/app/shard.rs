@@ -15,8 +15,8 @@ use super::Global;
 use crate::diag::Code;
 use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
-use crate::family::plan::{Plan, ShardInfo};
 use crate::pipeline::Compiled;
+use crate::plan::{Plan, ShardInfo};
 use clap::Args;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -122,7 +122,7 @@ pub fn select_share(plan: &mut Plan, share: Option<(usize, usize)>, dir: &Path) 
 /// digits of the SHA-256 of [`common_part`]. Shard counts files carry it so that `merge` can
 /// refuse counts of different campaigns.
 pub fn campaign_id(plan: &Plan) -> String {
-    crate::family::plan::sha256_hex(common_part(plan).as_bytes())[..16].to_string()
+    crate::plan::sha256_hex(common_part(plan).as_bytes())[..16].to_string()
 }
 
 pub const MERGE_EXAMPLES: &str = "\
@@ -265,7 +265,7 @@ fn merge_folders(args: &MergeArgs, g: &Global) -> Result<()> {
             source,
             reading: true,
         })?;
-        if e.sha256.as_deref() != Some(crate::family::plan::sha256_hex(&bytes).as_str()) {
+        if e.sha256.as_deref() != Some(crate::plan::sha256_hex(&bytes).as_str()) {
             return Err(Error::input(crate::diag::Diagnostic::whole_file(
                 Code::PlanFiles,
                 &path.display().to_string(),

@@ -14,7 +14,7 @@ use crate::check::{
     check_plan_with, reference_count, trace_summary, CheckOptions, Progress, COMPILE_TOLERANCE,
 };
 use crate::error::{Error, Result};
-use crate::family::plan::{Family, Plan};
+use crate::plan::{Family, Plan};
 use crate::report::table::{sci, Table};
 use clap::{Args, ValueEnum};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};

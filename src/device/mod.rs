@@ -15,7 +15,7 @@ pub mod lattice;
 pub mod native;
 
 use crate::circuit::{Circuit, Gate};
-use crate::family::plan::Costs;
+use crate::plan::Costs;
 use petgraph::graph::{NodeIndex, UnGraph};
 use rayon::prelude::*;
 use std::collections::BTreeMap;

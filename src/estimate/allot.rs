@@ -34,7 +34,7 @@
 //! circuit), so the total is met exactly and the result is deterministic.
 
 use super::EstimateError;
-use crate::family::plan::{Family, Part, Plan, Target};
+use crate::plan::{Family, Part, Plan, Target};
 use std::collections::BTreeMap;
 
 /// How shots are shared among circuits.

@@ -92,8 +92,8 @@ impl fmt::Display for EstimateError {
 
 impl std::error::Error for EstimateError {}
 
-impl From<crate::family::plan::PlanError> for EstimateError {
-    fn from(e: crate::family::plan::PlanError) -> EstimateError {
+impl From<crate::plan::PlanError> for EstimateError {
+    fn from(e: crate::plan::PlanError) -> EstimateError {
         EstimateError::Plan(e.to_string())
     }
 }

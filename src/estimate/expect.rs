@@ -29,7 +29,7 @@
 
 use super::counts::CircuitCounts;
 use super::EstimateError;
-use crate::family::plan::{Part, Plan, Target};
+use crate::plan::{Part, Plan, Target};
 use num_complex::Complex64;
 use std::collections::BTreeMap;
 

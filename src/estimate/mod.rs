@@ -52,8 +52,8 @@ pub use plan_facts::*;
 pub use results::*;
 pub use trace::*;
 
-use crate::family::plan::{Family, Plan};
 use crate::pauli::{Pauli, PauliSum};
+use crate::plan::{Family, Plan};
 use counts::CountsFile;
 pub use error::EstimateError;
 use expect::{ReadTable, Series};
@@ -128,7 +128,8 @@ pub enum Analysis {
 /// ```
 /// use phasewright::estimate::counts::{BitOrder, CircuitCounts, CountsFile};
 /// use phasewright::estimate::{analyse, Analysis, Config};
-/// use phasewright::family::{control::Control, plan::Family, Spec};
+/// use phasewright::family::{control::Control, Spec};
+/// use phasewright::plan::Family;
 /// use phasewright::formula::Order;
 /// use phasewright::sim::{self, shots::sample_counts, State};
 /// use rand::SeedableRng;

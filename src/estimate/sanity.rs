@@ -21,7 +21,7 @@
 use super::counts::CountsFile;
 use super::expect::Series;
 use super::krylov;
-use crate::family::plan::Plan;
+use crate::plan::Plan;
 use num_complex::Complex64;
 
 /// Standard errors beyond which a bound counts as violated.

@@ -35,10 +35,10 @@
 //! Rayleigh value `⟨E0|U|E0⟩` (`E0`: ground state of `H` by dense diagonalisation). Rounding:
 //! ≈1e-12 in the phase, i.e. ≈1e-12/dt in energy.
 
-use crate::family::plan::Plan;
 use crate::formula::suzuki_stages;
 use crate::formula::{self, Order};
 use crate::pauli::{PauliString, PauliSum};
+use crate::plan::Plan;
 use crate::sim::State;
 use nalgebra::DMatrix;
 use num_complex::Complex64;

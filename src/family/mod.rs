@@ -2,7 +2,7 @@
 //!
 //! In: a Pauli sum, a [`Spec`] (family, formula, time grid, states) and a ladder planner for the
 //! CNOT chains. Out: [`Job`]s, one per circuit, each a *logical* circuit (system qubits `0..n`,
-//! ancilla `n`) with the [`plan::Read`]s that say what its counts estimate.
+//! ancilla `n`) with the [`crate::plan::Read`]s that say what its counts estimate.
 //!
 //! The Hadamard test (Kitaev 1995; Cleve, Ekert, Macchiavello & Mosca, Proc. R. Soc. A 454, 339
 //! (1998)): the ancilla in |+⟩ controls `U`, giving `(|0⟩|ψ⟩ + |1⟩U|ψ⟩)/√2`, on which
@@ -20,15 +20,14 @@
 //! is always measured into bit 0.
 
 pub mod control;
-pub mod plan;
 
 use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::{Circuit, Gate, Qubit};
 use crate::formula::{evolution, Order, Rotation};
 use crate::pauli::group::{colour_groups, Compat};
 use crate::pauli::{Pauli, PauliString, PauliSum};
+use crate::plan::{Family, Part, Read, Target};
 use control::Control;
-use plan::{Family, Part, Read, Target};
 use rand::Rng;
 use rand::SeedableRng;
 

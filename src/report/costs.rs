@@ -9,7 +9,7 @@
 //! plan.
 
 use super::table::Table;
-use crate::family::plan::{Costs, Part, Plan};
+use crate::plan::{Costs, Part, Plan};
 use serde::Serialize;
 
 /// The per-circuit and total cost table.

@@ -11,7 +11,7 @@
 
 use crate::estimate::counts::BitOrder;
 use crate::estimate::{self, Analysis, DosReport, EnergyReport, KrylovKind};
-use crate::family::plan::Plan;
+use crate::plan::Plan;
 use serde::Serialize;
 use serde_json::Value;
 use std::fmt::Write as _;

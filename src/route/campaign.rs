@@ -41,9 +41,9 @@ use super::{plan_swap_params, RouteConfig, Routed, TargetPlan};
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::{CostModel, Device, Tally};
-use crate::family::plan::Costs;
 use crate::lower::euler::wrap;
 use crate::lower::lower_to_native;
+use crate::plan::Costs;
 use crate::qasm::{write, write_gates_to, Addressing};
 use rayon::prelude::*;
 

@@ -69,6 +69,29 @@
 //! caller's size limit (`route::EXTRAS_MAX_UNIT`).
 
 use super::embed;
+
+/// Whether [`route_step`] synthesises hopping pairs together.
+///
+/// `Paired`: a ready XX and YY rotation on the same two qubits (`synth::hopping_pair`) are
+/// synthesised together where that is cheaper; `Single`: every rotation on its own.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Hopping {
+    /// XX + YY pairs together where cheaper.
+    Paired,
+    /// Each rotation on its own.
+    Single,
+}
+
+impl Hopping {
+    /// `Paired` when `pairs` (as `RouteConfig::pairs` asks).
+    pub(crate) fn when(pairs: bool) -> Hopping {
+        if pairs {
+            Hopping::Paired
+        } else {
+            Hopping::Single
+        }
+    }
+}
 use super::sweep::noncommutation_graph;
 use crate::circuit::{Circuit, Gate, Qubit};
 use crate::device::Device;
@@ -560,14 +583,15 @@ impl<'a> Engine<'a> {
 }
 
 /// Routes one step's `program` with control copies from `layout` (system qubits `0..n`, the
-/// ancilla `n`, copies after it) on `dev` (see the module essay); `pairs`: synthesise XX + YY
-/// pairs together where cheaper. `None` past [`MAX_ROTATIONS`] or the schedule's bound.
+/// ancilla `n`, copies after it) on `dev` (see the module essay); [`Hopping::Paired`]:
+/// synthesise XX + YY pairs together where cheaper. `None` past [`MAX_ROTATIONS`] or the
+/// schedule's bound.
 pub fn route_step(
     program: &[Rotation],
     n: usize,
     layout: &[u32],
     dev: &Device,
-    pairs: bool,
+    hopping: Hopping,
 ) -> Option<CatRouting> {
     if program.len() > MAX_ROTATIONS {
         return None;
@@ -599,7 +623,7 @@ pub fn route_step(
         ready.remove(&j);
         let rj = &program[j as usize];
         // A ready partner of an XX + YY pair, if the pair is cheaper together.
-        let partner = if pairs {
+        let partner = if hopping == Hopping::Paired {
             ready
                 .iter()
                 .filter_map(|&k| {
@@ -1018,7 +1042,7 @@ mod tests {
     /// controlled by the ancilla alone: the same state on the system qubits and the ancilla
     /// (placed by the layouts), |0⟩ everywhere else, to 1e-9.
     fn assert_exact(program: &[Rotation], n: usize, layout: &[u32], dev: &Device) -> CatRouting {
-        let routed = route_step(program, n, layout, dev, true).unwrap();
+        let routed = route_step(program, n, layout, dev, Hopping::Paired).unwrap();
         let np = dev.num_qubits;
         let mut c = Circuit::new(np, 0);
         c.push(Gate::H(layout[n]));

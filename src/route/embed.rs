@@ -28,6 +28,28 @@
 use crate::device::Device;
 use crate::pauli::PauliSum;
 
+/// Whether [`embedding_layouts`] also places the ancilla (the last logical qubit) beside the
+/// embedding. Whether that ancilla controls the step does not matter here: its site is chosen
+/// by the embedding alone.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum AncillaSite {
+    /// The layouts place the system qubits only.
+    Omitted,
+    /// The layouts place the ancilla on a free site beside an embedded qubit.
+    Beside,
+}
+
+impl AncillaSite {
+    /// `Beside` when `placed` (the private search keeps the flag; the public API does not).
+    pub(crate) fn when(placed: bool) -> AncillaSite {
+        if placed {
+            AncillaSite::Beside
+        } else {
+            AncillaSite::Omitted
+        }
+    }
+}
+
 /// Backtracking steps (candidate sites tried) before the search gives up.
 pub const SEARCH_BUDGET: usize = 2_000_000;
 
@@ -173,16 +195,21 @@ pub fn embeddings_from(
 }
 
 /// Layouts for `route::plan_target`: embeddings of `h`'s interaction graph into `comp`, each
-/// with the ancilla (when `ancilla`) on a free site beside an embedded qubit; at most
-/// [`MAX_LAYOUTS`], deterministic.
-pub fn embedding_layouts(h: &PauliSum, ancilla: bool, comp: &[u32], dev: &Device) -> Vec<Vec<u32>> {
+/// with the ancilla (with [`AncillaSite::Beside`]) on a free site beside an embedded qubit; at
+/// most [`MAX_LAYOUTS`], deterministic.
+pub fn embedding_layouts(
+    h: &PauliSum,
+    ancilla: AncillaSite,
+    comp: &[u32],
+    dev: &Device,
+) -> Vec<Vec<u32>> {
     let adj = interaction_graph(h);
     if adj.iter().all(|r| r.is_empty()) {
         return Vec::new();
     }
     let mut out: Vec<Vec<u32>> = Vec::new();
     for e in embeddings(&adj, comp, dev, MAX_LAYOUTS) {
-        if !ancilla {
+        if ancilla == AncillaSite::Omitted {
             out.push(e);
             continue;
         }
@@ -260,7 +287,7 @@ mod tests {
         }
         let d = dev(16, &lattice::grid(4, 4));
         let comp: Vec<u32> = (0..16).collect();
-        let layouts = embedding_layouts(&h, true, &comp, &d);
+        let layouts = embedding_layouts(&h, AncillaSite::Beside, &comp, &d);
         assert!(!layouts.is_empty());
         for l in &layouts {
             assert_eq!(l.len(), 13);
@@ -285,6 +312,6 @@ mod tests {
         }
         let d = dev(8, &lattice::line(8));
         let comp: Vec<u32> = (0..8).collect();
-        assert!(embedding_layouts(&h, false, &comp, &d).is_empty());
+        assert!(embedding_layouts(&h, AncillaSite::Omitted, &comp, &d).is_empty());
     }
 }

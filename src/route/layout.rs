@@ -22,6 +22,7 @@
 //! ones up to date: `O(n² + n·|sites|·partners)` in all. Local search stops after 100 sweeps or
 //! [`IMPROVE_BUDGET`] partner visits; annealing runs at most 200 000 moves.
 
+use super::Ancilla;
 use crate::device::Device;
 use crate::pauli::PauliSum;
 use rand::seq::SliceRandom;
@@ -62,11 +63,12 @@ impl Weights {
     }
 }
 
-/// Interaction weights over `h.num_qubits` system qubits plus the ancilla (last) when
-/// `ancilla`. Contributions are summed per pair in term order, so the weights are the same on
-/// every run.
-pub fn interaction_weights(h: &PauliSum, ancilla: bool) -> Weights {
-    let n = h.num_qubits + ancilla as usize;
+/// Interaction weights over `h.num_qubits` system qubits plus, with [`Ancilla::Controls`], the
+/// ancilla (last), tied to every qubit of every term it controls. Contributions are summed per
+/// pair in term order, so the weights are the same on every run.
+pub fn interaction_weights(h: &PauliSum, ancilla: Ancilla) -> Weights {
+    let controls = ancilla.controls();
+    let n = h.num_qubits + controls as usize;
     let mut triples: Vec<(u32, u32, f64)> = Vec::new();
     for p in h.terms.keys() {
         let support = p.support_qubits();
@@ -76,7 +78,7 @@ pub fn interaction_weights(h: &PauliSum, ancilla: bool) -> Weights {
                 triples.push((a as u32, b as u32, 2.0 / k));
                 triples.push((b as u32, a as u32, 2.0 / k));
             }
-            if ancilla {
+            if controls {
                 let anc = (n - 1) as u32;
                 triples.push((a as u32, anc, 1.0 / k));
                 triples.push((anc, a as u32, 1.0 / k));
@@ -100,7 +102,7 @@ pub fn interaction_weights(h: &PauliSum, ancilla: bool) -> Weights {
 /// qubit) tied with weight 1 to each of `partners` only: the control-free Hadamard test, whose
 /// ancilla meets just the qubits its controlled state preparation touches.
 pub fn interaction_weights_with_partners(h: &PauliSum, partners: &[usize]) -> Weights {
-    let mut w = interaction_weights(h, false);
+    let mut w = interaction_weights(h, Ancilla::None);
     let anc = h.num_qubits as u32;
     let mut row = Vec::new();
     for &q in partners {
@@ -140,12 +142,21 @@ pub fn centre(comp: &[u32], dev: &Device) -> u32 {
 /// the unplaced qubit most tied to the placed ones, on the free site that costs least. The ties
 /// to the placed qubits are kept up to date as qubits are placed (`O(n)` per placement plus the
 /// new qubit's partners), and a site's cost sums over the qubit's placed partners only.
-pub fn greedy_layout(w: &Weights, n: usize, comp: &[u32], dev: &Device, ancilla: bool) -> Vec<u32> {
+/// [`Ancilla::Controls`]: the ancilla (qubit `n − 1`) controls the step and goes first, at the
+/// centre; [`Ancilla::None`]: the most interacting qubit goes first (an ancilla placed without
+/// controlling the step is then an ordinary qubit of `w`).
+pub fn greedy_layout(
+    w: &Weights,
+    n: usize,
+    comp: &[u32],
+    dev: &Device,
+    ancilla: Ancilla,
+) -> Vec<u32> {
     let c = centre(comp, dev);
     let total: Vec<f64> = (0..n)
         .map(|i| w.row(i).iter().map(|&(_, v)| v).sum())
         .collect();
-    let first = if ancilla {
+    let first = if ancilla.controls() {
         n - 1
     } else {
         (0..n)
@@ -395,9 +406,9 @@ mod tests {
             Calibration::default(),
         );
         let h = chain(6);
-        let w = interaction_weights(&h, false);
+        let w = interaction_weights(&h, Ancilla::None);
         let comp: Vec<u32> = (0..8).collect();
-        let mut l = greedy_layout(&w, 6, &comp, &dev, false);
+        let mut l = greedy_layout(&w, 6, &comp, &dev, Ancilla::None);
         anneal(&w, &mut l, &comp, &dev, 1);
         // Optimal cost: five unit-weight pairs at distance 1.
         assert_eq!(layout_cost(&w, &l, &dev), 5.0);
@@ -413,7 +424,7 @@ mod tests {
             PauliString::from_factors(&[(0, Pauli::X), (1, Pauli::Y), (3, Pauli::Z)]).1,
             0.5,
         );
-        let w = interaction_weights(&h, true);
+        let w = interaction_weights(&h, Ancilla::Controls);
         assert_eq!(w.len(), 5);
         let pairs: f64 = (0..4)
             .flat_map(|i| (i + 1..4).map(move |j| (i, j)))

@@ -96,6 +96,36 @@ pub use reuse::RoutedStep;
 use rayon::prelude::*;
 use swap::{insert_swaps, reversed, SwapParams};
 
+/// The Hadamard-test ancilla of a routing problem, as the public routing functions take it.
+///
+/// `Controls`: the logical circuit has one more qubit after the system qubits (`n`, last), the
+/// ancilla, and it controls the step's rotations (the usual Hadamard test). `None`: no qubit
+/// controls the step; where a function is also told the qubit count (`greedy_layout`), an
+/// ancilla that is placed without controlling the step is an ordinary qubit there.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Ancilla {
+    /// No ancilla controls the step.
+    None,
+    /// The ancilla (the last logical qubit) controls the step's rotations.
+    Controls,
+}
+
+impl Ancilla {
+    /// `Controls` when `controls` (the private search keeps the flag; the public API does not).
+    pub(crate) fn when(controls: bool) -> Ancilla {
+        if controls {
+            Ancilla::Controls
+        } else {
+            Ancilla::None
+        }
+    }
+
+    /// Whether the ancilla controls the step.
+    pub fn controls(self) -> bool {
+        self == Ancilla::Controls
+    }
+}
+
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
 #[derive(Clone, Debug)]
 pub struct RouteConfig {
@@ -228,13 +258,15 @@ pub struct TargetPlan {
 
 impl TargetPlan {
     /// A plan with a given layout (checked: distinct sites, all in one component of `dev`).
+    /// With [`Ancilla::Controls`] the layout also places the ancilla (logical qubit
+    /// `num_system`, last) and the plan's `ancilla` names it.
     pub fn with_layout(
         num_system: usize,
-        ancilla: bool,
+        ancilla: Ancilla,
         dev: &Device,
         initial_layout: Vec<u32>,
     ) -> Result<TargetPlan, RouteError> {
-        let n = num_system + ancilla as usize;
+        let n = num_system + ancilla.controls() as usize;
         if initial_layout.len() != n {
             return Err(RouteError::LayoutLength {
                 placed: initial_layout.len(),
@@ -269,7 +301,7 @@ impl TargetPlan {
         Ok(TargetPlan {
             initial_layout,
             num_system,
-            ancilla: ancilla.then_some(num_system as u32),
+            ancilla: ancilla.controls().then_some(num_system as u32),
             ancilla_swap_factor: 1.0,
             order: None,
             edge_terms: 0,
@@ -292,7 +324,8 @@ impl TargetPlan {
             .len()
             .checked_sub(num_system + 1)
             .ok_or(RouteError::TooShortForCopies)?;
-        let mut plan = TargetPlan::with_layout(num_system + copies, true, dev, layout)?;
+        let mut plan =
+            TargetPlan::with_layout(num_system + copies, Ancilla::Controls, dev, layout)?;
         plan.num_system = num_system;
         plan.ancilla = Some(num_system as u32);
         plan.copies = copies;
@@ -504,18 +537,19 @@ const SEARCH_LEVELS: [(usize, &[f64], &[OrderChoice], usize); 4] = [
     (1, &[0.9], &[OrderChoice::Walk], 0),
 ];
 
-/// Picks the initial layout and ladder plan for `h` (plus the ancilla if `ancilla`) on `dev`,
+/// Picks the initial layout and ladder plan for `h` (plus the ancilla, controlling the step,
+/// with [`Ancilla::Controls`]) on `dev`,
 /// scoring candidates on one Strang step. Errors ([`RouteError`]) are bad input when the device
 /// is too small, or its coupling graph is split into parts none of which is large enough; a
 /// candidate layout the search builds and then refuses would be a bug ([`RouteError::Search`]).
 pub fn plan_target(
     h: &PauliSum,
-    ancilla: bool,
+    ancilla: Ancilla,
     dev: &Device,
     cfg: &RouteConfig,
 ) -> Result<TargetPlan, RouteError> {
     Ok(
-        plan_on_step(h, ancilla, None, dev, cfg, Order::Second, 1.0)?
+        plan_on_step(h, ancilla.controls(), None, dev, cfg, Order::Second, 1.0)?
             .0
              .0,
     )
@@ -569,7 +603,7 @@ fn route_with(
     dt: f64,
 ) -> Result<(TargetPlan, RoutedStep), RouteError> {
     let (winner, other) = plan_on_step(h, ancilla, free_ancilla, dev, cfg, order, dt)?;
-    let symmetric = order != Order::First;
+    let symmetric = reuse::Formula::of(order);
     let build = |(plan, routed): Planned| {
         let params = plan_swap_params(&plan, cfg);
         let step = match routed {
@@ -636,7 +670,7 @@ pub fn plan_and_route_cat_step(
     if program.is_empty() || program.len() > cat::MAX_ROTATIONS || unit > EXTRAS_MAX_UNIT {
         return None;
     }
-    let symmetric = order != Order::First;
+    let symmetric = reuse::Formula::of(order);
     let mut best: Option<(f64, TargetPlan, RoutedStep)> = None;
     let min_copies = usize::from(cfg.cat_force);
     let bases = [base.initial_layout.clone()];
@@ -644,7 +678,9 @@ pub fn plan_and_route_cat_step(
         if layout.len() < n + 1 + min_copies {
             continue;
         }
-        let Some(routed) = cat::route_step(&program, n, &layout, dev, cfg.pairs) else {
+        let Some(routed) =
+            cat::route_step(&program, n, &layout, dev, cat::Hopping::when(cfg.pairs))
+        else {
             continue;
         };
         let Ok(mut plan) = TargetPlan::with_copies(n, dev, layout.clone()) else {
@@ -772,8 +808,8 @@ fn plan_on_step(
         });
     }
     if n == 0 {
-        let plan =
-            TargetPlan::with_layout(0, false, dev, Vec::new()).map_err(RouteError::in_search)?;
+        let plan = TargetPlan::with_layout(0, Ancilla::None, dev, Vec::new())
+            .map_err(RouteError::in_search)?;
         return Ok(((plan, None), None));
     }
     let comps = dev.components();
@@ -792,7 +828,7 @@ fn plan_on_step(
     let controls = ancilla && free_ancilla.is_none();
     let w = match free_ancilla {
         Some(partners) if ancilla => layout::interaction_weights_with_partners(h, partners),
-        _ => layout::interaction_weights(h, ancilla),
+        _ => layout::interaction_weights(h, Ancilla::when(ancilla)),
     };
     let groups = term_groups(h);
     let default_terms: Vec<(PauliString, f64)> = groups.concat();
@@ -804,7 +840,7 @@ fn plan_on_step(
     let candidate = |t: usize| -> Vec<u32> {
         let trial_seed = cfg.seed.wrapping_mul(0x9e37_79b9).wrapping_add(t as u64);
         let mut l = if t == 0 {
-            layout::greedy_layout(&w, n, &comp, dev, controls)
+            layout::greedy_layout(&w, n, &comp, dev, Ancilla::when(controls))
         } else {
             layout::random_layout(n, &comp, trial_seed)
         };
@@ -857,7 +893,7 @@ fn plan_on_step(
             choice,
             form,
         } = *recipe;
-        let mut plan = TargetPlan::with_layout(n_sys, ancilla, dev, l.to_vec())
+        let mut plan = TargetPlan::with_layout(n_sys, Ancilla::when(ancilla), dev, l.to_vec())
             .map_err(RouteError::in_search)?;
         if !controls {
             plan.ancilla = None;
@@ -970,7 +1006,7 @@ fn plan_on_step(
         }
     }
     if cfg.embed && small {
-        for l in embed::embedding_layouts(h, ancilla, &comp, dev) {
+        for l in embed::embedding_layouts(h, embed::AncillaSite::when(ancilla), &comp, dev) {
             if !candidates.contains(&l) {
                 candidates.push(l);
             }

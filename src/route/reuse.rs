@@ -69,6 +69,30 @@ use crate::formula::{step, Order, Rotation};
 use crate::pauli::PauliString;
 use crate::synth::{pauli_rotation_along, Block, Coupled, Groups, Pairs, Strategy};
 
+/// How a routed step is repeated, which follows from the product formula's shape.
+///
+/// `Symmetric` (orders 2 and 4, palindromic steps): the step and its mirror alternate, so
+/// every second step runs the SWAPs backwards. `OneSided` (order 1, Lie–Trotter): each step
+/// after the first starts with the SWAPs home to the initial layout, then runs the step again.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Formula {
+    /// Mirror alternation (orders 2, 4).
+    Symmetric,
+    /// The SWAPs home, then the step again (order 1).
+    OneSided,
+}
+
+impl Formula {
+    /// `OneSided` for Lie–Trotter ([`Order::First`]), `Symmetric` for the others.
+    pub fn of(order: Order) -> Formula {
+        if order == Order::First {
+            Formula::OneSided
+        } else {
+            Formula::Symmetric
+        }
+    }
+}
+
 /// The mirror image of a unitary circuit: gates in reverse order, each replaced by the inverse
 /// of itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept
 /// as they are; `U(θ, φ, λ)` by `U(θ, λ, φ)`), the global phase kept like an angle. If every
@@ -519,11 +543,11 @@ pub fn route_step(
     plan: &TargetPlan,
     dev: &Device,
     params: &SwapParams,
-    symmetric: bool,
+    formula: Formula,
 ) -> RoutedStep {
     let start = &plan.initial_layout[..parts.circuit.num_qubits];
     let (fwd, marks) = insert_swaps_cut(&parts.circuit, start, dev, params, &parts.cuts);
-    route_from(parts, fwd, marks, plan, dev, params, symmetric)
+    route_from(parts, fwd, marks, plan, dev, params, formula)
 }
 
 /// The [`RoutedStep`] of a step routed whole, `circuit : start → end` (physical): the step and
@@ -533,8 +557,9 @@ pub fn unsplit(
     start: Vec<u32>,
     end: Vec<u32>,
     dev: &Device,
-    symmetric: bool,
+    formula: Formula,
 ) -> RoutedStep {
+    let symmetric = formula == Formula::Symmetric;
     let n_phys = dev.num_qubits;
     let empty = || Circuit::new(n_phys, 0);
     let back = if symmetric {
@@ -577,13 +602,14 @@ pub fn route_from(
     plan: &TargetPlan,
     dev: &Device,
     params: &SwapParams,
-    symmetric: bool,
+    formula: Formula,
 ) -> RoutedStep {
+    let symmetric = formula == Formula::Symmetric;
     let n_phys = dev.num_qubits;
     let start = plan.initial_layout[..fwd.final_layout.len()].to_vec();
     let empty = || Circuit::new(n_phys, 0);
     let Some(merged) = parts.merged_edge.as_ref().filter(|_| marks.len() == 2) else {
-        return unsplit(fwd.circuit, start, fwd.final_layout, dev, symmetric);
+        return unsplit(fwd.circuit, start, fwd.final_layout, dev, formula);
     };
     let g = &fwd.circuit.gates;
     let lead = physical(n_phys, &g[..marks[0].at]);
@@ -686,7 +712,13 @@ mod tests {
             NativeSet::rz_sx_x_cx(),
             Calibration::default(),
         );
-        let mut plan = TargetPlan::with_layout(4, true, &dev, vec![0, 4, 8, 2, 6]).unwrap();
+        let mut plan = TargetPlan::with_layout(
+            4,
+            crate::route::Ancilla::Controls,
+            &dev,
+            vec![0, 4, 8, 2, 6],
+        )
+        .unwrap();
         let groups = crate::formula::term_groups(&h);
         assert!(groups.len() >= 2);
         plan.edge_terms = groups[0].len();

@@ -336,7 +336,8 @@ mod tests {
             }
             let program = step(&order_terms(&h), Order::Second, 0.7);
             let layout: Vec<u32> = vec![3, 0, 5, 1, 4, 2];
-            let plan = TargetPlan::with_layout(5, true, &dev, layout).unwrap();
+            let plan =
+                TargetPlan::with_layout(5, crate::route::Ancilla::Controls, &dev, layout).unwrap();
             let s = schedule(&program, &plan, &dev).unwrap();
             assert_eq!(s.rotations.len(), program.len());
             let mut a = State::zero(5);
@@ -400,7 +401,9 @@ mod tests {
             Calibration::default(),
         );
         let layout: Vec<u32> = vec![1, 2, 3, 4, 5, 6, 0];
-        let plan = TargetPlan::with_layout(n, true, &dev, layout.clone()).unwrap();
+        let plan =
+            TargetPlan::with_layout(n, crate::route::Ancilla::Controls, &dev, layout.clone())
+                .unwrap();
         let program = step(&order_terms(&h), Order::Second, 0.3);
         let s = schedule(&program, &plan, &dev).unwrap();
         let root_sites: Vec<u32> = s.roots.iter().map(|&q| layout[q as usize]).collect();

@@ -36,10 +36,10 @@ use super::normal::{self, DiffKind};
 use super::{canonicalise_into, canonicalise_turning, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
-use crate::family::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
 use crate::family::{group_reads, hadamard_test_in, krylov_groups, prep_hadamard_test, state_prep};
 use crate::formula::{evolution, order_terms, Order};
 use crate::pauli::PauliString;
+use crate::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
 use serde::Serialize;
 
 /// Everything the plan claims that is shared by its circuits.

@@ -14,8 +14,8 @@ use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 use phasewright::estimate::counts::{CircuitCounts, CountsFile};
 use phasewright::estimate::resample::multinomial;
-use phasewright::family::plan::*;
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
+use phasewright::plan::*;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 

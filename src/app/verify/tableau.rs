@@ -11,7 +11,7 @@ use crate::app::io::read_text;
 use crate::diag::Code;
 use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
-use crate::family::plan::{CircuitEntry, Plan};
+use crate::plan::{CircuitEntry, Plan};
 use crate::report::table::Table;
 use crate::tableau::equiv::{CannotCheck, Claim, Proof, Verdict};
 use rayon::prelude::*;

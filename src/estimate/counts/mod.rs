@@ -1,7 +1,7 @@
 //! Counts files: the format, the outcome masks it holds per circuit, and its writer; the
 //! reader that checks a file against its plan is [`read`].
 //!
-//! In: the text of a counts file, its name, the [plan](crate::family::plan::Plan) it answers
+//! In: the text of a counts file, its name, the [plan](crate::plan::Plan) it answers
 //! and an optional bit-order override ([`parse`]); or outcome masks to write ([`to_json`]).
 //! Out: one [`CircuitCounts`] per plan circuit, in plan order, or every problem found as a
 //! [diagnostic](crate::diag::Diagnostic) (with line, column and caret where the text
@@ -167,7 +167,7 @@ pub fn to_json(ids: &[&str], circuits: &[CircuitCounts], shots: Option<u64>) -> 
 pub(crate) mod tests {
     use super::*;
     use crate::diag::Diagnostic;
-    use crate::family::plan::*;
+    use crate::plan::*;
 
     pub(crate) fn tiny_plan() -> Plan {
         let circuit = |id: &str, k: usize, part: Part| CircuitEntry {

@@ -11,8 +11,8 @@
 
 use super::{bitstring_mask, BitOrder, CircuitCounts, CountsFile, COUNTS_FORMAT};
 use crate::diag::{Code, Diagnostic};
-use crate::family::plan::Plan;
 use crate::lang::json_span::{locate, Step};
+use crate::plan::Plan;
 use serde::de::{Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
 use std::collections::BTreeMap;
