@@ -329,11 +329,11 @@ const TEXT_PER_GATE: u128 = 20;
 const DEVICE_TEXT_PER_GATE: u128 = 56;
 /// What the process holds whatever the campaign: the program, the Hamiltonian's term list,
 /// a device's hop table, the thread stacks (measured: about 70 MB on the 10³-term device bench).
-const BASE_BYTES: u128 = 96 << 20;
+pub const BASE_BYTES: u128 = 96 << 20;
 /// On a device the routed step and its lowered pieces (`route::DeviceCampaign`) are held while
 /// every circuit is written from them: about this many times one step's text (measured on the
 /// device benches: 4.8).
-const DEVICE_STEP_COPIES: u128 = 6;
+pub const DEVICE_STEP_COPIES: u128 = 6;
 /// On the all-to-all target, the first time point with a step holds every level-3 candidate's
 /// body at once (chain, tree, pairs, agreeing order, and the two `Groups` forms).
 const FIRST_POINT_BODIES: u128 = 6;
