@@ -1463,7 +1463,8 @@ pub fn compile_into(
             }?;
             // Level 3 also offers the step with the control spread over copies of the ancilla
             // on spare sites (`route::cat`); it is kept below only if the campaign it emits
-            // has fewer two-qubit gates.
+            // has a higher estimated success probability (calibrated gate errors) or, without
+            // gate errors, fewer two-qubit gates (then a lower depth).
             let cat = (config.cat
                 && spec.control == Control::Evolution
                 && spec.family != Family::Evolution)
@@ -1502,7 +1503,22 @@ pub fn compile_into(
                             .map(|f| (f.costs.two_qubit, f.costs.depth))
                             .fold((0, 0), |a, b| (a.0 + b.0, a.1 + b.1))
                     };
-                    let (kept, texts) = if config.cat_force || total(&spread.1) < total(&plain.1) {
+                    // Where the calibration gives gate errors, the campaign with the higher
+                    // estimated success probability: the spread control trades CNOTs on weak
+                    // couplers and a serial ancilla for a few more CNOTs elsewhere, which
+                    // counts alone cannot weigh.
+                    let log_success = |d: &[Finished]| -> Option<f64> {
+                        let sum = d
+                            .iter()
+                            .map(|f| f.costs.success_probability.map(|p| p.max(1e-300).ln()))
+                            .sum::<Option<f64>>()?;
+                        (sum < 0.0).then_some(sum)
+                    };
+                    let spread_pays = match (log_success(&spread.1), log_success(&plain.1)) {
+                        (Some(a), Some(b)) if (a - b).abs() > 1e-12 => a > b,
+                        _ => total(&spread.1) < total(&plain.1),
+                    };
+                    let (kept, texts) = if config.cat_force || spread_pays {
                         (spread, spread_texts)
                     } else {
                         (plain, plain_texts)

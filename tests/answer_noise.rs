@@ -62,9 +62,27 @@ fn h2_noise_rehearsal_with_undo_loss_is_within_two_millihartree() {
         let err = e["answer"]["energy"].as_f64().unwrap() - e["exact"].as_f64().unwrap();
         eprintln!("seed {seed}: undo-loss error {err:.2e}");
         assert!(err.abs() <= 2e-3, "seed {seed}: {err}");
+        // Without the correction the damped overlaps either give no answer, or one whose
+        // systematic bar dominates (and says so) and whose 2σ interval still holds the exact
+        // energy: the Ritz values of these overlaps sit at |λ| ≈ 0.90, at the admission
+        // threshold `MIN_UNITARY_MODULUS`, so which of the two happens depends on the gates.
         let (raw, warn) = run(&["estimate", &d, "--counts", &counts, "--json"]);
         let raw: serde_json::Value = serde_json::from_str(&raw).unwrap();
-        assert!(raw["answer"].is_null());
-        assert!(warn.contains("no final answer"), "{warn}");
+        if raw["answer"].is_null() {
+            assert!(warn.contains("no final answer"), "{warn}");
+        } else {
+            let a = &raw["answer"];
+            let err = a["energy"].as_f64().unwrap() - raw["exact"].as_f64().unwrap();
+            let total = a["sigma_total"].as_f64().unwrap();
+            assert!(
+                err.abs() <= 2.0 * total,
+                "seed {seed}: {err} against {total}"
+            );
+            assert!(
+                a["sigma_sys"].as_f64().unwrap() > a["sigma_stat"].as_f64().unwrap(),
+                "{a}"
+            );
+            assert!(warn.contains("more shots will not make"), "{warn}");
+        }
     }
 }

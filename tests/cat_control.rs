@@ -338,13 +338,12 @@ fn a_three_site_chain_with_two_copies_counted_by_hand() {
             .costs
             .clone()
     };
-    // The ancilla alone now reaches the same 26 with no SWAP: the commuting runs synthesised
-    // on the coupling graph (`synth::Coupled`, each string carried next to the ancilla by
-    // CNOTs on coupled pairs) cost no more than the spread control here, so level 3 need not
-    // keep the copies; either way the count is the hand-counted 26.
+    // The ancilla alone now beats the hand count: the commuting runs synthesised on the
+    // coupling graph (`synth::Coupled`) reach 26 with no SWAP, and a routed form whose three
+    // ancilla SWAPs each start with the CNOT before them (`lower::slide_through_swaps`) costs
+    // 25; so level 3 need not keep the copies.
     assert!(k1(&with.plan).two_qubit <= 26, "{:?}", k1(&with.plan));
     assert!(k1(&without.plan).two_qubit <= 26, "{:?}", k1(&without.plan));
-    assert_eq!(k1(&without.plan).swaps, 0);
     assert_eq!(k1(&without.plan).control_copies, 0);
     check_campaign(&with.plan, &with.programs, &dev);
 }

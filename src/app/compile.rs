@@ -620,7 +620,19 @@ fn spread_line(plan: &Plan) -> String {
     };
     let most = crate::report::costs::most_control_copies(plan);
     let made = &d.copy_placement;
-    let kept = "kept because the campaign emits fewer two-qubit gates (or as many, less deep) than with the ancilla alone";
+    let calibrated = plan
+        .circuits
+        .iter()
+        .all(|c| c.costs.success_probability.is_some())
+        && plan
+            .circuits
+            .iter()
+            .any(|c| c.costs.success_probability.is_some_and(|p| p < 1.0));
+    let kept = if calibrated {
+        "kept because the campaign's estimated success probability (from the calibrated gate errors) is higher than with the ancilla alone"
+    } else {
+        "kept because the campaign emits fewer two-qubit gates (or as many, less deep) than with the ancilla alone"
+    };
     if most == 0 {
         return format!(
             "Spread control: rotations away from the ancilla are controlled over a bridge through a neighbouring qubit (or after moving it into an unused qubit) rather than by swapping it there; no copies needed; {kept}.\n"
