@@ -1678,7 +1678,7 @@ fn device_circuits(
 struct FanOuts {
     /// `(state, layout index) → W`; layout 0 is the start, 1 + b the end after core b.
     preps: std::collections::BTreeMap<(RefState, usize), Vec<Gate>>,
-    step_symmetric: bool,
+    step_formula: crate::route::reuse::Formula,
 }
 
 impl FanOuts {
@@ -1716,7 +1716,7 @@ impl FanOuts {
         }
         FanOuts {
             preps,
-            step_symmetric: step.symmetric,
+            step_formula: step.formula,
         }
     }
 
@@ -1726,7 +1726,8 @@ impl FanOuts {
             // `RoutedStep::core_index(steps − 1)`.
             PrepAt::End { steps } => {
                 let last = steps - 1;
-                1 + usize::from(last != 0 && !(self.step_symmetric && last.is_multiple_of(2)))
+                let mirrored = self.step_formula == crate::route::reuse::Formula::Symmetric;
+                1 + usize::from(last != 0 && !(mirrored && last.is_multiple_of(2)))
             }
         };
         self.preps[&(state.clone(), i)].clone()
