@@ -17,7 +17,7 @@
 use crate::circuit::Circuit;
 use crate::diag::Code;
 use crate::error::{Blame, LayerError};
-use crate::family::state_prep;
+use crate::family::{RefState, StateError};
 use crate::formula::{apply_program, evolution, order_terms, Order};
 use crate::pauli::{PauliString, PauliSum};
 use crate::plan::{CircuitEntry, Part, Plan, Target};
@@ -192,12 +192,24 @@ struct References {
 }
 
 fn prepared(n: usize, state: &str) -> Result<State, CheckError> {
-    let prep = state_prep(state).map_err(|b| {
-        CheckError::Plan(format!(
-            "bad state letter `{}` at {}: {}",
-            b.letter, b.index, b.reason
-        ))
-    })?;
+    let prep = match RefState::parse(state, n) {
+        Ok(s) => s.prep(),
+        Err(StateError::Letter {
+            index,
+            letter,
+            reason,
+            ..
+        }) => {
+            return Err(CheckError::Plan(format!(
+                "bad state letter `{letter}` at {index}: {reason}"
+            )))
+        }
+        Err(StateError::Length { letters, qubits }) => {
+            return Err(CheckError::Plan(format!(
+                "state `{state}` has {letters} letters for {qubits} qubits"
+            )))
+        }
+    };
     let mut s = State::zero(n);
     for g in &prep {
         s.apply(g);

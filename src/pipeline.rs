@@ -96,7 +96,7 @@ use crate::circuit::{Circuit, Gate};
 use crate::clock::{self, stage, Stage};
 use crate::device::Device;
 use crate::family::control::Control;
-use crate::family::{frames, frames_by, frames_with, PrepAt, Spec};
+use crate::family::{frames, frames_by, frames_with, PrepAt, RefState, Spec};
 use crate::formula::{order_terms, textbook_evolution, Formula, Rotation};
 use crate::pauli::PauliSum;
 use crate::plan::Family;
@@ -289,6 +289,12 @@ pub enum CompileError {
     Ir(IrError),
     /// The [`Sink`] could not take a circuit's text (a write failed: disk full, say).
     Output(crate::error::Error),
+    /// `spec.states[index]` (`text`) is not a reference state for the Hamiltonian (bad input).
+    State {
+        index: usize,
+        text: String,
+        error: crate::family::StateError,
+    },
 }
 
 impl From<RouteError> for CompileError {
@@ -314,6 +320,11 @@ impl From<CompileError> for crate::error::Error {
             ),
             CompileError::Ir(e) => crate::error::Error::Ir(e),
             CompileError::Output(e) => e,
+            CompileError::State { index, text, error } => crate::error::Error::usage(
+                crate::diag::Code::UsageOption,
+                format!("reference state {index} `{text}`: {error}"),
+                Some(crate::family::state::LETTER_HINT),
+            ),
         }
     }
 }
@@ -976,6 +987,12 @@ pub fn compile_into(
     level: OptLevel,
     sink: &dyn Sink,
 ) -> Result<Plan, CompileError> {
+    spec.ref_states(h.num_qubits)
+        .map_err(|(index, error)| CompileError::State {
+            index,
+            text: spec.states[index].clone(),
+            error,
+        })?;
     let predicted = predicted_memory(
         h,
         spec,
@@ -1457,7 +1474,7 @@ pub fn compile_into(
                 // The control-free form routes an uncontrolled step; the ancilla meets only the
                 // qubits its controlled state preparation touches, at the start and the end.
                 Control::Prep => {
-                    let partners = prep_partners(&spec.states);
+                    let partners = prep_partners(&checked_states(spec, h.num_qubits));
                     plan_and_route_free_step(h, &partners, device, config, spec.order, step_dt)
                 }
             }?;
@@ -1581,17 +1598,18 @@ fn device_circuits(
         copy_placement: tp.initial_layout[placed..].to_vec(),
         spare_qubits: tp.spread,
     };
+    let states = checked_states(spec, h.num_qubits);
     // The control-free form's controlled preparations, rebuilt as fan-out trees on
     // the layouts they meet (`family::control::fanout_prep`), when that is cheaper.
     let preps = (spec.control == Control::Prep && spec.family != Family::Evolution)
-        .then(|| FanOuts::new(&spec.states, h.num_qubits, &step, device));
+        .then(|| FanOuts::new(&states, h.num_qubits, &step, device));
     let all_frames = match &preps {
-        Some(p) => frames_by(h, spec, &|state: &str, at: PrepAt| p.get(state, at)),
+        Some(p) => frames_by(h, spec, &|state: &RefState, at: PrepAt| p.get(state, at)),
         None => all_frames,
     };
     // What the plan records of them: the CNOTs, when they are not the chain the
     // plan's form implies (`tableau::equiv` rebuilds the claim from them).
-    let fanout_of = |state: &str, k: usize| -> Option<FanOut> {
+    let fanout_of = |state: &RefState, k: usize| -> Option<FanOut> {
         let p = preps.as_ref()?;
         let chain = crate::family::control::controlled_prep(
             state,
@@ -1649,7 +1667,7 @@ fn device_circuits(
             sink.put(index, &file_of(&f.id), e.text)
                 .map_err(CompileError::Output)?;
             Ok(Finished {
-                fanout: fanout_of(&spec.states[f.state], f.k),
+                fanout: fanout_of(&states[f.state], f.k),
                 id: f.id,
                 k: f.k,
                 time: f.time,
@@ -1675,13 +1693,13 @@ fn device_circuits(
 /// chain otherwise.
 struct FanOuts {
     /// `(state, layout index) → W`; layout 0 is the start, 1 + b the end after core b.
-    preps: std::collections::BTreeMap<(String, usize), Vec<Gate>>,
-    step_symmetric: bool,
+    preps: std::collections::BTreeMap<(RefState, usize), Vec<Gate>>,
+    step_formula: crate::route::reuse::Formula,
 }
 
 impl FanOuts {
     fn new(
-        states: &[String],
+        states: &[RefState],
         n: usize,
         step: &crate::route::RoutedStep,
         device: &Device,
@@ -1714,30 +1732,38 @@ impl FanOuts {
         }
         FanOuts {
             preps,
-            step_symmetric: step.symmetric,
+            step_formula: step.formula,
         }
     }
 
-    fn get(&self, state: &str, at: PrepAt) -> Vec<Gate> {
+    fn get(&self, state: &RefState, at: PrepAt) -> Vec<Gate> {
         let i = match at {
             PrepAt::Start | PrepAt::End { steps: 0 } => 0,
             // `RoutedStep::core_index(steps − 1)`.
             PrepAt::End { steps } => {
                 let last = steps - 1;
-                1 + usize::from(last != 0 && !(self.step_symmetric && last.is_multiple_of(2)))
+                let mirrored = self.step_formula == crate::route::reuse::Formula::Symmetric;
+                1 + usize::from(last != 0 && !(mirrored && last.is_multiple_of(2)))
             }
         };
-        self.preps[&(state.to_string(), i)].clone()
+        self.preps[&(state.clone(), i)].clone()
     }
+}
+
+/// The spec's states as [`RefState`]s; [`compile_into`] has refused a spec whose states do not
+/// check before any caller of this runs.
+fn checked_states(spec: &Spec, n: usize) -> Vec<RefState> {
+    spec.ref_states(n)
+        .expect("compile_into checks the states first")
 }
 
 /// The system qubits the ancilla meets in the controlled state preparation of any of `states`
 /// (`family::control::ancilla_partners`), ascending.
-fn prep_partners(states: &[String]) -> Vec<usize> {
+fn prep_partners(states: &[RefState]) -> Vec<usize> {
     let mut touched: Vec<usize> = states
         .iter()
         .flat_map(|s| {
-            crate::family::control::ancilla_partners(s, s.chars().count() as crate::circuit::Qubit)
+            crate::family::control::ancilla_partners(s, s.num_qubits() as crate::circuit::Qubit)
         })
         .collect();
     touched.sort_unstable();

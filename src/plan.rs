@@ -601,24 +601,26 @@ impl Plan {
         }
         for (s, st) in self.states.iter().enumerate() {
             let path = vec![Key("states"), Index(s)];
-            if let Err(b) = crate::family::state_prep(st) {
-                bad(
+            use crate::family::{RefState, StateError};
+            match RefState::parse(st, n) {
+                Ok(_) => {}
+                Err(StateError::Letter {
+                    index,
+                    letter,
+                    reason,
+                    ..
+                }) => bad(
                     path,
-                    format!(
-                        "state {s} `{st}`: letter {} `{}`: {}",
-                        b.index, b.letter, b.reason
-                    ),
+                    format!("state {s} `{st}`: letter {index} `{letter}`: {reason}"),
                     Some("states use 0 1 + - r l (and ss), qubit 0 first"),
-                );
-            } else if st.chars().count() != n {
-                bad(
+                ),
+                Err(StateError::Length { letters, .. }) => bad(
                     path,
                     format!(
-                        "state {s} `{st}` has {} letters but the Hamiltonian has {n} qubits",
-                        st.chars().count()
+                        "state {s} `{st}` has {letters} letters but the Hamiltonian has {n} qubits"
                     ),
                     None,
-                );
+                ),
             }
         }
         let device_qubits = self.device.as_ref().map(|d| d.num_qubits);

@@ -3,7 +3,7 @@
 
 use num_complex::Complex64;
 use phasewright::check::check_plan;
-use phasewright::family::{krylov_groups, random_states, state_prep, Spec};
+use phasewright::family::{krylov_groups, random_states, state_prep, RefState, Spec};
 use phasewright::formula::{apply_program, evolution, order_terms, Order};
 use phasewright::pauli::{Pauli, PauliString, PauliSum};
 use phasewright::pipeline::compile;
@@ -15,7 +15,7 @@ use rand::{Rng, SeedableRng};
 
 fn prepared(state: &str) -> State {
     let mut s = State::zero(state.len());
-    for g in state_prep(state).unwrap() {
+    for g in state_prep(&RefState::parse(state, state.len()).unwrap()) {
         s.apply(&g);
     }
     s

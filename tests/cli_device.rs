@@ -104,7 +104,11 @@ fn files_for_every_example_device_are_native_coupled_and_correct() {
         for c in plan["circuits"].as_array().unwrap() {
             let text = std::fs::read_to_string(out.join(c["file"].as_str().unwrap())).unwrap();
             let prog = qasm::read("f.qasm", &text).unwrap();
-            assert!(prog.physical, "device files address hardware qubits");
+            assert_eq!(
+                prog.addressing,
+                qasm::Addressing::Physical,
+                "device files address hardware qubits"
+            );
             let coupled = |a: u32, b: u32| dev.coupled(a, b);
             let rules = Rules {
                 coupled: Some(&coupled),

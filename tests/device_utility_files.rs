@@ -66,8 +66,9 @@ fn check_written(dir: &Path, dev: &Device) {
     for e in &plan.circuits {
         let text = std::fs::read_to_string(dir.join(&e.file)).unwrap();
         let prog = qasm::read(&e.file, &text).unwrap();
-        assert!(
-            prog.physical,
+        assert_eq!(
+            prog.addressing,
+            qasm::Addressing::Physical,
             "{}: device files address hardware qubits",
             e.id
         );

@@ -1,9 +1,12 @@
 //! `phasewright estimate` end to end on small fixture campaigns in tests/data/estimate/.
 //!
-//! The fixtures are ideal campaigns from tests/estimate_support (exact evolution, seeded
-//! multinomial shots). They are regenerated on purpose with `BLESS=1 cargo test --test
-//! estimate_cli`, never by hand; `fixtures_are_current` fails when code and files disagree,
-//! with a line diff of each stale file (`-` on disk, `+` built).
+//! Each fixture folder is laid out exactly as `phasewright compile` writes a campaign: plan.json
+//! and the `.qasm` files compiled from the `.ham` file beside it, plus
+//! counts.json sampled from the ideal campaign of tests/estimate_support (exact evolution,
+//! seeded multinomial shots) under the compiled ids and bit layout. They are regenerated on
+//! purpose with `BLESS=1 cargo test --release --test estimate_cli fixtures_are_current`, never
+//! by hand; `fixtures_are_current` fails when code and files disagree, with a line diff of each
+//! stale file (`-` on disk, `+` built). tests/data/estimate/README.md gives the compile lines.
 
 mod estimate_support;
 mod fixture_support;
@@ -20,41 +23,199 @@ fn data_dir(name: &str) -> PathBuf {
         .join(name)
 }
 
-/// (folder, plan.json, counts.json) for every fixture.
-fn fixtures() -> Vec<(&'static str, String, String)> {
-    let specs: Vec<(&str, Campaign, u64, u64)> = vec![
-        (
-            "krylov_tfim3",
-            campaign(&tfim(3, 1.0, 0.7, 0.2), &["+++"], Kind::Krylov, 0.35, 5),
-            20_000,
-            7,
-        ),
-        (
-            "overlap_heis4",
-            campaign(&heisenberg(4, 1.0, -0.4), &["0101"], Kind::Overlap, 0.2, 6),
-            20_000,
-            8,
-        ),
-        (
-            "trace_tfim3",
-            campaign(
-                &tfim(3, 1.0, 0.6, 0.25),
-                &["+0r", "1-l", "r+0", "l1-", "0r+", "-l1"],
-                Kind::Trace,
-                0.3,
-                16,
-            ),
-            4_000,
-            9,
-        ),
+/// One estimate fixture: the `.ham` file beside it, the `compile` options that make its plan,
+/// the synthetic campaign (same Hamiltonian, states, family, formula settings) whose ideal
+/// outcome distributions are sampled.
+struct Spec {
+    name: &'static str,
+    ham: &'static str,
+    h: phasewright::pauli::PauliSum,
+    kind: Kind,
+    dt: f64,
+    points: usize,
+    /// `--state` for overlap and Krylov; `None` for trace (`--samples` random states).
+    state: Option<&'static str>,
+    samples: usize,
+    shots: u64,
+    seed: u64,
+}
+
+fn specs() -> Vec<Spec> {
+    vec![
+        Spec {
+            name: "krylov_tfim3",
+            ham: "tfim3.ham",
+            h: tfim(3, 1.0, 0.7, 0.2),
+            kind: Kind::Krylov,
+            dt: 0.35,
+            points: 5,
+            state: Some("+++"),
+            samples: 0,
+            shots: 20_000,
+            seed: 7,
+        },
+        Spec {
+            name: "overlap_heis4",
+            ham: "heis4.ham",
+            h: heisenberg(4, 1.0, -0.4),
+            kind: Kind::Overlap,
+            dt: 0.2,
+            points: 6,
+            state: Some("0101"),
+            samples: 0,
+            shots: 20_000,
+            seed: 8,
+        },
+        Spec {
+            name: "trace_tfim3",
+            ham: "tfim3.ham",
+            h: tfim(3, 1.0, 0.6, 0.25),
+            kind: Kind::Trace,
+            dt: 0.3,
+            points: 16,
+            state: None,
+            samples: 6,
+            shots: 4_000,
+            seed: 9,
+        },
+    ]
+}
+
+/// The exact `phasewright compile` arguments of a fixture, run inside its folder (so plan.json
+/// records the `.ham` file by its bare name); tests/data/estimate/README.md repeats them.
+fn compile_args(s: &Spec, out: &Path) -> Vec<String> {
+    let measure = match s.kind {
+        Kind::Krylov => "krylov",
+        Kind::Overlap => "overlap",
+        Kind::Trace => "trace",
+    };
+    let mut a: Vec<String> = vec![
+        "compile".into(),
+        s.ham.into(),
+        "--measure".into(),
+        measure.into(),
+        "--dt".into(),
+        s.dt.to_string(),
+        "--points".into(),
+        s.points.to_string(),
+        "--order".into(),
+        "2".into(),
+        "--steps".into(),
+        "1".into(),
+        "--control".into(),
+        "evolution".into(),
     ];
-    specs
+    match s.state {
+        Some(st) => a.extend(["--state".into(), st.into()]),
+        None => a.extend(["--samples".into(), s.samples.to_string()]),
+    }
+    a.extend(["-q".into(), "-o".into(), out.display().to_string()]);
+    a
+}
+
+/// (folder, [(file name, text)]) for every fixture: plan.json and the `.qasm` files exactly as
+/// `phasewright compile` writes them for the `.ham` file in the folder, and counts.json sampled
+/// from the ideal campaign of tests/estimate_support, its bits laid out as the compiled
+/// circuits' reads say (ancilla and system qubits moved to the compiled bits, unmeasured
+/// qubits marginalised away) under the compiled ids.
+fn fixtures() -> Vec<(&'static str, Vec<(String, String)>)> {
+    specs()
         .into_iter()
-        .map(|(name, camp, shots, seed)| {
-            let c = camp.sample(shots, seed);
-            let ids: Vec<&str> = camp.plan.circuits.iter().map(|c| c.id.as_str()).collect();
-            let counts_text = counts::to_json(&ids, &c.circuits, Some(shots));
-            (name, camp.plan.to_json(), counts_text)
+        .map(|s| {
+            let tmp = tempfile::tempdir().unwrap();
+            let out = tmp.path().join("campaign");
+            let run = Command::cargo_bin("phasewright")
+                .unwrap()
+                .current_dir(data_dir(s.name))
+                .args(compile_args(&s, &out))
+                .output()
+                .unwrap();
+            assert!(
+                run.status.success(),
+                "{}: compile failed: {}",
+                s.name,
+                String::from_utf8_lossy(&run.stderr)
+            );
+            let plan_text = std::fs::read_to_string(out.join("plan.json")).unwrap();
+            let plan = phasewright::plan::Plan::from_json(&plan_text).unwrap();
+            // The .ham file in the folder and the model the counts are drawn from agree.
+            let terms: Vec<(String, f64)> =
+                s.h.term_list()
+                    .iter()
+                    .map(|(p, c)| (p.to_factor_text(), *c))
+                    .collect();
+            let compiled: Vec<(String, f64)> = plan
+                .hamiltonian
+                .terms
+                .iter()
+                .map(|t| (t.pauli.clone(), t.coeff))
+                .collect();
+            assert_eq!(terms, compiled, "{}: terms", s.name);
+            assert_eq!(plan.hamiltonian.constant, s.h.constant, "{}", s.name);
+            let states: Vec<&str> = plan.states.iter().map(|x| x.as_str()).collect();
+            let camp = campaign(&s.h, &states, s.kind, s.dt, s.points);
+            let sampled = camp.sample(s.shots, s.seed);
+            let n = s.h.num_qubits;
+            let mut ids = Vec::new();
+            let mut circuits = Vec::new();
+            for (syn, counts) in camp.circuits.iter().zip(&sampled.circuits) {
+                let e = &syn.entry;
+                let c = plan
+                    .circuits
+                    .iter()
+                    .find(|c| (c.k, c.part, c.state, c.group) == (e.k, e.part, e.state, e.group))
+                    .unwrap_or_else(|| panic!("{}: no compiled circuit for {}", s.name, e.id));
+                // Synthetic bit b (qubit b, or the ancilla for b = n) to the compiled bit:
+                // the ancilla to `ancilla_bit`, system qubit q to bit q + 1 (family::hadamard_test),
+                // dropped when the compiled circuit does not measure it.
+                let anc = c.ancilla_bit.unwrap() as usize;
+                let to = |b: usize| {
+                    let nb = if b == n { anc } else { b + 1 };
+                    (nb < c.num_clbits).then_some(nb)
+                };
+                for r in &c.reads {
+                    let twin = e.reads.iter().find(|x| x.target == r.target).unwrap();
+                    let mut mapped: Vec<u32> = twin
+                        .bits
+                        .iter()
+                        .map(|&b| to(b as usize).expect("a read bit is measured") as u32)
+                        .collect();
+                    mapped.sort();
+                    let mut got = r.bits.clone();
+                    got.sort();
+                    assert_eq!(mapped, got, "{}: {} reads {:?}", s.name, c.id, r.target);
+                }
+                assert_eq!(c.reads.len(), e.reads.len(), "{}: {}", s.name, c.id);
+                let mut outcomes = std::collections::BTreeMap::new();
+                for &(mask, shots) in &counts.outcomes {
+                    let moved = (0..=n)
+                        .filter(|&b| (mask >> b) & 1 == 1)
+                        .filter_map(to)
+                        .fold(0u128, |m, nb| m | (1 << nb));
+                    *outcomes.entry(moved).or_insert(0u64) += shots;
+                }
+                ids.push(c.id.clone());
+                circuits.push(counts::CircuitCounts {
+                    num_bits: c.num_clbits,
+                    outcomes: outcomes.into_iter().collect(),
+                });
+            }
+            assert_eq!(ids.len(), plan.circuits.len(), "{}", s.name);
+            let id_refs: Vec<&str> = ids.iter().map(|x| x.as_str()).collect();
+            let mut files = vec![
+                ("plan.json".to_string(), plan_text),
+                (
+                    "counts.json".to_string(),
+                    counts::to_json(&id_refs, &circuits, Some(s.shots)),
+                ),
+            ];
+            for c in &plan.circuits {
+                files.push((
+                    c.file.clone(),
+                    std::fs::read_to_string(out.join(&c.file)).unwrap(),
+                ));
+            }
+            (s.name, files)
         })
         .collect()
 }
@@ -63,15 +224,34 @@ fn fixtures() -> Vec<(&'static str, String, String)> {
 fn fixtures_are_current() {
     let bless = blessing();
     let mut stale = Vec::new();
-    for (name, plan, counts) in fixtures() {
+    for (name, files) in fixtures() {
         let dir = data_dir(name);
+        let mut on_disk_qasm: Vec<String> = std::fs::read_dir(&dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .filter(|f| f.ends_with(".qasm"))
+            .collect();
+        on_disk_qasm.sort();
+        let mut built_qasm: Vec<String> = files
+            .iter()
+            .map(|(f, _)| f.clone())
+            .filter(|f| f.ends_with(".qasm"))
+            .collect();
+        built_qasm.sort();
         if bless {
-            std::fs::create_dir_all(&dir).unwrap();
-            std::fs::write(dir.join("plan.json"), &plan).unwrap();
-            std::fs::write(dir.join("counts.json"), &counts).unwrap();
+            for f in &on_disk_qasm {
+                std::fs::remove_file(dir.join(f)).unwrap();
+            }
+            for (file, text) in &files {
+                std::fs::write(dir.join(file), text).unwrap();
+            }
+        } else if on_disk_qasm != built_qasm {
+            stale.push(format!(
+                "{name}: .qasm files on disk {on_disk_qasm:?}, compile writes {built_qasm:?}"
+            ));
         }
-        for (file, built) in [("plan.json", &plan), ("counts.json", &counts)] {
-            let on_disk = std::fs::read_to_string(dir.join(file)).unwrap();
+        for (file, built) in &files {
+            let on_disk = std::fs::read_to_string(dir.join(file)).unwrap_or_default();
             if on_disk != *built {
                 stale.push(format!(
                     "{name}/{file} is stale:\n{}",
@@ -273,22 +453,22 @@ fn run_with_counts(dir: &str, counts_text: &str) -> (i32, String) {
 fn bad_counts_exit_2_with_a_diagnostic_naming_the_circuit() {
     let good = std::fs::read_to_string(data_dir("overlap_heis4").join("counts.json")).unwrap();
     // Unknown circuit id.
-    let bad = good.replacen("\"k01_im\"", "\"k01_imag\"", 1);
+    let bad = good.replacen("\"k01-im\"", "\"k01-imag\"", 1);
     let (code, err) = run_with_counts("overlap_heis4", &bad);
     assert_eq!(code, 2);
-    assert!(err.contains("unknown circuit `k01_imag`"), "{err}");
+    assert!(err.contains("unknown circuit `k01-imag`"), "{err}");
     assert!(err.contains("counts.json:"), "position missing: {err}");
-    assert!(err.contains("has no counts: `k01_im`"), "{err}");
+    assert!(err.contains("has no counts: `k01-im`"), "{err}");
     // The first bitstring of the first circuit (ids and bitstrings are written sorted).
     let v: serde_json::Value = serde_json::from_str(&good).unwrap();
     let (first_id, first) = v["counts"].as_object().unwrap().iter().next().unwrap();
     let key = first.as_object().unwrap().keys().next().unwrap().clone();
     let pat = format!("\"{key}\": ");
-    // Wrong length.
-    let bad = good.replacen(&pat, &format!("\"{}\": ", &key[1..]), 1);
+    // Wrong length (one bit too many: compile measures only the ancilla of an overlap circuit).
+    let bad = good.replacen(&pat, &format!("\"{key}0\": "), 1);
     let (code, err) = run_with_counts("overlap_heis4", &bad);
     assert_eq!(code, 2);
-    assert!(err.contains("has 4 bits, expected 5"), "{err}");
+    assert!(err.contains("has 2 bits, expected 1"), "{err}");
     assert!(err.contains(&format!("circuit `{first_id}`")), "{err}");
     assert!(err.contains('^'), "caret missing: {err}");
     // Non-JSON.

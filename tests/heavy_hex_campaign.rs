@@ -52,7 +52,11 @@ fn a_120_qubit_chain_on_the_127_qubit_heavy_hexagon_chip_is_native_coupled_and_p
         files += 1;
         let text = std::fs::read_to_string(&path).unwrap();
         let prog = qasm::read(&path.display().to_string(), &text).expect("reads back");
-        assert!(prog.physical, "device files address physical qubits");
+        assert_eq!(
+            prog.addressing,
+            qasm::Addressing::Physical,
+            "device files address physical qubits"
+        );
         for g in &prog.circuit.gates {
             let qs = g.qubits();
             assert!(qs.iter().all(|&q| (q as usize) < dev.num_qubits), "{g:?}");

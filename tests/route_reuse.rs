@@ -44,7 +44,7 @@ fn check_campaign(h: &PauliSum, spec: &Spec, dev: &Device, cfg: &RouteConfig) {
     let mut read_back = Vec::new();
     for (text, entry) in compiled.programs.iter().zip(&compiled.plan.circuits) {
         let p = qasm::read("c.qasm", text).unwrap();
-        assert!(p.physical);
+        assert_eq!(p.addressing, qasm::Addressing::Physical);
         verify_ir(&p.circuit, &rules).unwrap_or_else(|e| panic!("{}: {e}", entry.id));
         read_back.push(p.circuit);
     }

@@ -576,7 +576,9 @@ fn exchange_mutation(h: &PauliSum, c: &Compiled, index: usize, simulate: bool) -
         .find(|&m| !program[j].pauli.commutes_with(&program[m].pauli))
         .expect("a later anticommuting rotation");
     let n = h.num_qubits;
-    let prep = phasewright::family::state_prep(&plan.states[e.state]).unwrap();
+    let prep = phasewright::family::RefState::parse(&plan.states[e.state], h.num_qubits)
+        .unwrap()
+        .prep();
     let ladder = |r: &Rotation| phasewright::synth::default_ladder(r);
     let part = e.part.unwrap();
     // The same program written the textbook way (one ladder per rotation) before and after the

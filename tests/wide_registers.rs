@@ -12,7 +12,7 @@ use num_complex::Complex64;
 use phasewright::check::parity_expectation;
 use phasewright::circuit::verify::{verify_ir, Rules};
 use phasewright::circuit::Circuit;
-use phasewright::family::{state_prep, Spec};
+use phasewright::family::{state_prep, RefState, Spec};
 use phasewright::formula::{evolution, order_terms, Order};
 use phasewright::pauli::{PauliString, PauliSum};
 use phasewright::pipeline::compile;
@@ -42,7 +42,7 @@ fn placed(h: &PauliSum, offset: usize) -> PauliSum {
 
 fn prepared(n: usize, state: &str) -> State {
     let mut s = State::zero(n);
-    for g in state_prep(state).expect("valid letters") {
+    for g in state_prep(&RefState::parse(state, n).expect("valid letters")) {
         s.apply(&g);
     }
     s

@@ -84,7 +84,7 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
         },
         s => (s.to_string(), "given".to_string()),
     };
-    if crate::family::state_prep(&state).is_err() || state.chars().count() != h.num_qubits {
+    if crate::family::RefState::parse(&state, h.num_qubits).is_err() {
         return Err(Error::usage(
             Code::UsageOption,
             format!(

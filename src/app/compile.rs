@@ -8,10 +8,9 @@
 //! [`compile_campaign`] is the library entry point, [`run`] renders it.
 
 use crate::diag::Code;
-use crate::diag::Diagnostic;
 use crate::error::{Error, Result};
 use crate::family::control::{zero_state_check, Control, NotAnEigenstate};
-use crate::family::{random_states, state_prep, Spec};
+use crate::family::{random_states, RefState, Spec};
 use crate::formula::Order;
 use crate::pipeline::{compile_into, Compiled, OptLevel, Target};
 use crate::plan::{Family, Plan};
@@ -224,30 +223,9 @@ fn human_bytes(b: f64) -> String {
 }
 
 fn check_state(state: &str, n: usize) -> Result<()> {
-    if let Err(b) = state_prep(state) {
-        let offset = state.char_indices().nth(b.index).map_or(0, |(i, _)| i);
-        return Err(Error::input(Diagnostic::at(Code::UsageOption,
-            "--state",
-            state,
-            offset,
-            b.letter.len_utf8(),
-            format!("`{}`: {}", b.letter, b.reason),
-            Some("use 0 1 + - r l (|0⟩ |1⟩ |+⟩ |−⟩ |+i⟩ |−i⟩) per qubit, or ss for a singlet on two neighbouring qubits; qubit 0 first".into()),
-        )));
-    }
-    let len = state.chars().count();
-    if len != n {
-        return Err(Error::input(Diagnostic::at(
-            Code::UsageOption,
-            "--state",
-            state,
-            0,
-            state.len(),
-            format!("the state has {len} letters but the Hamiltonian has {n} qubits"),
-            Some(format!("give exactly {n} letters, qubit 0 first")),
-        )));
-    }
-    Ok(())
+    RefState::parse(state, n)
+        .map(|_| ())
+        .map_err(|e| Error::input(e.diagnostic("--state", state)))
 }
 
 /// What `compile` wrote and reports: the plan (as in `DIR/plan.json`), the `--json` document

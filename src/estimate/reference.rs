@@ -32,9 +32,10 @@ pub const EXHAUSTIVE_MAX_QUBITS: usize = 16;
 /// Lanczos iterations (a cap; stops early when the Krylov space closes).
 const LANCZOS_STEPS: usize = 160;
 
-/// `ψ` as a statevector (the gates of `family::state_prep` applied to |0…0⟩).
+/// `ψ` as a statevector (the gates of [`crate::family::RefState::prep`] applied to |0…0⟩);
+/// `None` when `spec` is not a reference state for `n` qubits.
 pub fn state_vector(spec: &str, n: usize) -> Option<State> {
-    let gates = crate::family::state_prep(spec).ok()?;
+    let gates = crate::family::RefState::parse(spec, n).ok()?.prep();
     let mut st = State::zero(n);
     for g in &gates {
         st.apply(g);

@@ -57,6 +57,7 @@
 //! sufficient, not necessary; a Hamiltonian it misses is compiled with the controlled
 //! evolution.
 
+use super::RefState;
 use crate::circuit::{Gate, Qubit};
 use crate::formula::Rotation;
 use crate::pauli::{i_pow, Bits, PauliString};
@@ -173,10 +174,10 @@ pub enum Joins {
 }
 
 /// The controlled preparation `W` of `state` on ancilla `anc` (see the module essay); the
-/// letters are those of [`super::state_prep`], already validated.
-pub fn controlled_prep(state: &str, anc: Qubit, joins: Joins) -> Vec<Gate> {
+/// letters are those of [`RefState::prep`].
+pub fn controlled_prep(state: &RefState, anc: Qubit, joins: Joins) -> Vec<Gate> {
     use std::f64::consts::FRAC_PI_4;
-    let letters: Vec<char> = state.chars().collect();
+    let letters: Vec<char> = state.as_str().chars().collect();
     let mut out = Vec::new();
     // The source: 1 on the |1⟩ branch, 0 on the |0⟩ branch (see the module essay).
     let mut src = anc;
@@ -286,11 +287,11 @@ pub const FANOUT_MAX_QUBITS: usize = 512;
 /// coupled, so the exact tree never costs more than it. `W` holds the ancilla only as the
 /// control of `cx(anc, q)`, so [`uncontrolled`] gives `V` as for every other preparation.
 pub fn fanout_prep(
-    state: &str,
+    state: &RefState,
     anc: Qubit,
     adjacent: &dyn Fn(Qubit, Qubit) -> bool,
 ) -> Option<Vec<Gate>> {
-    let letters: Vec<char> = state.chars().collect();
+    let letters: Vec<char> = state.as_str().chars().collect();
     if letters.iter().any(|&c| c != '0' && c != '1') {
         return None;
     }
@@ -520,7 +521,7 @@ pub fn inverse(w: &[Gate]) -> Vec<Gate> {
 
 /// The system qubits `W` for `state` couples to the ancilla `anc` directly (the ones the
 /// ancilla must reach on a device).
-pub fn ancilla_partners(state: &str, anc: Qubit) -> Vec<usize> {
+pub fn ancilla_partners(state: &RefState, anc: Qubit) -> Vec<usize> {
     let mut out: Vec<usize> = controlled_prep(state, anc, Joins::Direct)
         .iter()
         .filter_map(|g| match *g {
@@ -534,8 +535,8 @@ pub fn ancilla_partners(state: &str, anc: Qubit) -> Vec<usize> {
 }
 
 /// Two-qubit gates of `W` (the same for `W†`): one per set bit of a basis state.
-pub fn prep_two_qubit(state: &str) -> usize {
-    controlled_prep(state, state.chars().count() as Qubit, Joins::Direct)
+pub fn prep_two_qubit(state: &RefState) -> usize {
+    controlled_prep(state, state.num_qubits() as Qubit, Joins::Direct)
         .iter()
         .filter(|g| g.is_two_qubit())
         .count()
@@ -546,6 +547,11 @@ mod tests {
     use super::*;
     use crate::circuit::Circuit;
     use crate::family::state_prep;
+
+    /// A test state, checked against its own length.
+    fn rs(s: &str) -> RefState {
+        RefState::parse(s, s.chars().count()).unwrap()
+    }
     use crate::pauli::PauliSum;
     use crate::sim::{run, State};
 
@@ -564,7 +570,7 @@ mod tests {
         {
             let n = state.len();
             let anc = n as Qubit;
-            let w = controlled_prep(state, anc, joins);
+            let w = controlled_prep(&rs(state), anc, joins);
             let mut c = Circuit::new(n + 1, 0);
             c.extend(w.clone());
             // anc = 0: |0…0⟩ stays exactly.
@@ -578,7 +584,7 @@ mod tests {
             s.apply(&Gate::X(anc));
             let out = run(&c, s);
             let mut want = State::zero(n + 1);
-            for g in state_prep(state).unwrap() {
+            for g in state_prep(&rs(state)) {
                 want.apply(&g);
             }
             want.apply(&Gate::X(anc));
@@ -648,7 +654,7 @@ mod tests {
                 (0..a).map(|i| 7 - i).sum::<usize>() + (b - a - 1)
             };
             let adj = |a: Qubit, b: Qubit| a != b && edges[idx(a as usize, b as usize)];
-            let got = fanout_prep(&state, n as Qubit, &adj);
+            let got = fanout_prep(&rs(&state), n as Qubit, &adj);
             let want = brute_force_cost(&state, &adj);
             proptest::prop_assert_eq!(got.is_some(), want.is_some());
             let Some(w) = got else { return Ok(()) };
@@ -668,7 +674,7 @@ mod tests {
             s.apply(&Gate::X(anc));
             let out = run(&c, s);
             let mut want = State::zero(n + 1);
-            for g in state_prep(&state).unwrap() {
+            for g in state_prep(&rs(&state)) {
                 want.apply(&g);
             }
             want.apply(&Gate::X(anc));
@@ -695,7 +701,7 @@ mod tests {
             let (x, y) = (site(a), site(b));
             (x.0 - y.0).abs() + (x.1 - y.1).abs() == 1
         };
-        let w = fanout_prep(state, anc, &adj).unwrap();
+        let w = fanout_prep(&rs(state), anc, &adj).unwrap();
         let cost = w.iter().filter(|g| g.is_two_qubit()).count();
         assert_eq!(Some(cost), brute_force_cost(state, &adj));
         // 6 set bits and relays at columns 1 and 3 (one qubit each): 6 + 2·2 = 10 < 14.
@@ -704,10 +710,10 @@ mod tests {
 
     #[test]
     fn basis_states_cost_one_cnot_per_set_bit() {
-        assert_eq!(prep_two_qubit("0110100"), 3);
-        assert_eq!(prep_two_qubit("0000"), 0);
+        assert_eq!(prep_two_qubit(&rs("0110100")), 3);
+        assert_eq!(prep_two_qubit(&rs("0000")), 0);
         // Joined through the zero in between: 1 + 1 + (2·1 + 1) CNOTs, index neighbours only.
-        let w = controlled_prep("0110100", 7, Joins::Neighbours);
+        let w = controlled_prep(&rs("0110100"), 7, Joins::Neighbours);
         assert_eq!(w.iter().filter(|g| g.is_two_qubit()).count(), 5);
         assert!(w.iter().all(|g| match *g {
             Gate::Cx(a, b) => a == 7 || a.abs_diff(b) == 1,

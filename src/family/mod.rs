@@ -20,6 +20,7 @@
 //! is always measured into bit 0.
 
 pub mod control;
+pub mod state;
 
 use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::{Circuit, Gate, Qubit};
@@ -30,6 +31,7 @@ use crate::plan::{Family, Part, Read, Target};
 use control::Control;
 use rand::Rng;
 use rand::SeedableRng;
+pub use state::{RefState, StateError};
 
 /// What to build.
 #[derive(Clone, Debug)]
@@ -43,10 +45,25 @@ pub struct Spec {
     /// Trotter steps per `dt`.
     pub steps_per_dt: usize,
     /// Reference states (`0 1 + - r l`, qubit 0 first): one for overlap/krylov, N for trace.
+    /// Kept as text, as callers type them; [`Spec::ref_states`] checks them into [`RefState`]s,
+    /// which is what the builders use (`pipeline::compile_at` refuses a spec whose states do
+    /// not check, before building anything).
     pub states: Vec<String>,
     /// Whether the ancilla controls the evolution or only the state preparation (the caller
     /// has checked with [`control::zero_state_check`] that `Prep` is exact).
     pub control: Control,
+}
+
+impl Spec {
+    /// The states checked against `qubits` ([`RefState::parse`]), in order; the first bad one
+    /// is reported with its index.
+    pub fn ref_states(&self, qubits: usize) -> Result<Vec<RefState>, (usize, StateError)> {
+        self.states
+            .iter()
+            .enumerate()
+            .map(|(i, s)| RefState::parse(s, qubits).map_err(|e| (i, e)))
+            .collect()
+    }
 }
 
 /// One circuit to emit.
@@ -64,55 +81,9 @@ pub struct Job {
     pub circuit: Circuit,
 }
 
-/// A reference-state letter that is not one of `0 1 + - r l s`, or an unpaired `s`, at this
-/// character index.
-#[derive(Clone, Debug, PartialEq)]
-pub struct BadStateLetter {
-    pub index: usize,
-    pub letter: char,
-    pub reason: &'static str,
-}
-
-/// Gates preparing a reference state from |0…0⟩. Per qubit, a Pauli eigenstate:
-/// `0` → |0⟩, `1` → X, `+` → H, `-` → X·H, `r` → S·H (|+i⟩), `l` → S†·H (|−i⟩); and `ss` on
-/// qubits (i, i+1) → the singlet `(|01⟩ − |10⟩)/√2`, by H, Z on i, CNOT i→i+1, X on i+1
-/// (H|0⟩ = |+⟩, Z|+⟩ = |−⟩, the CNOT gives `(|00⟩ − |11⟩)/√2`, X on the second qubit the
-/// singlet). Singlet pairs (dimers) are the usual low-energy references for antiferromagnets.
-pub fn state_prep(state: &str) -> Result<Vec<Gate>, BadStateLetter> {
-    let mut out = Vec::new();
-    let letters: Vec<char> = state.chars().collect();
-    let mut i = 0;
-    while i < letters.len() {
-        let q = i as Qubit;
-        match letters[i] {
-            '0' => {}
-            '1' => out.push(Gate::X(q)),
-            '+' => out.push(Gate::H(q)),
-            '-' => out.extend([Gate::X(q), Gate::H(q)]),
-            'r' => out.extend([Gate::H(q), Gate::S(q)]),
-            'l' => out.extend([Gate::H(q), Gate::Sdg(q)]),
-            's' if letters.get(i + 1) == Some(&'s') => {
-                out.extend([Gate::H(q), Gate::Z(q), Gate::Cx(q, q + 1), Gate::X(q + 1)]);
-                i += 1;
-            }
-            's' => {
-                return Err(BadStateLetter {
-                    index: i,
-                    letter: 's',
-                    reason: "a singlet `ss` needs two neighbouring letters",
-                })
-            }
-            letter => {
-                return Err(BadStateLetter {
-                    index: i,
-                    letter,
-                    reason: "not a reference-state letter",
-                })
-            }
-        }
-        i += 1;
-    }
-    Ok(out)
+/// Gates preparing a reference state from |0…0⟩ ([`RefState::prep`]).
+pub fn state_prep(state: &RefState) -> Vec<Gate> {
+    state.prep()
 }
 
 /// Draws `count` random product states, each qubit one of the six Pauli eigenstates, from `seed`.
@@ -164,27 +135,19 @@ pub fn hadamard_test(
 /// `zero_phase(program)` of |0…0⟩ is removed on the ancilla ([`control`]).
 pub fn hadamard_test_in(
     n: usize,
-    state: &str,
+    state: &RefState,
     program: &[Rotation],
     part: Part,
     basis: Option<&PauliString>,
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     form: control::Form,
-) -> Result<Circuit, BadStateLetter> {
-    let prep = state_prep(state)?;
+) -> Circuit {
     let joins = form.joins;
     if form.control == Control::Evolution {
-        return Ok(hadamard_test(n, &prep, program, part, basis, ladder));
+        return hadamard_test(n, &state.prep(), program, part, basis, ladder);
     }
     let w = control::controlled_prep(state, n as Qubit, joins);
-    Ok(prep_hadamard_test(
-        n,
-        program,
-        part,
-        basis,
-        ladder,
-        (&w, &w),
-    ))
+    prep_hadamard_test(n, program, part, basis, ladder, (&w, &w))
 }
 
 /// The control-free Hadamard test with its controlled preparations given: `w.0` before the
@@ -214,7 +177,7 @@ pub fn prep_hadamard_test(
 /// to |+⟩, the phase `e^{−iφ₀}` of |0…0⟩ removed from its |1⟩ branch in advance
 /// (`rz(−φ₀)`, which multiplies |1⟩ by `e^{−iφ₀}` relative to |0⟩), and the controlled
 /// preparation of `state` ([`control::controlled_prep`]).
-pub fn prep_prefix(n: usize, state: &str, phi0_rad: f64, joins: control::Joins) -> Vec<Gate> {
+pub fn prep_prefix(n: usize, state: &RefState, phi0_rad: f64, joins: control::Joins) -> Vec<Gate> {
     let w = control::controlled_prep(state, n as Qubit, joins);
     prep_prefix_with(n, phi0_rad, &w)
 }
@@ -239,7 +202,7 @@ pub fn prep_prefix_with(n: usize, phi0_rad: f64, w: &[Gate]) -> Vec<Gate> {
 /// branches (which brings the |0⟩ branch to |ψ⟩), then [`hadamard_suffix`].
 pub fn prep_suffix(
     n: usize,
-    state: &str,
+    state: &RefState,
     part: Part,
     basis: Option<&PauliString>,
     joins: control::Joins,
@@ -386,7 +349,7 @@ pub fn frames(h: &PauliSum, spec: &Spec) -> Vec<Frame> {
 /// [`frames`] with the given joins of the controlled preparations (`Neighbours` on a device).
 pub fn frames_with(h: &PauliSum, spec: &Spec, joins: control::Joins) -> Vec<Frame> {
     let anc = h.num_qubits as Qubit;
-    frames_by(h, spec, &|state: &str, _: PrepAt| {
+    frames_by(h, spec, &|state: &RefState, _: PrepAt| {
         control::controlled_prep(state, anc, joins)
     })
 }
@@ -405,12 +368,15 @@ pub enum PrepAt {
 pub fn frames_by(
     h: &PauliSum,
     spec: &Spec,
-    controlled: &(dyn Fn(&str, PrepAt) -> Vec<Gate> + Sync),
+    controlled: &(dyn Fn(&RefState, PrepAt) -> Vec<Gate> + Sync),
 ) -> Vec<Frame> {
     use rayon::prelude::*;
     let n = h.num_qubits;
+    let states = spec
+        .ref_states(n)
+        .expect("states are checked before building (pipeline::compile_at)");
     if spec.family == Family::Evolution {
-        return evolution_frames(n, spec);
+        return evolution_frames(n, spec, &states);
     }
     let phi_step = step_zero_phase(h, spec);
     let strings: Vec<PauliString> = h.terms.keys().cloned().collect();
@@ -463,8 +429,8 @@ pub fn frames_by(
     descs
         .into_par_iter()
         .map(|d| {
-            let state = &spec.states[d.state];
-            let prep = state_prep(state).expect("states are validated before building");
+            let state = &states[d.state];
+            let prep = state.prep();
             let (basis, reads) = match d.group {
                 None => (
                     None,
@@ -525,10 +491,10 @@ pub fn frames_by(
 /// Plain time-evolution circuits ([`Family::Evolution`]): for every k = 0..K and state, the
 /// state preparation, `U(k·dt)` (uncontrolled; filled in by the target) and a measurement of
 /// every system qubit q into bit q. No ancilla.
-fn evolution_frames(n: usize, spec: &Spec) -> Vec<Frame> {
+fn evolution_frames(n: usize, spec: &Spec, states: &[RefState]) -> Vec<Frame> {
     let mut out = Vec::new();
     for k in 0..spec.points {
-        for (s, state) in spec.states.iter().enumerate() {
+        for (s, state) in states.iter().enumerate() {
             let tag = if spec.states.len() > 1 {
                 format!("s{s:03}-")
             } else {
@@ -544,7 +510,7 @@ fn evolution_frames(n: usize, spec: &Spec) -> Vec<Frame> {
                 reads: Vec::new(),
                 num_qubits: n,
                 num_clbits: n,
-                prefix: state_prep(state).expect("states are validated before building"),
+                prefix: state.prep(),
                 suffix: (0..n)
                     .map(|q| Gate::Measure(q as Qubit, q as u32))
                     .collect(),

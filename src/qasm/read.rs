@@ -7,6 +7,7 @@
 use crate::circuit::{Circuit, Gate};
 use crate::diag::{Code, Diagnostic};
 use crate::lang::syntax_error::Res;
+use crate::qasm::Addressing;
 use nom::branch::alt;
 use nom::bytes::complete::tag;
 use nom::character::complete::{char, digit1, multispace0};
@@ -15,12 +16,14 @@ use nom::multi::separated_list1;
 use nom::number::complete::double;
 use nom::sequence::{delimited, pair, preceded, tuple};
 
-/// A parsed program: the circuit, whether it addressed hardware qubits (`$k`), and where each
-/// gate's statement sits in the source.
+/// A parsed program: the circuit, how it addressed its qubits (hardware qubits `$k` or a
+/// `qubit[n] q;` register), and where each gate's statement sits in the source.
 #[derive(Clone, Debug, PartialEq)]
 pub struct QasmProgram {
     pub circuit: Circuit,
-    pub physical: bool,
+    /// [`Addressing::Physical`] for `$k`; [`Addressing::Logical`] for a register (and for a
+    /// program that names no qubit).
+    pub addressing: Addressing,
     /// `spans[i]` = (byte offset, byte length without the `;`) of the statement of
     /// `circuit.gates[i]` (measurements included), for diagnostics that point at a gate.
     pub spans: Vec<(usize, usize)>,
@@ -356,15 +359,19 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
             None,
         ));
     }
-    let physical = physical.unwrap_or(false);
-    c.num_qubits = if physical {
+    let addressing = if physical.unwrap_or(false) {
+        Addressing::Physical
+    } else {
+        Addressing::Logical
+    };
+    c.num_qubits = if addressing == Addressing::Physical {
         max_hw as usize
     } else {
         declared_qubits.unwrap_or(0) as usize
     };
     Ok(QasmProgram {
         circuit: c,
-        physical,
+        addressing,
         spans,
     })
 }
@@ -372,7 +379,7 @@ pub fn read(file: &str, src: &str) -> Result<QasmProgram, Diagnostic> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::qasm::{write, Addressing};
+    use crate::qasm::write;
 
     #[test]
     fn write_then_read_is_the_identity() {
@@ -392,7 +399,7 @@ mod tests {
             let text = write(&c, a, &["a comment".into()]);
             let back = read("t.qasm", &text).unwrap();
             assert_eq!(back.circuit, c);
-            assert_eq!(back.physical, a == Addressing::Physical);
+            assert_eq!(back.addressing, a);
             // Every gate has the span of its own statement.
             assert_eq!(back.spans.len(), c.gates.len());
             for ((off, len), g) in back.spans.iter().zip(&c.gates) {

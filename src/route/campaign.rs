@@ -35,7 +35,7 @@
 //! interiors' text; depth, duration and success probability by one pass over the gates with
 //! the calibration in tables ([`crate::device::CostModel`]).
 
-use super::reuse::{permutation_swaps, RoutedStep};
+use super::reuse::{permutation_swaps, Formula, RoutedStep};
 use super::swap::{insert_swaps, SwapParams};
 use super::{plan_swap_params, RouteConfig, Routed, TargetPlan};
 use crate::circuit::verify::{verify_ir, IrError, Rules};
@@ -211,7 +211,7 @@ impl<'a> DeviceCampaign<'a> {
             || self.block(&self.step.cores[1]),
         );
         let blocks = [a?, b?];
-        let pairs: &[(usize, usize)] = if self.step.symmetric {
+        let pairs: &[(usize, usize)] = if self.step.formula == Formula::Symmetric {
             &[(0, 1), (1, 0)]
         } else {
             &[(0, 1), (1, 1)]

@@ -127,6 +127,10 @@ impl Ancilla {
 }
 
 /// Knobs of layout search and SWAP insertion. Same config and inputs, same output.
+///
+/// The `bool` fields (`cancel`, `sweep`, `embed`, `pairs`, `cat`, …) stay `bool`s rather than
+/// two-way enums because each is an independent on/off switch of one pass or candidate, and
+/// the `--opt` level (`pipeline::OptLevel`) picks which are on.
 #[derive(Clone, Debug)]
 pub struct RouteConfig {
     pub seed: u64,

@@ -454,14 +454,15 @@ pub struct RoutedStep {
     pub tails: [Circuit; 2],
     /// `ends[b]`: the layout after `tails[b]`.
     pub ends: [Vec<u32>; 2],
-    /// Mirror alternation (orders 2, 4) rather than SWAPs home (order 1).
-    pub symmetric: bool,
+    /// Mirror alternation ([`Formula::Symmetric`], orders 2, 4) or the SWAPs home
+    /// ([`Formula::OneSided`], order 1).
+    pub formula: Formula,
 }
 
 impl RoutedStep {
     /// Which core implements step `i` (counting from 0).
     pub fn core_index(&self, i: usize) -> usize {
-        if i == 0 || (self.symmetric && i.is_multiple_of(2)) {
+        if i == 0 || (self.formula == Formula::Symmetric && i.is_multiple_of(2)) {
             0
         } else {
             1
@@ -586,7 +587,7 @@ pub fn unsplit(
         joins: [[empty(), empty()], [empty(), empty()]],
         tails: [empty(), empty()],
         ends,
-        symmetric,
+        formula,
     }
 }
 
@@ -604,7 +605,6 @@ pub fn route_from(
     params: &SwapParams,
     formula: Formula,
 ) -> RoutedStep {
-    let symmetric = formula == Formula::Symmetric;
     let n_phys = dev.num_qubits;
     let start = plan.initial_layout[..fwd.final_layout.len()].to_vec();
     let empty = || Circuit::new(n_phys, 0);
@@ -637,7 +637,7 @@ pub fn route_from(
         tails: [trail, mirror(&lead)],
         ends: [fwd.final_layout, start.clone()],
         start,
-        symmetric,
+        formula,
     }
 }
 

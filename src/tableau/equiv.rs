@@ -36,7 +36,9 @@ use super::normal::{self, DiffKind};
 use super::{canonicalise_into, canonicalise_turning, Tableau, Tail};
 use crate::circuit::{Circuit, Qubit};
 use crate::family::control::Control;
-use crate::family::{group_reads, hadamard_test_in, krylov_groups, prep_hadamard_test, state_prep};
+use crate::family::{
+    group_reads, hadamard_test_in, krylov_groups, prep_hadamard_test, RefState, StateError,
+};
 use crate::formula::{evolution, order_terms, Order};
 use crate::pauli::PauliString;
 use crate::plan::{CircuitEntry, Family, FanOut, Plan, Read, Target};
@@ -156,8 +158,6 @@ pub enum ClaimError {
     FanOutOutside { id: String, qubits: u32 },
     /// The recorded fan-out does not prepare the reference `state` on the ancilla's |1⟩ branch.
     FanOutState { id: String, state: String },
-    /// The Hadamard test refuses a letter of the reference state.
-    BadLetter { id: String, letter: char },
 }
 
 impl std::fmt::Display for ClaimError {
@@ -224,7 +224,6 @@ impl std::fmt::Display for ClaimError {
                 "{id}: the fan-out does not prepare the reference `{state}` on the ancilla's \
                  |1⟩ branch"
             ),
-            ClaimError::BadLetter { id, letter } => write!(f, "{id}: bad state letter `{letter}`"),
         }
     }
 }
@@ -323,19 +322,25 @@ impl Claim {
                 state: e.state,
                 states: self.states.len(),
             })?;
-        state_prep(state).map_err(|b| ClaimError::StateLetter {
-            id: e.id.clone(),
-            letter: b.letter,
-            index: b.index,
-            reason: b.reason,
-        })?;
-        if state.chars().count() != self.n {
-            return Err(ClaimError::StateLength {
+        let state = RefState::parse(state, self.n).map_err(|b| match b {
+            StateError::Letter {
+                index,
+                letter,
+                reason,
+                ..
+            } => ClaimError::StateLetter {
                 id: e.id.clone(),
-                letters: state.chars().count(),
-                qubits: self.n,
-            });
-        }
+                letter,
+                index,
+                reason,
+            },
+            StateError::Length { letters, qubits } => ClaimError::StateLength {
+                id: e.id.clone(),
+                letters,
+                qubits,
+            },
+        })?;
+        let state = &state;
         let program = evolution(
             &self.terms,
             self.order,
@@ -395,13 +400,13 @@ impl Claim {
                 for &[a, b] in cnots {
                     bits[b as usize] ^= bits[a as usize];
                 }
-                let want = state.chars().map(|c| c == '1');
+                let want = state.as_str().chars().map(|c| c == '1');
                 if !bits[..self.n].iter().copied().eq(want)
-                    || state.chars().any(|c| c != '0' && c != '1')
+                    || state.as_str().chars().any(|c| c != '0' && c != '1')
                 {
                     return Err(ClaimError::FanOutState {
                         id: e.id.clone(),
-                        state: state.clone(),
+                        state: state.to_string(),
                     });
                 }
             }
@@ -432,11 +437,7 @@ impl Claim {
                     crate::family::control::Joins::Direct
                 },
             },
-        )
-        .map_err(|b| ClaimError::BadLetter {
-            id: e.id.clone(),
-            letter: b.letter,
-        })?;
+        );
         Ok((c, reads))
     }
 
