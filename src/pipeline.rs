@@ -634,6 +634,9 @@ enum ProgramOrder {
     Formula,
     /// The same product reordered so that neighbours share (`route::sweep::schedule_by_agreement`).
     Agreeing,
+    /// Each commuting run in layers of rotations on disjoint qubits, for depth
+    /// (`route::sweep::schedule_in_layers`).
+    Layered,
 }
 
 /// The circuits of one time point on the all-to-all target, the candidates they kept, and the
@@ -1050,6 +1053,16 @@ pub fn compile_into(
             } else {
                 vec![None; programs.len()]
             };
+            // And in layers of rotations on disjoint qubits, which can only lower the depth
+            // (`route::sweep::schedule_in_layers`).
+            let layered: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
+                programs
+                    .par_iter()
+                    .map(|p| crate::route::sweep::schedule_in_layers(p))
+                    .collect()
+            } else {
+                vec![None; programs.len()]
+            };
             // Programs with hopping pairs also try `synth::Pairs` at level 3.
             let paired: Vec<bool> = if level >= OptLevel(3) {
                 programs
@@ -1108,6 +1121,9 @@ pub fn compile_into(
                     if agreeing[k].is_some() {
                         c.push((ProgramOrder::Agreeing, Synthesis::Sharing));
                     }
+                    if layered[k].is_some() {
+                        c.push((ProgramOrder::Layered, Synthesis::Chain));
+                    }
                     if grouped[k] {
                         c.push((ProgramOrder::Formula, Synthesis::Groups));
                         if agreeing[k].is_some() {
@@ -1121,6 +1137,7 @@ pub fn compile_into(
                 match order {
                     ProgramOrder::Formula => &programs[k],
                     ProgramOrder::Agreeing => agreeing[k].as_deref().unwrap_or_default(),
+                    ProgramOrder::Layered => layered[k].as_deref().unwrap_or_default(),
                 }
             };
             // The candidates of time point k, only those in `only` when given (the chain always
