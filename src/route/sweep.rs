@@ -398,28 +398,22 @@ mod tests {
             for q in 0..5 {
                 a.apply(&crate::circuit::Gate::U(q, 0.3 + q as f64, 0.2, 0.9));
             }
-            let mut b = a.clone();
-            apply(&program, &mut a);
-            apply(&s.rotations, &mut b);
-            let err = a
-                .amps
-                .iter()
-                .zip(&b.amps)
-                .map(|(x, y)| (x - y).norm())
-                .fold(0.0, f64::max);
+            // The largest amplitude difference between the two orders applied to `a`.
+            let gap = |x: &[Rotation], y: &[Rotation]| {
+                let (mut u, mut v) = (a.clone(), a.clone());
+                apply(x, &mut u);
+                apply(y, &mut v);
+                u.amps
+                    .iter()
+                    .zip(&v.amps)
+                    .map(|(p, q)| (p - q).norm())
+                    .fold(0.0, f64::max)
+            };
+            let err = gap(&program, &s.rotations);
             assert!(err < 1e-12, "{err}");
             // The all-to-all order by agreement is a topological order too: same product.
             let agreeing = schedule_by_agreement(&program).unwrap();
-            let mut c = a.clone();
-            let mut d = a.clone();
-            apply(&agreeing, &mut c);
-            apply(&program, &mut d);
-            let err2 = c
-                .amps
-                .iter()
-                .zip(&d.amps)
-                .map(|(x, y)| (x - y).norm())
-                .fold(0.0, f64::max);
+            let err2 = gap(&agreeing, &program);
             assert!(err2 < 1e-12, "{err2}");
             for (r, root) in s.rotations.iter().zip(&s.roots) {
                 assert_ne!(
@@ -431,16 +425,7 @@ mod tests {
             // The layered order is a permutation inside commuting runs: same product.
             if let Some(layered) = schedule_in_layers(&program) {
                 assert_eq!(layered.len(), program.len());
-                let mut e = a.clone();
-                let mut f = a.clone();
-                apply(&layered, &mut e);
-                apply(&program, &mut f);
-                let err3 = e
-                    .amps
-                    .iter()
-                    .zip(&f.amps)
-                    .map(|(x, y)| (x - y).norm())
-                    .fold(0.0, f64::max);
+                let err3 = gap(&layered, &program);
                 assert!(err3 < 1e-12, "{err3}");
             }
         }
