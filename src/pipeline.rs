@@ -639,6 +639,20 @@ enum ProgramOrder {
     Layered,
 }
 
+/// `f` of every program (in parallel) when `on`, else `off` for each.
+fn per_program<T: Send + Clone>(
+    programs: &[Vec<Rotation>],
+    on: bool,
+    off: T,
+    f: impl Fn(&[Rotation]) -> T + Sync + Send,
+) -> Vec<T> {
+    if on {
+        programs.par_iter().map(|p| f(p)).collect()
+    } else {
+        vec![off; programs.len()]
+    }
+}
+
 /// The circuits of one time point on the all-to-all target, the candidates they kept, and the
 /// most two-qubit gates among them.
 struct PointBuilt {
@@ -1045,42 +1059,24 @@ pub fn compile_into(
             // Level 3 also tries each program in the order that lets neighbours share
             // (`route::sweep::schedule_by_agreement`: the same product exactly).
             let scans = Instant::now();
-            let agreeing: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
-                programs
-                    .par_iter()
-                    .map(|p| crate::route::sweep::schedule_by_agreement(p))
-                    .collect()
-            } else {
-                vec![None; programs.len()]
-            };
-            // And in layers of rotations on disjoint qubits, which can only lower the depth
-            // (`route::sweep::schedule_in_layers`).
-            let layered: Vec<Option<Vec<Rotation>>> = if level >= OptLevel(3) {
-                programs
-                    .par_iter()
-                    .map(|p| crate::route::sweep::schedule_in_layers(p))
-                    .collect()
-            } else {
-                vec![None; programs.len()]
-            };
+            let level3 = level >= OptLevel(3);
+            let agreeing = per_program(&programs, level3, None, |p| {
+                crate::route::sweep::schedule_by_agreement(p)
+            });
+            // And in layers of rotations on disjoint qubits, for depth
+            // (`route::sweep::schedule_in_layers`; kept where no other candidate emits fewer
+            // two-qubit gates or as many, less deep).
+            let layered = per_program(&programs, level3, None, |p| {
+                crate::route::sweep::schedule_in_layers(p)
+            });
             // Programs with hopping pairs also try `synth::Pairs` at level 3.
-            let paired: Vec<bool> = if level >= OptLevel(3) {
-                programs
-                    .par_iter()
-                    .map(|p| crate::synth::has_hopping_pairs(p))
-                    .collect()
-            } else {
-                vec![false; programs.len()]
-            };
+            let paired = per_program(&programs, level3, false, |p| {
+                crate::synth::has_hopping_pairs(p)
+            });
             // Programs whose commuting runs share qubits also try `synth::Groups` at level 3.
-            let grouped: Vec<bool> = if level >= OptLevel(3) {
-                programs
-                    .par_iter()
-                    .map(|p| crate::synth::groups::has_shared_runs(p))
-                    .collect()
-            } else {
-                vec![false; programs.len()]
-            };
+            let grouped = per_program(&programs, level3, false, |p| {
+                crate::synth::groups::has_shared_runs(p)
+            });
             clock::add(Stage::Scans, scans);
             // The circuits of one time point with the same preparation (the real and the
             // imaginary part of one Hadamard test, say) run the same gates up to their readout:

@@ -462,31 +462,19 @@ mod tests {
         // swap · u · cx on the pair after it.
         for names in [vec!["rz", "sx", "x", "cx"], vec!["rz", "sx", "x", "cz"]] {
             let native = NativeSet::from_names(&names).unwrap();
+            // The ancilla's last `cx` on 1, then the next rotation's basis change on 1.
+            let head = [Gate::Cx(2, 1), Gate::Rz(1, 0.3), Gate::H(1), Gate::Sx(2)];
             let mut c = Circuit::new(3, 1);
-            c.extend([
-                Gate::Cx(2, 1),
-                Gate::Rz(1, 0.3),
-                Gate::H(1),
-                Gate::Sx(2),
-                Gate::Cx(0, 2),
-                Gate::Swap(1, 2),
-                Gate::Ry(0, 0.2),
-            ]);
+            c.extend(head);
+            c.extend([Gate::Cx(0, 2), Gate::Swap(1, 2), Gate::Ry(0, 0.2)]);
             let low = lower_to_native(&c, &native);
             assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
             // cx(0,2) sits between: nothing slides, 1 + 1 + 3.
             let count = |c: &Circuit| c.gates.iter().filter(|g| g.is_two_qubit()).count();
             assert_eq!(count(&low), 5, "{names:?}");
             let mut c = Circuit::new(3, 1);
-            c.extend([
-                Gate::Cx(2, 1),
-                Gate::Rz(1, 0.3),
-                Gate::H(1),
-                Gate::Sx(2),
-                Gate::Swap(1, 2),
-                Gate::Ry(0, 0.2),
-                Gate::Measure(2, 0),
-            ]);
+            c.extend(head);
+            c.extend([Gate::Swap(1, 2), Gate::Ry(0, 0.2), Gate::Measure(2, 0)]);
             let low = lower_to_native(&c, &native);
             assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
             assert_eq!(count(&low), 2, "{names:?}");
