@@ -567,6 +567,29 @@ mod tests {
     use crate::circuit::verify::{verify_ir, Rules};
     use crate::sim::unitary_distance;
 
+    fn two_qubit_count(c: &Circuit) -> usize {
+        c.gates.iter().filter(|g| g.is_two_qubit()).count()
+    }
+
+    /// `len` gates on 4 qubits, each drawn by `pick` from a seeded generator and a random
+    /// ordered pair of distinct qubits.
+    fn random_circuit(
+        seed: u64,
+        len: usize,
+        pick: impl Fn(&mut rand_chacha::ChaCha8Rng, Qubit, Qubit) -> Gate,
+    ) -> Circuit {
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let mut c = Circuit::new(4, 0);
+        for _ in 0..len {
+            let a = rng.gen_range(0..4u32);
+            let b = (a + rng.gen_range(1..4u32)) % 4;
+            let g = pick(&mut rng, a, b);
+            c.push(g);
+        }
+        c
+    }
+
     fn sample() -> Circuit {
         let mut c = Circuit::new(3, 0);
         c.extend([
@@ -642,7 +665,7 @@ mod tests {
             let low = lower_to_native(&c, &native);
             assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
             // cx(0,2) sits between: nothing slides, 1 + 1 + 3.
-            let count = |c: &Circuit| c.gates.iter().filter(|g| g.is_two_qubit()).count();
+            let count = two_qubit_count;
             assert_eq!(count(&low), 5, "{names:?}");
             let mut c = Circuit::new(3, 1);
             c.extend(head);
@@ -668,22 +691,16 @@ mod tests {
     fn sliding_keeps_the_unitary_of_random_circuits() {
         // Random circuits of one-qubit gates, CNOTs and swaps on 4 qubits: the slide only
         // relocates gates, so the unitary is kept (to 1e-12), before and after lowering.
-        use rand::{Rng, SeedableRng};
+        use rand::Rng;
         let native = NativeSet::rz_sx_x_cx();
         for seed in 0..2000u64 {
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
-            let mut c = Circuit::new(4, 0);
-            for _ in 0..30 {
-                let a = rng.gen_range(0..4u32);
-                let b = (a + rng.gen_range(1..4u32)) % 4;
-                c.push(match rng.gen_range(0..5) {
-                    0 => Gate::Cx(a, b),
-                    1 => Gate::Swap(a, b),
-                    2 => Gate::H(a),
-                    3 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
-                    _ => Gate::Sx(a),
-                });
-            }
+            let c = random_circuit(seed, 30, |rng, a, b| match rng.gen_range(0..5) {
+                0 => Gate::Cx(a, b),
+                1 => Gate::Swap(a, b),
+                2 => Gate::H(a),
+                3 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
+                _ => Gate::Sx(a),
+            });
             let slid = slide_through_swaps(&c);
             assert!(unitary_distance(&c, &slid) < 1e-12, "seed {seed}");
             let low = lower_to_native(&c, &native);
@@ -703,7 +720,7 @@ mod tests {
         use crate::pauli::PauliString;
         use crate::route::swap::{insert_swaps, SwapParams};
         use rand::{Rng, SeedableRng};
-        let count = |c: &Circuit| c.gates.iter().filter(|g| g.is_two_qubit()).count();
+        let count = two_qubit_count;
         let devices = [
             Device::new(
                 "l",
@@ -789,7 +806,7 @@ mod tests {
 
     #[test]
     fn commuting_cnots_cancel_through_what_commutes_with_them() {
-        let count = |c: &Circuit| c.gates.iter().filter(|g| g.is_two_qubit()).count();
+        let count = two_qubit_count;
         // Shared target, shared control, a diagonal run on the control, an X-type run on the
         // target: each pair of cx(0,1) goes. cx(a,b)·cx(c,b) = cx(c,b)·cx(a,b) and
         // cx(a,b)·cx(a,c) = cx(a,c)·cx(a,b) (e.g. Nielsen & Chuang, "Quantum Computation and
@@ -864,7 +881,7 @@ mod tests {
     fn a_swap_meets_the_ancillas_cnot_past_a_ladder_cnot_on_the_same_target() {
         // The ancilla's cx(2,1), the ladder's cx(0,1) (same target: they commute), then the
         // ancilla moves over 1: the swap is oriented to start with cx(2,1), which then cancels
-        // through cx(0,1). 1 + 1 + 3 → 3 CNOTs, with cx and with cz natives.
+        // through cx(0,1). 2 + 1 + 3 → 4 CNOTs, with cx and with cz natives.
         for names in [vec!["rz", "sx", "x", "cx"], vec!["rz", "sx", "x", "cz"]] {
             let native = NativeSet::from_names(&names).unwrap();
             let mut c = Circuit::new(3, 0);
@@ -879,11 +896,11 @@ mod tests {
             let before = {
                 let mut plain = translate_two_qubit(&c, native.two_qubit);
                 fuse_and_cancel(&mut plain, native.one_qubit);
-                plain.gates.iter().filter(|g| g.is_two_qubit()).count()
+                two_qubit_count(&plain)
             };
             let low = lower_to_native(&c, &native);
             assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
-            let n2 = low.gates.iter().filter(|g| g.is_two_qubit()).count();
+            let n2 = two_qubit_count(&low);
             assert_eq!(n2, 4, "{names:?}");
             assert!(n2 < before, "{names:?}: {n2} against {before}");
         }
@@ -894,23 +911,17 @@ mod tests {
         // Random circuits dense in CNOTs, cz and one-qubit gates on 4 qubits: the pass keeps
         // the unitary (1e-12) and never adds a gate; lowering with it never emits more
         // two-qubit gates than lowering without it.
-        use rand::{Rng, SeedableRng};
-        let count = |c: &Circuit| c.gates.iter().filter(|g| g.is_two_qubit()).count();
+        use rand::Rng;
+        let count = two_qubit_count;
         let mut removed_any = 0;
         for seed in 0..2000u64 {
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
-            let mut c = Circuit::new(4, 0);
-            for _ in 0..40 {
-                let a = rng.gen_range(0..4u32);
-                let b = (a + rng.gen_range(1..4u32)) % 4;
-                c.push(match rng.gen_range(0..7) {
-                    0..=2 => Gate::Cx(a, b),
-                    3 => Gate::Cz(a, b),
-                    4 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
-                    5 => Gate::Sx(a),
-                    _ => Gate::Rx(a, rng.gen_range(-3.0..3.0)),
-                });
-            }
+            let c = random_circuit(seed, 40, |rng, a, b| match rng.gen_range(0..7) {
+                0..=2 => Gate::Cx(a, b),
+                3 => Gate::Cz(a, b),
+                4 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
+                5 => Gate::Sx(a),
+                _ => Gate::Rx(a, rng.gen_range(-3.0..3.0)),
+            });
             let mut d = c.clone();
             let removed = cancel_commuting(&mut d);
             assert_eq!(d.gates.len() + removed, c.gates.len(), "seed {seed}");
