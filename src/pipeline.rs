@@ -1610,6 +1610,12 @@ fn device_circuits(
         initial_layout: tp.initial_layout[..placed].to_vec(),
         copy_placement: tp.initial_layout[placed..].to_vec(),
         spare_qubits: tp.spread,
+        flip_string: tp
+            .step_form
+            .flip
+            .then(|| crate::synth::flip::flip_string(&tp.terms(h), h.num_qubits))
+            .flatten()
+            .map(|q| crate::synth::flip::flip_text(&q)),
     };
     let states = checked_states(spec, h.num_qubits);
     // The control-free form's controlled preparations, rebuilt as fan-out trees on

@@ -232,6 +232,12 @@ pub struct DeviceInfo {
     /// Absent: false, unused qubits are only moved around by SWAPs.
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub spare_qubits: bool,
+    /// The Pauli string `Q` (factor text, logical qubits) through which the ancilla controls
+    /// each Trotter step when the step is written by a sign flip (`synth::flip`): `Q`
+    /// anticommutes with every term, the ancilla controls `Q` twice per step and every
+    /// rotation runs uncontrolled. Absent: the ancilla controls the rotations themselves.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flip_string: Option<String>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]

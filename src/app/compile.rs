@@ -502,7 +502,12 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             n
         );
     } else {
-        text += &control_line(control, why_not_prep.as_ref());
+        let flip = compiled
+            .plan
+            .device
+            .as_ref()
+            .and_then(|d| d.flip_string.as_deref());
+        text += &control_line(control, why_not_prep.as_ref(), flip);
         text += &spread_line(&compiled.plan);
         text += &format!(
             "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
@@ -581,12 +586,17 @@ pub fn choose_control(
     }
 }
 
-/// The line of the compile summary that says which control form was chosen.
-fn control_line(control: Control, why_not: Option<&NotAnEigenstate>) -> String {
+/// The line of the compile summary that says which control form was chosen; `flip`: the
+/// string through which a sign-flip step is controlled (`synth::flip`), if it was kept.
+fn control_line(control: Control, why_not: Option<&NotAnEigenstate>, flip: Option<&str>) -> String {
+    let how = match flip {
+        Some(q) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, kept because that emits fewer two-qubit gates"),
+        None => "the ancilla controls every rotation".into(),
+    };
     match (control, why_not) {
         (Control::Prep, _) => "Control: prep (the ancilla controls only the state preparation; the evolution runs uncontrolled and the known phase of |0…0⟩ is removed on the ancilla).\n".into(),
-        (Control::Evolution, Some(e)) => format!("Control: evolution (the ancilla controls every rotation; prep does not apply: {e}).\n"),
-        (Control::Evolution, None) => "Control: evolution (the ancilla controls every rotation).\n".into(),
+        (Control::Evolution, Some(e)) => format!("Control: evolution ({how}; prep does not apply: {e}).\n"),
+        (Control::Evolution, None) => format!("Control: evolution ({how}).\n"),
     }
 }
 

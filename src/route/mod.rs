@@ -40,7 +40,10 @@
 //!    the control spread over copies of the ancilla on spare sites ([`cat`]): layouts grown
 //!    from the winner's and from exact embeddings, copies added where they pay, the step
 //!    routed with each controlled `rz` on the copy nearest its root; the pipeline keeps it only
-//!    when the campaign it emits is cheaper.
+//!    when the campaign it emits is cheaper. Where one Pauli string anticommutes with every
+//!    term of a symmetric formula (level 3, below [`EXTRAS_MAX_UNIT`]), the step is also
+//!    written by a sign flip ([`StepForm::flip`], `synth::flip`): every rotation uncontrolled,
+//!    the ancilla controlling that string twice per step, scored like the other forms.
 //! 2. The kept step is reused by every circuit ([`reuse`]: alternating with its mirror image
 //!    for symmetric formulas, with the SWAPs home for Lie–Trotter), and [`campaign`] lowers it
 //!    once and assembles each circuit from it, its own state preparation and its readout.
@@ -246,6 +249,9 @@ pub struct TargetPlan {
     /// Length of the first commuting group of the plan's term order, whose halves meet at the
     /// seams of reused symmetric steps ([`reuse::step_parts`]); 0: the step is not split.
     pub edge_terms: usize,
+    /// Sizes of the commuting groups of the plan's term order (`formula::term_groups`), set
+    /// for the sign-flip step ([`StepForm::flip`]), whose blocks they are; else empty.
+    pub group_sizes: Vec<usize>,
     /// How the step's program is written ([`reuse::step_parts`]).
     pub step_form: StepForm,
     /// Control copies of the ancilla ([`cat`]): logical qubits `num_system + 1 ..` of
@@ -309,6 +315,7 @@ impl TargetPlan {
             ancilla_swap_factor: 1.0,
             order: None,
             edge_terms: 0,
+            group_sizes: Vec::new(),
             step_form: StepForm::default(),
             copies: 0,
             spread: false,
@@ -434,6 +441,9 @@ pub struct StepForm {
     /// With `coupled`: the Clifford frame carried from run to run as a stack of networks,
     /// each undone by its mirror where a later run needs it gone (`synth::Coupled::carry`).
     pub carry: bool,
+    /// The controlled step by a sign flip (`synth::flip`): every rotation uncontrolled, the
+    /// ancilla controlling one Pauli string that anticommutes with all of them, twice.
+    pub flip: bool,
 }
 
 /// The most system qubits on which the carried-frame candidate (`StepForm::carry`) is tried.
@@ -872,6 +882,7 @@ fn plan_on_step(
         coupled: false,
         roam: false,
         carry: false,
+        flip: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -935,6 +946,9 @@ fn plan_on_step(
             sweep: choice == OrderChoice::Sweep,
             ..form
         };
+        if form.flip {
+            plan.group_sizes = groups.iter().map(|g| g.len()).collect();
+        }
         let params = params_with(factor);
         let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
         let (mut fwd, marks) = swap::insert_swaps_cut(&parts.circuit, l, dev, &params, &parts.cuts);
@@ -1098,6 +1112,7 @@ fn plan_on_step(
             coupled: false,
             roam: false,
             carry: false,
+            flip: false,
         };
         let recipe = Recipe {
             layout: first_layout.clone(),
@@ -1160,6 +1175,11 @@ fn plan_on_step(
             }
         }
     }
+    // The sign flip (`synth::flip`): symmetric formulas whose strings all anticommute with
+    // one Pauli string; like the others, kept only where it emits fewer two-qubit gates.
+    if cfg.pairs && !cfg.textbook && controls && small && flippable(&default_terms, order) {
+        forms.push(StepForm { flip: true, ..form });
+    }
     for paired in forms {
         let (factors, rounds) = if paired.coupled && !paired.roam {
             (&search.factors[..1], 0)
@@ -1214,6 +1234,13 @@ fn plan_on_step(
         (None, Some(b)) => (b.1, None),
         (None, None) => unreachable!("at least one candidate"),
     })
+}
+
+/// Whether the sign-flip step (`synth::flip`) applies to `terms`: a symmetric formula and a
+/// Pauli string that anticommutes with every term.
+fn flippable(terms: &[(PauliString, f64)], order: Order) -> bool {
+    let n = terms.iter().map(|(p, _)| p.span()).max().unwrap_or(0);
+    order != Order::First && crate::synth::flip::flip_string(terms, n).is_some()
 }
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native

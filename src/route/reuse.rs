@@ -316,6 +316,45 @@ fn program(
     }
 }
 
+/// The controlled step by a sign flip (`synth::flip`) over the plan's commuting groups
+/// (`TargetPlan::group_sizes`): two controlled Pauli strings, every rotation uncontrolled
+/// along the plan's ladder, the parity tree by hop distance under the plan's initial layout;
+/// `None` without an ancilla or groups, for order 1, or when no string anticommutes with
+/// every term.
+fn flipped(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    order: Order,
+    dt: f64,
+    dev: Option<&Device>,
+) -> Option<Circuit> {
+    let control = plan.ancilla?;
+    let layout = &plan.initial_layout;
+    let distance = dev.map(|d| {
+        move |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
+            d.distance(layout[a as usize], layout[b as usize])
+        }
+    });
+    let ladder = |r: &Rotation| plan.ladder(r);
+    let (gates, _) = crate::synth::flip::flipped_step(
+        terms,
+        &plan.group_sizes,
+        order,
+        dt,
+        control,
+        &ladder,
+        distance
+            .as_ref()
+            .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
+    )?;
+    let mut c = Circuit::new(plan.initial_layout.len(), 0);
+    c.extend(gates);
+    if !plan.step_form.uncancelled {
+        cancel_inverses(&mut c);
+    }
+    Some(c)
+}
+
 /// The step in the order of [`super::sweep::schedule`], each ladder a nearest-neighbour chain
 /// ending at the scheduled root; `None` when the schedule's work bound is exceeded.
 fn swept(rotations: &[Rotation], plan: &TargetPlan, dev: &Device) -> Option<Circuit> {
@@ -373,6 +412,15 @@ pub fn step_parts_on(
     dev: Option<&Device>,
 ) -> StepParts {
     let e = plan.edge_terms;
+    if plan.step_form.flip {
+        if let Some(circuit) = flipped(terms, plan, order, dt, dev) {
+            return StepParts {
+                circuit,
+                cuts: Vec::new(),
+                merged_edge: None,
+            };
+        }
+    }
     if let (true, Some(dev)) = (plan.step_form.sweep, dev) {
         let rotations = program(terms, plan, order, dt);
         if let Some(circuit) = swept(&rotations, plan, dev) {

@@ -31,6 +31,7 @@
 //! computes the same parity), plus 2 for the control. The basis changes and the parity network
 //! need no control: without the `rz` they multiply to the identity.
 
+pub mod flip;
 pub mod groups;
 
 pub use groups::{Coupled, Groups};

@@ -64,6 +64,10 @@ pub struct Claim {
     /// [`Claim::check`]); else `None`.
     zero_inputs: Option<crate::pauli::Bits>,
     control: Control,
+    /// The plan's `device.flip_string`: each step is the sign-flip step of `synth::flip` over
+    /// the commuting groups of sizes `group_sizes`.
+    flip: Option<String>,
+    group_sizes: Vec<usize>,
 }
 
 /// The sizes of a successful proof.
@@ -125,6 +129,9 @@ pub enum ClaimError {
     LayoutRepeats,
     /// The copy placement repeats a qubit, overlaps the start placement or leaves the device.
     CopyPlacement,
+    /// `device.flip_string` is not the string a sign-flip step over this Hamiltonian and
+    /// formula controls (or no such step exists).
+    FlipString(String),
     /// The entry's state index is past the plan's states.
     NoSuchState {
         id: String,
@@ -181,6 +188,11 @@ impl std::fmt::Display for ClaimError {
             ClaimError::LayoutRepeats => {
                 f.write_str("plan.json: the initial layout repeats a physical qubit")
             }
+            ClaimError::FlipString(text) => write!(
+                f,
+                "plan.json: device.flip_string `{text}` is not the Pauli string a sign-flip step \
+                 over this Hamiltonian and formula controls"
+            ),
             ClaimError::CopyPlacement => f.write_str(
                 "plan.json: the copy placement repeats a physical qubit, names one of the start \
                  placement, or one the device does not have",
@@ -308,6 +320,11 @@ impl Claim {
             device,
             zero_inputs,
             control: plan.control,
+            flip: plan.device.as_ref().and_then(|d| d.flip_string.clone()),
+            group_sizes: crate::formula::term_groups(&h)
+                .iter()
+                .map(|g| g.len())
+                .collect(),
         })
     }
 
@@ -379,6 +396,36 @@ impl Claim {
         let part = e
             .part
             .ok_or_else(|| ClaimError::NotHadamardTest { id: e.id.clone() })?;
+        if let (Control::Evolution, Some(text)) = (self.control, &self.flip) {
+            // A sign-flip step (`synth::flip`), routed once and reused as the step and its
+            // mirror image alternately (`route::reuse`).
+            let n = self.n;
+            let dt = self.dt / self.steps_per_dt.max(1) as f64;
+            let (gates, _) = crate::synth::flip::flipped_step(
+                &self.terms,
+                &self.group_sizes,
+                self.order,
+                dt,
+                n as Qubit,
+                &ladder,
+                None,
+            )
+            .filter(|(_, q)| crate::synth::flip::flip_text(q) == *text)
+            .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
+            let mut step = Circuit::new(n + 1, 0);
+            step.extend(gates);
+            let back = crate::route::reuse::mirror(&step);
+            let nbits = if basis.is_some() { n + 1 } else { 1 };
+            let mut c = Circuit::new(n + 1, nbits);
+            c.extend(crate::family::hadamard_prefix(n, &state.prep()));
+            for s in 0..e.k * self.steps_per_dt {
+                let block = if s % 2 == 0 { &step } else { &back };
+                c.extend(block.gates.iter().copied());
+            }
+            c.extend(crate::family::hadamard_suffix(n, part, basis.as_ref()));
+            crate::circuit::cancel::cancel_inverses(&mut c);
+            return Ok((c, reads));
+        }
         if let (Control::Prep, Some(f)) = (self.control, &e.fanout) {
             // Fan-out trees recorded by `compile`: the claim's preparations are those CNOTs.
             let m = self.n as u32 + 1;
