@@ -376,21 +376,28 @@ fn shuffled_lattice_models_recover_every_edge_and_evolve_without_swaps() {
     }
 }
 
-#[test]
-fn an_ising_chain_step_on_a_line_meets_the_one_sweep_target() {
-    // Issue target: ≤ 1.05 × 154 = 161.7 two-qubit gates for k01-re, one Strang step.
+/// The 12-site Ising chain on a line of 13, overlap family, Strang, `points` time points,
+/// compiled at level 3: the device, the spec and the campaign.
+fn ising12_on_a_line(points: usize) -> (Device, Spec, Compiled) {
     let h = ising_chain(12);
     let dev = plain_device("line", 13, &lattice::line(13));
     let spec = Spec {
         family: Family::Overlap,
         order: Order::Second,
         dt: 0.1,
-        points: 2,
+        points,
         steps_per_dt: 1,
         states: vec!["0".repeat(12)],
         control: phasewright::family::control::Control::Evolution,
     };
     let best = compile(&h, &spec, Some(&dev), 3);
+    (dev, spec, best)
+}
+
+#[test]
+fn an_ising_chain_step_on_a_line_meets_the_one_sweep_target() {
+    // Issue target: ≤ 1.05 × 154 = 161.7 two-qubit gates for k01-re, one Strang step.
+    let (dev, _, best) = ising12_on_a_line(2);
     let two_qubit = k01_re_two_qubit(&best);
     assert!(two_qubit <= 162, "{two_qubit}");
     check_compiled(&best, Some(&dev), "ising12 line");
@@ -459,18 +466,7 @@ fn a_transverse_field_ising_step_is_controlled_through_a_sign_flip() {
     // none), each controlled Q gathers the parity of 12 qubits (11 CNOTs), meets the ancilla
     // (1 cz) and undoes it (11): 2·22 + 2·23 = 90 two-qubit gates, against 162 for the issue's
     // one-sweep target and 112 for the uncontrolled step plus 2 CNOTs per controlled rotation.
-    let h = ising_chain(12);
-    let dev = plain_device("line", 13, &lattice::line(13));
-    let spec = Spec {
-        family: Family::Overlap,
-        order: Order::Second,
-        dt: 0.1,
-        points: 3,
-        steps_per_dt: 1,
-        states: vec!["0".repeat(12)],
-        control: phasewright::family::control::Control::Evolution,
-    };
-    let best = compile(&h, &spec, Some(&dev), 3);
+    let (dev, spec, best) = ising12_on_a_line(3);
     let q = best.plan.device.as_ref().unwrap().flip_string.clone();
     let q = q.expect("the sign flip is kept for the Ising chain");
     // One letter per site, alternating between the sublattices.
