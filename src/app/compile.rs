@@ -36,7 +36,8 @@ pub enum MeasureKind {
 /// What the Hadamard-test ancilla controls.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
 pub enum ControlChoice {
-    /// Every rotation of the evolution is controlled by the ancilla.
+    /// The ancilla controls the evolution: every rotation, or (level 3 on a device) a Pauli
+    /// string that anticommutes with every term, twice per Trotter step, when that is cheaper.
     Evolution,
     /// Only the state preparation is controlled; the evolution runs uncontrolled. Needs
     /// |0…0⟩ to be an eigenstate of every factor of the product formula (number-conserving
