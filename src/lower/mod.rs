@@ -428,7 +428,7 @@ pub fn lower_to_native(c: &Circuit, native: &NativeSet) -> Circuit {
 }
 
 /// How far back (in gates on one qubit) [`cancel_commuting`] looks for a partner.
-const COMMUTE_WINDOW: usize = 48;
+pub const COMMUTE_WINDOW: usize = 48;
 
 /// Whether the one-qubit matrix `m` commutes with `Z` (it is diagonal) or, with `x_type`, with
 /// `X` (`m = αI + βX`). Tolerance 1e-12 on the entries.
