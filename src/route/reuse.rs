@@ -255,18 +255,27 @@ pub struct StepParts {
     pub merged_edge: Option<Circuit>,
 }
 
+/// Hop distance between the initial sites of two logical qubits of `plan` on `dev`; `None`
+/// without a device.
+fn layout_distance<'a>(
+    plan: &'a TargetPlan,
+    dev: Option<&'a Device>,
+) -> Option<impl Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync + 'a> {
+    let layout = &plan.initial_layout;
+    dev.map(move |d| {
+        move |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
+            d.distance(layout[a as usize], layout[b as usize])
+        }
+    })
+}
+
 fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -> Circuit {
     let mut c = Circuit::new(plan.initial_layout.len(), 0);
     if plan.step_form.pairs || plan.step_form.groups {
         // `synth::Pairs` or `synth::Groups`, with hop distances under the plan's initial
         // layout.
         let ladder = |r: &Rotation| plan.ladder(r);
-        let layout = &plan.initial_layout;
-        let distance = dev.map(|d| {
-            move |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
-                d.distance(layout[a as usize], layout[b as usize])
-            }
-        });
+        let distance = layout_distance(plan, dev);
         let block = Block {
             rotations,
             control: plan.ancilla,
@@ -329,12 +338,7 @@ fn flipped(
     dev: Option<&Device>,
 ) -> Option<Circuit> {
     let control = plan.ancilla?;
-    let layout = &plan.initial_layout;
-    let distance = dev.map(|d| {
-        move |a: crate::circuit::Qubit, b: crate::circuit::Qubit| {
-            d.distance(layout[a as usize], layout[b as usize])
-        }
-    });
+    let distance = layout_distance(plan, dev);
     let ladder = |r: &Rotation| plan.ladder(r);
     let (gates, _) = crate::synth::flip::flipped_step(
         terms,
