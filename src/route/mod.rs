@@ -1192,6 +1192,13 @@ fn plan_on_step(
                 layouts.push(l.clone());
             }
         }
+        if paired.flip {
+            for l in flip_layouts(h, &comp, dev, cfg, order, dt)? {
+                if !layouts.contains(&l) {
+                    layouts.push(l);
+                }
+            }
+        }
         let mut chains = Vec::new();
         for &factor in factors {
             for &choice in search.choices.iter().filter(|&&c| c != OrderChoice::Sweep) {
@@ -1234,6 +1241,46 @@ fn plan_on_step(
         (None, Some(b)) => (b.1, None),
         (None, None) => unreachable!("at least one candidate"),
     })
+}
+
+/// Spare sites tried for the ancilla beside the uncontrolled layout ([`flip_layouts`]).
+const FLIP_ANCILLA_SITES: usize = 3;
+
+/// Starting layouts for the sign-flip step: the layout the search picks for the uncontrolled
+/// step, with the ancilla on each of the [`FLIP_ANCILLA_SITES`] spare sites beside it that lie
+/// nearest the rest (by total hop distance; ties to the lower site).
+///
+/// The flipped step runs every rotation uncontrolled, twice; the ancilla meets only the two
+/// controlled copies of the flip string, through a parity tree gathered next to it. So the
+/// layout that suits it is the uncontrolled one, not the controlled search's, which pulls the
+/// system around a central ancilla (the 3×4 transverse-field Ising step on a 4×4 brick wall:
+/// 164 two-qubit gates from the controlled search's layouts, 158 with these).
+fn flip_layouts(
+    h: &PauliSum,
+    comp: &[u32],
+    dev: &Device,
+    cfg: &RouteConfig,
+    order: Order,
+    dt: f64,
+) -> Result<Vec<Vec<u32>>, RouteError> {
+    let ((plain, _), _) = plan_on_step(h, false, None, dev, cfg, order, dt)?;
+    let base = &plain.initial_layout[..h.num_qubits.min(plain.initial_layout.len())];
+    let mut spare: Vec<(u64, u32)> = comp
+        .iter()
+        .copied()
+        .filter(|s| !base.contains(s) && base.iter().any(|&b| dev.coupled(b, *s)))
+        .map(|s| (base.iter().map(|&b| dev.distance(b, s) as u64).sum(), s))
+        .collect();
+    spare.sort_unstable();
+    Ok(spare
+        .into_iter()
+        .take(FLIP_ANCILLA_SITES)
+        .map(|(_, s)| {
+            let mut l = base.to_vec();
+            l.push(s);
+            l
+        })
+        .collect())
 }
 
 /// Whether the sign-flip step (`synth::flip`) applies to `terms`: a symmetric formula and a
