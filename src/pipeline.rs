@@ -1616,6 +1616,11 @@ fn device_circuits(
             .then(|| crate::synth::flip::flip_string(&tp.terms(h), h.num_qubits))
             .flatten()
             .map(|q| crate::synth::flip::flip_text(&q)),
+        flip_order: if tp.step_form.flip {
+            tp.step_form.flip_order
+        } else {
+            Default::default()
+        },
     };
     let states = checked_states(spec, h.num_qubits);
     // The control-free form's controlled preparations, rebuilt as fan-out trees on

@@ -238,6 +238,14 @@ pub struct DeviceInfo {
     /// rotation runs uncontrolled. Absent: the ancilla controls the rotations themselves.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub flip_string: Option<String>,
+    /// With `flip_string`: the order in which each commuting block's rotations are written,
+    /// `"given"` (the terms' order) or `"layers"` (layers on disjoint qubits). Absent: given.
+    #[serde(default, skip_serializing_if = "is_given")]
+    pub flip_order: crate::synth::flip::BlockOrder,
+}
+
+fn is_given(o: &crate::synth::flip::BlockOrder) -> bool {
+    *o == crate::synth::flip::BlockOrder::Given
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, PartialOrd, Ord, Hash)]

@@ -474,6 +474,30 @@ fn a_transverse_field_ising_step_is_controlled_through_a_sign_flip() {
     assert_eq!(letters.len(), 12, "{q}");
     assert!(letters.windows(2).all(|w| w[0] != w[1]), "{q}");
     assert!(k01_re_two_qubit(&best) <= 90, "{}", k01_re_two_qubit(&best));
+    // Each half's bonds are written in two layers of disjoint pairs, so the step's two-qubit
+    // depth stays within the 0.7 × two-qubit count (in the terms' own order the
+    // bonds run one after another: 72 of 90).
+    let device = best.plan.device.as_ref().unwrap();
+    assert_eq!(
+        device.flip_order,
+        phasewright::synth::flip::BlockOrder::Layers
+    );
+    let i = best
+        .plan
+        .circuits
+        .iter()
+        .position(|e| e.id == "k01-re")
+        .unwrap();
+    let c = qasm::read("k01-re.qasm", &best.programs[i])
+        .unwrap()
+        .circuit;
+    let two = c.gates.iter().copied().filter(|g| g.is_two_qubit());
+    let depth2 = phasewright::circuit::metrics::counts_of(c.num_qubits, two).depth;
+    assert!(
+        depth2 as f64 <= 0.7 * k01_re_two_qubit(&best) as f64,
+        "two-qubit depth {depth2} of {}",
+        k01_re_two_qubit(&best)
+    );
     check_compiled(&best, Some(&dev), "ising12 line, sign flip");
     // The tableau proof rebuilds the flipped steps (and their mirror images) from the plan.
     let claim = phasewright::tableau::equiv::Claim::from_plan(&best.plan).unwrap();

@@ -345,6 +345,7 @@ fn flipped(
         &plan.group_sizes,
         order,
         dt,
+        plan.step_form.flip_order,
         control,
         &ladder,
         distance

@@ -40,12 +40,31 @@
 //! the plan's layout) grown from the support qubit nearest the control; all-to-all it is a
 //! balanced binary tree (depth `⌈log₂ w⌉`).
 //!
+//! The rotations of a commuting block commute, so each half may write them in any order: in
+//! the terms' own order ([`BlockOrder::Given`]) or in layers on disjoint qubits
+//! ([`BlockOrder::Layers`]), which puts a chain's bonds in two layers and lowers the depth.
+//! The device search tries both (they can route differently where SWAPs are needed), and the
+//! plan records the order it kept.
+//!
 //! Cost: solving for `Q` is Gaussian elimination over GF(2), `O(m · (2n)² / 64)` word
 //! operations for `m` strings on `n` qubits; the tree is `O(w²)`.
 
 use crate::circuit::{Gate, Qubit};
 use crate::formula::{Order, Rotation};
 use crate::pauli::{Pauli, PauliString};
+use serde::{Deserialize, Serialize};
+
+/// The order in which a flipped step writes the rotations of each commuting block; they
+/// commute, so both orders give the same operator, but not the same routing or depth.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum BlockOrder {
+    /// The terms' own order.
+    #[default]
+    Given,
+    /// Layers of rotations on disjoint qubits ([`layered`]): a chain's bonds in two layers.
+    Layers,
+}
 
 /// A Pauli string as `(qubit, letter)` pairs, ascending, no identity letters.
 pub type FlipString = Vec<(Qubit, Pauli)>;
@@ -257,18 +276,49 @@ pub fn half_blocks(groups: usize, order: Order) -> Option<Vec<(usize, f64)>> {
     Some(half)
 }
 
+/// The rotations of one commuting block reordered into layers on disjoint qubits: each
+/// layer takes, in the given order, every rotation left whose support shares no qubit with
+/// the layer so far (one-qubit rotations occupy nothing). The rotations commute, so the
+/// block's operator is unchanged; their ladders then run side by side instead of one after
+/// another (a chain's bonds in two layers instead of `n − 1`). This is greedy edge colouring,
+/// the usual way of writing a commuting Trotter layer in brickwork form (common practice).
+/// It reads supports, not ladders, so a plan's ladders and the default ones order alike.
+pub fn layered(mut rest: Vec<Rotation>) -> Vec<Rotation> {
+    let mut out = Vec::with_capacity(rest.len());
+    while !rest.is_empty() {
+        let mut busy: Vec<usize> = Vec::new();
+        let mut later = Vec::new();
+        for r in rest {
+            let l = r.pauli.support_qubits();
+            if l.len() < 2 || l.iter().all(|q| !busy.contains(q)) {
+                if l.len() >= 2 {
+                    busy.extend(l);
+                }
+                out.push(r);
+            } else {
+                later.push(r);
+            }
+        }
+        rest = later;
+    }
+    out
+}
+
 /// The controlled step `CQ · H⁻¹ · CQ · H_rev` (see the module essay) of one step of `order`
 /// and length `dt` over `terms`, whose consecutive commuting groups have sizes `group_sizes`
 /// (`formula::term_groups`, possibly permuted inside groups), each rotation uncontrolled along
 /// `ladder(r)`; with the string `Q`. `None` when the formula is not symmetric, the sizes do
 /// not cover the terms, or no string anticommutes with every term. The |1⟩ branch runs
 /// `H · H_rev`, which is `formula::step(terms, order, dt)` as an operator (the same factors,
-/// the merges it makes aside), for any order of the terms inside their groups.
+/// the merges it makes aside), for any order of the terms inside their groups. Each block's
+/// rotations are written in `block_order`.
+#[allow(clippy::too_many_arguments)]
 pub fn flipped_step(
     terms: &[(PauliString, f64)],
     group_sizes: &[usize],
     order: Order,
     dt: f64,
+    block_order: BlockOrder,
     control: Qubit,
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
@@ -283,13 +333,18 @@ pub fn flipped_step(
         starts.push(starts.last().expect("non-empty") + k);
     }
     let rotations = |(g, x): (usize, f64), sign: f64| {
-        terms[starts[g]..starts[g + 1]]
+        let rs: Vec<Rotation> = terms[starts[g]..starts[g + 1]]
             .iter()
             .filter(|(_, c)| *c != 0.0)
             .map(move |(p, c)| Rotation {
                 pauli: p.clone(),
                 theta: sign * c * x * dt,
             })
+            .collect();
+        match block_order {
+            BlockOrder::Given => rs,
+            BlockOrder::Layers => layered(rs),
+        }
     };
     let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
     let (tree, root) = parity_tree(&support, control, distance);
@@ -465,12 +520,17 @@ mod tests {
                 let program = step(&terms, order, 0.37);
                 let reference = controlled_reference(&program, n);
                 let line = |a: Qubit, b: Qubit| a.abs_diff(b);
-                for distance in [None, Some(&line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync))] {
+                let distances = [None, Some(&line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync))];
+                for (distance, block_order) in distances
+                    .into_iter()
+                    .flat_map(|d| [BlockOrder::Given, BlockOrder::Layers].map(|o| (d, o)))
+                {
                     let Some((gates, q)) = flipped_step(
                         &terms,
                         &sizes,
                         order,
                         0.37,
+                        block_order,
                         n as Qubit,
                         &crate::synth::default_ladder,
                         distance,
@@ -507,14 +567,31 @@ mod tests {
         let (terms, sizes) = grouped(&h);
         let line = |a: Qubit, b: Qubit| a.abs_diff(b);
         let ladder = &crate::synth::default_ladder;
-        let (gates, _) = flipped_step(&terms, &sizes, Order::Second, 0.1, 6, ladder, Some(&line))
-            .expect("the chain flips");
+        let flip = |order, block_order, distance| {
+            flipped_step(&terms, &sizes, order, 0.1, block_order, 6, ladder, distance)
+        };
+        let line = &line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync);
+        let (gates, _) =
+            flip(Order::Second, BlockOrder::Given, Some(line)).expect("the chain flips");
         let two = gates.iter().filter(|g| g.is_two_qubit()).count();
         assert_eq!(two, 2 * (5 * 2) + 2 * 11);
         // Only the two cz gates touch the control.
         let on_control = gates.iter().filter(|g| g.qubits().contains(&6)).count();
         assert_eq!(on_control, 2);
         // Lie–Trotter is not symmetric: no flipped step.
-        assert!(flipped_step(&terms, &sizes, Order::First, 0.1, 6, ladder, None).is_none());
+        assert!(flip(Order::First, BlockOrder::Given, None).is_none());
+        // In layers, each half's five bonds take two layers of disjoint pairs, (0,1) (2,3)
+        // (4,5) then (1,2) (3,4): the ZZ rotations of the first half, in time order.
+        let (gates, _) = flip(Order::Second, BlockOrder::Layers, Some(line)).expect("flips");
+        let pairs: Vec<[Qubit; 2]> = gates
+            .iter()
+            .filter_map(|g| match *g {
+                Gate::Cx(a, b) if a.max(b) < 6 => Some([a.min(b), a.max(b)]),
+                _ => None,
+            })
+            .collect();
+        // The parity tree's 2·5 CNOTs come first (a chain on the line), then the half.
+        let half: Vec<[Qubit; 2]> = pairs[10..20].iter().step_by(2).copied().collect();
+        assert_eq!(half, [[0, 1], [2, 3], [4, 5], [1, 2], [3, 4]], "{pairs:?}");
     }
 }

@@ -67,6 +67,8 @@ pub struct Claim {
     /// The plan's `device.flip_string`: each step is the sign-flip step of `synth::flip` over
     /// the commuting groups of sizes `group_sizes`.
     flip: Option<String>,
+    /// The plan's `device.flip_order`: how the flipped steps write each block.
+    flip_order: crate::synth::flip::BlockOrder,
     group_sizes: Vec<usize>,
 }
 
@@ -321,6 +323,11 @@ impl Claim {
             zero_inputs,
             control: plan.control,
             flip: plan.device.as_ref().and_then(|d| d.flip_string.clone()),
+            flip_order: plan
+                .device
+                .as_ref()
+                .map(|d| d.flip_order)
+                .unwrap_or_default(),
             group_sizes: crate::formula::term_groups(&h)
                 .iter()
                 .map(|g| g.len())
@@ -406,6 +413,7 @@ impl Claim {
                 &self.group_sizes,
                 self.order,
                 dt,
+                self.flip_order,
                 n as Qubit,
                 &ladder,
                 None,
