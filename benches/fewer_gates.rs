@@ -288,7 +288,12 @@ fn uncontrolled(h: &PauliSum, dev: &Device) -> usize {
     let plan = plan_target(h, phasewright::route::Ancilla::None, dev, &cfg).expect("fits");
     let c = step_circuit(&plan.terms(h), &plan, Order::Second, 0.1);
     let r = to_device(&c, &plan, dev, &cfg).expect("routes");
-    r.circuit.gates.iter().filter(|g| g.is_two_qubit()).count()
+    r.circuit
+        .circuit()
+        .gates
+        .iter()
+        .filter(|g| g.is_two_qubit())
+        .count()
 }
 
 /// Terms whose two qubits start on coupled sites, of the weight-2 terms, under the layout the

@@ -116,7 +116,13 @@ fn compile(h: &PauliSum, dev: &Device, ancilla: Ancilla, cfg: &RouteConfig) -> O
     let c = circuit(h, &plan, ancilla);
     let r = to_device(&c, &plan, dev, cfg).expect("IR stays valid");
     Outcome {
-        two_qubit: r.circuit.gates.iter().filter(|g| g.is_two_qubit()).count(),
+        two_qubit: r
+            .circuit
+            .circuit()
+            .gates
+            .iter()
+            .filter(|g| g.is_two_qubit())
+            .count(),
         swaps: r.swaps,
     }
 }

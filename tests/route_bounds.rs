@@ -102,7 +102,7 @@ fn a_swap_costs_three_two_qubit_gates() {
         c.extend([Gate::H(0), Gate::Cx(0, 2)]);
         let routed = to_device(&c, &plan, &dev, &RouteConfig::default()).unwrap();
         assert_eq!(routed.swaps, 1);
-        assert_eq!(two_qubit(&routed.circuit), 1 + 3);
+        assert_eq!(two_qubit(routed.circuit.circuit()), 1 + 3);
         assert!(routing_error(&c, &routed).unwrap() < 1e-12);
     }
 }
@@ -131,7 +131,7 @@ fn a_weight_w_rotation_on_all_to_all_costs_two_w_minus_one_cnots() {
         c.extend(pauli_rotation_along(&r, None, &plan.ladder(&r)));
         let routed = to_device(&c, &plan, &dev, &RouteConfig::default()).unwrap();
         assert_eq!(routed.swaps, 0);
-        assert_eq!(two_qubit(&routed.circuit), 2 * (w - 1), "w = {w}");
+        assert_eq!(two_qubit(routed.circuit.circuit()), 2 * (w - 1), "w = {w}");
         assert!(routing_error(&c, &routed).unwrap() < 1e-12);
     }
 }
@@ -297,7 +297,7 @@ fn written_files_use_coupled_pairs_physical_qubits_and_native_gates_only() {
         }
         c.extend([Gate::Sdg(anc), Gate::H(anc), Gate::Measure(anc, 0)]);
         let routed = to_device(&c, &plan, &dev, &cfg).unwrap();
-        let text = write(&routed.circuit, Addressing::Physical, &[]);
+        let text = write(routed.circuit.circuit(), Addressing::Physical, &[]);
         let lines = gate_lines(&text);
         assert!(lines.len() > 10);
         for (name, qs) in &lines {

@@ -9,7 +9,9 @@ use phasewright::circuit::{Circuit, Gate, Qubit};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
 use phasewright::formula::{evolution, Order};
 use phasewright::pauli::{PauliString, PauliSum};
-use phasewright::route::{plan_target, routing_error, to_device, RouteConfig, Routed, TargetPlan};
+use phasewright::route::{
+    plan_target, routing_error, to_device, DeviceCircuit, RouteConfig, Routed, TargetPlan,
+};
 use phasewright::synth::pauli_rotation_along;
 use proptest::prelude::*;
 use rand::{Rng, SeedableRng};
@@ -112,7 +114,7 @@ fn hadamard_test(
 fn check_routed(logical: &Circuit, routed: &Routed, dev: &Device) {
     let coupled = |a: u32, b: u32| dev.coupled(a, b);
     verify_ir(
-        &routed.circuit,
+        routed.circuit.circuit(),
         &Rules {
             coupled: Some(&coupled),
             native: Some(&dev.native.names),
@@ -123,7 +125,7 @@ fn check_routed(logical: &Circuit, routed: &Routed, dev: &Device) {
     assert!(err <= 1e-9, "routing error {err}");
     // Written file, read back: the same circuit to the last bit of every angle.
     let text = phasewright::qasm::write(
-        &routed.circuit,
+        routed.circuit.circuit(),
         phasewright::qasm::Addressing::Physical,
         &[],
     );
@@ -131,10 +133,14 @@ fn check_routed(logical: &Circuit, routed: &Routed, dev: &Device) {
         .unwrap()
         .circuit;
     let reread = Routed {
-        circuit: Circuit {
-            num_qubits: routed.circuit.num_qubits,
-            ..back
-        },
+        circuit: DeviceCircuit::checked(
+            Circuit {
+                num_qubits: routed.circuit.circuit().num_qubits,
+                ..back
+            },
+            dev,
+        )
+        .unwrap(),
         ..routed.clone()
     };
     let err = routing_error(logical, &reread).unwrap();

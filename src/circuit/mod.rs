@@ -16,7 +16,8 @@ pub mod verify;
 
 use num_complex::Complex64;
 
-/// A qubit index in a circuit (logical before routing, physical after).
+/// A qubit index in a circuit (logical before routing, physical after; a routed and lowered
+/// circuit is held as a [`crate::route::DeviceCircuit`]).
 pub type Qubit = u32;
 
 /// One operation of the IR.

@@ -1,8 +1,9 @@
 //! Lowering to a device's native gates: two-qubit translation, one-qubit fusion, cancellation.
 //!
 //! In: a routed circuit (physical qubits, any IR gate, `swap` allowed) and a [`NativeSet`]. Out:
-//! the same unitary, global phase included, written only with native gates. Passes, each a free
-//! function:
+//! the same unitary, global phase included, written only with native gates, as a plain
+//! [`Circuit`] (lowering does not see the coupling graph; the routing passes check its result
+//! into a [`crate::route::DeviceCircuit`]). Passes, each a free function:
 //!
 //! 0. [`slide_through_swaps`]: one-qubit gates between a `swap` and a CNOT on its pair move to
 //!    the other side of the swap (on the other qubit), so that the two meet;

@@ -5,11 +5,12 @@
 //! for, and per circuit its logical prefix (state preparation), its number of steps and its
 //! logical suffix (bases, measurements). Out: per circuit an [`Emitted`]: the OpenQASM 3 text
 //! (physical qubits, native gates only), its costs and its final layout; or, for tests, the
-//! same circuit as IR ([`DeviceCampaign::circuit`]). Invariant: the text is exactly
-//! `qasm::write` of that IR circuit, and the circuit equals prefix · `S(δ)^r` · suffix under the
-//! initial and final layouts, global phase included. Every piece is checked by `verify_ir`
-//! (coupling and native names) once, which checks the whole circuit: no piece but the last
-//! holds a measurement.
+//! same circuit as IR ([`DeviceCampaign::circuit`], a [`Routed`] whose circuit is a
+//! [`DeviceCircuit`]). Invariant: the text is exactly `qasm::write` of that IR circuit, and the
+//! circuit equals prefix · `S(δ)^r` · suffix under the initial and final layouts, global phase
+//! included. Every lowered block and piece is a [`DeviceCircuit`] (checked by `verify_ir` with
+//! coupling and native names once), and only their gates are printed as physical text; that
+//! checks the whole circuit, since no piece but the last holds a measurement.
 //!
 //! ## Why pieces
 //!
@@ -37,7 +38,7 @@
 
 use super::reuse::{permutation_swaps, Formula, RoutedStep};
 use super::swap::{insert_swaps, SwapParams};
-use super::{plan_swap_params, RouteConfig, Routed, TargetPlan};
+use super::{plan_swap_params, DeviceCircuit, RouteConfig, Routed, TargetPlan};
 use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::{CostModel, Device, Tally};
@@ -63,10 +64,9 @@ pub struct Emitted {
     pub final_layout: Vec<u32>,
 }
 
-/// A verified, lowered gate list with its global phase and its OpenQASM 3 lines.
+/// A verified, lowered circuit (its gates and global phase) and its OpenQASM 3 lines.
 struct Piece {
-    gates: Vec<Gate>,
-    phase: f64,
+    lowered: DeviceCircuit,
     text: String,
     tally: Tally,
 }
@@ -74,7 +74,7 @@ struct Piece {
 /// A lowered block: its gates, phase, where its head window ends and its tail window starts,
 /// and the text of the interior in between.
 struct Block {
-    lowered: Circuit,
+    lowered: DeviceCircuit,
     head: usize,
     tail: usize,
     interior_text: String,
@@ -83,7 +83,7 @@ struct Block {
 
 impl Block {
     fn interior(&self) -> &[Gate] {
-        &self.lowered.gates[self.head..self.tail]
+        &self.lowered.circuit().gates[self.head..self.tail]
     }
 }
 
@@ -120,11 +120,11 @@ fn count_swaps(c: &Circuit) -> usize {
         .count()
 }
 
-/// The gate lines of `gates` (checked as UTF-8 once here, so circuits assembled from the
-/// pieces need no second check).
-fn render(gates: &[Gate]) -> String {
+/// The gate lines of `c`'s gates `range` (checked as UTF-8 once here, so circuits assembled
+/// from the pieces need no second check).
+fn render(c: &DeviceCircuit, range: std::ops::Range<usize>) -> String {
     // Chunks print in parallel and join in order: the same bytes for any thread count.
-    let bytes = gates
+    let bytes = c.circuit().gates[range]
         .par_chunks(1 << 14)
         .map(|chunk| {
             let mut out = Vec::with_capacity(24 * chunk.len());
@@ -181,26 +181,18 @@ impl<'a> DeviceCampaign<'a> {
         self.step.core_index(i)
     }
 
-    fn rules_check(&self, c: &Circuit) -> Result<(), IrError> {
-        let coupled = |a: u32, b: u32| self.dev.coupled(a, b);
-        verify_ir(
-            c,
-            &Rules {
-                coupled: Some(&coupled),
-                native: Some(&self.dev.native.names),
-            },
-        )
+    /// Lowers `c` (physical, any IR gates) and checks the result as a [`DeviceCircuit`].
+    fn lowered(&self, c: &Circuit) -> Result<DeviceCircuit, IrError> {
+        DeviceCircuit::checked(lower_to_native(c, &self.dev.native), self.dev)
     }
 
     /// Lowers `c` (physical, any IR gates), verifies it and prints its gate lines.
     fn piece(&self, c: &Circuit) -> Result<Piece, IrError> {
-        let low = lower_to_native(c, &self.dev.native);
-        self.rules_check(&low)?;
-        let text = render(&low.gates);
+        let low = self.lowered(c)?;
+        let text = render(&low, 0..low.circuit().gates.len());
         Ok(Piece {
-            tally: self.model.tally(&low.gates),
-            gates: low.gates,
-            phase: low.global_phase,
+            tally: self.model.tally(&low.circuit().gates),
+            lowered: low,
             text,
         })
     }
@@ -220,9 +212,17 @@ impl<'a> DeviceCampaign<'a> {
             .iter()
             .map(|&(x, y)| {
                 let mut c = Circuit::new(self.dev.num_qubits, 0);
-                c.extend(blocks[x].lowered.gates[blocks[x].tail..].iter().copied());
+                c.extend(
+                    blocks[x].lowered.circuit().gates[blocks[x].tail..]
+                        .iter()
+                        .copied(),
+                );
                 c.extend(self.step.joins[x][y].gates.iter().copied());
-                c.extend(blocks[y].lowered.gates[..blocks[y].head].iter().copied());
+                c.extend(
+                    blocks[y].lowered.circuit().gates[..blocks[y].head]
+                        .iter()
+                        .copied(),
+                );
                 Ok(((x, y), self.piece(&c)?))
             })
             .collect::<Result<_, IrError>>()?;
@@ -230,14 +230,13 @@ impl<'a> DeviceCampaign<'a> {
     }
 
     fn block(&self, c: &Circuit) -> Result<Block, IrError> {
-        let lowered = lower_to_native(c, &self.dev.native);
-        self.rules_check(&lowered)?;
-        let len = lowered.gates.len();
+        let lowered = self.lowered(c)?;
+        let len = lowered.circuit().gates.len();
         let w = self.window.min(len / 2);
         let (head, tail) = (w, len - w);
-        let interior_text = render(&lowered.gates[head..tail]);
+        let interior_text = render(&lowered, head..tail);
         Ok(Block {
-            interior_tally: self.model.tally(&lowered.gates[head..tail]),
+            interior_tally: self.model.tally(&lowered.circuit().gates[head..tail]),
             lowered,
             head,
             tail,
@@ -306,9 +305,9 @@ impl<'a> DeviceCampaign<'a> {
         let (b0, bl) = (self.step.core_index(0), self.step.core_index(steps - 1));
         let (first, last) = (&st.blocks[b0], &st.blocks[bl]);
         head.extend(self.step.head.gates.iter().copied());
-        head.extend(first.lowered.gates[..first.head].iter().copied());
+        head.extend(first.lowered.circuit().gates[..first.head].iter().copied());
         let mut tail = Circuit::new(self.dev.num_qubits, num_clbits);
-        tail.extend(last.lowered.gates[last.tail..].iter().copied());
+        tail.extend(last.lowered.circuit().gates[last.tail..].iter().copied());
         tail.extend(self.step.tails[bl].gates.iter().copied());
         tail.extend(post.gates);
         Ok(Some((
@@ -329,14 +328,19 @@ impl<'a> DeviceCampaign<'a> {
         mut visit: impl FnMut(&'s [Gate], &'s str, f64, &'s Tally),
     ) {
         let st = self.stitched.as_ref().expect("stitched campaign");
-        visit(&head.gates, &head.text, head.phase, &head.tally);
+        let parts = |p: &'s Piece| {
+            let c = p.lowered.circuit();
+            (&c.gates[..], &p.text[..], c.global_phase, &p.tally)
+        };
+        let (gates, text, phase, tally) = parts(head);
+        visit(gates, text, phase, tally);
         for i in 0..steps {
             let b = self.step.core_index(i);
             let block = &st.blocks[b];
             visit(
                 block.interior(),
                 &block.interior_text,
-                block.lowered.global_phase,
+                block.lowered.circuit().global_phase,
                 &block.interior_tally,
             );
             if i + 1 < steps {
@@ -346,10 +350,12 @@ impl<'a> DeviceCampaign<'a> {
                     .iter()
                     .find(|(k, _)| *k == (b, next))
                     .expect("every consecutive pair has a join");
-                visit(&join.gates, &join.text, join.phase, &join.tally);
+                let (gates, text, phase, tally) = parts(join);
+                visit(gates, text, phase, tally);
             }
         }
-        visit(&tail.gates, &tail.text, tail.phase, &tail.tally);
+        let (gates, text, phase, tally) = parts(tail);
+        visit(gates, text, phase, tally);
     }
 
     /// The whole circuit as one IR circuit, lowered (small steps: the assembled circuit after
@@ -360,7 +366,7 @@ impl<'a> DeviceCampaign<'a> {
         steps: usize,
         suffix: &[Gate],
         num_clbits: usize,
-    ) -> Result<(Circuit, usize, Vec<u32>), IrError> {
+    ) -> Result<(DeviceCircuit, usize, Vec<u32>), IrError> {
         let (head, post, swaps, final_layout) = self.ends(prefix, steps, suffix, num_clbits)?;
         let circuit = assemble(&head, steps, &post, &self.step, self.dev.num_qubits);
         let coupled = |a: u32, b: u32| self.dev.coupled(a, b);
@@ -371,9 +377,7 @@ impl<'a> DeviceCampaign<'a> {
                 native: None,
             },
         )?;
-        let lowered = lower_to_native(&circuit, &self.dev.native);
-        self.rules_check(&lowered)?;
-        Ok((lowered, swaps, final_layout))
+        Ok((self.lowered(&circuit)?, swaps, final_layout))
     }
 
     /// One circuit of the campaign as IR, with its layouts and SWAP count (what [`Self::emit`]
@@ -396,7 +400,7 @@ impl<'a> DeviceCampaign<'a> {
                         phase += p;
                     });
                     c.global_phase = wrap(phase);
-                    (c, swaps, final_layout)
+                    (DeviceCircuit::checked(c, self.dev)?, swaps, final_layout)
                 }
             };
         Ok(Routed {
@@ -420,10 +424,10 @@ impl<'a> DeviceCampaign<'a> {
         match self.stitched_pieces(prefix, steps, suffix, num_clbits)? {
             None => {
                 let (c, swaps, final_layout) = self.whole(prefix, steps, suffix, num_clbits)?;
-                let mut walk = self.model.walk(c.num_qubits);
-                walk.add(&c.gates);
+                let mut walk = self.model.walk(c.circuit().num_qubits);
+                walk.add(&c.circuit().gates);
                 Ok(Emitted {
-                    text: write(&c, Addressing::Physical, comments),
+                    text: write(c.circuit(), Addressing::Physical, comments),
                     costs: walk.finish(swaps),
                     final_layout,
                 })
@@ -437,6 +441,8 @@ impl<'a> DeviceCampaign<'a> {
                     bytes += text.len();
                     walk.add_tallied(gates, tally);
                 });
+                // The header alone: no gates, so nothing to check; the gate lines that follow
+                // are the texts of the checked pieces and blocks.
                 let shell = Circuit {
                     num_qubits: self.dev.num_qubits,
                     num_clbits,
@@ -541,7 +547,7 @@ mod tests {
                         let e = camp.emit(&[], r, &[], 0, &comments).unwrap();
                         assert_eq!(
                             e.text,
-                            write(&routed.circuit, Addressing::Physical, &comments)
+                            write(routed.circuit.circuit(), Addressing::Physical, &comments)
                         );
                         assert_eq!(e.final_layout, routed.final_layout);
                     }

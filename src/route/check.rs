@@ -1,6 +1,8 @@
 //! Checking a routed circuit against its logical original by simulation.
 //!
-//! In: the logical circuit and the [`Routed`] result. Out: the largest amplitude error between
+//! In: the logical circuit and the [`Routed`] result (its circuit a
+//! [`super::DeviceCircuit`]; [`placed_error`] is the same check on any circuit over the device's
+//! sites, such as one routed but not yet lowered). Out: the largest amplitude error between
 //! "run logically, then place by the final layout" and "place by the initial layout, then run
 //! the routed circuit", over a set of input states; global phase included. The routed circuit is
 //! first [`compact`]ed to the physical qubits it touches, so a 12-qubit circuit on a 100-qubit
@@ -43,13 +45,29 @@ fn embed(s: &State, pos: &[u32], k: usize) -> State {
 /// Simulation error of a routing result (see the module header), or why it cannot be checked:
 /// its measurements moved (a routing bug) or it is too wide to simulate.
 pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, RouteError> {
+    placed_error(
+        logical,
+        routed.circuit.circuit(),
+        &routed.initial_layout,
+        &routed.final_layout,
+    )
+}
+
+/// [`routing_error`] of `physical`, a circuit over device sites in any IR gates, that starts
+/// from `initial_layout` and ends at `final_layout` (logical → physical).
+pub fn placed_error(
+    logical: &Circuit,
+    physical: &Circuit,
+    initial_layout: &[u32],
+    final_layout: &[u32],
+) -> Result<f64, RouteError> {
     let n = logical.num_qubits;
     let mut want_meas: Vec<(u32, u32)> = logical
         .measurements()
         .into_iter()
-        .map(|(q, b)| (routed.final_layout[q as usize], b))
+        .map(|(q, b)| (final_layout[q as usize], b))
         .collect();
-    let mut got_meas = routed.circuit.measurements();
+    let mut got_meas = physical.measurements();
     want_meas.sort_unstable();
     got_meas.sort_unstable();
     if want_meas != got_meas {
@@ -58,21 +76,16 @@ pub fn routing_error(logical: &Circuit, routed: &Routed) -> Result<f64, RouteErr
             found: got_meas,
         });
     }
-    let keep: Vec<u32> = routed
-        .initial_layout
-        .iter()
-        .chain(&routed.final_layout)
-        .copied()
-        .collect();
-    let (cc, new_to_phys) = routed.circuit.compacted_keeping(&keep);
+    let keep: Vec<u32> = initial_layout.iter().chain(final_layout).copied().collect();
+    let (cc, new_to_phys) = physical.compacted_keeping(&keep);
     if cc.num_qubits > MAX_CHECK_QUBITS {
         return Err(RouteError::TooWideToCheck {
             qubits: cc.num_qubits,
         });
     }
     let new_of = |p: u32| new_to_phys.iter().position(|&x| x == p).expect("kept") as u32;
-    let init: Vec<u32> = routed.initial_layout.iter().map(|&p| new_of(p)).collect();
-    let fin: Vec<u32> = routed.final_layout.iter().map(|&p| new_of(p)).collect();
+    let init: Vec<u32> = initial_layout.iter().map(|&p| new_of(p)).collect();
+    let fin: Vec<u32> = final_layout.iter().map(|&p| new_of(p)).collect();
     let inputs: Vec<State> = if n <= 5 {
         (0..1usize << n)
             .map(|b| {

@@ -140,7 +140,7 @@ pub fn insert_swaps_in_order(
 mod tests {
     use super::*;
     use crate::device::{lattice, Calibration, NativeSet};
-    use crate::route::{routing_error, Routed};
+    use crate::route::check::placed_error;
     use rand::{Rng, SeedableRng};
 
     #[test]
@@ -180,13 +180,9 @@ mod tests {
                         assert!(dev.coupled(q[0], q[1]));
                     }
                 }
-                let routed = Routed {
-                    circuit: out.circuit,
-                    initial_layout: initial.to_vec(),
-                    final_layout: out.final_layout,
-                    swaps: out.swaps,
-                };
-                assert!(routing_error(&c, &routed).unwrap() < 1e-12);
+                assert!(
+                    placed_error(&c, &out.circuit, &initial, &out.final_layout).unwrap() < 1e-12
+                );
             }
         }
     }

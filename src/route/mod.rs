@@ -2,8 +2,10 @@
 //!
 //! In: a Pauli sum (for planning), logical circuits (system qubits `0..n`, the Hadamard-test
 //! ancilla `n` if any) and a [`Device`]. Out: [`Routed`] circuits on physical qubits with native
-//! gates only, every two-qubit gate on a coupled pair, plus the initial and final layouts; for a
-//! campaign, each circuit's OpenQASM 3 text directly ([`campaign`]).
+//! gates only, every two-qubit gate on a coupled pair (a [`DeviceCircuit`], which only that
+//! check makes), plus the initial and final layouts; for a campaign, each circuit's OpenQASM 3
+//! text directly ([`campaign`]). Circuits between routing and lowering (SWAPs inserted, any IR
+//! gate) stay plain [`Circuit`]s.
 //!
 //! The layout and the CNOT ladders must be chosen before synthesis:
 //!
@@ -74,6 +76,7 @@
 pub mod campaign;
 pub mod cat;
 pub mod check;
+pub mod device_circuit;
 pub mod embed;
 pub mod error;
 pub mod hub;
@@ -93,6 +96,7 @@ use crate::synth::default_ladder;
 use crate::synth::flip::BlockOrder;
 pub use campaign::{DeviceCampaign, Emitted};
 pub use check::{compact, routing_error};
+pub use device_circuit::DeviceCircuit;
 pub use error::RouteError;
 pub use order::{device_order, order_for_device, DeviceOrder};
 pub use reuse::RoutedStep;
@@ -494,9 +498,9 @@ pub const EXTRAS_MAX_UNIT: usize = 20_000;
 /// A circuit on the device.
 #[derive(Clone, Debug)]
 pub struct Routed {
-    /// Physical qubits `0..dev.num_qubits`, native gates only; each measurement reads the
-    /// physical qubit holding the measured logical qubit at the end.
-    pub circuit: Circuit,
+    /// Physical qubits `0..dev.num_qubits`, native gates only, checked as a [`DeviceCircuit`];
+    /// each measurement reads the physical qubit holding the measured logical qubit at the end.
+    pub circuit: DeviceCircuit,
     /// Logical → physical at the start.
     pub initial_layout: Vec<u32>,
     /// Logical → physical at the end.
@@ -1315,8 +1319,8 @@ pub fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
 }
 
 /// SWAP insertion, lowering, fusion and cancellation of one logical circuit; `verify_ir` after
-/// each pass (coupling after routing; coupling and native names after lowering). An error here
-/// is a compiler bug.
+/// each pass (coupling after routing; coupling and native names after lowering, which is
+/// [`DeviceCircuit::checked`]). An error here is a compiler bug.
 pub fn to_device(
     logical: &Circuit,
     plan: &TargetPlan,
@@ -1361,14 +1365,7 @@ pub fn to_device(
             native: None,
         },
     )?;
-    let lowered = lower_to_native(&routed.circuit, &dev.native);
-    verify_ir(
-        &lowered,
-        &Rules {
-            coupled: Some(&coupled),
-            native: Some(&dev.native.names),
-        },
-    )?;
+    let lowered = DeviceCircuit::checked(lower_to_native(&routed.circuit, &dev.native), dev)?;
     Ok(Routed {
         circuit: lowered,
         initial_layout: initial,

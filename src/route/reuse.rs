@@ -789,15 +789,6 @@ mod tests {
         (dev, plan, parts, params)
     }
 
-    fn routed(circuit: Circuit, from: &[u32], to: &[u32]) -> crate::route::Routed {
-        crate::route::Routed {
-            circuit,
-            initial_layout: from.to_vec(),
-            final_layout: to.to_vec(),
-            swaps: 0,
-        }
-    }
-
     #[test]
     fn cut_routing_splits_into_segments_that_each_implement_their_part() {
         let (dev, plan, parts, params) = split_case();
@@ -826,7 +817,7 @@ mod tests {
             );
             let seg = physical(9, &fwd.circuit.gates[outs[i]..outs[i + 1]]);
             let err =
-                crate::route::routing_error(&logical, &routed(seg, &layouts[i], &layouts[i + 1]))
+                crate::route::check::placed_error(&logical, &seg, &layouts[i], &layouts[i + 1])
                     .unwrap();
             assert!(err < 1e-9, "segment {i}: {err}");
         }
@@ -854,7 +845,7 @@ mod tests {
         pair_a.extend(lead.gates.iter().copied());
         for (pair, at) in [(pair_b, &marks[1].layout), (pair_a, &marks[0].layout)] {
             for option in seam_options(pair, &merged, at, &dev, &params) {
-                let err = crate::route::routing_error(&merged, &routed(option, at, at)).unwrap();
+                let err = crate::route::check::placed_error(&merged, &option, at, at).unwrap();
                 assert!(err < 1e-9, "{err}");
             }
         }

@@ -659,7 +659,7 @@ pub fn touched(gates: &[Gate]) -> Vec<Qubit> {
 mod tests {
     use super::*;
     use crate::device::{lattice, Calibration, NativeSet};
-    use crate::route::{routing_error, Routed};
+    use crate::route::check::placed_error;
 
     fn params(stall_limit: Option<usize>) -> SwapParams {
         SwapParams {
@@ -717,13 +717,9 @@ mod tests {
                     },
                 )
                 .unwrap();
-                let routed = Routed {
-                    circuit: out.circuit,
-                    initial_layout: initial.to_vec(),
-                    final_layout: out.final_layout,
-                    swaps: out.swaps,
-                };
-                assert!(routing_error(&c, &routed).unwrap() < 1e-12);
+                assert!(
+                    placed_error(&c, &out.circuit, &initial, &out.final_layout).unwrap() < 1e-12
+                );
             }
         }
     }
