@@ -549,6 +549,7 @@ fn the_sign_flip_on_a_brick_wall_starts_from_the_uncontrolled_layout() {
     let routed = phasewright::route::to_device(&c, &plan, &dev, &cfg).unwrap();
     let uncontrolled = routed
         .circuit
+        .circuit()
         .gates
         .iter()
         .filter(|g| g.is_two_qubit())
