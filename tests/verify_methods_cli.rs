@@ -180,3 +180,51 @@ fn wide_campaigns_default_to_the_tableau_method() {
     assert!(text.contains("tableau method"), "{text}");
     assert!(text.contains("4 of 4 circuits proved equivalent"), "{text}");
 }
+
+#[test]
+fn a_sign_flip_campaign_on_an_rz_ry_heavy_hexagon_is_proved() {
+    // The 3×4 transverse-field Ising model on the 127-qubit heavy hexagon (native rz, ry, cz),
+    // controlled through a sign flip: commutation-aware cancellation removes the CNOTs between
+    // fields and ladders, so one-qubit runs meet that hold rotations about different axes.
+    // Lowering keeps such runs apart, so the tableau method (which reads rotations, not Euler
+    // identities between axes) proves every file; with the runs fused it reported all four
+    // as different at an `rz` whose angle had moved by 5e-4.
+    let dir = tempfile::tempdir().unwrap();
+    let ham = dir.path().join("ising3x4.ham");
+    std::fs::write(
+        &ham,
+        "# an invented 3x4 transverse-field Ising model\nqubits 12\n\
+         sum r in 0..3 { sum c in 0..3 { -1.0 * Z{4*r+c} Z{4*r+c+1} } }\n\
+         sum r in 0..2 { sum c in 0..4 { -1.0 * Z{4*r+c} Z{4*r+c+4} } }\n\
+         sum i in 0..12 { -1.0 * X{i} }\n",
+    )
+    .unwrap();
+    let out = dir.path().join("flip");
+    let out_s = out.display().to_string();
+    run_ok(&[
+        "compile",
+        &ham.display().to_string(),
+        "--state",
+        "0+0+0+0+0+0+",
+        "--dt",
+        "0.1",
+        "--points",
+        "3",
+        "--control",
+        "evolution",
+        "--device",
+        "examples/hexchip127.dev",
+        "-o",
+        &out_s,
+        "-q",
+    ]);
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+    assert!(
+        plan["device"]["flip_string"].is_string(),
+        "{}",
+        plan["device"]
+    );
+    let text = run_ok(&["verify", &out_s, "--method", "tableau"]);
+    assert!(text.contains("4 of 4 circuits proved equivalent"), "{text}");
+}

@@ -261,7 +261,42 @@ fn reaches_through<'a>(gates: impl Iterator<Item = &'a Gate>, p: &Gate) -> bool 
     false
 }
 
-/// Fuses every maximal run of one-qubit gates into at most one native sequence.
+/// Whether the one-qubit matrix `m` is a Clifford gate (up to a phase): it maps `X` and `Z`
+/// to `±X`, `±Y` or `±Z`. Tolerance 1e-9 on the Pauli coefficients.
+fn is_clifford(m: &Mat2) -> bool {
+    use num_complex::Complex64 as C;
+    let adj = |a: &Mat2| {
+        [
+            [a[0][0].conj(), a[1][0].conj()],
+            [a[0][1].conj(), a[1][1].conj()],
+        ]
+    };
+    let (o, i) = (C::new(0.0, 0.0), C::new(1.0, 0.0));
+    [[[o, i], [i, o]], [[i, o], [o, -i]]]
+        .iter()
+        .all(|p: &Mat2| {
+            let img = mat2_mul(&mat2_mul(m, p), &adj(m));
+            // img = x·X + y·Y + z·Z (Hermitian, traceless).
+            let (x, y, z) = (img[0][1].re, -img[0][1].im, img[0][0].re);
+            [x, y, z].iter().any(|c| (c.abs() - 1.0).abs() < 1e-9)
+        })
+}
+
+/// Whether a pending one-qubit run `p` may absorb the next one-qubit gate `m`: unless both are
+/// non-Clifford and do not commute. The fused run is then at most one rotation between
+/// Clifford gates, about one axis, which is what the tableau check reads back from a file
+/// (`tableau::normal`: it sees rotations, not Euler identities between different axes).
+/// Commutation-aware cancellation can bring two rotations about different axes next to each
+/// other (an `rz` of one ladder and the `rx` of a field once the CNOT between them cancels);
+/// they stay two runs. Tolerance 1e-12 on the commutator's entries.
+fn fusable(p: &Mat2, m: &Mat2) -> bool {
+    let (pm, mp) = (mat2_mul(p, m), mat2_mul(m, p));
+    let commute = (0..2).all(|r| (0..2).all(|c| (pm[r][c] - mp[r][c]).norm() < 1e-12));
+    commute || is_clifford(p) || is_clifford(m)
+}
+
+/// Fuses every maximal run of one-qubit gates into at most one native sequence, the run split
+/// where two rotations about different axes would meet ([`fusable`]).
 pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
     let mut pending: Vec<Option<Mat2>> = vec![None; c.num_qubits];
     let mut out = Vec::with_capacity(c.gates.len());
@@ -278,6 +313,9 @@ pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
         match g.matrix1() {
             Some(m) => {
                 let q = g.qubits()[0] as usize;
+                if pending[q].as_ref().is_some_and(|p| !fusable(p, &m)) {
+                    flush(q as Qubit, &mut pending, &mut out, &mut phase);
+                }
                 pending[q] = Some(match &pending[q] {
                     Some(p) => mat2_mul(&m, p),
                     None => m,
@@ -299,7 +337,7 @@ pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
 }
 
 /// Fusion and cancellation in one pass: every maximal run of one-qubit gates becomes one native
-/// sequence, and adjacent inverse two-qubit gates (`cx cx` on the same ordered pair, `cz cz` or
+/// sequence (split where two rotations about different axes would meet, [`fusable`]), and adjacent inverse two-qubit gates (`cx cx` on the same ordered pair, `cz cz` or
 /// `swap swap` on the same pair) vanish when the runs between them on both qubits multiply to a
 /// phase. Each qubit keeps a stack of the live gates that touch it; when a pair cancels, the
 /// native gates of the runs it separated are taken back off the stacks into the pending run, so
@@ -352,6 +390,14 @@ pub fn fuse_and_cancel(c: &mut Circuit, basis: OneQubitBasis) {
     for g in gates {
         if let Some(m) = g.matrix1() {
             let q = g.qubits()[0] as usize;
+            if pending[q].as_ref().is_some_and(|p| !fusable(p, &m)) {
+                let (gs, a) = decompose_pending(q as Qubit, &pending);
+                pending[q] = None;
+                phase += a;
+                for h in gs {
+                    push(h, &mut live, &mut stacks);
+                }
+            }
             pending[q] = Some(match &pending[q] {
                 Some(p) => mat2_mul(&m, p),
                 None => m,
@@ -905,6 +951,67 @@ mod tests {
             assert_eq!(n2, 4, "{names:?}");
             assert!(n2 < before, "{names:?}: {n2} against {before}");
         }
+    }
+
+    /// The rotations the tableau check reads from `c` (`tableau::canonicalise`): the residual
+    /// angles after splitting off quarter turns (`tableau::split_angle`), ascending by size.
+    fn residual_rotations(c: &Circuit) -> Vec<f64> {
+        let mut residuals = Vec::new();
+        crate::tableau::canonicalise(c, c.num_qubits, &mut |r| {
+            let (_, a) = crate::tableau::split_angle(r.angle);
+            if a.abs() > 1e-12 {
+                residuals.push(a.abs());
+            }
+        })
+        .unwrap();
+        residuals.sort_by(f64::total_cmp);
+        residuals
+    }
+
+    #[test]
+    fn one_qubit_runs_keep_rotations_about_different_axes_apart() {
+        // rx(0.1) · rz(−0.1) · rx(0.05): fused into one Euler sequence, the run would read back
+        // as three rotations of other angles (residuals about 0.033, 0.150, 0.067), which the
+        // tableau check cannot match to the three it was built from; kept apart (a run absorbs
+        // a rotation only if one of them is Clifford or they commute), the file reads as the
+        // same rotations. Three rotations meet this way in the sign-flip step on rz/ry devices
+        // once commutation-aware cancellation removes the CNOTs between a field and a ladder.
+        for names in [vec!["rz", "sx", "x", "cx"], vec!["rz", "ry", "cz"]] {
+            let native = NativeSet::from_names(&names).unwrap();
+            let mut c = Circuit::new(1, 0);
+            c.extend([Gate::Rx(0, 0.1), Gate::Rz(0, -0.1), Gate::Rx(0, 0.05)]);
+            let low = lower_to_native(&c, &native);
+            assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
+            let r = residual_rotations(&low);
+            assert_eq!(r.len(), 3, "{names:?}: {:?}", low.gates);
+            for (got, want) in r.iter().zip([0.05, 0.1, 0.1]) {
+                assert!((got - want).abs() < 1e-12, "{names:?}: {r:?}");
+            }
+            // A cancellation that joins runs: rz(0.3) on a target, cx, rx(0.2) (X-type there,
+            // so it commutes with the cx), cx, rz(0.1). The CNOTs go, and the file still reads
+            // as the three rotations.
+            let mut c = Circuit::new(2, 0);
+            c.extend([
+                Gate::Rz(1, 0.3),
+                Gate::Cx(0, 1),
+                Gate::Rx(1, 0.2),
+                Gate::Cx(0, 1),
+                Gate::Rz(1, 0.1),
+            ]);
+            let low = lower_to_native(&c, &native);
+            assert!(unitary_distance(&c, &low) < 1e-12, "{names:?}");
+            assert_eq!(two_qubit_count(&low), 0, "{names:?}");
+            let r = residual_rotations(&low);
+            assert_eq!(r.len(), 3, "{names:?}: {:?}", low.gates);
+            for (got, want) in r.iter().zip([0.1, 0.2, 0.3]) {
+                assert!((got - want).abs() < 1e-12, "{names:?}: {r:?}");
+            }
+        }
+        // Rotations about one axis still merge: rz(0.3) rz(0.2) is one rz.
+        let native = NativeSet::from_names(&["rz", "sx", "x", "cx"]).unwrap();
+        let mut c = Circuit::new(1, 0);
+        c.extend([Gate::Rz(0, 0.3), Gate::Rz(0, 0.2)]);
+        assert_eq!(lower_to_native(&c, &native).gates, vec![Gate::Rz(0, 0.5)]);
     }
 
     #[test]

@@ -29,8 +29,9 @@
 //! What the form does not see: relations between different axes (`e^{−iaX}e^{−ibY}` as Euler
 //! angles about other axes). The check built on it is sound (equal forms mean equal unitaries,
 //! up to the angle tolerance and a global phase) but would call two circuits different that
-//! only such identities relate; phasewright's passes never use them, since the lowering fuses
-//! one-qubit runs that hold at most one non-Clifford rotation each.
+//! only such identities relate; phasewright's passes never use them, since the lowering never
+//! fuses two non-commuting rotations into one one-qubit run (`lower::fuse_and_cancel` splits
+//! the run there, even where a cancellation brought them together).
 //!
 //! ## Cost
 //!
