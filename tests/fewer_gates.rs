@@ -188,6 +188,20 @@ fn plain_device(name: &str, n: usize, links: &[(u32, u32)]) -> Device {
     )
 }
 
+/// An overlap campaign from `state`, one second-order step per `dt`, `points` time points,
+/// the ancilla controlling the evolution.
+fn controlled_overlap(state: String, dt: f64, points: usize) -> Spec {
+    Spec {
+        family: Family::Overlap,
+        order: Order::Second,
+        dt,
+        points,
+        steps_per_dt: 1,
+        states: vec![state],
+        control: phasewright::family::control::Control::Evolution,
+    }
+}
+
 fn k01_re_two_qubit(c: &Compiled) -> usize {
     c.plan
         .circuits
@@ -228,15 +242,7 @@ fn higher_levels_never_emit_more_two_qubit_gates_on_small_suite_members() {
             )),
         ];
         for dev in &devices {
-            let spec = Spec {
-                family: Family::Overlap,
-                order: Order::Second,
-                dt: 0.2,
-                points: 2,
-                steps_per_dt: 1,
-                states: vec!["0".repeat(n)],
-                control: phasewright::family::control::Control::Evolution,
-            };
+            let spec = controlled_overlap("0".repeat(n), 0.2, 2);
             let counts: Vec<usize> = (0..=3)
                 .map(|l| k01_re_two_qubit(&compile(h, &spec, dev.as_ref(), l)))
                 .collect();
@@ -280,15 +286,7 @@ fn a_molecule_on_a_grid_and_a_line_stays_exact_with_coupled_networks() {
         plain_device("grid", 9, &lattice::grid(3, 3)),
         plain_device("line", 9, &lattice::line(9)),
     ];
-    let spec = Spec {
-        family: Family::Overlap,
-        order: Order::Second,
-        dt: 0.2,
-        points: 2,
-        steps_per_dt: 1,
-        states: vec!["11110000".to_string()],
-        control: phasewright::family::control::Control::Evolution,
-    };
+    let spec = controlled_overlap("11110000".to_string(), 0.2, 2);
     assert_eq!(n, 8);
     for dev in &devices {
         let three = compile(&h, &spec, Some(dev), 3);
@@ -381,15 +379,7 @@ fn shuffled_lattice_models_recover_every_edge_and_evolve_without_swaps() {
 fn ising12_on_a_line(points: usize) -> (Device, Spec, Compiled) {
     let h = ising_chain(12);
     let dev = plain_device("line", 13, &lattice::line(13));
-    let spec = Spec {
-        family: Family::Overlap,
-        order: Order::Second,
-        dt: 0.1,
-        points,
-        steps_per_dt: 1,
-        states: vec!["0".repeat(12)],
-        control: phasewright::family::control::Control::Evolution,
-    };
+    let spec = controlled_overlap("0".repeat(12), 0.1, points);
     let best = compile(&h, &spec, Some(&dev), 3);
     (dev, spec, best)
 }
@@ -532,15 +522,7 @@ fn the_sign_flip_on_a_brick_wall_starts_from_the_uncontrolled_layout() {
     // the uncontrolled layout, this case emitted 164 against a reference of 134 (1.22).
     let h = lattice_model(3, 4, false);
     let dev = plain_device("brick", 16, &lattice::brickwall(4, 4));
-    let spec = Spec {
-        family: Family::Overlap,
-        order: Order::Second,
-        dt: 0.1,
-        points: 2,
-        steps_per_dt: 1,
-        states: vec!["0".repeat(12)],
-        control: phasewright::family::control::Control::Evolution,
-    };
+    let spec = controlled_overlap("0".repeat(12), 0.1, 2);
     let best = compile(&h, &spec, Some(&dev), 3);
     assert!(best.plan.device.as_ref().unwrap().flip_string.is_some());
     let cfg = RouteConfig::default();
