@@ -12,9 +12,11 @@
 //!    each other with Hadamards on the target (`cx = (I⊗H)·cz·(I⊗H)`);
 //! 2. [`fuse_and_cancel`], one sweep: every maximal run of one-qubit gates on a qubit becomes
 //!    one 2×2 matrix, written back in the native basis by [`euler::decompose`] (identities
-//!    vanish, their phase goes to `global_phase`); adjacent inverse pairs (`cx cx`, `cz cz`)
-//!    vanish when the runs between them are phases, and the runs they separated fuse again in
-//!    the same sweep ([`fuse_single_qubit`] is the fusion alone);
+//!    vanish, their phase goes to `global_phase`; a run is split where two rotations about
+//!    different axes would meet, so each holds the rotations the tableau check reads back);
+//!    adjacent inverse pairs (`cx cx`, `cz cz`) vanish when the runs between them are phases,
+//!    and the runs they separated fuse again in the same sweep ([`fuse_single_qubit`] is the
+//!    fusion alone);
 //! 3. [`crate::circuit::cancel::cancel_inverses`] as a check that nothing is left, and
 //!    [`cancel_commuting`]: a CNOT (or `cz`) cancels an identical earlier one when everything
 //!    between them on its qubits commutes with it; if either removes gates, step 2 runs again.
@@ -296,7 +298,8 @@ fn fusable(p: &Mat2, m: &Mat2) -> bool {
 }
 
 /// Fuses every maximal run of one-qubit gates into at most one native sequence, the run split
-/// where two rotations about different axes would meet ([`fusable`]).
+/// where two rotations about different axes would meet (a run absorbs a rotation only if one of
+/// the two is Clifford or they commute).
 pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
     let mut pending: Vec<Option<Mat2>> = vec![None; c.num_qubits];
     let mut out = Vec::with_capacity(c.gates.len());
@@ -337,9 +340,10 @@ pub fn fuse_single_qubit(c: &mut Circuit, basis: OneQubitBasis) {
 }
 
 /// Fusion and cancellation in one pass: every maximal run of one-qubit gates becomes one native
-/// sequence (split where two rotations about different axes would meet, [`fusable`]), and adjacent inverse two-qubit gates (`cx cx` on the same ordered pair, `cz cz` or
-/// `swap swap` on the same pair) vanish when the runs between them on both qubits multiply to a
-/// phase. Each qubit keeps a stack of the live gates that touch it; when a pair cancels, the
+/// sequence (split where two rotations about different axes would meet, as in
+/// [`fuse_single_qubit`]), and adjacent inverse two-qubit gates (`cx cx` on the same ordered
+/// pair, `cz cz` or `swap swap` on the same pair) vanish when the runs between them on both
+/// qubits multiply to a phase. Each qubit keeps a stack of the live gates that touch it; when a pair cancels, the
 /// native gates of the runs it separated are taken back off the stacks into the pending run, so
 /// that they fuse with what follows and the cascade (`h cz h · h cz h` → nothing) completes in
 /// the same sweep. Exact: the unitary, global phase included, is kept to rounding.
