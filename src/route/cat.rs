@@ -903,6 +903,83 @@ pub fn candidate_layouts(
     out
 }
 
+/// Copies grown from `base` (system qubits `0..n` and the ancilla `n`) so that as many
+/// system qubits as possible stand beside a control: the network of `synth::Coupled` carries
+/// each string to the nearest qubit coupled to a control, 4 CNOTs a hop, so a qubit beside a
+/// control saves that for every string reduced onto it, where a copy costs 2 CNOTs per
+/// circuit. Greedy: each time the free site beside the controls (or path of two free sites,
+/// counted per copy) that puts the most uncovered system qubits beside a control, lowest
+/// sites first on ties, while it covers at least one per copy; at most [`MAX_COPIES`]. The
+/// controls stay on a connected set of sites, so the fan-out needs no SWAP.
+pub fn covering_copies(base: &[u32], n: usize, comp: &[u32], dev: &Device) -> Vec<u32> {
+    let nbrs = neighbour_lists(dev);
+    let mut layout = base[..=n].to_vec();
+    let mut in_comp = vec![false; dev.num_qubits];
+    for &p in comp {
+        in_comp[p as usize] = true;
+    }
+    let mut used = vec![false; dev.num_qubits];
+    for &p in &layout {
+        used[p as usize] = true;
+    }
+    let mut covered = vec![false; dev.num_qubits];
+    for &p in &nbrs[layout[n] as usize] {
+        covered[p as usize] = true;
+    }
+    let system: Vec<bool> = (0..dev.num_qubits as u32)
+        .map(|p| layout[..n].contains(&p))
+        .collect();
+    let gain = |sites: &[u32], covered: &[bool]| -> usize {
+        let mut new: Vec<u32> = sites
+            .iter()
+            .flat_map(|&f| nbrs[f as usize].iter().copied())
+            .filter(|&p| system[p as usize] && !covered[p as usize])
+            .collect();
+        new.sort_unstable();
+        new.dedup();
+        new.len()
+    };
+    while layout.len() - n - 1 < MAX_COPIES {
+        let free = |p: u32| in_comp[p as usize] && !used[p as usize];
+        let mut best: Option<(usize, usize, Vec<u32>)> = None;
+        for &c in &layout[n..] {
+            for &u in nbrs[c as usize].iter().filter(|&&u| free(u)) {
+                let mut options = vec![vec![u]];
+                if layout.len() - n < MAX_COPIES {
+                    options.extend(
+                        nbrs[u as usize]
+                            .iter()
+                            .filter(|&&v| free(v))
+                            .map(|&v| vec![u, v]),
+                    );
+                }
+                for o in options {
+                    let g = gain(&o, &covered);
+                    // Most covered per copy (compared as g / len), fewer copies on ties.
+                    let better = best.as_ref().is_none_or(|(bg, bl, bo)| {
+                        (g * bl, Reverse(o.len()), Reverse(&o))
+                            > (bg * o.len(), Reverse(*bl), Reverse(bo))
+                    });
+                    if g >= o.len() && better {
+                        best = Some((g, o.len(), o));
+                    }
+                }
+            }
+        }
+        let Some((_, _, o)) = best else {
+            break;
+        };
+        for &f in &o {
+            used[f as usize] = true;
+            for &p in &nbrs[f as usize] {
+                covered[p as usize] = true;
+            }
+        }
+        layout.extend(o);
+    }
+    layout
+}
+
 /// Whether the controls of `layout` (logical `n..`) sit on a connected set of sites.
 fn controls_connected(layout: &[u32], n: usize, dev: &Device) -> bool {
     let ctl = &layout[n..];

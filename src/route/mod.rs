@@ -695,32 +695,73 @@ pub fn plan_and_route_cat_step(
     let mut best: Option<(f64, TargetPlan, RoutedStep)> = None;
     let min_copies = usize::from(cfg.cat_force);
     let bases = [base.initial_layout.clone()];
-    for (_, layout) in cat::candidate_layouts(h, &program, &bases, comp, dev, min_copies) {
+    let shortlist = cat::candidate_layouts(h, &program, &bases, comp, dev, min_copies);
+    // The coupled networks with copies (below) also start from copies grown to cover the
+    // most system qubits, on the winner's layout and on each shortlisted one.
+    let mut layouts: Vec<(bool, Vec<u32>)> =
+        shortlist.into_iter().map(|(_, l)| (true, l)).collect();
+    if cfg.pairs && !cfg.textbook {
+        let mut covering: Vec<Vec<u32>> = Vec::new();
+        for l in bases.iter().chain(layouts.iter().map(|(_, l)| l)) {
+            let c = cat::covering_copies(l, n, comp, dev);
+            if c.len() > n + 1 && !covering.contains(&c) && !layouts.iter().any(|(_, l)| *l == c) {
+                covering.push(c);
+            }
+        }
+        layouts.extend(covering.into_iter().map(|l| (false, l)));
+    }
+    for (ladders, layout) in layouts {
         if layout.len() < n + 1 + min_copies {
             continue;
         }
-        let Some(routed) =
-            cat::route_step(&program, n, &layout, dev, cat::Hopping::when(cfg.pairs))
-        else {
+        let Ok(plan) = TargetPlan::with_copies(n, dev, layout.clone()) else {
             continue;
         };
-        let Ok(mut plan) = TargetPlan::with_copies(n, dev, layout.clone()) else {
-            continue;
-        };
-        plan.temporary_copies = routed.temporary_copies;
-        let step = reuse::unsplit(routed.circuit, layout, routed.final_layout, dev, symmetric);
-        let cost = |r: usize| {
-            cat_circuit_two_qubit(&step, n, r, dev, &plan_swap_params(&plan, cfg)) as f64
-        };
-        let score = match cfg.campaign_weights {
-            Some((circuits, steps)) => {
-                let (c1, c2) = (cost(1), cost(2));
-                circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
+        let mut offer = |plan: TargetPlan, step: RoutedStep| {
+            let cost = |r: usize| {
+                cat_circuit_two_qubit(&step, n, r, dev, &plan_swap_params(&plan, cfg)) as f64
+            };
+            let score = match cfg.campaign_weights {
+                Some((circuits, steps)) => {
+                    let (c1, c2) = (cost(1), cost(2));
+                    circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
+                }
+                None => cost(1),
+            };
+            if best.as_ref().is_none_or(|(b, _, _)| score < *b) {
+                best = Some((score, plan, step));
             }
-            None => cost(1),
         };
-        if best.as_ref().is_none_or(|(b, _, _)| score < *b) {
-            best = Some((score, plan, step));
+        if let Some(routed) = ladders
+            .then(|| cat::route_step(&program, n, &layout, dev, cat::Hopping::when(cfg.pairs)))
+            .flatten()
+        {
+            let mut plan = plan.clone();
+            plan.temporary_copies = routed.temporary_copies;
+            let step = reuse::unsplit(routed.circuit, layout, routed.final_layout, dev, symmetric);
+            offer(plan, step);
+        }
+        // The commuting runs synthesised on the coupling graph with every copy as a control
+        // (`synth::Coupled::copies`): strings are carried to the nearest control, not to the
+        // ancilla, and the step needs no SWAP.
+        if cfg.pairs && !cfg.textbook {
+            for carry in [false, true] {
+                if carry && n > CARRY_MAX_QUBITS {
+                    continue;
+                }
+                let mut plan = plan.clone();
+                plan.spread = false;
+                plan.step_form = StepForm {
+                    groups: true,
+                    coupled: true,
+                    carry,
+                    ..StepForm::default()
+                };
+                let parts = reuse::step_parts_on(&plan.terms(h), &plan, order, dt, Some(dev));
+                let params = plan_swap_params(&plan, cfg);
+                let step = reuse::route_step(&parts, &plan, dev, &params, symmetric);
+                offer(plan, step);
+            }
         }
     }
     best.map(|(_, plan, step)| (plan, step))

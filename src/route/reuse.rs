@@ -284,11 +284,17 @@ fn controlled(rotations: &[Rotation], plan: &TargetPlan, dev: Option<&Device>) -
             }),
         };
         if plan.step_form.groups && plan.step_form.coupled {
+            // The copies of a spread control follow the ancilla (`TargetPlan::copies`).
+            let copies: Vec<crate::circuit::Qubit> = plan
+                .ancilla
+                .map(|a| (a + 1..a + 1 + plan.copies as u32).collect())
+                .unwrap_or_default();
             Coupled {
                 width: plan.initial_layout.len(),
                 ladder: &ladder,
                 roam: plan.step_form.roam,
                 carry: plan.step_form.carry,
+                copies: &copies,
             }
             .synthesize(&block, &mut c.gates);
         } else if plan.step_form.groups {

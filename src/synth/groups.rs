@@ -1187,6 +1187,11 @@ pub struct Coupled<'a> {
     /// undoing every run's network at once (see the module essay, "Carrying the frame on the
     /// graph").
     pub carry: bool,
+    /// Copies of the control (logical qubits holding the control's computational-basis value,
+    /// `route::cat`): kept out of the network like the control, and each `rz` controlled by
+    /// whichever of the control and its copies is coupled to its qubit (see the module essay,
+    /// "Copies of the control"). Empty for the usual single control.
+    pub copies: &'a [Qubit],
 }
 
 /// The coupling graph among the local qubits of [`Coupled`] (the logical qubits but the
@@ -1200,6 +1205,9 @@ struct LocalGraph {
     /// Each qubit's distance to the nearest qubit coupled to the control (the bias of the
     /// reductions; equal to `to_target` unless [`Coupled::roam`]).
     to_near: Vec<u32>,
+    /// The qubit whose value controls an `rz` on each local qubit: the control, or a copy
+    /// coupled to it where the control is not ([`Coupled::copies`]); `None` without a control.
+    control: Vec<Option<Qubit>>,
 }
 
 const UNREACHED: u32 = u32::MAX;
@@ -1254,6 +1262,7 @@ impl LocalGraph {
             hops,
             to_target,
             to_near,
+            control: vec![None; m],
         }
     }
 }
@@ -1424,10 +1433,25 @@ fn coupled_network(rows: &mut [Row], g: &LocalGraph) -> Option<Vec<Event>> {
 }
 
 /// The gates of [`Coupled`], or `None` where the block cannot be placed on the graph.
-fn coupled_gates(block: &Block, width: usize, roam: bool, carry: bool) -> Option<Vec<Gate>> {
+fn coupled_gates(
+    block: &Block,
+    width: usize,
+    copies: &[Qubit],
+    roam: bool,
+    carry: bool,
+) -> Option<Vec<Gate>> {
     let distance = block.distance?;
+    if !copies.is_empty() && (roam || block.control.is_none()) {
+        return None;
+    }
+    // The control first, so that it controls every `rz` it is coupled to.
+    let controls: Vec<Qubit> = block
+        .control
+        .into_iter()
+        .chain(copies.iter().copied())
+        .collect();
     let locals: Vec<Qubit> = (0..width as Qubit)
-        .filter(|&q| Some(q) != block.control)
+        .filter(|q| !controls.contains(q))
         .collect();
     let m = locals.len();
     if m == 0 || m > WIDTH_MAX {
@@ -1438,9 +1462,14 @@ fn coupled_gates(block: &Block, width: usize, roam: bool, carry: bool) -> Option
         return None;
     }
     let all = u128::MAX >> (128 - m);
+    // Each local's control: the first of the controls coupled to it.
+    let beside: Vec<Option<Qubit>> = locals
+        .iter()
+        .map(|&l| controls.iter().copied().find(|&c| distance(l, c) == 1))
+        .collect();
     let near = match block.control {
-        Some(c) => (0..m)
-            .filter(|&l| distance(locals[l], c) == 1)
+        Some(_) => (0..m)
+            .filter(|&l| beside[l].is_some())
             .fold(0u128, |s, l| s | 1 << l),
         None => all,
     };
@@ -1449,7 +1478,13 @@ fn coupled_gates(block: &Block, width: usize, roam: bool, carry: bool) -> Option
     }
     let target = if roam { all } else { near };
     let coupled = |a: usize, b: usize| distance(locals[a], locals[b]) == 1;
-    let g = LocalGraph::new(m, &coupled, target, near);
+    let mut g = LocalGraph::new(m, &coupled, target, near);
+    // Without copies every `rz` takes the block's control (the roaming form's router brings
+    // it there); with copies, the one coupled to the rotated qubit.
+    g.control = beside
+        .iter()
+        .map(|b| block.control.map(|c| b.unwrap_or(c)))
+        .collect();
     if carry {
         let mut out = Vec::new();
         carried_on_graph(block, &locals, &g, &mut out)?;
@@ -1482,7 +1517,7 @@ fn coupled_gates(block: &Block, width: usize, roam: bool, carry: bool) -> Option
                     locals[q as usize],
                     letter,
                     neg,
-                    block.control,
+                    g.control[q as usize],
                     &mut out,
                 ),
             }
@@ -1613,7 +1648,7 @@ fn carried_on_graph(
                         locals[q as usize],
                         r.letter(q),
                         r.neg,
-                        block.control,
+                        g.control[q as usize],
                         out,
                     );
                     false
@@ -1720,7 +1755,7 @@ fn carried_on_graph(
                         locals[q as usize],
                         letter,
                         neg,
-                        block.control,
+                        g.control[q as usize],
                         out,
                     );
                     if !ops.is_empty() {
@@ -1778,13 +1813,13 @@ fn control_in_frame_on_graph(block: &Block, width: usize) -> Option<Vec<Gate>> {
         control: None,
         distance: block.distance,
     };
-    coupled_gates(&uncontrolled, width, false, true)
+    coupled_gates(&uncontrolled, width, &[], false, true)
 }
 
 impl Strategy for Coupled<'_> {
     fn synthesize(&self, block: &Block, out: &mut Vec<Gate>) {
-        let mut gates = coupled_gates(block, self.width, self.roam, self.carry);
-        if self.carry && !self.roam {
+        let mut gates = coupled_gates(block, self.width, self.copies, self.roam, self.carry);
+        if self.carry && !self.roam && self.copies.is_empty() {
             // The control in the frame competes with the carried form; fewer CNOTs win.
             let two = |g: &[Gate]| g.iter().filter(|g| g.is_two_qubit()).count();
             if let Some(f) = control_in_frame_on_graph(block, self.width) {
@@ -2036,6 +2071,7 @@ mod tests {
                 distance: Some(&dist),
             },
             n,
+            &[],
             roam,
             carry,
         )?;
@@ -2073,6 +2109,118 @@ mod tests {
             }
         }
         edges
+    }
+
+    #[test]
+    fn copies_of_the_control_take_the_rotations_beside_them() {
+        // A 2×4 grid of system qubits 0–7 (rows 0–3 and 4–7), the control 8 beside 0 and a
+        // copy 9 beside 7 (both ends of the grid), and a commuting run of strings at both
+        // ends. The circuit, between the fan-out cx(8, 9) and its undoing, must equal the
+        // controlled product on every state with the copy at |0⟩, every CNOT on an edge, and
+        // the strings beside the copy must not be carried to the control: fewer CNOTs than
+        // with the control alone.
+        let mut edges: Vec<(u32, u32)> = vec![(0, 1), (1, 2), (2, 3), (4, 5), (5, 6), (6, 7)];
+        edges.extend((0..4).map(|k| (k, k + 4)));
+        edges.extend([(0, 8), (7, 9)]);
+        let (n, width) = (8usize, 10usize);
+        let hops = hop_table(width, &edges);
+        let dist = |a: Qubit, b: Qubit| hops[a as usize][b as usize];
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        let (mut alone, mut shared) = (0, 0);
+        for case in 0..40 {
+            let block: Vec<Rotation> = (0..6)
+                .map(|_| {
+                    let mut text = String::new();
+                    for q in 0..n {
+                        if rand::Rng::gen_bool(&mut rng, 0.3) {
+                            text.push_str(&format!(
+                                "{}{q} ",
+                                ["X", "Y", "Z"][rand::Rng::gen_range(&mut rng, 0..3)]
+                            ));
+                        }
+                    }
+                    if text.is_empty() {
+                        text = format!("Z{}", rand::Rng::gen_range(&mut rng, 0..n));
+                    }
+                    rot(text.trim(), rand::Rng::gen_range(&mut rng, -1.0..1.0))
+                })
+                .collect();
+            let synth = |copies: &[Qubit], carry: bool| {
+                let ladder = |r: &Rotation| super::super::default_ladder(r);
+                let mut gates = Vec::new();
+                Coupled {
+                    width,
+                    ladder: &ladder,
+                    roam: false,
+                    carry,
+                    copies,
+                }
+                .synthesize(
+                    &Block {
+                        rotations: &block,
+                        control: Some(8),
+                        distance: Some(&dist),
+                    },
+                    &mut gates,
+                );
+                gates
+            };
+            for carry in [false, true] {
+                let gates = synth(&[9], carry);
+                let mut inner = Circuit::new(width, 0);
+                inner.extend(gates.iter().copied());
+                let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
+                crate::circuit::verify::verify_ir(
+                    &inner,
+                    &crate::circuit::verify::Rules {
+                        coupled: Some(&coupled),
+                        native: None,
+                    },
+                )
+                .expect("every CNOT on an edge");
+                // The fan-out is not on an edge here: the test's copy stands apart.
+                let mut c = Circuit::new(width, 0);
+                c.push(Gate::Cx(8, 9));
+                c.extend(gates.iter().copied());
+                c.push(Gate::Cx(8, 9));
+                assert!(
+                    gates
+                        .iter()
+                        .filter(|g| g.is_two_qubit())
+                        .all(|g| g.qubits().contains(&9) <= g.qubits().contains(&7)),
+                    "the copy controls only the qubit beside it"
+                );
+                // Random states of qubits 0–8, the copy (the highest bit) at |0⟩.
+                for _ in 0..2 {
+                    let small = State::random(n + 1, &mut rng);
+                    let mut amps = small.amps.clone();
+                    amps.resize(1 << width, num_complex::Complex64::new(0.0, 0.0));
+                    let s = State {
+                        amps,
+                        ..State::zero(width)
+                    };
+                    let got = run(&c, s.clone());
+                    let mut on = s.clone();
+                    for r in &block {
+                        on.apply_pauli_rotation(&r.pauli, r.theta);
+                    }
+                    for (b, g) in got.amps.iter().enumerate() {
+                        let want = if (b >> 8) & 1 == 0 {
+                            s.amps[b]
+                        } else {
+                            on.amps[b]
+                        };
+                        assert!((g - want).norm() < 1e-9, "case {case}, carry {carry}");
+                    }
+                }
+            }
+            alone += two_qubit(&synth(&[], false));
+            shared += two_qubit(&synth(&[9], false));
+        }
+        assert!(
+            shared < alone,
+            "{shared} CNOTs with the copy, {alone} without"
+        );
     }
 
     #[test]
