@@ -41,8 +41,10 @@
 //!    With `RouteConfig::cat` (level 3) [`plan_and_route_cat_step`] also routes the step with
 //!    the control spread over copies of the ancilla on spare sites ([`cat`]): layouts grown
 //!    from the winner's and from exact embeddings, copies added where they pay, the step
-//!    routed with each controlled `rz` on the copy nearest its root; the pipeline keeps it only
-//!    when the campaign it emits is cheaper. Where one Pauli string anticommutes with every
+//!    routed with each controlled `rz` on the copy nearest its root, or written by the
+//!    coupled networks with every copy as a control (`synth::Coupled::copies`, also on copies
+//!    grown to stand beside the most system qubits, [`cat::covering_copies`]); the pipeline
+//!    keeps it only when the campaign it emits is cheaper. Where one Pauli string anticommutes with every
 //!    term of a symmetric formula (level 3, below [`EXTRAS_MAX_UNIT`]), the step is also
 //!    written by a sign flip ([`StepForm::flip`], `synth::flip`): every rotation uncontrolled,
 //!    the ancilla controlling that string twice per step, scored like the other forms.
@@ -666,12 +668,15 @@ fn route_with(
 
 /// The cat candidate ([`cat`]): the step of `order` and length `dt` routed with control copies
 /// of the ancilla on spare sites, starting from `base`'s layout (the ordinary search's winner)
-/// and from exact embeddings. Each shortlisted layout is routed and scored by the two-qubit
-/// gates emitted for a circuit of one step, fan-out and its undoing included (with
+/// and from exact embeddings. Each shortlisted layout is routed ([`cat::route_step`]) and,
+/// with `RouteConfig::pairs`, also written by the coupled networks with every copy as a
+/// control (with and without the carried frame), as is each layout with copies grown by
+/// [`cat::covering_copies`]; every candidate is scored by the two-qubit gates emitted for a
+/// circuit of one step, fan-out and its undoing included (with
 /// `RouteConfig::campaign_weights`, for the campaign's circuits and steps as
-/// [`plan_and_route_step`] compares its steps). `None` when the device has no spare site, the
-/// step is past [`EXTRAS_MAX_UNIT`] or [`cat::MAX_ROTATIONS`], or no layout gets a copy. The
-/// pipeline keeps it only when the whole campaign it emits is cheaper.
+/// [`plan_and_route_step`] compares its steps). `None` when the device has no spare site,
+/// the step is past [`EXTRAS_MAX_UNIT`] or [`cat::MAX_ROTATIONS`], or no layout gets a copy.
+/// The pipeline keeps it only when the whole campaign it emits is cheaper.
 pub fn plan_and_route_cat_step(
     h: &PauliSum,
     dev: &Device,
@@ -688,6 +693,7 @@ pub fn plan_and_route_cat_step(
     }
     let program = crate::formula::step(&order_terms(h), order, dt);
     let unit: usize = program.iter().map(|r| 4 * r.pauli.weight() as usize).sum();
+    let coupled = cfg.pairs && !cfg.textbook;
     if program.is_empty() || program.len() > cat::MAX_ROTATIONS || unit > EXTRAS_MAX_UNIT {
         return None;
     }
@@ -700,7 +706,7 @@ pub fn plan_and_route_cat_step(
     // most system qubits, on the winner's layout and on each shortlisted one.
     let mut layouts: Vec<(bool, Vec<u32>)> =
         shortlist.into_iter().map(|(_, l)| (true, l)).collect();
-    if cfg.pairs && !cfg.textbook {
+    if coupled {
         let mut covering: Vec<Vec<u32>> = Vec::new();
         for l in bases.iter().chain(layouts.iter().map(|(_, l)| l)) {
             let c = cat::covering_copies(l, n, comp, dev);
@@ -744,7 +750,7 @@ pub fn plan_and_route_cat_step(
         // The commuting runs synthesised on the coupling graph with every copy as a control
         // (`synth::Coupled::copies`): strings are carried to the nearest control, not to the
         // ancilla, and the step needs no SWAP.
-        if cfg.pairs && !cfg.textbook {
+        if coupled {
             for carry in [false, true] {
                 if carry && n > CARRY_MAX_QUBITS {
                     continue;
