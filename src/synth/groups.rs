@@ -1892,6 +1892,51 @@ mod tests {
         err
     }
 
+    /// Largest amplitude error of `gates` on `width` qubits (the system `0..control`, the
+    /// control, then its copies up to `width`) against `Π exp(−iθ_j P_j)` applied where the
+    /// control is |1⟩, over two random states of the system and control with the copies at
+    /// |0⟩, each copy set to the control's value by `cx(control, copy)` before the gates and
+    /// cleared the same way after (the fan-out of `route::cat`).
+    fn copies_error(
+        gates: &[Gate],
+        block: &[Rotation],
+        control: Qubit,
+        width: usize,
+        rng: &mut impl rand::Rng,
+    ) -> f64 {
+        let fan: Vec<Gate> = (control + 1..width as Qubit)
+            .map(|c| Gate::Cx(control, c))
+            .collect();
+        let mut c = Circuit::new(width, 0);
+        c.extend(fan.iter().copied());
+        c.extend(gates.iter().copied());
+        c.extend(fan.iter().rev().copied());
+        let mut err: f64 = 0.0;
+        for _ in 0..2 {
+            // The copies are the highest qubits: padding keeps them at |0⟩.
+            let mut amps = State::random(control as usize + 1, rng).amps;
+            amps.resize(1 << width, num_complex::Complex64::new(0.0, 0.0));
+            let s = State {
+                amps,
+                ..State::zero(width)
+            };
+            let got = run(&c, s.clone());
+            let mut on = s.clone();
+            for r in block {
+                on.apply_pauli_rotation(&r.pauli, r.theta);
+            }
+            for (b, g) in got.amps.iter().enumerate() {
+                let want = if (b >> control) & 1 == 0 {
+                    s.amps[b]
+                } else {
+                    on.amps[b]
+                };
+                err = err.max((g - want).norm());
+            }
+        }
+        err
+    }
+
     fn synth(
         block: &[Rotation],
         control: Option<Qubit>,
@@ -2192,11 +2237,6 @@ mod tests {
                     },
                 )
                 .expect("every CNOT on an edge");
-                // The fan-out is not on an edge here: the test's copy stands apart.
-                let mut c = Circuit::new(width, 0);
-                c.push(Gate::Cx(8, 9));
-                c.extend(gates.iter().copied());
-                c.push(Gate::Cx(8, 9));
                 assert!(
                     gates
                         .iter()
@@ -2204,29 +2244,8 @@ mod tests {
                         .all(|g| g.qubits().contains(&9) <= g.qubits().contains(&7)),
                     "the copy controls only the qubit beside it"
                 );
-                // Random states of qubits 0–8, the copy (the highest bit) at |0⟩.
-                for _ in 0..2 {
-                    let small = State::random(n + 1, &mut rng);
-                    let mut amps = small.amps.clone();
-                    amps.resize(1 << width, num_complex::Complex64::new(0.0, 0.0));
-                    let s = State {
-                        amps,
-                        ..State::zero(width)
-                    };
-                    let got = run(&c, s.clone());
-                    let mut on = s.clone();
-                    for r in &block {
-                        on.apply_pauli_rotation(&r.pauli, r.theta);
-                    }
-                    for (b, g) in got.amps.iter().enumerate() {
-                        let want = if (b >> 8) & 1 == 0 {
-                            s.amps[b]
-                        } else {
-                            on.amps[b]
-                        };
-                        assert!((g - want).norm() < 1e-9, "case {case}, carry {carry}");
-                    }
-                }
+                let err = copies_error(&gates, &block, 8, width, &mut rng);
+                assert!(err < 1e-9, "case {case}, carry {carry}: {err}");
             }
             alone += two_qubit(&synth(&[], false));
             shared += two_qubit(&synth(&[9], false));
@@ -2369,6 +2388,49 @@ mod tests {
             let gates = coupled_synth_with(&block, control, 5 + ctl as usize, &edges, roam, true);
             prop_assert!(gates.is_some(), "a connected graph always places the block");
             prop_assert!(block_error(&gates.unwrap(), &block, control, 6) < 1e-9);
+        }
+
+        // Copies of the control (`Coupled::copies`) on random dense sums through one Strang
+        // step, on random connected graphs of 5 qubits with the ancilla (qubit 5) joined to
+        // 1–3 of them and two copies (6, 7) each joined to one or two system qubits, carried
+        // frame or not: every CNOT on a coupled pair, the control and its copies only ever the
+        // control of a CNOT, and, with the copies set to the control's value, the controlled
+        // ordered product to 1e-9.
+        #[test]
+        fn copies_of_the_control_keep_the_controlled_product(
+            raw in proptest::collection::vec((any::<u64>(), any::<u64>(), -1.0f64..1.0), 1..20),
+            picks in proptest::collection::vec((any::<u32>(), any::<u32>()), 7),
+            joins in proptest::collection::vec(0u32..5, 4),
+            carry in any::<bool>(),
+            seed in any::<u64>(),
+        ) {
+            let h = masked_sum(5, &raw);
+            prop_assume!(!h.terms.is_empty());
+            let block = crate::formula::step(&crate::formula::order_terms(&h), crate::formula::Order::Second, 0.3);
+            let mut edges = random_graph(&picks, 5, true);
+            edges.extend([(joins[0], 6), (joins[1], 6), (joins[2], 7), (joins[3], 7)]);
+            edges.sort_unstable();
+            edges.dedup();
+            let hops = hop_table(8, &edges);
+            let dist = |a: Qubit, b: Qubit| hops[a as usize][b as usize];
+            let ladder = |r: &Rotation| super::super::default_ladder(r);
+            let mut gates = Vec::new();
+            Coupled { width: 8, ladder: &ladder, roam: false, carry, copies: &[6, 7] }.synthesize(
+                &Block { rotations: &block, control: Some(5), distance: Some(&dist) },
+                &mut gates,
+            );
+            let mut c = Circuit::new(8, 0);
+            c.extend(gates.iter().copied());
+            let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
+            let rules = crate::circuit::verify::Rules { coupled: Some(&coupled), native: None };
+            prop_assert!(crate::circuit::verify::verify_ir(&c, &rules).is_ok());
+            let kept_apart = gates.iter().all(|g| match g {
+                Gate::Cx(_, t) => *t < 5,
+                g => g.qubits().iter().all(|&q| q < 5),
+            });
+            prop_assert!(kept_apart, "a gate acts on the control or a copy");
+            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+            prop_assert!(copies_error(&gates, &block, 5, 8, &mut rng) < 1e-9);
         }
 
         // The control in the frame on the graph (`control_in_frame_on_graph`) on random dense
