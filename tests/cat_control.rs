@@ -13,6 +13,8 @@
 //! circuit must leave exactly that state on the system qubits and the ancilla (placed by the
 //! plan's final layout), and |0⟩ on every other physical qubit, copies included, to 1e-9.
 
+mod route_support;
+
 use num_complex::Complex64;
 use phasewright::circuit::{Circuit, Gate};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
@@ -321,15 +323,7 @@ fn a_three_site_chain_with_two_copies_counted_by_hand() {
         config: &cfg,
     };
     let with = compile_at(&h, "chain3", &spec, &target, OptLevel::MAX).unwrap();
-    let without_cfg = RouteConfig {
-        cat: false,
-        ..RouteConfig::default()
-    };
-    let target = Target::Device {
-        device: &dev,
-        config: &without_cfg,
-    };
-    let without = compile_at(&h, "chain3", &spec, &target, OptLevel::MAX).unwrap();
+    let without = route_support::compile_without_copies(&h, "chain3", &spec, &dev);
     let k1 = |p: &Plan| {
         p.circuits
             .iter()

@@ -326,15 +326,7 @@ fn copies_of_the_control_shorten_a_molecule_s_networks_on_a_grid_with_spare_site
         !d.spare_qubits,
         "the coupled form uses no free site but its copies"
     );
-    let cfg = RouteConfig {
-        cat: false,
-        ..RouteConfig::default()
-    };
-    let target = Target::Device {
-        device: &dev,
-        config: &cfg,
-    };
-    let without = compile_at(&h, "h4", &spec, &target, OptLevel::new(3).unwrap()).unwrap();
+    let without = route_support::compile_without_copies(&h, "h4", &spec, &dev);
     assert!(without
         .plan
         .device

@@ -1892,6 +1892,19 @@ mod tests {
         err
     }
 
+    /// Whether `gates` on `width` qubits pass the IR verifier with every two-qubit gate on a
+    /// pair at hop distance 1 in `hops`.
+    fn on_edges(gates: &[Gate], width: usize, hops: &[Vec<u32>]) -> bool {
+        let mut c = Circuit::new(width, 0);
+        c.extend(gates.iter().copied());
+        let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
+        let rules = crate::circuit::verify::Rules {
+            coupled: Some(&coupled),
+            native: None,
+        };
+        crate::circuit::verify::verify_ir(&c, &rules).is_ok()
+    }
+
     /// Largest amplitude error of `gates` on `width` qubits (the system `0..control`, the
     /// control, then its copies up to `width`) against `Π exp(−iθ_j P_j)` applied where the
     /// control is |1⟩, over two random states of the system and control with the copies at
@@ -2226,17 +2239,7 @@ mod tests {
             };
             for carry in [false, true] {
                 let gates = synth(&[9], carry);
-                let mut inner = Circuit::new(width, 0);
-                inner.extend(gates.iter().copied());
-                let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
-                crate::circuit::verify::verify_ir(
-                    &inner,
-                    &crate::circuit::verify::Rules {
-                        coupled: Some(&coupled),
-                        native: None,
-                    },
-                )
-                .expect("every CNOT on an edge");
+                assert!(on_edges(&gates, width, &hops), "every CNOT on an edge");
                 assert!(
                     gates
                         .iter()
@@ -2419,11 +2422,7 @@ mod tests {
                 &Block { rotations: &block, control: Some(5), distance: Some(&dist) },
                 &mut gates,
             );
-            let mut c = Circuit::new(8, 0);
-            c.extend(gates.iter().copied());
-            let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
-            let rules = crate::circuit::verify::Rules { coupled: Some(&coupled), native: None };
-            prop_assert!(crate::circuit::verify::verify_ir(&c, &rules).is_ok());
+            prop_assert!(on_edges(&gates, 8, &hops), "every CNOT on an edge");
             let kept_apart = gates.iter().all(|g| match g {
                 Gate::Cx(_, t) => *t < 5,
                 g => g.qubits().iter().all(|&q| q < 5),
@@ -2454,11 +2453,7 @@ mod tests {
             );
             prop_assert!(gates.is_some(), "a connected graph always places the block");
             let gates = gates.unwrap();
-            let mut c = Circuit::new(6, 0);
-            c.extend(gates.iter().copied());
-            let coupled = |a: u32, b: u32| hops[a as usize][b as usize] == 1;
-            let rules = crate::circuit::verify::Rules { coupled: Some(&coupled), native: None };
-            prop_assert!(crate::circuit::verify::verify_ir(&c, &rules).is_ok());
+            prop_assert!(on_edges(&gates, 6, &hops), "every CNOT on an edge");
             prop_assert!(block_error(&gates, &block, Some(5), 6) < 1e-9);
         }
 

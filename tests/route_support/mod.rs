@@ -3,7 +3,10 @@
 #![allow(dead_code)]
 
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
+use phasewright::family::Spec;
 use phasewright::pauli::{PauliString, PauliSum};
+use phasewright::pipeline::{compile_at, Compiled, OptLevel, Target};
+use phasewright::route::RouteConfig;
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 
@@ -69,4 +72,18 @@ pub fn random_state(n: usize, rng: &mut ChaCha8Rng) -> String {
         s[i + 1] = 's';
     }
     s.into_iter().collect()
+}
+
+/// `h` compiled at level 3 on `dev` without the spread control (`RouteConfig::cat` off), the
+/// comparison for the campaigns that may keep copies of the ancilla.
+pub fn compile_without_copies(h: &PauliSum, name: &str, spec: &Spec, dev: &Device) -> Compiled {
+    let cfg = RouteConfig {
+        cat: false,
+        ..RouteConfig::default()
+    };
+    let target = Target::Device {
+        device: dev,
+        config: &cfg,
+    };
+    compile_at(h, name, spec, &target, OptLevel::MAX).expect("compiles")
 }
