@@ -12,6 +12,7 @@
 
 pub mod cancel;
 pub mod metrics;
+pub mod schedule;
 pub mod verify;
 
 use num_complex::Complex64;

@@ -461,6 +461,13 @@ pub fn fuse_and_cancel(c: &mut Circuit, basis: OneQubitBasis) {
     c.global_phase = euler::wrap(c.global_phase + phase);
 }
 
+/// [`lower_to_native`], then the gates reordered across what they commute with where that
+/// lowers the two-qubit depth ([`crate::circuit::schedule::shallower`]): what is written out.
+/// The count is that of [`lower_to_native`]; only the order (and so the depth) differs.
+pub fn lower_for_output(c: &Circuit, native: &NativeSet) -> Circuit {
+    crate::circuit::schedule::shallower(lower_to_native(c, native))
+}
+
 /// The whole lowering: the slide, translation, then fusion and cancellation ([`fuse_and_cancel`]),
 /// then commutation-aware cancellation ([`cancel_commuting`]); fusion runs again while a
 /// cancellation pass still finds work.

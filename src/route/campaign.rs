@@ -43,7 +43,7 @@ use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Gate};
 use crate::device::{CostModel, Device, Tally};
 use crate::lower::euler::wrap;
-use crate::lower::lower_to_native;
+use crate::lower::lower_for_output;
 use crate::plan::Costs;
 use crate::qasm::{write, write_gates_to, Addressing};
 use rayon::prelude::*;
@@ -183,7 +183,7 @@ impl<'a> DeviceCampaign<'a> {
 
     /// Lowers `c` (physical, any IR gates) and checks the result as a [`DeviceCircuit`].
     fn lowered(&self, c: &Circuit) -> Result<DeviceCircuit, IrError> {
-        DeviceCircuit::checked(lower_to_native(c, &self.dev.native), self.dev)
+        DeviceCircuit::checked(lower_for_output(c, &self.dev.native), self.dev)
     }
 
     /// Lowers `c` (physical, any IR gates), verifies it and prints its gate lines.

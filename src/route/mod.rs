@@ -92,7 +92,7 @@ use crate::circuit::verify::{verify_ir, IrError, Rules};
 use crate::circuit::{Circuit, Qubit};
 use crate::device::{Device, UNREACHABLE};
 use crate::formula::{order_terms, term_groups, Order, Rotation};
-use crate::lower::lower_to_native;
+use crate::lower::{lower_for_output, lower_to_native};
 use crate::pauli::{PauliString, PauliSum};
 use crate::synth::default_ladder;
 use crate::synth::flip::BlockOrder;
@@ -1412,7 +1412,7 @@ pub fn to_device(
             native: None,
         },
     )?;
-    let lowered = DeviceCircuit::checked(lower_to_native(&routed.circuit, &dev.native), dev)?;
+    let lowered = DeviceCircuit::checked(lower_for_output(&routed.circuit, &dev.native), dev)?;
     Ok(Routed {
         circuit: lowered,
         initial_layout: initial,
