@@ -41,7 +41,8 @@
 //!    With `RouteConfig::cat` (level 3) [`plan_and_route_cat_step`] also routes the step with
 //!    the control spread over copies of the ancilla on spare sites ([`cat`]): layouts grown
 //!    from the winner's and from exact embeddings, copies added where they pay, the step
-//!    routed with each controlled `rz` on the copy nearest its root, or written by the
+//!    routed with each controlled `rz` on the copy nearest its root (the controls moved
+//!    one at a time or together as a front, [`cat::Policy`]), or written by the
 //!    coupled networks with every copy as a control (`synth::Coupled::copies`, also on copies
 //!    grown to stand beside the most system qubits, [`cat::covering_copies`]); the pipeline
 //!    keeps it only when the campaign it emits is cheaper. Where one Pauli string anticommutes with every
@@ -668,7 +669,8 @@ fn route_with(
 
 /// The cat candidate ([`cat`]): the step of `order` and length `dt` routed with control copies
 /// of the ancilla on spare sites, starting from `base`'s layout (the ordinary search's winner)
-/// and from exact embeddings. Each shortlisted layout is routed ([`cat::route_step`]) and,
+/// and from exact embeddings. Each shortlisted layout is routed ([`cat::route_step_with`], with
+/// each rotation meeting its nearest control and with the controls moved as a front) and,
 /// with `RouteConfig::pairs`, also written by the coupled networks with every copy as a
 /// control (with and without the carried frame), as is each layout with copies grown by
 /// [`cat::covering_copies`]; every candidate is scored by the two-qubit gates emitted for a
@@ -738,13 +740,18 @@ pub fn plan_and_route_cat_step(
                 best = Some((score, plan, step));
             }
         };
-        if let Some(routed) = ladders
-            .then(|| cat::route_step(&program, n, &layout, dev, cat::Hopping::when(cfg.pairs)))
-            .flatten()
-        {
+        for policy in [cat::Policy::Nearest, cat::Policy::Front] {
+            let hopping = cat::Hopping::when(cfg.pairs);
+            let Some(routed) = ladders
+                .then(|| cat::route_step_with(&program, n, &layout, dev, hopping, policy))
+                .flatten()
+            else {
+                continue;
+            };
             let mut plan = plan.clone();
             plan.temporary_copies = routed.temporary_copies;
-            let step = reuse::unsplit(routed.circuit, layout, routed.final_layout, dev, symmetric);
+            let (start, end) = (layout.clone(), routed.final_layout);
+            let step = reuse::unsplit(routed.circuit, start, end, dev, symmetric);
             offer(plan, step);
         }
         // The commuting runs synthesised on the coupling graph with every copy as a control
