@@ -740,7 +740,11 @@ pub fn plan_and_route_cat_step(
                 best = Some((score, plan, step));
             }
         };
-        for policy in [cat::Policy::Nearest, cat::Policy::Front] {
+        for policy in [
+            cat::Policy::Nearest,
+            cat::Policy::Front,
+            cat::Policy::FrontMerged,
+        ] {
             let hopping = cat::Hopping::when(cfg.pairs);
             let Some(routed) = ladders
                 .then(|| cat::route_step_with(&program, n, &layout, dev, hopping, policy))
