@@ -661,7 +661,7 @@ pub fn route_step(
 }
 
 /// [`route_step`] with the stall `policy` given; `None` also past [`FRONT_MAX_ROTATIONS`]
-/// with [`Policy::Front`].
+/// with a front policy.
 pub fn route_step_with(
     program: &[Rotation],
     n: usize,
@@ -679,14 +679,6 @@ pub fn route_step_with(
     let mut ready: BTreeSet<u32> = (0..program.len() as u32)
         .filter(|&j| indeg[j as usize] == 0)
         .collect();
-    let release = |j: u32, indeg: &mut [u32], ready: &mut BTreeSet<u32>| {
-        for &k in &succ[j as usize] {
-            indeg[k as usize] -= 1;
-            if indeg[k as usize] == 0 {
-                ready.insert(k);
-            }
-        }
-    };
     // Whether the last pass made a front move: the next one then runs a rotation (a move is
     // made only when some rotation then runs free), which bounds the loop.
     let mut moved = false;
@@ -739,14 +731,14 @@ pub fn route_step_with(
                 let gates =
                     crate::synth::pair_rotation(rj, &program[k as usize], ends, None, Some(&dist));
                 e.emit(&gates, &support);
-                release(j, &mut indeg, &mut ready);
-                release(k, &mut indeg, &mut ready);
+                release(&succ, j, &mut indeg, &mut ready);
+                release(&succ, k, &mut indeg, &mut ready);
             }
             None => {
                 let chain = e.ladder(root, &support);
                 let gates = crate::synth::pauli_rotation_along(rj, None, &chain);
                 e.emit(&gates, &support);
-                release(j, &mut indeg, &mut ready);
+                release(&succ, j, &mut indeg, &mut ready);
             }
         }
     }
@@ -762,6 +754,16 @@ pub fn route_step_with(
         temporary_copies: e.temporary.len(),
         methods: e.methods,
     })
+}
+
+/// Rotation `j` has run: each successor whose predecessors have all run becomes ready.
+fn release(succ: &[Vec<u32>], j: u32, indeg: &mut [u32], ready: &mut BTreeSet<u32>) {
+    for &k in &succ[j as usize] {
+        indeg[k as usize] -= 1;
+        if indeg[k as usize] == 0 {
+            ready.insert(k);
+        }
+    }
 }
 
 /// CNOTs of rotation `r` with nothing moved: its ladder on coupled pairs and a control beside
@@ -807,12 +809,7 @@ impl Engine<'_> {
             for j in runnable {
                 ready.remove(&j);
                 count += 1;
-                for &k in &succ[j as usize] {
-                    indeg[k as usize] -= 1;
-                    if indeg[k as usize] == 0 {
-                        ready.insert(k);
-                    }
-                }
+                release(succ, j, &mut indeg, &mut ready);
             }
         }
     }
