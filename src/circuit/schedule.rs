@@ -57,7 +57,7 @@ fn kind(g: &Gate, q: Qubit) -> Kind {
 }
 
 /// Layers searched for a free one above a gate's lower bound before it goes after everything
-/// on its qubits (see [`layers`]).
+/// on its qubits (see the layering in the module essay).
 pub const WINDOW: usize = 64;
 
 /// The layer of each gate under the rules of the module essay.
