@@ -82,7 +82,7 @@
 //! copies; sweeping a line of ancilla copies across a 2D lattice is our own reading of the
 //! fan-out literature above. On the benchmark's 4 × 4 Heisenberg model with fields on a 4 × 5
 //! grid (one spare column), one controlled Strang step goes from 732 CNOTs (two-qubit depth
-//! 598) to 658 (depth 335).
+//! 598) to 651 (depth 339).
 //!
 //! ## Choosing the copies
 //!

@@ -672,9 +672,9 @@ fn route_with(
 /// and from exact embeddings. Each shortlisted layout is routed ([`cat::route_step_with`], with
 /// each rotation meeting its nearest control and with the controls moved as a front) and,
 /// with `RouteConfig::pairs`, also written by the coupled networks with every copy as a
-/// control (with and without the carried frame), as is each layout with copies grown by
-/// [`cat::covering_copies`]; every candidate is scored by the two-qubit gates emitted for a
-/// circuit of one step, fan-out and its undoing included (with
+/// control (with and without the carried frame); so is each layout with copies grown by
+/// [`cat::covering_copies`] (with `RouteConfig::pairs`). Every candidate is scored by the
+/// two-qubit gates emitted for a circuit of one step, fan-out and its undoing included (with
 /// `RouteConfig::campaign_weights`, for the campaign's circuits and steps as
 /// [`plan_and_route_step`] compares its steps). `None` when the device has no spare site,
 /// the step is past [`EXTRAS_MAX_UNIT`] or [`cat::MAX_ROTATIONS`], or no layout gets a copy.
@@ -704,21 +704,20 @@ pub fn plan_and_route_cat_step(
     let min_copies = usize::from(cfg.cat_force);
     let bases = [base.initial_layout.clone()];
     let shortlist = cat::candidate_layouts(h, &program, &bases, comp, dev, min_copies);
-    // The coupled networks with copies (below) also start from copies grown to cover the
-    // most system qubits, on the winner's layout and on each shortlisted one.
-    let mut layouts: Vec<(bool, Vec<u32>)> =
-        shortlist.into_iter().map(|(_, l)| (true, l)).collect();
+    // Both forms below also start from copies grown to cover the most system qubits, on the
+    // winner's layout and on each shortlisted one.
+    let mut layouts: Vec<Vec<u32>> = shortlist.into_iter().map(|(_, l)| l).collect();
     if coupled {
         let mut covering: Vec<Vec<u32>> = Vec::new();
-        for l in bases.iter().chain(layouts.iter().map(|(_, l)| l)) {
+        for l in bases.iter().chain(layouts.iter()) {
             let c = cat::covering_copies(l, n, comp, dev);
-            if c.len() > n + 1 && !covering.contains(&c) && !layouts.iter().any(|(_, l)| *l == c) {
+            if c.len() > n + 1 && !covering.contains(&c) && !layouts.contains(&c) {
                 covering.push(c);
             }
         }
-        layouts.extend(covering.into_iter().map(|l| (false, l)));
+        layouts.extend(covering);
     }
-    for (ladders, layout) in layouts {
+    for layout in layouts {
         if layout.len() < n + 1 + min_copies {
             continue;
         }
@@ -746,9 +745,7 @@ pub fn plan_and_route_cat_step(
             cat::Policy::FrontMerged,
         ] {
             let hopping = cat::Hopping::when(cfg.pairs);
-            let Some(routed) = ladders
-                .then(|| cat::route_step_with(&program, n, &layout, dev, hopping, policy))
-                .flatten()
+            let Some(routed) = cat::route_step_with(&program, n, &layout, dev, hopping, policy)
             else {
                 continue;
             };
