@@ -245,6 +245,8 @@ struct Engine<'a> {
     swaps: usize,
     /// Two-qubit depth reached on each site (tie-breaks between equal controls).
     depth: Vec<u32>,
+    /// Index in `out` of the last gate on each site (`usize::MAX`: none yet).
+    last_gate: Vec<usize>,
     /// Free sites used as temporary copies so far.
     temporary: BTreeSet<u32>,
     /// Controlled `rz`s per way (adjacent, temporary, bridge, move).
@@ -266,6 +268,7 @@ impl<'a> Engine<'a> {
             out: Vec::new(),
             swaps: 0,
             depth: vec![0; dev.num_qubits],
+            last_gate: vec![usize::MAX; dev.num_qubits],
             temporary: BTreeSet::new(),
             methods: [0; 4],
         }
@@ -286,6 +289,9 @@ impl<'a> Engine<'a> {
             let d = self.depth[a as usize].max(self.depth[b as usize]) + 1;
             self.depth[a as usize] = d;
             self.depth[b as usize] = d;
+        }
+        for q in g.qubits() {
+            self.last_gate[q as usize] = self.out.len();
         }
         self.out.push(g);
     }
@@ -821,11 +827,12 @@ impl Engine<'_> {
         if !merged {
             return SWAP_CNOTS as usize;
         }
-        let last = self
-            .out
+        let last = [f, u]
             .iter()
-            .rev()
-            .find(|g| g.qubits().iter().any(|&q| q == f || q == u));
+            .map(|&p| self.last_gate[p as usize])
+            .filter(|&i| i != usize::MAX)
+            .max()
+            .map(|i| &self.out[i]);
         match last {
             Some(&Gate::Cx(a, b)) if (a == f && b == u) || (a == u && b == f) => 2,
             _ => SWAP_CNOTS as usize,
