@@ -49,6 +49,20 @@ pub fn zyz_angles(m: &Mat2) -> (f64, f64, f64) {
     }
 }
 
+/// Of the two Euler triples of one unitary, the one with fewer outer rotations: `(θ, φ, λ)`
+/// or `(−θ, φ−π, λ−π)`, which is the same up to phase since `Rz(π)·Ry(θ)·Rz(π) = −Ry(−θ)`
+/// (`Z·Ry(θ)·Z = Ry(−θ)`, `Rz(π) = −iZ`). So `Ry(−π/2)` is one gate, not `Rz(π)·Ry(π/2)·Rz(π)`.
+/// Ties keep `θ ∈ [0, π]`.
+fn fewest_outer(angles: (f64, f64, f64)) -> (f64, f64, f64) {
+    let (t, p, l) = angles;
+    let turns = |p: f64, l: f64| (!is_zero(p)) as u8 + (!is_zero(l)) as u8;
+    if t.abs() >= EPS && turns(p - PI, l - PI) < turns(p, l) {
+        (-t, p - PI, l - PI)
+    } else {
+        (t, p, l)
+    }
+}
+
 /// An angle in `(−π, π]`.
 pub fn wrap(a: f64) -> f64 {
     let t = a.rem_euclid(2.0 * PI);
@@ -98,19 +112,19 @@ fn gates_for(m: &Mat2, q: Qubit, basis: OneQubitBasis) -> Vec<Gate> {
             }
         }
         OneQubitBasis::RzRy => {
-            let (t, p, l) = zyz_angles(m);
+            let (t, p, l) = fewest_outer(zyz_angles(m));
             rot(&mut out, Gate::Rz, q, l);
             rot(&mut out, Gate::Ry, q, t);
             rot(&mut out, Gate::Rz, q, p);
         }
         OneQubitBasis::RzRx => {
-            let (t, p, l) = zyz_angles(&conj(&s_gate, m));
+            let (t, p, l) = fewest_outer(zyz_angles(&conj(&s_gate, m)));
             rot(&mut out, Gate::Rz, q, l);
             rot(&mut out, Gate::Rx, q, t);
             rot(&mut out, Gate::Rz, q, p);
         }
         OneQubitBasis::RxRy => {
-            let (t, p, l) = zyz_angles(&conj(&h_gate, m));
+            let (t, p, l) = fewest_outer(zyz_angles(&conj(&h_gate, m)));
             rot(&mut out, Gate::Rx, q, l);
             rot(&mut out, Gate::Ry, q, -t);
             rot(&mut out, Gate::Rx, q, p);
@@ -120,6 +134,7 @@ fn gates_for(m: &Mat2, q: Qubit, basis: OneQubitBasis) -> Vec<Gate> {
             if t.abs() < EPS {
                 rot(&mut out, Gate::Rz, q, p + l);
             } else {
+                let (t, p, l) = fewest_outer((t, p, l));
                 rot(&mut out, Gate::Rz, q, l);
                 out.push(Gate::H(q));
                 rot(&mut out, Gate::Rz, q, t);
@@ -263,6 +278,20 @@ mod tests {
                 .len(),
             1
         );
+        // A negative half turn about the middle axis is that one rotation, not three: the
+        // Euler triple (π/2, π, π) of Ry(−π/2) is read as (−π/2, 0, 0).
+        for (b, g) in [
+            (OneQubitBasis::RzRy, Gate::Ry(0, -FRAC_PI_2)),
+            (OneQubitBasis::RzRx, Gate::Rx(0, -0.7)),
+            (OneQubitBasis::RxRy, Gate::Ry(0, 0.4)),
+            (OneQubitBasis::RxRy, Gate::Ry(0, -0.4)),
+            (OneQubitBasis::RzH, Gate::Rx(0, -0.7)),
+        ] {
+            let (gs, a) = decompose(&g.matrix1().unwrap(), 0, b);
+            let want = if b == OneQubitBasis::RzH { 3 } else { 1 };
+            assert_eq!(gs.len(), want, "{g:?} in {b:?}: {gs:?}");
+            assert!(error(&g.matrix1().unwrap(), &gs, a) < 1e-12);
+        }
         // The identity (up to phase) becomes nothing, with its phase kept.
         let (g, a) = decompose(&Gate::Rz(0, 2.0 * PI).matrix1().unwrap(), 0, sx);
         assert!(g.is_empty());

@@ -462,10 +462,15 @@ pub fn fuse_and_cancel(c: &mut Circuit, basis: OneQubitBasis) {
 }
 
 /// [`lower_to_native`], then the gates reordered across what they commute with where that
-/// lowers the two-qubit depth ([`crate::circuit::schedule::shallower`]): what is written out.
-/// The count is that of [`lower_to_native`]; only the order (and so the depth) differs.
+/// lowers the two-qubit depth ([`crate::circuit::schedule::shallower`]), then the one-qubit
+/// runs that the new order brings together fused ([`fuse_single_qubit`]; an `rz` that passed a
+/// CNOT's control meets the `rz` on the other side): what is written out. The two-qubit gates
+/// are those of [`lower_to_native`]; their order (and so the depth) and the one-qubit gates
+/// between them may differ.
 pub fn lower_for_output(c: &Circuit, native: &NativeSet) -> Circuit {
-    crate::circuit::schedule::shallower(lower_to_native(c, native))
+    let mut out = crate::circuit::schedule::shallower(lower_to_native(c, native));
+    fuse_single_qubit(&mut out, native.one_qubit);
+    out
 }
 
 /// The whole lowering: the slide, translation, then fusion and cancellation ([`fuse_and_cancel`]),
