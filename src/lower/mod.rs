@@ -1067,4 +1067,45 @@ mod tests {
             "only {removed_any} circuits had a commuting pair"
         );
     }
+
+    #[test]
+    fn the_written_form_is_exact_native_and_fuses_what_the_schedule_brings_together() {
+        // Random circuits on 4 qubits for three native sets: what is written keeps the unitary
+        // (1e-9, global phase included), passes the native-gate rules, has exactly the
+        // two-qubit gates of `lower_to_native` and never more one-qubit gates than the
+        // schedule alone leaves; on some circuits it has fewer (runs met across a CNOT).
+        use crate::circuit::schedule::shallower;
+        use rand::Rng;
+        let ones = |c: &Circuit| c.gates.len() - two_qubit_count(c);
+        let mut fewer = 0;
+        for seed in 0..600u64 {
+            let c = random_circuit(seed, 40, |rng, a, b| match rng.gen_range(0..6) {
+                0..=2 => Gate::Cx(a, b),
+                3 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
+                4 => Gate::H(a),
+                _ => Gate::S(a),
+            });
+            for names in [
+                vec!["rz", "sx", "x", "cx"],
+                vec!["rz", "ry", "cz"],
+                vec!["rx", "ry", "cx"],
+            ] {
+                let native = NativeSet::from_names(&names).unwrap();
+                let out = lower_for_output(&c, &native);
+                let rules = Rules {
+                    coupled: None,
+                    native: Some(&native.names),
+                };
+                verify_ir(&out, &rules).unwrap();
+                assert!(unitary_distance(&c, &out) < 1e-9, "seed {seed} {names:?}");
+                let low = lower_to_native(&c, &native);
+                assert_eq!(two_qubit_count(&out), two_qubit_count(&low));
+                let scheduled = shallower(low);
+                assert!(ones(&out) <= ones(&scheduled), "seed {seed} {names:?}");
+                fewer += (ones(&out) < ones(&scheduled)) as usize;
+            }
+        }
+        // 1373 of the 1800 had fewer when this was written.
+        assert!(fewer > 100, "only {fewer} circuits had runs to fuse after the schedule");
+    }
 }
