@@ -170,11 +170,12 @@ fn tails(c: &Circuit) -> Vec<u32> {
 
 /// List scheduling with critical-path priority over the commutation DAG: layer by layer, the
 /// ready two-qubit gates (every earlier gate on their qubits that they do not commute with
-/// already placed) take the layer in order of their [`tails`], heaviest first, one per qubit;
+/// already placed) take the layer in order of their critical path (`tails`), heaviest first, one per qubit;
 /// one-qubit gates are placed the moment they are ready. This is the classic priority list
 /// scheduling of a DAG (Hu, "Parallel sequencing and assembly line problems", Operations
 /// Research 9, 841 (1961); the critical-path rule as usually taught, from memory) on the
-/// commutation rules of the module essay. `None` above [`PRIORITY_MAX_GATES`].
+/// commutation rules of the module essay. Returns the gate indices in the new order; `None`
+/// above [`PRIORITY_MAX_GATES`].
 ///
 /// Readiness per qubit: the gates on a qubit form runs of one kind; the gates of the first
 /// run holding an unplaced gate are clear there (all of them when its kind is `Z` or `X`, its
@@ -182,7 +183,7 @@ fn tails(c: &Circuit) -> Vec<u32> {
 /// clear on all its qubits. Each gate is placed after every gate on its qubits it does not
 /// commute with, so the order is a linear extension of the non-commuting pairs and the
 /// product is unchanged (the argument of the module essay).
-fn by_priority(c: &Circuit) -> Option<Vec<u32>> {
+pub fn by_priority(c: &Circuit) -> Option<Vec<u32>> {
     use std::cmp::Reverse;
     use std::collections::BinaryHeap;
     let n = c.gates.len();

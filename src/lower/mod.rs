@@ -1106,6 +1106,9 @@ mod tests {
             }
         }
         // 1373 of the 1800 had fewer when this was written.
-        assert!(fewer > 100, "only {fewer} circuits had runs to fuse after the schedule");
+        assert!(
+            fewer > 100,
+            "only {fewer} circuits had runs to fuse after the schedule"
+        );
     }
 }
