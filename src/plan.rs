@@ -371,6 +371,10 @@ impl FanOut {
 pub struct Costs {
     /// Depth of the written circuit, every gate one layer ([`crate::circuit::metrics::counts`]).
     pub depth: usize,
+    /// Two-qubit depth of the written circuit: the longest chain of two-qubit gates, one-qubit
+    /// gates weighing nothing (absent in plans written before it was recorded: 0).
+    #[serde(default)]
+    pub two_qubit_depth: usize,
     /// Two-qubit gates in the written file (a SWAP the router inserted counts as the native
     /// gates it was lowered into).
     pub two_qubit: usize,
@@ -400,6 +404,7 @@ impl From<Counts> for Costs {
     fn from(c: Counts) -> Costs {
         Costs {
             depth: c.depth,
+            two_qubit_depth: c.two_qubit_depth,
             two_qubit: c.two_qubit,
             one_qubit: c.one_qubit,
             swaps: c.swaps,

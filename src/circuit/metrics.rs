@@ -12,6 +12,9 @@ use serde::Serialize;
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 pub struct Counts {
     pub depth: usize,
+    /// Layers of two-qubit gates alone: the longest chain of two-qubit gates (one-qubit gates
+    /// and measurements weigh nothing).
+    pub two_qubit_depth: usize,
     pub two_qubit: usize,
     pub one_qubit: usize,
     pub measurements: usize,
@@ -38,6 +41,8 @@ pub struct Counter {
     counts: Counts,
     /// Per qubit, the layer its last gate ends on.
     ready: Vec<usize>,
+    /// Per qubit, the two-qubit layer its last two-qubit gate ends on.
+    ready2: Vec<usize>,
 }
 
 impl Counter {
@@ -46,12 +51,13 @@ impl Counter {
         Counter {
             counts: Counts::default(),
             ready: vec![0; num_qubits],
+            ready2: vec![0; num_qubits],
         }
     }
 
     /// Counts `g`.
     pub fn push(&mut self, g: Gate) {
-        let (out, ready) = (&mut self.counts, &mut self.ready);
+        let (out, ready, ready2) = (&mut self.counts, &mut self.ready, &mut self.ready2);
         match g {
             Gate::Measure(..) => out.measurements += 1,
             Gate::Swap(..) => {
@@ -66,6 +72,10 @@ impl Counter {
                 let end = ready[a as usize].max(ready[b as usize]) + 1;
                 ready[a as usize] = end;
                 ready[b as usize] = end;
+                let end2 = ready2[a as usize].max(ready2[b as usize]) + 1;
+                ready2[a as usize] = end2;
+                ready2[b as usize] = end2;
+                out.two_qubit_depth = out.two_qubit_depth.max(end2);
                 end
             }
             _ => {
@@ -137,5 +147,26 @@ mod tests {
         assert_eq!(t, 35.0 + 300.0 + 300.0 + 35.0);
         let p = success_probability(&c, |g| if g.is_two_qubit() { 0.01 } else { 0.0 });
         assert!((p - 0.99f64 * 0.99).abs() < 1e-15);
+        // cx(0,1) then cx(1,2) share qubit 1: two layers of two-qubit gates.
+        assert_eq!(k.two_qubit_depth, 2);
+    }
+
+    #[test]
+    fn two_qubit_depth_skips_one_qubit_layers() {
+        // cx(0,1) | cx(2,3) run side by side; the three one-qubit gates on 1 add to the depth
+        // but not to the two-qubit depth; the swap is a two-qubit gate: layers 1, 2, 3 on
+        // qubits 1 and 2 (hand-checked: depth 1 + 3 + 1 + 1 = 6, two-qubit depth 3).
+        let mut c = Circuit::new(4, 0);
+        c.extend([
+            Gate::Cx(0, 1),
+            Gate::Cx(2, 3),
+            Gate::H(1),
+            Gate::S(1),
+            Gate::H(1),
+            Gate::Cz(1, 2),
+            Gate::Swap(2, 3),
+        ]);
+        let k = counts(&c);
+        assert_eq!((k.depth, k.two_qubit_depth, k.two_qubit), (6, 3, 4));
     }
 }

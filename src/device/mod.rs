@@ -411,8 +411,10 @@ impl CostModel {
         CostWalk {
             model: self,
             depth: vec![0; num_qubits],
+            depth2: vec![0; num_qubits],
             ready_ns: vec![0.0; num_qubits],
             longest_depth: 0,
+            longest_depth2: 0,
             longest_ns: 0.0,
             two_qubit: 0,
             one_qubit: 0,
@@ -428,8 +430,11 @@ impl CostModel {
 pub struct CostWalk<'a> {
     model: &'a CostModel,
     depth: Vec<u32>,
+    /// Per qubit, the two-qubit layer its last two-qubit gate ends on.
+    depth2: Vec<u32>,
     ready_ns: Vec<f64>,
     longest_depth: u32,
+    longest_depth2: u32,
     longest_ns: f64,
     two_qubit: usize,
     one_qubit: usize,
@@ -489,6 +494,12 @@ impl CostWalk<'_> {
                 self.depth[q as usize] = d;
                 self.ready_ns[q as usize] = t;
             }
+            if let [a, b] = qs[..] {
+                let d2 = 1 + self.depth2[a as usize].max(self.depth2[b as usize]);
+                self.depth2[a as usize] = d2;
+                self.depth2[b as usize] = d2;
+                self.longest_depth2 = self.longest_depth2.max(d2);
+            }
             self.longest_depth = self.longest_depth.max(d);
             self.longest_ns = self.longest_ns.max(t);
         }
@@ -500,6 +511,7 @@ impl CostWalk<'_> {
     pub fn finish(&self, swaps: usize) -> Costs {
         Costs {
             depth: self.longest_depth as usize,
+            two_qubit_depth: self.longest_depth2 as usize,
             two_qubit: self.two_qubit,
             one_qubit: self.one_qubit,
             swaps,
@@ -566,6 +578,38 @@ mod tests {
                     .unwrap_or(UNREACHABLE);
                 assert_eq!(d.distance(a as u32, b as u32), want, "{a} -> {b}");
             }
+        }
+    }
+
+    #[test]
+    fn a_walk_in_pieces_gives_the_depths_of_the_whole_circuit() {
+        // Random gates on the 2×3 grid's pairs, walked in uneven pieces: the depth and the
+        // two-qubit depth must equal `circuit::metrics::counts` on the whole circuit.
+        use rand::{Rng, SeedableRng};
+        let d = grid_device();
+        let pairs = [(0, 1), (1, 2), (3, 4), (4, 5), (0, 3), (1, 4), (2, 5)];
+        let model = CostModel::new(&d);
+        for seed in 0..50u64 {
+            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+            let mut c = Circuit::new(6, 0);
+            for _ in 0..60 {
+                let (a, b) = pairs[rng.gen_range(0..pairs.len())];
+                c.push(match rng.gen_range(0..4) {
+                    0 => Gate::Cx(a, b),
+                    1 => Gate::Cx(b, a),
+                    2 => Gate::Sx(a),
+                    _ => Gate::Rz(b, 0.3),
+                });
+            }
+            let mut walk = model.walk(6);
+            for piece in c.gates.chunks(7 + seed as usize % 5) {
+                walk.add(piece);
+            }
+            let got = walk.finish(0);
+            let want = crate::circuit::metrics::counts(&c);
+            assert_eq!(got.depth, want.depth, "seed {seed}");
+            assert_eq!(got.two_qubit_depth, want.two_qubit_depth, "seed {seed}");
+            assert!(want.two_qubit_depth <= want.two_qubit);
         }
     }
 

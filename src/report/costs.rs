@@ -18,7 +18,7 @@ pub fn cost_table(plan: &Plan) -> String {
     // Control copies of the ancilla (`route::cat`): a column only where a circuit uses them.
     let copies = plan.circuits.iter().any(|e| e.costs.control_copies > 0);
     let mut head = vec![
-        "circuit", "k", "time", "part", "depth", "2q gates", "1q gates",
+        "circuit", "k", "time", "part", "depth", "2q depth", "2q gates", "1q gates",
     ];
     if dev {
         head.extend(["swaps", "duration us", "success"]);
@@ -38,6 +38,7 @@ pub fn cost_table(plan: &Plan) -> String {
             e.part
                 .map_or("-".to_string(), |p| format!("{p:?}").to_lowercase()),
             c.depth.to_string(),
+            c.two_qubit_depth.to_string(),
             c.two_qubit.to_string(),
             c.one_qubit.to_string(),
         ];
@@ -51,6 +52,7 @@ pub fn cost_table(plan: &Plan) -> String {
         }
         t.row(row);
         tot.depth += c.depth;
+        tot.two_qubit_depth += c.two_qubit_depth;
         tot.two_qubit += c.two_qubit;
         tot.one_qubit += c.one_qubit;
         tot.swaps += c.swaps;
@@ -64,6 +66,7 @@ pub fn cost_table(plan: &Plan) -> String {
         String::new(),
         String::new(),
         tot.depth.to_string(),
+        tot.two_qubit_depth.to_string(),
         tot.two_qubit.to_string(),
         tot.one_qubit.to_string(),
     ];
@@ -124,6 +127,8 @@ pub struct CostTotalDoc {
     pub circuits: usize,
     /// Sum of the circuits' depths (layers).
     pub depth: usize,
+    /// Sum of the circuits' two-qubit depths (layers of two-qubit gates).
+    pub two_qubit_depth: usize,
     /// Two-qubit gates.
     pub two_qubit: usize,
     /// One-qubit gates.
@@ -155,6 +160,7 @@ pub fn cost_doc(plan: &Plan) -> CostDoc<'_> {
         total: CostTotalDoc {
             circuits: plan.circuits.len(),
             depth: sum(|c| c.depth),
+            two_qubit_depth: sum(|c| c.two_qubit_depth),
             two_qubit: sum(|c| c.two_qubit),
             one_qubit: sum(|c| c.one_qubit),
             swaps: sum(|c| c.swaps),
