@@ -29,7 +29,6 @@
 //! `MODELS=dense12,h4` for some models only, `DEVICES=a2a,grid` for some devices).
 //! Deterministic: fixed seeds throughout.
 
-use phasewright::circuit::{Circuit, Gate};
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
 use phasewright::family::Spec;
 use phasewright::formula::{order_terms, step, Order};
@@ -225,21 +224,6 @@ fn devices(n: usize) -> Vec<Option<Device>> {
     ]
 }
 
-/// Longest chain of two-qubit gates.
-fn two_qubit_depth(c: &Circuit) -> usize {
-    let mut ready = vec![0usize; c.num_qubits];
-    let mut longest = 0;
-    for g in &c.gates {
-        if let Gate::Cx(a, b) | Gate::Cz(a, b) | Gate::Swap(a, b) = *g {
-            let d = ready[a as usize].max(ready[b as usize]) + 1;
-            ready[a as usize] = d;
-            ready[b as usize] = d;
-            longest = longest.max(d);
-        }
-    }
-    longest
-}
-
 struct Row {
     two_qubit: usize,
     depth2: usize,
@@ -273,12 +257,10 @@ fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel, cat: bool) -> Ro
         .iter()
         .position(|c| c.id == "k01-re")
         .expect("k01-re");
-    let c = phasewright::qasm::read("k01-re.qasm", &out.programs[i])
-        .expect("reads back")
-        .circuit;
+    let costs = &out.plan.circuits[i].costs;
     Row {
-        two_qubit: out.plan.circuits[i].costs.two_qubit,
-        depth2: two_qubit_depth(&c),
+        two_qubit: costs.two_qubit,
+        depth2: costs.two_qubit_depth,
     }
 }
 

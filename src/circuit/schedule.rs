@@ -329,23 +329,11 @@ pub fn by_commutation(c: &Circuit) -> Circuit {
     }
 }
 
-/// (two-qubit depth, depth) of `gates` on `num_qubits` qubits, in the order given.
+/// (two-qubit depth, depth) of `gates` on `num_qubits` qubits, in the order given
+/// ([`crate::circuit::metrics::counts_of`]).
 fn depths_of<'a>(num_qubits: usize, gates: impl IntoIterator<Item = &'a Gate>) -> (usize, usize) {
-    let mut two = vec![0usize; num_qubits];
-    let mut all = vec![0usize; num_qubits];
-    let (mut d2, mut d) = (0, 0);
-    for g in gates {
-        let qs = g.qubits();
-        let a = qs.iter().map(|&q| all[q as usize]).max().unwrap_or(0) + 1;
-        let b = qs.iter().map(|&q| two[q as usize]).max().unwrap_or(0) + g.is_two_qubit() as usize;
-        for &q in &qs {
-            all[q as usize] = a;
-            two[q as usize] = b;
-        }
-        d = d.max(a);
-        d2 = d2.max(b);
-    }
-    (d2, d)
+    let k = super::metrics::counts_of(num_qubits, gates.into_iter().copied());
+    (k.two_qubit_depth, k.depth)
 }
 
 /// (two-qubit depth, depth) of `c` in its gate order.
