@@ -25,6 +25,7 @@
 //! they were relative to the gates on their qubit.
 
 pub mod euler;
+pub mod pairs;
 
 use crate::circuit::cancel::cancel_inverses;
 use crate::circuit::{mat2_mul, Circuit, Gate, Mat2, Qubit};
@@ -474,7 +475,8 @@ pub fn lower_for_output(c: &Circuit, native: &NativeSet) -> Circuit {
 }
 
 /// The whole lowering: the slide, translation, then fusion and cancellation ([`fuse_and_cancel`]),
-/// then commutation-aware cancellation ([`cancel_commuting`]); fusion runs again while a
+/// then commutation-aware cancellation ([`cancel_commuting`]), then entangler pairs that one
+/// CNOT does the work of ([`pairs::merge_entangler_pairs`]); fusion runs again while a
 /// cancellation pass still finds work.
 pub fn lower_to_native(c: &Circuit, native: &NativeSet) -> Circuit {
     let mut out = translate_two_qubit(&slide_through_swaps(c), native.two_qubit);
@@ -483,7 +485,7 @@ pub fn lower_to_native(c: &Circuit, native: &NativeSet) -> Circuit {
         let before = out.gates.len();
         cancel_inverses(&mut out);
         cancel_commuting(&mut out);
-        if out.gates.len() == before {
+        if out.gates.len() == before && pairs::merge_entangler_pairs(&mut out, native) == 0 {
             break;
         }
     }
