@@ -480,12 +480,15 @@ pub fn lower_for_output(c: &Circuit, native: &NativeSet) -> Circuit {
 /// cancellation pass still finds work.
 pub fn lower_to_native(c: &Circuit, native: &NativeSet) -> Circuit {
     let mut out = translate_two_qubit(&slide_through_swaps(c), native.two_qubit);
+    let merge = out.gates.len() <= pairs::MERGE_MAX_GATES;
     loop {
         fuse_and_cancel(&mut out, native.one_qubit);
         let before = out.gates.len();
         cancel_inverses(&mut out);
         cancel_commuting(&mut out);
-        if out.gates.len() == before && pairs::merge_entangler_pairs(&mut out, native) == 0 {
+        if out.gates.len() == before
+            && (!merge || pairs::merge_entangler_pairs(&mut out, native) == 0)
+        {
             break;
         }
     }
