@@ -44,8 +44,9 @@
 //!    (`route::reuse`: it and its mirror image, or the SWAPs home, repeat `k·R` times).
 //!    Verified: every piece on coupled pairs;
 //! 2. `lower` (`route::DeviceCampaign`): the step's pieces to native gates once (fusion and
-//!    cancellation, then the commutation-aware order of `circuit::schedule` where it lowers
-//!    the two-qubit depth), verified with coupling and native rules;
+//!    cancellation, two CNOTs on a pair that one does the work of merged by `lower::pairs`,
+//!    then the commutation-aware order of `circuit::schedule` where it lowers the two-qubit
+//!    depth), verified with coupling and native rules;
 //! 3. `assemble`: per circuit, `family::frames` gives preparation and readout, routed and
 //!    stitched around the pieces, written as text from the pieces' texts (`route::campaign`),
 //!    so `costs.swaps` counts the SWAPs routing inserted (the step's once per step), before the
