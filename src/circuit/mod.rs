@@ -272,6 +272,14 @@ impl Circuit {
     }
 }
 
+/// The conjugate transpose `a†` of a 2×2 matrix.
+pub fn mat2_adjoint(a: &Mat2) -> Mat2 {
+    [
+        [a[0][0].conj(), a[1][0].conj()],
+        [a[0][1].conj(), a[1][1].conj()],
+    ]
+}
+
 /// Multiplies two 2×2 matrices: `a · b`.
 pub fn mat2_mul(a: &Mat2, b: &Mat2) -> Mat2 {
     let mut m = [[Complex64::new(0.0, 0.0); 2]; 2];

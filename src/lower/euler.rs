@@ -17,7 +17,7 @@
 //! product of the emitted gates' exact matrices, so a convention slip cannot lose phase silently
 //! (the tests check `‖M − e^{iα}P‖` on random unitaries for every basis).
 
-use crate::circuit::{mat2_mul, Gate, Mat2, Qubit};
+use crate::circuit::{mat2_adjoint, mat2_mul, Gate, Mat2, Qubit};
 use crate::device::OneQubitBasis;
 use num_complex::Complex64;
 use std::f64::consts::{FRAC_PI_2, PI};
@@ -79,11 +79,7 @@ fn is_zero(a: f64) -> bool {
 
 fn conj(a: &Mat2, m: &Mat2) -> Mat2 {
     // a · m · a†
-    let ad = [
-        [a[0][0].conj(), a[1][0].conj()],
-        [a[0][1].conj(), a[1][1].conj()],
-    ];
-    mat2_mul(&mat2_mul(a, m), &ad)
+    mat2_mul(&mat2_mul(a, m), &mat2_adjoint(a))
 }
 
 /// Pushes a rotation unless its angle is a multiple of 2π (the phase is recovered afterwards).

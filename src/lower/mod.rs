@@ -28,7 +28,7 @@ pub mod euler;
 pub mod pairs;
 
 use crate::circuit::cancel::cancel_inverses;
-use crate::circuit::{mat2_mul, Circuit, Gate, Mat2, Qubit};
+use crate::circuit::{mat2_adjoint, mat2_mul, Circuit, Gate, Mat2, Qubit};
 use crate::device::{Entangler, NativeSet, OneQubitBasis};
 
 /// Writes `cx`, `cz` and `swap` with the native entangler (one-qubit gates are left as they are).
@@ -268,17 +268,11 @@ fn reaches_through<'a>(gates: impl Iterator<Item = &'a Gate>, p: &Gate) -> bool 
 /// to `±X`, `±Y` or `±Z`. Tolerance 1e-9 on the Pauli coefficients.
 fn is_clifford(m: &Mat2) -> bool {
     use num_complex::Complex64 as C;
-    let adj = |a: &Mat2| {
-        [
-            [a[0][0].conj(), a[1][0].conj()],
-            [a[0][1].conj(), a[1][1].conj()],
-        ]
-    };
     let (o, i) = (C::new(0.0, 0.0), C::new(1.0, 0.0));
     [[[o, i], [i, o]], [[i, o], [o, -i]]]
         .iter()
         .all(|p: &Mat2| {
-            let img = mat2_mul(&mat2_mul(m, p), &adj(m));
+            let img = mat2_mul(&mat2_mul(m, p), &mat2_adjoint(m));
             // img = x·X + y·Y + z·Z (Hermitian, traceless).
             let (x, y, z) = (img[0][1].re, -img[0][1].im, img[0][0].re);
             [x, y, z].iter().any(|c| (c.abs() - 1.0).abs() < 1e-9)

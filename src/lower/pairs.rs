@@ -49,7 +49,7 @@
 //! it finds work (and skips it past [`MERGE_MAX_GATES`]).
 
 use super::{euler, is_clifford};
-use crate::circuit::{mat2_mul, Circuit, Gate, Mat2, Qubit};
+use crate::circuit::{mat2_adjoint, mat2_mul, Circuit, Gate, Mat2, Qubit};
 use crate::device::{Entangler, NativeSet};
 use num_complex::Complex64;
 
@@ -81,13 +81,6 @@ fn diag(a: Complex64) -> Mat2 {
     [[c(1.0, 0.0), c(0.0, 0.0)], [c(0.0, 0.0), a]]
 }
 
-fn adjoint(m: &Mat2) -> Mat2 {
-    [
-        [m[0][0].conj(), m[1][0].conj()],
-        [m[0][1].conj(), m[1][1].conj()],
-    ]
-}
-
 /// Product of matrices in operator order (`mul(&[a, b, c]) = a·b·c`).
 fn mul(ms: &[&Mat2]) -> Mat2 {
     ms.iter().fold(identity(), |p, m| mat2_mul(&p, m))
@@ -100,7 +93,7 @@ fn image(m: &Mat2, z_axis: bool) -> [f64; 3] {
     } else {
         [[c(0.0, 0.0), c(1.0, 0.0)], [c(1.0, 0.0), c(0.0, 0.0)]]
     };
-    let img = mul(&[&adjoint(m), &p, m]);
+    let img = mul(&[&mat2_adjoint(m), &p, m]);
     [img[0][1].re, -img[0][1].im, img[0][0].re]
 }
 
@@ -160,7 +153,7 @@ fn one_cnot(a: &Mat2, b: &Mat2) -> Option<([Mat2; 2], Option<bool>, [Mat2; 2])> 
             return None;
         };
         // (A ⊗ I)(V ⊗ H) CX(t → c) (V† ⊗ H)(I ⊗ H·D·H)(I ⊗ B); on t before: H·(H D H)·B = D·H·B.
-        let before = [adjoint(&v), mul(&[&diag(phase), &h, b])];
+        let before = [mat2_adjoint(&v), mul(&[&diag(phase), &h, b])];
         let after = [mul(&[a, &v]), h];
         return Some((before, Some(true), after));
     }
@@ -175,7 +168,7 @@ fn one_cnot(a: &Mat2, b: &Mat2) -> Option<([Mat2; 2], Option<bool>, [Mat2; 2])> 
             return None;
         };
         // (A ⊗ B)(D ⊗ W) CX(c → t) (I ⊗ W†).
-        let before = [i, adjoint(&w)];
+        let before = [i, mat2_adjoint(&w)];
         let after = [mul(&[a, &diag(phase)]), mul(&[b, &w])];
         return Some((before, Some(false), after));
     }
