@@ -228,3 +228,50 @@ fn a_sign_flip_campaign_on_an_rz_ry_heavy_hexagon_is_proved() {
     let text = run_ok(&["verify", &out_s, "--method", "tableau"]);
     assert!(text.contains("4 of 4 circuits proved equivalent"), "{text}");
 }
+
+#[test]
+fn both_methods_prove_a_routed_campaign_whose_lowering_writes_eighth_turns() {
+    // The Heisenberg chain from all-`+` states on the 8-qubit line: the lowering fuses a
+    // state's basis change into `sx · rz(−3π/4) · sx`-shaped runs, whose eighth turns sit on
+    // the boundary of the tableau method's angle split. Both methods must prove every
+    // circuit (the tableau method once refused such campaigns that the statevector check
+    // proved).
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("heis");
+    compile(
+        "examples/heisenberg_chain6.ham",
+        "++++++",
+        &["--device", "examples/line8.dev"],
+        &out,
+    );
+    let d = out.display().to_string();
+    let written: String = std::fs::read_dir(&out)
+        .unwrap()
+        .filter_map(|e| {
+            let p = e.unwrap().path();
+            (p.extension().is_some_and(|x| x == "qasm"))
+                .then(|| std::fs::read_to_string(p).unwrap())
+        })
+        .collect();
+    assert!(
+        written.contains("rz(-2.356194490192345)"),
+        "no eighth turn written"
+    );
+    for method in ["tableau", "statevector"] {
+        let v: serde_json::Value =
+            serde_json::from_str(&run_ok(&["verify", &d, "--method", method, "--json"])).unwrap();
+        assert_eq!(v["ok"], true, "{method}: {v}");
+        let circuits = v["circuits"].as_array().unwrap();
+        assert_eq!(circuits.len(), 4, "{method}");
+        if method == "tableau" {
+            assert!(circuits.iter().all(|c| c["verdict"] == "equivalent"), "{v}");
+        } else {
+            assert!(
+                circuits
+                    .iter()
+                    .all(|c| c["compile_error"].as_f64().unwrap() < 1e-9),
+                "{v}"
+            );
+        }
+    }
+}

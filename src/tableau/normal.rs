@@ -175,7 +175,7 @@ impl Builder {
     }
 
     /// Adds the next rotation in time order. When it merges into an entry whose angle then
-    /// leaves `[−π/4, π/4]`, the entry keeps the residual and the quarter turns are returned:
+    /// leaves `(−π/4, π/4]`, the entry keeps the residual and the quarter turns are returned:
     /// they stand right after everything pushed so far (every entry above the merged one
     /// commutes with its axis, so they move to the top of the form freely), and the caller
     /// must conjugate every later rotation by them ([`super::canonicalise_into`] does, through
@@ -246,6 +246,21 @@ impl Builder {
                 return turned;
             }
         }
+        // A new entry at the boundary (`−π/4`, which the sign of its axis can give a residual
+        // of `+π/4`) keeps `+π/4` and gives back a quarter turn, so that one unitary has one
+        // form however its gates split the angle.
+        let mut e = e;
+        let mut turned = None;
+        if split {
+            let (k, r) = super::split_angle(e.angle);
+            if k != 0 {
+                e.angle = r;
+                turned = Some(QuarterTurn {
+                    axis: e.axis.clone(),
+                    turns: k,
+                });
+            }
+        }
         let idx = self.slots.len() as u32;
         if target == self.layers.len() {
             self.layers.push(Layer::default());
@@ -257,7 +272,7 @@ impl Builder {
             layer: target as u32,
             alive: true,
         });
-        None
+        turned
     }
 
     /// The normal form of everything pushed.
