@@ -46,7 +46,8 @@
 //! 2. `lower` (`route::DeviceCampaign`): the step's pieces to native gates once (fusion and
 //!    cancellation, two CNOTs on a pair that one does the work of merged by `lower::pairs`,
 //!    then the commutation-aware order of `circuit::schedule` where it lowers the two-qubit
-//!    depth), verified with coupling and native rules;
+//!    depth, then a CNOT and a SWAP that order brought together on one pair written as two
+//!    CNOTs by `lower::swapfold`), verified with coupling and native rules;
 //! 3. `assemble`: per circuit, `family::frames` gives preparation and readout, routed and
 //!    stitched around the pieces, written as text from the pieces' texts (`route::campaign`),
 //!    so `costs.swaps` counts the SWAPs routing inserted (the step's once per step), before the
