@@ -59,6 +59,10 @@ const NONE: usize = usize::MAX;
 
 type Mat4 = [[Complex64; 4]; 4];
 
+/// An open block of one pair: the pair, the gates in it (entanglers on the pair, one-qubit
+/// gates on its qubits since the first) and the positions of the entanglers among them.
+type Block = ((Qubit, Qubit), Vec<usize>, Vec<usize>);
+
 fn zero4() -> Mat4 {
     [[Complex64::new(0.0, 0.0); 4]; 4]
 }
@@ -326,14 +330,12 @@ pub fn fold_swaps(circuit: &mut Circuit, native: &NativeSet) -> usize {
     let mut block_of = vec![NONE; n];
     // A block: its pair and the gates in it (entanglers on the pair, one-qubit gates on its
     // qubits since the first), with the positions of the entanglers among them.
-    let mut blocks: Vec<((Qubit, Qubit), Vec<usize>, Vec<usize>)> = Vec::new();
+    let mut blocks: Vec<Block> = Vec::new();
     let mut dropped = vec![false; gates.len()];
     let mut replaced: Vec<(usize, Vec<Gate>)> = Vec::new();
     let mut phase = 0.0;
     let mut saved = 0;
-    let close = |q: Qubit,
-                 block_of: &mut Vec<usize>,
-                 blocks: &[((Qubit, Qubit), Vec<usize>, Vec<usize>)]| {
+    let close = |q: Qubit, block_of: &mut Vec<usize>, blocks: &[Block]| {
         let bi = block_of[q as usize];
         if bi != NONE {
             let (x, y) = blocks[bi].0;
