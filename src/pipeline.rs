@@ -156,6 +156,7 @@ impl OptLevel {
             c.refine_rounds = 0;
             c.device_order = false;
             c.hub_factors = false;
+            c.commute_ahead = false;
         }
         c.cancel = self.0 >= 1;
         c.textbook = self.0 == 0;

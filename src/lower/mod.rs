@@ -839,6 +839,7 @@ mod tests {
                     stall_limit: None,
                     hub: Some(6),
                     hub_factor: 0.9,
+                    commute_ahead: 0,
                 };
                 let initial: Vec<u32> = (0..7).collect();
                 let routed = insert_swaps(&c, &initial, dev, &p).circuit;

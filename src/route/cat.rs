@@ -1422,6 +1422,7 @@ mod tests {
             stall_limit: None,
             hub: Some(n as u32),
             hub_factor: 1.0,
+            commute_ahead: 0,
         };
         let back = insert_swaps(&undo, &routed.final_layout, dev, &params);
         c.extend(back.circuit.gates.iter().copied());

@@ -791,6 +791,7 @@ mod tests {
             stall_limit: None,
             hub: plan.ancilla,
             hub_factor: 0.9,
+            commute_ahead: 0,
         };
         (dev, plan, parts, params)
     }

@@ -77,10 +77,26 @@ pub fn random_state(n: usize, rng: &mut ChaCha8Rng) -> String {
 /// `h` compiled at level 3 on `dev` without the spread control (`RouteConfig::cat` off), the
 /// comparison for the campaigns that may keep copies of the ancilla.
 pub fn compile_without_copies(h: &PauliSum, name: &str, spec: &Spec, dev: &Device) -> Compiled {
-    let cfg = RouteConfig {
-        cat: false,
-        ..RouteConfig::default()
-    };
+    compile_level3_with(
+        h,
+        name,
+        spec,
+        dev,
+        RouteConfig {
+            cat: false,
+            ..RouteConfig::default()
+        },
+    )
+}
+
+/// `h` compiled at level 3 on `dev` with the routing configuration `cfg`.
+pub fn compile_level3_with(
+    h: &PauliSum,
+    name: &str,
+    spec: &Spec,
+    dev: &Device,
+    cfg: RouteConfig,
+) -> Compiled {
     let target = Target::Device {
         device: dev,
         config: &cfg,
