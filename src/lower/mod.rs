@@ -280,6 +280,29 @@ fn is_clifford(m: &Mat2) -> bool {
         })
 }
 
+/// Writes `gates` back into `circuit` with the peephole rewrites of [`pairs`] and [`swapfold`]:
+/// each `(k, gates)` of `replaced` (ascending `k`) takes the place of gate `k`, gates marked
+/// in `dropped` go, and `phase` joins the global phase.
+fn splice(
+    circuit: &mut Circuit,
+    gates: Vec<Gate>,
+    replaced: Vec<(usize, Vec<Gate>)>,
+    dropped: &[bool],
+    phase: f64,
+) {
+    let mut next = replaced.into_iter().peekable();
+    let mut out = Vec::with_capacity(gates.len());
+    for (k, g) in gates.into_iter().enumerate() {
+        if next.peek().is_some_and(|(at, _)| *at == k) {
+            out.extend(next.next().expect("peeked").1);
+        } else if !dropped[k] {
+            out.push(g);
+        }
+    }
+    circuit.gates = out;
+    circuit.global_phase = euler::wrap(circuit.global_phase + phase);
+}
+
 /// Whether a pending one-qubit run `p` may absorb the next one-qubit gate `m`: unless both are
 /// non-Clifford and do not commute. The fused run is then at most one rotation between
 /// Clifford gates, about one axis, which is what the tableau check reads back from a file

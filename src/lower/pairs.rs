@@ -283,17 +283,7 @@ pub fn merge_entangler_pairs(circuit: &mut Circuit, native: &NativeSet) -> usize
             clifford[q as usize] = true;
         }
     }
-    let mut next = replaced.into_iter().peekable();
-    let mut out = Vec::with_capacity(gates.len());
-    for (k, g) in gates.into_iter().enumerate() {
-        if next.peek().is_some_and(|(at, _)| *at == k) {
-            out.extend(next.next().expect("peeked").1);
-        } else if !dropped[k] {
-            out.push(g);
-        }
-    }
-    circuit.gates = out;
-    circuit.global_phase = euler::wrap(circuit.global_phase + phase);
+    super::splice(circuit, gates, replaced, &dropped, phase);
     saved
 }
 

@@ -405,17 +405,7 @@ pub fn fold_swaps(circuit: &mut Circuit, native: &NativeSet) -> usize {
             block_of[b as usize] = NONE;
         }
     }
-    let mut next = replaced.into_iter().peekable();
-    let mut out = Vec::with_capacity(gates.len());
-    for (k, g) in gates.into_iter().enumerate() {
-        if next.peek().is_some_and(|(at, _)| *at == k) {
-            out.extend(next.next().expect("peeked").1);
-        } else if !dropped[k] {
-            out.push(g);
-        }
-    }
-    circuit.gates = out;
-    circuit.global_phase = euler::wrap(circuit.global_phase + phase);
+    super::splice(circuit, gates, replaced, &dropped, phase);
     saved
 }
 

@@ -835,23 +835,35 @@ mod tests {
         }
     }
 
-    fn random_circuit(n: u32, gates: usize, seed: u64) -> Circuit {
+    /// `gates` gates drawn by `pick(rng, a, b)` for random distinct qubits `a`, `b`, then
+    /// every qubit measured.
+    fn drawn_circuit(
+        n: u32,
+        gates: usize,
+        seed: u64,
+        pick: impl Fn(&mut ChaCha8Rng, u32, u32) -> Gate,
+    ) -> Circuit {
         let mut rng = ChaCha8Rng::seed_from_u64(seed);
         let mut c = Circuit::new(n as usize, n as usize);
         for _ in 0..gates {
             let a = rng.gen_range(0..n);
             let b = (a + rng.gen_range(1..n)) % n;
-            match rng.gen_range(0..4) {
-                0 => c.push(Gate::H(a)),
-                1 => c.push(Gate::Rz(a, rng.gen_range(-3.0..3.0))),
-                2 => c.push(Gate::Cz(a, b)),
-                _ => c.push(Gate::Cx(a, b)),
-            }
+            let g = pick(&mut rng, a, b);
+            c.push(g);
         }
         for q in 0..n {
             c.push(Gate::Measure(q, q));
         }
         c
+    }
+
+    fn random_circuit(n: u32, gates: usize, seed: u64) -> Circuit {
+        drawn_circuit(n, gates, seed, |rng, a, b| match rng.gen_range(0..4) {
+            0 => Gate::H(a),
+            1 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
+            2 => Gate::Cz(a, b),
+            _ => Gate::Cx(a, b),
+        })
     }
 
     #[test]
@@ -888,23 +900,13 @@ mod tests {
     /// Circuits like a product formula's networks: CNOT fans that share a control or a
     /// target, rotations about the axes they leave alone, and a few Hadamards.
     fn commuting_circuit(n: u32, gates: usize, seed: u64) -> Circuit {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        let mut c = Circuit::new(n as usize, n as usize);
-        for _ in 0..gates {
-            let a = rng.gen_range(0..n);
-            let b = (a + rng.gen_range(1..n)) % n;
-            match rng.gen_range(0..10) {
-                0 => c.push(Gate::H(a)),
-                1 => c.push(Gate::Rz(a, rng.gen_range(-3.0..3.0))),
-                2 => c.push(Gate::Rx(a, rng.gen_range(-3.0..3.0))),
-                3 => c.push(Gate::Cz(a, b)),
-                _ => c.push(Gate::Cx(a, b)),
-            }
-        }
-        for q in 0..n {
-            c.push(Gate::Measure(q, q));
-        }
-        c
+        drawn_circuit(n, gates, seed, |rng, a, b| match rng.gen_range(0..10) {
+            0 => Gate::H(a),
+            1 => Gate::Rz(a, rng.gen_range(-3.0..3.0)),
+            2 => Gate::Rx(a, rng.gen_range(-3.0..3.0)),
+            3 => Gate::Cz(a, b),
+            _ => Gate::Cx(a, b),
+        })
     }
 
     #[test]
