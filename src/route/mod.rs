@@ -1031,7 +1031,10 @@ fn plan_on_step(
         // see `swap`'s module essay). Only the SWAPs decide: a guard that also asked for no
         // greater two-qubit depth of the routed order kept fewer of the gains and lost one
         // (the 3×4 Ising model on the heavy hexagon, 184 → 202 two-qubit gates).
-        if cfg.commute_ahead && parts.circuit.gates.len() <= swap::COMMUTE_MAX_GATES {
+        if cfg.commute_ahead
+            && n_sys <= swap::COMMUTE_MAX_QUBITS
+            && parts.circuit.gates.len() <= swap::COMMUTE_MAX_GATES
+        {
             let ahead = SwapParams {
                 commute_ahead: swap::COMMUTE_AHEAD,
                 ..params.clone()
