@@ -68,11 +68,13 @@ fn c(re: f64, im: f64) -> Complex64 {
     Complex64::new(re, im)
 }
 
-fn identity() -> Mat2 {
+/// The 2×2 identity (shared with [`super::swapfold`]).
+pub(super) fn identity() -> Mat2 {
     [[c(1.0, 0.0), c(0.0, 0.0)], [c(0.0, 0.0), c(1.0, 0.0)]]
 }
 
-fn hadamard() -> Mat2 {
+/// The Hadamard matrix (shared with [`super::swapfold`]).
+pub(super) fn hadamard() -> Mat2 {
     let r = std::f64::consts::FRAC_1_SQRT_2;
     [[c(r, 0.0), c(r, 0.0)], [c(r, 0.0), c(-r, 0.0)]]
 }

@@ -47,6 +47,7 @@
 //! Cost: one pass; a 4×4 product per window of four entanglers on one pair, which after the
 //! lowering's cancellations are rare.
 
+use super::pairs::{hadamard, identity};
 use super::{euler, is_clifford};
 use crate::circuit::{mat2_mul, Circuit, Gate, Mat2, Qubit};
 use crate::device::{Entangler, NativeSet};
@@ -109,19 +110,9 @@ fn swap4() -> Mat4 {
     permutation([0, 2, 1, 3])
 }
 
-fn identity2() -> Mat2 {
-    let (o, l) = (Complex64::new(0.0, 0.0), Complex64::new(1.0, 0.0));
-    [[l, o], [o, l]]
-}
-
-fn hadamard2() -> Mat2 {
-    let s = Complex64::new(std::f64::consts::FRAC_1_SQRT_2, 0.0);
-    [[s, s], [s, -s]]
-}
-
 /// The 4×4 matrix of a gate on the pair `(a, b)`.
 fn gate4(g: &Gate, a: Qubit) -> Mat4 {
-    let i = identity2();
+    let i = identity();
     match *g {
         Gate::Cx(c, _) if c == a => permutation([0, 1, 3, 2]),
         Gate::Cx(..) => permutation([0, 3, 2, 1]),
@@ -197,7 +188,7 @@ enum Piece {
 /// `SWAP · E` (`swap_first` false: `E` first, then the SWAP) or `E · SWAP` (`swap_first`:
 /// the SWAP first) as CNOTs and Hadamards, in time order.
 fn entangler_and_swap(e: &Gate, a: Qubit, b: Qubit, swap_first: bool) -> Vec<Piece> {
-    let h = hadamard2();
+    let h = hadamard();
     match (*e, swap_first) {
         // SWAP · CX(c→t) = CX(c→t) · CX(t→c): CX(t→c) runs first.
         (Gate::Cx(c, t), false) => vec![Piece::Cnot(t, c), Piece::Cnot(c, t)],
@@ -250,10 +241,10 @@ fn lower_pieces(pieces: Vec<Piece>, native: &NativeSet) -> (Vec<Gate>, f64) {
                     out.push(Gate::Cx(c, t));
                 }
                 Entangler::Cz => {
-                    one(&mut pending, t, hadamard2());
+                    one(&mut pending, t, hadamard());
                     flush(&mut pending, &mut out, &mut phase);
                     out.push(Gate::Cz(c, t));
-                    one(&mut pending, t, hadamard2());
+                    one(&mut pending, t, hadamard());
                 }
             },
         }
@@ -276,7 +267,7 @@ fn run_on(gates: &[Gate], q: Qubit) -> Option<Mat2> {
             None => m,
         });
     }
-    Some(p.unwrap_or_else(identity2))
+    Some(p.unwrap_or_else(identity))
 }
 
 /// The rewrite of the window `gates` (four entanglers on `(a, b)` and one-qubit gates on the

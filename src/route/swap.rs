@@ -327,14 +327,8 @@ impl Router<'_> {
                 }
                 ran_two = true;
                 for q in [x, y] {
-                    let q = q as usize;
-                    self.head2[q] += 1;
-                    while self.q2list[q]
-                        .get(self.head2[q] as usize)
-                        .is_some_and(|&h| self.done[h as usize])
-                    {
-                        self.head2[q] += 1;
-                    }
+                    self.head2[q as usize] += 1;
+                    self.pass_done2(q as usize);
                 }
             }
             let l2p = &self.layout.l2p;
@@ -373,6 +367,11 @@ impl Router<'_> {
                 self.heap.push(Reverse(h));
             }
         }
+        self.pass_done2(q);
+    }
+
+    /// Moves `head2[q]` past two-qubit gates that ran ahead.
+    fn pass_done2(&mut self, q: usize) {
         while self.q2list[q]
             .get(self.head2[q] as usize)
             .is_some_and(|&h| self.done[h as usize])
