@@ -643,3 +643,45 @@ fn the_sign_flip_on_a_brick_wall_starts_from_the_uncontrolled_layout() {
     );
     check_compiled(&best, Some(&dev), "ising 3x4 brick wall, sign flip");
 }
+
+/// The success estimate `Π (1 − e)` of `compiled`'s programs, recomputed on `dev`.
+fn success_on(compiled: &Compiled, dev: &Device) -> Vec<f64> {
+    compiled
+        .programs
+        .iter()
+        .map(|text| {
+            let p = qasm::read("c.qasm", text).unwrap();
+            phasewright::device::costs(&p.circuit, dev, 0)
+                .success_probability
+                .expect("a calibrated device")
+        })
+        .collect()
+}
+
+/// On the bundled chip with one weak coupler (`error cx 3-9 0.02`, against 0.008 elsewhere),
+/// the layout search weighs each emitted CNOT by its coupler's calibrated error
+/// (`route::emitted_score`). The campaign it keeps has a higher success estimate on that chip
+/// than the one kept when every coupler counts alike (the same chip with the link's own error
+/// removed, its programs costed on the real chip), at every time point. The estimate is the
+/// usual first-order `Π (1 − error)` over gates and readouts (common practice). Measured when
+/// written: 0.3741 / 0.1543 against 0.3286 / 0.1375 (k = 1 / 2).
+#[test]
+fn a_weak_coupler_weighs_in_the_layout_search() {
+    let read = |p: &str| std::fs::read_to_string(p).unwrap();
+    let dev =
+        phasewright::lang::dev::parse_device("chip", &read("examples/chip_grid12.dev")).unwrap();
+    let mut even = dev.clone();
+    even.calibration.link_error_rate.clear();
+    let h = phasewright::hamiltonian::parse_hamiltonian("ring", &read("examples/ising_ring8.ham"))
+        .unwrap()
+        .sum;
+    let spec = controlled_overlap("00000000".into(), 0.2, 3);
+    let weighed = compile(&h, &spec, Some(&dev), 3);
+    check_compiled(&weighed, Some(&dev), "weighed");
+    let counted = compile(&h, &spec, Some(&even), 3);
+    let (a, b) = (success_on(&weighed, &dev), success_on(&counted, &dev));
+    assert_eq!(a.len(), b.len());
+    for (i, (x, y)) in a.iter().zip(&b).enumerate() {
+        assert!(x > y, "circuit {i}: weighed {x} against counted {y}");
+    }
+}

@@ -29,7 +29,9 @@
 //!    the interaction graph ([`embed`]) and the step in the order of [`sweep`] (any order the
 //!    non-commuting pairs allow, the ancilla crossing the chip once), routed both by the
 //!    lookahead router and in order with the ancilla as hub ([`hub`]); candidates are scored by
-//!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`), and the best
+//!    the two-qubit gates of the lowered step (`RouteConfig::score_two_qubit`; each weighed
+//!    by `ln(1 − e)` of its coupler when the calibration tells couplers apart, so the search
+//!    minimises what the success estimate penalises: [`emitted_score`]), and the best
 //!    swept and the best split step are finally compared on the whole campaign
 //!    ([`plan_and_route_step`]). At level 3 the commuting runs are also synthesised on the
 //!    coupling graph itself (`synth::Coupled`, [`StepForm::coupled`]): every network CNOT on a
@@ -188,7 +190,8 @@ pub struct RouteConfig {
     /// when it costs more (off everywhere else).
     pub cat_force: bool,
     /// Score candidates by the two-qubit gates of the routed step once lowered (what is
-    /// emitted) rather than by SWAPs.
+    /// emitted, weighed by coupler error where the calibration tells couplers apart:
+    /// [`emitted_score`]) rather than by SWAPs.
     pub score_two_qubit: bool,
     /// Route each candidate step a second time with commuting gates running ahead of a
     /// blocked front (`SwapParams::commute_ahead`) and keep the routing with fewer SWAPs.
@@ -664,7 +667,7 @@ fn route_with(
             for piece in step.pieces(r) {
                 c.extend(piece.gates.iter().copied());
             }
-            emitted_two_qubit(&c, dev) as f64
+            emitted_score(&c, dev) as f64
         };
         let (c1, c2) = (emitted(1), emitted(2));
         circuits * (2.0 * c1 - c2) + steps * (c2 - c1)
@@ -735,7 +738,7 @@ pub fn plan_and_route_cat_step(
         };
         let mut offer = |plan: TargetPlan, step: RoutedStep| {
             let cost = |r: usize| {
-                cat_circuit_two_qubit(&step, n, r, dev, &plan_swap_params(&plan, cfg)) as f64
+                cat_circuit_score(&step, n, r, dev, &plan_swap_params(&plan, cfg)) as f64
             };
             let score = match cfg.campaign_weights {
                 Some((circuits, steps)) => {
@@ -790,9 +793,9 @@ pub fn plan_and_route_cat_step(
     best.map(|(_, plan, step)| (plan, step))
 }
 
-/// Two-qubit gates emitted for `r` steps of a cat `step` between its fan-out and the undoing
-/// of it where the steps end (routed there if the copies have moved apart).
-pub fn cat_circuit_two_qubit(
+/// The [`emitted_score`] of `r` steps of a cat `step` between its fan-out and the undoing of
+/// it where the steps end (routed there if the copies have moved apart).
+pub fn cat_circuit_score(
     step: &RoutedStep,
     n: usize,
     r: usize,
@@ -813,7 +816,7 @@ pub fn cat_circuit_two_qubit(
     let mut undo = Circuit::new(end.len(), 0);
     undo.extend(cat::unfan(end, n, dev));
     c.extend(insert_swaps(&undo, end, dev, params).circuit.gates);
-    emitted_two_qubit(&c, dev)
+    emitted_score(&c, dev)
 }
 
 /// The SWAP parameters a plan routes with (its ancilla as the hub, its factor).
@@ -974,6 +977,7 @@ fn plan_on_step(
         p.hub_factor = factor;
         p
     };
+    let weighted = coupler_reference(dev).is_some();
     let evaluate = |recipe: &Recipe| {
         let Recipe {
             layout: ref l,
@@ -1040,7 +1044,13 @@ fn plan_on_step(
                 ..params.clone()
             };
             let (f, m) = swap::insert_swaps_cut(&parts.circuit, l, dev, &ahead, &parts.cuts);
-            if f.swaps < fwd.swaps {
+            // On a chip with uneven couplers, where the SWAPs land matters too.
+            let fewer = if weighted {
+                emitted_score(&f.circuit, dev) < emitted_score(&fwd.circuit, dev)
+            } else {
+                f.swaps < fwd.swaps
+            };
+            if fewer {
                 (fwd, marks) = (f, m);
                 plan.commute_ahead = swap::COMMUTE_AHEAD;
             }
@@ -1048,7 +1058,7 @@ fn plan_on_step(
         if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
             // The swept order is the walk: the in-order hub router follows it (`hub`).
             let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
-            if emitted_two_qubit(&walked.circuit, dev) < emitted_two_qubit(&fwd.circuit, dev) {
+            if emitted_score(&walked.circuit, dev) < emitted_score(&fwd.circuit, dev) {
                 fwd = walked;
             }
         }
@@ -1079,7 +1089,7 @@ fn plan_on_step(
     let lowered_score = cfg.score_two_qubit && small;
     let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| {
         let first = if lowered_score {
-            emitted_two_qubit(&fwd.circuit, dev)
+            emitted_score(&fwd.circuit, dev)
         } else if cfg.score_two_qubit {
             reuse::two_qubit_cost(&fwd.circuit)
         } else {
@@ -1403,6 +1413,57 @@ pub fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
         .count()
 }
 
+/// Units of [`emitted_score`] per two-qubit gate on the device's best coupler.
+pub const SCORE_UNIT: f64 = 1000.0;
+
+/// What the search minimises for a routed step: [`emitted_two_qubit`], or, on a device whose
+/// calibration gives some coupler its own two-qubit error (`error cx a-b …`), the emitted
+/// two-qubit gates each weighted by `ln(1 − e) / ln(1 − e_best)` (in [`SCORE_UNIT`]s), with
+/// `e` its coupler's error and `e_best` the lowest positive two-qubit error the calibration
+/// names. The weighted sum is `−ln` of the two-qubit part of the success estimate
+/// `Π (1 − e)` (`report::costs`) up to one factor, so the search then prefers the step that
+/// the estimate prefers: a chip with a weak coupler is routed around it when that costs few
+/// gates (counts alone would call a CNOT on it as cheap as any other). With uniform errors,
+/// or none, the weights are all one and the score is the count.
+pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
+    let Some(best) = coupler_reference(dev) else {
+        return emitted_two_qubit(c, dev);
+    };
+    let per_unit = SCORE_UNIT / (-best).ln_1p();
+    let mut cache: std::collections::HashMap<(u32, u32, bool), usize> = Default::default();
+    lower_to_native(c, &dev.native)
+        .gates
+        .iter()
+        .filter(|g| g.is_two_qubit())
+        .map(|g| {
+            let qs = g.qubits();
+            let key = (
+                qs[0].min(qs[1]),
+                qs[0].max(qs[1]),
+                matches!(g, crate::circuit::Gate::Cz(..)),
+            );
+            *cache
+                .entry(key)
+                .or_insert_with(|| ((-dev.gate_error(g)).ln_1p() * per_unit).round() as usize)
+        })
+        .sum()
+}
+
+/// The lowest positive two-qubit error of `dev`'s calibration, when some coupler has its own:
+/// the reference of [`emitted_score`]'s weights (`None`: the score is the plain count).
+fn coupler_reference(dev: &Device) -> Option<f64> {
+    let cal = &dev.calibration;
+    if cal.link_error_rate.is_empty() {
+        return None;
+    }
+    cal.link_error_rate
+        .values()
+        .chain(["cx", "cz"].iter().filter_map(|k| cal.error_rate.get(*k)))
+        .copied()
+        .filter(|&e| e > 0.0 && e < 1.0)
+        .min_by(f64::total_cmp)
+}
+
 /// SWAP insertion, lowering, fusion and cancellation of one logical circuit; `verify_ir` after
 /// each pass (coupling after routing; coupling and native names after lowering, which is
 /// [`DeviceCircuit::checked`]). An error here is a compiler bug.
@@ -1463,6 +1524,7 @@ pub fn to_device(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::circuit::Gate;
     use crate::device::{lattice, Calibration, NativeSet};
     use crate::pauli::Pauli;
 
@@ -1481,6 +1543,28 @@ mod tests {
         h.add(s(&[(0, Pauli::X), (2, Pauli::Z), (4, Pauli::Y)]), 0.25);
         h.add(s(&[(1, Pauli::Y), (3, Pauli::X), (5, Pauli::Z)]), -0.15);
         h
+    }
+
+    #[test]
+    fn a_cnot_on_a_weak_coupler_scores_by_its_error() {
+        // A line of three with `cx` error 0.01, and 0.02 on the coupler 0–1: a CNOT there
+        // weighs ln(0.98) / ln(0.99) = 2.0101 CNOTs on 1–2 (computed by hand), so the score of
+        // one of each is 1000 + 2010 units. Without the coupler's own error, the count.
+        let mut cal = Calibration::default();
+        cal.error_rate.insert("cx".into(), 0.01);
+        let even = Device::new("line", 3, &[(0, 1), (1, 2)], NativeSet::rz_sx_x_cx(), cal);
+        let mut weak = even.clone();
+        weak.calibration
+            .link_error_rate
+            .insert(("cx".into(), 0, 1), 0.02);
+        let mut c = Circuit::new(3, 0);
+        c.extend([Gate::Cx(0, 1), Gate::H(1), Gate::Cx(2, 1)]);
+        assert_eq!(emitted_score(&c, &even), 2);
+        assert_eq!(emitted_score(&c, &weak), 1000 + 2010);
+        // A SWAP on the weak coupler is lowered to three CNOTs there.
+        let mut s = Circuit::new(3, 0);
+        s.push(Gate::Swap(1, 0));
+        assert_eq!(emitted_score(&s, &weak), 3 * 2010);
     }
 
     #[test]

@@ -4,16 +4,16 @@ include "stdgates.inc";
 // bit 0 is the ancilla; see plan.json for what each bit reads
 // device line8: physical qubits, native gates cz rz sx x
 bit[5] c;
-c[0] = measure $6;
-sx $5;
-rz(1.5707963267948966) $5;
-c[1] = measure $5;
+c[0] = measure $0;
+sx $1;
+rz(1.5707963267948966) $1;
+c[1] = measure $1;
 rz(3.141592653589793) $3;
 sx $3;
 rz(3.141592653589793) $3;
 c[2] = measure $3;
-rz(3.141592653589793) $4;
-sx $4;
-rz(-1.5707963267948966) $4;
-c[3] = measure $4;
-c[4] = measure $2;
+rz(3.141592653589793) $2;
+sx $2;
+rz(-1.5707963267948966) $2;
+c[3] = measure $2;
+c[4] = measure $4;
