@@ -826,6 +826,19 @@ mod tests {
     use crate::device::{lattice, Calibration, NativeSet};
     use crate::route::check::placed_error;
 
+    /// The IR verifier with `dev`'s coupling rule: every two-qubit gate on a coupled pair.
+    fn assert_on_coupled_pairs(c: &Circuit, dev: &Device) {
+        let coupled = |a: u32, b: u32| dev.coupled(a, b);
+        crate::circuit::verify::verify_ir(
+            c,
+            &crate::circuit::verify::Rules {
+                coupled: Some(&coupled),
+                native: None,
+            },
+        )
+        .unwrap();
+    }
+
     fn params(stall_limit: Option<usize>) -> SwapParams {
         SwapParams {
             extended_size: 20,
@@ -886,15 +899,7 @@ mod tests {
             let initial = [4, 0, 8, 2, 6];
             for limit in [Some(0), None] {
                 let out = insert_swaps(&c, &initial, &dev, &params(limit));
-                let coupled = |a: u32, b: u32| dev.coupled(a, b);
-                crate::circuit::verify::verify_ir(
-                    &out.circuit,
-                    &crate::circuit::verify::Rules {
-                        coupled: Some(&coupled),
-                        native: None,
-                    },
-                )
-                .unwrap();
+                assert_on_coupled_pairs(&out.circuit, &dev);
                 assert!(
                     placed_error(&c, &out.circuit, &initial, &out.final_layout).unwrap() < 1e-12
                 );
@@ -954,15 +959,7 @@ mod tests {
             let plain = insert_swaps(&c, initial, &dev, &p);
             p.commute_ahead = COMMUTE_AHEAD;
             let (out, marks) = insert_swaps_cut(&c, initial, &dev, &p, &cuts);
-            let coupled = |a: u32, b: u32| dev.coupled(a, b);
-            crate::circuit::verify::verify_ir(
-                &out.circuit,
-                &crate::circuit::verify::Rules {
-                    coupled: Some(&coupled),
-                    native: None,
-                },
-            )
-            .unwrap();
+            assert_on_coupled_pairs(&out.circuit, &dev);
             assert!(
                 placed_error(&c, &out.circuit, initial, &out.final_layout).unwrap() < 1e-12,
                 "seed {seed}"
