@@ -281,6 +281,59 @@ fn unknown_time_unit() {
 }
 
 #[test]
+fn coherence_times_default_and_per_qubit() {
+    // `coherence 100 us` is the default with a spaced unit; `coherence 2 80us` overrides qubit 2.
+    let d = parse_device(
+        "t.dev",
+        &format!("{GOOD_HEAD}coherence 100 us\ncoherence 2 80us # a weaker qubit\n"),
+    )
+    .unwrap();
+    assert_eq!(d.calibration.coherence_ns, Some(100_000.0));
+    assert_eq!(d.calibration.qubit_coherence_ns.get(&2), Some(&80_000.0));
+    assert_eq!(d.calibration.qubit_coherence_ns.len(), 1);
+    let d = parse_device("t.dev", &format!("{GOOD_HEAD}coherence 3 250ns\n")).unwrap();
+    assert_eq!(d.calibration.coherence_ns, None);
+    assert_eq!(d.calibration.qubit_coherence_ns.get(&3), Some(&250.0));
+}
+
+#[test]
+fn bad_coherence_lines() {
+    let d = one_error(&format!("{GOOD_HEAD}coherence 0us\n"));
+    assert_eq!((d.line, d.column), (4, 11));
+    assert!(
+        d.message.contains("must be a positive number"),
+        "{}",
+        d.message
+    );
+    let d = one_error(&format!("{GOOD_HEAD}coherence 9 50us\n"));
+    assert_eq!((d.line, d.column), (4, 11));
+    assert!(
+        d.message.contains("qubit 9 does not exist"),
+        "{}",
+        d.message
+    );
+    let d = one_error(&format!("{GOOD_HEAD}coherence 1ms\n"));
+    assert!(
+        d.message.contains("unknown time unit `ms`"),
+        "{}",
+        d.message
+    );
+    let d = one_error(&format!("{GOOD_HEAD}coherence 100\n"));
+    assert!(d.message.contains("time unit"), "{}", d.message);
+    let d = one_error(&format!("{GOOD_HEAD}coherence\n"));
+    assert!(d.message.contains("coherence time"), "{}", d.message);
+    let d = one_error(&format!("{GOOD_HEAD}coherence 1 5us\ncoherence 1 6us\n"));
+    assert_eq!(d.line, 5);
+    assert!(d.message.contains("given twice"), "{}", d.message);
+    let d = one_error(&format!("{GOOD_HEAD}coherance 5us\n"));
+    assert!(
+        d.message.contains("did you mean `coherence`"),
+        "{}",
+        d.message
+    );
+}
+
+#[test]
 fn unknown_statement_and_trailing_text() {
     let d = one_error(&format!("{GOOD_HEAD}coupler 1 2\n"));
     assert!(d.message.contains("unknown statement `coupler`"));
@@ -370,6 +423,7 @@ mod fuzz {
         "cut",
         "error",
         "time",
+        "coherence",
         "name",
         "readout",
         "measure",

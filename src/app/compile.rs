@@ -542,12 +542,36 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     if args.stage_times {
         text += &stage_table(&stage_seconds);
     }
+    if let Some(line) = device.as_ref().and_then(coherence_line) {
+        text += &line;
+    }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
     Ok(CompileOutcome {
         plan: compiled.plan,
         json,
         text,
     })
+}
+
+/// The line that says the success estimates count waiting, when the device gives coherence
+/// times (`coherence` lines); `None` otherwise.
+fn coherence_line(dev: &crate::device::Device) -> Option<String> {
+    let cal = &dev.calibration;
+    let us = |ns: f64| format!("{} µs", ns / 1000.0);
+    let given = match (cal.coherence_ns, cal.qubit_coherence_ns.len()) {
+        (None, 0) => return None,
+        (Some(t), 0) => us(t),
+        (Some(t), k) => format!("{} ({k} qubit(s) their own)", us(t)),
+        (None, k) => format!("given for {k} qubit(s), the others never decay"),
+    };
+    let search = if crate::route::scores_idling(dev) {
+        "the layout search weighed idling against CNOTs"
+    } else {
+        "the layout search counted CNOTs only (no two-qubit error rate to weigh idling against)"
+    };
+    Some(format!(
+        "Success estimates include waiting: a qubit idle for t keeps its state with probability exp(−t/T), coherence time T {given}; {search}.\n"
+    ))
 }
 
 /// The `--stage-times` table: each stage's seconds and share of the total.
@@ -618,7 +642,7 @@ fn spread_line(plan: &Plan) -> String {
             .iter()
             .any(|c| c.costs.success_probability.is_some_and(|p| p < 1.0));
     let kept = if calibrated {
-        "kept because the campaign's estimated success probability (from the calibrated gate errors) is higher than with the ancilla alone"
+        "kept because the campaign's estimated success probability (from the calibrated gate errors, and coherence times where given) is higher than with the ancilla alone"
     } else {
         "kept because the campaign emits fewer two-qubit gates (or as many, less deep) than with the ancilla alone"
     };

@@ -40,6 +40,11 @@ pub struct Calibration {
     pub qubit_readout_error_rate: BTreeMap<u32, f64>,
     /// Duration per gate name in ns; `measure` for readout.
     pub time_ns: BTreeMap<String, f64>,
+    /// Coherence time in ns (`coherence`), default and per qubit: a qubit that waits `t`
+    /// while others work keeps its state with probability `exp(−t / T)` in the success
+    /// estimate. `None` and no override: idling is free.
+    pub coherence_ns: Option<f64>,
+    pub qubit_coherence_ns: BTreeMap<u32, f64>,
 }
 
 /// A device: what the compiler needs to know to place, route, lower and cost a circuit.
@@ -301,6 +306,8 @@ pub struct CostModel {
     link_error: Vec<(usize, LinkTable)>,
     readout: Vec<f64>,
     readout_default: f64,
+    /// Per qubit, `1 / T` of its coherence time in 1/ns (0: idling is free).
+    idle_rate: Vec<f64>,
 }
 
 /// Largest device whose link overrides are kept as dense `n × n` tables (8 MB per gate kind).
@@ -360,6 +367,15 @@ impl CostModel {
                     .unwrap_or(cal.readout_error_rate)
             })
             .collect();
+        let idle_rate = (0..n as u32)
+            .map(|q| {
+                cal.qubit_coherence_ns
+                    .get(&q)
+                    .copied()
+                    .or(cal.coherence_ns)
+                    .map_or(0.0, |t| 1.0 / t)
+            })
+            .collect();
         CostModel {
             error,
             time_ns,
@@ -367,6 +383,7 @@ impl CostModel {
             link_error,
             readout,
             readout_default: cal.readout_error_rate,
+            idle_rate,
         }
     }
 
@@ -413,6 +430,7 @@ impl CostModel {
             depth: vec![0; num_qubits],
             depth2: vec![0; num_qubits],
             ready_ns: vec![0.0; num_qubits],
+            busy_ns: vec![0.0; num_qubits],
             longest_depth: 0,
             longest_depth2: 0,
             longest_ns: 0.0,
@@ -433,6 +451,8 @@ pub struct CostWalk<'a> {
     /// Per qubit, the two-qubit layer its last two-qubit gate ends on.
     depth2: Vec<u32>,
     ready_ns: Vec<f64>,
+    /// Per qubit, the time its own gates take (the rest of the circuit's duration it idles).
+    busy_ns: Vec<f64>,
     longest_depth: u32,
     longest_depth2: u32,
     longest_ns: f64,
@@ -486,13 +506,15 @@ impl CostWalk<'_> {
                 .map(|&q| self.depth[q as usize])
                 .max()
                 .unwrap_or(0);
-            let t = self.model.time_ns(g)
+            let took = self.model.time_ns(g);
+            let t = took
                 + qs.iter()
                     .map(|&q| self.ready_ns[q as usize])
                     .fold(0.0, f64::max);
             for &q in &qs {
                 self.depth[q as usize] = d;
                 self.ready_ns[q as usize] = t;
+                self.busy_ns[q as usize] += took;
             }
             if let [a, b] = qs[..] {
                 let d2 = 1 + self.depth2[a as usize].max(self.depth2[b as usize]);
@@ -508,6 +530,21 @@ impl CostWalk<'_> {
         self.success *= tally.success;
     }
 
+    /// `Σ (D − busy) / T` over the qubits the circuit touches: `D` its duration, `busy` the
+    /// time of the qubit's own gates, `T` its coherence time. `exp(−idle_decay)` is the
+    /// chance that no qubit decays while it waits (common practice: each idle qubit treated
+    /// as an independent exponential decay, the usual first-order idle term of success
+    /// estimates; gates carry their own calibrated error, so their time is not counted again).
+    pub fn idle_decay(&self) -> f64 {
+        self.depth
+            .iter()
+            .zip(&self.busy_ns)
+            .zip(&self.model.idle_rate)
+            .filter(|((&d, _), &rate)| d > 0 && rate > 0.0)
+            .map(|((_, &busy), &rate)| (self.longest_ns - busy).max(0.0) * rate)
+            .sum()
+    }
+
     pub fn finish(&self, swaps: usize) -> Costs {
         Costs {
             depth: self.longest_depth as usize,
@@ -517,7 +554,7 @@ impl CostWalk<'_> {
             swaps,
             control_copies: 0,
             duration_ns: Some(self.longest_ns),
-            success_probability: Some(self.success),
+            success_probability: Some(self.success * (-self.idle_decay()).exp()),
         }
     }
 }
@@ -536,6 +573,48 @@ mod tests {
         cal.time_ns.insert("sx".into(), 35.0);
         cal.time_ns.insert("measure".into(), 1000.0);
         Device::new("g", 6, &lattice::grid(2, 3), NativeSet::rz_sx_x_cx(), cal)
+    }
+
+    /// The idle term by hand: on a line of 4, `cx 0 1` then `cx 1 2` (300 ns each) last
+    /// 600 ns; qubits 0 and 2 each wait 300 ns, qubit 1 never, qubit 3 is untouched. With a
+    /// 100 µs default and 50 µs on qubit 2 the decay is 300/100000 + 300/50000 = 0.009, so the
+    /// estimate is 0.99² · e^−0.009 (each idle qubit an independent exponential decay, common
+    /// practice). Without coherence times it is 0.99².
+    #[test]
+    fn waiting_qubits_decay_by_their_coherence_times() {
+        let mut cal = Calibration::default();
+        cal.error_rate.insert("cx".into(), 0.01);
+        cal.time_ns.insert("cx".into(), 300.0);
+        let plain = Device::new(
+            "l",
+            4,
+            &lattice::line(4),
+            NativeSet::rz_sx_x_cx(),
+            cal.clone(),
+        );
+        cal.coherence_ns = Some(100_000.0);
+        cal.qubit_coherence_ns.insert(2, 50_000.0);
+        let dev = Device::new("l", 4, &lattice::line(4), NativeSet::rz_sx_x_cx(), cal);
+        let mut c = Circuit::new(4, 0);
+        c.push(Gate::Cx(0, 1));
+        c.push(Gate::Cx(1, 2));
+        let model = CostModel::new(&dev);
+        let mut walk = model.walk(4);
+        walk.add(&c.gates);
+        assert!((walk.idle_decay() - 0.009).abs() < 1e-15);
+        let p = costs(&c, &dev, 0).success_probability.unwrap();
+        assert!(
+            (p - 0.99f64.powi(2) * (-0.009f64).exp()).abs() < 1e-15,
+            "{p}"
+        );
+        let p0 = costs(&c, &plain, 0).success_probability.unwrap();
+        assert!((p0 - 0.99f64.powi(2)).abs() < 1e-15, "{p0}");
+        // Side by side, neither waits.
+        let mut side = Circuit::new(4, 0);
+        side.push(Gate::Cx(0, 1));
+        side.push(Gate::Cx(2, 3));
+        let p = costs(&side, &dev, 0).success_probability.unwrap();
+        assert!((p - 0.99f64.powi(2)).abs() < 1e-15, "{p}");
     }
 
     #[test]

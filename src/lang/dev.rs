@@ -9,7 +9,7 @@
 //! problems of every line. Never panics on any input.
 //!
 //! Statements (one per line, `#` starts a comment): `name`, `qubits`, `native`, `lattice`,
-//! `link`, `cut`, `error`, `time`. Lattices and links add couplings and cuts remove them, in
+//! `link`, `cut`, `error`, `time`, `coherence`. Lattices and links add couplings and cuts remove them, in
 //! file order; error rates and times are checked against the final coupling graph.
 
 use crate::device::lattice::{self, Lattice, ShapeError};
@@ -52,6 +52,8 @@ enum Stmt<'a> {
     Cut(&'a str, &'a str),
     Error(&'a str, Option<Target<'a>>, &'a str),
     Time(&'a str, &'a str, &'a str),
+    /// `coherence [qubit] value unit`.
+    Coherence(Option<&'a str>, &'a str, &'a str),
 }
 
 // ---- productions, bottom-up -------------------------------------------------------------
@@ -162,6 +164,30 @@ fn statement(i: &str) -> Res<'_, Stmt<'_>> {
                 ))),
             ),
             |(g, v, u)| Stmt::Time(g, v, u),
+        ),
+        map(
+            preceded(
+                keyword("coherence"),
+                cut(tuple((
+                    // A qubit number only when another number follows it (`coherence 7
+                    // 80us`); `coherence 100 us` is the default with a spaced unit.
+                    opt(preceded(
+                        space1,
+                        terminated(
+                            digit1,
+                            peek(pair(
+                                space1,
+                                satisfy(|c: char| {
+                                    c.is_ascii_digit() || matches!(c, '.' | '+' | '-')
+                                }),
+                            )),
+                        ),
+                    )),
+                    arg("a coherence time such as `100us`", recognize_float),
+                    context("a time unit (`ns` or `us`)", preceded(space0, alpha1)),
+                ))),
+            ),
+            |(q, v, u)| Stmt::Coherence(q, v, u),
         ),
     ))(i)
 }
@@ -280,7 +306,7 @@ pub fn parse_device(file: &str, src: &str) -> Result<Device, Vec<Diagnostic>> {
                         Code::DevUnknownWord,
                         w,
                         format!("unknown statement `{w}`{}", did_you_mean(w, DEV_STATEMENTS)),
-                        Some("statements are: name qubits native lattice link cut error time"),
+                        Some("statements are: name qubits native lattice link cut error time coherence"),
                     ),
                     _ => {
                         let lines = cx.lines.get_or_insert_with(|| LineIndex::new(src));
@@ -595,6 +621,42 @@ fn check_calibrated_gate(
     true
 }
 
+/// A duration `value unit` in ns, or a diagnostic: an unknown unit, or a value that is not
+/// finite or fails `ok` (`must` says what it must be).
+fn duration_ns(
+    cx: &mut Ctx,
+    value: &str,
+    unit: &str,
+    ok: impl Fn(f64) -> bool,
+    must: &str,
+) -> Option<f64> {
+    let scale = match unit {
+        "ns" => 1.0,
+        "us" => 1000.0,
+        _ => {
+            cx.err(
+                Code::DevUnknownWord,
+                unit,
+                format!("unknown time unit `{unit}`"),
+                Some("use ns or us"),
+            );
+            return None;
+        }
+    };
+    match value.parse::<f64>() {
+        Ok(v) if v.is_finite() && ok(v) => Some(v * scale),
+        _ => {
+            cx.err(
+                Code::DevValue,
+                value,
+                format!("duration {value} must be {must}"),
+                None,
+            );
+            None
+        }
+    }
+}
+
 fn calibration(
     cx: &mut Ctx,
     stmts: &[(&str, Stmt)],
@@ -721,36 +783,47 @@ fn calibration(
                 {
                     continue;
                 }
-                let scale = match *unit {
-                    "ns" => 1.0,
-                    "us" => 1000.0,
-                    _ => {
-                        cx.err(
-                            Code::DevUnknownWord,
-                            unit,
-                            format!("unknown time unit `{unit}`"),
-                            Some("use ns or us"),
-                        );
-                        continue;
-                    }
+                let Some(ns) = duration_ns(cx, value, unit, |v| v >= 0.0, "a non-negative number")
+                else {
+                    continue;
                 };
-                let v = match value.parse::<f64>() {
-                    Ok(v) if v >= 0.0 && v.is_finite() => v,
-                    _ => {
-                        cx.err(
-                            Code::DevValue,
-                            value,
-                            format!("duration {value} must be a non-negative number"),
-                            None,
-                        );
-                        continue;
-                    }
-                };
-                if cal.time_ns.insert(g.to_string(), v * scale).is_some() {
+                if cal.time_ns.insert(g.to_string(), ns).is_some() {
                     cx.err(
                         Code::DevDeclare,
                         text.trim(),
                         format!("the time of `{g}` is given twice"),
+                        None,
+                    );
+                }
+            }
+            Stmt::Coherence(qubit, value, unit) => {
+                let Some(ns) = duration_ns(cx, value, unit, |v| v > 0.0, "a positive number")
+                else {
+                    continue;
+                };
+                let twice = match qubit {
+                    None => cal.coherence_ns.replace(ns).is_some(),
+                    Some(t) => {
+                        let Some(q) = cx.uint(t, "qubit") else {
+                            continue;
+                        };
+                        if q >= size {
+                            cx.err(
+                                Code::DevQubitRange,
+                                t,
+                                format!("qubit {q} does not exist (the device has {size} qubits)"),
+                                None,
+                            );
+                            continue;
+                        }
+                        cal.qubit_coherence_ns.insert(q, ns).is_some()
+                    }
+                };
+                if twice {
+                    cx.err(
+                        Code::DevDeclare,
+                        text.trim(),
+                        "this coherence time is given twice",
                         None,
                     );
                 }

@@ -15,7 +15,15 @@ pub const HAM_KEYWORDS: &[&str] = &["qubits", "let", "sum", "in", "encoding"];
 
 /// Statements of the `.dev` language.
 pub const DEV_STATEMENTS: &[&str] = &[
-    "name", "qubits", "native", "lattice", "link", "cut", "error", "time",
+    "name",
+    "qubits",
+    "native",
+    "lattice",
+    "link",
+    "cut",
+    "error",
+    "time",
+    "coherence",
 ];
 
 /// The closest candidate to `word`: edit distance 1 for words of up to four letters, 2 beyond,

@@ -1014,7 +1014,7 @@ fn plan_on_step(
         p.hub_factor = factor;
         p
     };
-    let weighted = coupler_reference(dev).is_some();
+    let weighted = score_reference(dev).is_some();
     let evaluate = |recipe: &Recipe| {
         let Recipe {
             layout: ref l,
@@ -1465,21 +1465,31 @@ pub fn emitted_two_qubit(c: &Circuit, dev: &Device) -> usize {
 pub const SCORE_UNIT: f64 = 1000.0;
 
 /// What the search minimises for a routed step: [`emitted_two_qubit`], or, on a device whose
-/// calibration gives some coupler its own two-qubit error (`error cx a-b …`), the emitted
-/// two-qubit gates each weighted by `ln(1 − e) / ln(1 − e_best)` (in [`SCORE_UNIT`]s), with
-/// `e` its coupler's error and `e_best` the lowest positive two-qubit error the calibration
-/// names. The weighted sum is `−ln` of the two-qubit part of the success estimate
-/// `Π (1 − e)` (`report::costs`) up to one factor, so the search then prefers the step that
-/// the estimate prefers: a chip with a weak coupler is routed around it when that costs few
-/// gates (counts alone would call a CNOT on it as cheap as any other). With uniform errors,
-/// or none, the weights are all one and the score is the count.
+/// calibration gives some coupler its own two-qubit error (`error cx a-b …`) or gives
+/// coherence times (`coherence …`), `−ln` of the part of the success estimate that the
+/// routing moves, in [`SCORE_UNIT`]s of one two-qubit gate on the best coupler:
+/// - each emitted two-qubit gate weighs `ln(1 − e) / ln(1 − e_best)`, with `e` its coupler's
+///   error and `e_best` the lowest positive two-qubit error the calibration names;
+/// - with coherence times, the step's idling adds `Σ (D − busy) / T / −ln(1 − e_best)` over
+///   the qubits it touches (`device::CostWalk::idle_decay`, from the gate times of the
+///   lowered step), so a deeper step pays for the qubits that wait through it.
+///
+/// The sum is `−ln` of the two-qubit and idle parts of the success estimate (`report::costs`)
+/// up to one factor, so the search prefers the step that the estimate prefers: a chip with a
+/// weak coupler is routed around it when that costs few gates, and on a chip whose qubits
+/// decay while they wait a shallower step may win over one with a few fewer CNOTs (counts
+/// alone would call a CNOT on the weak coupler as cheap as any other, and waiting free).
+/// With uniform errors and no coherence times, or no two-qubit error to scale by, the weights
+/// are all one and the score is the count.
 pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
-    let Some(best) = coupler_reference(dev) else {
+    let Some(best) = score_reference(dev) else {
         return emitted_two_qubit(c, dev);
     };
+    // Units per unit of `−ln`: `ln(1 − e)` and this are both negative.
     let per_unit = SCORE_UNIT / (-best).ln_1p();
     let mut cache: std::collections::HashMap<(u32, u32, bool), usize> = Default::default();
-    lower_for_output(c, &dev.native)
+    let lowered = lower_for_output(c, &dev.native);
+    let gates: usize = lowered
         .gates
         .iter()
         .filter(|g| g.is_two_qubit())
@@ -1494,14 +1504,40 @@ pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
                 .entry(key)
                 .or_insert_with(|| ((-dev.gate_error(g)).ln_1p() * per_unit).round() as usize)
         })
-        .sum()
+        .sum();
+    if !has_coherence(dev) {
+        return gates;
+    }
+    let model = crate::device::CostModel::new(dev);
+    let mut walk = model.walk(lowered.num_qubits);
+    // Only the schedule is walked: the gate errors are in `gates` already.
+    let untallied = crate::device::Tally {
+        two_qubit: 0,
+        one_qubit: 0,
+        success: 1.0,
+    };
+    walk.add_tallied(&lowered.gates, &untallied);
+    gates + (walk.idle_decay() * -per_unit).round() as usize
 }
 
-/// The lowest positive two-qubit error of `dev`'s calibration, when some coupler has its own:
-/// the reference of [`emitted_score`]'s weights (`None`: the score is the plain count).
-fn coupler_reference(dev: &Device) -> Option<f64> {
+/// Whether [`emitted_score`] weighs a step's idling on `dev`: coherence times and a
+/// two-qubit error to scale them by.
+pub fn scores_idling(dev: &Device) -> bool {
+    has_coherence(dev) && score_reference(dev).is_some()
+}
+
+/// Whether `dev`'s calibration gives any coherence time.
+fn has_coherence(dev: &Device) -> bool {
     let cal = &dev.calibration;
-    if cal.link_error_rate.is_empty() {
+    cal.coherence_ns.is_some() || !cal.qubit_coherence_ns.is_empty()
+}
+
+/// The lowest positive two-qubit error of `dev`'s calibration, when some coupler has its own
+/// or coherence times are given: the reference of [`emitted_score`]'s weights (`None`: the
+/// score is the plain count).
+fn score_reference(dev: &Device) -> Option<f64> {
+    let cal = &dev.calibration;
+    if cal.link_error_rate.is_empty() && !has_coherence(dev) {
         return None;
     }
     cal.link_error_rate
@@ -1647,6 +1683,29 @@ mod tests {
         let mut s = Circuit::new(3, 0);
         s.push(Gate::Swap(1, 0));
         assert_eq!(emitted_score(&s, &weak), 3 * 2010);
+    }
+
+    #[test]
+    fn a_waiting_qubit_scores_by_its_coherence_time() {
+        // A line of four, `cx` error 0.01 and 300 ns, coherence 100 µs. `cx 0 1; cx 1 2` lasts
+        // 600 ns and qubits 0 and 2 wait 300 ns each: an idle decay of 0.006, which weighs
+        // 0.006 / −ln(0.99) = 0.59699 CNOTs (computed by hand), 597 units beside the 2000 of
+        // the two CNOTs. Side by side (`cx 0 1; cx 2 3`) nobody waits: 2000. Without the
+        // coherence time both are the count, 2.
+        let mut cal = Calibration::default();
+        cal.error_rate.insert("cx".into(), 0.01);
+        cal.time_ns.insert("cx".into(), 300.0);
+        let timeless = Device::new("line", 4, &lattice::line(4), NativeSet::rz_sx_x_cx(), cal);
+        let mut dev = timeless.clone();
+        dev.calibration.coherence_ns = Some(100_000.0);
+        let mut serial = Circuit::new(4, 0);
+        serial.extend([Gate::Cx(0, 1), Gate::Cx(1, 2)]);
+        let mut side = Circuit::new(4, 0);
+        side.extend([Gate::Cx(0, 1), Gate::Cx(2, 3)]);
+        assert_eq!(emitted_score(&serial, &dev), 2000 + 597);
+        assert_eq!(emitted_score(&side, &dev), 2000);
+        assert_eq!(emitted_score(&serial, &timeless), 2);
+        assert_eq!(emitted_score(&side, &timeless), 2);
     }
 
     #[test]
