@@ -31,7 +31,10 @@
 //! 35 ns: common-practice figures of superconducting chips, from memory; the heavy hexagon
 //! keeps its file's errors and times) and gives each qubit
 //! that coherence time, so the search weighs idling against CNOTs (`route::emitted_score`):
-//! it shows what a depth-aware objective trades.
+//! it shows what a depth-aware objective trades. Such a run adds the best level's success
+//! estimate on that device (`succ`), and the success estimate, two-qubit gates and depth of the
+//! campaign the same level keeps when waiting is free (`free`, `2q`, `d2`: the device without
+//! the coherence time, its program costed on the device with it).
 //! Deterministic: fixed seeds throughout.
 
 use phasewright::device::{lattice, Calibration, Device, NativeSet};
@@ -256,6 +259,8 @@ fn devices(n: usize) -> Vec<Option<Device>> {
 struct Row {
     two_qubit: usize,
     depth2: usize,
+    /// The written `k01-re` program.
+    text: String,
 }
 
 fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel, cat: bool) -> Row {
@@ -290,7 +295,16 @@ fn measure(h: &PauliSum, dev: Option<&Device>, level: OptLevel, cat: bool) -> Ro
     Row {
         two_qubit: costs.two_qubit,
         depth2: costs.two_qubit_depth,
+        text: out.programs[i].clone(),
     }
+}
+
+/// The success estimate of a written program on `dev` (`device::costs`).
+fn success_on(text: &str, dev: &Device) -> f64 {
+    let p = phasewright::qasm::read("k01-re.qasm", text).expect("reads back");
+    phasewright::device::costs(&p.circuit, dev, 0)
+        .success_probability
+        .expect("a device")
 }
 
 /// Two-qubit gates of the uncontrolled step routed with the same search, no ancilla.
@@ -362,7 +376,12 @@ fn main() {
     for l in &levels {
         print!("{:>8}{:>6}", format!("L{l} 2q"), "d2");
     }
-    println!("{:>8}{:>8}{:>7}{:>8}", "ref", "ratio", "goal", "d2/2q");
+    print!("{:>8}{:>8}{:>7}{:>8}", "ref", "ratio", "goal", "d2/2q");
+    let coherence_run = std::env::var("COHERENCE_US").is_ok();
+    if coherence_run {
+        print!("{:>10}{:>10}{:>7}{:>6}", "succ", "free", "2q", "d2");
+    }
+    println!();
     // `MODELS=dense12,hubbard2x3` runs some models only.
     let only: Option<Vec<String>> = std::env::var("MODELS")
         .ok()
@@ -387,6 +406,7 @@ fn main() {
             let mut last = Row {
                 two_qubit: 0,
                 depth2: 0,
+                text: String::new(),
             };
             for &l in &levels {
                 let r = measure(h, dev.as_ref(), OptLevel::new(l).expect("level"), cat);
@@ -429,7 +449,31 @@ fn main() {
                 ),
                 None => print!("{:>8}{:>8}{:>7}", "-", "-", "-"),
             }
-            println!("{:>8.2}", last.depth2 as f64 / last.two_qubit.max(1) as f64);
+            print!("{:>8.2}", last.depth2 as f64 / last.two_qubit.max(1) as f64);
+            // With coherence times: the best level's success estimate against that of the
+            // campaign kept when waiting is free (the same device without them), both costed on
+            // the device with them.
+            match dev
+                .as_ref()
+                .filter(|d| d.calibration.coherence_ns.is_some())
+            {
+                Some(d) => {
+                    let mut free = d.clone();
+                    free.calibration.coherence_ns = None;
+                    let level = OptLevel::new(*levels.last().expect("a level")).expect("level");
+                    let counted = measure(h, Some(&free), level, cat);
+                    print!(
+                        "{:>10.2e}{:>10.2e}{:>7}{:>6}",
+                        success_on(&last.text, d),
+                        success_on(&counted.text, d),
+                        counted.two_qubit,
+                        counted.depth2
+                    );
+                }
+                None if coherence_run => print!("{:>10}{:>10}{:>7}{:>6}", "-", "-", "-", "-"),
+                None => {}
+            }
+            println!();
             if let (Some(d), true) = (&dev, name.ends_with('~')) {
                 let (hit, all) = edges_recovered(h, d);
                 println!(
