@@ -197,3 +197,57 @@ fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
     );
     assert!(!tmp.path().join("o").exists());
 }
+
+/// A device with a coherence time: the table says that its success estimates count waiting,
+/// each recorded estimate is the gate-error product times `exp(−idle / T)` (so below the
+/// product recomputed on the same chip without the `coherence` line, common practice: each
+/// idle qubit an independent exponential decay), and `verify` passes.
+#[test]
+fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
+    let tmp = tempfile::tempdir().unwrap();
+    let base = std::fs::read_to_string("examples/chip_grid12.dev").unwrap();
+    let dev_path = tmp.path().join("chip_t.dev");
+    std::fs::write(&dev_path, format!("{base}coherence 100us\n")).unwrap();
+    let out = tmp.path().join("camp");
+    let out_s = out.display().to_string();
+    let table = run_ok(&[
+        "compile",
+        "examples/ising_ring8.ham",
+        "--state",
+        "00000000",
+        "--dt",
+        "0.2",
+        "--points",
+        "3",
+        "--device",
+        &dev_path.display().to_string(),
+        "-o",
+        &out_s,
+    ]);
+    assert!(
+        table.contains("Success estimates include waiting")
+            && table.contains("coherence time T 100 µs")
+            && table.contains("weighed idling against CNOTs"),
+        "{table}"
+    );
+    let timed = parse_device("chip_t.dev", &std::fs::read_to_string(&dev_path).unwrap()).unwrap();
+    let free = parse_device("chip.dev", &base).unwrap();
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+    for c in plan["circuits"].as_array().unwrap() {
+        let text = std::fs::read_to_string(out.join(c["file"].as_str().unwrap())).unwrap();
+        let prog = qasm::read("f.qasm", &text).unwrap();
+        let recorded = c["costs"]["success_probability"].as_f64().unwrap();
+        let with = phasewright::device::costs(&prog.circuit, &timed, 0);
+        let without = phasewright::device::costs(&prog.circuit, &free, 0);
+        assert!((recorded - with.success_probability.unwrap()).abs() < 1e-12);
+        assert!(
+            recorded < without.success_probability.unwrap(),
+            "{}",
+            c["id"]
+        );
+    }
+    let v: serde_json::Value =
+        serde_json::from_str(&run_ok(&["verify", "--json", &out_s])).unwrap();
+    assert_eq!(v["ok"], true, "{v}");
+}

@@ -508,7 +508,10 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             .device
             .as_ref()
             .and_then(|d| d.flip_string.as_deref());
-        text += &control_line(control, why_not_prep.as_ref(), flip);
+        let weighed = device
+            .as_ref()
+            .is_some_and(crate::route::weighs_calibration);
+        text += &control_line(control, why_not_prep.as_ref(), flip, weighed);
         text += &spread_line(&compiled.plan);
         text += &format!(
             "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
@@ -613,9 +616,20 @@ pub fn choose_control(
 
 /// The line of the compile summary that says which control form was chosen; `flip`: the
 /// string through which a sign-flip step is controlled (`synth::flip`), if it was kept.
-fn control_line(control: Control, why_not: Option<&NotAnEigenstate>, flip: Option<&str>) -> String {
+/// `weighed`: the layout search weighed CNOTs by the calibration (`route::weighs_calibration`).
+fn control_line(
+    control: Control,
+    why_not: Option<&NotAnEigenstate>,
+    flip: Option<&str>,
+    weighed: bool,
+) -> String {
+    let why = if weighed {
+        "kept because that scores best on the calibration (two-qubit gates weighed by their errors, and idling where coherence times are given)"
+    } else {
+        "kept because that emits fewer two-qubit gates"
+    };
     let how = match flip {
-        Some(q) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, kept because that emits fewer two-qubit gates"),
+        Some(q) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, {why}"),
         None => "the ancilla controls every rotation".into(),
     };
     match (control, why_not) {
@@ -861,6 +875,31 @@ impl Drop for FolderWriter {
 mod tests {
     use super::*;
     use crate::pipeline::Sink;
+
+    #[test]
+    fn the_control_line_says_what_the_search_weighed() {
+        let flip = Some("Y0 Z1");
+        let counted = control_line(Control::Evolution, None, flip, false);
+        assert!(counted.contains("emits fewer two-qubit gates"), "{counted}");
+        let weighed = control_line(Control::Evolution, None, flip, true);
+        assert!(
+            weighed.contains("scores best on the calibration"),
+            "{weighed}"
+        );
+        assert!(!weighed.contains("emits fewer"), "{weighed}");
+        // A device with coherence times and a two-qubit error is weighed; one without is not.
+        let dev = |extra: &str| {
+            let text = format!("native rz sx x cx\nlattice line 3\nerror cx 0.01\n{extra}");
+            crate::lang::dev::parse_device("l.dev", &text).unwrap()
+        };
+        assert!(!crate::route::weighs_calibration(&dev("")));
+        assert!(crate::route::weighs_calibration(&dev("coherence 80us\n")));
+        assert!(crate::route::weighs_calibration(&dev(
+            "error cx 0-1 0.02\n"
+        )));
+        assert!(crate::route::scores_idling(&dev("coherence 80us\n")));
+        assert!(!crate::route::scores_idling(&dev("error cx 0-1 0.02\n")));
+    }
 
     /// A small campaign compiled with every text kept (`pipeline::compile`).
     fn small() -> Compiled {

@@ -854,8 +854,12 @@ struct Recipe {
     form: StepForm,
 }
 
-/// A scored candidate: (two-qubit score, layout cost) and its recipe.
-type Keyed = ((usize, f64), Recipe);
+/// A candidate's key: its two-qubit score, then the two-qubit depth of what it emits (0 where
+/// the score is not taken on the lowering), then its layout cost.
+type Key = (usize, usize, f64);
+
+/// A scored candidate and its recipe.
+type Keyed = (Key, Recipe);
 
 /// The best plan with a split (or plain) step, and the best swept one: they differ in how later
 /// steps join (`reuse`), so [`plan_and_route_step`] may compare them on the campaign.
@@ -866,7 +870,7 @@ struct Bests {
     /// The initial layout of the best split (or plain) step so far.
     plain_layout: Option<Vec<u32>>,
     /// The best [`RUNNER_UP_LAYOUTS`] + 1 distinct starting layouts of either kind, best first.
-    layouts: Vec<((usize, f64), Vec<u32>)>,
+    layouts: Vec<(Key, Vec<u32>)>,
 }
 
 impl Bests {
@@ -900,10 +904,10 @@ impl Bests {
     }
 }
 
-/// Whether key `a` scores strictly better than `b`: the two-qubit score first, then the
-/// layout cost (beyond round-off).
-fn beats(a: &(usize, f64), b: &(usize, f64)) -> bool {
-    a.0 < b.0 || (a.0 == b.0 && a.1 < b.1 - 1e-12)
+/// Whether key `a` scores strictly better than `b`: the two-qubit score first, then, at equal
+/// scores, the shallower step, then the layout cost (beyond round-off).
+fn beats(a: &Key, b: &Key) -> bool {
+    (a.0, a.1) < (b.0, b.1) || ((a.0, a.1) == (b.0, b.1) && a.2 < b.2 - 1e-12)
 }
 
 /// A plan and, when it was routed, its step's parts, routing and marks at the cuts.
@@ -1065,6 +1069,8 @@ fn plan_on_step(
         }
         let params = params_with(factor);
         let parts = reuse::step_parts_on(&terms, &plan, order, dt, Some(dev));
+        // The routed step's `emitted_score_and_depth`, where a choice below already took it.
+        let mut known: Option<(usize, usize)> = None;
         let (mut fwd, mut marks) =
             swap::insert_swaps_cut(&parts.circuit, l, dev, &params, &parts.cuts);
         // The same step routed with commuting gates running ahead of a blocked front, kept
@@ -1081,9 +1087,15 @@ fn plan_on_step(
                 ..params.clone()
             };
             let (f, m) = swap::insert_swaps_cut(&parts.circuit, l, dev, &ahead, &parts.cuts);
-            // On a chip with uneven couplers, where the SWAPs land matters too.
+            // On a chip with uneven couplers or decaying qubits, where the SWAPs land and how
+            // deep the step grows matter too.
             let fewer = if weighted {
-                emitted_score(&f.circuit, dev) < emitted_score(&fwd.circuit, dev)
+                let (a, b) = (
+                    emitted_score_and_depth(&f.circuit, dev),
+                    emitted_score_and_depth(&fwd.circuit, dev),
+                );
+                known = Some(if a.0 < b.0 { a } else { b });
+                a.0 < b.0
             } else {
                 f.swaps < fwd.swaps
             };
@@ -1095,11 +1107,14 @@ fn plan_on_step(
         if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
             // The swept order is the walk: the in-order hub router follows it (`hub`).
             let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
-            if emitted_score(&walked.circuit, dev) < emitted_score(&fwd.circuit, dev) {
+            let a = emitted_score_and_depth(&walked.circuit, dev);
+            let b = known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev));
+            known = Some(if a.0 < b.0 { a } else { b });
+            if a.0 < b.0 {
                 fwd = walked;
             }
         }
-        Ok::<_, RouteError>((plan, parts, fwd, marks))
+        Ok::<_, RouteError>((plan, parts, fwd, marks, known))
     };
     // The first routing of the full search measures the work of one routing; it is kept whole
     // (the search may be that one routing), every other candidate only by its key.
@@ -1124,15 +1139,15 @@ fn plan_on_step(
     // Lowering every candidate is exact but costs about a routing; above `EXTRAS_MAX_UNIT`
     // the peephole count (SWAP = 3) stands in for it.
     let lowered_score = cfg.score_two_qubit && small;
-    let key_of = |fwd: &swap::SwapOutcome, l: &[u32]| {
-        let first = if lowered_score {
-            emitted_score(&fwd.circuit, dev)
+    let key_of = |fwd: &swap::SwapOutcome, l: &[u32], known: Option<(usize, usize)>| {
+        let (first, depth) = if lowered_score {
+            known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev))
         } else if cfg.score_two_qubit {
-            reuse::two_qubit_cost(&fwd.circuit)
+            (reuse::two_qubit_cost(&fwd.circuit), 0)
         } else {
-            fwd.swaps
+            (fwd.swaps, 0)
         };
-        (first, layout::layout_cost(&w, l, dev))
+        (first, depth, layout::layout_cost(&w, l, dev))
     };
     let search = std::iter::once(full)
         .chain(SEARCH_LEVELS.iter().map(|&(t, f, c, r)| Search {
@@ -1180,13 +1195,13 @@ fn plan_on_step(
         let mut keys = Vec::with_capacity(rounds + 1);
         for round in 0..=*rounds {
             let own;
-            let (_, parts, fwd, _) = if recipe == first_recipe {
+            let (_, parts, fwd, _, known) = if recipe == first_recipe {
                 &first_eval
             } else {
                 own = evaluate(&recipe)?;
                 &own
             };
-            keys.push((key_of(fwd, &recipe.layout), recipe.clone()));
+            keys.push((key_of(fwd, &recipe.layout, *known), recipe.clone()));
             if round == *rounds {
                 break;
             }
@@ -1238,7 +1253,10 @@ fn plan_on_step(
         .for_each(|k| bests.consider(k));
     if !measured_in_search {
         // The measuring routing was not part of the chosen search: it still competes.
-        bests.consider((key_of(&first_eval.2, &first_layout), first_recipe.clone()));
+        bests.consider((
+            key_of(&first_eval.2, &first_layout, first_eval.4),
+            first_recipe.clone(),
+        ));
     }
     if cfg.score_two_qubit && !cfg.textbook && small {
         // What the level-0 pipeline would emit (unmerged, uncancelled, first layout) competes
@@ -1370,8 +1388,8 @@ fn plan_on_step(
     // The winners were kept by their recipes: build them again (deterministic), except the
     // measuring routing, which is still at hand.
     let mut first_eval = Some(first_eval);
-    let mut build = |(key, recipe): Keyed| -> Result<((usize, f64), Planned), RouteError> {
-        let (plan, parts, fwd, marks) = match first_eval.take() {
+    let mut build = |(key, recipe): Keyed| -> Result<(Key, Planned), RouteError> {
+        let (plan, parts, fwd, marks, _) = match first_eval.take() {
             Some(f) if recipe == first_recipe => f,
             kept => {
                 first_eval = kept;
@@ -1482,13 +1500,19 @@ pub const SCORE_UNIT: f64 = 1000.0;
 /// With uniform errors and no coherence times, or no two-qubit error to scale by, the weights
 /// are all one and the score is the count.
 pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
+    emitted_score_and_depth(c, dev).0
+}
+
+/// [`emitted_score`] and the two-qubit depth of what is written, from one lowering.
+fn emitted_score_and_depth(c: &Circuit, dev: &Device) -> (usize, usize) {
+    let lowered = lower_for_output(c, &dev.native);
+    let k = crate::circuit::metrics::counts(&lowered);
     let Some(best) = score_reference(dev) else {
-        return emitted_two_qubit(c, dev);
+        return (k.two_qubit, k.two_qubit_depth);
     };
     // Units per unit of `−ln`: `ln(1 − e)` and this are both negative.
     let per_unit = SCORE_UNIT / (-best).ln_1p();
     let mut cache: std::collections::HashMap<(u32, u32, bool), usize> = Default::default();
-    let lowered = lower_for_output(c, &dev.native);
     let gates: usize = lowered
         .gates
         .iter()
@@ -1506,7 +1530,7 @@ pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
         })
         .sum();
     if !has_coherence(dev) {
-        return gates;
+        return (gates, k.two_qubit_depth);
     }
     let model = crate::device::CostModel::new(dev);
     let mut walk = model.walk(lowered.num_qubits);
@@ -1517,7 +1541,14 @@ pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
         success: 1.0,
     };
     walk.add_tallied(&lowered.gates, &untallied);
-    gates + (walk.idle_decay() * -per_unit).round() as usize
+    let idle = (walk.idle_decay() * -per_unit).round() as usize;
+    (gates + idle, k.two_qubit_depth)
+}
+
+/// Whether [`emitted_score`] weighs CNOTs by `dev`'s calibration (coupler errors of their
+/// own, or coherence times) rather than counting them.
+pub fn weighs_calibration(dev: &Device) -> bool {
+    score_reference(dev).is_some()
 }
 
 /// Whether [`emitted_score`] weighs a step's idling on `dev`: coherence times and a
@@ -1642,14 +1673,14 @@ mod tests {
         };
         let mut b = Bests::default();
         for (key, l, choice) in [
-            ((50, 0.0), 0, OrderChoice::Default),
-            ((40, 1.0), 2, OrderChoice::Default),
-            ((40, 1.0), 4, OrderChoice::Default),
-            ((45, 0.0), 0, OrderChoice::Walk),
-            ((40, 0.5), 6, OrderChoice::Sweep),
-            ((60, 0.0), 8, OrderChoice::Default),
-            ((38, 0.0), 2, OrderChoice::Walk),
-            ((70, 0.0), 6, OrderChoice::Default),
+            ((50, 0, 0.0), 0, OrderChoice::Default),
+            ((40, 5, 1.0), 2, OrderChoice::Default),
+            ((40, 5, 1.0), 4, OrderChoice::Default),
+            ((45, 0, 0.0), 0, OrderChoice::Walk),
+            ((40, 5, 0.5), 6, OrderChoice::Sweep),
+            ((60, 0, 0.0), 8, OrderChoice::Default),
+            ((38, 0, 0.0), 2, OrderChoice::Walk),
+            ((70, 0, 0.0), 6, OrderChoice::Default),
         ] {
             b.consider((key, recipe(l, choice)));
         }
@@ -1657,10 +1688,15 @@ mod tests {
         assert_eq!(RUNNER_UP_LAYOUTS, 1);
         assert_eq!(layouts, vec![(38, 2), (40, 6)]);
         let [plain, swept] = &b.slots;
-        assert_eq!(plain.as_ref().unwrap().0, (38, 0.0));
+        assert_eq!(plain.as_ref().unwrap().0, (38, 0, 0.0));
         assert_eq!(plain.as_ref().unwrap().1.layout, vec![2, 3]);
         assert_eq!(swept.as_ref().unwrap().1.layout, vec![6, 7]);
         assert_eq!(b.plain_layout, Some(vec![2, 3]));
+        // The score first, then the shallower step, then the layout cost; equal keys tie.
+        assert!(beats(&(39, 9, 9.0), &(40, 0, 0.0)));
+        assert!(beats(&(40, 4, 2.0), &(40, 5, 1.0)));
+        assert!(beats(&(40, 5, 0.0), &(40, 5, 0.5)));
+        assert!(!beats(&(40, 5, 0.5), &(40, 5, 0.5)));
     }
 
     #[test]
