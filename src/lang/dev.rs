@@ -233,6 +233,21 @@ impl<'s> Ctx<'s> {
         self.diags.push(d);
     }
 
+    /// `s` as a qubit of a device with `size` qubits, or a diagnostic.
+    fn qubit(&mut self, s: &str, size: u32) -> Option<u32> {
+        let q = self.uint(s, "qubit")?;
+        if q >= size {
+            self.err(
+                Code::DevQubitRange,
+                s,
+                format!("qubit {q} does not exist (the device has {size} qubits)"),
+                None,
+            );
+            return None;
+        }
+        Some(q)
+    }
+
     fn uint(&mut self, s: &str, what: &str) -> Option<u32> {
         match s.parse::<u64>() {
             Ok(v) if v <= u32::MAX as u64 => Some(v as u32),
@@ -724,18 +739,9 @@ fn calibration(
                             );
                             continue;
                         }
-                        let Some(q) = cx.uint(t, "qubit") else {
+                        let Some(q) = cx.qubit(t, size) else {
                             continue;
                         };
-                        if q >= size {
-                            cx.err(
-                                Code::DevQubitRange,
-                                t,
-                                format!("qubit {q} does not exist (the device has {size} qubits)"),
-                                None,
-                            );
-                            continue;
-                        }
                         if readout {
                             cal.qubit_readout_error_rate.insert(q, rate);
                         } else {
@@ -804,18 +810,9 @@ fn calibration(
                 let twice = match qubit {
                     None => cal.coherence_ns.replace(ns).is_some(),
                     Some(t) => {
-                        let Some(q) = cx.uint(t, "qubit") else {
+                        let Some(q) = cx.qubit(t, size) else {
                             continue;
                         };
-                        if q >= size {
-                            cx.err(
-                                Code::DevQubitRange,
-                                t,
-                                format!("qubit {q} does not exist (the device has {size} qubits)"),
-                                None,
-                            );
-                            continue;
-                        }
                         cal.qubit_coherence_ns.insert(q, ns).is_some()
                     }
                 };
