@@ -230,6 +230,28 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
             && table.contains("weighed idling against CNOTs"),
         "{table}"
     );
+    // Its longest circuit lasts about 20 µs: no caution at 100 µs, one at 15 µs.
+    assert!(!table.contains("Caution: the longest circuit"), "{table}");
+    let short_path = tmp.path().join("chip_short.dev");
+    std::fs::write(&short_path, format!("{base}coherence 15us\n")).unwrap();
+    let short = run_ok(&[
+        "compile",
+        "examples/ising_ring8.ham",
+        "--state",
+        "00000000",
+        "--dt",
+        "0.2",
+        "--points",
+        "3",
+        "--device",
+        &short_path.display().to_string(),
+        "-o",
+        &tmp.path().join("short").display().to_string(),
+    ]);
+    assert!(
+        short.contains("longer than the shortest coherence time (15 µs)"),
+        "{short}"
+    );
     let timed = parse_device("chip_t.dev", &std::fs::read_to_string(&dev_path).unwrap()).unwrap();
     let free = parse_device("chip.dev", &base).unwrap();
     let plan: serde_json::Value =

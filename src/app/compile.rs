@@ -545,7 +545,10 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
     if args.stage_times {
         text += &stage_table(&stage_seconds);
     }
-    if let Some(line) = device.as_ref().and_then(coherence_line) {
+    if let Some(line) = device
+        .as_ref()
+        .and_then(|d| coherence_line(d, &compiled.plan))
+    {
         text += &line;
     }
     text += "Costs are estimates: they depend on the device calibration; validate results against trusted methods.\n";
@@ -557,8 +560,9 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
 }
 
 /// The line that says the success estimates count waiting, when the device gives coherence
-/// times (`coherence` lines); `None` otherwise.
-fn coherence_line(dev: &crate::device::Device) -> Option<String> {
+/// times (`coherence` lines), with a caution when the longest circuit of `plan` outlasts the
+/// shortest of them; `None` otherwise.
+fn coherence_line(dev: &crate::device::Device, plan: &Plan) -> Option<String> {
     let cal = &dev.calibration;
     let us = |ns: f64| format!("{} µs", ns / 1000.0);
     let given = match (cal.coherence_ns, cal.qubit_coherence_ns.len()) {
@@ -572,9 +576,27 @@ fn coherence_line(dev: &crate::device::Device) -> Option<String> {
     } else {
         "the layout search counted CNOTs only (no two-qubit error rate to weigh idling against)"
     };
-    Some(format!(
+    let mut line = format!(
         "Success estimates include waiting: a qubit idle for t keeps its state with probability exp(−t/T), coherence time T {given}; {search}.\n"
-    ))
+    );
+    let shortest = cal
+        .coherence_ns
+        .into_iter()
+        .chain(cal.qubit_coherence_ns.values().copied())
+        .fold(f64::INFINITY, f64::min);
+    let longest = plan
+        .circuits
+        .iter()
+        .filter_map(|c| c.costs.duration_ns)
+        .fold(0.0, f64::max);
+    if longest > shortest {
+        line += &format!(
+            "Caution: the longest circuit lasts {:.1} µs, longer than the shortest coherence time ({}): expect little signal from it.\n",
+            longest / 1000.0,
+            us(shortest)
+        );
+    }
+    Some(line)
 }
 
 /// The `--stage-times` table: each stage's seconds and share of the total.
