@@ -109,6 +109,61 @@ proptest! {
     }
 }
 
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 16, ..ProptestConfig::default() })]
+
+    /// On chips whose calibration weighs CNOTs (coupler errors of their own, coherence times,
+    /// random per qubit), levels 2 and 3 still give the ideal product formula, and every
+    /// recorded success estimate is a probability that `device::costs` reproduces from the
+    /// written program.
+    #[test]
+    fn calibrated_chips_keep_the_product_formula_exact(
+        seed in any::<u64>(),
+        n in 2usize..=4,
+        terms in 1usize..=7,
+        kind in 0u8..5,
+        native in 0usize..4,
+        level in 2u8..=3,
+    ) {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let h = random_hamiltonian(n, terms, &mut rng);
+        let mut dev = random_device(kind, n + 1, native, &mut rng);
+        let names = dev.native.names.clone();
+        let links = dev.links();
+        let cal = &mut dev.calibration;
+        for name in &names {
+            let two = name == "cx" || name == "cz";
+            let e = if two { rng.gen_range(0.002..0.03) } else { rng.gen_range(0.0..0.002) };
+            cal.error_rate.insert(name.clone(), e);
+            cal.time_ns.insert(name.clone(), if two { 300.0 } else { 35.0 });
+        }
+        let two_name = names.iter().find(|g| *g == "cx" || *g == "cz").unwrap().clone();
+        for (a, b) in links {
+            if rng.gen_bool(0.3) {
+                cal.link_error_rate.insert((two_name.clone(), a, b), rng.gen_range(0.002..0.05));
+            }
+        }
+        cal.coherence_ns = Some(rng.gen_range(5_000.0..200_000.0));
+        for q in 0..dev.num_qubits as u32 {
+            if rng.gen_bool(0.3) {
+                cal.qubit_coherence_ns.insert(q, rng.gen_range(1_000.0..100_000.0));
+            }
+        }
+        let spec = controlled_overlap(random_state(n, &mut rng), 0.3, 3);
+        let compiled = compile(&h, &spec, Some(&dev), level);
+        check_compiled(&compiled, Some(&dev), &format!("level {level}"));
+        for (text, entry) in compiled.programs.iter().zip(&compiled.plan.circuits) {
+            let recorded = entry.costs.success_probability.unwrap();
+            prop_assert!(recorded > 0.0 && recorded <= 1.0, "{}: {recorded}", entry.id);
+            let p = qasm::read("c.qasm", text).unwrap();
+            let again = phasewright::device::costs(&p.circuit, &dev, 0).success_probability.unwrap();
+            // The pipeline multiplies piece by piece: equal up to round-off.
+            prop_assert!((recorded - again).abs() <= 1e-9 * again,
+                "{}: {recorded} against {again}", entry.id);
+        }
+    }
+}
+
 fn zz(a: usize, b: usize, p: Pauli) -> PauliString {
     PauliString::from_factors(&[(a, p), (b, p)]).1
 }
