@@ -64,3 +64,49 @@ fn proposed_campaign_meets_the_target_on_an_eight_qubit_chain() {
     // The budget's Trotter share holds by construction (b/√3 ≤ accuracy/2).
     assert!(b["trotter_bound"].as_f64().unwrap() / 3f64.sqrt() <= acc / 2.0 + 1e-15);
 }
+
+/// On a device with a coherence time, `budget` states its longest circuit and warns when that
+/// outlasts the shortest coherence time; the JSON figures agree with the text, and the
+/// longest circuit is the one the warning names (durations grow linearly in k from the
+/// calibrated gate times).
+#[test]
+fn a_proposal_that_outlasts_the_coherence_time_is_flagged() {
+    let tmp = tempfile::tempdir().unwrap();
+    let base = std::fs::read_to_string("examples/chip_grid12.dev").unwrap();
+    let long = tmp.path().join("long.dev");
+    let short = tmp.path().join("short.dev");
+    std::fs::write(&long, format!("{base}coherence 100000us\n")).unwrap();
+    std::fs::write(&short, format!("{base}coherence 15us\n")).unwrap();
+    let args = |dev: &std::path::Path| {
+        vec![
+            "budget".to_string(),
+            "examples/ising_ring8.ham".into(),
+            "--accuracy".into(),
+            "0.05".into(),
+            "--device".into(),
+            dev.display().to_string(),
+        ]
+    };
+    let run_owned = |v: &[String]| run(&v.iter().map(String::as_str).collect::<Vec<_>>());
+    let (_, err) = run_owned(&args(&long));
+    assert!(!err.contains("coherence"), "{err}");
+    let (_, err) = run_owned(&args(&short));
+    assert!(
+        err.contains("longer than the device's shortest coherence time (15 µs)"),
+        "{err}"
+    );
+    let mut json_args = args(&short);
+    json_args.push("--json".into());
+    let (out, _) = run_owned(&json_args);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let longest = v["longest_circuit_us"].as_f64().unwrap();
+    assert_eq!(v["shortest_coherence_us"].as_f64(), Some(15.0));
+    assert!(longest > 15.0);
+    let points = v["points"].as_u64().unwrap();
+    let warned = v["warnings"].as_array().unwrap().iter().any(|w| {
+        w.as_str()
+            .unwrap()
+            .contains(&format!("(k = {}) lasts about {longest:.1} µs", points - 1))
+    });
+    assert!(warned, "{v}");
+}

@@ -96,7 +96,7 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
     }
     let weight = reference::ground_weight(&h, &state);
     let b = budget::propose(&h, args.accuracy, weight.as_ref().map(|w| w.weight));
-    let device_time_s = match &args.device {
+    let device_time = match &args.device {
         None => None,
         Some(p) => {
             // Circuit durations grow linearly in k (k repetitions of one routed step), so
@@ -136,12 +136,34 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
                 v.iter().sum::<f64>() / v.len().max(1) as f64
             };
             let (d1, d2) = (at(1), at(2));
-            let total_ns: f64 = (1..b.points)
-                .map(|k| 2.0 * (d1 + (k as f64 - 1.0) * (d2 - d1)))
-                .sum();
-            Some(total_ns * 1e-9 * b.shots as f64)
+            let d_k = |k: usize| d1 + (k as f64 - 1.0) * (d2 - d1);
+            let total_ns: f64 = (1..b.points).map(|k| 2.0 * d_k(k)).sum();
+            let cal = &d.calibration;
+            let shortest_coherence_ns = cal
+                .coherence_ns
+                .into_iter()
+                .chain(cal.qubit_coherence_ns.values().copied())
+                .reduce(f64::min);
+            Some(DeviceTime {
+                total_s: total_ns * 1e-9 * b.shots as f64,
+                longest_ns: d_k(b.points.saturating_sub(1).max(1)),
+                shortest_coherence_ns,
+            })
         }
     };
+    // On a device with coherence times: the longest circuit against the shortest of them.
+    let outlasts = device_time.as_ref().and_then(|t| {
+        let c = t.shortest_coherence_ns?;
+        (t.longest_ns > c).then(|| {
+            format!(
+                "the longest circuit (k = {}) lasts about {:.1} µs, longer than the device's shortest coherence time ({} µs): its points will carry little signal; fewer points, or a device with longer coherence, would help",
+                b.points.saturating_sub(1),
+                t.longest_ns / 1000.0,
+                c / 1000.0
+            )
+        })
+    });
+    let device_time_s = device_time.as_ref().map(|t| t.total_s);
     let command = compile_command(args, &b, &state, chem.is_some());
     if g.json {
         return g.json(&serde_json::json!({
@@ -163,11 +185,16 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
             "circuits": b.circuits,
             "total_shots": b.circuits as u64 * b.shots,
             "device_time_s": device_time_s,
+            "longest_circuit_us": device_time.as_ref().map(|t| t.longest_ns / 1000.0),
+            "shortest_coherence_us": device_time
+                .as_ref()
+                .and_then(|t| t.shortest_coherence_ns)
+                .map(|c| c / 1000.0),
             "compile_command": command,
-            "warnings": b.warnings,
+            "warnings": b.warnings.iter().chain(&outlasts).collect::<Vec<_>>(),
         }));
     }
-    for w in &b.warnings {
+    for w in b.warnings.iter().chain(&outlasts) {
         g.warn(w);
     }
     let mut s = String::new();
@@ -210,6 +237,14 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
         b.accuracy
     );
     g.say(&s)
+}
+
+/// What the device says of a proposal: its total time, its longest circuit and the shortest
+/// coherence time the calibration gives.
+struct DeviceTime {
+    total_s: f64,
+    longest_ns: f64,
+    shortest_coherence_ns: Option<f64>,
 }
 
 fn compile_command(args: &BudgetArgs, b: &Budget, state: &str, chem: bool) -> String {
