@@ -312,6 +312,9 @@ fn bad_coherence_lines() {
         "{}",
         d.message
     );
+    // Finite as written, but not once scaled to nanoseconds.
+    let d = one_error(&format!("{GOOD_HEAD}coherence 1e306us\n"));
+    assert!(d.message.contains("1e306 us is too large"), "{}", d.message);
     let d = one_error(&format!("{GOOD_HEAD}coherence 1ms\n"));
     assert!(
         d.message.contains("unknown time unit `ms`"),

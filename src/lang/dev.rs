@@ -659,7 +659,16 @@ fn duration_ns(
         }
     };
     match value.parse::<f64>() {
-        Ok(v) if v.is_finite() && ok(v) => Some(v * scale),
+        Ok(v) if v.is_finite() && ok(v) && (v * scale).is_finite() => Some(v * scale),
+        Ok(v) if v.is_finite() && ok(v) => {
+            cx.err(
+                Code::DevValue,
+                value,
+                format!("duration {value} {unit} is too large"),
+                None,
+            );
+            None
+        }
         _ => {
             cx.err(
                 Code::DevValue,

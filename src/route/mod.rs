@@ -1541,8 +1541,9 @@ fn emitted_score_and_depth(c: &Circuit, dev: &Device) -> (usize, usize) {
         success: 1.0,
     };
     walk.add_tallied(&lowered.gates, &untallied);
+    // `as` saturates (a coherence time of a femtosecond gives an idle decay past usize).
     let idle = (walk.idle_decay() * -per_unit).round() as usize;
-    (gates + idle, k.two_qubit_depth)
+    (gates.saturating_add(idle), k.two_qubit_depth)
 }
 
 /// Whether [`emitted_score`] weighs CNOTs by `dev`'s calibration (coupler errors of their
