@@ -206,24 +206,29 @@ fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
 fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
     let tmp = tempfile::tempdir().unwrap();
     let base = std::fs::read_to_string("examples/chip_grid12.dev").unwrap();
-    let dev_path = tmp.path().join("chip_t.dev");
-    std::fs::write(&dev_path, format!("{base}coherence 100us\n")).unwrap();
+    // The README chip with `coherence T` appended, compiled into `out`: the printed table.
+    let compile_with = |coherence: &str, out: &std::path::Path| {
+        let dev_path = tmp.path().join(format!("chip_{coherence}.dev"));
+        std::fs::write(&dev_path, format!("{base}coherence {coherence}\n")).unwrap();
+        let table = run_ok(&[
+            "compile",
+            "examples/ising_ring8.ham",
+            "--state",
+            "00000000",
+            "--dt",
+            "0.2",
+            "--points",
+            "3",
+            "--device",
+            &dev_path.display().to_string(),
+            "-o",
+            &out.display().to_string(),
+        ]);
+        (dev_path, table)
+    };
     let out = tmp.path().join("camp");
     let out_s = out.display().to_string();
-    let table = run_ok(&[
-        "compile",
-        "examples/ising_ring8.ham",
-        "--state",
-        "00000000",
-        "--dt",
-        "0.2",
-        "--points",
-        "3",
-        "--device",
-        &dev_path.display().to_string(),
-        "-o",
-        &out_s,
-    ]);
+    let (dev_path, table) = compile_with("100us", &out);
     assert!(
         table.contains("Success estimates include waiting")
             && table.contains("coherence time T 100 µs")
@@ -232,22 +237,7 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
     );
     // Its longest circuit lasts about 20 µs: no caution at 100 µs, one at 15 µs.
     assert!(!table.contains("Caution: the longest circuit"), "{table}");
-    let short_path = tmp.path().join("chip_short.dev");
-    std::fs::write(&short_path, format!("{base}coherence 15us\n")).unwrap();
-    let short = run_ok(&[
-        "compile",
-        "examples/ising_ring8.ham",
-        "--state",
-        "00000000",
-        "--dt",
-        "0.2",
-        "--points",
-        "3",
-        "--device",
-        &short_path.display().to_string(),
-        "-o",
-        &tmp.path().join("short").display().to_string(),
-    ]);
+    let (_, short) = compile_with("15us", &tmp.path().join("short"));
     assert!(
         short.contains("longer than the shortest coherence time (15 µs)"),
         "{short}"
