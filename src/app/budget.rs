@@ -138,12 +138,7 @@ pub fn run(args: &BudgetArgs, g: &super::Global) -> Result<()> {
             let (d1, d2) = (at(1), at(2));
             let d_k = |k: usize| d1 + (k as f64 - 1.0) * (d2 - d1);
             let total_ns: f64 = (1..b.points).map(|k| 2.0 * d_k(k)).sum();
-            let cal = &d.calibration;
-            let shortest_coherence_ns = cal
-                .coherence_ns
-                .into_iter()
-                .chain(cal.qubit_coherence_ns.values().copied())
-                .reduce(f64::min);
+            let shortest_coherence_ns = d.calibration.shortest_coherence_ns();
             Some(DeviceTime {
                 total_s: total_ns * 1e-9 * b.shots as f64,
                 longest_ns: d_k(b.points.saturating_sub(1).max(1)),

@@ -579,11 +579,7 @@ fn coherence_line(dev: &crate::device::Device, plan: &Plan) -> Option<String> {
     let mut line = format!(
         "Success estimates include waiting: a qubit idle for t keeps its state with probability exp(−t/T), coherence time T {given}; {search}.\n"
     );
-    let shortest = cal
-        .coherence_ns
-        .into_iter()
-        .chain(cal.qubit_coherence_ns.values().copied())
-        .fold(f64::INFINITY, f64::min);
+    let shortest = cal.shortest_coherence_ns()?;
     let longest = plan
         .circuits
         .iter()

@@ -47,6 +47,17 @@ pub struct Calibration {
     pub qubit_coherence_ns: BTreeMap<u32, f64>,
 }
 
+impl Calibration {
+    /// The shortest coherence time given, default or per qubit (`None`: no `coherence` line,
+    /// so idling is free).
+    pub fn shortest_coherence_ns(&self) -> Option<f64> {
+        self.coherence_ns
+            .into_iter()
+            .chain(self.qubit_coherence_ns.values().copied())
+            .reduce(f64::min)
+    }
+}
+
 /// A device: what the compiler needs to know to place, route, lower and cost a circuit.
 #[derive(Clone, Debug)]
 pub struct Device {

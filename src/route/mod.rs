@@ -1560,8 +1560,7 @@ pub fn scores_idling(dev: &Device) -> bool {
 
 /// Whether `dev`'s calibration gives any coherence time.
 fn has_coherence(dev: &Device) -> bool {
-    let cal = &dev.calibration;
-    cal.coherence_ns.is_some() || !cal.qubit_coherence_ns.is_empty()
+    dev.calibration.shortest_coherence_ns().is_some()
 }
 
 /// The lowest positive two-qubit error of `dev`'s calibration, when some coupler has its own
