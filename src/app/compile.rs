@@ -577,7 +577,7 @@ fn coherence_line(dev: &crate::device::Device, plan: &Plan) -> Option<String> {
         "the layout search counted CNOTs only (no two-qubit error rate to weigh idling against)"
     };
     let mut line = format!(
-        "Success estimates include waiting: a qubit idle for t keeps its state with probability exp(−t/T), coherence time T {given}; {search}.\n"
+        "Success estimates include waiting: a qubit idle for t between its first and last gate keeps its state with probability exp(−t/T), coherence time T {given}; {search}.\n"
     );
     let shortest = cal.shortest_coherence_ns()?;
     let longest = plan

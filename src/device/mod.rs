@@ -41,7 +41,7 @@ pub struct Calibration {
     /// Duration per gate name in ns; `measure` for readout.
     pub time_ns: BTreeMap<String, f64>,
     /// Coherence time in ns (`coherence`), default and per qubit: a qubit that waits `t`
-    /// while others work keeps its state with probability `exp(−t / T)` in the success
+    /// between its first and last gate keeps its state with probability `exp(−t / T)` in the success
     /// estimate. `None` and no override: idling is free.
     pub coherence_ns: Option<f64>,
     pub qubit_coherence_ns: BTreeMap<u32, f64>,
@@ -442,6 +442,7 @@ impl CostModel {
             depth2: vec![0; num_qubits],
             ready_ns: vec![0.0; num_qubits],
             busy_ns: vec![0.0; num_qubits],
+            first_ns: vec![f64::NAN; num_qubits],
             longest_depth: 0,
             longest_depth2: 0,
             longest_ns: 0.0,
@@ -464,6 +465,8 @@ pub struct CostWalk<'a> {
     ready_ns: Vec<f64>,
     /// Per qubit, the time its own gates take (the rest of the circuit's duration it idles).
     busy_ns: Vec<f64>,
+    /// Per qubit, when its first gate starts (`NaN` until it has one).
+    first_ns: Vec<f64>,
     longest_depth: u32,
     longest_depth2: u32,
     longest_ns: f64,
@@ -523,9 +526,13 @@ impl CostWalk<'_> {
                     .map(|&q| self.ready_ns[q as usize])
                     .fold(0.0, f64::max);
             for &q in &qs {
-                self.depth[q as usize] = d;
-                self.ready_ns[q as usize] = t;
-                self.busy_ns[q as usize] += took;
+                let q = q as usize;
+                self.depth[q] = d;
+                self.ready_ns[q] = t;
+                self.busy_ns[q] += took;
+                if self.first_ns[q].is_nan() {
+                    self.first_ns[q] = t - took;
+                }
             }
             if let [a, b] = qs[..] {
                 let d2 = 1 + self.depth2[a as usize].max(self.depth2[b as usize]);
@@ -541,17 +548,41 @@ impl CostWalk<'_> {
         self.success *= tally.success;
     }
 
-    /// `Σ (D − busy) / T` over the qubits the circuit touches: `D` its duration, `busy` the
-    /// time of the qubit's own gates, `T` its coherence time. `exp(−idle_decay)` is the
-    /// chance that no qubit decays while it waits (common practice: each idle qubit treated
-    /// as an independent exponential decay, the usual first-order idle term of success
-    /// estimates; gates carry their own calibrated error, so their time is not counted again).
+    /// `Σ (last − first − busy) / T` over the qubits the circuit touches: `first` when the
+    /// qubit's first gate starts, `last` when its last gate ends, `busy` the time of its own
+    /// gates, `T` its coherence time. `exp(−idle_decay)` is the chance that no qubit decays
+    /// while it waits (common practice: each idle qubit treated as an independent exponential
+    /// decay, the usual first-order idle term of success estimates; gates carry their own
+    /// calibrated error, so their time is not counted again).
+    ///
+    /// Only the wait between a qubit's first and last gate counts. Before its first gate a
+    /// qubit holds |0⟩, which neither relaxes nor dephases. After its last gate nothing it
+    /// holds reaches a measured qubit: a channel on one qubit leaves the reduced state of the
+    /// others unchanged (no-signalling; Nielsen & Chuang, *Quantum Computation and Quantum
+    /// Information*, 2000, §2.4.3, from memory). A measured qubit's window ends with its
+    /// `measure`. For a piece of a longer circuit, where every qubit it touches is alive on
+    /// both sides, see [`Self::open_idle_decay`].
     pub fn idle_decay(&self) -> f64 {
-        self.depth
+        self.first_ns
+            .iter()
+            .zip(&self.ready_ns)
+            .zip(&self.busy_ns)
+            .zip(&self.model.idle_rate)
+            .filter(|(((first, _), _), &rate)| !first.is_nan() && rate > 0.0)
+            .map(|(((&first, &last), &busy), &rate)| (last - first - busy).max(0.0) * rate)
+            .sum()
+    }
+
+    /// `Σ (D − busy) / T` over the qubits the walk touches, `D` the walk's duration: the
+    /// idling of a piece cut from the middle of a circuit (a routed Trotter step), where
+    /// every qubit it touches holds state from before it until after it, so it waits the
+    /// whole piece through.
+    pub fn open_idle_decay(&self) -> f64 {
+        self.first_ns
             .iter()
             .zip(&self.busy_ns)
             .zip(&self.model.idle_rate)
-            .filter(|((&d, _), &rate)| d > 0 && rate > 0.0)
+            .filter(|((first, _), &rate)| !first.is_nan() && rate > 0.0)
             .map(|((_, &busy), &rate)| (self.longest_ns - busy).max(0.0) * rate)
             .sum()
     }
@@ -586,11 +617,14 @@ mod tests {
         Device::new("g", 6, &lattice::grid(2, 3), NativeSet::rz_sx_x_cx(), cal)
     }
 
-    /// The idle term by hand: on a line of 4, `cx 0 1` then `cx 1 2` (300 ns each) last
-    /// 600 ns; qubits 0 and 2 each wait 300 ns, qubit 1 never, qubit 3 is untouched. With a
-    /// 100 µs default and 50 µs on qubit 2 the decay is 300/100000 + 300/50000 = 0.009, so the
-    /// estimate is 0.99² · e^−0.009 (each idle qubit an independent exponential decay, common
-    /// practice). Without coherence times it is 0.99².
+    /// The idle term by hand: on a line of 4, `cx 0 1`, `cx 1 2`, `cx 0 1` (300 ns each) last
+    /// 900 ns. Qubit 0 is busy 0–300 and 600–900, so it waits 300 ns between its gates;
+    /// qubit 1 never waits; qubit 2's only gate runs 300–600, and the time before it (in |0⟩)
+    /// and after it (never measured) does not count; qubit 3 is untouched. With a 100 µs
+    /// default and 50 µs on qubit 2 the decay is 300/100000 = 0.003, so the estimate is
+    /// 0.99³ · e^−0.003 (each idle qubit an independent exponential decay, common practice).
+    /// As a piece of a longer circuit every touched qubit waits the whole 900 ns less its own
+    /// gates: 300/100000 + 600/50000 = 0.015. Without coherence times the estimate is 0.99³.
     #[test]
     fn waiting_qubits_decay_by_their_coherence_times() {
         let mut cal = Calibration::default();
@@ -609,17 +643,19 @@ mod tests {
         let mut c = Circuit::new(4, 0);
         c.push(Gate::Cx(0, 1));
         c.push(Gate::Cx(1, 2));
+        c.push(Gate::Cx(0, 1));
         let model = CostModel::new(&dev);
         let mut walk = model.walk(4);
         walk.add(&c.gates);
-        assert!((walk.idle_decay() - 0.009).abs() < 1e-15);
+        assert!((walk.idle_decay() - 0.003).abs() < 1e-15);
+        assert!((walk.open_idle_decay() - 0.015).abs() < 1e-15);
         let p = costs(&c, &dev, 0).success_probability.unwrap();
         assert!(
-            (p - 0.99f64.powi(2) * (-0.009f64).exp()).abs() < 1e-15,
+            (p - 0.99f64.powi(3) * (-0.003f64).exp()).abs() < 1e-15,
             "{p}"
         );
         let p0 = costs(&c, &plain, 0).success_probability.unwrap();
-        assert!((p0 - 0.99f64.powi(2)).abs() < 1e-15, "{p0}");
+        assert!((p0 - 0.99f64.powi(3)).abs() < 1e-15, "{p0}");
         // Side by side, neither waits.
         let mut side = Circuit::new(4, 0);
         side.push(Gate::Cx(0, 1));

@@ -234,6 +234,15 @@ impl Default for RouteConfig {
 }
 
 impl RouteConfig {
+    /// The campaign's Trotter steps per circuit with a step, on average (`campaign_weights`;
+    /// 1 when unknown or below): how many times a circuit repeats the step the search scores.
+    pub fn steps_per_circuit(&self) -> f64 {
+        match self.campaign_weights {
+            Some((circuits, steps)) if circuits > 0.0 => (steps / circuits).max(1.0),
+            _ => 1.0,
+        }
+    }
+
     fn swap_params(&self) -> SwapParams {
         SwapParams {
             extended_size: self.extended_size,
@@ -1019,6 +1028,7 @@ fn plan_on_step(
         p
     };
     let weighted = score_reference(dev).is_some();
+    let repeats = cfg.steps_per_circuit();
     let evaluate = |recipe: &Recipe| {
         let Recipe {
             layout: ref l,
@@ -1091,8 +1101,8 @@ fn plan_on_step(
             // deep the step grows matter too.
             let fewer = if weighted {
                 let (a, b) = (
-                    emitted_score_and_depth(&f.circuit, dev),
-                    emitted_score_and_depth(&fwd.circuit, dev),
+                    emitted_score_and_depth(&f.circuit, dev, repeats),
+                    emitted_score_and_depth(&fwd.circuit, dev, repeats),
                 );
                 known = Some(if a.0 < b.0 { a } else { b });
                 a.0 < b.0
@@ -1107,8 +1117,8 @@ fn plan_on_step(
         if choice == OrderChoice::Sweep && parts.cuts.is_empty() {
             // The swept order is the walk: the in-order hub router follows it (`hub`).
             let walked = hub::insert_swaps_in_order(&parts.circuit, l, dev, params.hub);
-            let a = emitted_score_and_depth(&walked.circuit, dev);
-            let b = known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev));
+            let a = emitted_score_and_depth(&walked.circuit, dev, repeats);
+            let b = known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev, repeats));
             known = Some(if a.0 < b.0 { a } else { b });
             if a.0 < b.0 {
                 fwd = walked;
@@ -1141,7 +1151,7 @@ fn plan_on_step(
     let lowered_score = cfg.score_two_qubit && small;
     let key_of = |fwd: &swap::SwapOutcome, l: &[u32], known: Option<(usize, usize)>| {
         let (first, depth) = if lowered_score {
-            known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev))
+            known.unwrap_or_else(|| emitted_score_and_depth(&fwd.circuit, dev, repeats))
         } else if cfg.score_two_qubit {
             (reuse::two_qubit_cost(&fwd.circuit), 0)
         } else {
@@ -1488,9 +1498,10 @@ pub const SCORE_UNIT: f64 = 1000.0;
 /// routing moves, in [`SCORE_UNIT`]s of one two-qubit gate on the best coupler:
 /// - each emitted two-qubit gate weighs `ln(1 − e) / ln(1 − e_best)`, with `e` its coupler's
 ///   error and `e_best` the lowest positive two-qubit error the calibration names;
-/// - with coherence times, the step's idling adds `Σ (D − busy) / T / −ln(1 − e_best)` over
-///   the qubits it touches (`device::CostWalk::idle_decay`, from the gate times of the
-///   lowered step), so a deeper step pays for the qubits that wait through it.
+/// - with coherence times, the idling adds `idle / −ln(1 − e_best)`, where `idle` is
+///   `device::CostWalk::idle_decay` of `c` as a whole circuit (each qubit's wait between its
+///   first and last gate, from the gate times of the lowered circuit), so a deeper circuit
+///   pays for the qubits that wait through it.
 ///
 /// The sum is `−ln` of the two-qubit and idle parts of the success estimate (`report::costs`)
 /// up to one factor, so the search prefers the step that the estimate prefers: a chip with a
@@ -1500,11 +1511,17 @@ pub const SCORE_UNIT: f64 = 1000.0;
 /// With uniform errors and no coherence times, or no two-qubit error to scale by, the weights
 /// are all one and the score is the count.
 pub fn emitted_score(c: &Circuit, dev: &Device) -> usize {
-    emitted_score_and_depth(c, dev).0
+    emitted_score_and_depth(c, dev, 1.0).0
 }
 
-/// [`emitted_score`] and the two-qubit depth of what is written, from one lowering.
-fn emitted_score_and_depth(c: &Circuit, dev: &Device) -> (usize, usize) {
+/// [`emitted_score`] and the two-qubit depth of what is written, from one lowering, for a
+/// circuit `c` that stands for one of `repeats` (≥ 1) repetitions in a row: a Trotter step
+/// of a campaign whose circuits run `repeats` steps on average. Its idle term is then the
+/// circuit's share of the whole run's: the first and last repetitions wait as the whole
+/// circuit does (`CostWalk::idle_decay`), each one between waits the whole repetition through
+/// (`CostWalk::open_idle_decay`, every qubit it touches alive on both sides), so the share is
+/// `(idle + (repeats − 1) · open) / repeats`. With `repeats` 1 it is [`emitted_score`].
+fn emitted_score_and_depth(c: &Circuit, dev: &Device, repeats: f64) -> (usize, usize) {
     let lowered = lower_for_output(c, &dev.native);
     let k = crate::circuit::metrics::counts(&lowered);
     let Some(best) = score_reference(dev) else {
@@ -1542,7 +1559,9 @@ fn emitted_score_and_depth(c: &Circuit, dev: &Device) -> (usize, usize) {
     };
     walk.add_tallied(&lowered.gates, &untallied);
     // `as` saturates (a coherence time of a femtosecond gives an idle decay past usize).
-    let idle = (walk.idle_decay() * -per_unit).round() as usize;
+    let repeats = repeats.max(1.0);
+    let decay = (walk.idle_decay() + (repeats - 1.0) * walk.open_idle_decay()) / repeats;
+    let idle = (decay * -per_unit).round() as usize;
     (gates.saturating_add(idle), k.two_qubit_depth)
 }
 
@@ -1723,11 +1742,14 @@ mod tests {
 
     #[test]
     fn a_waiting_qubit_scores_by_its_coherence_time() {
-        // A line of four, `cx` error 0.01 and 300 ns, coherence 100 µs. `cx 0 1; cx 1 2` lasts
-        // 600 ns and qubits 0 and 2 wait 300 ns each: an idle decay of 0.006, which weighs
-        // 0.006 / −ln(0.99) = 0.59699 CNOTs (computed by hand), 597 units beside the 2000 of
-        // the two CNOTs. Side by side (`cx 0 1; cx 2 3`) nobody waits: 2000. Without the
-        // coherence time both are the count, 2.
+        // A line of four, `cx` error 0.01 and 300 ns, coherence 100 µs. `cx 0 1; cx 1 2; cx 0 1`
+        // lasts 900 ns. As a whole circuit only qubit 0 waits between its gates, 300 ns: an
+        // idle decay of 0.003, which weighs 0.003 / −ln(0.99) = 0.29850 CNOTs (computed by
+        // hand), 298 units beside the 3000 of the three CNOTs. Repeated in a row (the middle
+        // repetitions of a step), qubit 0 waits 300 ns and qubit 2 600 ns of each: 0.009, 0.89549
+        // CNOTs; over 3 repetitions the share is (0.003 + 2 · 0.009) / 3 = 0.007, 0.69649 CNOTs,
+        // 696 units. Side by side (`cx 0 1; cx 2 3`) nobody waits: 2000. Without the coherence
+        // time they are the counts.
         let mut cal = Calibration::default();
         cal.error_rate.insert("cx".into(), 0.01);
         cal.time_ns.insert("cx".into(), 300.0);
@@ -1735,12 +1757,14 @@ mod tests {
         let mut dev = timeless.clone();
         dev.calibration.coherence_ns = Some(100_000.0);
         let mut serial = Circuit::new(4, 0);
-        serial.extend([Gate::Cx(0, 1), Gate::Cx(1, 2)]);
+        serial.extend([Gate::Cx(0, 1), Gate::Cx(1, 2), Gate::Cx(0, 1)]);
         let mut side = Circuit::new(4, 0);
         side.extend([Gate::Cx(0, 1), Gate::Cx(2, 3)]);
-        assert_eq!(emitted_score(&serial, &dev), 2000 + 597);
+        assert_eq!(emitted_score(&serial, &dev), 3000 + 298);
+        assert_eq!(emitted_score_and_depth(&serial, &dev, 3.0).0, 3000 + 696);
         assert_eq!(emitted_score(&side, &dev), 2000);
-        assert_eq!(emitted_score(&serial, &timeless), 2);
+        assert_eq!(emitted_score_and_depth(&side, &dev, 3.0).0, 2000);
+        assert_eq!(emitted_score(&serial, &timeless), 3);
         assert_eq!(emitted_score(&side, &timeless), 2);
     }
 
