@@ -1498,6 +1498,8 @@ pub const SCORE_UNIT: f64 = 1000.0;
 /// routing moves, in [`SCORE_UNIT`]s of one two-qubit gate on the best coupler:
 /// - each emitted two-qubit gate weighs `ln(1 − e) / ln(1 − e_best)`, with `e` its coupler's
 ///   error and `e_best` the lowest positive two-qubit error the calibration names;
+/// - each one-qubit gate likewise weighs `ln(1 − e) / ln(1 − e_best)` of its own error (a
+///   fraction of a unit; summed, then rounded);
 /// - with coherence times, the idling adds `idle / −ln(1 − e_best)`, where `idle` is
 ///   `device::CostWalk::idle_decay` of `c` as a whole circuit (each qubit's wait between its
 ///   first and last gate, from the gate times of the lowered circuit), so a deeper circuit
@@ -1546,10 +1548,20 @@ fn emitted_score_and_depth(c: &Circuit, dev: &Device, repeats: f64) -> (usize, u
                 .or_insert_with(|| ((-dev.gate_error(g)).ln_1p() * per_unit).round() as usize)
         })
         .sum();
+    // One-qubit gates weigh `ln(1 − e)` of their own error too, summed before rounding (each
+    // is a small fraction of a unit): the forms the search compares differ in them (a flipped
+    // step writes each rotation twice), and the estimate counts them.
+    let model = crate::device::CostModel::new(dev);
+    let one_qubit: f64 = lowered
+        .gates
+        .iter()
+        .filter(|g| !g.is_two_qubit() && !matches!(g, crate::circuit::Gate::Measure(..)))
+        .map(|g| (-model.error(g)).ln_1p())
+        .sum();
+    let gates = gates.saturating_add((one_qubit * per_unit).round() as usize);
     if !has_coherence(dev) {
         return (gates, k.two_qubit_depth);
     }
-    let model = crate::device::CostModel::new(dev);
     let mut walk = model.walk(lowered.num_qubits);
     // Only the schedule is walked: the gate errors are in `gates` already.
     let untallied = crate::device::Tally {
@@ -1738,6 +1750,15 @@ mod tests {
         let mut s = Circuit::new(3, 0);
         s.push(Gate::Swap(1, 0));
         assert_eq!(emitted_score(&s, &weak), 3 * 2010);
+        // With `sx` error 0.001, the `h` (lowered to `rz sx rz`, `rz` virtual and free) adds
+        // ln(0.999) / ln(0.99) = 0.09955 of a CNOT (computed by hand): 100 units. Where CNOTs
+        // are only counted, one-qubit gates are not.
+        let mut noisy = weak.clone();
+        noisy.calibration.error_rate.insert("sx".into(), 0.001);
+        assert_eq!(emitted_score(&c, &noisy), 1000 + 2010 + 100);
+        let mut even_noisy = even.clone();
+        even_noisy.calibration.error_rate.insert("sx".into(), 0.001);
+        assert_eq!(emitted_score(&c, &even_noisy), 2);
     }
 
     #[test]
