@@ -216,6 +216,11 @@ pub enum Synthesis {
     Groups,
 }
 
+/// The least success estimate the plain/spread choice takes the logarithm of: estimates below
+/// it (which underflow to 0 when coherence times are far shorter than the circuits) count as
+/// it, so two campaigns all at the floor tie and the two-qubit counts decide.
+pub const SUCCESS_FLOOR: f64 = 1e-300;
+
 /// The all-to-all pass list of one circuit: `prepare`, `synthesize` (the program through
 /// `synthesis`, controlled by the ancilla `control` when there is one), `readout`, and `cancel`
 /// from level 1. `networks` lets `synth::Groups` reuse the run networks other circuits of the
@@ -1544,7 +1549,11 @@ pub fn compile_into(
                     let log_success = |d: &[Finished]| -> Option<f64> {
                         let sum = d
                             .iter()
-                            .map(|f| f.costs.success_probability.map(|p| p.max(1e-300).ln()))
+                            .map(|f| {
+                                f.costs
+                                    .success_probability
+                                    .map(|p| p.max(SUCCESS_FLOOR).ln())
+                            })
                             .sum::<Option<f64>>()?;
                         (sum < 0.0).then_some(sum)
                     };

@@ -665,6 +665,9 @@ fn spread_line(plan: &Plan) -> String {
     };
     let most = crate::report::costs::most_control_copies(plan);
     let made = &d.copy_placement;
+    // The pipeline keeps the spread campaign on success only when its estimates differ from
+    // the plain campaign's, floored at `pipeline::SUCCESS_FLOOR`: where every estimate is at the
+    // floor (coherence times far shorter than the circuits), the counts decided.
     let calibrated = plan
         .circuits
         .iter()
@@ -672,7 +675,12 @@ fn spread_line(plan: &Plan) -> String {
         && plan
             .circuits
             .iter()
-            .any(|c| c.costs.success_probability.is_some_and(|p| p < 1.0));
+            .any(|c| c.costs.success_probability.is_some_and(|p| p < 1.0))
+        && plan.circuits.iter().any(|c| {
+            c.costs
+                .success_probability
+                .is_some_and(|p| p > crate::pipeline::SUCCESS_FLOOR)
+        });
     let kept = if calibrated {
         "kept because the campaign's estimated success probability (from the calibrated gate errors, and coherence times where given) is higher than with the ancilla alone"
     } else {
@@ -917,6 +925,40 @@ mod tests {
         )));
         assert!(crate::route::scores_idling(&dev("coherence 80us\n")));
         assert!(!crate::route::scores_idling(&dev("error cx 0-1 0.02\n")));
+    }
+
+    /// The spread line names success as the reason only where the estimates could have
+    /// decided: estimates all at `pipeline::SUCCESS_FLOOR` (coherence times far shorter than
+    /// the circuits) tie, and then the counts did.
+    #[test]
+    fn the_spread_line_names_the_reason_the_pipeline_used() {
+        let mut plan = small().plan;
+        plan.device = Some(crate::plan::DeviceInfo {
+            name: "chip".into(),
+            num_qubits: 6,
+            native: vec!["rz".into(), "sx".into(), "x".into(), "cx".into()],
+            initial_layout: vec![0, 1, 2, 3],
+            copy_placement: vec![4],
+            spare_qubits: true,
+            flip_string: None,
+            flip_order: crate::synth::flip::BlockOrder::Given,
+        });
+        let with = |p: f64| {
+            let mut plan = plan.clone();
+            for c in &mut plan.circuits {
+                c.costs.success_probability = Some(p);
+            }
+            spread_line(&plan)
+        };
+        let live = with(0.2);
+        assert!(live.contains("estimated success probability"), "{live}");
+        for p in [0.0, 1e-320] {
+            let dead = with(p);
+            assert!(dead.contains("emits fewer two-qubit gates"), "{dead}");
+            assert!(!dead.contains("success"), "{dead}");
+        }
+        plan.device.as_mut().unwrap().spare_qubits = false;
+        assert_eq!(spread_line(&plan), "");
     }
 
     /// A small campaign compiled with every text kept (`pipeline::compile`).
