@@ -263,3 +263,60 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
         serde_json::from_str(&run_ok(&["verify", "--json", &out_s])).unwrap();
     assert_eq!(v["ok"], true, "{v}");
 }
+
+/// `compile --tries N` on the README chip (whose calibration gives gate errors): the campaign
+/// kept has a summed log success estimate at least that of the one try from the same seed,
+/// and `verify` passes; 0 and 65 tries are bad input (exit 2).
+#[test]
+fn more_tries_keep_a_campaign_no_worse_and_the_files_verify() {
+    let tmp = tempfile::tempdir().unwrap();
+    let compile = |tries: &str, out: &std::path::Path| {
+        Command::cargo_bin("phasewright")
+            .unwrap()
+            .args([
+                "compile",
+                "examples/ising_ring8.ham",
+                "--state",
+                "00000000",
+                "--dt",
+                "0.2",
+                "--points",
+                "3",
+                "--device",
+                "examples/chip_grid12.dev",
+                "--tries",
+                tries,
+                "-o",
+                &out.display().to_string(),
+            ])
+            .output()
+            .unwrap()
+    };
+    let log_success = |out: &std::path::Path| -> f64 {
+        let plan: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("plan.json")).unwrap()).unwrap();
+        plan["circuits"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c["costs"]["success_probability"].as_f64().unwrap().ln())
+            .sum()
+    };
+    let (one, three) = (tmp.path().join("one"), tmp.path().join("three"));
+    assert!(compile("1", &one).status.success());
+    assert!(compile("3", &three).status.success());
+    assert!(
+        log_success(&three) >= log_success(&one) - 1e-12,
+        "{} against {}",
+        log_success(&three),
+        log_success(&one)
+    );
+    let v: serde_json::Value =
+        serde_json::from_str(&run_ok(&["verify", "--json", &three.display().to_string()])).unwrap();
+    assert_eq!(v["ok"], true, "{v}");
+    for bad in ["0", "65"] {
+        let out = compile(bad, &tmp.path().join(format!("bad{bad}")));
+        assert_eq!(out.status.code(), Some(2), "--tries {bad}");
+        assert!(String::from_utf8_lossy(&out.stderr).contains("--tries"));
+    }
+}

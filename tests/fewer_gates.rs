@@ -794,3 +794,57 @@ fn waiting_qubits_weigh_in_the_layout_search() {
         assert!(x > y, "circuit {i}: weighed {x} against counted {y}");
     }
 }
+
+/// `RouteConfig::tries` (`compile --tries`): the layout search run from consecutive seeds,
+/// the best campaign kept. On a 4×4 brick wall without gate errors the 3×4 Ising model's
+/// campaign depends on the seed (measured when written: 157, 157, 150 and 165 two-qubit gates
+/// for `k01-re` from seeds 0–3), so three tries from seed 1 must keep exactly what the best of
+/// seeds 1, 2 and 3 emits alone (fewest two-qubit gates over the campaign, then the lower
+/// summed depth: the pipeline's own rule, stated here independently), byte for byte, and it
+/// must read back exact to 1e-9.
+#[test]
+fn tries_keep_the_best_seed() {
+    let mut h = PauliSum::new(12);
+    for (a, b) in lattice_edges(3, 4) {
+        h.add(zz(a, b, Pauli::Z), -1.0);
+    }
+    for q in 0..12 {
+        h.add(PauliString::single(q, Pauli::X), 0.8);
+    }
+    let dev = Device::new(
+        "brick",
+        16,
+        &lattice::brickwall(4, 4),
+        NativeSet::rz_sx_x_cx(),
+        Calibration::default(),
+    );
+    let spec = controlled_overlap("0".repeat(12), 0.1, 2);
+    let run = |seed: u64, tries: usize| {
+        let cfg = RouteConfig {
+            seed,
+            tries,
+            ..RouteConfig::default()
+        };
+        let target = Target::Device {
+            device: &dev,
+            config: &cfg,
+        };
+        compile_at(&h, "ising", &spec, &target, OptLevel::new(3).unwrap()).unwrap()
+    };
+    let total = |c: &Compiled| -> (usize, usize) {
+        c.plan
+            .circuits
+            .iter()
+            .map(|e| (e.costs.two_qubit, e.costs.depth))
+            .fold((0, 0), |a, b| (a.0 + b.0, a.1 + b.1))
+    };
+    let singles: Vec<Compiled> = (1..=3).map(|s| run(s, 1)).collect();
+    let totals: Vec<(usize, usize)> = singles.iter().map(total).collect();
+    // The seeds must disagree, or the test shows nothing.
+    assert!(totals.iter().any(|t| *t != totals[0]), "{totals:?}");
+    let best = (0..3).min_by_key(|&i| totals[i]).unwrap();
+    let tried = run(1, 3);
+    assert_eq!(total(&tried), totals[best], "{totals:?}");
+    assert_eq!(tried.programs, singles[best].programs);
+    check_compiled(&tried, Some(&dev), "three tries");
+}

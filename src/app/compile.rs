@@ -105,6 +105,12 @@ pub struct CompileArgs {
     /// gate.
     #[arg(long)]
     pub device: Option<PathBuf>,
+    /// Layout searches on a device, from the seeds --seed, --seed + 1, …: the campaign that
+    /// scores best is kept (the higher estimated success where the device gives gate errors,
+    /// else fewer two-qubit gates). Each try costs about one compile; steps too large for the
+    /// spread control (see --opt) are searched once.
+    #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u32).range(1..=64))]
+    pub tries: u32,
     /// Output folder. Created if missing; an older campaign there is replaced whole (no file
     /// of it survives); a folder holding anything else is refused unless --force.
     #[arg(short = 'o', long = "out")]
@@ -421,6 +427,7 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
         .transpose()?;
     let config = crate::route::RouteConfig {
         seed: args.seed,
+        tries: args.tries as usize,
         ..Default::default()
     };
     let target = match &device {

@@ -200,6 +200,9 @@ pub struct RouteConfig {
     /// swept and the best split step are then compared on the whole campaign
     /// ([`plan_and_route_step`]); `None`: on one step.
     pub campaign_weights: Option<(f64, f64)>,
+    /// Layout searches the pipeline runs from consecutive seeds (`seed`, `seed + 1`, …),
+    /// keeping the campaign that scores best (`compile --tries`); 1: one search.
+    pub tries: usize,
 }
 
 impl Default for RouteConfig {
@@ -229,6 +232,7 @@ impl Default for RouteConfig {
             score_two_qubit: true,
             commute_ahead: true,
             campaign_weights: None,
+            tries: 1,
         }
     }
 }
