@@ -202,6 +202,32 @@ fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
 /// each recorded estimate is the gate-error product times `exp(−idle / T)` (so below the
 /// product recomputed on the same chip without the `coherence` line, common practice: each
 /// idle qubit an independent exponential decay), and `verify` passes.
+/// The README's device command (`examples/ising_ring8.ham`, state 00000000, dt 0.2, 3 points)
+/// on `device` with `extra` arguments, written to `out`.
+fn compile_ring8(device: &str, extra: &[&str], out: &std::path::Path) -> std::process::Output {
+    let out = out.display().to_string();
+    let mut args = vec![
+        "compile",
+        "examples/ising_ring8.ham",
+        "--state",
+        "00000000",
+        "--dt",
+        "0.2",
+        "--points",
+        "3",
+        "--device",
+        device,
+        "-o",
+        &out,
+    ];
+    args.extend_from_slice(extra);
+    Command::cargo_bin("phasewright")
+        .unwrap()
+        .args(&args)
+        .output()
+        .unwrap()
+}
+
 #[test]
 fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
     let tmp = tempfile::tempdir().unwrap();
@@ -210,21 +236,13 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
     let compile_with = |coherence: &str, out: &std::path::Path| {
         let dev_path = tmp.path().join(format!("chip_{coherence}.dev"));
         std::fs::write(&dev_path, format!("{base}coherence {coherence}\n")).unwrap();
-        let table = run_ok(&[
-            "compile",
-            "examples/ising_ring8.ham",
-            "--state",
-            "00000000",
-            "--dt",
-            "0.2",
-            "--points",
-            "3",
-            "--device",
-            &dev_path.display().to_string(),
-            "-o",
-            &out.display().to_string(),
-        ]);
-        (dev_path, table)
+        let run = compile_ring8(&dev_path.display().to_string(), &[], out);
+        assert!(
+            run.status.success(),
+            "{}",
+            String::from_utf8_lossy(&run.stderr)
+        );
+        (dev_path, String::from_utf8(run.stdout).unwrap())
     };
     let out = tmp.path().join("camp");
     let out_s = out.display().to_string();
@@ -271,26 +289,7 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
 fn more_tries_keep_a_campaign_no_worse_and_the_files_verify() {
     let tmp = tempfile::tempdir().unwrap();
     let compile = |tries: &str, out: &std::path::Path| {
-        Command::cargo_bin("phasewright")
-            .unwrap()
-            .args([
-                "compile",
-                "examples/ising_ring8.ham",
-                "--state",
-                "00000000",
-                "--dt",
-                "0.2",
-                "--points",
-                "3",
-                "--device",
-                "examples/chip_grid12.dev",
-                "--tries",
-                tries,
-                "-o",
-                &out.display().to_string(),
-            ])
-            .output()
-            .unwrap()
+        compile_ring8("examples/chip_grid12.dev", &["--tries", tries], out)
     };
     let log_success = |out: &std::path::Path| -> f64 {
         let plan: serde_json::Value =

@@ -747,6 +747,19 @@ fn a_weak_coupler_weighs_in_the_layout_search() {
     }
 }
 
+/// The 3×4 transverse-field Ising model of the `fewer_gates` bench: `−ZZ` on the lattice
+/// edges, `0.8 X` on every site.
+fn ising_3x4() -> PauliSum {
+    let mut h = PauliSum::new(12);
+    for (a, b) in lattice_edges(3, 4) {
+        h.add(zz(a, b, Pauli::Z), -1.0);
+    }
+    for q in 0..12 {
+        h.add(PauliString::single(q, Pauli::X), 0.8);
+    }
+    h
+}
+
 /// On a chip whose qubits decay while they wait (`coherence 100us`, with `cx` error 0.01 and
 /// 300 ns, `sx` and `x` 35 ns), the search weighs the idling of each routed step against its CNOTs
 /// (`route::emitted_score`). For the 3×4 transverse-field Ising model controlled on a ring of
@@ -759,13 +772,7 @@ fn a_weak_coupler_weighs_in_the_layout_search() {
 /// 0.0157, against 204 CNOTs at depth 152 and success 0.0025.
 #[test]
 fn waiting_qubits_weigh_in_the_layout_search() {
-    let mut h = PauliSum::new(12);
-    for (a, b) in lattice_edges(3, 4) {
-        h.add(zz(a, b, Pauli::Z), -1.0);
-    }
-    for q in 0..12 {
-        h.add(PauliString::single(q, Pauli::X), 0.8);
-    }
+    let h = ising_3x4();
     let text = "native rz sx x cx\nlattice ring 13\nerror cx 0.01\n\
                 time cx 300ns\ntime sx 35ns\ntime x 35ns\n";
     let free = phasewright::lang::dev::parse_device("ring", text).unwrap();
@@ -804,13 +811,7 @@ fn waiting_qubits_weigh_in_the_layout_search() {
 /// must read back exact to 1e-9.
 #[test]
 fn tries_keep_the_best_seed() {
-    let mut h = PauliSum::new(12);
-    for (a, b) in lattice_edges(3, 4) {
-        h.add(zz(a, b, Pauli::Z), -1.0);
-    }
-    for q in 0..12 {
-        h.add(PauliString::single(q, Pauli::X), 0.8);
-    }
+    let h = ising_3x4();
     let dev = Device::new(
         "brick",
         16,
