@@ -1574,11 +1574,8 @@ pub fn compile_into(
             // randomised heuristic whose one-step score does not rank whole campaigns exactly,
             // so restarts find better campaigns (a restart portfolio; common practice for
             // randomised search).
-            let unit: usize = crate::formula::step(&order_terms(h), spec.order, step_dt)
-                .iter()
-                .map(|r| 4 * r.pauli.weight() as usize)
-                .sum();
-            let tries = if unit <= crate::route::EXTRAS_MAX_UNIT {
+            let program = crate::formula::step(&order_terms(h), spec.order, step_dt);
+            let tries = if crate::route::step_unit(&program) <= crate::route::EXTRAS_MAX_UNIT {
                 config.tries.max(1)
             } else {
                 1

@@ -41,8 +41,8 @@ pub struct Calibration {
     /// Duration per gate name in ns; `measure` for readout.
     pub time_ns: BTreeMap<String, f64>,
     /// Coherence time in ns (`coherence`), default and per qubit: a qubit that waits `t`
-    /// between its first and last gate keeps its state with probability `exp(−t / T)` in the success
-    /// estimate. `None` and no override: idling is free.
+    /// between its first and last gate keeps its state with probability `exp(−t / T)` in the
+    /// success estimate. `None` and no override: idling is free.
     pub coherence_ns: Option<f64>,
     pub qubit_coherence_ns: BTreeMap<u32, f64>,
 }

@@ -527,6 +527,12 @@ const ORDER_CHOICES: [OrderChoice; 3] = [
 /// steps are small.
 pub const EXTRAS_MAX_UNIT: usize = 20_000;
 
+/// A size of `program` to compare with [`EXTRAS_MAX_UNIT`] before anything is routed: 4 per
+/// Pauli factor over its rotations (a rough count of the CNOTs its controlled ladders take).
+pub fn step_unit(program: &[crate::formula::Rotation]) -> usize {
+    program.iter().map(|r| 4 * r.pauli.weight() as usize).sum()
+}
+
 /// A circuit on the device.
 #[derive(Clone, Debug)]
 pub struct Routed {
@@ -726,7 +732,7 @@ pub fn plan_and_route_cat_step(
         return None;
     }
     let program = crate::formula::step(&order_terms(h), order, dt);
-    let unit: usize = program.iter().map(|r| 4 * r.pauli.weight() as usize).sum();
+    let unit = step_unit(&program);
     let coupled = cfg.pairs && !cfg.textbook;
     if program.is_empty() || program.len() > cat::MAX_ROTATIONS || unit > EXTRAS_MAX_UNIT {
         return None;
@@ -1509,7 +1515,7 @@ pub const SCORE_UNIT: f64 = 1000.0;
 ///   first and last gate, from the gate times of the lowered circuit), so a deeper circuit
 ///   pays for the qubits that wait through it.
 ///
-/// The sum is `−ln` of the two-qubit and idle parts of the success estimate (`report::costs`)
+/// The sum is `−ln` of the gate and idle parts of the success estimate (`report::costs`)
 /// up to one factor, so the search prefers the step that the estimate prefers: a chip with a
 /// weak coupler is routed around it when that costs few gates, and on a chip whose qubits
 /// decay while they wait a shallower step may win over one with a few fewer CNOTs (counts
