@@ -1585,12 +1585,14 @@ pub fn compile_into(
             } else {
                 let mut best: Option<((DeviceInfo, Vec<Finished>), Collect)> = None;
                 for t in 0..tries {
+                    let seed = config.seed.wrapping_add(t as u64);
                     let seeded = RouteConfig {
-                        seed: config.seed.wrapping_add(t as u64),
+                        seed,
                         ..config.clone()
                     };
                     let texts = Collect::default();
-                    let got = attempt(&seeded, &texts)?;
+                    let mut got = attempt(&seeded, &texts)?;
+                    got.0.search_seed = Some(seed);
                     if best
                         .as_ref()
                         .is_none_or(|(b, _)| campaign_beats(&got.1, &b.1))
@@ -1698,6 +1700,7 @@ fn device_circuits(
         } else {
             Default::default()
         },
+        search_seed: None,
     };
     let states = checked_states(spec, h.num_qubits);
     // The control-free form's controlled preparations, rebuilt as fan-out trees on

@@ -242,6 +242,10 @@ pub struct DeviceInfo {
     /// `"given"` (the terms' order) or `"layers"` (layers on disjoint qubits). Absent: given.
     #[serde(default, skip_serializing_if = "is_given")]
     pub flip_order: crate::synth::flip::BlockOrder,
+    /// With `compile --tries N` (N > 1): the seed whose layout search built this campaign, so
+    /// that `--seed` with it and one try builds the same files. Absent: one search.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub search_seed: Option<u64>,
 }
 
 fn is_given(o: &crate::synth::flip::BlockOrder) -> bool {

@@ -284,7 +284,8 @@ fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
 
 /// `compile --tries N` on the README chip (whose calibration gives gate errors): the campaign
 /// kept has a summed log success estimate at least that of the one try from the same seed,
-/// and `verify` passes; 0 and 65 tries are bad input (exit 2).
+/// the seed it came from is named and rebuilds the same files alone, and `verify` passes; 0
+/// and 65 tries are bad input (exit 2).
 #[test]
 fn more_tries_keep_a_campaign_no_worse_and_the_files_verify() {
     let tmp = tempfile::tempdir().unwrap();
@@ -302,8 +303,36 @@ fn more_tries_keep_a_campaign_no_worse_and_the_files_verify() {
             .sum()
     };
     let (one, three) = (tmp.path().join("one"), tmp.path().join("three"));
-    assert!(compile("1", &one).status.success());
-    assert!(compile("3", &three).status.success());
+    let single = compile("1", &one);
+    assert!(single.status.success());
+    assert!(!String::from_utf8_lossy(&single.stdout).contains("Layout search:"));
+    let tried = compile("3", &three);
+    assert!(tried.status.success());
+    // The plan names the seed whose search was kept, the table says so, and that seed alone
+    // builds the same files.
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(three.join("plan.json")).unwrap()).unwrap();
+    let kept = plan["device"]["search_seed"].as_u64().unwrap();
+    assert!((1..=3).contains(&kept), "{kept}");
+    let table = String::from_utf8(tried.stdout).unwrap();
+    assert!(
+        table.contains(&format!(
+            "Layout search: 3 tries, seeds 1 to 3; kept the campaign of seed {kept} (`--seed {kept} --tries 1`"
+        )),
+        "{table}"
+    );
+    let alone = tmp.path().join("alone");
+    let kept_s = kept.to_string();
+    let again = compile_ring8("examples/chip_grid12.dev", &["--seed", &kept_s], &alone);
+    assert!(again.status.success());
+    for c in plan["circuits"].as_array().unwrap() {
+        let f = c["file"].as_str().unwrap();
+        assert_eq!(
+            std::fs::read(three.join(f)).unwrap(),
+            std::fs::read(alone.join(f)).unwrap(),
+            "{f}"
+        );
+    }
     assert!(
         log_success(&three) >= log_success(&one) - 1e-12,
         "{} against {}",

@@ -502,6 +502,7 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             .into();
     }
     let mut text = cost_table(&compiled.plan);
+    text += &tries_line(&compiled.plan, args.tries, args.seed);
     if family == Family::Evolution {
         text += &format!(
             "\n{} plain time-evolution circuits written to {} ({} qubits, no ancilla; bit q holds qubit q, bit 0 first in bitstrings). They are for sampling and your own analysis: estimate does not read them.\n",
@@ -662,6 +663,25 @@ fn control_line(
         (Control::Evolution, Some(e)) => format!("Control: evolution ({how}; prep does not apply: {e}).\n"),
         (Control::Evolution, None) => format!("Control: evolution ({how}).\n"),
     }
+}
+
+/// With `--tries N` (N > 1), the line that says which seed's search built the files and how
+/// to rebuild them alone; empty otherwise (one search, or a step too large to search again).
+fn tries_line(plan: &Plan, tries: u32, first: u64) -> String {
+    let Some(kept) = plan.device.as_ref().and_then(|d| d.search_seed) else {
+        return String::new();
+    };
+    let last = first.wrapping_add(u64::from(tries) - 1);
+    // `--seed` also draws a trace campaign's random states, so there another seed changes
+    // the states too.
+    let rebuild = if plan.family == Family::Trace {
+        String::new()
+    } else {
+        format!(" (`--seed {kept} --tries 1` builds the same files)")
+    };
+    format!(
+        "Layout search: {tries} tries, seeds {first} to {last}; kept the campaign of seed {kept}{rebuild}.\n"
+    )
 }
 
 /// The line that says the control is spread over copies of the ancilla (`route::cat`), when
@@ -949,6 +969,7 @@ mod tests {
             spare_qubits: true,
             flip_string: None,
             flip_order: crate::synth::flip::BlockOrder::Given,
+            search_seed: None,
         });
         let with = |p: f64| {
             let mut plan = plan.clone();
