@@ -1682,6 +1682,12 @@ fn device_circuits(
     }
     // The plan places the system qubits and the ancilla; the copies it lists apart.
     let placed = tp.initial_layout.len() - tp.copies;
+    // A sign-flip step's string and how many leading terms it leaves controlled.
+    let flip = tp
+        .step_form
+        .flip
+        .then(|| crate::synth::flip::flip_split(&tp.terms(h), &tp.group_sizes, h.num_qubits))
+        .flatten();
     let info = DeviceInfo {
         name: device.name.clone(),
         num_qubits: device.num_qubits,
@@ -1689,12 +1695,10 @@ fn device_circuits(
         initial_layout: tp.initial_layout[..placed].to_vec(),
         copy_placement: tp.initial_layout[placed..].to_vec(),
         spare_qubits: tp.spread,
-        flip_string: tp
-            .step_form
-            .flip
-            .then(|| crate::synth::flip::flip_string(&tp.terms(h), h.num_qubits))
-            .flatten()
-            .map(|q| crate::synth::flip::flip_text(&q)),
+        flip_string: flip.as_ref().map(|(_, q)| crate::synth::flip::flip_text(q)),
+        flip_controlled_terms: flip
+            .as_ref()
+            .map_or(0, |&(k, _)| tp.group_sizes[..k].iter().sum()),
         flip_order: if tp.step_form.flip {
             tp.step_form.flip_order
         } else {

@@ -238,6 +238,11 @@ pub struct DeviceInfo {
     /// rotation runs uncontrolled. Absent: the ancilla controls the rotations themselves.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub flip_string: Option<String>,
+    /// With `flip_string`: how many terms, leading in the formula's order (its first commuting
+    /// groups), the ancilla still controls rotation by rotation, around the flipped inner
+    /// groups (a partial flip, `synth::flip::flip_split`). Absent: 0, every term flips.
+    #[serde(default, skip_serializing_if = "is_zero")]
+    pub flip_controlled_terms: usize,
     /// With `flip_string`: the order in which each commuting block's rotations are written,
     /// `"given"` (the terms' order) or `"layers"` (layers on disjoint qubits). Absent: given.
     #[serde(default, skip_serializing_if = "is_given")]

@@ -511,11 +511,11 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             n
         );
     } else {
-        let flip = compiled
-            .plan
-            .device
-            .as_ref()
-            .and_then(|d| d.flip_string.as_deref());
+        let flip = compiled.plan.device.as_ref().and_then(|d| {
+            d.flip_string
+                .as_deref()
+                .map(|q| (q, d.flip_controlled_terms))
+        });
         let weighed = device
             .as_ref()
             .is_some_and(crate::route::weighs_calibration);
@@ -641,12 +641,13 @@ pub fn choose_control(
 }
 
 /// The line of the compile summary that says which control form was chosen; `flip`: the
-/// string through which a sign-flip step is controlled (`synth::flip`), if it was kept.
+/// string through which a sign-flip step is controlled (`synth::flip`), if it was kept, and
+/// how many leading terms the ancilla still controls one by one (a partial flip; 0: none).
 /// `weighed`: the layout search weighed CNOTs by the calibration (`route::weighs_calibration`).
 fn control_line(
     control: Control,
     why_not: Option<&NotAnEigenstate>,
-    flip: Option<&str>,
+    flip: Option<(&str, usize)>,
     weighed: bool,
 ) -> String {
     let why = if weighed {
@@ -655,7 +656,8 @@ fn control_line(
         "kept because that emits fewer two-qubit gates"
     };
     let how = match flip {
-        Some(q) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, {why}"),
+        Some((q, 0)) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, {why}"),
+        Some((q, k)) => format!("the ancilla controls the rotations of the first {k} terms, at both ends of each Trotter step, and the rest of the step through the Pauli string `{q}`, which anticommutes with every other term: two controlled copies of it per step, those rotations uncontrolled, {why}"),
         None => "the ancilla controls every rotation".into(),
     };
     match (control, why_not) {
@@ -931,8 +933,18 @@ mod tests {
 
     #[test]
     fn the_control_line_says_what_the_search_weighed() {
-        let flip = Some("Y0 Z1");
+        let flip = Some(("Y0 Z1", 0));
         let counted = control_line(Control::Evolution, None, flip, false);
+        assert!(
+            counted.contains("anticommutes with every term"),
+            "{counted}"
+        );
+        // A partial flip names the terms still controlled one by one.
+        let partial = control_line(Control::Evolution, None, Some(("Z0 Z2", 3)), false);
+        assert!(
+            partial.contains("first 3 terms") && partial.contains("every other term"),
+            "{partial}"
+        );
         assert!(counted.contains("emits fewer two-qubit gates"), "{counted}");
         let weighed = control_line(Control::Evolution, None, flip, true);
         assert!(
@@ -968,6 +980,7 @@ mod tests {
             copy_placement: vec![4],
             spare_qubits: true,
             flip_string: None,
+            flip_controlled_terms: 0,
             flip_order: crate::synth::flip::BlockOrder::Given,
             search_seed: None,
         });

@@ -1359,7 +1359,7 @@ fn plan_on_step(
     // Both block orders compete: in layers the halves' depth falls (Ising 12 on a line of 13:
     // 0.80 of the two-qubit count → 0.60), but where SWAPs are needed either order may route
     // cheaper. Layers go first, so they win ties (ties keep the earlier candidate).
-    if cfg.pairs && !cfg.textbook && controls && small && flippable(&default_terms, order) {
+    if cfg.pairs && !cfg.textbook && controls && small && flippable(h, order) {
         for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
             forms.push(StepForm {
                 flip: true,
@@ -1482,11 +1482,17 @@ fn flip_layouts(
         .collect())
 }
 
-/// Whether the sign-flip step (`synth::flip`) applies to `terms`: a symmetric formula and a
-/// Pauli string that anticommutes with every term.
-fn flippable(terms: &[(PauliString, f64)], order: Order) -> bool {
-    let n = terms.iter().map(|(p, _)| p.span()).max().unwrap_or(0);
-    order != Order::First && crate::synth::flip::flip_string(terms, n).is_some()
+/// Whether the sign-flip step (`synth::flip`) applies to `h`'s formula: a symmetric formula
+/// and a Pauli string that anticommutes with every term, or Strang's formula and one that
+/// anticommutes with every term of its inner groups (`synth::flip::flip_split`).
+fn flippable(h: &PauliSum, order: Order) -> bool {
+    let groups = term_groups(h);
+    let sizes: Vec<usize> = groups.iter().map(|g| g.len()).collect();
+    match crate::synth::flip::flip_split(&groups.concat(), &sizes, h.num_qubits) {
+        Some((0, _)) => order != Order::First,
+        Some(_) => order == Order::Second,
+        None => false,
+    }
 }
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native

@@ -304,14 +304,57 @@ pub fn layered(mut rest: Vec<Rotation>) -> Vec<Rotation> {
     out
 }
 
+/// How a symmetric step over commuting groups of sizes `group_sizes` is flipped: the number
+/// `k` of leading groups written as controlled rotations, and the string `Q` that
+/// anticommutes with every term of the other groups. `k = 0` (every term flips) when such a
+/// `Q` exists for all the terms; else the smallest `k` for which it exists, when the flipped
+/// groups hold at least as many terms as the controlled ones ([`PARTIAL_MIN_SHARE`]); `None`
+/// otherwise, when the sizes do not cover the terms, or when `Q` would be the identity.
+/// Strang's step `G₀/2 … G_{m−1} … G₀/2` keeps the groups `k..m` inside the controlled ones,
+/// so the inner part is itself a palindrome that the flip controls exactly.
+pub fn flip_split(
+    terms: &[(PauliString, f64)],
+    group_sizes: &[usize],
+    n: usize,
+) -> Option<(usize, FlipString)> {
+    if group_sizes.iter().sum::<usize>() != terms.len() || group_sizes.contains(&0) {
+        return None;
+    }
+    let mut at = 0;
+    for (k, &size) in group_sizes.iter().enumerate() {
+        let inner = terms.len() - at;
+        if (inner as f64) < PARTIAL_MIN_SHARE * terms.len() as f64 {
+            return None;
+        }
+        if let Some(q) = flip_string(&terms[at..], n) {
+            return Some((k, q));
+        }
+        at += size;
+    }
+    None
+}
+
+/// Least share of a step's terms that a partial flip ([`flip_split`] with `k > 0`) must
+/// flip: below it the controlled groups carry the ancilla through most of the step anyway.
+/// Chosen, not tuned: half.
+pub const PARTIAL_MIN_SHARE: f64 = 0.5;
+
 /// The controlled step `CQ · H⁻¹ · CQ · H_rev` (see the module essay) of one step of `order`
 /// and length `dt` over `terms`, whose consecutive commuting groups have sizes `group_sizes`
 /// (`formula::term_groups`, possibly permuted inside groups), each rotation uncontrolled along
 /// `ladder(r)`; with the string `Q`. `None` when the formula is not symmetric, the sizes do
-/// not cover the terms, or no string anticommutes with every term. The |1⟩ branch runs
+/// not cover the terms, or [`flip_split`] finds no split. The |1⟩ branch runs
 /// `H · H_rev`, which is `formula::step(terms, order, dt)` as an operator (the same factors,
 /// the merges it makes aside), for any order of the terms inside their groups. Each block's
 /// rotations are written in `block_order`.
+///
+/// A partial flip (`k > 0` leading groups controlled, Strang only) writes
+/// `C(G₀/2 … G_{k−1}/2) · [CQ · H⁻¹ · CQ · H_rev] · C(G_{k−1}/2 … G₀/2)`, the outer groups'
+/// rotations each controlled along `ladder(r)` (the controlled `rz` of
+/// `synth::pauli_rotation_along`) and the bracket the flip of the inner palindrome
+/// `G_k/2 … G_{m−1} … G_k/2`: on the |1⟩ branch the whole Strang step, on |0⟩ the identity.
+/// The XXZ chain's step (`ZZ` in the first group, the hopping pairs after it) flips so
+/// through `Q = Z` on every other site, though no string anticommutes with all its terms.
 #[allow(clippy::too_many_arguments)]
 pub fn flipped_step(
     terms: &[(PauliString, f64)],
@@ -323,11 +366,11 @@ pub fn flipped_step(
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
 ) -> Option<(Vec<Gate>, FlipString)> {
-    if group_sizes.iter().sum::<usize>() != terms.len() || group_sizes.contains(&0) {
+    let (outer, q) = flip_split(terms, group_sizes, control as usize)?;
+    if outer > 0 && order != Order::Second {
         return None;
     }
-    let q = flip_string(terms, control as usize)?;
-    let half = half_blocks(group_sizes.len(), order)?;
+    let half = half_blocks(group_sizes.len() - outer, order)?;
     let mut starts = vec![0usize];
     for &k in group_sizes {
         starts.push(starts.last().expect("non-empty") + k);
@@ -349,17 +392,28 @@ pub fn flipped_step(
     let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
     let (tree, root) = parity_tree(&support, control, distance);
     let mut out = Vec::new();
+    let controlled = |g: usize, out: &mut Vec<Gate>| {
+        for r in rotations((g, 0.5), 1.0) {
+            super::pauli_rotation_along_into(&r, Some(control), &ladder(&r), out);
+        }
+    };
+    for g in 0..outer {
+        controlled(g, &mut out);
+    }
     controlled_string(&q, control, &tree, root, &mut out);
-    for &block in &half {
-        for r in rotations(block, -1.0) {
+    for &(g, x) in &half {
+        for r in rotations((g + outer, x), -1.0) {
             super::pauli_rotation_along_into(&r, None, &ladder(&r), &mut out);
         }
     }
     controlled_string(&q, control, &tree, root, &mut out);
-    for &block in half.iter().rev() {
-        for r in rotations(block, 1.0) {
+    for &(g, x) in half.iter().rev() {
+        for r in rotations((g + outer, x), 1.0) {
             super::pauli_rotation_along_into(&r, None, &ladder(&r), &mut out);
         }
+    }
+    for g in (0..outer).rev() {
+        controlled(g, &mut out);
     }
     Some((out, q))
 }
@@ -486,7 +540,7 @@ mod tests {
         // `formula::step`, global phase included, to 1e-12, with and without a distance for
         // the tree.
         use rand::seq::SliceRandom;
-        let mut checked = 0;
+        let (mut checked, mut partial) = (0, 0);
         for seed in 0..200u64 {
             let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
             let n = rng.gen_range(2..6usize);
@@ -541,7 +595,14 @@ mod tests {
                         assert!(anticommuting_string(&strings, n).is_none_or(|q| q.is_empty()));
                         continue;
                     };
-                    assert!(terms.iter().all(|(p, _)| anticommutes(&q, p)));
+                    // Every term past the controlled groups anticommutes with Q; a partial
+                    // flip only for Strang.
+                    let (k, split_q) = flip_split(&terms, &sizes, n).expect("a split");
+                    assert_eq!(split_q, q);
+                    let controlled: usize = sizes[..k].iter().sum();
+                    assert!(terms[controlled..].iter().all(|(p, _)| anticommutes(&q, p)));
+                    assert!(k == 0 || order == Order::Second);
+                    partial += usize::from(k > 0);
                     let mut c = Circuit::new(n + 1, 0);
                     c.extend(gates);
                     let d = unitary_distance(&reference, &c);
@@ -551,6 +612,7 @@ mod tests {
             }
         }
         assert!(checked > 100, "only {checked} cases");
+        assert!(partial > 10, "only {partial} partial flips");
     }
 
     #[test]
@@ -593,5 +655,68 @@ mod tests {
         // The parity tree's 2·5 CNOTs come first (a chain on the line), then the half.
         let half: Vec<[Qubit; 2]> = pairs[10..20].iter().step_by(2).copied().collect();
         assert_eq!(half, [[0, 1], [2, 3], [4, 5], [1, 2], [3, 4]], "{pairs:?}");
+    }
+
+    #[test]
+    fn the_xxz_chain_flips_its_hopping_inside_controlled_zz_rotations() {
+        // XXZ chain of 6 sites: the first commuting group holds the five ZZ bonds, the other
+        // two the hopping pairs XX + YY on alternate bonds. No string anticommutes with all
+        // three terms of a bond (XX · YY ∝ ZZ), but Z on every other site anticommutes with
+        // every XX and YY: the ZZ group stays controlled, the hopping flips.
+        let mut h = crate::pauli::PauliSum::new(6);
+        for i in 0..5 {
+            for (p, c) in [("X", 1.0), ("Y", 1.0), ("Z", 0.6)] {
+                h.add(string(&format!("{p}{i} {p}{}", i + 1)), c);
+            }
+        }
+        let (terms, sizes) = grouped(&h);
+        assert_eq!(sizes, [5, 4, 6], "{terms:?}");
+        let (k, q) = flip_split(&terms, &sizes, 6).expect("a partial flip");
+        assert_eq!(k, 1);
+        assert_eq!(flip_text(&q), "Z0 Z2 Z4");
+        let ladder = &crate::synth::default_ladder;
+        let (gates, _) = flipped_step(
+            &terms,
+            &sizes,
+            Order::Second,
+            0.3,
+            BlockOrder::Given,
+            6,
+            ladder,
+            None,
+        )
+        .expect("Strang flips");
+        let mut c = Circuit::new(7, 0);
+        c.extend(gates.iter().copied());
+        let reference = controlled_reference(&step(&terms, Order::Second, 0.3), 6);
+        assert!(unitary_distance(&reference, &c) < 1e-12);
+        // The control meets the five ZZ rotations at each end of the step (2 CNOTs of a
+        // controlled rz apiece) and the two controlled copies of Q (1 cz each): 2·5·2 + 2.
+        let on_control = gates.iter().filter(|g| g.qubits().contains(&6)).count();
+        assert_eq!(on_control, 22);
+        // Suzuki's step is not flipped partially; the hopping alone would not be worth a
+        // flip were it less than half the terms.
+        assert!(flipped_step(
+            &terms,
+            &sizes,
+            Order::Fourth,
+            0.3,
+            BlockOrder::Given,
+            6,
+            ladder,
+            None
+        )
+        .is_none());
+        let mut mostly_zz = h.clone();
+        for i in 0..6 {
+            mostly_zz.add(string(&format!("Z{i}")), 0.2);
+        }
+        let (t2, s2) = grouped(&mostly_zz);
+        let controlled: usize = t2
+            .iter()
+            .filter(|(p, _)| p.to_factor_text().starts_with('Z'))
+            .count();
+        assert!(controlled * 2 > t2.len(), "{s2:?}");
+        assert_eq!(flip_split(&t2, &s2, 6), None, "{s2:?}");
     }
 }

@@ -67,6 +67,8 @@ pub struct Claim {
     /// The plan's `device.flip_string`: each step is the sign-flip step of `synth::flip` over
     /// the commuting groups of sizes `group_sizes`.
     flip: Option<String>,
+    /// The plan's `device.flip_controlled_terms` (0 when absent).
+    flip_controlled: usize,
     /// The plan's `device.flip_order`: how the flipped steps write each block.
     flip_order: crate::synth::flip::BlockOrder,
     group_sizes: Vec<usize>,
@@ -132,7 +134,8 @@ pub enum ClaimError {
     /// The copy placement repeats a qubit, overlaps the start placement or leaves the device.
     CopyPlacement,
     /// `device.flip_string` is not the string a sign-flip step over this Hamiltonian and
-    /// formula controls (or no such step exists).
+    /// formula controls, or `device.flip_controlled_terms` not the number of terms that step
+    /// leaves controlled (or no such step exists).
     FlipString(String),
     /// The entry's state index is past the plan's states.
     NoSuchState {
@@ -192,8 +195,9 @@ impl std::fmt::Display for ClaimError {
             }
             ClaimError::FlipString(text) => write!(
                 f,
-                "plan.json: device.flip_string `{text}` is not the Pauli string a sign-flip step \
-                 over this Hamiltonian and formula controls"
+                "plan.json: device.flip_string `{text}` (with device.flip_controlled_terms) is not \
+                 the Pauli string (and count of controlled terms) of a sign-flip step over this \
+                 Hamiltonian and formula"
             ),
             ClaimError::CopyPlacement => f.write_str(
                 "plan.json: the copy placement repeats a physical qubit, names one of the start \
@@ -323,6 +327,7 @@ impl Claim {
             zero_inputs,
             control: plan.control,
             flip: plan.device.as_ref().and_then(|d| d.flip_string.clone()),
+            flip_controlled: plan.device.as_ref().map_or(0, |d| d.flip_controlled_terms),
             flip_order: plan
                 .device
                 .as_ref()
@@ -419,6 +424,11 @@ impl Claim {
                 None,
             )
             .filter(|(_, q)| crate::synth::flip::flip_text(q) == *text)
+            .filter(|_| {
+                crate::synth::flip::flip_split(&self.terms, &self.group_sizes, n)
+                    .map(|(k, _)| self.group_sizes[..k].iter().sum::<usize>())
+                    == Some(self.flip_controlled)
+            })
             .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
             let mut step = Circuit::new(n + 1, 0);
             step.extend(gates);
