@@ -1483,16 +1483,13 @@ fn flip_layouts(
 }
 
 /// Whether the sign-flip step (`synth::flip`) applies to `h`'s formula: a symmetric formula
-/// and a Pauli string that anticommutes with every term, or Strang's formula and one that
-/// anticommutes with every term of its inner groups (`synth::flip::flip_split`).
+/// and a Pauli string that anticommutes with every term, or with every term of its inner
+/// groups (`synth::flip::flip_split`).
 fn flippable(h: &PauliSum, order: Order) -> bool {
     let groups = term_groups(h);
     let sizes: Vec<usize> = groups.iter().map(|g| g.len()).collect();
-    match crate::synth::flip::flip_split(&groups.concat(), &sizes, h.num_qubits) {
-        Some((0, _)) => order != Order::First,
-        Some(_) => order == Order::Second,
-        None => false,
-    }
+    order != Order::First
+        && crate::synth::flip::flip_split(&groups.concat(), &sizes, h.num_qubits).is_some()
 }
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native

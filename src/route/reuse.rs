@@ -332,21 +332,23 @@ fn program(
 }
 
 /// The controlled step by a sign flip (`synth::flip`) over the plan's commuting groups
-/// (`TargetPlan::group_sizes`): two controlled Pauli strings, every rotation uncontrolled
-/// along the plan's ladder, the parity tree by hop distance under the plan's initial layout;
-/// `None` without an ancilla or groups, for order 1, or when no string anticommutes with
-/// every term.
+/// (`TargetPlan::group_sizes`): two controlled Pauli strings per flipped palindrome, every
+/// rotation of the flipped groups uncontrolled along the plan's ladder, the parity tree by
+/// hop distance under the plan's initial layout; `None` without an ancilla or groups, for
+/// order 1, or when no split flips (`synth::flip::flip_split`). A partial flip that leaves
+/// the first group alone controlled is cut at its edges like [`step_parts`]' split steps
+/// when the plan's `edge_terms` names that group, so that seams merge its halves.
 fn flipped(
     terms: &[(PauliString, f64)],
     plan: &TargetPlan,
     order: Order,
     dt: f64,
     dev: Option<&Device>,
-) -> Option<Circuit> {
+) -> Option<StepParts> {
     let control = plan.ancilla?;
     let distance = layout_distance(plan, dev);
     let ladder = |r: &Rotation| plan.ladder(r);
-    let (gates, _) = crate::synth::flip::flipped_step(
+    let parts = crate::synth::flip::flipped_step_parts(
         terms,
         &plan.group_sizes,
         order,
@@ -358,12 +360,38 @@ fn flipped(
             .as_ref()
             .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
     )?;
-    let mut c = Circuit::new(plan.initial_layout.len(), 0);
-    c.extend(gates);
-    if !plan.step_form.uncancelled {
-        cancel_inverses(&mut c);
+    let width = plan.initial_layout.len();
+    let piece = |gates: Vec<Gate>| {
+        let mut c = Circuit::new(width, 0);
+        c.extend(gates);
+        if !plan.step_form.uncancelled {
+            cancel_inverses(&mut c);
+        }
+        c
+    };
+    let cut = !parts.lead.is_empty() && plan.group_sizes.first() == Some(&plan.edge_terms);
+    if !cut {
+        let mut gates = parts.lead;
+        gates.extend(parts.middle);
+        gates.extend(parts.trail);
+        return Some(StepParts {
+            circuit: piece(gates),
+            cuts: Vec::new(),
+            merged_edge: None,
+        });
     }
-    Some(c)
+    let (lead, middle, trail) = (piece(parts.lead), piece(parts.middle), piece(parts.trail));
+    let a = lead.gates.len();
+    let b = a + middle.gates.len();
+    let mut circuit = Circuit::new(width, 0);
+    for p in [lead, middle, trail] {
+        circuit.extend(p.gates);
+    }
+    Some(StepParts {
+        circuit,
+        cuts: vec![a, b],
+        merged_edge: Some(piece(parts.merged)),
+    })
 }
 
 /// The step in the order of [`super::sweep::schedule`], each ladder a nearest-neighbour chain
@@ -424,12 +452,8 @@ pub fn step_parts_on(
 ) -> StepParts {
     let e = plan.edge_terms;
     if plan.step_form.flip {
-        if let Some(circuit) = flipped(terms, plan, order, dt, dev) {
-            return StepParts {
-                circuit,
-                cuts: Vec::new(),
-                merged_edge: None,
-            };
+        if let Some(parts) = flipped(terms, plan, order, dt, dev) {
+            return parts;
         }
     }
     if let (true, Some(dev)) = (plan.step_form.sweep, dev) {

@@ -339,6 +339,22 @@ pub fn flip_split(
 /// Chosen, not tuned: half.
 pub const PARTIAL_MIN_SHARE: f64 = 0.5;
 
+/// A flipped step in three pieces (gates on the system qubits and the control): with one
+/// controlled group (a partial flip with `k = 1`), `lead` and `trail` are that group's
+/// controlled rotations at the step's two ends and `merged` the same group at the sum of
+/// their angles, which replaces a trail and the next step's lead where two steps meet (the
+/// seams of `route::reuse`); otherwise `lead`, `trail` and `merged` are empty and `middle`
+/// is the whole step.
+#[derive(Clone, Debug)]
+pub struct FlippedParts {
+    pub lead: Vec<Gate>,
+    pub middle: Vec<Gate>,
+    pub trail: Vec<Gate>,
+    pub merged: Vec<Gate>,
+    /// The string `Q` the control meets twice per flipped palindrome.
+    pub q: FlipString,
+}
+
 /// The controlled step `CQ · H⁻¹ · CQ · H_rev` (see the module essay) of one step of `order`
 /// and length `dt` over `terms`, whose consecutive commuting groups have sizes `group_sizes`
 /// (`formula::term_groups`, possibly permuted inside groups), each rotation uncontrolled along
@@ -346,15 +362,7 @@ pub const PARTIAL_MIN_SHARE: f64 = 0.5;
 /// not cover the terms, or [`flip_split`] finds no split. The |1⟩ branch runs
 /// `H · H_rev`, which is `formula::step(terms, order, dt)` as an operator (the same factors,
 /// the merges it makes aside), for any order of the terms inside their groups. Each block's
-/// rotations are written in `block_order`.
-///
-/// A partial flip (`k > 0` leading groups controlled, Strang only) writes
-/// `C(G₀/2 … G_{k−1}/2) · [CQ · H⁻¹ · CQ · H_rev] · C(G_{k−1}/2 … G₀/2)`, the outer groups'
-/// rotations each controlled along `ladder(r)` (the controlled `rz` of
-/// `synth::pauli_rotation_along`) and the bracket the flip of the inner palindrome
-/// `G_k/2 … G_{m−1} … G_k/2`: on the |1⟩ branch the whole Strang step, on |0⟩ the identity.
-/// The XXZ chain's step (`ZZ` in the first group, the hopping pairs after it) flips so
-/// through `Q = Z` on every other site, though no string anticommutes with all its terms.
+/// rotations are written in `block_order`. [`flipped_step_parts`] in one piece.
 #[allow(clippy::too_many_arguments)]
 pub fn flipped_step(
     terms: &[(PauliString, f64)],
@@ -366,11 +374,51 @@ pub fn flipped_step(
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
 ) -> Option<(Vec<Gate>, FlipString)> {
+    let p = flipped_step_parts(
+        terms,
+        group_sizes,
+        order,
+        dt,
+        block_order,
+        control,
+        ladder,
+        distance,
+    )?;
+    let mut out = p.lead;
+    out.extend(p.middle);
+    out.extend(p.trail);
+    Some((out, p.q))
+}
+
+/// [`flipped_step`] in pieces ([`FlippedParts`]).
+///
+/// A partial flip (`k > 0` leading groups controlled) writes each Strang stage
+/// `G₀/2 … G_{m−1} … G₀/2` of the step (the step itself for order 2, the five stages of
+/// Suzuki's product for order 4) as `C(G₀/2 … G_{k−1}/2) · [CQ · H⁻¹ · CQ · H_rev] ·
+/// C(G_{k−1}/2 … G₀/2)`, the outer groups' rotations each controlled along `ladder(r)` (the
+/// controlled `rz` of `synth::pauli_rotation_along`) and the bracket the flip of the inner
+/// palindrome `G_k/2 … G_{m−1} … G_k/2`: on the |1⟩ branch the stage, on |0⟩ the identity.
+/// Where two stages meet, their `G₀` halves are written as one rotation each (they commute,
+/// so merging them is exact). The XXZ chain's step (`ZZ` in the first group, the hopping
+/// pairs after it) flips so through `Q = Z` on every other site, though no string
+/// anticommutes with all its terms.
+#[allow(clippy::too_many_arguments)]
+pub fn flipped_step_parts(
+    terms: &[(PauliString, f64)],
+    group_sizes: &[usize],
+    order: Order,
+    dt: f64,
+    block_order: BlockOrder,
+    control: Qubit,
+    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+) -> Option<FlippedParts> {
     let (outer, q) = flip_split(terms, group_sizes, control as usize)?;
-    if outer > 0 && order != Order::Second {
-        return None;
-    }
-    let half = half_blocks(group_sizes.len() - outer, order)?;
+    let stages: Vec<f64> = match order {
+        Order::First => return None,
+        Order::Second => vec![1.0],
+        Order::Fourth => crate::formula::suzuki_stages().to_vec(),
+    };
     let mut starts = vec![0usize];
     for &k in group_sizes {
         starts.push(starts.last().expect("non-empty") + k);
@@ -391,31 +439,76 @@ pub fn flipped_step(
     };
     let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
     let (tree, root) = parity_tree(&support, control, distance);
-    let mut out = Vec::new();
-    let controlled = |g: usize, out: &mut Vec<Gate>| {
-        for r in rotations((g, 0.5), 1.0) {
+    // One flipped palindrome whose first half is `half` (blocks of the groups past `outer`).
+    let flip = |half: &[(usize, f64)], out: &mut Vec<Gate>| {
+        controlled_string(&q, control, &tree, root, out);
+        for &(g, x) in half {
+            for r in rotations((g + outer, x), -1.0) {
+                super::pauli_rotation_along_into(&r, None, &ladder(&r), out);
+            }
+        }
+        controlled_string(&q, control, &tree, root, out);
+        for &(g, x) in half.iter().rev() {
+            for r in rotations((g + outer, x), 1.0) {
+                super::pauli_rotation_along_into(&r, None, &ladder(&r), out);
+            }
+        }
+    };
+    let controlled = |g: usize, x: f64, out: &mut Vec<Gate>| {
+        for r in rotations((g, x), 1.0) {
             super::pauli_rotation_along_into(&r, Some(control), &ladder(&r), out);
         }
     };
-    for g in 0..outer {
-        controlled(g, &mut out);
+    let mut parts = FlippedParts {
+        lead: Vec::new(),
+        middle: Vec::new(),
+        trail: Vec::new(),
+        merged: Vec::new(),
+        q: q.clone(),
+    };
+    if outer == 0 {
+        flip(&half_blocks(group_sizes.len(), order)?, &mut parts.middle);
+        return Some(parts);
     }
-    controlled_string(&q, control, &tree, root, &mut out);
-    for &(g, x) in &half {
-        for r in rotations((g + outer, x), -1.0) {
-            super::pauli_rotation_along_into(&r, None, &ladder(&r), &mut out);
+    // The stages as items, a controlled group at a share of dt or an inner palindrome at a
+    // stage's factor, neighbouring halves of one group merged.
+    enum Item {
+        Controlled(usize, f64),
+        Inner(f64),
+    }
+    let mut items: Vec<Item> = Vec::new();
+    for &f in &stages {
+        for g in 0..outer {
+            match items.last_mut() {
+                Some(Item::Controlled(h, x)) if *h == g => *x += f / 2.0,
+                _ => items.push(Item::Controlled(g, f / 2.0)),
+            }
+        }
+        items.push(Item::Inner(f));
+        items.extend((0..outer).rev().map(|g| Item::Controlled(g, f / 2.0)));
+    }
+    let inner_half = half_blocks(group_sizes.len() - outer, Order::Second)?;
+    let edges = outer == 1;
+    let last = items.len() - 1;
+    for (i, item) in items.iter().enumerate() {
+        let out = match i {
+            0 if edges => &mut parts.lead,
+            _ if edges && i == last => &mut parts.trail,
+            _ => &mut parts.middle,
+        };
+        match *item {
+            Item::Controlled(g, x) => controlled(g, x, out),
+            Item::Inner(f) => {
+                let half: Vec<(usize, f64)> = inner_half.iter().map(|&(g, x)| (g, x * f)).collect();
+                flip(&half, out);
+            }
         }
     }
-    controlled_string(&q, control, &tree, root, &mut out);
-    for &(g, x) in half.iter().rev() {
-        for r in rotations((g + outer, x), 1.0) {
-            super::pauli_rotation_along_into(&r, None, &ladder(&r), &mut out);
-        }
+    if edges {
+        // A seam: the last stage's half of G₀ then the first stage's, which are equal.
+        controlled(0, stages[0], &mut parts.merged);
     }
-    for g in (0..outer).rev() {
-        controlled(g, &mut out);
-    }
-    Some((out, q))
+    Some(parts)
 }
 
 #[cfg(test)]
@@ -595,13 +688,11 @@ mod tests {
                         assert!(anticommuting_string(&strings, n).is_none_or(|q| q.is_empty()));
                         continue;
                     };
-                    // Every term past the controlled groups anticommutes with Q; a partial
-                    // flip only for Strang.
+                    // Every term past the controlled groups anticommutes with Q.
                     let (k, split_q) = flip_split(&terms, &sizes, n).expect("a split");
                     assert_eq!(split_q, q);
                     let controlled: usize = sizes[..k].iter().sum();
                     assert!(terms[controlled..].iter().all(|(p, _)| anticommutes(&q, p)));
-                    assert!(k == 0 || order == Order::Second);
                     partial += usize::from(k > 0);
                     let mut c = Circuit::new(n + 1, 0);
                     c.extend(gates);
@@ -694,9 +785,9 @@ mod tests {
         // controlled rz apiece) and the two controlled copies of Q (1 cz each): 2·5·2 + 2.
         let on_control = gates.iter().filter(|g| g.qubits().contains(&6)).count();
         assert_eq!(on_control, 22);
-        // Suzuki's step is not flipped partially; the hopping alone would not be worth a
-        // flip were it less than half the terms.
-        assert!(flipped_step(
+        // Suzuki's step: each of its five Strang stages flips its hopping inside controlled
+        // ZZ halves, neighbouring halves merged (6 controlled ZZ layers, 10 copies of Q).
+        let flip4 = flipped_step(
             &terms,
             &sizes,
             Order::Fourth,
@@ -704,9 +795,42 @@ mod tests {
             BlockOrder::Given,
             6,
             ladder,
-            None
-        )
-        .is_none());
+            None,
+        );
+        let (gates, _) = flip4.expect("Suzuki flips");
+        let mut c = Circuit::new(7, 0);
+        c.extend(gates.iter().copied());
+        let reference = controlled_reference(&step(&terms, Order::Fourth, 0.3), 6);
+        assert!(unitary_distance(&reference, &c) < 1e-12);
+        let on_control = gates.iter().filter(|g| g.qubits().contains(&6)).count();
+        assert_eq!(on_control, 6 * 5 * 2 + 10);
+        // In pieces: the ZZ halves at the ends, and the seam's ZZ at twice their angle.
+        let parts = flipped_step_parts(
+            &terms,
+            &sizes,
+            Order::Second,
+            0.3,
+            BlockOrder::Given,
+            6,
+            ladder,
+            None,
+        );
+        let parts = parts.expect("Strang flips");
+        let meets = |gates: &[Gate]| gates.iter().filter(|g| g.qubits().contains(&6)).count();
+        assert_eq!(
+            (
+                meets(&parts.lead),
+                meets(&parts.middle),
+                meets(&parts.trail)
+            ),
+            (10, 2, 10)
+        );
+        let mut seam = Circuit::new(7, 0);
+        seam.extend(parts.merged.iter().copied());
+        let mut two = Circuit::new(7, 0);
+        two.extend(parts.trail.iter().chain(&parts.lead).copied());
+        assert!(unitary_distance(&seam, &two) < 1e-12);
+        // The hopping alone would not be worth a flip were it less than half the terms.
         let mut mostly_zz = h.clone();
         for i in 0..6 {
             mostly_zz.add(string(&format!("Z{i}")), 0.2);
