@@ -1686,7 +1686,7 @@ fn device_circuits(
     let flip = tp
         .step_form
         .flip
-        .then(|| crate::synth::flip::flip_split(&tp.terms(h), &tp.group_sizes, h.num_qubits))
+        .then(|| crate::route::reuse::flip_split_of(&tp.terms(h), &tp, Some(device)))
         .flatten();
     let info = DeviceInfo {
         name: device.name.clone(),

@@ -483,6 +483,11 @@ pub struct StepForm {
     pub flip: bool,
     /// With `flip`: the order of each commuting block's rotations.
     pub flip_order: crate::synth::flip::BlockOrder,
+    /// With `flip`: the string is the GF(2) system's particular solution
+    /// (`synth::flip::flip_split`) rather than the one whose parity tree the layout makes
+    /// cheapest (`synth::flip::nearest_flip_string`, a proxy that the routed count can
+    /// overrule: both compete).
+    pub flip_particular: bool,
 }
 
 /// The most system qubits on which the carried-frame candidate (`StepForm::carry`) is tried.
@@ -1019,6 +1024,7 @@ fn plan_on_step(
         carry: false,
         flip: false,
         flip_order: BlockOrder::Given,
+        flip_particular: false,
     };
     let full = Search {
         trials: cfg.layout_trials.max(1),
@@ -1292,6 +1298,7 @@ fn plan_on_step(
             carry: false,
             flip: false,
             flip_order: BlockOrder::Given,
+            flip_particular: false,
         };
         let recipe = Recipe {
             layout: first_layout.clone(),
@@ -1361,11 +1368,14 @@ fn plan_on_step(
     // cheaper. Layers go first, so they win ties (ties keep the earlier candidate).
     if cfg.pairs && !cfg.textbook && controls && small && flippable(h, order) {
         for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
-            forms.push(StepForm {
-                flip: true,
-                flip_order,
-                ..form
-            });
+            for flip_particular in [true, false] {
+                forms.push(StepForm {
+                    flip: true,
+                    flip_order,
+                    flip_particular,
+                    ..form
+                });
+            }
         }
     }
     for paired in forms {

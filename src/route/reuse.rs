@@ -348,6 +348,12 @@ fn flipped(
     let control = plan.ancilla?;
     let distance = layout_distance(plan, dev);
     let ladder = |r: &Rotation| plan.ladder(r);
+    let particular = plan
+        .step_form
+        .flip_particular
+        .then(|| crate::synth::flip::flip_split(terms, &plan.group_sizes, control as usize))
+        .flatten()
+        .map(|(_, q)| q);
     let parts = crate::synth::flip::flipped_step_parts(
         terms,
         &plan.group_sizes,
@@ -359,6 +365,7 @@ fn flipped(
         distance
             .as_ref()
             .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
+        particular.as_ref(),
     )?;
     let width = plan.initial_layout.len();
     let piece = |gates: Vec<Gate>| {
@@ -392,6 +399,30 @@ fn flipped(
         cuts: vec![a, b],
         merged_edge: Some(piece(parts.merged)),
     })
+}
+
+/// The split and the string a sign-flip step of `plan` over `terms` uses
+/// (`synth::flip::flip_split_near`, `Q` chosen under the plan's initial layout on `dev`): what
+/// [`step_parts`] writes, for the plan to record.
+pub fn flip_split_of(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    dev: Option<&Device>,
+) -> Option<(usize, crate::synth::flip::FlipString)> {
+    let control = plan.ancilla?;
+    if plan.step_form.flip_particular {
+        return crate::synth::flip::flip_split(terms, &plan.group_sizes, control as usize);
+    }
+    let distance = layout_distance(plan, dev);
+    crate::synth::flip::flip_split_near(
+        terms,
+        &plan.group_sizes,
+        control as usize,
+        control,
+        distance
+            .as_ref()
+            .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
+    )
 }
 
 /// The step in the order of [`super::sweep::schedule`], each ladder a nearest-neighbour chain

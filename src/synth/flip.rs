@@ -74,6 +74,31 @@ pub type FlipString = Vec<(Qubit, Pauli)>;
 /// identity). Free variables of the GF(2) system are set to 0, so the support is what the
 /// pivots need.
 pub fn anticommuting_string(strings: &[PauliString], n: usize) -> Option<FlipString> {
+    anticommuting_solutions(strings, n).map(|(q, _)| string_of_bits(&q))
+}
+
+/// `Q`'s bits (x-bit of qubit `q` at `2q`, z-bit at `2q + 1`) as `(qubit, letter)` pairs.
+fn string_of_bits(bits: &[bool]) -> FlipString {
+    (0..bits.len() / 2)
+        .filter_map(|q| {
+            let letter = match (bits[2 * q], bits[2 * q + 1]) {
+                (false, false) => return None,
+                (true, false) => Pauli::X,
+                (true, true) => Pauli::Y,
+                (false, true) => Pauli::Z,
+            };
+            Some((q as Qubit, letter))
+        })
+        .collect()
+}
+
+/// Every solution of [`anticommuting_string`]'s system: the particular one (free variables
+/// 0) and a basis of the homogeneous system's solutions (one per free variable), whose sums
+/// with it are all the strings that anticommute with every one of `strings` (up to phase).
+fn anticommuting_solutions(
+    strings: &[PauliString],
+    n: usize,
+) -> Option<(Vec<bool>, Vec<Vec<bool>>)> {
     if strings.iter().any(|p| p.is_identity()) {
         return None;
     }
@@ -136,18 +161,78 @@ pub fn anticommuting_string(strings: &[PauliString], n: usize) -> Option<FlipStr
     for &(i, c) in &pivots {
         bits[c] = get(&rows[i], 2 * n);
     }
-    let out: Vec<(Qubit, Pauli)> = (0..n)
-        .filter_map(|q| {
-            let letter = match (bits[2 * q], bits[2 * q + 1]) {
-                (false, false) => return None,
-                (true, false) => Pauli::X,
-                (true, true) => Pauli::Y,
-                (false, true) => Pauli::Z,
-            };
-            Some((q as Qubit, letter))
+    // Reduced rows hold their pivot and free columns only: a free variable set to 1 sets
+    // each pivot variable to its row's entry in that column.
+    let mut is_pivot = vec![false; 2 * n];
+    for &(_, c) in &pivots {
+        is_pivot[c] = true;
+    }
+    let basis = (0..2 * n)
+        .filter(|&f| !is_pivot[f])
+        .map(|f| {
+            let mut v = vec![false; 2 * n];
+            v[f] = true;
+            for &(i, c) in &pivots {
+                v[c] = get(&rows[i], f);
+            }
+            v
         })
         .collect();
-    Some(out)
+    Some((bits, basis))
+}
+
+/// Most basis vectors [`nearest_flip_string`] combines: `2^FLIP_CHOICE_BITS` candidates.
+pub const FLIP_CHOICE_BITS: usize = 8;
+
+/// Among the strings that anticommute with every one of `strings`, the one whose controlled
+/// copy is cheapest to gather next to `control` under `distance` (hop distances between
+/// logical qubits): the parity tree's edges at `d` hops cost `2 · (3d − 2)` (there and back,
+/// a routed CNOT as `d − 1` SWAPs and one CNOT) and the `cz` from the root `3d − 2`. The
+/// candidates are the particular solution plus every sum of the first
+/// [`FLIP_CHOICE_BITS`] basis vectors of the homogeneous system; ties keep the earlier (the
+/// particular solution first). Without `distance`, the particular solution. On a chain the
+/// XXZ hopping's `Z` on every other site costs trees of 2-hop edges, and `Y X Y X …` (its
+/// product with `X` on every site, which commutes with every hopping term) a chain of 1-hop
+/// edges.
+pub fn nearest_flip_string(
+    strings: &[PauliString],
+    n: usize,
+    control: Qubit,
+    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+) -> Option<FlipString> {
+    let (particular, basis) = anticommuting_solutions(strings, n)?;
+    let Some(dist) = distance else {
+        return Some(string_of_bits(&particular));
+    };
+    let routed = |d: u32| 3 * u64::from(d.max(1)) - 2;
+    let cost = |q: &FlipString| -> Option<u64> {
+        let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
+        if support.is_empty() {
+            return None;
+        }
+        let (tree, root) = parity_tree(&support, control, Some(dist));
+        let edges: u64 = tree.iter().map(|&(c, p)| 2 * routed(dist(c, p))).sum();
+        Some(edges + routed(dist(root, control)))
+    };
+    let used = basis.len().min(FLIP_CHOICE_BITS);
+    let mut best: Option<(u64, FlipString)> = None;
+    for mask in 0u32..1 << used {
+        let mut bits = particular.clone();
+        for (j, v) in basis[..used].iter().enumerate() {
+            if mask >> j & 1 == 1 {
+                for (b, &x) in bits.iter_mut().zip(v) {
+                    *b ^= x;
+                }
+            }
+        }
+        let q = string_of_bits(&bits);
+        if let Some(c) = cost(&q) {
+            if best.as_ref().is_none_or(|(b, _)| c < *b) {
+                best = Some((c, q));
+            }
+        }
+    }
+    best.map(|(_, q)| q)
 }
 
 /// The parity tree of `support` for a controlled `Q`: edges `(child, parent)` with every
@@ -317,6 +402,18 @@ pub fn flip_split(
     group_sizes: &[usize],
     n: usize,
 ) -> Option<(usize, FlipString)> {
+    flip_split_near(terms, group_sizes, n, n as Qubit, None)
+}
+
+/// [`flip_split`] with `Q` chosen by [`nearest_flip_string`] for `control` under `distance`
+/// (the same `k`: whether a suffix flips does not depend on which string flips it).
+pub fn flip_split_near(
+    terms: &[(PauliString, f64)],
+    group_sizes: &[usize],
+    n: usize,
+    control: Qubit,
+    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+) -> Option<(usize, FlipString)> {
     if group_sizes.iter().sum::<usize>() != terms.len() || group_sizes.contains(&0) {
         return None;
     }
@@ -326,7 +423,14 @@ pub fn flip_split(
         if (inner as f64) < PARTIAL_MIN_SHARE * terms.len() as f64 {
             return None;
         }
-        if let Some(q) = flip_string(&terms[at..], n) {
+        let strings: Vec<PauliString> = terms[at..]
+            .iter()
+            .filter(|(_, c)| *c != 0.0)
+            .map(|(p, _)| p.clone())
+            .collect();
+        if let Some(q) =
+            nearest_flip_string(&strings, n, control, distance).filter(|q| !q.is_empty())
+        {
             return Some((k, q));
         }
         at += size;
@@ -383,6 +487,7 @@ pub fn flipped_step(
         control,
         ladder,
         distance,
+        None,
     )?;
     let mut out = p.lead;
     out.extend(p.middle);
@@ -412,8 +517,30 @@ pub fn flipped_step_parts(
     control: Qubit,
     ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+    given: Option<&FlipString>,
 ) -> Option<FlippedParts> {
-    let (outer, q) = flip_split(terms, group_sizes, control as usize)?;
+    let n = control as usize;
+    let (outer, q) = match given {
+        None => flip_split_near(terms, group_sizes, n, control, distance)?,
+        Some(q) => {
+            // A recorded string: it must anticommute with every term past the split.
+            let (outer, _) = flip_split(terms, group_sizes, n)?;
+            let factors: Vec<(usize, Pauli)> = q.iter().map(|&(k, p)| (k as usize, p)).collect();
+            if q.is_empty() || q.iter().any(|&(k, _)| k as usize >= n) {
+                return None;
+            }
+            let (_, string) = PauliString::from_factors(&factors);
+            let at: usize = group_sizes[..outer].iter().sum();
+            let flips = terms[at..]
+                .iter()
+                .filter(|(_, c)| *c != 0.0)
+                .all(|(p, _)| !p.commutes_with(&string));
+            if !flips {
+                return None;
+            }
+            (outer, q.clone())
+        }
+    };
     let stages: Vec<f64> = match order {
         Order::First => return None,
         Order::Second => vec![1.0],
@@ -689,8 +816,12 @@ mod tests {
                         continue;
                     };
                     // Every term past the controlled groups anticommutes with Q.
+                    // (With a distance the string is chosen by the tree it needs; without,
+                    // it is the split's own.)
                     let (k, split_q) = flip_split(&terms, &sizes, n).expect("a split");
-                    assert_eq!(split_q, q);
+                    if distance.is_none() {
+                        assert_eq!(split_q, q);
+                    }
                     let controlled: usize = sizes[..k].iter().sum();
                     assert!(terms[controlled..].iter().all(|(p, _)| anticommutes(&q, p)));
                     partial += usize::from(k > 0);
@@ -814,6 +945,7 @@ mod tests {
             6,
             ladder,
             None,
+            None,
         );
         let parts = parts.expect("Strang flips");
         let meets = |gates: &[Gate]| gates.iter().filter(|g| g.qubits().contains(&6)).count();
@@ -842,5 +974,38 @@ mod tests {
             .count();
         assert!(controlled * 2 > t2.len(), "{s2:?}");
         assert_eq!(flip_split(&t2, &s2, 6), None, "{s2:?}");
+    }
+
+    #[test]
+    fn the_string_is_chosen_by_the_tree_it_needs_on_the_layout() {
+        // The XXZ chain's hopping on 6 sites of a line, the control beyond site 5: the
+        // particular solution Z0 Z2 Z4 gathers its parity over 2-hop edges; a string with
+        // a letter on every site (Y X Y X Y X up to the choice of gauge) over 1-hop edges,
+        // which costs fewer routed CNOTs (`nearest_flip_string`'s measure).
+        let hopping: Vec<PauliString> = (0..5)
+            .flat_map(|i| [format!("X{i} X{}", i + 1), format!("Y{i} Y{}", i + 1)])
+            .map(|t| string(&t))
+            .collect();
+        let line = |a: Qubit, b: Qubit| a.abs_diff(b);
+        let line = &line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync);
+        let plain = nearest_flip_string(&hopping, 6, 6, None).unwrap();
+        assert_eq!(flip_text(&plain), "Z0 Z2 Z4");
+        let near = nearest_flip_string(&hopping, 6, 6, Some(line)).unwrap();
+        assert!(hopping.iter().all(|p| anticommutes(&near, p)), "{near:?}");
+        assert_eq!(near.len(), 6, "{}", flip_text(&near));
+        let support: Vec<Qubit> = near.iter().map(|&(k, _)| k).collect();
+        let (tree, root) = parity_tree(&support, 6, Some(line));
+        assert_eq!(root, 5);
+        assert!(tree.iter().all(|&(c, p)| line(c, p) == 1), "{tree:?}");
+        // Without the hopping's freedom (every site's letter forced) the choice changes
+        // nothing: the transverse-field Ising chain keeps its particular solution.
+        let mut ising: Vec<PauliString> = (0..5)
+            .map(|i| string(&format!("Z{i} Z{}", i + 1)))
+            .collect();
+        ising.extend((0..6).map(|i| string(&format!("X{i}"))));
+        assert_eq!(
+            nearest_flip_string(&ising, 6, 6, Some(line)),
+            nearest_flip_string(&ising, 6, 6, None)
+        );
     }
 }

@@ -413,23 +413,32 @@ impl Claim {
             // mirror image alternately (`route::reuse`).
             let n = self.n;
             let dt = self.dt / self.steps_per_dt.max(1) as f64;
-            let (gates, _) = crate::synth::flip::flipped_step(
-                &self.terms,
-                &self.group_sizes,
-                self.order,
-                dt,
-                self.flip_order,
-                n as Qubit,
-                &ladder,
-                None,
-            )
-            .filter(|(_, q)| crate::synth::flip::flip_text(q) == *text)
-            .filter(|_| {
-                crate::synth::flip::flip_split(&self.terms, &self.group_sizes, n)
-                    .map(|(k, _)| self.group_sizes[..k].iter().sum::<usize>())
-                    == Some(self.flip_controlled)
-            })
-            .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
+            // The recorded string, checked to anticommute with every flipped term (the
+            // device search picks among such strings by the layout, which the claim does not
+            // know), and the split's count of controlled terms.
+            let given: Option<crate::synth::flip::FlipString> =
+                crate::pauli::PauliString::parse_factor_text(text)
+                    .map(|p| p.support_iter().map(|q| (q as Qubit, p.get(q))).collect());
+            let split = crate::synth::flip::flip_split(&self.terms, &self.group_sizes, n);
+            let counted = split.map(|(k, _)| self.group_sizes[..k].iter().sum::<usize>());
+            let gates = given
+                .as_ref()
+                .filter(|_| counted == Some(self.flip_controlled))
+                .and_then(|q| {
+                    crate::synth::flip::flipped_step_parts(
+                        &self.terms,
+                        &self.group_sizes,
+                        self.order,
+                        dt,
+                        self.flip_order,
+                        n as Qubit,
+                        &ladder,
+                        None,
+                        Some(q),
+                    )
+                })
+                .map(|p| [p.lead, p.middle, p.trail].concat())
+                .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
             let mut step = Circuit::new(n + 1, 0);
             step.extend(gates);
             let back = crate::route::reuse::mirror(&step);
