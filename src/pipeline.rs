@@ -1686,7 +1686,7 @@ fn device_circuits(
     let flip = tp
         .step_form
         .flip
-        .then(|| crate::route::reuse::flip_split_of(&tp.terms(h), &tp, Some(device)))
+        .then(|| crate::route::reuse::flip_split_of(&tp.terms(h), tp, Some(device)))
         .flatten();
     let info = DeviceInfo {
         name: device.name.clone(),
