@@ -95,15 +95,7 @@ proptest! {
             Family::Trace => random_states(n, 2, seed),
             _ => vec![random_state(n, &mut rng)],
         };
-        let spec = Spec {
-            family,
-            order,
-            dt: 0.3,
-            points: 3,
-            steps_per_dt,
-            states,
-            control: phasewright::family::control::Control::Evolution,
-        };
+        let spec = three_points(family, order, steps_per_dt, states);
         let compiled = compile(&h, &spec, dev.as_ref(), level);
         check_compiled(&compiled, dev.as_ref(), &format!("level {level}"));
     }
@@ -138,15 +130,8 @@ proptest! {
             h.add(PauliString::single(rng.gen_range(0..n), Pauli::Z), rng.gen_range(-0.5..0.5));
         }
         let dev = random_device(kind, n + 1, native, &mut rng);
-        let spec = Spec {
-            family: Family::Overlap,
-            order,
-            dt: 0.3,
-            points: 3,
-            steps_per_dt,
-            states: vec![random_state(n, &mut rng)],
-            control: phasewright::family::control::Control::Evolution,
-        };
+        let states = vec![random_state(n, &mut rng)];
+        let spec = three_points(Family::Overlap, order, steps_per_dt, states);
         let compiled = compile(&h, &spec, Some(&dev), 3);
         check_compiled(&compiled, Some(&dev), "partial flip");
         let device = compiled.plan.device.as_ref().unwrap();
@@ -156,15 +141,7 @@ proptest! {
             let (k, _) = phasewright::synth::flip::flip_split(&groups.concat(), &sizes, n)
                 .expect("a recorded flip has a split");
             prop_assert_eq!(device.flip_controlled_terms, sizes[..k].iter().sum::<usize>());
-            let claim = phasewright::tableau::equiv::Claim::from_plan(&compiled.plan).unwrap();
-            for (text, e) in compiled.programs.iter().zip(&compiled.plan.circuits) {
-                let c = qasm::read("c.qasm", text).unwrap().circuit;
-                let v = claim.check(e, &c).unwrap();
-                prop_assert!(
-                    matches!(v, phasewright::tableau::equiv::Verdict::Equivalent(_)),
-                    "{}: {:?}", e.id, v
-                );
-            }
+            assert_every_file_proved(&compiled);
         }
     }
 }
@@ -314,6 +291,34 @@ fn controlled_overlap(state: String, dt: f64, points: usize) -> Spec {
         steps_per_dt: 1,
         states: vec![state],
         control: phasewright::family::control::Control::Evolution,
+    }
+}
+
+/// Three time points of `dt = 0.3`, the ancilla controlling the evolution.
+fn three_points(family: Family, order: Order, steps_per_dt: usize, states: Vec<String>) -> Spec {
+    Spec {
+        family,
+        order,
+        dt: 0.3,
+        points: 3,
+        steps_per_dt,
+        states,
+        control: phasewright::family::control::Control::Evolution,
+    }
+}
+
+/// The tableau proof (`tableau::equiv`) rebuilds every circuit the plan claims and proves
+/// each file equal to it.
+fn assert_every_file_proved(compiled: &Compiled) {
+    let claim = phasewright::tableau::equiv::Claim::from_plan(&compiled.plan).unwrap();
+    for (text, e) in compiled.programs.iter().zip(&compiled.plan.circuits) {
+        let c = qasm::read("c.qasm", text).unwrap().circuit;
+        let v = claim.check(e, &c).unwrap();
+        assert!(
+            matches!(v, phasewright::tableau::equiv::Verdict::Equivalent(_)),
+            "{}: {v:?}",
+            e.id
+        );
     }
 }
 
@@ -707,16 +712,7 @@ fn a_transverse_field_ising_step_is_controlled_through_a_sign_flip() {
     );
     check_compiled(&best, Some(&dev), "ising12 line, sign flip");
     // The tableau proof rebuilds the flipped steps (and their mirror images) from the plan.
-    let claim = phasewright::tableau::equiv::Claim::from_plan(&best.plan).unwrap();
-    for (text, e) in best.programs.iter().zip(&best.plan.circuits) {
-        let c = qasm::read("c.qasm", text).unwrap().circuit;
-        let v = claim.check(e, &c).unwrap();
-        assert!(
-            matches!(v, phasewright::tableau::equiv::Verdict::Equivalent(_)),
-            "{}: {v:?}",
-            e.id
-        );
-    }
+    assert_every_file_proved(&best);
     // A Heisenberg lattice has no such string (XX · YY ∝ ZZ): no flip recorded.
     let heis = lattice_model(2, 3, true);
     let spec6 = Spec {
@@ -973,16 +969,7 @@ fn a_hubbard_step_flips_its_hopping_inside_controlled_on_site_terms() {
     check_compiled(&best, Some(&dev), "hubbard 2x3 ring, partial flip");
     // The tableau proof rebuilds the partially flipped steps from the plan, and refuses a
     // plan whose count of controlled terms disagrees with the split.
-    let claim = phasewright::tableau::equiv::Claim::from_plan(&best.plan).unwrap();
-    for (text, e) in best.programs.iter().zip(&best.plan.circuits) {
-        let c = qasm::read("c.qasm", text).unwrap().circuit;
-        let v = claim.check(e, &c).unwrap();
-        assert!(
-            matches!(v, phasewright::tableau::equiv::Verdict::Equivalent(_)),
-            "{}: {v:?}",
-            e.id
-        );
-    }
+    assert_every_file_proved(&best);
     let mut wrong = best.plan.clone();
     wrong.device.as_mut().unwrap().flip_controlled_terms = 0;
     let claim = phasewright::tableau::equiv::Claim::from_plan(&wrong).unwrap();
