@@ -198,10 +198,6 @@ fn a_heavy_hexagon_row_length_that_does_not_fit_is_bad_input() {
     assert!(!tmp.path().join("o").exists());
 }
 
-/// A device with a coherence time: the table says that its success estimates count waiting,
-/// each recorded estimate is the gate-error product times `exp(−idle / T)` (so below the
-/// product recomputed on the same chip without the `coherence` line, common practice: each
-/// idle qubit an independent exponential decay), and `verify` passes.
 /// The README's device command (`examples/ising_ring8.ham`, state 00000000, dt 0.2, 3 points)
 /// on `device` with `extra` arguments, written to `out`.
 fn compile_ring8(device: &str, extra: &[&str], out: &std::path::Path) -> std::process::Output {
@@ -228,6 +224,10 @@ fn compile_ring8(device: &str, extra: &[&str], out: &std::path::Path) -> std::pr
         .unwrap()
 }
 
+/// A device with a coherence time: the table says that its success estimates count waiting,
+/// each recorded estimate is the gate-error product times `exp(−idle / T)` (so below the
+/// product recomputed on the same chip without the `coherence` line, common practice: each
+/// idle qubit an independent exponential decay), and `verify` passes.
 #[test]
 fn a_coherence_time_shows_in_the_estimates_and_the_files_verify() {
     let tmp = tempfile::tempdir().unwrap();

@@ -1366,7 +1366,7 @@ fn plan_on_step(
     // Both block orders compete: in layers the halves' depth falls (Ising 12 on a line of 13:
     // 0.80 of the two-qubit count → 0.60), but where SWAPs are needed either order may route
     // cheaper. Layers go first, so they win ties (ties keep the earlier candidate).
-    if cfg.pairs && !cfg.textbook && controls && small && flippable(h, order) {
+    if cfg.pairs && !cfg.textbook && controls && small && flippable(&groups, h.num_qubits, order) {
         for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
             for flip_particular in [true, false] {
                 forms.push(StepForm {
@@ -1492,14 +1492,13 @@ fn flip_layouts(
         .collect())
 }
 
-/// Whether the sign-flip step (`synth::flip`) applies to `h`'s formula: a symmetric formula
+/// Whether the sign-flip step (`synth::flip`) applies to the formula over `groups` (the
+/// commuting groups of `formula::term_groups`, on `n` qubits): a symmetric formula
 /// and a Pauli string that anticommutes with every term, or with every term of its inner
 /// groups (`synth::flip::flip_split`).
-fn flippable(h: &PauliSum, order: Order) -> bool {
-    let groups = term_groups(h);
+fn flippable(groups: &[Vec<(PauliString, f64)>], n: usize, order: Order) -> bool {
     let sizes: Vec<usize> = groups.iter().map(|g| g.len()).collect();
-    order != Order::First
-        && crate::synth::flip::flip_split(&groups.concat(), &sizes, h.num_qubits).is_some()
+    order != Order::First && crate::synth::flip::flip_split(&groups.concat(), &sizes, n).is_some()
 }
 
 /// Two-qubit gates a routed (physical, unlowered) step costs once lowered to `dev`'s native
