@@ -214,6 +214,10 @@ pub enum Synthesis {
     /// `synth::Groups`, one greedy Clifford network per commuting run, ascending ladders for
     /// single rotations.
     Groups,
+    /// Each Trotter step by a sign flip (`synth::flip`, [`all_to_all_flip`]): not a synthesis
+    /// of a rotation program but of the step itself, so the pipeline writes it from the
+    /// flipped step's parts; given a program ([`synthesize_all_to_all`]), the chain.
+    Flip,
 }
 
 /// The least success estimate the plain/spread choice takes the logarithm of: estimates below
@@ -283,8 +287,67 @@ pub fn synthesize_all_to_all(
             shared: networks,
         }
         .synthesize(&block, out),
-        Synthesis::Chain => Chain { ladder: &ladder }.synthesize(&block, out),
+        Synthesis::Chain | Synthesis::Flip => Chain { ladder: &ladder }.synthesize(&block, out),
     }
+}
+
+/// Word operations of one GF(2) elimination (`synth::flip`: rows × rank × words per row)
+/// past which the all-to-all target does not look for a sign flip: about a second on one
+/// core (common practice for a search that may find nothing: keep it a small share of the
+/// compile). A 1,000-qubit Ising chain (1,999 terms) needs 1.3 × 10⁸.
+pub const FLIP_MAX_WORK: f64 = 1e9;
+
+/// The sign-flip step (`synth::flip`) of one step of `spec` over `terms`, the formula's
+/// commuting groups of sizes `group_sizes` one after another, controlled by `control` on the
+/// all-to-all target: each commuting block in layers on disjoint qubits (the count is the
+/// same in any order, the depth lower), and the uncontrolled halves either with the hopping
+/// pairs diagonalised together (`synth::Pairs`: no coupling graph makes them cost more than
+/// two ladders) or one network per commuting run (`synth::Groups`), whichever step has fewer
+/// two-qubit gates. `None` for order 1, when no split flips, or past [`FLIP_MAX_WORK`].
+pub fn all_to_all_flip(
+    terms: &[(crate::pauli::PauliString, f64)],
+    group_sizes: &[usize],
+    spec: &Spec,
+    control: crate::circuit::Qubit,
+) -> Option<crate::synth::flip::FlippedParts> {
+    let n = control as usize;
+    let work = terms.len() as f64 * terms.len().min(2 * n) as f64 * (2 * n + 1).div_ceil(64) as f64;
+    if work > FLIP_MAX_WORK {
+        return None;
+    }
+    let dt = spec.dt / spec.steps_per_dt.max(1) as f64;
+    let pairs = crate::synth::has_hopping_pairs(&crate::formula::step(terms, spec.order, dt));
+    let ladder = |r: &Rotation| crate::synth::default_ladder(r);
+    // The halves through ladders (or pairs) and through `synth::Groups`; the step with fewer
+    // two-qubit gates after cancellation is kept (the Ising chain's: 90 either way; random
+    // sums: the networks share the basis changes of a commuting run).
+    let mut best: Option<(usize, crate::synth::flip::FlippedParts)> = None;
+    for groups in [false, true] {
+        let writing = crate::synth::flip::Writing {
+            order: crate::synth::flip::BlockOrder::Layers,
+            pairs: pairs && !groups,
+            groups,
+        };
+        let parts = crate::synth::flip::flipped_step_parts(
+            terms,
+            group_sizes,
+            spec.order,
+            dt,
+            writing,
+            control,
+            &ladder,
+            None,
+            None,
+        )?;
+        let mut one = Circuit::new(n + 1, 0);
+        parts.steps_into(1, &mut one.gates);
+        crate::circuit::cancel::cancel_inverses(&mut one);
+        let two = one.gates.iter().filter(|g| g.is_two_qubit()).count();
+        if best.as_ref().is_none_or(|(b, _)| two < *b) {
+            best = Some((two, parts));
+        }
+    }
+    best.map(|(_, parts)| parts)
 }
 
 /// Why compilation stopped: routing refused the target or failed ([`RouteError`] says whether
@@ -625,6 +688,8 @@ struct Finished {
     costs: Costs,
     final_layout: Vec<u32>,
     fanout: Option<FanOut>,
+    /// All-to-all: the steps are the campaign's sign-flip steps ([`Synthesis::Flip`]).
+    flipped: bool,
 }
 
 /// A circuit's text held back from the [`Sink`] while later circuits of its time point copy
@@ -785,6 +850,26 @@ impl LaterBlocks {
             })
             .collect();
         recipes.push((0..segments).map(|s| (s, 1)).collect());
+        LaterBlocks { blocks, recipes }
+    }
+
+    /// The blocks of sign-flip steps (`synth::flip::FlippedParts`) for points of `steps[j]`
+    /// steps each: `lead` then `middle`, (`merged` then `middle`) repeated, and `trail`.
+    /// Invariant: [`LaterBlocks::stream`] of point `j` is [`Peephole`] fed `prefix` and
+    /// `parts.steps_into(steps[j])`.
+    pub fn flipped(parts: &crate::synth::flip::FlippedParts, steps: &[usize]) -> LaterBlocks {
+        let blocks = vec![
+            [&parts.lead[..], &parts.middle].concat(),
+            [&parts.merged[..], &parts.middle].concat(),
+            parts.trail.clone(),
+        ];
+        let recipes = steps
+            .iter()
+            .map(|&r| match r {
+                0 => Vec::new(),
+                r => vec![(0, 1), (1, r - 1), (2, 1)],
+            })
+            .collect();
         LaterBlocks { blocks, recipes }
     }
 
@@ -1042,11 +1127,24 @@ pub fn compile_into(
     }
     match target {
         Target::AllToAll => {
-            let terms = stage(Stage::Order, || order_terms(h));
+            // The formula's term order (`formula::order_terms`: its commuting groups one
+            // after another) and the sizes of those groups.
+            let (terms, group_sizes) = stage(Stage::Order, || {
+                let groups = crate::formula::term_groups(h);
+                let sizes: Vec<usize> = groups.iter().map(Vec::len).collect();
+                (groups.concat(), sizes)
+            });
             let n = h.num_qubits;
             // The ancilla controls the rotations only in the textbook Hadamard test.
             let control = (spec.control == Control::Evolution && spec.family != Family::Evolution)
                 .then_some(n as crate::circuit::Qubit);
+            // Level 3 also writes each step by a sign flip where one exists (`synth::flip`):
+            // every point repeats the same step, so it is built once.
+            let flip = control.filter(|_| level >= OptLevel(3)).and_then(|c| {
+                stage(Stage::Formula, || {
+                    all_to_all_flip(&terms, &group_sizes, spec, c)
+                })
+            });
             // One rotation program per time point, shared by every circuit at that point; the
             // string ids and commuting runs of the term list are found once for all points.
             let programs: Vec<Vec<Rotation>> = stage(Stage::Formula, || {
@@ -1134,6 +1232,9 @@ pub fn compile_into(
                         if agreeing[k].is_some() {
                             c.push((ProgramOrder::Agreeing, Synthesis::Groups));
                         }
+                    }
+                    if flip.is_some() && k > 0 && spec.steps_per_dt > 0 {
+                        c.push((ProgramOrder::Formula, Synthesis::Flip));
                     }
                 }
                 c
@@ -1264,6 +1365,7 @@ pub fn compile_into(
                     built.most_two_qubit = built.most_two_qubit.max(n.two_qubit);
                     built.finished.push(Finished {
                         fanout: None,
+                        flipped: cands[i].1 == Synthesis::Flip,
                         costs: n.into(),
                         id: f.id,
                         k: f.k,
@@ -1295,7 +1397,7 @@ pub fn compile_into(
                     .map(|&(order, synthesis)| {
                         let program = program_of(order, k);
                         let mut body = Circuit::new(first.num_qubits, first.num_clbits);
-                        let passes = all_to_all_passes(
+                        let mut passes = all_to_all_passes(
                             &first.prefix,
                             program,
                             control,
@@ -1304,6 +1406,15 @@ pub fn compile_into(
                             synthesis,
                             Some(&networks),
                         );
+                        if let (Synthesis::Flip, Some(parts)) = (synthesis, &flip) {
+                            let steps = k * spec.steps_per_dt;
+                            passes[1] = Pass {
+                                name: "flip",
+                                run: Box::new(move |c: &mut Circuit| {
+                                    parts.steps_into(steps, &mut c.gates)
+                                }),
+                            };
+                        }
                         // `prepare` and `synthesize`; the readout and `cancel` follow per
                         // circuit below.
                         stage(Stage::Synthesis, || {
@@ -1391,6 +1502,11 @@ pub fn compile_into(
                             let members: Vec<usize> = (0..class.len())
                                 .filter(|&j| cands[j].contains(&(order, synthesis)))
                                 .collect();
+                            if let (Synthesis::Flip, Some(parts)) = (synthesis, &flip) {
+                                let steps: Vec<usize> =
+                                    members.iter().map(|&j| ks[j] * spec.steps_per_dt).collect();
+                                return Some((members, LaterBlocks::flipped(parts, &steps)));
+                            }
                             let progs: Vec<&[Rotation]> =
                                 members.iter().map(|&j| program_of(order, ks[j])).collect();
                             let synthesize = |p: &[Rotation]| {
@@ -1468,7 +1584,17 @@ pub fn compile_into(
                 done[i] = Some(f);
             }
             let done: Vec<Finished> = done.into_iter().flatten().flatten().collect();
-            Ok(stage(Stage::Finish, || finish(h, source, spec, done, None)))
+            // The flip is recorded when some circuit kept it.
+            let flip =
+                flip.filter(|_| done.iter().any(|f| f.flipped))
+                    .map(|p| crate::plan::FlipInfo {
+                        string: crate::synth::flip::flip_text(&p.q),
+                        controlled_terms: p.controlled_terms,
+                        order: crate::synth::flip::BlockOrder::Layers,
+                    });
+            let mut plan = stage(Stage::Finish, || finish(h, source, spec, done, None));
+            plan.flip = flip;
+            Ok(plan)
         }
         Target::Device { device, config } => {
             let mut config = level.route_config(config);
@@ -1787,6 +1913,7 @@ fn device_circuits(
                 num_clbits: f.num_clbits,
                 costs,
                 final_layout,
+                flipped: false,
             })
         })
         .collect::<Result<Vec<_>, CompileError>>()?;
@@ -1905,6 +2032,7 @@ fn finish(
             sha256: None,
             shots: None,
             fanout: f.fanout,
+            flipped: f.flipped,
         });
     }
     Plan {
@@ -1923,6 +2051,7 @@ fn finish(
         points: spec.points,
         control: spec.control,
         device,
+        flip: None,
         shard: None,
         circuits: entries,
     }
@@ -1934,6 +2063,60 @@ mod tests {
     use crate::formula::Order;
     use crate::pauli::PauliString;
     use proptest::prelude::*;
+
+    #[test]
+    fn flipped_later_points_stream_the_steps_of_the_flip() {
+        // An XXZ chain of 6 sites: its ZZ group stays controlled and its hopping flips
+        // (`synth::flip::flip_split`), so the flipped steps have edges that merge at seams.
+        let mut h = PauliSum::new(6);
+        for q in 0..5 {
+            for (p, c) in [("X", 1.0), ("Y", 1.0), ("Z", 0.6)] {
+                let text = format!("{p}{q} {p}{}", q + 1);
+                h.add(PauliString::parse_factor_text(&text).unwrap(), c);
+            }
+        }
+        let groups = crate::formula::term_groups(&h);
+        let sizes: Vec<usize> = groups.iter().map(Vec::len).collect();
+        let terms = groups.concat();
+        let spec = Spec {
+            family: Family::Overlap,
+            order: Order::Second,
+            dt: 0.3,
+            points: 4,
+            steps_per_dt: 2,
+            states: vec!["010101".into()],
+            control: Control::Evolution,
+        };
+        let parts = all_to_all_flip(&terms, &sizes, &spec, 6).expect("the hopping flips");
+        assert_eq!(parts.controlled_terms, 5);
+        assert!(!parts.merged.is_empty());
+        let steps = [2, 4, 6];
+        let blocks = LaterBlocks::flipped(&parts, &steps);
+        let prefix = [Gate::H(6), Gate::X(1)];
+        let formula = Formula::new(&terms);
+        for (j, &r) in steps.iter().enumerate() {
+            // The stream of point j is the peephole fed the prefix and r flipped steps.
+            let mut gates = prefix.to_vec();
+            parts.steps_into(r, &mut gates);
+            let mut direct = Peephole::new(7, gates.len());
+            for &g in &gates {
+                direct.push(g);
+            }
+            let streamed: Vec<Gate> = blocks.stream(7, &prefix, j).gates().collect();
+            assert_eq!(streamed, direct.gates().collect::<Vec<_>>());
+            // And it is the prefix then the controlled product formula of r steps.
+            let mut want = Circuit::new(7, 0);
+            want.extend(prefix);
+            for rot in formula.evolution_by_step(Order::Second, 0.15, r) {
+                let ladder = crate::synth::default_ladder(&rot);
+                want.extend(crate::synth::pauli_rotation_along(&rot, Some(6), &ladder));
+            }
+            let mut got = Circuit::new(7, 0);
+            got.gates = streamed;
+            let d = crate::sim::unitary_distance(&want, &got);
+            assert!(d < 1e-9, "{r} steps: {d:e}");
+        }
+    }
 
     /// `prefix` then `program` through `synthesis`, cancelled: a body built the direct way.
     fn direct(

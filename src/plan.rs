@@ -112,6 +112,11 @@ pub struct Plan {
     /// (logical qubits, any gate).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub device: Option<DeviceInfo>,
+    /// On the all-to-all target: the sign-flip step (`synth::flip`) through which the
+    /// circuits marked `flipped` control their Trotter steps. Absent: no circuit is flipped
+    /// (on a device the flip is `device.flip_string`, for every circuit).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flip: Option<FlipInfo>,
     /// Present when this plan is one share of a campaign split for a job array
     /// (`compile --shard I/N`): it lists only that share's circuits.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -253,6 +258,22 @@ pub struct DeviceInfo {
     pub search_seed: Option<u64>,
 }
 
+/// The sign-flip step of an all-to-all campaign ([`Plan::flip`]): the same three facts a
+/// device campaign records in `device.flip_string`, `flip_controlled_terms` and `flip_order`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FlipInfo {
+    /// The Pauli string `Q` (factor text, logical qubits) the ancilla controls twice per
+    /// flipped palindrome; it anticommutes with every flipped term.
+    pub string: String,
+    /// How many leading terms (in the formula's order) stay controlled rotation by rotation.
+    /// Absent: 0, every term flips.
+    #[serde(default, skip_serializing_if = "is_zero")]
+    pub controlled_terms: usize,
+    /// The order of each commuting block's rotations. Absent: given.
+    #[serde(default, skip_serializing_if = "is_given")]
+    pub order: crate::synth::flip::BlockOrder,
+}
+
 fn is_given(o: &crate::synth::flip::BlockOrder) -> bool {
     *o == crate::synth::flip::BlockOrder::Given
 }
@@ -337,6 +358,11 @@ pub struct CircuitEntry {
     /// evolution. Absent: the preparation the plan's form implies (`control::Joins`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub fanout: Option<FanOut>,
+    /// On the all-to-all target: the circuit's Trotter steps are the sign-flip steps of
+    /// [`Plan::flip`] (each step written so where that emitted fewer two-qubit gates). Absent:
+    /// false.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub flipped: bool,
 }
 
 /// The controlled preparations of one control-free circuit, as CNOT lists (see
@@ -688,6 +714,13 @@ impl Plan {
                 }
             }
         }
+        if self.flip.is_some() && self.device.is_some() {
+            bad(
+                vec![Key("flip")],
+                "an all-to-all sign flip (`flip`) in a device campaign, which records its flip under `device`".into(),
+                None,
+            );
+        }
         if self.circuits.is_empty() {
             bad(
                 vec![Key("circuits")],
@@ -713,6 +746,16 @@ impl Plan {
                         e.id, e.file
                     ),
                     Some("a plan names files inside its own folder, without a path"),
+                );
+            }
+            if e.flipped && (self.flip.is_none() || self.device.is_some()) {
+                bad(
+                    at_circuit(i, "flipped"),
+                    format!(
+                        "circuit `{}` is marked flipped but the plan records no all-to-all sign flip (`flip`)",
+                        e.id
+                    ),
+                    None,
                 );
             }
             if e.k >= self.points {

@@ -511,15 +511,18 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             n
         );
     } else {
-        let flip = compiled.plan.device.as_ref().and_then(|d| {
-            d.flip_string
+        let flip = match (&compiled.plan.device, &compiled.plan.flip) {
+            (Some(d), _) => d
+                .flip_string
                 .as_deref()
-                .map(|q| (q, d.flip_controlled_terms))
-        });
+                .map(|q| (q, d.flip_controlled_terms)),
+            (None, f) => f.as_ref().map(|f| (f.string.as_str(), f.controlled_terms)),
+        };
         let weighed = device
             .as_ref()
             .is_some_and(crate::route::weighs_calibration);
         text += &control_line(control, why_not_prep.as_ref(), flip, weighed);
+        text += &flip_share_line(&compiled.plan);
         text += &spread_line(&compiled.plan);
         text += &format!(
             "\n{} circuits written to {} ({} qubits + 1 ancilla; constant term {} kept for estimation).\n",
@@ -665,6 +668,21 @@ fn control_line(
         (Control::Evolution, Some(e)) => format!("Control: evolution ({how}; prep does not apply: {e}).\n"),
         (Control::Evolution, None) => format!("Control: evolution ({how}).\n"),
     }
+}
+
+/// On the all-to-all target, where the sign flip was kept for some circuits with a Trotter
+/// step but not all (each circuit keeps what emits fewer two-qubit gates with its readout),
+/// the line that says how many; empty otherwise.
+fn flip_share_line(plan: &Plan) -> String {
+    if plan.flip.is_none() {
+        return String::new();
+    }
+    let stepped = plan.circuits.iter().filter(|c| c.k > 0).count();
+    let flipped = plan.circuits.iter().filter(|c| c.flipped).count();
+    if flipped == stepped {
+        return String::new();
+    }
+    format!("Sign flip: kept in {flipped} of the {stepped} circuits with a Trotter step; the others control every rotation.\n")
 }
 
 /// With `--tries N` (N > 1), the line that says which seed's search built the files and how

@@ -1367,14 +1367,26 @@ fn plan_on_step(
     // 0.80 of the two-qubit count → 0.60), but where SWAPs are needed either order may route
     // cheaper. Layers go first, so they win ties (ties keep the earlier candidate).
     if cfg.pairs && !cfg.textbook && controls && small && flippable(&groups, h.num_qubits, order) {
+        // The halves through `synth::Pairs` compete too where the terms hold hopping pairs
+        // (XXZ on the brick wall: 240 two-qubit gates with ladders, 220 with pairs), and
+        // one ladder per rotation stays (Hubbard 2×3 on a line of 13: 585 with ladders,
+        // 699 with pairs, whose strings route worse).
+        let pairings: &[bool] = if has_pairs() {
+            &[false, true]
+        } else {
+            &[false]
+        };
         for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
             for flip_particular in [true, false] {
-                forms.push(StepForm {
-                    flip: true,
-                    flip_order,
-                    flip_particular,
-                    ..form
-                });
+                for &pairs in pairings {
+                    forms.push(StepForm {
+                        flip: true,
+                        flip_order,
+                        flip_particular,
+                        pairs,
+                        ..form
+                    });
+                }
             }
         }
     }

@@ -359,7 +359,11 @@ fn flipped(
         &plan.group_sizes,
         order,
         dt,
-        plan.step_form.flip_order,
+        crate::synth::flip::Writing {
+            order: plan.step_form.flip_order,
+            pairs: plan.step_form.pairs,
+            groups: false,
+        },
         control,
         &ladder,
         distance

@@ -66,6 +66,30 @@ pub enum BlockOrder {
     Layers,
 }
 
+/// How a flipped step writes its uncontrolled halves: each commuting block's rotations in
+/// `order`, and with `pairs` each half through `synth::Pairs` (hopping pairs such as an XXZ
+/// bond's `XX`, `YY` or a Jordan–Wigner hopping term's two halves diagonalised together: 2
+/// CNOTs per bond instead of 4), with `groups` through `synth::Groups` (one Clifford network
+/// per commuting run, on the all-to-all target), else one ladder per rotation. Every choice
+/// gives the same operator; which one routes cheaper on a device is the layout search's to
+/// find.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct Writing {
+    pub order: BlockOrder,
+    pub pairs: bool,
+    pub groups: bool,
+}
+
+impl From<BlockOrder> for Writing {
+    fn from(order: BlockOrder) -> Writing {
+        Writing {
+            order,
+            pairs: false,
+            groups: false,
+        }
+    }
+}
+
 /// A Pauli string as `(qubit, letter)` pairs, ascending, no identity letters.
 pub type FlipString = Vec<(Qubit, Pauli)>;
 
@@ -457,6 +481,28 @@ pub struct FlippedParts {
     pub merged: Vec<Gate>,
     /// The string `Q` the control meets twice per flipped palindrome.
     pub q: FlipString,
+    /// How many leading terms stay controlled rotation by rotation (0 for a whole flip).
+    pub controlled_terms: usize,
+}
+
+impl FlippedParts {
+    /// The controlled product of `steps` steps: `lead`, `middle`, then (`merged`, `middle`)
+    /// per further step, and `trail`; without a controlled group, `middle` `steps` times.
+    /// Each step is the controlled step on the control's |1⟩ branch and the identity on |0⟩,
+    /// so their product is the controlled `steps`-fold step; a seam's `merged` equals
+    /// `trail` then `lead` (the same commuting rotations at the sum of their angles).
+    pub fn steps_into(&self, steps: usize, out: &mut Vec<Gate>) {
+        if steps == 0 {
+            return;
+        }
+        out.extend_from_slice(&self.lead);
+        out.extend_from_slice(&self.middle);
+        for _ in 1..steps {
+            out.extend_from_slice(&self.merged);
+            out.extend_from_slice(&self.middle);
+        }
+        out.extend_from_slice(&self.trail);
+    }
 }
 
 /// The controlled step `CQ · H⁻¹ · CQ · H_rev` (see the module essay) of one step of `order`
@@ -466,16 +512,16 @@ pub struct FlippedParts {
 /// not cover the terms, or [`flip_split`] finds no split. The |1⟩ branch runs
 /// `H · H_rev`, which is `formula::step(terms, order, dt)` as an operator (the same factors,
 /// the merges it makes aside), for any order of the terms inside their groups. Each block's
-/// rotations are written in `block_order`. [`flipped_step_parts`] in one piece.
+/// rotations are written as `writing` says. [`flipped_step_parts`] in one piece.
 #[allow(clippy::too_many_arguments)]
 pub fn flipped_step(
     terms: &[(PauliString, f64)],
     group_sizes: &[usize],
     order: Order,
     dt: f64,
-    block_order: BlockOrder,
+    writing: Writing,
     control: Qubit,
-    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
 ) -> Option<(Vec<Gate>, FlipString)> {
     let p = flipped_step_parts(
@@ -483,7 +529,7 @@ pub fn flipped_step(
         group_sizes,
         order,
         dt,
-        block_order,
+        writing,
         control,
         ladder,
         distance,
@@ -513,9 +559,9 @@ pub fn flipped_step_parts(
     group_sizes: &[usize],
     order: Order,
     dt: f64,
-    block_order: BlockOrder,
+    writing: Writing,
     control: Qubit,
-    ladder: &dyn Fn(&Rotation) -> Vec<Qubit>,
+    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
     given: Option<&FlipString>,
 ) -> Option<FlippedParts> {
@@ -559,7 +605,7 @@ pub fn flipped_step_parts(
                 theta: sign * c * x * dt,
             })
             .collect();
-        match block_order {
+        match writing.order {
             BlockOrder::Given => rs,
             BlockOrder::Layers => layered(rs),
         }
@@ -567,19 +613,50 @@ pub fn flipped_step_parts(
     let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
     let (tree, root) = parity_tree(&support, control, distance);
     // One flipped palindrome whose first half is `half` (blocks of the groups past `outer`).
+    let uncontrolled = |rs: Vec<Rotation>, out: &mut Vec<Gate>| {
+        if writing.groups {
+            let block = super::Block {
+                rotations: &rs,
+                control: None,
+                distance,
+            };
+            let groups = super::groups::Groups {
+                ladder,
+                shared: None,
+            };
+            super::Strategy::synthesize(&groups, &block, out);
+            return;
+        }
+        if !writing.pairs {
+            for r in &rs {
+                super::pauli_rotation_along_into(r, None, &ladder(r), out);
+            }
+            return;
+        }
+        super::Strategy::synthesize(
+            &super::Pairs { ladder },
+            &super::Block {
+                rotations: &rs,
+                control: None,
+                distance,
+            },
+            out,
+        );
+    };
     let flip = |half: &[(usize, f64)], out: &mut Vec<Gate>| {
         controlled_string(&q, control, &tree, root, out);
-        for &(g, x) in half {
-            for r in rotations((g + outer, x), -1.0) {
-                super::pauli_rotation_along_into(&r, None, &ladder(&r), out);
-            }
-        }
+        let back: Vec<Rotation> = half
+            .iter()
+            .flat_map(|&(g, x)| rotations((g + outer, x), -1.0))
+            .collect();
+        uncontrolled(back, out);
         controlled_string(&q, control, &tree, root, out);
-        for &(g, x) in half.iter().rev() {
-            for r in rotations((g + outer, x), 1.0) {
-                super::pauli_rotation_along_into(&r, None, &ladder(&r), out);
-            }
-        }
+        let forth: Vec<Rotation> = half
+            .iter()
+            .rev()
+            .flat_map(|&(g, x)| rotations((g + outer, x), 1.0))
+            .collect();
+        uncontrolled(forth, out);
     };
     let controlled = |g: usize, x: f64, out: &mut Vec<Gate>| {
         for r in rotations((g, x), 1.0) {
@@ -592,6 +669,7 @@ pub fn flipped_step_parts(
         trail: Vec::new(),
         merged: Vec::new(),
         q: q.clone(),
+        controlled_terms: group_sizes[..outer].iter().sum(),
     };
     if outer == 0 {
         flip(&half_blocks(group_sizes.len(), order)?, &mut parts.middle);
@@ -795,16 +873,27 @@ mod tests {
                 let reference = controlled_reference(&program, n);
                 let line = |a: Qubit, b: Qubit| a.abs_diff(b);
                 let distances = [None, Some(&line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync))];
-                for (distance, block_order) in distances
+                let writings = [BlockOrder::Given, BlockOrder::Layers]
                     .into_iter()
-                    .flat_map(|d| [BlockOrder::Given, BlockOrder::Layers].map(|o| (d, o)))
+                    .flat_map(|order| {
+                        [(false, false), (true, false), (false, true)].map(|(pairs, groups)| {
+                            Writing {
+                                order,
+                                pairs,
+                                groups,
+                            }
+                        })
+                    });
+                for (distance, writing) in distances
+                    .into_iter()
+                    .flat_map(|d| writings.clone().map(move |w| (d, w)))
                 {
                     let Some((gates, q)) = flipped_step(
                         &terms,
                         &sizes,
                         order,
                         0.37,
-                        block_order,
+                        writing,
                         n as Qubit,
                         &crate::synth::default_ladder,
                         distance,
@@ -851,8 +940,17 @@ mod tests {
         let (terms, sizes) = grouped(&h);
         let line = |a: Qubit, b: Qubit| a.abs_diff(b);
         let ladder = &crate::synth::default_ladder;
-        let flip = |order, block_order, distance| {
-            flipped_step(&terms, &sizes, order, 0.1, block_order, 6, ladder, distance)
+        let flip = |order, block_order: BlockOrder, distance| {
+            flipped_step(
+                &terms,
+                &sizes,
+                order,
+                0.1,
+                block_order.into(),
+                6,
+                ladder,
+                distance,
+            )
         };
         let line = &line as &(dyn Fn(Qubit, Qubit) -> u32 + Sync);
         let (gates, _) =
@@ -902,7 +1000,7 @@ mod tests {
             &sizes,
             Order::Second,
             0.3,
-            BlockOrder::Given,
+            BlockOrder::Given.into(),
             6,
             ladder,
             None,
@@ -916,6 +1014,21 @@ mod tests {
         // controlled rz apiece) and the two controlled copies of Q (1 cz each): 2·5·2 + 2.
         let on_control = gates.iter().filter(|g| g.qubits().contains(&6)).count();
         assert_eq!(on_control, 22);
+        // The halves through `synth::Pairs`: each bond's XX and YY together cost 2 CNOTs
+        // where two ladders cost 4 (van den Berg & Temme 2020, as `synth::Pairs` cites):
+        // 5 bonds in each of the two halves, 20 fewer, and the same operator.
+        let paired = Writing {
+            order: BlockOrder::Given,
+            pairs: true,
+            groups: false,
+        };
+        let (fewer, _) = flipped_step(&terms, &sizes, Order::Second, 0.3, paired, 6, ladder, None)
+            .expect("Strang flips");
+        let two = |g: &[Gate]| g.iter().filter(|g| g.is_two_qubit()).count();
+        assert_eq!(two(&gates) - two(&fewer), 20);
+        let mut c = Circuit::new(7, 0);
+        c.extend(fewer.iter().copied());
+        assert!(unitary_distance(&reference, &c) < 1e-12);
         // Suzuki's step: each of its five Strang stages flips its hopping inside controlled
         // ZZ halves, neighbouring halves merged (6 controlled ZZ layers, 10 copies of Q).
         let flip4 = flipped_step(
@@ -923,7 +1036,7 @@ mod tests {
             &sizes,
             Order::Fourth,
             0.3,
-            BlockOrder::Given,
+            BlockOrder::Given.into(),
             6,
             ladder,
             None,
@@ -941,7 +1054,7 @@ mod tests {
             &sizes,
             Order::Second,
             0.3,
-            BlockOrder::Given,
+            BlockOrder::Given.into(),
             6,
             ladder,
             None,
@@ -962,6 +1075,21 @@ mod tests {
         let mut two = Circuit::new(7, 0);
         two.extend(parts.trail.iter().chain(&parts.lead).copied());
         assert!(unitary_distance(&seam, &two) < 1e-12);
+        assert_eq!(parts.controlled_terms, 5);
+        // Three steps with merged seams are the controlled product of three steps, and the
+        // seams save the control two ZZ layers each: 3 · 22 − 2 · 10 meetings.
+        let mut three = Vec::new();
+        parts.steps_into(3, &mut three);
+        let mut c = Circuit::new(7, 0);
+        c.extend(three.iter().copied());
+        let program: Vec<Rotation> = (0..3)
+            .flat_map(|_| step(&terms, Order::Second, 0.3))
+            .collect();
+        assert!(unitary_distance(&controlled_reference(&program, 6), &c) < 1e-12);
+        assert_eq!(meets(&three), 3 * 22 - 2 * 10);
+        let mut none = Vec::new();
+        parts.steps_into(0, &mut none);
+        assert!(none.is_empty());
         // The hopping alone would not be worth a flip were it less than half the terms.
         let mut mostly_zz = h.clone();
         for i in 0..6 {

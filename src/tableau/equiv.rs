@@ -71,6 +71,10 @@ pub struct Claim {
     flip_controlled: usize,
     /// The plan's `device.flip_order`: how the flipped steps write each block.
     flip_order: crate::synth::flip::BlockOrder,
+    /// The flip is the device's (every circuit, each step routed once and reused with its
+    /// mirror image alternately) rather than the all-to-all `flip` (only the circuits marked
+    /// `flipped`, every step written alike).
+    flip_every: bool,
     group_sizes: Vec<usize>,
 }
 
@@ -326,13 +330,19 @@ impl Claim {
             device,
             zero_inputs,
             control: plan.control,
-            flip: plan.device.as_ref().and_then(|d| d.flip_string.clone()),
-            flip_controlled: plan.device.as_ref().map_or(0, |d| d.flip_controlled_terms),
-            flip_order: plan
-                .device
-                .as_ref()
-                .map(|d| d.flip_order)
-                .unwrap_or_default(),
+            flip: match (&plan.device, &plan.flip) {
+                (Some(d), _) => d.flip_string.clone(),
+                (None, f) => f.as_ref().map(|f| f.string.clone()),
+            },
+            flip_controlled: match (&plan.device, &plan.flip) {
+                (Some(d), _) => d.flip_controlled_terms,
+                (None, f) => f.as_ref().map_or(0, |f| f.controlled_terms),
+            },
+            flip_order: match (&plan.device, &plan.flip) {
+                (Some(d), _) => d.flip_order,
+                (None, f) => f.as_ref().map(|f| f.order).unwrap_or_default(),
+            },
+            flip_every: plan.device.is_some(),
             group_sizes: crate::formula::term_groups(&h)
                 .iter()
                 .map(|g| g.len())
@@ -408,9 +418,11 @@ impl Claim {
         let part = e
             .part
             .ok_or_else(|| ClaimError::NotHadamardTest { id: e.id.clone() })?;
-        if let (Control::Evolution, Some(text)) = (self.control, &self.flip) {
-            // A sign-flip step (`synth::flip`), routed once and reused as the step and its
-            // mirror image alternately (`route::reuse`).
+        let flipped = self.flip_every || e.flipped;
+        if let (Control::Evolution, Some(text), true) = (self.control, &self.flip, flipped) {
+            // A sign-flip step (`synth::flip`): on a device routed once and reused as the step
+            // and its mirror image alternately (`route::reuse`), on the all-to-all target
+            // written alike every step.
             let n = self.n;
             let dt = self.dt / self.steps_per_dt.max(1) as f64;
             // The recorded string, checked to anticommute with every flipped term (the
@@ -430,7 +442,7 @@ impl Claim {
                         &self.group_sizes,
                         self.order,
                         dt,
-                        self.flip_order,
+                        self.flip_order.into(),
                         n as Qubit,
                         &ladder,
                         None,
@@ -441,7 +453,11 @@ impl Claim {
                 .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
             let mut step = Circuit::new(n + 1, 0);
             step.extend(gates);
-            let back = crate::route::reuse::mirror(&step);
+            let back = if self.flip_every {
+                crate::route::reuse::mirror(&step)
+            } else {
+                step.clone()
+            };
             let nbits = if basis.is_some() { n + 1 } else { 1 };
             let mut c = Circuit::new(n + 1, nbits);
             c.extend(crate::family::hadamard_prefix(n, &state.prep()));

@@ -206,6 +206,7 @@ fn entry(id: String, k: usize, dt: f64, part: Part, state: usize, nq: usize) -> 
         sha256: None,
         shots: None,
         fanout: None,
+        flipped: false,
     }
 }
 
@@ -359,6 +360,7 @@ pub fn campaign_formula(
         points,
         control: phasewright::family::control::Control::Evolution,
         device: None,
+        flip: None,
         shard: None,
         circuits: circuits.iter().map(|c| c.entry.clone()).collect(),
     };

@@ -190,6 +190,7 @@ pub(crate) mod tests {
             sha256: None,
             shots: None,
             fanout: None,
+            flipped: false,
         };
         Plan {
             format: PLAN_FORMAT.into(),
@@ -216,6 +217,7 @@ pub(crate) mod tests {
             points: 2,
             control: crate::family::control::Control::Evolution,
             device: None,
+            flip: None,
             shard: None,
             circuits: vec![circuit("k1_re", 1, Part::Re), circuit("k1_im", 1, Part::Im)],
         }
