@@ -441,25 +441,40 @@ pub fn flip_split_near(
     if group_sizes.iter().sum::<usize>() != terms.len() || group_sizes.contains(&0) {
         return None;
     }
-    let mut at = 0;
-    for (k, &size) in group_sizes.iter().enumerate() {
-        let inner = terms.len() - at;
-        if (inner as f64) < PARTIAL_MIN_SHARE * terms.len() as f64 {
-            return None;
-        }
-        let strings: Vec<PauliString> = terms[at..]
+    // `starts[k]`: the first term past the first k groups; the admissible splits leave at
+    // least the share flipped.
+    let mut starts = vec![0usize];
+    for &size in group_sizes {
+        starts.push(starts.last().expect("non-empty") + size);
+    }
+    let admissible = (0..group_sizes.len())
+        .take_while(|&k| (terms.len() - starts[k]) as f64 >= PARTIAL_MIN_SHARE * terms.len() as f64)
+        .count();
+    let solve = |k: usize| {
+        let strings: Vec<PauliString> = terms[starts[k]..]
             .iter()
             .filter(|(_, c)| *c != 0.0)
             .map(|(p, _)| p.clone())
             .collect();
-        if let Some(q) =
-            nearest_flip_string(&strings, n, control, distance).filter(|q| !q.is_empty())
-        {
-            return Some((k, q));
+        nearest_flip_string(&strings, n, control, distance).filter(|q| !q.is_empty())
+    };
+    // A split flips when its suffix's system is solvable, and a later split's suffix is a
+    // subset of an earlier one's equations: solvable splits are a tail of `0..admissible`, so
+    // a binary search finds the first in `O(log m)` eliminations, where trying every split
+    // from 0 cost one per group (about 50 on a random sum of 10⁵ strings in 100 groups).
+    let (mut lo, mut hi) = (0, admissible);
+    let mut found: Option<(usize, FlipString)> = None;
+    while lo < hi {
+        let mid = (lo + hi) / 2;
+        match solve(mid) {
+            Some(q) => {
+                found = Some((mid, q));
+                hi = mid;
+            }
+            None => lo = mid + 1,
         }
-        at += size;
     }
-    None
+    found
 }
 
 /// Least share of a step's terms that a partial flip ([`flip_split`] with `k > 0`) must
