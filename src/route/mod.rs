@@ -464,9 +464,11 @@ pub struct StepForm {
     /// rotation); the step is then not split at seams.
     pub sweep: bool,
     /// Hopping pairs synthesised together (`synth::Pairs`), the rest as the plan's ladders.
+    /// With `flip`: the flipped step's uncontrolled halves written so.
     pub pairs: bool,
     /// One greedy Clifford network per commuting run (`synth::Groups`, distance-aware under
-    /// the plan's initial layout), single rotations as the plan's ladders.
+    /// the plan's initial layout), single rotations as the plan's ladders. With `flip`: the
+    /// flipped step's uncontrolled halves written so.
     pub groups: bool,
     /// With `groups`: the networks restricted to coupled pairs of the plan's initial layout
     /// and each string reduced next to the ancilla (`synth::Coupled`), so the router inserts
@@ -1369,21 +1371,26 @@ fn plan_on_step(
     if cfg.pairs && !cfg.textbook && controls && small && flippable(&groups, h.num_qubits, order) {
         // The halves through `synth::Pairs` compete too where the terms hold hopping pairs
         // (XXZ on the brick wall: 240 two-qubit gates with ladders, 220 with pairs), and
-        // one ladder per rotation stays (Hubbard 2×3 on a line of 13: 585 with ladders,
-        // 699 with pairs, whose strings route worse).
-        let pairings: &[bool] = if has_pairs() {
-            &[false, true]
-        } else {
-            &[false]
-        };
+        // through `synth::Groups` where commuting runs share qubits (one distance-aware
+        // network per run: Hubbard 2×3 on a 4×4 grid 507 → 423, XXZ on the heavy hexagon
+        // 226 → 214); one ladder per rotation stays (Hubbard 2×3 on a line of 13: 585 with
+        // ladders, 699 with pairs, whose strings route worse).
+        let mut pairings: Vec<(bool, bool)> = vec![(false, false)];
+        if has_pairs() {
+            pairings.push((true, false));
+        }
+        if has_runs() {
+            pairings.push((false, true));
+        }
         for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
             for flip_particular in [true, false] {
-                for &pairs in pairings {
+                for &(pairs, groups) in &pairings {
                     forms.push(StepForm {
                         flip: true,
                         flip_order,
                         flip_particular,
                         pairs,
+                        groups,
                         ..form
                     });
                 }

@@ -362,7 +362,7 @@ fn flipped(
         crate::synth::flip::Writing {
             order: plan.step_form.flip_order,
             pairs: plan.step_form.pairs,
-            groups: false,
+            groups: plan.step_form.groups,
         },
         control,
         &ladder,
