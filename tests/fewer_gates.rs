@@ -880,6 +880,44 @@ fn assert_within_lattice_target(h: &PauliSum, dev: &Device, best: &Compiled) {
     );
 }
 
+/// Plans `h` at level 3 on a 4×4 grid and checks that the search keeps the sign flip with its
+/// uncontrolled halves written as the `StepForm` flag `writing` names (`pairs` or `groups`),
+/// and that the same step with one ladder per flipped rotation (the flag off) has more
+/// two-qubit gates before routing. Returns the grid.
+fn assert_flip_halves_pay_on_a_grid(
+    h: &PauliSum,
+    writing: fn(&mut phasewright::route::StepForm) -> &mut bool,
+) -> Device {
+    let dev = plain_device("grid", 16, &lattice::grid(4, 4));
+    let cfg = OptLevel::new(3)
+        .unwrap()
+        .route_config(&RouteConfig::default());
+    let mut plan = plan_target(h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
+    assert!(
+        plan.step_form.flip && *writing(&mut plan.step_form),
+        "{:?}",
+        plan.step_form
+    );
+    let mut ladders = plan.clone();
+    *writing(&mut ladders.step_form) = false;
+    let two = |p: &TargetPlan| {
+        let parts = step_parts_on(&p.terms(h), p, Order::Second, 0.1, None);
+        parts
+            .circuit
+            .gates
+            .iter()
+            .filter(|g| g.is_two_qubit())
+            .count()
+    };
+    assert!(
+        two(&plan) < two(&ladders),
+        "{} against {}",
+        two(&plan),
+        two(&ladders)
+    );
+    dev
+}
+
 #[test]
 fn an_xxz_step_flips_its_hopping_bonds_in_pairs() {
     // The XXZ chain's hopping flips inside controlled ZZ rotations (`synth::flip::flip_split`,
@@ -894,34 +932,7 @@ fn an_xxz_step_flips_its_hopping_bonds_in_pairs() {
         h.add(zz(q, q + 1, Pauli::Y), 1.0);
         h.add(zz(q, q + 1, Pauli::Z), 0.6);
     }
-    let dev = plain_device("grid", 16, &lattice::grid(4, 4));
-    let cfg = OptLevel::new(3)
-        .unwrap()
-        .route_config(&RouteConfig::default());
-    let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
-    assert!(
-        plan.step_form.flip && plan.step_form.pairs,
-        "{:?}",
-        plan.step_form
-    );
-    // The same step with one ladder per flipped rotation costs more before routing.
-    let mut ladders = plan.clone();
-    ladders.step_form.pairs = false;
-    let two = |p: &TargetPlan| {
-        let parts = step_parts_on(&p.terms(&h), p, Order::Second, 0.1, None);
-        parts
-            .circuit
-            .gates
-            .iter()
-            .filter(|g| g.is_two_qubit())
-            .count()
-    };
-    assert!(
-        two(&plan) < two(&ladders),
-        "{} against {}",
-        two(&plan),
-        two(&ladders)
-    );
+    let dev = assert_flip_halves_pay_on_a_grid(&h, |f| &mut f.pairs);
     let spec = controlled_overlap("01".repeat(6), 0.1, 3);
     let best = compile(&h, &spec, Some(&dev), 3);
     let device = best.plan.device.as_ref().unwrap();
@@ -1111,34 +1122,7 @@ fn a_hubbard_step_on_a_grid_flips_through_one_network_per_run() {
     // step against 507 with one ladder per rotation, and 1.79 × its all-to-all 236, within
     // the routed target of 1.8).
     let h = hubbard_2x3(1.0, 4.0);
-    let dev = plain_device("grid", 16, &lattice::grid(4, 4));
-    let cfg = OptLevel::new(3)
-        .unwrap()
-        .route_config(&RouteConfig::default());
-    let plan = plan_target(&h, phasewright::route::Ancilla::Controls, &dev, &cfg).unwrap();
-    assert!(
-        plan.step_form.flip && plan.step_form.groups,
-        "{:?}",
-        plan.step_form
-    );
-    // The same step with one ladder per flipped rotation costs more before routing.
-    let mut ladders = plan.clone();
-    ladders.step_form.groups = false;
-    let two = |p: &TargetPlan| {
-        let parts = step_parts_on(&p.terms(&h), p, Order::Second, 0.1, None);
-        parts
-            .circuit
-            .gates
-            .iter()
-            .filter(|g| g.is_two_qubit())
-            .count()
-    };
-    assert!(
-        two(&plan) < two(&ladders),
-        "{} against {}",
-        two(&plan),
-        two(&ladders)
-    );
+    let dev = assert_flip_halves_pay_on_a_grid(&h, |f| &mut f.groups);
     // A two-point campaign: simulated exact to 1e-9 and proved file by file.
     let spec = controlled_overlap("011010011010".into(), 0.1, 2);
     let best = compile(&h, &spec, Some(&dev), 3);
