@@ -550,9 +550,8 @@ pub fn flipped_step(
         distance,
         None,
     )?;
-    let mut out = p.lead;
-    out.extend(p.middle);
-    out.extend(p.trail);
+    let mut out = Vec::new();
+    p.steps_into(1, &mut out);
     Some((out, p.q))
 }
 

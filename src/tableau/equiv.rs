@@ -449,7 +449,11 @@ impl Claim {
                         Some(q),
                     )
                 })
-                .map(|p| [p.lead, p.middle, p.trail].concat())
+                .map(|p| {
+                    let mut gates = Vec::new();
+                    p.steps_into(1, &mut gates);
+                    gates
+                })
                 .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
             let mut step = Circuit::new(n + 1, 0);
             step.extend(gates);
