@@ -302,8 +302,10 @@ pub const FLIP_MAX_WORK: f64 = 1e9;
 /// all-to-all target: each commuting block in layers on disjoint qubits (the count is the
 /// same in any order, the depth lower), and the uncontrolled halves either with the hopping
 /// pairs diagonalised together (`synth::Pairs`: no coupling graph makes them cost more than
-/// two ladders) or one network per commuting run (`synth::Groups`), whichever step has fewer
-/// two-qubit gates. `None` for order 1, when no split flips, or past [`FLIP_MAX_WORK`].
+/// two ladders) or one network per commuting run (`synth::Groups`); the split's flip
+/// (`synth::flip::Choice::Search`, where one exists) or the signed step with the greedy
+/// string or none (`Choice::Signed`), whichever form has fewer two-qubit gates over one and
+/// two steps. `None` for order 1 or past [`FLIP_MAX_WORK`].
 pub fn all_to_all_flip(
     terms: &[(crate::pauli::PauliString, f64)],
     group_sizes: &[usize],
@@ -318,17 +320,26 @@ pub fn all_to_all_flip(
     let dt = spec.dt / spec.steps_per_dt.max(1) as f64;
     let pairs = crate::synth::has_hopping_pairs(&crate::formula::step(terms, spec.order, dt));
     let ladder = |r: &Rotation| crate::synth::default_ladder(r);
-    // The halves through ladders (or pairs) and through `synth::Groups`; the step with fewer
+    // The halves through ladders (or pairs) and through `synth::Groups`; the form with fewer
     // two-qubit gates after cancellation is kept (the Ising chain's: 90 either way; random
     // sums: the networks share the basis changes of a commuting run).
+    // Beside the split's flip, the signed step (`synth::flip::Choice::Signed`) with the
+    // greedy string and with none: it exists for every symmetric formula.
+    let greedy = crate::synth::flip::signed_string(terms, n, control, None);
+    let none = crate::synth::flip::FlipString::new();
+    let mut choices = vec![crate::synth::flip::Choice::Search];
+    if !greedy.is_empty() {
+        choices.push(crate::synth::flip::Choice::Signed(&greedy));
+    }
+    choices.push(crate::synth::flip::Choice::Signed(&none));
     let mut best: Option<(usize, crate::synth::flip::FlippedParts)> = None;
-    for groups in [false, true] {
+    for (choice, groups) in choices.iter().flat_map(|&c| [false, true].map(|g| (c, g))) {
         let writing = crate::synth::flip::Writing {
             order: crate::synth::flip::BlockOrder::Layers,
             pairs: pairs && !groups,
             groups,
         };
-        let parts = crate::synth::flip::flipped_step_parts(
+        let Some(parts) = crate::synth::flip::flipped_step_parts(
             terms,
             group_sizes,
             spec.order,
@@ -337,12 +348,21 @@ pub fn all_to_all_flip(
             control,
             &ladder,
             None,
-            None,
-        )?;
-        let mut one = Circuit::new(n + 1, 0);
-        parts.steps_into(1, &mut one.gates);
-        crate::circuit::cancel::cancel_inverses(&mut one);
-        let two = one.gates.iter().filter(|g| g.is_two_qubit()).count();
+            choice,
+        ) else {
+            continue;
+        };
+        // Scored over one step and two (where seams merge: a split's controlled edges, a
+        // signed step's halves meeting their mirror image's).
+        let two: usize = [1, 2]
+            .into_iter()
+            .map(|steps| {
+                let mut c = Circuit::new(n + 1, 0);
+                parts.steps_into(steps, &mut c.gates);
+                crate::circuit::cancel::cancel_inverses(&mut c);
+                c.gates.iter().filter(|g| g.is_two_qubit()).count()
+            })
+            .sum();
         if best.as_ref().is_none_or(|(b, _)| two < *b) {
             best = Some((two, parts));
         }
@@ -858,6 +878,18 @@ impl LaterBlocks {
     /// Invariant: [`LaterBlocks::stream`] of point `j` is [`Peephole`] fed `prefix` and
     /// `parts.steps_into(steps[j])`.
     pub fn flipped(parts: &crate::synth::flip::FlippedParts, steps: &[usize]) -> LaterBlocks {
+        if !parts.mirrored.is_empty() {
+            // A signed step and its mirror image alternately: pairs of them, and one more.
+            let blocks = vec![
+                [&parts.middle[..], &parts.mirrored].concat(),
+                parts.middle.clone(),
+            ];
+            let recipes = steps
+                .iter()
+                .map(|&r| vec![(0, r / 2), (1, r % 2)])
+                .collect();
+            return LaterBlocks { blocks, recipes };
+        }
         let blocks = vec![
             [&parts.lead[..], &parts.middle].concat(),
             [&parts.merged[..], &parts.middle].concat(),
@@ -1591,6 +1623,7 @@ pub fn compile_into(
                         string: crate::synth::flip::flip_text(&p.q),
                         controlled_terms: p.controlled_terms,
                         order: crate::synth::flip::BlockOrder::Layers,
+                        signed: p.signed,
                     });
             let mut plan = stage(Stage::Finish, || finish(h, source, spec, done, None));
             plan.flip = flip;
@@ -1822,9 +1855,8 @@ fn device_circuits(
         copy_placement: tp.initial_layout[placed..].to_vec(),
         spare_qubits: tp.spread,
         flip_string: flip.as_ref().map(|(_, q)| crate::synth::flip::flip_text(q)),
-        flip_controlled_terms: flip
-            .as_ref()
-            .map_or(0, |&(k, _)| tp.group_sizes[..k].iter().sum()),
+        flip_controlled_terms: flip.as_ref().map_or(0, |&(k, _)| k),
+        flip_signed: flip.is_some() && tp.step_form.flip_signed,
         flip_order: if tp.step_form.flip {
             tp.step_form.flip_order
         } else {
@@ -2087,13 +2119,44 @@ mod tests {
             states: vec!["010101".into()],
             control: Control::Evolution,
         };
-        let parts = all_to_all_flip(&terms, &sizes, &spec, 6).expect("the hopping flips");
-        assert_eq!(parts.controlled_terms, 5);
-        assert!(!parts.merged.is_empty());
-        let steps = [2, 4, 6];
-        let blocks = LaterBlocks::flipped(&parts, &steps);
+        // The split's flip, and the form the all-to-all target keeps: the signed step, whose
+        // 5 ZZ bonds commute with `Q` and ride on the control's sign, alternating with its
+        // mirror image.
+        let split = crate::synth::flip::flipped_step_parts(
+            &terms,
+            &sizes,
+            Order::Second,
+            0.15,
+            crate::synth::flip::BlockOrder::Layers.into(),
+            6,
+            &crate::synth::default_ladder,
+            None,
+            crate::synth::flip::Choice::Search,
+        )
+        .expect("the hopping flips");
+        assert_eq!(split.controlled_terms, 5);
+        assert!(!split.merged.is_empty() && !split.signed);
+        let kept = all_to_all_flip(&terms, &sizes, &spec, 6).expect("a symmetric step signs");
+        assert!(kept.signed && !kept.mirrored.is_empty());
+        assert_eq!(kept.controlled_terms, 5);
+        let steps = [2, 4, 6, 1, 3];
         let prefix = [Gate::H(6), Gate::X(1)];
         let formula = Formula::new(&terms);
+        for parts in [&split, &kept] {
+            check_flipped_stream(parts, &steps, &prefix, &formula);
+        }
+    }
+
+    /// [`LaterBlocks::flipped`] streams exactly the peephole of `prefix` and
+    /// `parts.steps_into(r)`, and that is the prefix then the controlled product formula of
+    /// `r` Strang steps of 0.15 over `formula`'s terms on 6 qubits (control 6), to 1e-9.
+    fn check_flipped_stream(
+        parts: &crate::synth::flip::FlippedParts,
+        steps: &[usize],
+        prefix: &[Gate],
+        formula: &Formula,
+    ) {
+        let blocks = LaterBlocks::flipped(parts, steps);
         for (j, &r) in steps.iter().enumerate() {
             // The stream of point j is the peephole fed the prefix and r flipped steps.
             let mut gates = prefix.to_vec();
@@ -2102,11 +2165,11 @@ mod tests {
             for &g in &gates {
                 direct.push(g);
             }
-            let streamed: Vec<Gate> = blocks.stream(7, &prefix, j).gates().collect();
+            let streamed: Vec<Gate> = blocks.stream(7, prefix, j).gates().collect();
             assert_eq!(streamed, direct.gates().collect::<Vec<_>>());
             // And it is the prefix then the controlled product formula of r steps.
             let mut want = Circuit::new(7, 0);
-            want.extend(prefix);
+            want.extend(prefix.iter().copied());
             for rot in formula.evolution_by_step(Order::Second, 0.15, r) {
                 let ladder = crate::synth::default_ladder(&rot);
                 want.extend(crate::synth::pauli_rotation_along(&rot, Some(6), &ladder));

@@ -252,6 +252,11 @@ pub struct DeviceInfo {
     /// `"given"` (the terms' order) or `"layers"` (layers on disjoint qubits). Absent: given.
     #[serde(default, skip_serializing_if = "is_given")]
     pub flip_order: crate::synth::flip::BlockOrder,
+    /// With `flip_string`: the step is *signed* (`synth::flip::Choice::Signed`): every term
+    /// that commutes with `Q` (every term when `Q` is `I`) rides on the ancilla's sign in the
+    /// step's first half, and `flip_controlled_terms` counts them. Absent: false.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub flip_signed: bool,
     /// With `compile --tries N` (N > 1): the seed whose layout search built this campaign, so
     /// that `--seed` with it and one try builds the same files. Absent: one search.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -272,6 +277,9 @@ pub struct FlipInfo {
     /// The order of each commuting block's rotations. Absent: given.
     #[serde(default, skip_serializing_if = "is_given")]
     pub order: crate::synth::flip::BlockOrder,
+    /// The step is signed, as `device.flip_signed` says. Absent: false.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub signed: bool,
 }
 
 fn is_given(o: &crate::synth::flip::BlockOrder) -> bool {
@@ -712,6 +720,15 @@ impl Plan {
                         None,
                     );
                 }
+            }
+        }
+        if let Some(d) = &self.device {
+            if d.flip_signed && d.flip_string.is_none() {
+                bad(
+                    vec![Key("device"), Key("flip_signed")],
+                    "a signed sign-flip step (`flip_signed`) without its string (`flip_string`; `I` when there is none)".into(),
+                    None,
+                );
             }
         }
         if self.flip.is_some() && self.device.is_some() {

@@ -515,8 +515,10 @@ pub fn compile_campaign(args: &CompileArgs, warn: &dyn Fn(&str)) -> Result<Compi
             (Some(d), _) => d
                 .flip_string
                 .as_deref()
-                .map(|q| (q, d.flip_controlled_terms)),
-            (None, f) => f.as_ref().map(|f| (f.string.as_str(), f.controlled_terms)),
+                .map(|q| (q, d.flip_controlled_terms, d.flip_signed)),
+            (None, f) => f
+                .as_ref()
+                .map(|f| (f.string.as_str(), f.controlled_terms, f.signed)),
         };
         let weighed = device
             .as_ref()
@@ -650,7 +652,7 @@ pub fn choose_control(
 fn control_line(
     control: Control,
     why_not: Option<&NotAnEigenstate>,
-    flip: Option<(&str, usize)>,
+    flip: Option<(&str, usize, bool)>,
     weighed: bool,
 ) -> String {
     let why = if weighed {
@@ -659,8 +661,10 @@ fn control_line(
         "kept because that emits fewer two-qubit gates"
     };
     let how = match flip {
-        Some((q, 0)) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, {why}"),
-        Some((q, k)) => format!("the ancilla controls the rotations of the first {k} terms, at both ends of each Trotter step, and the rest of the step through the Pauli string `{q}`, which anticommutes with every other term: two controlled copies of it per step, those rotations uncontrolled, {why}"),
+        Some(("I", _, true)) => format!("the ancilla controls each Trotter step by its sign: every rotation of the step's first half turns one way or the other with the ancilla, the second half runs uncontrolled, {why}"),
+        Some((q, k, true)) => format!("the ancilla controls each Trotter step through the Pauli string `{q}` (two controlled copies of it per step) and its sign: the {k} terms that commute with `{q}` turn with the ancilla's sign in the step's first half, every other rotation uncontrolled, {why}"),
+        Some((q, 0, false)) => format!("the ancilla controls each Trotter step through the Pauli string `{q}`, which anticommutes with every term: two controlled copies of it per step, every rotation uncontrolled, {why}"),
+        Some((q, k, false)) => format!("the ancilla controls the rotations of the first {k} terms, at both ends of each Trotter step, and the rest of the step through the Pauli string `{q}`, which anticommutes with every other term: two controlled copies of it per step, those rotations uncontrolled, {why}"),
         None => "the ancilla controls every rotation".into(),
     };
     match (control, why_not) {
@@ -951,17 +955,29 @@ mod tests {
 
     #[test]
     fn the_control_line_says_what_the_search_weighed() {
-        let flip = Some(("Y0 Z1", 0));
+        let flip = Some(("Y0 Z1", 0, false));
         let counted = control_line(Control::Evolution, None, flip, false);
         assert!(
             counted.contains("anticommutes with every term"),
             "{counted}"
         );
         // A partial flip names the terms still controlled one by one.
-        let partial = control_line(Control::Evolution, None, Some(("Z0 Z2", 3)), false);
+        let partial = control_line(Control::Evolution, None, Some(("Z0 Z2", 3, false)), false);
         assert!(
             partial.contains("first 3 terms") && partial.contains("every other term"),
             "{partial}"
+        );
+        // A signed step names the terms on the ancilla's sign, or the whole first half.
+        let signed = control_line(Control::Evolution, None, Some(("Z0 Z2", 4, true)), false);
+        assert!(
+            signed.contains("the 4 terms that commute with `Z0 Z2`")
+                && signed.contains("first half"),
+            "{signed}"
+        );
+        let halved = control_line(Control::Evolution, None, Some(("I", 9, true)), false);
+        assert!(
+            halved.contains("every rotation of the step's first half") && !halved.contains("`I`"),
+            "{halved}"
         );
         assert!(counted.contains("emits fewer two-qubit gates"), "{counted}");
         let weighed = control_line(Control::Evolution, None, flip, true);
@@ -1000,6 +1016,7 @@ mod tests {
             flip_string: None,
             flip_controlled_terms: 0,
             flip_order: crate::synth::flip::BlockOrder::Given,
+            flip_signed: false,
             search_seed: None,
         });
         let with = |p: f64| {

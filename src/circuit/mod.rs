@@ -273,6 +273,24 @@ impl Circuit {
 }
 
 /// The conjugate transpose `a†` of a 2×2 matrix.
+/// The mirror image of a gate list: gates in reverse order, each replaced by the inverse of
+/// itself with its angles negated (a Clifford gate by its inverse; `rz`, `rx`, `ry` kept as
+/// they are; `U(θ, φ, λ)` by `U(θ, λ, φ)`); measurements dropped. If every angle of the list
+/// is an odd function of a parameter `δ`, the mirror image is the list at `−δ`, inverted: a
+/// symmetric Trotter step's mirror image is the same step as an operator.
+pub fn mirror_gates(gates: &[Gate]) -> Vec<Gate> {
+    gates
+        .iter()
+        .rev()
+        .filter(|g| !g.is_measure())
+        .map(|g| match *g {
+            Gate::Rz(..) | Gate::Rx(..) | Gate::Ry(..) => *g,
+            Gate::U(q, t, p, l) => Gate::U(q, t, l, p),
+            _ => g.inverse().expect("a unitary gate has an inverse"),
+        })
+        .collect()
+}
+
 pub fn mat2_adjoint(a: &Mat2) -> Mat2 {
     [
         [a[0][0].conj(), a[1][0].conj()],

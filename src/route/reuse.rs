@@ -99,21 +99,10 @@ impl Formula {
 /// angle of `c` and its global phase are odd functions of a parameter `δ`,
 /// `mirror(c) = c(−δ)⁻¹`. Measurements are dropped.
 pub fn mirror(c: &Circuit) -> Circuit {
-    let gates = c
-        .gates
-        .iter()
-        .rev()
-        .filter(|g| !g.is_measure())
-        .map(|g| match *g {
-            Gate::Rz(..) | Gate::Rx(..) | Gate::Ry(..) => *g,
-            Gate::U(q, t, p, l) => Gate::U(q, t, l, p),
-            _ => g.inverse().expect("a unitary gate has an inverse"),
-        })
-        .collect();
     Circuit {
         num_qubits: c.num_qubits,
         num_clbits: 0,
-        gates,
+        gates: crate::circuit::mirror_gates(&c.gates),
         global_phase: c.global_phase,
     }
 }
@@ -348,12 +337,20 @@ fn flipped(
     let control = plan.ancilla?;
     let distance = layout_distance(plan, dev);
     let ladder = |r: &Rotation| plan.ladder(r);
-    let particular = plan
+    let signed = plan
         .step_form
-        .flip_particular
+        .flip_signed
+        .then(|| signed_string_of(terms, plan, dev))
+        .flatten();
+    let particular = (plan.step_form.flip_particular && !plan.step_form.flip_signed)
         .then(|| crate::synth::flip::flip_split(terms, &plan.group_sizes, control as usize))
         .flatten()
         .map(|(_, q)| q);
+    let choice = match (&signed, &particular) {
+        (Some(q), _) => crate::synth::flip::Choice::Signed(q),
+        (None, Some(q)) => crate::synth::flip::Choice::Given(q),
+        (None, None) => crate::synth::flip::Choice::Search,
+    };
     let parts = crate::synth::flip::flipped_step_parts(
         terms,
         &plan.group_sizes,
@@ -369,7 +366,7 @@ fn flipped(
         distance
             .as_ref()
             .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
-        particular.as_ref(),
+        choice,
     )?;
     let width = plan.initial_layout.len();
     let piece = |gates: Vec<Gate>| {
@@ -405,17 +402,54 @@ fn flipped(
     })
 }
 
-/// The split and the string a sign-flip step of `plan` over `terms` uses
-/// (`synth::flip::flip_split_near`, `Q` chosen under the plan's initial layout on `dev`): what
-/// [`step_parts`] writes, for the plan to record.
+/// The string of a signed sign-flip step of `plan` (`StepForm::flip_signed`): none with
+/// `flip_particular`, else `synth::flip::signed_string` under the plan's initial layout on
+/// `dev`; `None` without an ancilla.
+fn signed_string_of(
+    terms: &[(PauliString, f64)],
+    plan: &TargetPlan,
+    dev: Option<&Device>,
+) -> Option<crate::synth::flip::FlipString> {
+    let control = plan.ancilla?;
+    if plan.step_form.flip_particular {
+        return Some(Vec::new());
+    }
+    let distance = layout_distance(plan, dev);
+    Some(crate::synth::flip::signed_string(
+        terms,
+        control as usize,
+        control,
+        distance
+            .as_ref()
+            .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
+    ))
+}
+
+/// What a plan records of the sign-flip step of `plan` over `terms`: how many terms stay
+/// controlled (a split's leading groups, or a signed step's terms that commute with `Q`) and
+/// the string (`synth::flip::flip_split_near`, `Q` chosen under the plan's initial layout on
+/// `dev`; or [`signed_string_of`]), as [`step_parts`] writes them.
 pub fn flip_split_of(
     terms: &[(PauliString, f64)],
     plan: &TargetPlan,
     dev: Option<&Device>,
 ) -> Option<(usize, crate::synth::flip::FlipString)> {
     let control = plan.ancilla?;
+    if plan.step_form.flip_signed {
+        let q = signed_string_of(terms, plan, dev)?;
+        let (_, string) =
+            PauliString::from_factors(&q.iter().map(|&(k, p)| (k as usize, p)).collect::<Vec<_>>());
+        let kept = terms
+            .iter()
+            .filter(|(p, c)| *c != 0.0 && p.commutes_with(&string))
+            .count();
+        return Some((kept, q));
+    }
+    let count =
+        |(k, q): (usize, crate::synth::flip::FlipString)| (plan.group_sizes[..k].iter().sum(), q);
     if plan.step_form.flip_particular {
-        return crate::synth::flip::flip_split(terms, &plan.group_sizes, control as usize);
+        return crate::synth::flip::flip_split(terms, &plan.group_sizes, control as usize)
+            .map(count);
     }
     let distance = layout_distance(plan, dev);
     crate::synth::flip::flip_split_near(
@@ -427,6 +461,7 @@ pub fn flip_split_of(
             .as_ref()
             .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
     )
+    .map(count)
 }
 
 /// The step in the order of [`super::sweep::schedule`], each ladder a nearest-neighbour chain

@@ -46,6 +46,40 @@
 //! The device search tries both (they can route differently where SWAPs are needed), and the
 //! plan records the order it kept.
 //!
+//! ## Signed steps
+//!
+//! A term that commutes with `Q` cannot be flipped, but it need not be controlled twice
+//! either. Write the step in time order as `A` then `B`, `A = t₁ … t_L` and `B = t_L … t₁`
+//! with `t_j = exp(−iθ_j P_j)`, and note that `B⁻¹` is `A` with every angle negated. The
+//! first segment, between the two controlled `Q`s, has to act as `B⁻¹` on the control's
+//! |0⟩ branch and, once conjugated by `Q`, as `A` on |1⟩. A term that anticommutes with `Q`
+//! does both uncontrolled, as above. A term that commutes with `Q` must itself turn by
+//! `+θ_j` on |0⟩ and by `−θ_j` on |1⟩, which is one rotation about `Z_c P_j`:
+//!
+//! ```text
+//!  exp(+iθ_j Z_c P_j) = |0⟩⟨0| ⊗ exp(+iθ_j P_j) + |1⟩⟨1| ⊗ exp(−iθ_j P_j)
+//! ```
+//!
+//! Its ladder is `P_j`'s with the control joined: two CNOTs more than the uncontrolled
+//! rotation, and nothing in the second half. So every symmetric step has a *signed* form
+//! ([`Choice::Signed`]) for any string `Q`, the identity included (then there is no controlled
+//! `Q` and every rotation of the first half is signed): the |0⟩ branch runs `B B⁻¹ = 1`, the
+//! |1⟩ branch `B A`, the step, global phase included. The control's cost per step is two
+//! CNOTs per commuting rotation of one half plus the two controlled `Q`s, where controlling
+//! every rotation costs two CNOTs per rotation of *both* halves; the `Q` is chosen by
+//! [`signed_string`] to anticommute with as many terms as a greedy pass finds. On the 4×4
+//! Heisenberg model with fields, `Q` = `Y` on one sublattice and `X` on the other
+//! anticommutes with every `XX`, `YY` and field term, and only the 24 `ZZ` bonds ride on the
+//! control's sign. The derivation is ours; the identity it rests on is the flip's (Dong, Lin &
+//! Tong, above) plus the textbook decomposition of a controlled rotation into `Z_c`-rotations
+//! (Nielsen & Chuang, *Quantum Computation and Quantum Information*, 2000, section 4.3; cited
+//! from memory).
+//!
+//! A signed step written again mirrored (`circuit::mirror_gates`, the same operator since its
+//! angles are odd in `dt`) puts two uncontrolled halves next to each other, then two signed
+//! halves and two controlled `Q`s (which cancel): so steps alternate with their mirror image
+//! ([`FlippedParts::mirrored`]) and their edge rotations merge as Strang's do.
+//!
 //! Cost: solving for `Q` is Gaussian elimination over GF(2), `O(m · (2n)² / 64)` word
 //! operations for `m` strings on `n` qubits; the tree is `O(w²)`.
 
@@ -92,6 +126,116 @@ impl From<BlockOrder> for Writing {
 
 /// A Pauli string as `(qubit, letter)` pairs, ascending, no identity letters.
 pub type FlipString = Vec<(Qubit, Pauli)>;
+
+/// Which string a flipped step uses, and what becomes of the terms that do not anticommute
+/// with it.
+#[derive(Clone, Copy, Debug)]
+pub enum Choice<'a> {
+    /// The split of [`flip_split_near`] and its string: the leading groups controlled
+    /// rotation by rotation at both ends, the rest flipped.
+    Search,
+    /// A recorded string for the split of [`flip_split`], checked to anticommute with every
+    /// term past the split.
+    Given(&'a FlipString),
+    /// The signed step with this string (empty: the identity, no controlled `Q` at all):
+    /// every term that commutes with it rides on the control's sign in the first half (see
+    /// "Signed steps" in the module essay). Any string gives an exact step.
+    Signed(&'a FlipString),
+}
+
+/// The string of a signed step ([`Choice::Signed`]) over `terms` on qubits `0..n`: a
+/// string that anticommutes with as many terms as a greedy pass over them finds (a term joins
+/// when the GF(2) system stays solvable with it), the cheapest such string for `control`
+/// under `distance` ([`nearest_flip_string`]); empty when no term joins.
+///
+/// Which terms join depends on the order they are offered in: on a Heisenberg bond, `XX`,
+/// `YY` and `ZZ` cannot all join, and the first two offered do. So the pass runs over
+/// [`SIGNED_PASSES`] orders, heaviest first in each: the formula's order, then with the
+/// diagonal strings (only `Z`s) last, then the terms with more `X` and `Y` letters first,
+/// and keeps the pass whose joined terms weigh most (their weights summed: a kept term costs
+/// its ladder's travel on a device). Every solution of the joined terms' system commutes
+/// with every term left out (a left-out term's equation is a sum of joined ones with
+/// right-hand side 0), so the set of flipped terms does not depend on which solution is
+/// taken. `O(m · r · (2n + 1) / 64)` word operations per pass for `m` terms and a system of
+/// rank `r ≤ 2n`.
+pub fn signed_string(
+    terms: &[(PauliString, f64)],
+    n: usize,
+    control: Qubit,
+    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
+) -> FlipString {
+    let usable: Vec<&PauliString> = terms
+        .iter()
+        .filter(|(p, c)| *c != 0.0 && !p.is_identity() && p.support_iter().all(|q| q < n))
+        .map(|(p, _)| p)
+        .collect();
+    let off_diagonal = |p: &PauliString| p.support_iter().filter(|&q| p.get(q) != Pauli::Z).count();
+    let mut best: Option<(u64, Vec<PauliString>)> = None;
+    for pass in 0..SIGNED_PASSES {
+        let mut order = usable.clone();
+        // Stable sorts: ties keep the formula's order.
+        match pass {
+            0 => order.sort_by_key(|p| std::cmp::Reverse(p.weight())),
+            1 => order.sort_by_key(|p| (off_diagonal(p) == 0, std::cmp::Reverse(p.weight()))),
+            _ => order.sort_by_key(|p| std::cmp::Reverse((off_diagonal(p), p.weight()))),
+        }
+        let joined = joined_greedily(&order, n);
+        let weight: u64 = joined.iter().map(|p| u64::from(p.weight())).sum();
+        if best.as_ref().is_none_or(|(w, _)| weight > *w) {
+            best = Some((weight, joined));
+        }
+    }
+    match best {
+        Some((_, joined)) if !joined.is_empty() => {
+            nearest_flip_string(&joined, n, control, distance).unwrap_or_default()
+        }
+        _ => Vec::new(),
+    }
+}
+
+/// Orders [`signed_string`] offers the terms in.
+pub const SIGNED_PASSES: usize = 3;
+
+/// The strings of `order` that join a GF(2) system `⟨Q, P⟩ = 1` one by one while it stays
+/// solvable (incremental elimination: each new row reduced by the pivots so far).
+fn joined_greedily(order: &[&PauliString], n: usize) -> Vec<PauliString> {
+    let cols = 2 * n + 1;
+    let words = cols.div_ceil(64);
+    let get = |row: &[u64], c: usize| row[c / 64] >> (c % 64) & 1 == 1;
+    let mut rows: Vec<(usize, Vec<u64>)> = Vec::new();
+    let mut joined: Vec<PauliString> = Vec::new();
+    for &p in order {
+        let mut row = vec![0u64; words];
+        for q in p.support_iter() {
+            let letter = p.get(q);
+            // ⟨Q, P⟩: Q's x-bit (column 2q) meets P's z-bit, Q's z-bit (2q + 1) P's x-bit.
+            if matches!(letter, Pauli::Z | Pauli::Y) {
+                row[2 * q / 64] |= 1 << (2 * q % 64);
+            }
+            if matches!(letter, Pauli::X | Pauli::Y) {
+                row[(2 * q + 1) / 64] |= 1 << ((2 * q + 1) % 64);
+            }
+        }
+        row[2 * n / 64] |= 1 << (2 * n % 64);
+        for (c, b) in &rows {
+            if get(&row, *c) {
+                for (w, x) in row.iter_mut().zip(b) {
+                    *w ^= x;
+                }
+            }
+        }
+        match (0..2 * n).find(|&c| get(&row, c)) {
+            Some(c) => {
+                rows.push((c, row));
+                joined.push(p.clone());
+            }
+            // Every unknown eliminated: consistent when the right-hand side is 0 as well.
+            None if !get(&row, 2 * n) => joined.push(p.clone()),
+            None => {}
+        }
+    }
+    joined
+}
 
 /// A Pauli string that anticommutes with every one of `strings` (on qubits `0..n`), as
 /// `(qubit, letter)` pairs ascending, or `None` when there is none (or a string is the
@@ -350,8 +494,11 @@ pub fn flip_string(terms: &[(PauliString, f64)], n: usize) -> Option<FlipString>
     anticommuting_string(&strings, n).filter(|q| !q.is_empty())
 }
 
-/// `Q` as factor text (`Y0 Z1 Y2`), as the plan records it.
+/// `Q` as factor text (`Y0 Z1 Y2`, `I` for the identity), as the plan records it.
 pub fn flip_text(q: &[(Qubit, Pauli)]) -> String {
+    if q.is_empty() {
+        return "I".into();
+    }
     q.iter()
         .map(|&(k, p)| format!("{}{k}", p.letter()))
         .collect::<Vec<_>>()
@@ -496,8 +643,16 @@ pub struct FlippedParts {
     pub merged: Vec<Gate>,
     /// The string `Q` the control meets twice per flipped palindrome.
     pub q: FlipString,
-    /// How many leading terms stay controlled rotation by rotation (0 for a whole flip).
+    /// How many leading terms stay controlled rotation by rotation (0 for a whole flip); in a
+    /// signed step, how many terms commute with `Q` and ride on the control's sign.
     pub controlled_terms: usize,
+    /// The signed form ([`Choice::Signed`]).
+    pub signed: bool,
+    /// In a signed step, the mirror image of `middle` (`circuit::mirror_gates`: the same
+    /// controlled step as an operator), which every second step writes so that the
+    /// uncontrolled halves of two steps meet (their edge rotations merge) and so do the
+    /// signed halves and the controlled `Q`s (which cancel); else empty.
+    pub mirrored: Vec<Gate>,
 }
 
 impl FlippedParts {
@@ -508,6 +663,16 @@ impl FlippedParts {
     /// `trail` then `lead` (the same commuting rotations at the sum of their angles).
     pub fn steps_into(&self, steps: usize, out: &mut Vec<Gate>) {
         if steps == 0 {
+            return;
+        }
+        if !self.mirrored.is_empty() {
+            for s in 0..steps {
+                out.extend_from_slice(if s % 2 == 0 {
+                    &self.middle
+                } else {
+                    &self.mirrored
+                });
+            }
             return;
         }
         out.extend_from_slice(&self.lead);
@@ -548,7 +713,7 @@ pub fn flipped_step(
         control,
         ladder,
         distance,
-        None,
+        Choice::Search,
     )?;
     let mut out = Vec::new();
     p.steps_into(1, &mut out);
@@ -577,12 +742,18 @@ pub fn flipped_step_parts(
     control: Qubit,
     ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
     distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
-    given: Option<&FlipString>,
+    choice: Choice<'_>,
 ) -> Option<FlippedParts> {
     let n = control as usize;
-    let (outer, q) = match given {
-        None => flip_split_near(terms, group_sizes, n, control, distance)?,
-        Some(q) => {
+    let (outer, q) = match choice {
+        Choice::Search => flip_split_near(terms, group_sizes, n, control, distance)?,
+        Choice::Signed(q) => {
+            if q.iter().any(|&(k, _)| k as usize >= n) {
+                return None;
+            }
+            (0, q.clone())
+        }
+        Choice::Given(q) => {
             // A recorded string: it must anticommute with every term past the split.
             let (outer, _) = flip_split(terms, group_sizes, n)?;
             let factors: Vec<(usize, Pauli)> = q.iter().map(|&(k, p)| (k as usize, p)).collect();
@@ -625,7 +796,23 @@ pub fn flipped_step_parts(
         }
     };
     let support: Vec<Qubit> = q.iter().map(|&(k, _)| k).collect();
-    let (tree, root) = parity_tree(&support, control, distance);
+    // The identity string (a signed step's choice where nothing flips) needs no tree.
+    let (tree, root) = if support.is_empty() {
+        (Vec::new(), control)
+    } else {
+        parity_tree(&support, control, distance)
+    };
+    let signed = matches!(choice, Choice::Signed(_));
+    let string =
+        PauliString::from_factors(&q.iter().map(|&(k, p)| (k as usize, p)).collect::<Vec<_>>()).1;
+    // In a signed step, a rotation of the first half whose string commutes with `Q` rides on
+    // the control's sign: `exp(−iθ Z_c P)` with the first half's (negated) angle.
+    let sign = |mut r: Rotation| {
+        if signed && r.pauli.commutes_with(&string) {
+            r.pauli.z.insert(control as usize);
+        }
+        r
+    };
     // One flipped palindrome whose first half is `half` (blocks of the groups past `outer`).
     let uncontrolled = |rs: Vec<Rotation>, out: &mut Vec<Gate>| {
         if writing.groups {
@@ -658,13 +845,18 @@ pub fn flipped_step_parts(
         );
     };
     let flip = |half: &[(usize, f64)], out: &mut Vec<Gate>| {
-        controlled_string(&q, control, &tree, root, out);
+        if !q.is_empty() {
+            controlled_string(&q, control, &tree, root, out);
+        }
         let back: Vec<Rotation> = half
             .iter()
             .flat_map(|&(g, x)| rotations((g + outer, x), -1.0))
+            .map(&sign)
             .collect();
         uncontrolled(back, out);
-        controlled_string(&q, control, &tree, root, out);
+        if !q.is_empty() {
+            controlled_string(&q, control, &tree, root, out);
+        }
         let forth: Vec<Rotation> = half
             .iter()
             .rev()
@@ -683,10 +875,22 @@ pub fn flipped_step_parts(
         trail: Vec::new(),
         merged: Vec::new(),
         q: q.clone(),
-        controlled_terms: group_sizes[..outer].iter().sum(),
+        controlled_terms: if signed {
+            terms
+                .iter()
+                .filter(|(p, c)| *c != 0.0 && p.commutes_with(&string))
+                .count()
+        } else {
+            group_sizes[..outer].iter().sum()
+        },
+        signed,
+        mirrored: Vec::new(),
     };
     if outer == 0 {
         flip(&half_blocks(group_sizes.len(), order)?, &mut parts.middle);
+        if signed {
+            parts.mirrored = crate::circuit::mirror_gates(&parts.middle);
+        }
         return Some(parts);
     }
     // The stages as items, a controlled group at a share of dt or an inner palindrome at a
@@ -941,6 +1145,171 @@ mod tests {
     }
 
     #[test]
+    fn signed_steps_are_the_controlled_step_for_any_string() {
+        // Random sums, anticommuting string or not, Strang and Suzuki, terms shuffled inside
+        // their groups: the signed step with the greedy string, with none and with a random
+        // string equals the controlled `formula::step`, global phase included, to 1e-12, in
+        // every writing; its count of kept terms is the number commuting with the string.
+        use rand::seq::SliceRandom;
+        let mut checked = 0;
+        for seed in 0..120u64 {
+            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(1000 + seed);
+            let n = rng.gen_range(2..6usize);
+            let mut h = crate::pauli::PauliSum::new(n);
+            for _ in 0..rng.gen_range(2..8) {
+                let factors: Vec<(usize, Pauli)> = (0..n)
+                    .filter_map(|q| {
+                        let letter = [Pauli::I, Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..4)];
+                        (letter != Pauli::I).then_some((q, letter))
+                    })
+                    .collect();
+                if !factors.is_empty() {
+                    h.add(
+                        PauliString::from_factors(&factors).1,
+                        rng.gen_range(-1.0..1.0),
+                    );
+                }
+            }
+            let (mut terms, sizes) = grouped(&h);
+            if terms.is_empty() {
+                continue;
+            }
+            let mut at = 0;
+            for &k in &sizes {
+                terms[at..at + k].shuffle(&mut rng);
+                at += k;
+            }
+            let random: FlipString = (0..n as Qubit)
+                .filter_map(|q| {
+                    let letter = [Pauli::I, Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..4)];
+                    (letter != Pauli::I).then_some((q, letter))
+                })
+                .collect();
+            let line = |a: Qubit, b: Qubit| a.abs_diff(b);
+            let greedy = signed_string(&terms, n, n as Qubit, Some(&line));
+            // The greedy string anticommutes with a set that no term left out can join.
+            let flipped: Vec<PauliString> = terms
+                .iter()
+                .filter(|(p, _)| anticommutes(&greedy, p))
+                .map(|(p, _)| p.clone())
+                .collect();
+            for (p, _) in &terms {
+                if !anticommutes(&greedy, p) {
+                    let mut more = flipped.clone();
+                    more.push(p.clone());
+                    assert!(anticommuting_string(&more, n).is_none(), "seed {seed}");
+                }
+            }
+            for order in [Order::Second, Order::Fourth] {
+                let reference = controlled_reference(&step(&terms, order, 0.37), n);
+                for q in [&greedy, &Vec::new(), &random] {
+                    for (pairs, groups) in [(false, false), (true, false), (false, true)] {
+                        let writing = Writing {
+                            order: BlockOrder::Layers,
+                            pairs,
+                            groups,
+                        };
+                        let parts = flipped_step_parts(
+                            &terms,
+                            &sizes,
+                            order,
+                            0.37,
+                            writing,
+                            n as Qubit,
+                            &crate::synth::default_ladder,
+                            Some(&line),
+                            Choice::Signed(q),
+                        )
+                        .expect("every symmetric step signs");
+                        assert!(parts.signed);
+                        let kept = terms.iter().filter(|(p, _)| !anticommutes(q, p)).count();
+                        assert_eq!(parts.controlled_terms, kept);
+                        let mut c = Circuit::new(n + 1, 0);
+                        parts.steps_into(2, &mut c.gates);
+                        let mut two = reference.clone();
+                        two.extend(reference.gates.iter().copied());
+                        let d = unitary_distance(&two, &c);
+                        assert!(d < 1e-12, "seed {seed} {order:?} {q:?}: {d:e}");
+                        checked += 1;
+                    }
+                }
+            }
+        }
+        assert!(checked > 1000, "only {checked} cases");
+    }
+
+    #[test]
+    fn a_signed_heisenberg_square_pays_the_control_once_per_commuting_term() {
+        // 2×2 Heisenberg square with fields (4 bonds × XX, YY, ZZ; Z on each site), Strang.
+        // `Q` = Y on one sublattice and X on the other anticommutes with every XX, YY and
+        // field and commutes with every ZZ, so the greedy string leaves exactly the 4 ZZ
+        // bonds kept. Hand count, ladders, no cancellation across rotations assumed: the
+        // plain step writes each of its rotations once per half (a 2-site rotation 2 CNOTs);
+        // the signed step adds 2 CNOTs per kept rotation of the first half and two controlled
+        // `Q`s of weight 4 (2·3 + 1 = 7 each), where the controlled step adds 2 per rotation
+        // of both halves.
+        let mut h = crate::pauli::PauliSum::new(4);
+        for (a, b) in [(0, 1), (1, 3), (3, 2), (2, 0)] {
+            for p in ["X", "Y", "Z"] {
+                h.add(string(&format!("{p}{a} {p}{b}")), 1.0);
+            }
+        }
+        for (q, f) in [0.3, -0.7, 0.2, 0.5].into_iter().enumerate() {
+            h.add(string(&format!("Z{q}")), f);
+        }
+        let (terms, sizes) = grouped(&h);
+        let q = signed_string(&terms, 4, 4, None);
+        assert_eq!(q.len(), 4);
+        let kept: Vec<&PauliString> = terms
+            .iter()
+            .filter(|(p, _)| !anticommutes(&q, p))
+            .map(|(p, _)| p)
+            .collect();
+        assert_eq!(kept.len(), 4);
+        assert!(kept.iter().all(|p| p.weight() == 2 && p.x.is_empty()));
+        let two = |gates: &[Gate]| gates.iter().filter(|g| g.is_two_qubit()).count();
+        let program = step(&terms, Order::Second, 0.2);
+        let reference = controlled_reference(&program, 4);
+        let parts = |q: &FlipString| {
+            flipped_step_parts(
+                &terms,
+                &sizes,
+                Order::Second,
+                0.2,
+                BlockOrder::Given.into(),
+                4,
+                &crate::synth::default_ladder,
+                None,
+                Choice::Signed(q),
+            )
+            .expect("signs")
+        };
+        let (signed, none) = (parts(&q), parts(&Vec::new()));
+        // One half of the step: every group once, each two-site rotation 2 CNOTs.
+        let half: usize = terms
+            .iter()
+            .map(|(p, _)| 2 * (p.weight() as usize - 1))
+            .sum();
+        let kept_in_half = 4;
+        assert_eq!(two(&signed.middle), 2 * half + 2 * kept_in_half + 2 * 7);
+        assert_eq!(two(&none.middle), 2 * half + 2 * terms.len());
+        // The controlled step: its merged middle group written once, every rotation + 2.
+        assert_eq!(
+            two(&reference.gates),
+            program
+                .iter()
+                .map(|r| 2 * (r.pauli.weight() as usize - 1) + 2)
+                .sum::<usize>()
+        );
+        assert!(two(&signed.middle) < two(&reference.gates));
+        for p in [&signed, &none] {
+            let mut c = Circuit::new(5, 0);
+            c.extend(p.middle.iter().copied());
+            assert!(unitary_distance(&reference, &c) < 1e-12);
+        }
+    }
+
+    #[test]
     fn the_ising_chain_step_costs_two_half_steps_and_two_parities() {
         // 6-site transverse-field Ising chain, Strang: the halves are 5 ZZ rotations each
         // (2 CNOTs apiece), the controlled Q has weight 6: 2·5 + 1 = 11 two-qubit gates.
@@ -1072,7 +1441,7 @@ mod tests {
             6,
             ladder,
             None,
-            None,
+            Choice::Search,
         );
         let parts = parts.expect("Strang flips");
         let meets = |gates: &[Gate]| gates.iter().filter(|g| g.qubits().contains(&6)).count();

@@ -71,6 +71,8 @@ pub struct Claim {
     flip_controlled: usize,
     /// The plan's `device.flip_order`: how the flipped steps write each block.
     flip_order: crate::synth::flip::BlockOrder,
+    /// The plan's `device.flip_signed` (or the all-to-all `flip.signed`).
+    flip_signed: bool,
     /// The flip is the device's (every circuit, each step routed once and reused with its
     /// mirror image alternately) rather than the all-to-all `flip` (only the circuits marked
     /// `flipped`, every step written alike).
@@ -342,6 +344,10 @@ impl Claim {
                 (Some(d), _) => d.flip_order,
                 (None, f) => f.as_ref().map(|f| f.order).unwrap_or_default(),
             },
+            flip_signed: match (&plan.device, &plan.flip) {
+                (Some(d), _) => d.flip_signed,
+                (None, f) => f.as_ref().is_some_and(|f| f.signed),
+            },
             flip_every: plan.device.is_some(),
             group_sizes: crate::formula::term_groups(&h)
                 .iter()
@@ -422,7 +428,8 @@ impl Claim {
         if let (Control::Evolution, Some(text), true) = (self.control, &self.flip, flipped) {
             // A sign-flip step (`synth::flip`): on a device routed once and reused as the step
             // and its mirror image alternately (`route::reuse`), on the all-to-all target
-            // written alike every step.
+            // written alike every step, but for a signed step, which alternates there too
+            // (`synth::flip::FlippedParts::mirrored`).
             let n = self.n;
             let dt = self.dt / self.steps_per_dt.max(1) as f64;
             // The recorded string, checked to anticommute with every flipped term (the
@@ -431,8 +438,13 @@ impl Claim {
             let given: Option<crate::synth::flip::FlipString> =
                 crate::pauli::PauliString::parse_factor_text(text)
                     .map(|p| p.support_iter().map(|q| (q as Qubit, p.get(q))).collect());
-            let split = crate::synth::flip::flip_split(&self.terms, &self.group_sizes, n);
-            let counted = split.map(|(k, _)| self.group_sizes[..k].iter().sum::<usize>());
+            // A signed step takes any string; its count is of the terms commuting with it.
+            let counted = if self.flip_signed {
+                Some(self.flip_controlled)
+            } else {
+                crate::synth::flip::flip_split(&self.terms, &self.group_sizes, n)
+                    .map(|(k, _)| self.group_sizes[..k].iter().sum::<usize>())
+            };
             let gates = given
                 .as_ref()
                 .filter(|_| counted == Some(self.flip_controlled))
@@ -446,9 +458,14 @@ impl Claim {
                         n as Qubit,
                         &ladder,
                         None,
-                        Some(q),
+                        if self.flip_signed {
+                            crate::synth::flip::Choice::Signed(q)
+                        } else {
+                            crate::synth::flip::Choice::Given(q)
+                        },
                     )
                 })
+                .filter(|p| p.controlled_terms == self.flip_controlled)
                 .map(|p| {
                     let mut gates = Vec::new();
                     p.steps_into(1, &mut gates);
@@ -457,7 +474,7 @@ impl Claim {
                 .ok_or_else(|| ClaimError::FlipString(text.clone()))?;
             let mut step = Circuit::new(n + 1, 0);
             step.extend(gates);
-            let back = if self.flip_every {
+            let back = if self.flip_every || self.flip_signed {
                 crate::route::reuse::mirror(&step)
             } else {
                 step.clone()
