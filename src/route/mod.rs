@@ -1393,20 +1393,7 @@ fn plan_on_step(
         if has_runs() {
             pairings.push((false, true));
         }
-        for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
-            for flip_particular in [true, false] {
-                for &(pairs, groups) in &pairings {
-                    forms.push(StepForm {
-                        flip: true,
-                        flip_order,
-                        flip_particular,
-                        pairs,
-                        groups,
-                        ..form
-                    });
-                }
-            }
-        }
+        push_flip_forms(&mut forms, form, false, &pairings);
     }
     // The signed step (`synth::flip::Choice::Signed`): any symmetric formula, the terms that
     // commute with the greedy string (or every term, with none) riding on the ancilla's
@@ -1422,21 +1409,7 @@ fn plan_on_step(
         if has_pairs() {
             pairings.push((true, false));
         }
-        for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
-            for flip_particular in [false, true] {
-                for &(pairs, groups) in &pairings {
-                    forms.push(StepForm {
-                        flip: true,
-                        flip_signed: true,
-                        flip_order,
-                        flip_particular,
-                        pairs,
-                        groups,
-                        ..form
-                    });
-                }
-            }
-        }
+        push_flip_forms(&mut forms, form, true, &pairings);
     }
     // The flipped forms' extra starting layouts, searched once for all of them.
     let mut flip_starts: Option<Vec<Vec<u32>>> = None;
@@ -1512,6 +1485,32 @@ fn plan_on_step(
             .collect();
     }
     Ok((won, other))
+}
+
+/// The sign-flip forms of `form` (split's flip, or `signed`), both block orders, each
+/// string choice (`flip_particular`: the split's particular string first, or for a signed
+/// step the greedy string first and none second) and each `(pairs, groups)` writing.
+fn push_flip_forms(
+    forms: &mut Vec<StepForm>,
+    form: StepForm,
+    signed: bool,
+    pairings: &[(bool, bool)],
+) {
+    for flip_order in [BlockOrder::Layers, BlockOrder::Given] {
+        for flip_particular in [!signed, signed] {
+            for &(pairs, groups) in pairings {
+                forms.push(StepForm {
+                    flip: true,
+                    flip_signed: signed,
+                    flip_order,
+                    flip_particular,
+                    pairs,
+                    groups,
+                    ..form
+                });
+            }
+        }
+    }
 }
 
 /// Layouts besides the winner's that the search hands on ([`TargetPlan::runner_up_layouts`]).

@@ -428,7 +428,7 @@ fn signed_string_of(
 /// What a plan records of the sign-flip step of `plan` over `terms`: how many terms stay
 /// controlled (a split's leading groups, or a signed step's terms that commute with `Q`) and
 /// the string (`synth::flip::flip_split_near`, `Q` chosen under the plan's initial layout on
-/// `dev`; or [`signed_string_of`]), as [`step_parts`] writes them.
+/// `dev`; or the signed step's string, `synth::flip::signed_string`), as [`step_parts`] writes them.
 pub fn flip_split_of(
     terms: &[(PauliString, f64)],
     plan: &TargetPlan,

@@ -1043,6 +1043,32 @@ mod tests {
         c
     }
 
+    /// A sum of `count` random strings on `n` qubits (each qubit's letter drawn with
+    /// probability 1/2, then uniformly among X, Y, Z; empty strings skipped), coefficients
+    /// uniform in (−1, 1).
+    fn random_sum(
+        rng: &mut rand_chacha::ChaCha8Rng,
+        n: usize,
+        count: usize,
+    ) -> crate::pauli::PauliSum {
+        let mut h = crate::pauli::PauliSum::new(n);
+        for _ in 0..count {
+            let mut factors: Vec<(usize, Pauli)> = Vec::new();
+            for q in 0..n {
+                if rng.gen_bool(0.5) {
+                    factors.push((q, [Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..3)]));
+                }
+            }
+            if !factors.is_empty() {
+                h.add(
+                    PauliString::from_factors(&factors).1,
+                    rng.gen_range(-1.0..1.0),
+                );
+            }
+        }
+        h
+    }
+
     /// The terms of `h` in formula order and the sizes of its commuting groups.
     fn grouped(h: &crate::pauli::PauliSum) -> (Vec<(PauliString, f64)>, Vec<usize>) {
         let groups = crate::formula::term_groups(h);
@@ -1060,21 +1086,8 @@ mod tests {
         for seed in 0..200u64 {
             let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
             let n = rng.gen_range(2..6usize);
-            let mut h = crate::pauli::PauliSum::new(n);
-            for _ in 0..rng.gen_range(2..7) {
-                let mut factors: Vec<(usize, Pauli)> = Vec::new();
-                for q in 0..n {
-                    if rng.gen_bool(0.5) {
-                        factors.push((q, [Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..3)]));
-                    }
-                }
-                if !factors.is_empty() {
-                    h.add(
-                        PauliString::from_factors(&factors).1,
-                        rng.gen_range(-1.0..1.0),
-                    );
-                }
-            }
+            let count = rng.gen_range(2..7);
+            let h = random_sum(&mut rng, n, count);
             let (mut terms, sizes) = grouped(&h);
             if terms.is_empty() {
                 continue;
@@ -1155,21 +1168,8 @@ mod tests {
         for seed in 0..120u64 {
             let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(1000 + seed);
             let n = rng.gen_range(2..6usize);
-            let mut h = crate::pauli::PauliSum::new(n);
-            for _ in 0..rng.gen_range(2..8) {
-                let factors: Vec<(usize, Pauli)> = (0..n)
-                    .filter_map(|q| {
-                        let letter = [Pauli::I, Pauli::X, Pauli::Y, Pauli::Z][rng.gen_range(0..4)];
-                        (letter != Pauli::I).then_some((q, letter))
-                    })
-                    .collect();
-                if !factors.is_empty() {
-                    h.add(
-                        PauliString::from_factors(&factors).1,
-                        rng.gen_range(-1.0..1.0),
-                    );
-                }
-            }
+            let count = rng.gen_range(2..8);
+            let h = random_sum(&mut rng, n, count);
             let (mut terms, sizes) = grouped(&h);
             if terms.is_empty() {
                 continue;
