@@ -297,6 +297,16 @@ pub fn synthesize_all_to_all(
 /// compile). A 1,000-qubit Ising chain (1,999 terms) needs 1.3 × 10⁸.
 pub const FLIP_MAX_WORK: f64 = 1e9;
 
+/// Size of a step (8 units per Pauli factor of its strings) past which [`all_to_all_flip`]
+/// tries only the split's flip on one step, not the signed step nor the two-step score.
+/// Chosen between the sizes it must separate: the LiH/STO-3G sum of the `fewer_gates`
+/// benchmark (12 qubits, 31,104 units) keeps its signed step (4676 → 3350 two-qubit
+/// gates per step), the utility benchmark's 10⁵ strings
+/// of weight 1–4 (about 2 × 10⁶ units) do not. On the
+/// device target the search's own bound (`route::EXTRAS_MAX_UNIT`) applies, where each
+/// extra form costs routings.
+pub const SIGNED_MAX_UNIT: usize = 200_000;
+
 /// The sign-flip step (`synth::flip`) of one step of `spec` over `terms`, the formula's
 /// commuting groups of sizes `group_sizes` one after another, controlled by `control` on the
 /// all-to-all target: each commuting block in layers on disjoint qubits (the count is the
@@ -325,12 +335,12 @@ pub fn all_to_all_flip(
     // sums: the networks share the basis changes of a commuting run).
     // Beside the split's flip, the signed step (`synth::flip::Choice::Signed`) with the
     // greedy string and with none: it exists for every symmetric formula.
-    // Past `route::EXTRAS_MAX_UNIT` (the device search's bound for its extra candidates,
-    // here on the step's two halves: 4 per Pauli factor each) only the split's flip is tried,
-    // scored on one step: on the utility benchmark's 10⁵ strings the signed candidates and the
-    // two-step score took its compile from 8 s to 13.5 s (ratio 15.2 against the target 10).
+    // Past [`SIGNED_MAX_UNIT`] (on the step's two halves: 4 per Pauli factor each) only the
+    // split's flip is tried, scored on one step: on the utility benchmark's 10⁵ strings the
+    // signed candidates and the two-step score took its compile from 8 s to 13.5 s (ratio
+    // 15.2 against the target 10).
     let unit: usize = terms.iter().map(|(p, _)| 8 * p.weight() as usize).sum();
-    let small = unit <= crate::route::EXTRAS_MAX_UNIT;
+    let small = unit <= SIGNED_MAX_UNIT;
     let greedy = if small {
         crate::synth::flip::signed_string(terms, n, control, None)
     } else {

@@ -63,7 +63,7 @@
 use super::swap::{insert_swaps, insert_swaps_cut, Adjacency, Mark, SwapOutcome, SwapParams};
 use super::TargetPlan;
 use crate::circuit::cancel::cancel_inverses;
-use crate::circuit::{Circuit, Gate};
+use crate::circuit::{Circuit, Gate, Qubit};
 use crate::device::Device;
 use crate::formula::{step, Order, Rotation};
 use crate::pauli::PauliString;
@@ -351,23 +351,26 @@ fn flipped(
         (None, Some(q)) => crate::synth::flip::Choice::Given(q),
         (None, None) => crate::synth::flip::Choice::Search,
     };
-    let parts = crate::synth::flip::flipped_step_parts(
-        terms,
-        &plan.group_sizes,
-        order,
-        dt,
-        crate::synth::flip::Writing {
-            order: plan.step_form.flip_order,
-            pairs: plan.step_form.pairs,
-            groups: plan.step_form.groups,
-        },
-        control,
-        &ladder,
-        distance
-            .as_ref()
-            .map(|f| f as &(dyn Fn(crate::circuit::Qubit, crate::circuit::Qubit) -> u32 + Sync)),
-        choice,
-    )?;
+    let build = |second: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>| {
+        crate::synth::flip::flipped_step_parts_tracked(
+            terms,
+            &plan.group_sizes,
+            order,
+            dt,
+            crate::synth::flip::Writing {
+                order: plan.step_form.flip_order,
+                pairs: plan.step_form.pairs,
+                groups: plan.step_form.groups,
+            },
+            control,
+            &ladder,
+            distance
+                .as_ref()
+                .map(|f| f as &(dyn Fn(Qubit, Qubit) -> u32 + Sync)),
+            choice,
+            second,
+        )
+    };
     let width = plan.initial_layout.len();
     let piece = |gates: Vec<Gate>| {
         let mut c = Circuit::new(width, 0);
@@ -377,6 +380,17 @@ fn flipped(
         }
         c
     };
+    let mut parts = build(None)?;
+    // On a device, the second controlled `Q` gathers its parity tree where the first half,
+    // routed from the initial layout, leaves the qubits (`flipped_step_parts_tracked`).
+    if let (Some(dev), Some(at), true) = (dev, parts.second_at, plan.step_form.flip_track) {
+        let before = piece(parts.middle[..at].to_vec());
+        let params = super::plan_swap_params(plan, &super::RouteConfig::default());
+        let moved = insert_swaps(&before, &plan.initial_layout, dev, &params);
+        let there = &moved.final_layout;
+        let second = |a: Qubit, b: Qubit| dev.distance(there[a as usize], there[b as usize]);
+        parts = build(Some(&second))?;
+    }
     let cut = !parts.lead.is_empty() && plan.group_sizes.first() == Some(&plan.edge_terms);
     if !cut {
         let mut gates = parts.lead;
