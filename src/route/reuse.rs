@@ -381,8 +381,12 @@ fn flipped(
         c
     };
     let mut parts = build(None)?;
-    // On a device, the second controlled `Q` gathers its parity tree where the first half,
-    // routed from the initial layout, leaves the qubits (`flipped_step_parts_tracked`).
+    // With `StepForm::flip_track` on a device, the second controlled `Q` gathers its parity
+    // tree where the first half, routed alone from the initial layout, leaves the qubits
+    // (`flipped_step_parts_tracked`). That routing uses the default router settings with the
+    // plan's hub, factor and run-ahead, so the step stays a function of the plan alone; the
+    // whole step's routing may end the half elsewhere (it looks past the cut), and the
+    // search keeps the tracked form only where it scores better.
     if let (Some(dev), Some(at), true) = (dev, parts.second_at, plan.step_form.flip_track) {
         let before = piece(parts.middle[..at].to_vec());
         let params = super::plan_swap_params(plan, &super::RouteConfig::default());

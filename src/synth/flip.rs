@@ -1127,6 +1127,34 @@ mod tests {
         (groups.concat(), groups.iter().map(|g| g.len()).collect())
     }
 
+    /// A random sum of 2–7 strings on 2–5 qubits from `seed`, as its formula's terms and
+    /// group sizes, with the generator for what the test draws next.
+    #[allow(clippy::type_complexity)]
+    fn seeded_sum(
+        seed: u64,
+    ) -> (
+        rand_chacha::ChaCha8Rng,
+        usize,
+        Vec<(PauliString, f64)>,
+        Vec<usize>,
+    ) {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let n = rng.gen_range(2..6usize);
+        let count = rng.gen_range(2..8);
+        let h = random_sum(&mut rng, n, count);
+        let (terms, sizes) = grouped(&h);
+        (rng, n, terms, sizes)
+    }
+
+    /// Unitary distance between two steps of `parts` and two copies of `reference`.
+    fn two_steps_from(parts: &FlippedParts, reference: &Circuit, n: usize) -> f64 {
+        let mut c = Circuit::new(n + 1, 0);
+        parts.steps_into(2, &mut c.gates);
+        let mut two = reference.clone();
+        two.extend(reference.gates.iter().copied());
+        unitary_distance(&two, &c)
+    }
+
     #[test]
     fn the_flipped_step_is_the_controlled_step() {
         // Random sums with an anticommuting string, Strang and Suzuki steps, the terms also
@@ -1219,11 +1247,7 @@ mod tests {
         use rand::seq::SliceRandom;
         let mut checked = 0;
         for seed in 0..80u64 {
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5000 + seed);
-            let n = rng.gen_range(2..6usize);
-            let count = rng.gen_range(2..8);
-            let h = random_sum(&mut rng, n, count);
-            let (terms, sizes) = grouped(&h);
+            let (mut rng, n, terms, sizes) = seeded_sum(5000 + seed);
             if terms.is_empty() {
                 continue;
             }
@@ -1283,11 +1307,7 @@ mod tests {
                         );
                     }
                     for parts in [&plain, &tracked] {
-                        let mut c = Circuit::new(n + 1, 0);
-                        parts.steps_into(2, &mut c.gates);
-                        let mut two = reference.clone();
-                        two.extend(reference.gates.iter().copied());
-                        let d = unitary_distance(&two, &c);
+                        let d = two_steps_from(parts, &reference, n);
                         assert!(d < 1e-12, "seed {seed} {order:?}: {d:e}");
                     }
                     checked += 1;
@@ -1306,11 +1326,7 @@ mod tests {
         use rand::seq::SliceRandom;
         let mut checked = 0;
         for seed in 0..120u64 {
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(1000 + seed);
-            let n = rng.gen_range(2..6usize);
-            let count = rng.gen_range(2..8);
-            let h = random_sum(&mut rng, n, count);
-            let (mut terms, sizes) = grouped(&h);
+            let (mut rng, n, mut terms, sizes) = seeded_sum(1000 + seed);
             if terms.is_empty() {
                 continue;
             }
@@ -1364,11 +1380,7 @@ mod tests {
                         assert!(parts.signed);
                         let kept = terms.iter().filter(|(p, _)| !anticommutes(q, p)).count();
                         assert_eq!(parts.controlled_terms, kept);
-                        let mut c = Circuit::new(n + 1, 0);
-                        parts.steps_into(2, &mut c.gates);
-                        let mut two = reference.clone();
-                        two.extend(reference.gates.iter().copied());
-                        let d = unitary_distance(&two, &c);
+                        let d = two_steps_from(&parts, &reference, n);
                         assert!(d < 1e-12, "seed {seed} {order:?} {q:?}: {d:e}");
                         checked += 1;
                     }
