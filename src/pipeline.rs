@@ -371,6 +371,7 @@ pub fn all_to_all_flip(
             &ladder,
             None,
             choice,
+            None,
         ) else {
             continue;
         };
@@ -2155,6 +2156,7 @@ mod tests {
             &crate::synth::default_ladder,
             None,
             crate::synth::flip::Choice::Search,
+            None,
         )
         .expect("the hopping flips");
         assert_eq!(split.controlled_terms, 5);

@@ -1319,12 +1319,11 @@ fn a_signed_step_brings_the_heisenberg_square_lattice_within_the_lattice_target(
 fn the_second_parity_tree_follows_the_routed_layout() {
     // A sign-flip step's first half moves qubits with SWAPs; with `RouteConfig::track` the
     // search also offers each flip form with its second controlled string's parity tree
-    // gathered where the routed first half leaves them (`synth::flip::
-    // flipped_step_parts_tracked`). The 3×3 Heisenberg model with fields on a line of 10:
-    // with tracking the kept campaign emits fewer two-qubit gates at k = 1 than without
-    // (measured when written: 271
-    // against 292), simulates exact to 1e-9 and is
-    // proved file by file (the tree changes the CNOTs, not the claimed operator).
+    // gathered where the routed first half leaves them (the `second` distance of
+    // `synth::flip::flipped_step_parts`). The 3×3 Heisenberg model with fields on a line of
+    // 10: with tracking the kept campaign emits fewer two-qubit gates at k = 1 than without
+    // (measured when written: 271 against 292), simulates exact to 1e-9 and is proved file by
+    // file (the tree changes the CNOTs, not the claimed operator).
     let h = lattice_model(3, 3, true);
     let dev = plain_device("line", 10, &lattice::line(10));
     let spec = controlled_overlap("010101010".to_string(), 0.2, 3);

@@ -505,7 +505,7 @@ pub struct StepForm {
     /// and every term that commutes with it riding on the ancilla's sign in the first half.
     pub flip_signed: bool,
     /// With `flip`: the second controlled string of each step gathers its parity tree where
-    /// the first half, routed, leaves the qubits (`synth::flip::flipped_step_parts_tracked`)
+    /// the first half, routed, leaves the qubits (`synth::flip::flipped_step_parts`)
     /// rather than under the initial layout.
     pub flip_track: bool,
 }

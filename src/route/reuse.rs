@@ -352,7 +352,7 @@ fn flipped(
         (None, None) => crate::synth::flip::Choice::Search,
     };
     let build = |second: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>| {
-        crate::synth::flip::flipped_step_parts_tracked(
+        crate::synth::flip::flipped_step_parts(
             terms,
             &plan.group_sizes,
             order,
@@ -383,7 +383,7 @@ fn flipped(
     let mut parts = build(None)?;
     // With `StepForm::flip_track` on a device, the second controlled `Q` gathers its parity
     // tree where the first half, routed alone from the initial layout, leaves the qubits
-    // (`flipped_step_parts_tracked`). That routing uses the default router settings with the
+    // (`flipped_step_parts`). That routing uses the default router settings with the
     // plan's hub, factor and run-ahead, so the step stays a function of the plan alone; the
     // whole step's routing may end the half elsewhere (it looks past the cut), and the
     // search keeps the tracked form only where it scores better.

@@ -427,26 +427,27 @@ pub fn parity_tree(
         .iter()
         .min_by_key(|&&q| (dist(q, control), q))
         .expect("a non-empty support");
-    let mut inside = vec![root];
-    let mut rest: Vec<Qubit> = support.iter().copied().filter(|&q| q != root).collect();
+    // Each waiting qubit keeps its nearest joined qubit as `(distance, parent)`, updated as
+    // qubits join: O(|support|²) distance calls in all (a 120-qubit string is gathered once
+    // per candidate of `nearest_flip_string`, 256 candidates per search).
+    let mut rest: Vec<(Qubit, (u32, Qubit))> = support
+        .iter()
+        .filter(|&&q| q != root)
+        .map(|&q| (q, (dist(q, root), root)))
+        .collect();
     let mut added: Vec<(Qubit, Qubit)> = Vec::with_capacity(rest.len());
     while !rest.is_empty() {
-        let (k, parent) = rest
-            .iter()
-            .enumerate()
-            .map(|(k, &q)| {
-                let parent = *inside
-                    .iter()
-                    .min_by_key(|&&p| (dist(q, p), p))
-                    .expect("the root is inside");
-                (k, parent, dist(q, parent), q)
-            })
-            .min_by_key(|&(_, _, d, q)| (d, q))
-            .map(|(k, parent, _, _)| (k, parent))
+        let k = (0..rest.len())
+            .min_by_key(|&k| (rest[k].1 .0, rest[k].0))
             .expect("non-empty");
-        let q = rest.remove(k);
-        inside.push(q);
+        let (q, (_, parent)) = rest.remove(k);
         added.push((q, parent));
+        for (w, near) in rest.iter_mut() {
+            let d = dist(*w, q);
+            if (d, q) < *near {
+                *near = (d, q);
+            }
+        }
     }
     // A qubit joins after its parent, so the reversed joining order lists children first.
     added.reverse();
@@ -655,7 +656,7 @@ pub struct FlippedParts {
     pub mirrored: Vec<Gate>,
     /// In a step flipped as one palindrome (no controlled groups, a non-empty `Q`): where in
     /// `middle` the second controlled `Q` begins, so that a router can tell where the qubits
-    /// stand when it runs ([`flipped_step_parts_tracked`]); else `None`.
+    /// stand when it runs ([`flipped_step_parts`]); else `None`.
     pub second_at: Option<usize>,
 }
 
@@ -718,6 +719,7 @@ pub fn flipped_step(
         ladder,
         distance,
         Choice::Search,
+        None,
     )?;
     let mut out = Vec::new();
     p.steps_into(1, &mut out);
@@ -736,34 +738,9 @@ pub fn flipped_step(
 /// so merging them is exact). The XXZ chain's step (`ZZ` in the first group, the hopping
 /// pairs after it) flips so through `Q = Z` on every other site, though no string
 /// anticommutes with all its terms.
-#[allow(clippy::too_many_arguments)]
-pub fn flipped_step_parts(
-    terms: &[(PauliString, f64)],
-    group_sizes: &[usize],
-    order: Order,
-    dt: f64,
-    writing: Writing,
-    control: Qubit,
-    ladder: &(dyn Fn(&Rotation) -> Vec<Qubit> + Sync),
-    distance: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>,
-    choice: Choice<'_>,
-) -> Option<FlippedParts> {
-    flipped_step_parts_tracked(
-        terms,
-        group_sizes,
-        order,
-        dt,
-        writing,
-        control,
-        ladder,
-        distance,
-        choice,
-        None,
-    )
-}
-
-/// [`flipped_step_parts`] whose second controlled `Q` (in a step flipped as one palindrome)
-/// gathers its parity tree under `second` instead of `distance`: the hop distance where the
+///
+/// With `second`, the second controlled `Q` (in a step flipped as one palindrome) gathers
+/// its parity tree under `second` instead of `distance`: the hop distance where the
 /// qubits stand after the first half has been routed. The string is chosen under `distance`
 /// as before; the tree changes only which CNOTs compute the parity, not the operator.
 ///
@@ -774,7 +751,7 @@ pub fn flipped_step_parts(
 /// like the uncontrolled step's. This is the parity-tree-on-the-coupling-graph idea
 /// (Kissinger & Meijer-van de Griend 2020) applied where the layout has moved.
 #[allow(clippy::too_many_arguments)]
-pub fn flipped_step_parts_tracked(
+pub fn flipped_step_parts(
     terms: &[(PauliString, f64)],
     group_sizes: &[usize],
     order: Order,
@@ -993,6 +970,74 @@ mod tests {
     use crate::formula::{step, Order};
     use crate::sim::unitary_distance;
     use rand::{Rng, SeedableRng};
+
+    #[test]
+    fn the_parity_tree_is_a_minimum_spanning_tree_listed_children_first() {
+        // Reference: Kruskal's minimum spanning tree from petgraph
+        // (`petgraph::algo::min_spanning_tree`, a general-purpose graph library): every
+        // minimum spanning tree of a graph has the same total weight (Cormen, Leiserson,
+        // Rivest & Stein, "Introduction to Algorithms", 3rd ed. 2009, §23.1), so the parity
+        // tree's summed hop distance must equal Kruskal's. Random supports of 1–40 qubits out of
+        // 64, random symmetric distances 1–9 (many ties, so the tie rules are exercised too).
+        use petgraph::algo::min_spanning_tree;
+        use petgraph::data::FromElements;
+        use petgraph::graph::UnGraph;
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(77);
+        for case in 0..200 {
+            let len = rng.gen_range(1..=40usize);
+            let mut support: Vec<Qubit> = Vec::new();
+            while support.len() < len {
+                let q = rng.gen_range(0..64);
+                if !support.contains(&q) {
+                    support.push(q);
+                }
+            }
+            let control: Qubit = 64;
+            let table: Vec<Vec<u32>> = {
+                let mut t = vec![vec![0u32; 65]; 65];
+                for a in 0..65 {
+                    for b in a + 1..65 {
+                        let d = rng.gen_range(1..=9);
+                        t[a][b] = d;
+                        t[b][a] = d;
+                    }
+                }
+                t
+            };
+            let dist = |a: Qubit, b: Qubit| table[a as usize][b as usize];
+            let (tree, root) = parity_tree(&support, control, Some(&dist));
+            // The root is the support qubit nearest the control (ties to the lower qubit).
+            let nearest = support
+                .iter()
+                .map(|&q| (dist(q, control), q))
+                .min()
+                .unwrap();
+            assert_eq!(root, nearest.1, "case {case}");
+            // Spanning, children first: each child appears once, after its own children and
+            // before its parent is used as a child; every edge ends at the root's component.
+            assert_eq!(tree.len(), support.len() - 1, "case {case}");
+            let mut done: Vec<Qubit> = Vec::new();
+            for &(c, p) in &tree {
+                assert!(support.contains(&c) && support.contains(&p) && c != root);
+                assert!(
+                    !done.contains(&c) && !done.contains(&p),
+                    "case {case}: order"
+                );
+                done.push(c);
+            }
+            let weight: u32 = tree.iter().map(|&(c, p)| dist(c, p)).sum();
+            let mut g = UnGraph::<Qubit, u32>::new_undirected();
+            let nodes: Vec<_> = support.iter().map(|&q| g.add_node(q)).collect();
+            for i in 0..nodes.len() {
+                for j in i + 1..nodes.len() {
+                    g.add_edge(nodes[i], nodes[j], dist(support[i], support[j]));
+                }
+            }
+            let mst = UnGraph::<Qubit, u32>::from_elements(min_spanning_tree(&g));
+            let kruskal: u32 = mst.edge_weights().sum();
+            assert_eq!(weight, kruskal, "case {case}: support {support:?}");
+        }
+    }
 
     fn string(text: &str) -> PauliString {
         PauliString::parse_factor_text(text).unwrap()
@@ -1260,7 +1305,7 @@ mod tests {
                 let reference = controlled_reference(&step(&terms, order, 0.29), n);
                 for choice in [Choice::Search, Choice::Signed(&greedy)] {
                     let build = |second: Option<&(dyn Fn(Qubit, Qubit) -> u32 + Sync)>| {
-                        flipped_step_parts_tracked(
+                        flipped_step_parts(
                             &terms,
                             &sizes,
                             order,
@@ -1375,6 +1420,7 @@ mod tests {
                             &crate::synth::default_ladder,
                             Some(&line),
                             Choice::Signed(q),
+                            None,
                         )
                         .expect("every symmetric step signs");
                         assert!(parts.signed);
@@ -1433,6 +1479,7 @@ mod tests {
                 &crate::synth::default_ladder,
                 None,
                 Choice::Signed(q),
+                None,
             )
             .expect("signs")
         };
@@ -1594,6 +1641,7 @@ mod tests {
             ladder,
             None,
             Choice::Search,
+            None,
         );
         let parts = parts.expect("Strang flips");
         let meets = |gates: &[Gate]| gates.iter().filter(|g| g.qubits().contains(&6)).count();

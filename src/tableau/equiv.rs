@@ -463,6 +463,7 @@ impl Claim {
                         } else {
                             crate::synth::flip::Choice::Given(q)
                         },
+                        None,
                     )
                 })
                 .filter(|p| p.controlled_terms == self.flip_controlled)
