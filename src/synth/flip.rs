@@ -993,18 +993,14 @@ mod tests {
                 }
             }
             let control: Qubit = 64;
-            let table: Vec<Vec<u32>> = {
-                let mut t = vec![vec![0u32; 65]; 65];
-                for a in 0..65 {
-                    for b in a + 1..65 {
-                        let d = rng.gen_range(1..=9);
-                        t[a][b] = d;
-                        t[b][a] = d;
-                    }
-                }
-                t
+            // Symmetric: the distance of a pair is drawn once, for its lower-first order.
+            let draws: Vec<u32> = (0..65 * 65).map(|_| rng.gen_range(1..=9)).collect();
+            let table = |a: usize, b: usize| match a.cmp(&b) {
+                std::cmp::Ordering::Equal => 0,
+                std::cmp::Ordering::Less => draws[a * 65 + b],
+                std::cmp::Ordering::Greater => draws[b * 65 + a],
             };
-            let dist = |a: Qubit, b: Qubit| table[a as usize][b as usize];
+            let dist = |a: Qubit, b: Qubit| table(a as usize, b as usize);
             let (tree, root) = parity_tree(&support, control, Some(&dist));
             // The root is the support qubit nearest the control (ties to the lower qubit).
             let nearest = support
